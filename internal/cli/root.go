@@ -1,0 +1,101 @@
+// Package cli is cairn's command line: cobra commands, one file per command
+// group, each parsing its flags into an options struct and handing the work
+// to a run function; rendering as table, json or csv.
+package cli
+
+import (
+	"context"
+	"errors"
+	"fmt"
+	"os"
+	"os/signal"
+	"strings"
+	"syscall"
+
+	"github.com/spf13/cobra"
+)
+
+// Version is set at build time with -ldflags "-X cairn/internal/cli.Version=...".
+var Version = "0.1.0-dev"
+
+// Main runs cairn with the given arguments and returns the exit status.
+func Main(args []string) int {
+	ios := SystemStreams()
+	f := NewFactory(ios, Version)
+	defer f.Close()
+	ctx, stop := signal.NotifyContext(context.Background(), os.Interrupt, syscall.SIGTERM)
+	defer stop()
+	err := Execute(ctx, f, args)
+	if err != nil && !errors.As(err, new(checksFailed)) {
+		fmt.Fprintln(ios.ErrOut, "cairn: "+err.Error())
+	}
+	return exitCode(err)
+}
+
+// Execute runs the root command over f with args; tests call it directly.
+func Execute(ctx context.Context, f *Factory, args []string) error {
+	root := NewRootCmd(f)
+	root.SetArgs(args)
+	root.SetIn(f.IO.In)
+	root.SetOut(f.IO.Out)
+	root.SetErr(f.IO.ErrOut)
+	err := root.ExecuteContext(ctx)
+	if err != nil && strings.HasPrefix(err.Error(), "unknown command") {
+		return flagError{err}
+	}
+	return err
+}
+
+// NewRootCmd builds the `cairn` command and all its subcommands.
+func NewRootCmd(f *Factory) *cobra.Command {
+	root := &cobra.Command{
+		Use:   "cairn",
+		Short: "A register of benchmarks, level circuits and published heights",
+		Long: `cairn keeps the register of a survey office's vertical control: the
+benchmarks in the ground, the condition reports on them, every level circuit
+run over them with its field book kept word for word, the adjustments made
+from those circuits, and every height ever published, with its reason and
+its origin. Nothing published is ever overwritten: a new height is a new
+version, and any past answer can be asked for again.
+
+The register lives in PostgreSQL. Name a server with --db or
+CAIRN_DATABASE_URL (or the usual PG* variables); with none named, cairn runs
+a private PostgreSQL of its own under your data folder.
+
+Heights from cairn are used to build drains, roads and floor levels. Every
+result needs review by a licensed surveyor before use; check into two marks,
+verify a mark's condition in the field before relying on it, and follow the
+codes and regulations that govern your work.`,
+		Version:       f.Version,
+		SilenceErrors: true,
+		SilenceUsage:  true,
+	}
+	root.PersistentFlags().StringVar(&f.DatabaseURL, "db", "", "PostgreSQL connection URL of the register (default: $CAIRN_DATABASE_URL, PG* variables, or the embedded default)")
+	root.SetFlagErrorFunc(func(c *cobra.Command, err error) error {
+		return flagError{fmt.Errorf("%w (see 'cairn %s --help')", err, strings.TrimPrefix(c.CommandPath(), "cairn "))}
+	})
+	root.AddCommand(
+	// Command groups register here, one line each.
+	)
+	return root
+}
+
+// exactArgs is cobra.ExactArgs with a bad-input exit status.
+func exactArgs(n int, names string) cobra.PositionalArgs {
+	return func(cmd *cobra.Command, args []string) error {
+		if len(args) != n {
+			return badInput("%s wants %s (got %d argument(s))", cmd.CommandPath(), names, len(args))
+		}
+		return nil
+	}
+}
+
+// minArgs is cobra.MinimumNArgs with a bad-input exit status.
+func minArgs(n int, names string) cobra.PositionalArgs {
+	return func(cmd *cobra.Command, args []string) error {
+		if len(args) < n {
+			return badInput("%s wants %s", cmd.CommandPath(), names)
+		}
+		return nil
+	}
+}

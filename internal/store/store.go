@@ -1,0 +1,91 @@
+// Package store is the only package that speaks SQL: the pgx pool, the
+// queries of the register, and the goose migration runner.
+package store
+
+import (
+	"context"
+	"database/sql"
+	"fmt"
+
+	"github.com/jackc/pgx/v5/pgxpool"
+	"github.com/jackc/pgx/v5/stdlib"
+	"github.com/pressly/goose/v3"
+	"github.com/pressly/goose/v3/lock"
+
+	"cairn/migrations"
+)
+
+// Open connects a pool to url ("" uses libpq defaults and PG* variables) and
+// checks that the server answers.
+func Open(ctx context.Context, url string) (*pgxpool.Pool, error) {
+	cfg, err := pgxpool.ParseConfig(url)
+	if err != nil {
+		return nil, fmt.Errorf("parse database URL: %w", err)
+	}
+	pool, err := pgxpool.NewWithConfig(ctx, cfg)
+	if err != nil {
+		return nil, err
+	}
+	if err := pool.Ping(ctx); err != nil {
+		pool.Close()
+		return nil, fmt.Errorf("connect to %s: %w", describe(cfg), err)
+	}
+	return pool, nil
+}
+
+func describe(cfg *pgxpool.Config) string {
+	c := cfg.ConnConfig
+	return fmt.Sprintf("database %q on %s port %d", c.Database, c.Host, c.Port)
+}
+
+// provider builds a goose provider over the embedded migrations, with a
+// session lock so concurrent migrators take turns.
+func provider(db *sql.DB) (*goose.Provider, error) {
+	locker, err := lock.NewPostgresSessionLocker()
+	if err != nil {
+		return nil, err
+	}
+	return goose.NewProvider(goose.DialectPostgres, db, migrations.FS, goose.WithSessionLocker(locker))
+}
+
+// Migrate applies every pending migration.
+func Migrate(ctx context.Context, pool *pgxpool.Pool) error {
+	db := stdlib.OpenDBFromPool(pool)
+	defer db.Close()
+	p, err := provider(db)
+	if err != nil {
+		return err
+	}
+	_, err = p.Up(ctx)
+	return err
+}
+
+// MigrateDown rolls back every migration (used by the migration test).
+func MigrateDown(ctx context.Context, pool *pgxpool.Pool) error {
+	db := stdlib.OpenDBFromPool(pool)
+	defer db.Close()
+	p, err := provider(db)
+	if err != nil {
+		return err
+	}
+	_, err = p.DownTo(ctx, 0)
+	return err
+}
+
+// SchemaVersion returns the applied schema version and the newest known.
+func SchemaVersion(ctx context.Context, pool *pgxpool.Pool) (current, latest int64, err error) {
+	db := stdlib.OpenDBFromPool(pool)
+	defer db.Close()
+	p, err := provider(db)
+	if err != nil {
+		return 0, 0, err
+	}
+	if current, err = p.GetDBVersion(ctx); err != nil {
+		return 0, 0, err
+	}
+	srcs := p.ListSources()
+	if len(srcs) > 0 {
+		latest = srcs[len(srcs)-1].Version
+	}
+	return current, latest, nil
+}

@@ -1,0 +1,173 @@
+// Package units converts lengths between the metre, the international foot
+// and the US survey foot, with the exact definitions, and rounds values for
+// publication.
+//
+// Sources:
+//
+//	international foot = 0.3048 m exactly
+//	US survey foot     = 1200/3937 m exactly
+//
+// Federal Register Vol. 85 No. 193, 5 October 2020, pp. 62698-62708,
+// "Deprecation of the United States (U.S.) Survey Foot" (NIST, NOAA/NGS).
+package units
+
+import (
+	"fmt"
+	"math"
+	"math/big"
+	"strings"
+)
+
+// Unit is a unit of length in which heights and readings are written.
+type Unit string
+
+// The units cairn knows.
+const (
+	Metre        Unit = "m"
+	Foot         Unit = "ft"   // international foot, 0.3048 m
+	USSurveyFoot Unit = "usft" // US survey foot, 1200/3937 m
+)
+
+// All lists the units in a stable order, for help texts and errors.
+var All = []Unit{Metre, Foot, USSurveyFoot}
+
+// Parse reads a unit code. It accepts the canonical codes and a few common
+// spellings ("metre", "meter", "foot", "us-ft", "ussft"), case-insensitively.
+func Parse(s string) (Unit, error) {
+	switch strings.ToLower(strings.TrimSpace(s)) {
+	case "m", "metre", "metres", "meter", "meters":
+		return Metre, nil
+	case "ft", "foot", "feet", "ift", "intl-ft":
+		return Foot, nil
+	case "usft", "us-ft", "ussft", "survey-ft", "us survey foot":
+		return USSurveyFoot, nil
+	}
+	return "", fmt.Errorf("unknown unit %q (want m, ft or usft)", s)
+}
+
+// String returns the canonical code.
+func (u Unit) String() string { return string(u) }
+
+// Name returns the unit's name in words.
+func (u Unit) Name() string {
+	switch u {
+	case Metre:
+		return "metre"
+	case Foot:
+		return "international foot"
+	case USSurveyFoot:
+		return "US survey foot"
+	}
+	return string(u)
+}
+
+// ratio returns the exact length of one unit in metres as a fraction.
+func (u Unit) ratio() *big.Rat {
+	switch u {
+	case Metre:
+		return big.NewRat(1, 1)
+	case Foot:
+		return big.NewRat(3048, 10000)
+	case USSurveyFoot:
+		return big.NewRat(1200, 3937)
+	}
+	panic("units: unknown unit " + string(u))
+}
+
+// Metres returns the length of one unit in metres, as the nearest float64.
+func (u Unit) Metres() float64 {
+	f, _ := u.ratio().Float64()
+	return f
+}
+
+// ToMetres converts v in unit u to metres.
+func (u Unit) ToMetres(v float64) float64 {
+	switch u {
+	case Metre:
+		return v
+	case Foot:
+		return v * 0.3048
+	case USSurveyFoot:
+		return v * 1200 / 3937
+	}
+	panic("units: unknown unit " + string(u))
+}
+
+// FromMetres converts v metres to unit u.
+func (u Unit) FromMetres(v float64) float64 {
+	switch u {
+	case Metre:
+		return v
+	case Foot:
+		return v / 0.3048
+	case USSurveyFoot:
+		return v * 3937 / 1200
+	}
+	panic("units: unknown unit " + string(u))
+}
+
+// DefaultDecimals is the number of decimals a height in unit u is usually
+// published to: 0.001 m or 0.01 ft (common practice).
+func (u Unit) DefaultDecimals() int {
+	if u == Metre {
+		return 3
+	}
+	return 2
+}
+
+// ConvertExact converts a decimal string value from unit from to unit to with
+// exact rational arithmetic and returns it rounded half away from zero to
+// decimals places, as a decimal string.
+func ConvertExact(value string, from, to Unit, decimals int) (string, error) {
+	r, ok := new(big.Rat).SetString(strings.TrimSpace(value))
+	if !ok {
+		return "", fmt.Errorf("not a number: %q", value)
+	}
+	r.Mul(r, from.ratio())
+	r.Quo(r, to.ratio())
+	return RoundRat(r, decimals), nil
+}
+
+// RoundRat formats r rounded half away from zero to decimals places.
+func RoundRat(r *big.Rat, decimals int) string {
+	scale := new(big.Int).Exp(big.NewInt(10), big.NewInt(int64(decimals)), nil)
+	num := new(big.Int).Mul(r.Num(), scale)
+	den := r.Denom()
+	q, m := new(big.Int).QuoRem(num, den, new(big.Int))
+	// Half away from zero: compare 2|m| with den.
+	m.Abs(m).Lsh(m, 1)
+	if m.Cmp(den) >= 0 {
+		if num.Sign() < 0 {
+			q.Sub(q, big.NewInt(1))
+		} else {
+			q.Add(q, big.NewInt(1))
+		}
+	}
+	neg := q.Sign() < 0
+	s := new(big.Int).Abs(q).String()
+	if decimals > 0 {
+		if len(s) <= decimals {
+			s = strings.Repeat("0", decimals-len(s)+1) + s
+		}
+		s = s[:len(s)-decimals] + "." + s[len(s)-decimals:]
+	}
+	if neg {
+		s = "-" + s
+	}
+	return s
+}
+
+// Round rounds v half away from zero to decimals places.
+func Round(v float64, decimals int) float64 {
+	p := math.Pow(10, float64(decimals))
+	return math.Round(v*p) / p
+}
+
+// Format writes v with exactly decimals places, never "-0.000".
+func Format(v float64, decimals int) string {
+	s := fmt.Sprintf("%.*f", decimals, Round(v, decimals))
+	if strings.Trim(s, "-0.") == "" {
+		s = strings.TrimPrefix(s, "-")
+	}
+	return s
+}
