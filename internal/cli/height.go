@@ -17,7 +17,7 @@ func newCmdHeight(f *Factory) *cobra.Command {
 		Use:   "height",
 		Short: "Published heights of benchmarks: record and look up",
 	}
-	cmd.AddCommand(newCmdHeightSet(f, nil), newCmdHeightShow(f, nil))
+	cmd.AddCommand(newCmdHeightSet(f, nil), newCmdHeightShow(f, nil), newCmdHeightList(f))
 	return cmd
 }
 
@@ -248,6 +248,44 @@ func heightShowRun(cmd *cobra.Command, opts *heightShowOptions) error {
 		}
 		return t
 	})
+}
+
+func newCmdHeightList(f *Factory) *cobra.Command {
+	var format Format
+	var datum string
+	cmd := &cobra.Command{
+		Use:   "list [--datum CODE]",
+		Short: "List the current height of every benchmark",
+		Args:  exactArgs(0, "no arguments"),
+		RunE: func(cmd *cobra.Command, args []string) error {
+			r, err := openRegister(cmd.Context(), f)
+			if err != nil {
+				return err
+			}
+			hs, err := r.HeightsCurrent(cmd.Context(), datum)
+			if err != nil {
+				return err
+			}
+			out := []heightJSON{}
+			for _, h := range hs {
+				out = append(out, toHeightJSON(h, ""))
+			}
+			return render(f.IO, format, out, func() Table {
+				t := Table{Headers: []string{"MARK", "DATUM", "VERSION", "HEIGHT", "UNIT", "CLASS", "SOURCE"}}
+				for _, h := range out {
+					val := deref(h.Value)
+					if h.Value == nil {
+						val = "withdrawn"
+					}
+					t.AddRow(h.Mark, h.Datum, strconv.Itoa(h.Version), val, deref(h.Unit), h.Class, h.Source)
+				}
+				return t
+			})
+		},
+	}
+	addOutputFlag(cmd, &format)
+	cmd.Flags().StringVar(&datum, "datum", "", "only this datum")
+	return cmd
 }
 
 func newCmdHistory(f *Factory) *cobra.Command {

@@ -81,6 +81,7 @@ codes and regulations that govern your work.`,
 		newCmdHeight(f),
 		newCmdHistory(f),
 		newCmdAudit(f),
+		newCmdDemo(f),
 	)
 	return root
 }

@@ -188,9 +188,18 @@ func (r *Register) HeightShow(ctx context.Context, p HeightShowParams) (MarkView
 	return v, err
 }
 
-// HeightsCurrent returns the current version of every mark on every datum.
-func (r *Register) HeightsCurrent(ctx context.Context) ([]store.Height, error) {
-	return store.HeightCurrentAll(ctx, r.pool)
+// HeightsCurrent returns the current version of every mark on datum (""
+// for every datum), by designation and datum code.
+func (r *Register) HeightsCurrent(ctx context.Context, datum string) ([]store.Height, error) {
+	var id int64
+	if datum != "" {
+		d, err := r.datum(ctx, r.pool, "datum", datum)
+		if err != nil {
+			return nil, err
+		}
+		id = d.ID
+	}
+	return store.HeightCurrentAll(ctx, r.pool, id)
 }
 
 // HistoryEntry is one version with its change from the version before.

@@ -125,11 +125,12 @@ func HeightAsOf(ctx context.Context, db DBTX, p HeightAsOfParams) ([]Height, err
 		ORDER BY h.datum_id, h.recorded_at DESC) v ORDER BY v.code`, p.MarkID, p.DatumID, p.AsOf)
 }
 
-// HeightCurrentAll returns the current version of every mark on every
-// datum, by designation and datum code.
-func HeightCurrentAll(ctx context.Context, db DBTX) ([]Height, error) {
+// HeightCurrentAll returns the current version of every mark on datumID
+// (0: every datum), by designation and datum code.
+func HeightCurrentAll(ctx context.Context, db DBTX, datumID int64) ([]Height, error) {
 	return heightQuery(ctx, db, "SELECT "+heightColumns+heightFrom+
-		" WHERE NOT EXISTS (SELECT 1 FROM height s WHERE s.supersedes = h.id) ORDER BY m.designation, d.code")
+		` WHERE NOT EXISTS (SELECT 1 FROM height s WHERE s.supersedes = h.id) AND ($1::bigint = 0 OR h.datum_id = $1)
+		ORDER BY m.designation, d.code`, datumID)
 }
 
 // HeightHistoryParams names the versions to list.
