@@ -9,6 +9,7 @@ import (
 	"context"
 	"errors"
 	"fmt"
+	"slices"
 	"sort"
 	"strings"
 
@@ -145,9 +146,20 @@ func didYouMean(s string, cands []string) string {
 		s string
 		d int
 	}
+	sorted := func(x string) string {
+		r := []rune(x)
+		slices.Sort(r)
+		return string(r)
+	}
 	var near []scored
 	for _, c := range cands {
 		if d := editDistance(k, key(c)); d <= limit {
+			// Between equals, the same characters in another order (two
+			// digits swapped) come first.
+			d *= 2
+			if sorted(key(c)) != sorted(k) {
+				d++
+			}
 			near = append(near, scored{c, d})
 		}
 	}
@@ -162,24 +174,30 @@ func didYouMean(s string, cands []string) string {
 	return " (did you mean " + strings.Join(names, " or ") + "?)"
 }
 
-// editDistance is the Levenshtein distance between a and b.
+// editDistance is the optimal string alignment distance between a and b:
+// insertions, deletions, substitutions and transpositions of neighbours
+// (TC-0421 for TC-0412) each count one.
 func editDistance(a, b string) int {
 	ra, rb := []rune(a), []rune(b)
-	prev := make([]int, len(rb)+1)
-	cur := make([]int, len(rb)+1)
-	for j := range prev {
-		prev[j] = j
+	d := make([][]int, len(ra)+1)
+	for i := range d {
+		d[i] = make([]int, len(rb)+1)
+		d[i][0] = i
+	}
+	for j := range d[0] {
+		d[0][j] = j
 	}
 	for i := 1; i <= len(ra); i++ {
-		cur[0] = i
 		for j := 1; j <= len(rb); j++ {
 			cost := 1
 			if ra[i-1] == rb[j-1] {
 				cost = 0
 			}
-			cur[j] = min(prev[j]+1, cur[j-1]+1, prev[j-1]+cost)
+			d[i][j] = min(d[i-1][j]+1, d[i][j-1]+1, d[i-1][j-1]+cost)
+			if i > 1 && j > 1 && ra[i-1] == rb[j-2] && ra[i-2] == rb[j-1] {
+				d[i][j] = min(d[i][j], d[i-2][j-2]+1)
+			}
 		}
-		prev, cur = cur, prev
 	}
-	return prev[len(rb)]
+	return d[len(ra)][len(rb)]
 }

@@ -138,6 +138,26 @@ const haversineSQL = `2 * 6371008.8 * asin(least(1, sqrt(
 // MarkList lists marks with their latest condition: by designation, or by
 // distance for a near search.
 func MarkList(ctx context.Context, db DBTX, p MarkListParams) ([]Mark, error) {
+	q, args := markListSQL(p)
+	rows, err := db.Query(ctx, q, args...)
+	if err != nil {
+		return nil, translate(err)
+	}
+	return collect(rows, func(r pgx.Row) (Mark, error) {
+		if p.Near == nil {
+			return scanMark(r)
+		}
+		var d float64
+		m, err := scanMark(r, &d)
+		m.DistanceM = &d
+		return m, err
+	})
+}
+
+// markListSQL builds MarkList's query. A near search keeps the marks in
+// the bounding boxes (answered by the GiST index mark_position), then the
+// exact haversine distance decides and sorts.
+func markListSQL(p MarkListParams) (string, []any) {
 	var where []string
 	var args []any
 	q := "SELECT " + markColumns
@@ -158,26 +178,10 @@ func MarkList(ctx context.Context, db DBTX, p MarkListParams) ([]Mark, error) {
 	if len(where) > 0 {
 		q += " WHERE " + strings.Join(where, " AND ")
 	}
-	var rows pgx.Rows
-	var err error
 	if p.Near != nil {
-		q += ") near WHERE distance_m <= $3 ORDER BY distance_m, designation"
-		rows, err = db.Query(ctx, q, args...)
-	} else {
-		rows, err = db.Query(ctx, q+" ORDER BY m.designation", args...)
+		return q + ") near WHERE distance_m <= $3 ORDER BY distance_m, designation", args
 	}
-	if err != nil {
-		return nil, translate(err)
-	}
-	return collect(rows, func(r pgx.Row) (Mark, error) {
-		if p.Near == nil {
-			return scanMark(r)
-		}
-		var d float64
-		m, err := scanMark(r, &d)
-		m.DistanceM = &d
-		return m, err
-	})
+	return q + " ORDER BY m.designation", args
 }
 
 // boundingBoxes returns boxes (lon1, lat1, lon2, lat2, in degrees) that
