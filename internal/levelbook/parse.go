@@ -425,11 +425,19 @@ func (p *parser) parseRow(line int, rec []string, cols map[string]int) (Sighting
 	return s, nil
 }
 
-// parseNumber reads a finite decimal number.
+// maxMagnitude bounds every number of a book: no rod reading, sight length,
+// stadia factor or constant comes near it, and sums of such numbers stay
+// far from overflow.
+const maxMagnitude = 1e5
+
+// parseNumber reads a finite decimal number of at most maxMagnitude.
 func parseNumber(s string) (float64, error) {
 	v, err := strconv.ParseFloat(s, 64)
-	if err != nil || math.IsNaN(v) || math.IsInf(v, 0) || strings.ContainsAny(s, "xXpP_") || strings.HasPrefix(strings.TrimLeft(s, "+-"), "0x") {
+	if err != nil || math.IsNaN(v) || math.IsInf(v, 0) || strings.ContainsAny(s, "xXpP_") {
 		return 0, fmt.Errorf("not a number %q", s)
+	}
+	if math.Abs(v) > maxMagnitude {
+		return 0, fmt.Errorf("out of range %q (more than %g)", s, maxMagnitude)
 	}
 	return v, nil
 }

@@ -55,6 +55,12 @@ func Reduce(book *levelbook.Book, opts Options) (*Result, error) {
 		Reading:             m.Reading,
 		CurvatureRefraction: opts.CurvatureRefraction,
 		Book:                book,
+		Rows:                []Row{},
+		Setups:              []Setup{},
+		Sections:            []Section{},
+		Misclosures:         []Misclosure{},
+		Checks:              []Check{},
+		Failures:            []Failure{},
 	}
 	if opts.Class != "" {
 		r.Class = opts.Class
@@ -321,7 +327,10 @@ func (r *Result) check() {
 
 	// Three-wire consistency, every class (EN0593 §4).
 	c := checks[CheckThreeWire]
-	c.Tolerance = "half-intervals agree within " + f(standards.ThreeWireM)
+	c.Tolerance = "half-intervals agree within 0.003 m"
+	if u != units.Metre {
+		c.Tolerance += " (" + units.Format(u.FromMetres(standards.ThreeWireM), 4) + " " + string(u) + ")"
+	}
 	c.Source = standards.ThreeWireSource
 	for _, s := range r.Book.Sightings {
 		if !s.ThreeWire {
@@ -332,7 +341,7 @@ func (r *Result) check() {
 		if d > standards.ThreeWireM+eps {
 			fail(CheckThreeWire, s.Line, s.Point, d, standards.ThreeWireM,
 				"half-intervals %s and %s differ by %s (limit %s): reobserve",
-				units.Format(s.Upper-s.Middle, dec), units.Format(s.Middle-s.Lower, dec), f(d), f(standards.ThreeWireM))
+				units.Format(s.Upper-s.Middle, dec), units.Format(s.Middle-s.Lower, dec), f(d), c.Tolerance[len("half-intervals agree within "):])
 		}
 	}
 	if c.Checked == 0 {
