@@ -374,3 +374,26 @@ func TestDecimals(t *testing.T) {
 		t.Error("decimals")
 	}
 }
+
+// Mahun, "Elevations", ch. G (read): wires 4.31 / 4.16 / 4.02 ft, mean
+// 4.163 ft, 29 ft. Derived: its half-intervals 0.15 and 0.14 ft differ by
+// 0.01 ft = 3.048 mm, just over the 3 mm of EN0593 §4, so the three-wire
+// check flags it; 4.31 / 4.165 / 4.02 passes.
+func TestMahunThreeWireCheck(t *testing.T) {
+	r := reduce(t, parse(t, "# units: ft\npoint,sight,upper,middle,lower\nBM1,BS,4.31,4.16,4.02\nBM2,FS,4.31,4.165,4.02\nBM2,BS,4.31,4.165,4.02\nBM1,FS,4.31,4.16,4.02\n"), Options{})
+	if math.Abs(r.Rows[0].ReadingM/0.3048-4.163) > 0.0005 || math.Abs(r.Rows[0].DistanceM/0.3048-29) > 1e-9 {
+		t.Errorf("reading %.4f ft, distance %.4f ft; want 4.163 and 29 (Mahun)", r.Rows[0].ReadingM/0.3048, r.Rows[0].DistanceM/0.3048)
+	}
+	var lines []int
+	for _, f := range r.Failures {
+		if f.Kind == CheckThreeWire {
+			lines = append(lines, f.Line)
+			if math.Abs(f.ValueM-0.003048) > 1e-9 {
+				t.Errorf("three-wire value %v m, want 0.003048 m", f.ValueM)
+			}
+		}
+	}
+	if fmt.Sprint(lines) != "[3 6]" {
+		t.Errorf("three-wire failures on lines %v, want [3 6]", lines)
+	}
+}
