@@ -63,6 +63,8 @@ type Book struct {
 	Columns []string `json:"columns"`
 	// Sightings are the rows of the book in field order.
 	Sightings []Sighting `json:"sightings"`
+
+	turningPoints []string // compiled Meta.TurningPoints
 }
 
 // Meta is the description of a run from the `# key: value` comments before

@@ -77,6 +77,7 @@ func (p *parser) parse(data []byte) error {
 		return err
 	}
 
+	p.book.Sightings = make([]Sighting, 0, bytes.Count(data, []byte("\n"))+1)
 	r := csv.NewReader(bytes.NewReader(data))
 	r.Comment = '#'
 	r.FieldsPerRecord = -1
@@ -170,6 +171,7 @@ func (p *parser) parseMeta(data []byte) error {
 		return p.errorf(m.Lines["turning-points"], "turning-points", "%v", err)
 	}
 	p.tp = pats
+	p.book.turningPoints = pats
 	return nil
 }
 
@@ -269,11 +271,14 @@ func compilePatterns(list string) ([]string, error) {
 // IsTurningPoint reports whether point matches the book's turning-point
 // pattern.
 func (b *Book) IsTurningPoint(point string) bool {
-	pats, err := compilePatterns(b.Meta.TurningPoints)
-	if err != nil {
-		return false
+	if b.turningPoints == nil {
+		pats, err := compilePatterns(b.Meta.TurningPoints)
+		if err != nil {
+			return false
+		}
+		b.turningPoints = pats
 	}
-	return matchAny(pats, point)
+	return matchAny(b.turningPoints, point)
 }
 
 func matchAny(pats []string, point string) bool {

@@ -2,9 +2,9 @@ package reduce
 
 import (
 	"fmt"
+	"maps"
 	"math"
 	"slices"
-	"sort"
 	"strings"
 
 	"cairn/internal/levelbook"
@@ -55,8 +55,8 @@ func Reduce(book *levelbook.Book, opts Options) (*Result, error) {
 		Reading:             m.Reading,
 		CurvatureRefraction: opts.CurvatureRefraction,
 		Book:                book,
-		Rows:                []Row{},
-		Setups:              []Setup{},
+		Rows:                make([]Row, 0, len(book.Sightings)),
+		Setups:              make([]Setup, 0, len(book.Sightings)/2),
 		Sections:            []Section{},
 		Misclosures:         []Misclosure{},
 		Checks:              []Check{},
@@ -93,13 +93,8 @@ func (r *Result) setHeld(book *levelbook.Book, hold map[string]float64) error {
 			onLine[s.Point] = true
 		}
 	}
-	names := make([]string, 0, len(hold))
-	for name := range hold {
-		names = append(names, name)
-	}
-	sort.Strings(names)
 	r.Held = map[string]float64{}
-	for _, name := range names {
+	for _, name := range slices.Sorted(maps.Keys(hold)) {
 		h := hold[name]
 		if math.IsNaN(h) || math.IsInf(h, 0) {
 			return fmt.Errorf("held height of %s is not a number", name)
@@ -420,13 +415,7 @@ func (r *Result) check() {
 	c.Checked = 1
 	if len(r.Misclosures) == 0 {
 		last := r.Sections[len(r.Sections)-1]
-		held := slices.Sorted(func(yield func(string) bool) {
-			for k := range r.Held {
-				if !yield(k) {
-					return
-				}
-			}
-		})
+		held := slices.Sorted(maps.Keys(r.Held))
 		why := "no mark is held"
 		if len(held) > 0 {
 			why = "only " + strings.Join(held, ", ") + " is held"
