@@ -82,6 +82,7 @@ codes and regulations that govern your work.`,
 		newCmdHistory(f),
 		newCmdAudit(f),
 		newCmdDemo(f),
+		newCmdRun(f),
 	)
 	return root
 }
