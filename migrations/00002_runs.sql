@@ -69,10 +69,9 @@ CREATE TABLE section (
     seq           integer NOT NULL CHECK (seq >= 1),
     from_mark_id  bigint NOT NULL REFERENCES mark (id),
     to_mark_id    bigint NOT NULL REFERENCES mark (id),
-    -- Observed height difference, to minus from, in metres (unrounded, as
-    -- reduced), and the same in the run's unit as the book gave it.
+    -- Observed height difference, to minus from, in metres, unrounded as
+    -- reduced from the readings (booked in the run's unit).
     dh_m          double precision NOT NULL CHECK (dh_m BETWEEN -10000 AND 10000),
-    dh_book       double precision NOT NULL,
     -- Sum of backsight and foresight lengths in metres; NULL when the book
     -- gives no distances.
     length_m      double precision CHECK (length_m >= 0),

@@ -114,7 +114,7 @@ func TestHistoryIsAppendOnly(t *testing.T) {
 		"TRUNCATE height",
 		"UPDATE mark_condition SET condition = 'destroyed'",
 		"DELETE FROM mark_condition",
-		"TRUNCATE mark_condition",
+		"TRUNCATE mark_condition CASCADE", // without CASCADE, run_mark's reference refuses it first
 	} {
 		_, err := b.db.Pool.Exec(b.ctx, sql)
 		if err == nil || !strings.Contains(err.Error(), "append-only") {

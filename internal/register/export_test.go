@@ -1,0 +1,7 @@
+package register
+
+import "cairn/internal/store"
+
+// SetBeforeSections makes Record call f on the sections just before it
+// stores them.
+func SetBeforeSections(p *RecordParams, f func([]store.Section)) { p.beforeSections = f }

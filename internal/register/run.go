@@ -1,0 +1,494 @@
+package register
+
+import (
+	"context"
+	"crypto/sha256"
+	"encoding/json"
+	"errors"
+	"fmt"
+	"path/filepath"
+	"strings"
+	"time"
+
+	"github.com/jackc/pgx/v5"
+
+	"cairn/internal/levelbook"
+	"cairn/internal/reduce"
+	"cairn/internal/standards"
+	"cairn/internal/store"
+)
+
+// RecordParams describe a field book to record as a run.
+type RecordParams struct {
+	// Path names the book in errors, as given; the run keeps its base name.
+	Path string
+	// Book is the file's bytes, kept verbatim.
+	Book []byte
+	// Reduce are the options of the reduction (held heights, class), as
+	// for `run check`.
+	Reduce reduce.Options
+	// By says who records the run.
+	By string
+	// NewMarks creates the marks the register lacks, each with a first
+	// condition report "unverified" and no height. Without it, a book that
+	// names a mark the register lacks is refused.
+	NewMarks bool
+	// AcceptFailedChecks records a book whose checks fail; Reason, required
+	// with it, says why and is kept with the run.
+	AcceptFailedChecks bool
+	Reason             string
+
+	// beforeSections, if set, sees the sections just before they are
+	// stored (tests use it to make the write fail part way).
+	beforeSections func([]store.Section)
+}
+
+// Recorded is a run just recorded.
+type Recorded struct {
+	Run store.Run
+	// Result is the book's reduction (the same as `run check` shows).
+	Result *reduce.Result
+	// Marks are the marks the run touched, with the condition current at
+	// recording.
+	Marks []store.RunMark
+	// Cautions name the touched marks whose latest condition report says
+	// they are disturbed, destroyed or not found.
+	Cautions []string
+}
+
+// CheckSummary is what a run keeps of its reduction's checks, as they
+// stood when it was recorded.
+type CheckSummary struct {
+	// Class is the accuracy class checked against ("" when none).
+	Class standards.Class `json:"class,omitempty"`
+	// HeldM are the held heights in metres, by mark.
+	HeldM               map[string]float64  `json:"held_m,omitempty"`
+	CurvatureRefraction bool                `json:"curvature_refraction"`
+	Start               string              `json:"start"`
+	End                 string              `json:"end"`
+	Loop                bool                `json:"loop"`
+	Misclosures         []reduce.Misclosure `json:"misclosures"`
+	Checks              []reduce.Check      `json:"checks"`
+	Failures            []reduce.Failure    `json:"failures"`
+}
+
+func summaryOf(res *reduce.Result) CheckSummary {
+	return CheckSummary{
+		Class: res.Class, HeldM: res.Held, CurvatureRefraction: res.CurvatureRefraction,
+		Start: res.Start, End: res.End, Loop: res.Loop,
+		Misclosures: res.Misclosures, Checks: res.Checks, Failures: res.Failures,
+	}
+}
+
+// UnknownMarksError refuses a book that names marks the register lacks;
+// nothing was written. Its exit status is 2.
+type UnknownMarksError struct {
+	File  string
+	Marks []UnknownMark
+}
+
+// UnknownMark is a designation the register lacks and the book line that
+// first names it.
+type UnknownMark struct {
+	Designation string
+	Line        int
+}
+
+func (e *UnknownMarksError) Error() string {
+	names := make([]string, len(e.Marks))
+	for i, m := range e.Marks {
+		names[i] = fmt.Sprintf("%s (line %d)", m.Designation, m.Line)
+	}
+	what := "mark is"
+	if len(e.Marks) != 1 {
+		what = "marks are"
+	}
+	return fmt.Sprintf("%s: %d %s not in the register: %s; add them with `cairn mark add`, or record with --new-marks to create them; nothing was written",
+		e.File, len(e.Marks), what, strings.Join(names, ", "))
+}
+
+// ExitCode is 2: the book is refused as input.
+func (e *UnknownMarksError) ExitCode() int { return 2 }
+
+// AlreadyRecordedError refuses a book whose bytes are already recorded;
+// Run is the run that holds them. Its exit status is 2.
+type AlreadyRecordedError struct {
+	File string
+	Run  store.Run
+}
+
+func (e *AlreadyRecordedError) Error() string {
+	return fmt.Sprintf("%s is already recorded as run %d (from %s, recorded %s by %s); nothing was written",
+		e.File, e.Run.ID, e.Run.FileName, e.Run.RecordedAt.UTC().Format("2006-01-02 15:04:05Z"), e.Run.RecordedBy)
+}
+
+// ExitCode is 2: the book is refused as input.
+func (e *AlreadyRecordedError) ExitCode() int { return 2 }
+
+// ChecksFailedError refuses a book whose checks fail; Result holds the
+// reduction with every failure. Its exit status is 2.
+type ChecksFailedError struct {
+	File   string
+	Result *reduce.Result
+}
+
+func (e *ChecksFailedError) Error() string {
+	var b strings.Builder
+	fmt.Fprintf(&b, "%s: %d check(s) failed, nothing was recorded:", e.File, len(e.Result.Failures))
+	const most = 20
+	for i, f := range e.Result.Failures {
+		if i == most {
+			fmt.Fprintf(&b, "\n  ... and %d more (see cairn run check)", len(e.Result.Failures)-most)
+			break
+		}
+		fmt.Fprintf(&b, "\n  line %d: %s: %s: %s", f.Line, f.Kind, f.Subject, f.Message)
+	}
+	b.WriteString("\nto record it anyway, give --accept-failed-checks with --reason saying why")
+	return b.String()
+}
+
+// ExitCode is 2: the book is refused as input.
+func (e *ChecksFailedError) ExitCode() int { return 2 }
+
+// errAlreadyRecorded leaves the recording transaction when the book's
+// SHA-256 is taken; the run holding it is looked up afterwards, when the
+// other transaction has committed.
+var errAlreadyRecorded = errors.New("book already recorded")
+
+// Record reads and reduces a field book and, in one transaction, stores it
+// as a run: its metadata and bytes with their SHA-256, every sighting in
+// field order, the sections between consecutive marks, and the condition
+// of each mark it touched. Every mark the book names must exist (or
+// p.NewMarks creates them); a book already recorded, or whose checks fail
+// without p.AcceptFailedChecks, is refused. A refused book, or a failure
+// part way, writes nothing.
+func (r *Register) Record(ctx context.Context, p RecordParams) (*Recorded, error) {
+	if strings.TrimSpace(p.By) == "" {
+		return nil, inputErr("by", "say who records the run")
+	}
+	if p.AcceptFailedChecks && strings.TrimSpace(p.Reason) == "" {
+		return nil, inputErr("reason", "say why a book whose checks fail is recorded")
+	}
+	book, err := levelbook.Parse(p.Path, p.Book)
+	if err != nil {
+		return nil, err
+	}
+	res, err := reduce.Reduce(book, p.Reduce)
+	if err != nil {
+		return nil, &InputError{Field: p.Path, Msg: err.Error()}
+	}
+	if !res.Passed() && !p.AcceptFailedChecks {
+		return nil, &ChecksFailedError{File: p.Path, Result: res}
+	}
+	reason := ""
+	if !res.Passed() {
+		reason = strings.TrimSpace(p.Reason)
+	}
+	run, err := runInsertParams(p, book, res, reason)
+	if err != nil {
+		return nil, err
+	}
+
+	// The marks the book names, in the order it first names them.
+	var names []string
+	firstLine := map[string]int{}
+	for _, s := range book.Sightings {
+		if _, seen := firstLine[s.Point]; !s.TurningPoint && !seen {
+			firstLine[s.Point] = s.Line
+			names = append(names, s.Point)
+		}
+	}
+
+	out := &Recorded{Result: res}
+	err = r.withTx(ctx, pgx.TxOptions{}, func(tx pgx.Tx) error {
+		id, err := store.RunInsert(ctx, tx, run)
+		if errors.Is(err, store.ErrAlreadyExists) {
+			return errAlreadyRecorded
+		}
+		if err != nil {
+			return err
+		}
+		marks, err := r.recordMarks(ctx, tx, p, book, names, firstLine)
+		if err != nil {
+			return err
+		}
+		if _, err := store.SightingCopy(ctx, tx, store.SightingCopyParams{RunID: id, Sightings: sightingsOf(book)}); err != nil {
+			return err
+		}
+		ids := map[string]int64{}
+		for _, m := range marks {
+			ids[m.Designation] = m.MarkID
+		}
+		secs := make([]store.Section, len(res.Sections))
+		for i, s := range res.Sections {
+			secs[i] = store.Section{
+				Seq: s.Number, FromMarkID: ids[s.From], ToMarkID: ids[s.To], From: s.From, To: s.To,
+				DifferenceM: s.DifferenceM, Setups: s.Setups, FirstLine: s.FromLine, LastLine: s.ToLine,
+			}
+			if s.HasLength {
+				secs[i].LengthM = &s.LengthM
+			}
+		}
+		if p.beforeSections != nil {
+			p.beforeSections(secs)
+		}
+		if _, err := store.SectionCopy(ctx, tx, store.SectionCopyParams{RunID: id, Sections: secs}); err != nil {
+			return err
+		}
+		if _, err := store.RunMarkCopy(ctx, tx, store.RunMarkCopyParams{RunID: id, Marks: marks}); err != nil {
+			return err
+		}
+		if out.Run, err = store.RunGet(ctx, tx, id); err != nil {
+			return err
+		}
+		out.Marks, err = store.RunMarkListByRun(ctx, tx, id)
+		return err
+	})
+	if errors.Is(err, errAlreadyRecorded) {
+		holder, err := store.RunGetBySHA256(ctx, r.pool, run.BookSHA256)
+		if err != nil {
+			return nil, fmt.Errorf("look up the run that holds %s: %w", p.Path, err)
+		}
+		return nil, &AlreadyRecordedError{File: p.Path, Run: holder}
+	}
+	if err != nil {
+		return nil, fmt.Errorf("record %s: %w", p.Path, asConflict(err))
+	}
+	out.Cautions = cautions(out.Marks)
+	return out, nil
+}
+
+// runInsertParams gathers the run's row from the book and its reduction.
+func runInsertParams(p RecordParams, book *levelbook.Book, res *reduce.Result, reason string) (store.RunInsertParams, error) {
+	m := book.Meta
+	meta, err := json.Marshal(m)
+	if err != nil {
+		return store.RunInsertParams{}, fmt.Errorf("encode metadata of %s: %w", p.Path, err)
+	}
+	checks, err := json.Marshal(summaryOf(res))
+	if err != nil {
+		return store.RunInsertParams{}, fmt.Errorf("encode checks of %s: %w", p.Path, err)
+	}
+	var observed *time.Time
+	if m.Date != "" {
+		d, err := time.Parse("2006-01-02", m.Date)
+		if err != nil {
+			return store.RunInsertParams{}, &levelbook.Error{File: p.Path, Line: m.Lines["date"], Field: "date", Msg: "not a date (want YYYY-MM-DD)"}
+		}
+		observed = &d
+	}
+	sum := sha256.Sum256(p.Book)
+	return store.RunInsertParams{
+		Name: m.Run, ObservedOn: observed, Crew: m.Crew, Instrument: m.Instrument, Rod: m.Rod, Datum: m.Datum,
+		Class: string(res.Class), Unit: string(m.Unit), Meta: meta,
+		FileName: filepath.Base(p.Path), Book: p.Book, BookSHA256: sum[:],
+		RecordedBy: strings.TrimSpace(p.By), ChecksFailed: len(res.Failures), Checks: checks, AcceptedReason: reason,
+	}, nil
+}
+
+// recordMarks finds the marks the book names, creating the missing ones
+// when p.NewMarks allows it, and returns them with their latest condition.
+func (r *Register) recordMarks(ctx context.Context, tx pgx.Tx, p RecordParams, book *levelbook.Book, names []string, firstLine map[string]int) ([]store.RunMark, error) {
+	known, err := store.MarkListByDesignations(ctx, tx, names)
+	if err != nil {
+		return nil, fmt.Errorf("look up the marks of %s: %w", p.Path, err)
+	}
+	byName := map[string]store.Mark{}
+	for _, m := range known {
+		byName[m.Designation] = m
+	}
+	var missing []UnknownMark
+	for _, n := range names {
+		if _, ok := byName[n]; !ok {
+			missing = append(missing, UnknownMark{Designation: n, Line: firstLine[n]})
+		}
+	}
+	if len(missing) > 0 && !p.NewMarks {
+		return nil, &UnknownMarksError{File: p.Path, Marks: missing}
+	}
+	observed := time.Now().UTC()
+	if book.Meta.Date != "" {
+		if d, err := time.Parse("2006-01-02", book.Meta.Date); err == nil {
+			observed = d
+		}
+	}
+	created := map[string]bool{}
+	for _, u := range missing {
+		if !designationPattern.MatchString(u.Designation) {
+			return nil, &levelbook.Error{File: p.Path, Line: u.Line, Field: "point",
+				Msg: fmt.Sprintf("%q cannot be a mark's designation (use letters, digits and . _ / -, starting with a letter or digit), or name it as a turning point", u.Designation)}
+		}
+		id, err := store.MarkInsert(ctx, tx, store.MarkInsertParams{Designation: u.Designation, CreatedBy: p.By})
+		if errors.Is(err, store.ErrAlreadyExists) {
+			return nil, &ConflictError{Err: err}
+		}
+		if err != nil {
+			return nil, err
+		}
+		c, err := store.ConditionInsert(ctx, tx, store.ConditionInsertParams{
+			MarkID: id, Condition: "unverified", ObservedOn: observed, RecordedBy: p.By,
+			Note: fmt.Sprintf("created when %s was recorded", filepath.Base(p.Path)),
+		})
+		if err != nil {
+			return nil, err
+		}
+		byName[u.Designation] = store.Mark{ID: id, Designation: u.Designation, Latest: &c}
+		created[u.Designation] = true
+	}
+	marks := make([]store.RunMark, len(names))
+	for i, n := range names {
+		m := byName[n]
+		marks[i] = store.RunMark{MarkID: m.ID, Designation: n, Condition: m.Latest, Created: created[n]}
+	}
+	return marks, nil
+}
+
+// sightingsOf turns the book's rows into stored sightings.
+func sightingsOf(book *levelbook.Book) []store.Sighting {
+	out := make([]store.Sighting, len(book.Sightings))
+	for i := range book.Sightings {
+		s := &book.Sightings[i]
+		g := store.Sighting{
+			Seq: i + 1, Line: s.Line, Point: s.Point, Sight: string(s.Sight), TurningPoint: s.TurningPoint,
+			Middle: s.Middle, DistanceFrom: string(levelbook.DistanceNone), Note: s.Note,
+		}
+		if s.ThreeWire {
+			g.Upper, g.Lower = &s.Upper, &s.Lower
+		}
+		if s.HasDistance() {
+			g.Distance, g.DistanceFrom = &s.Distance, string(s.DistanceFrom)
+		}
+		out[i] = g
+	}
+	return out
+}
+
+// cautions words the conditions worth a caution among marks (see Warning).
+func cautions(marks []store.RunMark) []string {
+	var out []string
+	for _, m := range marks {
+		if w := Warning(store.Mark{Designation: m.Designation, Latest: m.Condition}); w != "" {
+			out = append(out, w)
+		}
+	}
+	return out
+}
+
+// RunView is a recorded run with its checks, sections and the marks it
+// touched.
+type RunView struct {
+	Run      store.Run
+	Summary  CheckSummary
+	Sections []store.Section
+	Marks    []store.RunMark
+	Cautions []string
+}
+
+// Run returns the run with identifier id, or an InputError if there is
+// none.
+func (r *Register) Run(ctx context.Context, id int64) (*RunView, error) {
+	v := &RunView{}
+	err := r.withTx(ctx, readTx, func(tx pgx.Tx) error {
+		var err error
+		if v.Run, err = r.run(ctx, tx, id); err != nil {
+			return err
+		}
+		if err := json.Unmarshal(v.Run.Checks, &v.Summary); err != nil {
+			return fmt.Errorf("decode checks of run %d: %w", id, err)
+		}
+		if v.Sections, err = store.SectionList(ctx, tx, store.SectionListParams{RunIDs: []int64{id}}); err != nil {
+			return err
+		}
+		v.Marks, err = store.RunMarkListByRun(ctx, tx, id)
+		return err
+	})
+	if err != nil {
+		return nil, err
+	}
+	v.Cautions = cautions(v.Marks)
+	return v, nil
+}
+
+func (r *Register) run(ctx context.Context, db store.DBTX, id int64) (store.Run, error) {
+	run, err := store.RunGet(ctx, db, id)
+	if errors.Is(err, store.ErrNotFound) {
+		return store.Run{}, inputErr("run", "no run %d in the register (see cairn run list)", id)
+	}
+	if err != nil {
+		return store.Run{}, fmt.Errorf("look up run %d: %w", id, err)
+	}
+	return run, nil
+}
+
+// RunBook returns the bytes of run id's field book exactly as recorded.
+func (r *Register) RunBook(ctx context.Context, id int64) ([]byte, error) {
+	b, err := store.RunGetBook(ctx, r.pool, id)
+	if errors.Is(err, store.ErrNotFound) {
+		return nil, inputErr("run", "no run %d in the register (see cairn run list)", id)
+	}
+	if err != nil {
+		return nil, fmt.Errorf("read the book of run %d: %w", id, err)
+	}
+	return b, nil
+}
+
+// RunListParams filter a listing of runs; the zero value lists them all.
+type RunListParams struct {
+	// Mark, if set, keeps the runs that touched the mark with this
+	// designation.
+	Mark string
+	// Since, if set, keeps the runs observed on or after this date (the
+	// book's date, else the day it was recorded).
+	Since *time.Time
+}
+
+// RunList lists runs, oldest first.
+func (r *Register) RunList(ctx context.Context, p RunListParams) ([]store.Run, error) {
+	var runs []store.Run
+	err := r.withTx(ctx, readTx, func(tx pgx.Tx) error {
+		q := store.RunListParams{Since: p.Since}
+		if p.Mark != "" {
+			m, err := r.mark(ctx, tx, "mark", p.Mark, false)
+			if err != nil {
+				return err
+			}
+			q.MarkID = &m.ID
+		}
+		var err error
+		runs, err = store.RunList(ctx, tx, q)
+		return err
+	})
+	return runs, err
+}
+
+// Sections returns the sections of the given runs (by run, along each run)
+// — the observed height differences an adjustment uses. Every run must
+// exist.
+func (r *Register) Sections(ctx context.Context, runIDs []int64) ([]store.Section, error) {
+	var secs []store.Section
+	err := r.withTx(ctx, readTx, func(tx pgx.Tx) error {
+		for _, id := range runIDs {
+			if _, err := r.run(ctx, tx, id); err != nil {
+				return err
+			}
+		}
+		var err error
+		secs, err = store.SectionList(ctx, tx, store.SectionListParams{RunIDs: runIDs})
+		return err
+	})
+	return secs, err
+}
+
+// Sightings returns run id's sightings in field order.
+func (r *Register) Sightings(ctx context.Context, id int64) ([]store.Sighting, error) {
+	var out []store.Sighting
+	err := r.withTx(ctx, readTx, func(tx pgx.Tx) error {
+		if _, err := r.run(ctx, tx, id); err != nil {
+			return err
+		}
+		var err error
+		out, err = store.SightingListByRun(ctx, tx, id)
+		return err
+	})
+	return out, err
+}

@@ -1,0 +1,389 @@
+package store
+
+import (
+	"context"
+	"encoding/json"
+	"fmt"
+	"strings"
+	"time"
+
+	"github.com/jackc/pgx/v5"
+)
+
+// Copier is a DBTX that can also COPY rows in: a connection or a
+// transaction.
+type Copier interface {
+	DBTX
+	CopyFrom(ctx context.Context, table pgx.Identifier, columns []string, src pgx.CopyFromSource) (int64, error)
+}
+
+// Run is a recorded level circuit, without its book's bytes.
+type Run struct {
+	ID int64
+	// Name, ObservedOn, Crew, Instrument, Rod, Datum and Class come from
+	// the book's metadata; empty (nil) when it does not give them.
+	Name       string
+	ObservedOn *time.Time
+	Crew       string
+	Instrument string
+	Rod        string
+	Datum      string
+	Class      string
+	// Unit is the unit of the book's readings and distances.
+	Unit string
+	// Meta is every metadata key as parsed, as JSON.
+	Meta json.RawMessage
+	// FileName is the base name of the book's file; BookSHA256 the SHA-256
+	// of its bytes and BookSize their number.
+	FileName   string
+	BookSHA256 []byte
+	BookSize   int64
+	RecordedBy string
+	RecordedAt time.Time
+	// ChecksFailed counts the failed checks; Checks holds the check
+	// summary as JSON; AcceptedReason says why a run with failed checks
+	// was recorded ("" when every check passed).
+	ChecksFailed   int
+	Checks         json.RawMessage
+	AcceptedReason string
+	// Sightings, Sections and LengthM count the run's rows and sum its
+	// sections' lengths (sections without a length add nothing).
+	Sightings int
+	Sections  int
+	LengthM   float64
+}
+
+const runColumns = `r.id, r.name, r.observed_on, r.crew, r.instrument, r.rod, r.datum, r.class, r.unit, r.meta,
+	r.file_name, r.book_sha256, octet_length(r.book), r.recorded_by, r.recorded_at, r.checks_failed, r.checks,
+	coalesce(r.accepted_reason, ''),
+	(SELECT count(*) FROM sighting g WHERE g.run_id = r.id),
+	(SELECT count(*) FROM section s WHERE s.run_id = r.id),
+	(SELECT coalesce(sum(s.length_m), 0) FROM section s WHERE s.run_id = r.id)`
+
+func scanRun(row pgx.Row) (Run, error) {
+	var r Run
+	err := row.Scan(&r.ID, &r.Name, &r.ObservedOn, &r.Crew, &r.Instrument, &r.Rod, &r.Datum, &r.Class, &r.Unit, &r.Meta,
+		&r.FileName, &r.BookSHA256, &r.BookSize, &r.RecordedBy, &r.RecordedAt, &r.ChecksFailed, &r.Checks,
+		&r.AcceptedReason, &r.Sightings, &r.Sections, &r.LengthM)
+	return r, translate(err)
+}
+
+// RunInsertParams are the fields of a new run.
+type RunInsertParams struct {
+	Name       string
+	ObservedOn *time.Time
+	Crew       string
+	Instrument string
+	Rod        string
+	Datum      string
+	Class      string
+	Unit       string
+	Meta       json.RawMessage
+	FileName   string
+	// Book is the file's bytes, kept verbatim; BookSHA256 their SHA-256
+	// (the database checks it).
+	Book       []byte
+	BookSHA256 []byte
+	RecordedBy string
+	// ChecksFailed, Checks and AcceptedReason: see Run. AcceptedReason
+	// must be given exactly when ChecksFailed > 0.
+	ChecksFailed   int
+	Checks         json.RawMessage
+	AcceptedReason string
+}
+
+// RunInsert adds a run and returns its identifier; ErrAlreadyExists when a
+// run with the same book is recorded (or being recorded: the insert waits
+// for that transaction to end).
+func RunInsert(ctx context.Context, db DBTX, p RunInsertParams) (int64, error) {
+	var observed *string
+	if p.ObservedOn != nil {
+		s := pgDate(*p.ObservedOn)
+		observed = &s
+	}
+	var reason *string
+	if p.AcceptedReason != "" {
+		reason = &p.AcceptedReason
+	}
+	meta, checks := p.Meta, p.Checks
+	if meta == nil {
+		meta = json.RawMessage("{}")
+	}
+	if checks == nil {
+		checks = json.RawMessage("{}")
+	}
+	var id int64
+	err := db.QueryRow(ctx, `INSERT INTO run (name, observed_on, crew, instrument, rod, datum, class, unit, meta,
+		file_name, book, book_sha256, recorded_by, checks_failed, checks, accepted_reason)
+		VALUES ($1, $2, $3, $4, $5, $6, $7, $8, $9, $10, $11, $12, $13, $14, $15, $16) RETURNING id`,
+		p.Name, observed, p.Crew, p.Instrument, p.Rod, p.Datum, p.Class, p.Unit, string(meta),
+		p.FileName, p.Book, p.BookSHA256, p.RecordedBy, p.ChecksFailed, string(checks), reason).Scan(&id)
+	if err != nil {
+		return 0, fmt.Errorf("insert run: %w", translate(err))
+	}
+	return id, nil
+}
+
+// RunGet returns the run with identifier id; ErrNotFound if none.
+func RunGet(ctx context.Context, db DBTX, id int64) (Run, error) {
+	return scanRun(db.QueryRow(ctx, "SELECT "+runColumns+" FROM run r WHERE r.id = $1", id))
+}
+
+// RunGetBySHA256 returns the run whose book has SHA-256 sum; ErrNotFound if
+// none.
+func RunGetBySHA256(ctx context.Context, db DBTX, sum []byte) (Run, error) {
+	return scanRun(db.QueryRow(ctx, "SELECT "+runColumns+" FROM run r WHERE r.book_sha256 = $1", sum))
+}
+
+// RunGetBook returns the stored bytes of run id's book; ErrNotFound if
+// there is no such run.
+func RunGetBook(ctx context.Context, db DBTX, id int64) ([]byte, error) {
+	var b []byte
+	if err := db.QueryRow(ctx, "SELECT book FROM run WHERE id = $1", id).Scan(&b); err != nil {
+		return nil, translate(err)
+	}
+	return b, nil
+}
+
+// RunListParams filter a listing of runs; the zero value lists them all.
+type RunListParams struct {
+	// MarkID, if set, keeps the runs that touched the mark.
+	MarkID *int64
+	// Since, if set, keeps the runs observed on or after this date (the
+	// book's date; the day of recording, in UTC, for a book without one).
+	Since *time.Time
+}
+
+// RunList lists runs, oldest first.
+func RunList(ctx context.Context, db DBTX, p RunListParams) ([]Run, error) {
+	var where []string
+	var args []any
+	if p.MarkID != nil {
+		args = append(args, *p.MarkID)
+		where = append(where, fmt.Sprintf("EXISTS (SELECT 1 FROM run_mark rm WHERE rm.run_id = r.id AND rm.mark_id = $%d)", len(args)))
+	}
+	if p.Since != nil {
+		args = append(args, pgDate(*p.Since))
+		where = append(where, fmt.Sprintf("coalesce(r.observed_on, (r.recorded_at AT TIME ZONE 'UTC')::date) >= $%d::date", len(args)))
+	}
+	q := "SELECT " + runColumns + " FROM run r"
+	if len(where) > 0 {
+		q += " WHERE " + strings.Join(where, " AND ")
+	}
+	rows, err := db.Query(ctx, q+" ORDER BY coalesce(r.observed_on, (r.recorded_at AT TIME ZONE 'UTC')::date), r.id", args...)
+	if err != nil {
+		return nil, translate(err)
+	}
+	return collect(rows, scanRun)
+}
+
+// Sighting is one row of a run's book: a rod reading on a point.
+type Sighting struct {
+	// Seq numbers the sightings of a run in field order from 1; Line is the
+	// row's line in the book.
+	Seq  int
+	Line int
+	// Point is the point sighted; Sight is BS, IS or FS.
+	Point        string
+	Sight        string
+	TurningPoint bool
+	// Upper and Lower are the stadia wires (nil when not booked), Middle
+	// the middle wire, Distance the sight length (nil when the book gives
+	// none), all in the run's unit; DistanceFrom is none, stadia or
+	// measured.
+	Upper, Lower *float64
+	Middle       float64
+	Distance     *float64
+	DistanceFrom string
+	Note         string
+}
+
+var sightingColumns = []string{"run_id", "seq", "line", "point", "sight", "turning_point", "upper", "middle", "lower", "distance", "distance_from", "note"}
+
+// SightingCopyParams are a run's sightings to store.
+type SightingCopyParams struct {
+	RunID     int64
+	Sightings []Sighting
+}
+
+// SightingCopy stores sightings with COPY and returns how many.
+func SightingCopy(ctx context.Context, db Copier, p SightingCopyParams) (int64, error) {
+	i := -1
+	src := pgx.CopyFromFunc(func() ([]any, error) {
+		i++
+		if i == len(p.Sightings) {
+			return nil, nil
+		}
+		s := &p.Sightings[i]
+		return []any{p.RunID, s.Seq, s.Line, s.Point, s.Sight, s.TurningPoint, s.Upper, s.Middle, s.Lower, s.Distance, s.DistanceFrom, s.Note}, nil
+	})
+	n, err := db.CopyFrom(ctx, pgx.Identifier{"sighting"}, sightingColumns, src)
+	if err != nil {
+		return n, fmt.Errorf("copy sightings: %w", translate(err))
+	}
+	return n, nil
+}
+
+// SightingListByRun returns a run's sightings in field order.
+func SightingListByRun(ctx context.Context, db DBTX, runID int64) ([]Sighting, error) {
+	rows, err := db.Query(ctx, `SELECT seq, line, point, sight, turning_point, upper, middle, lower, distance, distance_from, note
+		FROM sighting WHERE run_id = $1 ORDER BY seq`, runID)
+	if err != nil {
+		return nil, translate(err)
+	}
+	return collect(rows, func(r pgx.Row) (Sighting, error) {
+		var s Sighting
+		err := r.Scan(&s.Seq, &s.Line, &s.Point, &s.Sight, &s.TurningPoint, &s.Upper, &s.Middle, &s.Lower, &s.Distance, &s.DistanceFrom, &s.Note)
+		return s, translate(err)
+	})
+}
+
+// Section is the observation of a run between two consecutive marks: the
+// height difference an adjustment uses.
+type Section struct {
+	RunID int64
+	// Seq numbers the sections of a run along it from 1.
+	Seq int
+	// FromMarkID and ToMarkID are the marks; From and To their
+	// designations (filled when read).
+	FromMarkID, ToMarkID int64
+	From, To             string
+	// DifferenceM is the observed height difference H(To) − H(From) in
+	// metres, unrounded.
+	DifferenceM float64
+	// LengthM is the sum of backsight and foresight lengths in metres; nil
+	// when the book gives no distances.
+	LengthM *float64
+	// Setups is the number of instrument setups.
+	Setups int
+	// FirstLine and LastLine are the book lines of the first backsight and
+	// the last foresight.
+	FirstLine, LastLine int
+}
+
+var sectionColumns = []string{"run_id", "seq", "from_mark_id", "to_mark_id", "dh_m", "length_m", "setups", "first_line", "last_line"}
+
+// SectionCopyParams are a run's sections to store.
+type SectionCopyParams struct {
+	RunID    int64
+	Sections []Section
+}
+
+// SectionCopy stores sections with COPY and returns how many.
+func SectionCopy(ctx context.Context, db Copier, p SectionCopyParams) (int64, error) {
+	rows := make([][]any, len(p.Sections))
+	for i, s := range p.Sections {
+		rows[i] = []any{p.RunID, s.Seq, s.FromMarkID, s.ToMarkID, s.DifferenceM, s.LengthM, s.Setups, s.FirstLine, s.LastLine}
+	}
+	n, err := db.CopyFrom(ctx, pgx.Identifier{"section"}, sectionColumns, pgx.CopyFromRows(rows))
+	if err != nil {
+		return n, fmt.Errorf("copy sections: %w", translate(err))
+	}
+	return n, nil
+}
+
+// SectionListParams choose the sections to list.
+type SectionListParams struct {
+	// RunIDs are the runs whose sections to list.
+	RunIDs []int64
+}
+
+// SectionList returns the sections of the given runs, by run and along
+// each run.
+func SectionList(ctx context.Context, db DBTX, p SectionListParams) ([]Section, error) {
+	rows, err := db.Query(ctx, `SELECT s.run_id, s.seq, s.from_mark_id, s.to_mark_id, f.designation, t.designation,
+		s.dh_m, s.length_m, s.setups, s.first_line, s.last_line
+		FROM section s JOIN mark f ON f.id = s.from_mark_id JOIN mark t ON t.id = s.to_mark_id
+		WHERE s.run_id = ANY($1) ORDER BY s.run_id, s.seq`, p.RunIDs)
+	if err != nil {
+		return nil, translate(err)
+	}
+	return collect(rows, func(r pgx.Row) (Section, error) {
+		var s Section
+		err := r.Scan(&s.RunID, &s.Seq, &s.FromMarkID, &s.ToMarkID, &s.From, &s.To, &s.DifferenceM, &s.LengthM, &s.Setups, &s.FirstLine, &s.LastLine)
+		return s, translate(err)
+	})
+}
+
+// RunMark is a mark a run touched, with the condition report that was the
+// mark's latest when the run was recorded.
+type RunMark struct {
+	RunID       int64
+	MarkID      int64
+	Designation string // filled when read
+	// Condition is the report current at recording; nil when the mark had
+	// none.
+	Condition *Condition
+	// Created says whether recording the run created the mark.
+	Created bool
+}
+
+// RunMarkCopyParams are the marks a run touched.
+type RunMarkCopyParams struct {
+	RunID int64
+	Marks []RunMark
+}
+
+// RunMarkCopy stores the marks a run touched with COPY.
+func RunMarkCopy(ctx context.Context, db Copier, p RunMarkCopyParams) (int64, error) {
+	rows := make([][]any, len(p.Marks))
+	for i, m := range p.Marks {
+		var cid *int64
+		if m.Condition != nil {
+			cid = &m.Condition.ID
+		}
+		rows[i] = []any{p.RunID, m.MarkID, cid, m.Created}
+	}
+	n, err := db.CopyFrom(ctx, pgx.Identifier{"run_mark"}, []string{"run_id", "mark_id", "condition_id", "created"}, pgx.CopyFromRows(rows))
+	if err != nil {
+		return n, fmt.Errorf("copy marks of run: %w", translate(err))
+	}
+	return n, nil
+}
+
+// RunMarkListByRun returns the marks a run touched, by designation.
+func RunMarkListByRun(ctx context.Context, db DBTX, runID int64) ([]RunMark, error) {
+	rows, err := db.Query(ctx, `SELECT rm.run_id, rm.mark_id, m.designation, rm.created,
+		c.id, c.condition, c.note, c.observed_on, c.recorded_at, c.recorded_by
+		FROM run_mark rm JOIN mark m ON m.id = rm.mark_id LEFT JOIN mark_condition c ON c.id = rm.condition_id
+		WHERE rm.run_id = $1 ORDER BY m.designation`, runID)
+	if err != nil {
+		return nil, translate(err)
+	}
+	return collect(rows, func(r pgx.Row) (RunMark, error) {
+		var m RunMark
+		var cid *int64
+		var cond, note, by *string
+		var on, at *time.Time
+		if err := r.Scan(&m.RunID, &m.MarkID, &m.Designation, &m.Created, &cid, &cond, &note, &on, &at, &by); err != nil {
+			return RunMark{}, translate(err)
+		}
+		if cid != nil {
+			m.Condition = &Condition{ID: *cid, MarkID: m.MarkID, Condition: *cond, Note: *note, ObservedOn: *on, RecordedAt: *at, RecordedBy: *by}
+		}
+		return m, nil
+	})
+}
+
+// MarkListByDesignations returns the marks with the given designations
+// (those that exist), each with its latest condition report.
+func MarkListByDesignations(ctx context.Context, db DBTX, designations []string) ([]Mark, error) {
+	rows, err := db.Query(ctx, "SELECT "+markColumns+markFrom+" WHERE m.designation = ANY($1) ORDER BY m.designation", designations)
+	if err != nil {
+		return nil, translate(err)
+	}
+	return collect(rows, func(r pgx.Row) (Mark, error) { return scanMark(r) })
+}
+
+// RunTableCounts are the numbers of rows in the tables of recorded runs.
+type RunTableCounts struct {
+	Runs, Sightings, Sections, RunMarks int64
+}
+
+// RunTableCount counts the rows of the tables of recorded runs.
+func RunTableCount(ctx context.Context, db DBTX) (RunTableCounts, error) {
+	var c RunTableCounts
+	err := db.QueryRow(ctx, `SELECT (SELECT count(*) FROM run), (SELECT count(*) FROM sighting),
+		(SELECT count(*) FROM section), (SELECT count(*) FROM run_mark)`).Scan(&c.Runs, &c.Sightings, &c.Sections, &c.RunMarks)
+	return c, translate(err)
+}
