@@ -87,6 +87,7 @@ type markJSON struct {
 	DistanceKm  *float64        `json:"distance_km,omitempty"`
 	Conditions  []conditionJSON `json:"conditions,omitempty"`
 	Heights     []heightJSON    `json:"heights,omitempty"`
+	Runs        []runJSON       `json:"runs,omitempty"`
 }
 
 type conditionJSON struct {
@@ -142,6 +143,10 @@ func newCmdMarkShow(f *Factory) *cobra.Command {
 			for _, h := range v.Heights {
 				j.Heights = append(j.Heights, toHeightJSON(h, ""))
 			}
+			j.Runs = []runJSON{}
+			for _, run := range v.Runs {
+				j.Runs = append(j.Runs, toRunJSON(run))
+			}
 			if format == FormatJSON {
 				return writeJSON(f.IO.Out, j)
 			}
@@ -159,6 +164,9 @@ func newCmdMarkShow(f *Factory) *cobra.Command {
 			}
 			for _, h := range v.Heights {
 				t.AddRow("height "+h.DatumCode, fmt.Sprintf("%s (version %d, %s)", valueText(h), h.Version, h.Source))
+			}
+			for _, run := range j.Runs {
+				t.AddRow("run", fmt.Sprintf("%d %s %s (%s)", run.ID, run.ObservedOn, run.Name, run.FileName))
 			}
 			return writeTable(f.IO, format, t)
 		},

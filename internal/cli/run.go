@@ -25,7 +25,7 @@ func newCmdRun(f *Factory) *cobra.Command {
 		Long: `Level runs are the circuits a crew levels over the marks, each written in a
 level book (see docs/levelbook.md).`,
 	}
-	cmd.AddCommand(newCmdRunCheck(f, nil))
+	cmd.AddCommand(newCmdRunCheck(f, nil), newCmdRunRecord(f, nil), newCmdRunList(f, nil), newCmdRunShow(f, nil))
 	return cmd
 }
 

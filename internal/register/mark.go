@@ -76,6 +76,8 @@ type MarkView struct {
 	Mark       store.Mark
 	Conditions []store.Condition
 	Heights    []store.Height
+	// Runs are the recorded runs that touched the mark, oldest first.
+	Runs []store.Run
 }
 
 // MarkShow returns a mark, its condition history and its current heights.
@@ -89,7 +91,10 @@ func (r *Register) MarkShow(ctx context.Context, designation string) (MarkView, 
 		if v.Conditions, err = store.ConditionListByMark(ctx, tx, v.Mark.ID); err != nil {
 			return err
 		}
-		v.Heights, err = store.HeightAsOf(ctx, tx, store.HeightAsOfParams{MarkID: v.Mark.ID})
+		if v.Heights, err = store.HeightAsOf(ctx, tx, store.HeightAsOfParams{MarkID: v.Mark.ID}); err != nil {
+			return err
+		}
+		v.Runs, err = store.RunList(ctx, tx, store.RunListParams{MarkID: &v.Mark.ID})
 		return err
 	})
 	return v, err

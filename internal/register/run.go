@@ -24,9 +24,12 @@ type RecordParams struct {
 	Path string
 	// Book is the file's bytes, kept verbatim.
 	Book []byte
-	// Reduce are the options of the reduction (held heights, class), as
-	// for `run check`.
-	Reduce reduce.Options
+	// Hold gives known heights by mark, in the book's unit; Class
+	// overrides the book's accuracy class; CurvatureRefraction corrects
+	// the readings: the options of the reduction, as for `run check`.
+	Hold                map[string]float64
+	Class               standards.Class
+	CurvatureRefraction bool
 	// By says who records the run.
 	By string
 	// NewMarks creates the marks the register lacks, each with a first
@@ -173,7 +176,14 @@ func (r *Register) Record(ctx context.Context, p RecordParams) (*Recorded, error
 	if err != nil {
 		return nil, err
 	}
-	res, err := reduce.Reduce(book, p.Reduce)
+	opts := reduce.Options{Class: p.Class, CurvatureRefraction: p.CurvatureRefraction}
+	if len(p.Hold) > 0 {
+		opts.Hold = make(map[string]float64, len(p.Hold))
+		for k, v := range p.Hold {
+			opts.Hold[k] = book.Meta.Unit.ToMetres(v)
+		}
+	}
+	res, err := reduce.Reduce(book, opts)
 	if err != nil {
 		return nil, &InputError{Field: p.Path, Msg: err.Error()}
 	}
@@ -201,6 +211,17 @@ func (r *Register) Record(ctx context.Context, p RecordParams) (*Recorded, error
 
 	out := &Recorded{Result: res}
 	err = r.withTx(ctx, pgx.TxOptions{}, func(tx pgx.Tx) error {
+		// Refuse a book already recorded before writing anything, so a
+		// refusal uses up no run number; the unique SHA-256 settles a race.
+		if _, err := store.RunGetBySHA256(ctx, tx, run.BookSHA256); err == nil {
+			return errAlreadyRecorded
+		} else if !errors.Is(err, store.ErrNotFound) {
+			return err
+		}
+		byName, missing, err := findMarks(ctx, tx, p, names, firstLine)
+		if err != nil {
+			return err
+		}
 		id, err := store.RunInsert(ctx, tx, run)
 		if errors.Is(err, store.ErrAlreadyExists) {
 			return errAlreadyRecorded
@@ -208,7 +229,7 @@ func (r *Register) Record(ctx context.Context, p RecordParams) (*Recorded, error
 		if err != nil {
 			return err
 		}
-		marks, err := r.recordMarks(ctx, tx, p, book, names, firstLine)
+		marks, err := createMarks(ctx, tx, p, book, names, byName, missing)
 		if err != nil {
 			return err
 		}
@@ -251,6 +272,10 @@ func (r *Register) Record(ctx context.Context, p RecordParams) (*Recorded, error
 		}
 		return nil, &AlreadyRecordedError{File: p.Path, Run: holder}
 	}
+	var typed interface{ ExitCode() int }
+	if errors.As(err, &typed) {
+		return nil, err // it names the book already
+	}
 	if err != nil {
 		return nil, fmt.Errorf("record %s: %w", p.Path, asConflict(err))
 	}
@@ -286,26 +311,33 @@ func runInsertParams(p RecordParams, book *levelbook.Book, res *reduce.Result, r
 	}, nil
 }
 
-// recordMarks finds the marks the book names, creating the missing ones
-// when p.NewMarks allows it, and returns them with their latest condition.
-func (r *Register) recordMarks(ctx context.Context, tx pgx.Tx, p RecordParams, book *levelbook.Book, names []string, firstLine map[string]int) ([]store.RunMark, error) {
+// findMarks looks up the marks the book names, with their latest
+// condition; missing are those the register lacks. Without p.NewMarks, a
+// missing mark refuses the book.
+func findMarks(ctx context.Context, tx pgx.Tx, p RecordParams, names []string, firstLine map[string]int) (byName map[string]store.Mark, missing []UnknownMark, err error) {
 	known, err := store.MarkListByDesignations(ctx, tx, names)
 	if err != nil {
-		return nil, fmt.Errorf("look up the marks of %s: %w", p.Path, err)
+		return nil, nil, fmt.Errorf("look up the marks of %s: %w", p.Path, err)
 	}
-	byName := map[string]store.Mark{}
+	byName = map[string]store.Mark{}
 	for _, m := range known {
 		byName[m.Designation] = m
 	}
-	var missing []UnknownMark
 	for _, n := range names {
 		if _, ok := byName[n]; !ok {
 			missing = append(missing, UnknownMark{Designation: n, Line: firstLine[n]})
 		}
 	}
 	if len(missing) > 0 && !p.NewMarks {
-		return nil, &UnknownMarksError{File: p.Path, Marks: missing}
+		return nil, nil, &UnknownMarksError{File: p.Path, Marks: missing}
 	}
+	return byName, missing, nil
+}
+
+// createMarks creates the missing marks, each with a first condition
+// report "unverified", adds them to byName, and returns every mark the
+// book names in its order.
+func createMarks(ctx context.Context, tx pgx.Tx, p RecordParams, book *levelbook.Book, names []string, byName map[string]store.Mark, missing []UnknownMark) ([]store.RunMark, error) {
 	observed := time.Now().UTC()
 	if book.Meta.Date != "" {
 		if d, err := time.Parse("2006-01-02", book.Meta.Date); err == nil {

@@ -243,6 +243,9 @@ func TestRecordUnknownMarks(t *testing.T) {
 	if err != nil {
 		t.Fatal(err)
 	}
+	if rec.Run.ID != 1 {
+		t.Errorf("first run recorded is run %d: the refusal used up a run number", rec.Run.ID)
+	}
 	created := map[string]bool{}
 	for _, m := range rec.Marks {
 		if m.Created != (m.Condition != nil) || (m.Created && m.Condition.Condition != "unverified") {

@@ -1,0 +1,176 @@
+package cli
+
+import (
+	"encoding/hex"
+	"errors"
+	"fmt"
+	"os"
+	"strings"
+
+	"github.com/spf13/cobra"
+
+	"cairn/internal/reduce"
+	"cairn/internal/register"
+	"cairn/internal/standards"
+)
+
+// runRecordOptions are the inputs of `cairn run record`.
+type runRecordOptions struct {
+	f *Factory
+
+	BookPath string
+	// Hold gives held heights in the book's unit, by mark.
+	Hold                map[string]float64
+	Class               standards.Class
+	CurvatureRefraction bool
+	By                  string
+	NewMarks            bool
+	AcceptFailedChecks  bool
+	Reason              string
+	Format              Format
+}
+
+// newCmdRunRecord builds `cairn run record`. runF replaces runRecordRun in
+// tests.
+func newCmdRunRecord(f *Factory, runF func(*runRecordOptions) error) *cobra.Command {
+	opts := &runRecordOptions{f: f}
+	var holds []string
+	var class string
+	cmd := &cobra.Command{
+		Use:   "record BOOK.csv",
+		Short: "Record a level book in the register as a run",
+		Long: `Record a level book in the register as a run. The book is read and reduced
+exactly as by cairn run check, then stored in one transaction: the run's
+description and who recorded it, the file itself byte for byte with its
+SHA-256, every sighting in field order, the sections between consecutive
+marks (the observations adjustments use), and the latest condition report
+of each mark the run touched. A run is never changed afterwards.
+
+The book is refused, and nothing is written, when:
+  - it cannot be read (its file, line and field are named);
+  - the same file is already recorded (the run holding it is named);
+  - it names marks the register lacks (all are listed): add them with
+    cairn mark add, or give --new-marks to create them, unverified and
+    without heights;
+  - a check fails: give --accept-failed-checks with --reason to record it
+    anyway; the reason is kept with the run.
+
+Prints the run's number and the same report as cairn run check, and warns
+about any mark last reported disturbed, destroyed or not found.
+
+Exit status: 0 when recorded, 2 when refused.
+
+A recorded run is field evidence, not a published height: results need
+review by a licensed surveyor, check into two marks, verify each mark's
+condition before use, and follow the codes and regulations that govern your
+work.`,
+		Example: `  cairn run record north-loop.csv --by "R. Okafor"
+  cairn run record levee-line.csv --hold TC-0420=3.512 --hold TC-0427=5.104 --new-marks
+  cairn run record old-line.csv --accept-failed-checks --reason "rerun impossible: marks destroyed in 2024"`,
+		Args: exactArgs(1, "one level book"),
+		RunE: func(cmd *cobra.Command, args []string) error {
+			opts.BookPath = args[0]
+			var err error
+			if opts.Hold, err = parseHolds(holds); err != nil {
+				return err
+			}
+			if class != "" {
+				if opts.Class, err = standards.ParseClass(class); err != nil {
+					return badInput("--class: %v", err)
+				}
+			}
+			opts.Reason = strings.TrimSpace(opts.Reason)
+			if opts.AcceptFailedChecks && opts.Reason == "" {
+				return badInput("--accept-failed-checks needs --reason saying why the run is recorded anyway")
+			}
+			if !opts.AcceptFailedChecks && opts.Reason != "" {
+				return badInput("--reason goes with --accept-failed-checks")
+			}
+			if opts.Format == FormatCSV {
+				return badInput("--output: run record prints a report or json, not csv")
+			}
+			if strings.TrimSpace(opts.By) == "" {
+				return badInput("--by: say who records the run")
+			}
+			if runF != nil {
+				return runF(opts)
+			}
+			return runRecordRun(cmd, opts)
+		},
+	}
+	fl := cmd.Flags()
+	fl.StringArrayVar(&holds, "hold", nil, "hold a mark at a known height, MARK=HEIGHT in the book's unit (repeatable)")
+	fl.StringVar(&class, "class", "", "accuracy class to check against, overriding the book's: first-I, first-II, second-I, second-II, third")
+	fl.BoolVar(&opts.CurvatureRefraction, "curvature-refraction", false, "correct every reading for curvature and refraction (k = 0.14)")
+	fl.StringVar(&opts.By, "by", osUser(), "who records the run")
+	fl.BoolVar(&opts.NewMarks, "new-marks", false, "create the marks the register lacks (condition unverified, no height)")
+	fl.BoolVar(&opts.AcceptFailedChecks, "accept-failed-checks", false, "record the book even though checks fail (needs --reason)")
+	fl.StringVar(&opts.Reason, "reason", "", "why a book whose checks fail is recorded")
+	addOutputFlag(cmd, &opts.Format)
+	return cmd
+}
+
+// recordedJSON is `run record -o json`.
+type recordedJSON struct {
+	Run          runJSON        `json:"run"`
+	CreatedMarks []string       `json:"created_marks"`
+	Cautions     []string       `json:"cautions"`
+	Reduction    *reduce.Result `json:"reduction"`
+}
+
+func runRecordRun(cmd *cobra.Command, opts *runRecordOptions) error {
+	ios := opts.f.IO
+	data, err := os.ReadFile(opts.BookPath)
+	if err != nil {
+		var pe *os.PathError
+		if errors.As(err, &pe) {
+			err = pe.Err
+		}
+		return badInput("%s: cannot read the book: %v", opts.BookPath, err)
+	}
+	r, err := openRegister(cmd.Context(), opts.f)
+	if err != nil {
+		return err
+	}
+	rec, err := r.Record(cmd.Context(), register.RecordParams{
+		Path: opts.BookPath, Book: data, By: opts.By,
+		Hold: opts.Hold, Class: opts.Class, CurvatureRefraction: opts.CurvatureRefraction,
+		NewMarks: opts.NewMarks, AcceptFailedChecks: opts.AcceptFailedChecks, Reason: opts.Reason,
+	})
+	if err != nil {
+		return err
+	}
+	created := []string{}
+	for _, m := range rec.Marks {
+		if m.Created {
+			created = append(created, m.Designation)
+		}
+	}
+	for _, c := range rec.Cautions {
+		fmt.Fprintln(ios.ErrOut, "\n"+strings.Repeat("!", 72)+"\n"+c+"\n"+strings.Repeat("!", 72))
+	}
+	if opts.Format == FormatJSON {
+		return writeJSON(ios.Out, recordedJSON{Run: toRunJSON(rec.Run), CreatedMarks: created, Cautions: nonNil(rec.Cautions), Reduction: rec.Result})
+	}
+	w := ios.Out
+	run := rec.Run
+	fmt.Fprintf(w, "Recorded run %d from %s (%d bytes, SHA-256 %s) by %s\n", run.ID, run.FileName, run.BookSize, hex.EncodeToString(run.BookSHA256), run.RecordedBy)
+	if run.AcceptedReason != "" {
+		fmt.Fprintf(w, "Recorded with %d failed check(s), accepted: %s\n", run.ChecksFailed, run.AcceptedReason)
+	}
+	if len(created) > 0 {
+		fmt.Fprintf(w, "Created marks (unverified, no height): %s\n", strings.Join(created, ", "))
+	}
+	for _, c := range rec.Cautions {
+		fmt.Fprintln(w, c)
+	}
+	fmt.Fprintln(w)
+	return writeReport(w, rec.Result)
+}
+
+func nonNil(s []string) []string {
+	if s == nil {
+		return []string{}
+	}
+	return s
+}
