@@ -86,6 +86,8 @@ func demoRun(cmd *cobra.Command, f *Factory, name string) error {
 		{"Their current heights", "height list"},
 		{"The history of " + demo.HistoryMark, "history " + demo.HistoryMark},
 		{"The disturbed mark, as cairn shows it", "height show TC-0415"},
+		{"The level runs recorded", "run list"},
+		{"The north loop as recorded", "run show 1"},
 	} {
 		fmt.Fprintf(out, "\n== %s (cairn %s)\n", step.title, step.args)
 		if err := Execute(ctx, df, append([]string{"--db", url}, strings.Fields(step.args)...)); err != nil {

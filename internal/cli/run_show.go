@@ -169,12 +169,12 @@ func runShowRun(cmd *cobra.Command, opts *runShowOptions) error {
 	for _, c := range v.Cautions {
 		fmt.Fprintln(ios.ErrOut, "\n"+strings.Repeat("!", 72)+"\n"+c+"\n"+strings.Repeat("!", 72))
 	}
-	return writeRunReport(ios.Out, v.Run, v.Summary.Misclosures, v.Summary.Checks, v.Summary.Failures, v.Sections, v.Marks, v.Cautions)
+	return writeRunReport(ios.Out, v.Run, v.Summary.Misclosures, v.Summary.Checks, v.Summary.Failures, v.Sections, v.Marks)
 }
 
 // writeRunReport writes a recorded run for reading.
 func writeRunReport(w io.Writer, run store.Run, mis []reduce.Misclosure, checks []reduce.Check, failures []reduce.Failure,
-	sections []store.Section, marks []store.RunMark, cautions []string) error {
+	sections []store.Section, marks []store.RunMark) error {
 	u := units.Unit(run.Unit)
 	n := numbers{u, reduce.Decimals(u)}
 	j := toRunJSON(run)
@@ -248,9 +248,6 @@ func writeRunReport(w io.Writer, run store.Run, mis []reduce.Misclosure, checks 
 		if err := writeAligned(w, p.t); err != nil {
 			return err
 		}
-	}
-	for _, c := range cautions {
-		fmt.Fprintln(w, "\n"+c)
 	}
 	return nil
 }
