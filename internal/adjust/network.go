@@ -170,7 +170,7 @@ type NetworkSolution struct {
 	Sections []Residual
 	// Held lists, for each held mark in the order added, its residual: zero
 	// for a fixed mark, the pseudo-observation's for a weighted one.
-	Held []Residual
+	Held  []Residual
 	Stats NetworkStats
 }
 

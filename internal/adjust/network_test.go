@@ -289,9 +289,9 @@ func TestPublishedLevelNet(t *testing.T) {
 		t.Fatal(err)
 	}
 	// Published to the mm, as recalled: C = 453.468, D = 444.944. B was
-	// recalled as 448.105 but that memory is not firm (it would not fit
-	// A→B = 10.509 with the small correction this net allows); B is checked
-	// by TestSolveNetworkAgainstGonumDense's method only.
+	// recalled as 448.105, which is A + 10.509 unadjusted, so that memory is
+	// not trusted; we get 448.109, and B is checked by the dense cross-check
+	// (TestSolveNetworkAgainstGonumDense) only.
 	want := map[string]float64{"C": 453.468, "D": 444.944}
 	for _, p := range sol.Points {
 		if w, ok := want[p.Point]; ok && math.Abs(p.HeightM-w) > 0.0005 {
