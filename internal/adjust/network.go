@@ -48,9 +48,8 @@ const (
 // the marks held. Points are named by strings and numbered internally in the
 // order they first appear. The zero value is an empty network ready for use.
 type Network struct {
-	names []string
-	ids   map[string]int32
-	secs  []netSection
+	pts  names
+	secs []netSection
 	held  []HeldMark
 }
 
@@ -62,27 +61,15 @@ type netSection struct {
 
 // NewNetwork returns an empty network with room for about n sections.
 func NewNetwork(n int) *Network {
-	return &Network{names: make([]string, 0, n), ids: make(map[string]int32, n), secs: make([]netSection, 0, n)}
-}
-
-func (n *Network) point(name string) int32 {
-	if id, ok := n.ids[name]; ok {
-		return id
-	}
-	if n.ids == nil {
-		n.ids = make(map[string]int32)
-	}
-	id := int32(len(n.names))
-	name = strings.Clone(name) // do not keep a caller's larger buffer alive
-	n.names = append(n.names, name)
-	n.ids[name] = id
-	return id
+	net := &Network{secs: make([]netSection, 0, n)}
+	net.pts.init(n) // a leveling network has about as many points as sections
+	return net
 }
 
 // AddSection adds an observed section. Its values are checked by
 // SolveNetwork.
 func (n *Network) AddSection(s Section) {
-	n.secs = append(n.secs, netSection{from: n.point(s.From), to: n.point(s.To), dh: s.DhM, km: s.LengthKm, setups: int32(min(s.Setups, math.MaxInt32))})
+	n.secs = append(n.secs, netSection{from: n.pts.intern(s.From), to: n.pts.intern(s.To), dh: s.DhM, km: s.LengthKm, setups: int32(min(s.Setups, math.MaxInt32))})
 }
 
 // AddHeld holds a mark. Its values are checked by SolveNetwork.
@@ -92,7 +79,7 @@ func (n *Network) AddHeld(h HeldMark) { n.held = append(n.held, h) }
 func (n *Network) NumSections() int { return len(n.secs) }
 
 // NumPoints returns the number of distinct points named by the sections.
-func (n *Network) NumPoints() int { return len(n.names) }
+func (n *Network) NumPoints() int { return len(n.pts.list) }
 
 // NetworkOptions are the settings of a network adjustment. The zero value
 // means the defaults documented on each field.
@@ -292,7 +279,7 @@ func SolveNetwork(net *Network, opt NetworkOptions) (*NetworkSolution, error) {
 	t0 := time.Now()
 	progress("reducing")
 
-	np := len(net.names)
+	np := len(net.pts.list)
 	ns := len(net.secs)
 	if ns == 0 {
 		return nil, ErrEmptyNetwork
@@ -300,7 +287,7 @@ func SolveNetwork(net *Network, opt NetworkOptions) (*NetworkSolution, error) {
 	q := make([]float64, ns)
 	for i, s := range net.secs {
 		serr := func(field, format string, a ...any) error {
-			return &SectionError{Index: i, From: net.names[s.from], To: net.names[s.to], Field: field, Err: fmt.Errorf(format, a...)}
+			return &SectionError{Index: i, From: net.pts.list[s.from], To: net.pts.list[s.to], Field: field, Err: fmt.Errorf(format, a...)}
 		}
 		switch {
 		case s.from == s.to:
@@ -333,7 +320,7 @@ func SolveNetwork(net *Network, opt NetworkOptions) (*NetworkSolution, error) {
 		herr := func(field, format string, a ...any) error {
 			return &HeldError{Index: k, Point: h.Point, Field: field, Err: fmt.Errorf(format, a...)}
 		}
-		id, ok := net.ids[h.Point]
+		id, ok := net.pts.lookup(h.Point)
 		switch {
 		case !ok:
 			return nil, herr("point", "%q is not a point of the network", h.Point)
@@ -359,7 +346,7 @@ func SolveNetwork(net *Network, opt NetworkOptions) (*NetworkSolution, error) {
 		}
 	}
 	if nfixed+nweighted == 0 {
-		return nil, &UncontrolledError{Points: net.names, Parts: 1}
+		return nil, &UncontrolledError{Points: net.pts.list, Parts: 1}
 	}
 	isHeld := func(id int32) bool { return hstate[id] == fixed || hstate[id] == weighted }
 
@@ -501,7 +488,7 @@ func SolveNetwork(net *Network, opt NetworkOptions) (*NetworkSolution, error) {
 		if errors.As(err, &npd) {
 			for i := 0; i < np; i++ {
 				if jx[i] == int32(npd.Col) {
-					return nil, fmt.Errorf("the normal equations are singular or ill-conditioned at point %s: %w", net.names[i], err)
+					return nil, fmt.Errorf("the normal equations are singular or ill-conditioned at point %s: %w", net.pts.list[i], err)
 				}
 			}
 		}
@@ -529,7 +516,7 @@ func SolveNetwork(net *Network, opt NetworkOptions) (*NetworkSolution, error) {
 	sig := opt.SigmaM
 	for i := 0; i < np; i++ {
 		p := &sol.Points[i]
-		p.Point = net.names[i]
+		p.Point = net.pts.list[i]
 		p.Held = isHeld(int32(i))
 		if j := jx[i]; j == -1 {
 			p.HeightM = hval[i]
@@ -638,7 +625,7 @@ func SolveNetwork(net *Network, opt NetworkOptions) (*NetworkSolution, error) {
 
 // checkControl finds the parts of the network with no held mark.
 func checkControl(net *Network, off, inc []int32, isHeld func(int32) bool) error {
-	np := len(net.names)
+	np := len(net.pts.list)
 	seen := make([]bool, np)
 	stack := make([]int32, 0, 64)
 	visit := func(start int32, collect *[]string) {
@@ -648,7 +635,7 @@ func checkControl(net *Network, off, inc []int32, isHeld func(int32) bool) error
 			i := stack[len(stack)-1]
 			stack = stack[:len(stack)-1]
 			if collect != nil {
-				*collect = append(*collect, net.names[i])
+				*collect = append(*collect, net.pts.list[i])
 			}
 			for _, s := range inc[off[i]:off[i+1]] {
 				o := net.secs[s].from
@@ -663,7 +650,7 @@ func checkControl(net *Network, off, inc []int32, isHeld func(int32) bool) error
 		}
 	}
 	for _, h := range net.held {
-		if id := net.ids[h.Point]; isHeld(id) && !seen[id] {
+		if id, _ := net.pts.lookup(h.Point); isHeld(id) && !seen[id] {
 			visit(id, nil)
 		}
 	}
