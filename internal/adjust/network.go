@@ -50,7 +50,7 @@ const (
 type Network struct {
 	pts  names
 	secs []netSection
-	held  []HeldMark
+	held []HeldMark
 }
 
 type netSection struct {
@@ -77,6 +77,12 @@ func (n *Network) AddHeld(h HeldMark) { n.held = append(n.held, h) }
 
 // NumSections returns the number of sections added.
 func (n *Network) NumSections() int { return len(n.secs) }
+
+// SectionPoints returns the from and to points of section i (from 0).
+func (n *Network) SectionPoints(i int) (from, to string) {
+	s := n.secs[i]
+	return n.pts.list[s.from], n.pts.list[s.to]
+}
 
 // NumPoints returns the number of distinct points named by the sections.
 func (n *Network) NumPoints() int { return len(n.pts.list) }
