@@ -229,6 +229,7 @@ func adjustFilesRun(opts *adjustOptions) error {
 		writeAdjustReport(ios.ErrOut, sol, opts, lines)
 	}
 	if opts.Timings {
+		fmt.Fprintf(ios.ErrOut, "junction system: %d unknowns, %d entries in its factor\n", sol.Stats.Junctions, sol.Stats.FactorNNZ)
 		for _, t := range timings {
 			fmt.Fprintf(ios.ErrOut, "%-18s %8.3f s\n", t[0], t[1].(time.Duration).Seconds())
 		}
