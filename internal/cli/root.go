@@ -76,6 +76,12 @@ codes and regulations that govern your work.`,
 	})
 	root.AddCommand(
 		// Command groups register here, one line each.
+		newCmdDatum(f),
+		newCmdMark(f),
+		newCmdHeight(f),
+		newCmdHistory(f),
+		newCmdAudit(f),
+		newCmdDemo(f),
 		newCmdRun(f),
 	)
 	return root
