@@ -56,6 +56,10 @@ type Cluster struct {
 	// BinDir holds initdb and pg_ctl; empty means search PATH, then
 	// /usr/lib/postgresql/*/bin (newest version first).
 	BinDir string
+
+	// scratch trades durability for speed (no fsync), for throwaway
+	// clusters only.
+	scratch bool
 }
 
 // Status describes a cluster without changing it.
@@ -261,13 +265,19 @@ func (c *Cluster) initIfMissing(ctx context.Context, bin string, run *account) e
 	if err := os.RemoveAll(tmp); err != nil {
 		return fmt.Errorf("clear half-made cluster: %w", err)
 	}
-	cmd := command(ctx, run, c.Dir, filepath.Join(bin, "initdb"),
-		"-D", tmp, "-U", Superuser, "--auth=trust", "--encoding=UTF8", "--locale=C.UTF-8", "--no-instructions")
+	args := []string{"-D", tmp, "-U", Superuser, "--auth=trust", "--encoding=UTF8", "--locale=C.UTF-8", "--no-instructions"}
+	if c.scratch {
+		args = append(args, "--no-sync")
+	}
+	cmd := command(ctx, run, c.Dir, filepath.Join(bin, "initdb"), args...)
 	if out, err := cmd.CombinedOutput(); err != nil {
 		return fmt.Errorf("initdb %s: %w: %s", tmp, err, lastLines(string(out), 5))
 	}
 	conf := fmt.Sprintf("\n# cairn: a private server on a Unix socket only\nlisten_addresses = ''\nport = %d\nunix_socket_directories = '%s'\nunix_socket_permissions = 0700\n",
 		Port, strings.ReplaceAll(c.SocketDir(), "'", "''"))
+	if c.scratch {
+		conf += "fsync = off\nsynchronous_commit = off\nfull_page_writes = off\n"
+	}
 	f, err := os.OpenFile(filepath.Join(tmp, "postgresql.conf"), os.O_APPEND|os.O_WRONLY, 0)
 	if err != nil {
 		return fmt.Errorf("configure cluster: %w", err)

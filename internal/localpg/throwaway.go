@@ -25,7 +25,8 @@ var (
 )
 
 // Throwaway makes a new cluster in a fresh temporary folder, starts it and
-// returns it with a URL for its cairn database. The cluster lives as long
+// returns it with a URL for its cairn database. It is made for speed, not
+// durability: nothing is flushed to disk. The cluster lives as long
 // as this process: a watchdog, in a session of its own so that a Ctrl-C
 // does not reach it, reads a pipe whose other end only this process holds;
 // when the process ends, however it ends, the pipe closes and the watchdog
@@ -38,6 +39,7 @@ func Throwaway(ctx context.Context) (*Cluster, string, error) {
 		return nil, "", fmt.Errorf("make throwaway cluster folder: %w", err)
 	}
 	c := New(dir)
+	c.scratch = true
 	fail := func(err error) (*Cluster, string, error) {
 		_ = c.Stop(context.WithoutCancel(ctx))
 		os.RemoveAll(c.Dir)
