@@ -60,6 +60,8 @@ type Cluster struct {
 	// scratch trades durability for speed (no fsync), for throwaway
 	// clusters only.
 	scratch bool
+	// watchdog is the pid of a throwaway cluster's watchdog.
+	watchdog int
 }
 
 // Status describes a cluster without changing it.

@@ -1,10 +1,12 @@
 package localpg
 
 import (
+	"bufio"
 	"bytes"
 	"context"
 	"errors"
 	"fmt"
+	"io"
 	"os"
 	"os/exec"
 	"path/filepath"
@@ -13,6 +15,7 @@ import (
 	"testing"
 
 	"github.com/jackc/pgx/v5"
+	"golang.org/x/sys/unix"
 )
 
 // clusterDir returns a fresh folder for a cluster. As root, the server runs
@@ -232,47 +235,78 @@ func TestHelperProcess(t *testing.T) {
 			os.Exit(1)
 		}
 		st, _ := c.Status(ctx)
-		fmt.Printf("dir=%s\npid=%d\n", c.Dir, st.PID)
-		fmt.Println("got=" + query(t, url, "SELECT current_database()"))
+		fmt.Printf("got=%s\ndir=%s\npid=%d\nwatchdog=%d\n", query(t, url, "SELECT current_database()"), c.Dir, st.PID, c.watchdog)
+		io.Copy(io.Discard, os.Stdin) // until the parent lets go
 	}
 	os.Exit(0) // as a process that ends without any cleanup of its own
 }
 
 // TestThrowawayEndsWithProcess runs a process that makes a throwaway
-// cluster and exits: the server must stop and its folder go. The process's
-// standard error stays open until the watchdog is done, so reading it to
-// the end waits for the cleanup.
+// cluster and exits: its watchdog must then stop the server and remove the
+// folder.
 func TestThrowawayEndsWithProcess(t *testing.T) {
 	t.Parallel()
 	cmd := exec.Command(os.Args[0], "-test.run=^TestHelperProcess$")
 	cmd.Env = append(os.Environ(), "LOCALPG_HELPER=throwaway")
+	stdin, err := cmd.StdinPipe()
+	if err != nil {
+		t.Fatal(err)
+	}
+	stdout, err := cmd.StdoutPipe()
+	if err != nil {
+		t.Fatal(err)
+	}
 	var stderr bytes.Buffer
 	cmd.Stderr = &stderr
-	out, err := cmd.Output()
-	if err != nil {
-		t.Fatalf("%v\n%s%s", err, out, stderr.String())
+	if err := cmd.Start(); err != nil {
+		t.Fatal(err)
 	}
 	var dir string
-	var pid int
-	for _, line := range strings.Split(string(out), "\n") {
+	var pid, watchdog int
+	sc := bufio.NewScanner(stdout)
+	for watchdog == 0 && sc.Scan() {
+		line := sc.Text()
 		if v, ok := strings.CutPrefix(line, "dir="); ok {
 			dir = v
 		}
-		if v, ok := strings.CutPrefix(line, "pid="); ok {
-			fmt.Sscan(v, &pid)
+		fmt.Sscanf(line, "pid=%d", &pid)
+		fmt.Sscanf(line, "watchdog=%d", &watchdog)
+		if strings.HasPrefix(line, "error:") {
+			t.Fatal(line)
 		}
 	}
-	if dir == "" || pid == 0 || !strings.Contains(string(out), "got=cairn\n") {
-		t.Fatalf("helper printed:\n%s%s", out, stderr.String())
+	if dir == "" || pid == 0 || watchdog == 0 {
+		cmd.Wait()
+		t.Fatalf("helper printed no cluster\n%s", stderr.String())
+	}
+	if !alive(pid) {
+		t.Fatalf("throwaway server %d not running while its process lives", pid)
+	}
+	// Hold the watchdog by a pidfd before letting the helper go, then wait
+	// for the watchdog to end.
+	wfd, err := unix.PidfdOpen(watchdog, 0)
+	if err != nil {
+		t.Fatalf("watchdog %d: %v", watchdog, err)
+	}
+	defer unix.Close(wfd)
+	stdin.Close()
+	if err := cmd.Wait(); err != nil {
+		t.Fatalf("helper: %v\n%s", err, stderr.String())
+	}
+	for {
+		_, err := unix.Poll([]unix.PollFd{{Fd: int32(wfd), Events: unix.POLLIN}}, -1)
+		if err == nil {
+			break
+		}
+		if !errors.Is(err, unix.EINTR) {
+			t.Fatal(err)
+		}
 	}
 	if _, err := os.Stat(dir); !errors.Is(err, os.ErrNotExist) {
 		t.Errorf("throwaway folder %s still there after its process ended (%v)", dir, err)
 	}
 	if alive(pid) {
 		t.Errorf("throwaway server %d still running after its process ended", pid)
-	}
-	if stderr.Len() > 0 {
-		t.Errorf("watchdog wrote: %s", stderr.String())
 	}
 }
 

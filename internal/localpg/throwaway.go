@@ -30,9 +30,7 @@ var (
 // as this process: a watchdog, in a session of its own so that a Ctrl-C
 // does not reach it, reads a pipe whose other end only this process holds;
 // when the process ends, however it ends, the pipe closes and the watchdog
-// stops the server and removes its folder. The watchdog writes its errors
-// to this process's standard error, which a parent reading it therefore
-// sees closed only once the cleanup is done.
+// stops the server and removes its folder.
 func Throwaway(ctx context.Context) (*Cluster, string, error) {
 	dir, err := os.MkdirTemp("", "cairn-pg-")
 	if err != nil {
@@ -76,8 +74,9 @@ func (c *Cluster) watch(bin string, run *account) error {
 	defer r.Close()
 	cmd := exec.Command("/bin/sh", "-c", watchdogScript, filepath.Join(bin, "pg_ctl"), c.dataDir(), c.Dir, c.SocketDir())
 	cmd.Dir = "/"
+	// No output: a watchdog holding this process's stdout or stderr open
+	// after it ends would make `go test` wait for it.
 	cmd.Stdin = r
-	cmd.Stderr = os.Stderr
 	cmd.SysProcAttr = &syscall.SysProcAttr{Setsid: true}
 	if run != nil {
 		cmd.SysProcAttr.Credential = run.credential()
@@ -86,6 +85,7 @@ func (c *Cluster) watch(bin string, run *account) error {
 		w.Close()
 		return fmt.Errorf("start cluster watchdog: %w", err)
 	}
+	c.watchdog = cmd.Process.Pid
 	watchMu.Lock()
 	watchPipes = append(watchPipes, w)
 	watchMu.Unlock()
