@@ -12,8 +12,8 @@ import (
 	"cairn/internal/store"
 )
 
-// run executes cairn with args over f's test streams.
-func run(t *testing.T, f *Factory, args ...string) (stdout, stderr string, err error) {
+// runDB executes cairn with args over f's test streams.
+func runDB(t *testing.T, f *Factory, args ...string) (stdout, stderr string, err error) {
 	t.Helper()
 	ios, _, out, errOut := TestStreams(false)
 	f.IO = ios
@@ -31,7 +31,7 @@ func testFactory(env map[string]string) *Factory {
 
 func statusJSON(t *testing.T, f *Factory, args ...string) dbStatus {
 	t.Helper()
-	out, errOut, err := run(t, f, append(args, "db", "status", "-o", "json")...)
+	out, errOut, err := runDB(t, f, append(args, "db", "status", "-o", "json")...)
 	if err != nil {
 		t.Fatalf("db status: %v\n%s", err, errOut)
 	}
@@ -64,12 +64,12 @@ func TestDBStatusAndMigrateOnServer(t *testing.T) {
 	if st.RegisterTables || st.Marks != nil || st.HeightVersions != nil {
 		t.Errorf("empty database: register tables %v, marks %v", st.RegisterTables, st.Marks)
 	}
-	out, _, _ := run(t, testFactory(nil), "--db", db.URL, "db", "status")
+	out, _, _ := runDB(t, testFactory(nil), "--db", db.URL, "db", "status")
 	if !strings.Contains(out, "marks\tschema not yet applied") || !strings.Contains(out, "cairn db migrate") {
 		t.Errorf("table status of an empty database:\n%s", out)
 	}
 
-	_, errOut, err := run(t, testFactory(nil), "--db", db.URL, "db", "migrate")
+	_, errOut, err := runDB(t, testFactory(nil), "--db", db.URL, "db", "migrate")
 	if err != nil || !strings.Contains(errOut, "from version 0 to") {
 		t.Fatalf("db migrate: %v\n%s", err, errOut)
 	}
@@ -87,7 +87,7 @@ func TestDBStatusAndMigrateOnServer(t *testing.T) {
 	if tables && (st.Marks == nil || *st.Marks != 0 || st.HeightVersions == nil || *st.HeightVersions != 0) {
 		t.Errorf("fresh register: marks %v, height versions %v; want 0, 0", st.Marks, st.HeightVersions)
 	}
-	if _, errOut, err = run(t, testFactory(nil), "--db", db.URL, "db", "migrate"); err != nil || !strings.Contains(errOut, "already at version") {
+	if _, errOut, err = runDB(t, testFactory(nil), "--db", db.URL, "db", "migrate"); err != nil || !strings.Contains(errOut, "already at version") {
 		t.Errorf("second db migrate: %v\n%s", err, errOut)
 	}
 }
@@ -95,7 +95,7 @@ func TestDBStatusAndMigrateOnServer(t *testing.T) {
 func TestDBStartStopNeedEmbeddedDefault(t *testing.T) {
 	t.Parallel()
 	for _, verb := range []string{"start", "stop"} {
-		_, _, err := run(t, testFactory(map[string]string{"CAIRN_DATABASE_URL": "postgres://nobody@127.0.0.1:1/x"}), "db", verb)
+		_, _, err := runDB(t, testFactory(map[string]string{"CAIRN_DATABASE_URL": "postgres://nobody@127.0.0.1:1/x"}), "db", verb)
 		if exitCode(err) != ExitBadInput || err == nil || !strings.Contains(err.Error(), "CAIRN_DATABASE_URL") {
 			t.Errorf("db %s on a named server: exit %d, %v", verb, exitCode(err), err)
 		}
@@ -116,13 +116,13 @@ func TestDBEmbeddedDefault(t *testing.T) {
 	}
 	env := map[string]string{"XDG_DATA_HOME": data}
 	folder := filepath.Join(data, "cairn")
-	t.Cleanup(func() { run(t, testFactory(env), "db", "stop") })
+	t.Cleanup(func() { runDB(t, testFactory(env), "db", "stop") })
 
 	st := statusJSON(t, testFactory(env))
 	if st.From != "embedded default" || st.Folder == nil || *st.Folder != folder || st.Made || st.Running || st.SchemaVersion != nil {
 		t.Fatalf("before start: %+v", st)
 	}
-	if _, errOut, err := run(t, testFactory(env), "db", "start"); err != nil || !strings.Contains(errOut, "running in "+folder) {
+	if _, errOut, err := runDB(t, testFactory(env), "db", "start"); err != nil || !strings.Contains(errOut, "running in "+folder) {
 		t.Fatalf("db start: %v\n%s", err, errOut)
 	}
 	st = statusJSON(t, testFactory(env))
@@ -132,10 +132,10 @@ func TestDBEmbeddedDefault(t *testing.T) {
 	if st.SchemaVersion == nil || *st.SchemaVersion != st.SchemaLatest {
 		t.Errorf("after start: schema %v of %d", st.SchemaVersion, st.SchemaLatest)
 	}
-	if _, errOut, err := run(t, testFactory(env), "db", "stop"); err != nil || !strings.Contains(errOut, "stopped") {
+	if _, errOut, err := runDB(t, testFactory(env), "db", "stop"); err != nil || !strings.Contains(errOut, "stopped") {
 		t.Fatalf("db stop: %v\n%s", err, errOut)
 	}
-	out, _, err := run(t, testFactory(env), "db", "status")
+	out, _, err := runDB(t, testFactory(env), "db", "status")
 	if err != nil || !strings.Contains(out, "server\tstopped") {
 		t.Errorf("status after stop: %v\n%s", err, out)
 	}
