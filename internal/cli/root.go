@@ -76,6 +76,14 @@ codes and regulations that govern your work.`,
 	})
 	root.AddCommand(
 		// Command groups register here, one line each.
+		newCmdDB(f),
+		newCmdDatum(f),
+		newCmdMark(f),
+		newCmdHeight(f),
+		newCmdHistory(f),
+		newCmdAudit(f),
+		newCmdDemo(f),
+		newCmdRun(f),
 		newCmdAdjust(f, nil),
 	)
 	return root
