@@ -468,3 +468,70 @@ func TestBadInput(t *testing.T) {
 		}
 	})
 }
+
+// TestMahunStarNetwork checks the adjustment against a published worked
+// example: Jerry Mahun, "Least Squares Lite", chapter B "LS brute force
+// method", §2 "Level Circuit LS Adjustment" (Figure B-1): points Q and R
+// levelled from held benchmarks A, B, C, D with equal weights, seven
+// observations (read):
+//
+//	BMA-Q +8.91  BMB-Q −2.92  BMC-Q −4.67  BMD-Q −8.66
+//	BMA-R −3.56  BMC-R −17.12 BMD-R −21.10
+//
+// The page publishes the residuals (MPV minus each single-path elevation):
+// Q −0.015, +0.015, −0.035, +0.035; R +0.007, −0.033, +0.027; Σv² =
+// 0.004767 with m − n = 7 − 2 (read). The benchmarks' heights are in the
+// figure, which we have not seen; the residuals fix them up to one common
+// constant (derived below: BM = MPV − v − dh, with MPV_R = MPV_Q − 12.448),
+// and nothing checked here depends on that constant.
+func TestMahunStarNetwork(t *testing.T) {
+	const q = 100.0 // the unknown common constant (any value)
+	r := q - 12.448 // derived from the residuals of BMA-Q and BMA-R
+	held := []adjust.HeldMark{
+		{Point: "BMA", HeightM: q + 0.015 - 8.91},
+		{Point: "BMB", HeightM: q - 0.015 + 2.92},
+		{Point: "BMC", HeightM: r + 0.033 + 17.12},
+		{Point: "BMD", HeightM: r - 0.027 + 21.10},
+	}
+	secs := []adjust.Section{
+		{From: "BMA", To: "Q", DhM: 8.91, LengthKm: 1},
+		{From: "BMB", To: "Q", DhM: -2.92, LengthKm: 1},
+		{From: "BMC", To: "Q", DhM: -4.67, LengthKm: 1},
+		{From: "BMD", To: "Q", DhM: -8.66, LengthKm: 1},
+		{From: "BMA", To: "R", DhM: -3.56, LengthKm: 1},
+		{From: "BMC", To: "R", DhM: -17.12, LengthKm: 1},
+		{From: "BMD", To: "R", DhM: -21.10, LengthKm: 1},
+	}
+	// The BMC-Q and BMD-Q residuals follow from BMC and BMD as derived from
+	// R; that they come out as published shows the page's data agree.
+	sol, err := adjust.SolveNetwork(build(secs, held), adjust.NetworkOptions{SigmaM: 0.001})
+	if err != nil {
+		t.Fatal(err)
+	}
+	got := map[string]float64{}
+	for _, p := range sol.Points {
+		got[p.Point] = p.HeightM
+	}
+	// The page rounds to the millimetre (its R residuals sum to +0.001, not
+	// 0 as a mean's must), so the derived benchmarks, and what follows from
+	// them, agree to within the rounding.
+	if math.Abs(got["Q"]-q) > 0.0005 || math.Abs(got["R"]-r) > 0.0005 {
+		t.Fatalf("Q = %.6f, R = %.6f; want %.6f, %.6f", got["Q"], got["R"], q, r)
+	}
+	// Our residual is v = adjusted dh − observed dh = MPV − single-path
+	// elevation, the page's sign.
+	want := []float64{-0.015, +0.015, -0.035, +0.035, +0.007, -0.033, +0.027}
+	for i, w := range want {
+		if v := sol.Sections[i].ResidualM; math.Abs(v-w) > 0.0007 {
+			t.Errorf("section %d (%s): residual %+.4f m, published %+.3f m", i+1, secs[i].From+"-"+secs[i].To, v, w)
+		}
+	}
+	if sol.Stats.Redundancy != 5 {
+		t.Errorf("redundancy %d, published 7 − 2 = 5", sol.Stats.Redundancy)
+	}
+	// Σv² with unit weights (weight 1/L, L = 1 km, σ0 = 1 mm: vᵀPv in m² is
+	// Σv²/σ0²).
+	if s := sol.Stats.VTPV * 0.001 * 0.001; math.Abs(s-0.004767) > 3e-5 {
+		t.Errorf("Σv² = %.6f m², published 0.004767", s)
+	}
+}
