@@ -24,9 +24,11 @@ type Factory struct {
 	// Getenv reads the environment (os.Getenv unless a test replaces it).
 	Getenv func(string) string
 
-	once sync.Once
-	pool *pgxpool.Pool
-	err  error
+	connOnce    sync.Once
+	migrateOnce sync.Once
+	pool        *pgxpool.Pool
+	connErr     error
+	migrateErr  error
 }
 
 // NewFactory returns a factory over the given streams.
@@ -60,36 +62,60 @@ func (f *Factory) Source() DatabaseSource {
 	return DatabaseSource{From: "embedded default", Embedded: true}
 }
 
-// Pool connects to the register (starting the embedded default when it is
-// the one chosen) and brings its schema up to date. It connects once.
-func (f *Factory) Pool(ctx context.Context) (*pgxpool.Pool, error) {
-	f.once.Do(func() {
+// Cluster returns the embedded default cluster, in the data folder named
+// by the factory's environment.
+func (f *Factory) Cluster() (*localpg.Cluster, error) {
+	dir, err := localpg.DefaultDir(f.Getenv)
+	if err != nil {
+		return nil, err
+	}
+	return localpg.New(dir), nil
+}
+
+// Conn connects to the register (starting the embedded default when it is
+// the one chosen) without touching its schema. It connects once.
+func (f *Factory) Conn(ctx context.Context) (*pgxpool.Pool, error) {
+	f.connOnce.Do(func() {
 		src := f.Source()
 		url := src.URL
 		if src.Embedded {
-			c, err := localpg.Default()
+			c, err := f.Cluster()
 			if err != nil {
-				f.err = err
+				f.connErr = err
 				return
 			}
 			if url, err = c.Start(ctx); err != nil {
-				f.err = err
+				f.connErr = fmt.Errorf("start the embedded default: %w", err)
 				return
 			}
 		}
 		pool, err := store.Open(ctx, url)
 		if err != nil {
-			f.err = fmt.Errorf("open register (%s): %w", src.From, err)
-			return
-		}
-		if err := store.Migrate(ctx, pool); err != nil {
-			pool.Close()
-			f.err = fmt.Errorf("bring register schema up to date: %w", err)
+			f.connErr = fmt.Errorf("open register (%s): %w", src.From, err)
 			return
 		}
 		f.pool = pool
 	})
-	return f.pool, f.err
+	return f.pool, f.connErr
+}
+
+// Pool connects to the register like Conn and brings its schema up to
+// date, once.
+func (f *Factory) Pool(ctx context.Context) (*pgxpool.Pool, error) {
+	f.migrateOnce.Do(func() {
+		pool, err := f.Conn(ctx)
+		if err != nil {
+			f.migrateErr = err
+			return
+		}
+		if err := store.Migrate(ctx, pool); err != nil {
+			f.migrateErr = fmt.Errorf("bring register schema up to date: %w", err)
+		}
+	})
+	if f.migrateErr != nil {
+		return nil, f.migrateErr
+	}
+	return f.pool, nil
 }
 
 // Close releases the database connection, if one was made.

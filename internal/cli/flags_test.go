@@ -15,13 +15,13 @@ func TestHeightSetFlags(t *testing.T) {
 	var got *heightSetOptions
 	cmd := newCmdHeightSet(f, func(o *heightSetOptions) error { got = o; return nil })
 	cmd.SetArgs([]string{"TC-0412", "769.830", "--unit", "usft", "--datum", "NAVD88", "--decimals", "3",
-		"--class", "2nd-I", "--source", "book", "--reason", "why", "--by", "a.clerk"})
+		"--class", "second-I", "--source", "book", "--reason", "why", "--by", "a.clerk"})
 	if err := cmd.ExecuteContext(context.Background()); err != nil {
 		t.Fatal(err)
 	}
 	p := got.params
 	if p.Designation != "TC-0412" || p.Value != "769.830" || p.Unit != "usft" || p.Datum != "NAVD88" ||
-		p.Decimals == nil || *p.Decimals != 3 || p.Class != "2nd-I" || p.Source != "book" || p.Reason != "why" || p.RecordedBy != "a.clerk" {
+		p.Decimals == nil || *p.Decimals != 3 || p.Class != "second-I" || p.Source != "book" || p.Reason != "why" || p.RecordedBy != "a.clerk" {
 		t.Fatalf("options %+v", p)
 	}
 	cmd = newCmdHeightSet(f, func(o *heightSetOptions) error { got = o; return nil })

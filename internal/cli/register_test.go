@@ -269,6 +269,7 @@ func TestBadInputChangesNothing(t *testing.T) {
 		{"misspelt unit", hs("769.90", "usf", "NAVD88", "r"), "unit"},
 		{"non-numeric height", hs("769.9O", "usft", "NAVD88", "r"), "value"},
 		{"empty reason", hs("769.90", "usft", "NAVD88", "  "), "reason"},
+		{"unknown class", append(hs("769.90", "usft", "NAVD88", "r"), "--class", "fourth"), "class"},
 		{"more decimals than published", append(hs("769.905", "usft", "NAVD88", "r"), "--decimals", "2"), "decimals"},
 		{"latitude 95", []string{"mark", "add", "TC-0500", "--lat", "95", "--lon", "-97.9"}, "lat"},
 		{"latitude not a number", []string{"mark", "add", "TC-0500", "--lat", "north", "--lon", "-97.9"}, "lat"},

@@ -76,6 +76,7 @@ codes and regulations that govern your work.`,
 	})
 	root.AddCommand(
 		// Command groups register here, one line each.
+		newCmdDB(f),
 		newCmdDatum(f),
 		newCmdMark(f),
 		newCmdHeight(f),
@@ -83,6 +84,7 @@ codes and regulations that govern your work.`,
 		newCmdAudit(f),
 		newCmdDemo(f),
 		newCmdRun(f),
+		newCmdAdjust(f, nil),
 	)
 	return root
 }

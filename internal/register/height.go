@@ -10,6 +10,7 @@ import (
 
 	"github.com/jackc/pgx/v5"
 
+	"cairn/internal/standards"
 	"cairn/internal/store"
 	"cairn/internal/units"
 )
@@ -39,7 +40,7 @@ type HeightSetParams struct {
 	// Decimals is the number of decimals published; nil means as many as
 	// Value is written with. Value may not carry more.
 	Decimals *int
-	Class    string // accuracy class, e.g. "2nd-I"
+	Class    string // accuracy class, e.g. "second-I" (standards.ParseClass)
 	// Kind is the source kind (KindAuthority unless set).
 	Kind string
 	// Source cites the publication (required for KindAuthority).
@@ -99,7 +100,15 @@ func checkHeight(p *HeightSetParams) (store.HeightInsertParams, error) {
 	if p.Kind == "" {
 		p.Kind = KindAuthority
 	}
-	ins := store.HeightInsertParams{Class: strings.TrimSpace(p.Class), SourceKind: p.Kind,
+	class := strings.TrimSpace(p.Class)
+	if class != "" {
+		c, err := standards.ParseClass(class)
+		if err != nil {
+			return store.HeightInsertParams{}, inputErr("class", "%v", err)
+		}
+		class = c.String()
+	}
+	ins := store.HeightInsertParams{Class: class, SourceKind: p.Kind,
 		Source: strings.TrimSpace(p.Source), AdjustmentID: p.AdjustmentID,
 		Reason: strings.TrimSpace(p.Reason), RecordedBy: strings.TrimSpace(p.RecordedBy)}
 	switch p.Kind {

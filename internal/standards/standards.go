@@ -40,11 +40,22 @@ var Classes = []Class{FirstI, FirstII, SecondI, SecondII, Third}
 // String returns the class's name as cairn writes it.
 func (c Class) String() string { return string(c) }
 
+// classAliases are the short spellings of order and class in common use
+// ("2nd-II" for second order, class II).
+var classAliases = map[string]string{
+	"1st-i": "first-i", "1st-ii": "first-ii", "2nd-i": "second-i", "2nd-ii": "second-ii", "3rd": "third",
+	"first-order-class-i": "first-i", "first-order-class-ii": "first-ii",
+	"second-order-class-i": "second-i", "second-order-class-ii": "second-ii", "third-order": "third",
+}
+
 // ParseClass reads a class name case-insensitively ("second-ii",
 // "Second-II"); spaces and underscores count as hyphens.
 func ParseClass(s string) (Class, error) {
 	k := strings.ToLower(strings.TrimSpace(s))
 	k = strings.NewReplacer(" ", "-", "_", "-").Replace(k)
+	if a, ok := classAliases[k]; ok {
+		k = a
+	}
 	for _, c := range Classes {
 		if strings.ToLower(string(c)) == k {
 			return c, nil

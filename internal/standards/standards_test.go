@@ -9,13 +9,14 @@ func TestParseClass(t *testing.T) {
 	for in, want := range map[string]Class{
 		"first-I": FirstI, "FIRST-i": FirstI, "first-ii": FirstII, " Second-I ": SecondI,
 		"second ii": SecondII, "second_II": SecondII, "THIRD": Third,
+		"2nd-II": SecondII, "1st-i": FirstI, "3rd": Third, "Second order class I": SecondI,
 	} {
 		got, err := ParseClass(in)
 		if err != nil || got != want {
 			t.Errorf("ParseClass(%q) = %q, %v; want %q", in, got, err, want)
 		}
 	}
-	for _, bad := range []string{"", "fourth", "first", "2nd-II", "first-III"} {
+	for _, bad := range []string{"", "fourth", "first", "2nd-III", "first-III"} {
 		if _, err := ParseClass(bad); err == nil {
 			t.Errorf("ParseClass(%q) accepted", bad)
 		}

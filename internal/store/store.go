@@ -72,7 +72,8 @@ func MigrateDown(ctx context.Context, pool *pgxpool.Pool) error {
 	return err
 }
 
-// SchemaVersion returns the applied schema version and the newest known.
+// SchemaVersion returns the applied schema version (0 for a database
+// never migrated, which it leaves untouched) and the newest known.
 func SchemaVersion(ctx context.Context, pool *pgxpool.Pool) (current, latest int64, err error) {
 	db := stdlib.OpenDBFromPool(pool)
 	defer db.Close()
@@ -80,12 +81,18 @@ func SchemaVersion(ctx context.Context, pool *pgxpool.Pool) (current, latest int
 	if err != nil {
 		return 0, 0, err
 	}
+	if srcs := p.ListSources(); len(srcs) > 0 {
+		latest = srcs[len(srcs)-1].Version
+	}
+	var migrated bool
+	if err := pool.QueryRow(ctx, "SELECT to_regclass('goose_db_version') IS NOT NULL").Scan(&migrated); err != nil {
+		return 0, 0, fmt.Errorf("look for schema version table: %w", err)
+	}
+	if !migrated {
+		return 0, latest, nil
+	}
 	if current, err = p.GetDBVersion(ctx); err != nil {
 		return 0, 0, err
-	}
-	srcs := p.ListSources()
-	if len(srcs) > 0 {
-		latest = srcs[len(srcs)-1].Version
 	}
 	return current, latest, nil
 }
