@@ -465,3 +465,29 @@ func BenchmarkRecord20kSetups(b *testing.B) {
 		}
 	}
 }
+
+// The database itself refuses a run whose SHA-256 is not that of its book,
+// and failed checks without a reason.
+func TestRunConstraints(t *testing.T) {
+	t.Parallel()
+	b := runSetup(t)
+	book := []byte(loopBook)
+	sum := sha256.Sum256(book)
+	other := sha256.Sum256(append(book, '\n'))
+	for _, c := range []struct {
+		p    store.RunInsertParams
+		want string
+	}{
+		{store.RunInsertParams{Unit: "m", FileName: "a.csv", Book: book, BookSHA256: other[:], RecordedBy: "t"}, "run_book_sha256"},
+		{store.RunInsertParams{Unit: "m", FileName: "a.csv", Book: book, BookSHA256: sum[:], RecordedBy: "t", ChecksFailed: 2}, "run_failed_checks_accepted"},
+		{store.RunInsertParams{Unit: "m", FileName: "a.csv", Book: book, BookSHA256: sum[:], RecordedBy: "t", AcceptedReason: "why"}, "run_failed_checks_accepted"},
+		{store.RunInsertParams{Unit: "yd", FileName: "a.csv", Book: book, BookSHA256: sum[:], RecordedBy: "t"}, "run_unit_check"},
+	} {
+		if _, err := store.RunInsert(b.ctx, b.db.Pool, c.p); err == nil || !strings.Contains(err.Error(), c.want) {
+			t.Errorf("%s: error %v", c.want, err)
+		}
+	}
+	if _, err := store.RunInsert(b.ctx, b.db.Pool, store.RunInsertParams{Unit: "m", FileName: "a.csv", Book: book, BookSHA256: sum[:], RecordedBy: "t"}); err != nil {
+		t.Errorf("a consistent run: %v", err)
+	}
+}
