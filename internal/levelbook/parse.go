@@ -1,0 +1,512 @@
+package levelbook
+
+import (
+	"bytes"
+	"encoding/csv"
+	"errors"
+	"fmt"
+	"io"
+	"math"
+	"os"
+	"path"
+	"regexp"
+	"strconv"
+	"strings"
+	"time"
+	"unicode/utf8"
+
+	"cairn/internal/standards"
+	"cairn/internal/units"
+)
+
+// Columns are the column names the header row may use, in the order the
+// format describes them.
+var Columns = []string{"point", "sight", "upper", "middle", "lower", "distance", "note"}
+
+// required columns.
+var requiredColumns = []string{"point", "sight", "middle"}
+
+// Keys are the metadata keys a book may set, in the order the format
+// describes them. Keys starting with "x-" are also allowed and kept.
+var Keys = []string{"run", "date", "crew", "instrument", "rod", "units", "stadia-factor", "stadia-constant", "datum", "class", "reading", "turning-points"}
+
+// metaLine matches a metadata comment: "# key: value".
+var metaLine = regexp.MustCompile(`^#\s*([A-Za-z][A-Za-z0-9_-]*)\s*:(.*)$`)
+
+// ReadFile reads and parses the level book at path; the path as given
+// names the book in errors. A file that cannot be read is an *Error too.
+func ReadFile(name string) (*Book, error) {
+	data, err := os.ReadFile(name)
+	if err != nil {
+		var pe *os.PathError
+		if errors.As(err, &pe) {
+			err = pe.Err
+		}
+		return nil, &Error{File: name, Msg: "cannot read the book: " + err.Error()}
+	}
+	return Parse(name, data)
+}
+
+// Parse parses the level book data; name (usually the file's path) prefixes
+// every error. The error, if any, is an *Error naming the line and field of
+// the first fault found.
+func Parse(name string, data []byte) (*Book, error) {
+	p := &parser{book: &Book{Name: name}}
+	if err := p.parse(data); err != nil {
+		return nil, err
+	}
+	return p.book, nil
+}
+
+type parser struct {
+	book *Book
+	tp   []string // turning-point patterns, upper case
+}
+
+func (p *parser) errorf(line int, field, format string, a ...any) *Error {
+	return &Error{File: p.book.Name, Line: line, Field: field, Msg: fmt.Sprintf(format, a...)}
+}
+
+func (p *parser) parse(data []byte) error {
+	data = bytes.TrimPrefix(data, []byte("\xEF\xBB\xBF"))
+	if !utf8.Valid(data) {
+		line := 1 + bytes.Count(data[:firstInvalid(data)], []byte("\n"))
+		return p.errorf(line, "", "not UTF-8 text")
+	}
+	if err := p.parseMeta(data); err != nil {
+		return err
+	}
+
+	r := csv.NewReader(bytes.NewReader(data))
+	r.Comment = '#'
+	r.FieldsPerRecord = -1
+	var cols map[string]int
+	for {
+		rec, err := r.Read()
+		if err == io.EOF {
+			break
+		}
+		if err != nil {
+			var ce *csv.ParseError
+			if errors.As(err, &ce) {
+				return p.errorf(ce.Line, "", "bad CSV: %v", ce.Err)
+			}
+			return p.errorf(0, "", "bad CSV: %v", err)
+		}
+		line, _ := r.FieldPos(0)
+		if cols == nil {
+			if cols, err = p.parseHeader(line, rec); err != nil {
+				return err
+			}
+			continue
+		}
+		s, err := p.parseRow(line, rec, cols)
+		if err != nil {
+			return err
+		}
+		p.book.Sightings = append(p.book.Sightings, s)
+	}
+	if cols == nil {
+		return p.errorf(0, "", "the book is empty: no header row")
+	}
+	if len(p.book.Sightings) == 0 {
+		return p.errorf(p.book.HeaderLine, "", "the book has no sightings after the header row")
+	}
+	return p.checkShape()
+}
+
+func firstInvalid(b []byte) int {
+	for i := 0; i < len(b); {
+		r, n := utf8.DecodeRune(b[i:])
+		if r == utf8.RuneError && n <= 1 {
+			return i
+		}
+		i += n
+	}
+	return len(b)
+}
+
+// parseMeta reads the comment lines before the first line that is neither
+// blank nor a comment (the header row).
+func (p *parser) parseMeta(data []byte) error {
+	m := &p.book.Meta
+	m.StadiaFactor = standards.StadiaFactor
+	m.StadiaConstant = standards.StadiaConstant
+	m.Reading = DefaultReading
+	m.TurningPoints = DefaultTurningPoints
+	m.Lines = map[string]int{}
+	headerLine := 0
+	for i, raw := range strings.Split(string(data), "\n") {
+		line := i + 1
+		text := strings.TrimRight(raw, "\r")
+		if strings.TrimSpace(text) == "" {
+			continue
+		}
+		if !strings.HasPrefix(text, "#") {
+			headerLine = line
+			break
+		}
+		sm := metaLine.FindStringSubmatch(text)
+		if sm == nil {
+			continue // a free comment
+		}
+		key, value := strings.ToLower(sm[1]), strings.TrimSpace(sm[2])
+		if prev, dup := m.Lines[key]; dup {
+			return p.errorf(line, key, "set twice (first on line %d)", prev)
+		}
+		m.Lines[key] = line
+		if err := p.setMeta(line, key, value); err != nil {
+			return err
+		}
+	}
+	if headerLine == 0 {
+		return nil // empty: reported by parse
+	}
+	if m.Unit == "" {
+		return p.errorf(headerLine, "units", "the book does not say its unit: add \"# units: m\" (or ft, usft) before the header row")
+	}
+	pats, err := compilePatterns(m.TurningPoints)
+	if err != nil {
+		return p.errorf(m.Lines["turning-points"], "turning-points", "%v", err)
+	}
+	p.tp = pats
+	return nil
+}
+
+func (p *parser) setMeta(line int, key, value string) error {
+	m := &p.book.Meta
+	bad := func(format string, a ...any) error { return p.errorf(line, key, format, a...) }
+	if strings.HasPrefix(key, "x-") {
+		if m.Extra == nil {
+			m.Extra = map[string]string{}
+		}
+		m.Extra[key] = value
+		return nil
+	}
+	switch key {
+	case "run":
+		m.Run = value
+	case "date":
+		if _, err := time.Parse(time.DateOnly, value); err != nil {
+			return bad("not a date %q (want YYYY-MM-DD)", value)
+		}
+		m.Date = value
+	case "crew":
+		m.Crew = value
+	case "instrument":
+		m.Instrument = value
+	case "rod":
+		m.Rod = value
+	case "datum":
+		m.Datum = value
+	case "units":
+		switch u := units.Unit(strings.ToLower(value)); u {
+		case units.Metre, units.Foot, units.USSurveyFoot:
+			m.Unit = u
+		default:
+			return bad("unknown unit %q (want m, ft or usft)", value)
+		}
+	case "stadia-factor":
+		v, err := parseNumber(value)
+		if err != nil {
+			return bad("%v", err)
+		}
+		if v <= 0 {
+			return bad("must be positive, not %s", value)
+		}
+		m.StadiaFactor = v
+	case "stadia-constant":
+		v, err := parseNumber(value)
+		if err != nil {
+			return bad("%v", err)
+		}
+		m.StadiaConstant = v
+	case "class":
+		c, err := standards.ParseClass(value)
+		if err != nil {
+			return bad("%v", err)
+		}
+		m.Class = c
+	case "reading":
+		switch r := ReadingMode(strings.ToLower(value)); r {
+		case ReadMean, ReadMiddle:
+			m.Reading = r
+		default:
+			return bad("unknown reading %q (want mean or middle)", value)
+		}
+	case "turning-points":
+		if value == "" {
+			return bad("empty pattern")
+		}
+		m.TurningPoints = value
+	default:
+		msg := "unknown key"
+		if s := suggest(key, Keys); s != "" {
+			msg += fmt.Sprintf(" (did you mean %q?)", s)
+		}
+		return bad("%s; keys of your own start with \"x-\"", msg)
+	}
+	return nil
+}
+
+// compilePatterns splits a comma-separated list of shell patterns and
+// checks each.
+func compilePatterns(list string) ([]string, error) {
+	var pats []string
+	for _, f := range strings.Split(list, ",") {
+		f = strings.ToUpper(strings.TrimSpace(f))
+		if f == "" {
+			return nil, fmt.Errorf("empty pattern in %q", list)
+		}
+		if _, err := path.Match(f, ""); err != nil {
+			return nil, fmt.Errorf("bad pattern %q", f)
+		}
+		pats = append(pats, f)
+	}
+	return pats, nil
+}
+
+// IsTurningPoint reports whether point matches the book's turning-point
+// pattern.
+func (b *Book) IsTurningPoint(point string) bool {
+	pats, err := compilePatterns(b.Meta.TurningPoints)
+	if err != nil {
+		return false
+	}
+	return matchAny(pats, point)
+}
+
+func matchAny(pats []string, point string) bool {
+	up := strings.ToUpper(point)
+	for _, p := range pats {
+		if ok, _ := path.Match(p, up); ok {
+			return true
+		}
+	}
+	return false
+}
+
+func (p *parser) parseHeader(line int, rec []string) (map[string]int, error) {
+	p.book.HeaderLine = line
+	rec = trimTrailingEmpty(rec)
+	cols := map[string]int{}
+	for i, c := range rec {
+		c = strings.ToLower(strings.TrimSpace(c))
+		if c == "" {
+			return nil, p.errorf(line, "", "column %d of the header row has no name", i+1)
+		}
+		if _, dup := cols[c]; dup {
+			return nil, p.errorf(line, c, "column named twice")
+		}
+		known := strings.HasPrefix(c, "x-")
+		for _, k := range Columns {
+			known = known || c == k
+		}
+		if !known {
+			msg := "unknown column"
+			if s := suggest(c, Columns); s != "" {
+				msg += fmt.Sprintf(" (did you mean %q?)", s)
+			}
+			return nil, p.errorf(line, c, "%s; columns of your own start with \"x-\"", msg)
+		}
+		cols[c] = i
+		p.book.Columns = append(p.book.Columns, c)
+	}
+	for _, c := range requiredColumns {
+		if _, ok := cols[c]; !ok {
+			return nil, p.errorf(line, c, "required column missing from the header row")
+		}
+	}
+	return cols, nil
+}
+
+func trimTrailingEmpty(rec []string) []string {
+	for len(rec) > 0 && strings.TrimSpace(rec[len(rec)-1]) == "" {
+		rec = rec[:len(rec)-1]
+	}
+	return rec
+}
+
+func (p *parser) parseRow(line int, rec []string, cols map[string]int) (Sighting, error) {
+	s := Sighting{Line: line, DistanceFrom: DistanceNone}
+	if n := len(trimTrailingEmpty(rec)); n > len(p.book.Columns) {
+		return s, p.errorf(line, "", "%d cells, but the header row names %d columns", n, len(p.book.Columns))
+	}
+	cell := func(name string) string {
+		if i, ok := cols[name]; ok && i < len(rec) {
+			return strings.TrimSpace(rec[i])
+		}
+		return ""
+	}
+	m := p.book.Meta
+
+	s.Point = cell("point")
+	if s.Point == "" {
+		return s, p.errorf(line, "point", "no point name")
+	}
+	s.TurningPoint = matchAny(p.tp, s.Point)
+	switch sight := Sight(strings.ToUpper(cell("sight"))); sight {
+	case Backsight, Intermediate, Foresight:
+		s.Sight = sight
+	case "":
+		return s, p.errorf(line, "sight", "no sight kind (want BS, IS or FS)")
+	default:
+		return s, p.errorf(line, "sight", "unknown sight %q (want BS, IS or FS)", cell("sight"))
+	}
+	s.Note = cell("note")
+
+	num := func(field string) (float64, string, bool, error) {
+		raw := cell(field)
+		if raw == "" {
+			return 0, "", false, nil
+		}
+		v, err := parseNumber(raw)
+		if err != nil {
+			return 0, raw, false, p.errorf(line, field, "%v", err)
+		}
+		return v, raw, true, nil
+	}
+	var err error
+	var hasMiddle, hasUpper, hasLower, hasDist bool
+	if s.Middle, s.Raw.Middle, hasMiddle, err = num("middle"); err != nil {
+		return s, err
+	}
+	if !hasMiddle {
+		return s, p.errorf(line, "middle", "no reading")
+	}
+	if s.Upper, s.Raw.Upper, hasUpper, err = num("upper"); err != nil {
+		return s, err
+	}
+	if s.Lower, s.Raw.Lower, hasLower, err = num("lower"); err != nil {
+		return s, err
+	}
+	if s.Distance, s.Raw.Distance, hasDist, err = num("distance"); err != nil {
+		return s, err
+	}
+	switch {
+	case hasUpper && !hasLower:
+		return s, p.errorf(line, "lower", "no lower reading, though the upper is booked (book both stadia wires or neither)")
+	case hasLower && !hasUpper:
+		return s, p.errorf(line, "upper", "no upper reading, though the lower is booked (book both stadia wires or neither)")
+	case hasUpper:
+		if s.Upper < s.Lower {
+			return s, p.errorf(line, "upper", "wires out of order: upper %s is below lower %s", s.Raw.Upper, s.Raw.Lower)
+		}
+		if s.Middle > s.Upper || s.Middle < s.Lower {
+			return s, p.errorf(line, "middle", "wires out of order: middle %s is not between lower %s and upper %s", s.Raw.Middle, s.Raw.Lower, s.Raw.Upper)
+		}
+		s.ThreeWire = true
+	}
+	if hasDist && s.Distance < 0 {
+		return s, p.errorf(line, "distance", "negative distance %s", s.Raw.Distance)
+	}
+	if s.ThreeWire {
+		stadia := m.StadiaFactor*(s.Upper-s.Lower) + m.StadiaConstant
+		if hasDist {
+			// The booked and stadia distances must agree within the stadia
+			// factor times the three-wire tolerance (a reading error of
+			// standards.ThreeWireM on the interval), in the book's unit.
+			tol := m.StadiaFactor * m.Unit.FromMetres(standards.ThreeWireM)
+			if math.Abs(s.Distance-stadia) > tol+1e-9 {
+				return s, p.errorf(line, "distance", "distance %s disagrees with the stadia distance %s by more than %s %s",
+					s.Raw.Distance, strconv.FormatFloat(stadia, 'f', 2, 64), strconv.FormatFloat(tol, 'f', 2, 64), m.Unit)
+			}
+			s.DistanceFrom = DistanceMeasured
+		} else {
+			if stadia < 0 {
+				return s, p.errorf(line, "upper", "negative stadia distance %s (check the stadia constant)", strconv.FormatFloat(stadia, 'f', 2, 64))
+			}
+			s.Distance = stadia
+			s.DistanceFrom = DistanceStadia
+		}
+	} else if hasDist {
+		s.DistanceFrom = DistanceMeasured
+	}
+	return s, nil
+}
+
+// parseNumber reads a finite decimal number.
+func parseNumber(s string) (float64, error) {
+	v, err := strconv.ParseFloat(s, 64)
+	if err != nil || math.IsNaN(v) || math.IsInf(v, 0) || strings.ContainsAny(s, "xXpP_") || strings.HasPrefix(strings.TrimLeft(s, "+-"), "0x") {
+		return 0, fmt.Errorf("not a number %q", s)
+	}
+	return v, nil
+}
+
+// checkShape checks that the sightings form setups: BS, any number of IS,
+// FS; each BS on the point of the FS before it; starting and ending on a
+// mark.
+func (p *parser) checkShape() error {
+	ss := p.book.Sightings
+	first := ss[0]
+	if first.Sight != Backsight {
+		return p.errorf(first.Line, "sight", "the run must begin with a backsight, not %s", first.Sight)
+	}
+	if first.TurningPoint {
+		return p.errorf(first.Line, "point", "the run starts on turning point %q; it must start on a mark", first.Point)
+	}
+	open := -1   // index of the backsight of the open setup
+	lastFS := -1 // index of the last foresight
+	for i, s := range ss {
+		switch s.Sight {
+		case Backsight:
+			if open >= 0 {
+				return p.errorf(s.Line, "sight", "a second backsight in a row: the setup begun on line %d has no foresight", ss[open].Line)
+			}
+			if lastFS >= 0 && ss[lastFS].Point != s.Point {
+				return p.errorf(s.Line, "point", "backsight on %q, but the foresight before it (line %d) was on %q", s.Point, ss[lastFS].Line, ss[lastFS].Point)
+			}
+			open = i
+		case Intermediate:
+			if open < 0 {
+				return p.errorf(s.Line, "sight", "an intermediate sight outside a setup: no backsight before it since line %d", ss[lastFS].Line)
+			}
+		case Foresight:
+			if open < 0 {
+				return p.errorf(s.Line, "sight", "a foresight without a backsight: the setup ended on line %d", ss[lastFS].Line)
+			}
+			open, lastFS = -1, i
+		}
+	}
+	if open >= 0 {
+		return p.errorf(ss[open].Line, "sight", "the book ends after this backsight: the setup has no foresight")
+	}
+	if last := ss[lastFS]; last.TurningPoint {
+		return p.errorf(last.Line, "point", "the run ends on turning point %q; it must end on a mark", last.Point)
+	}
+	return nil
+}
+
+// suggest returns the word of list closest to s when it is close enough to
+// be a likely typo, else "".
+func suggest(s string, list []string) string {
+	best, bestD := "", 3
+	for _, w := range list {
+		if d := editDistance(s, w); d < bestD {
+			best, bestD = w, d
+		}
+	}
+	return best
+}
+
+// editDistance is the Levenshtein distance between a and b.
+func editDistance(a, b string) int {
+	prev := make([]int, len(b)+1)
+	cur := make([]int, len(b)+1)
+	for j := range prev {
+		prev[j] = j
+	}
+	for i := 1; i <= len(a); i++ {
+		cur[0] = i
+		for j := 1; j <= len(b); j++ {
+			cost := 1
+			if a[i-1] == b[j-1] {
+				cost = 0
+			}
+			cur[j] = min(prev[j]+1, cur[j-1]+1, prev[j-1]+cost)
+		}
+		prev, cur = cur, prev
+	}
+	return prev[len(b)]
+}

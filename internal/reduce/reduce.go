@@ -1,0 +1,431 @@
+package reduce
+
+import (
+	"fmt"
+	"math"
+	"slices"
+	"sort"
+	"strings"
+
+	"cairn/internal/levelbook"
+	"cairn/internal/standards"
+	"cairn/internal/units"
+)
+
+// Curvature and refraction, after Ghilani & Wolf, "Elementary Surveying":
+//
+//	h_cr = (1 − k) · d² / (2R)
+//
+// with d the sight length, R the earth's radius and k the coefficient of
+// refraction (refraction taken as k times the curvature). With the
+// textbook's k = 0.14 and R = 20,906,000 ft this gives their table (500 ft
+// → 0.005142 ft, 1000 ft → 0.020568 ft, 5000 ft → 0.514206 ft) and their
+// rounded formula 0.0675 K² m (K in km).
+const (
+	RefractionK   = 0.14
+	EarthRadiusM  = 20_906_000 * 0.3048 // 20,906,000 international feet
+	crCoefficient = (1 - RefractionK) / (2 * EarthRadiusM)
+)
+
+// CurvatureRefractionM returns the combined curvature-and-refraction
+// correction h_cr in metres of a sight of distanceM metres. A level reading
+// is too high by h_cr; the corrected reading is the reading minus h_cr.
+func CurvatureRefractionM(distanceM float64) float64 {
+	return crCoefficient * distanceM * distanceM
+}
+
+// eps absorbs the rounding of float64 arithmetic in comparisons with a
+// limit, so a value exactly at its limit passes.
+const eps = 1e-9
+
+// Reduce reduces book with opts. It fails only on options that do not fit
+// the book (a held mark not on the line, a turning point held, a correction
+// asked for sights without distances); the checks' outcome is in the
+// result.
+func Reduce(book *levelbook.Book, opts Options) (*Result, error) {
+	if book == nil || len(book.Sightings) == 0 {
+		return nil, fmt.Errorf("reduce: empty book")
+	}
+	m := book.Meta
+	r := &Result{
+		Name:                book.Name,
+		Meta:                m,
+		Unit:                m.Unit,
+		Class:               m.Class,
+		Reading:             m.Reading,
+		CurvatureRefraction: opts.CurvatureRefraction,
+		Book:                book,
+	}
+	if opts.Class != "" {
+		r.Class = opts.Class
+	}
+	if r.Class != "" {
+		t := standards.For(r.Class)
+		r.Tolerances = &t
+	}
+	if err := r.setHeld(book, opts.Hold); err != nil {
+		return nil, err
+	}
+	if err := r.reduceRows(book); err != nil {
+		return nil, err
+	}
+	r.buildSections()
+	r.anchor()
+	r.buildMisclosures()
+	r.check()
+	return r, nil
+}
+
+// setHeld checks the held marks against the book.
+func (r *Result) setHeld(book *levelbook.Book, hold map[string]float64) error {
+	if len(hold) == 0 {
+		return nil
+	}
+	onLine := map[string]bool{}
+	for _, s := range book.Sightings {
+		if s.Sight != levelbook.Intermediate && !s.TurningPoint {
+			onLine[s.Point] = true
+		}
+	}
+	names := make([]string, 0, len(hold))
+	for name := range hold {
+		names = append(names, name)
+	}
+	sort.Strings(names)
+	r.Held = map[string]float64{}
+	for _, name := range names {
+		h := hold[name]
+		if math.IsNaN(h) || math.IsInf(h, 0) {
+			return fmt.Errorf("held height of %s is not a number", name)
+		}
+		if book.IsTurningPoint(name) {
+			return fmt.Errorf("cannot hold %s: it is a turning point", name)
+		}
+		if !onLine[name] {
+			return fmt.Errorf("cannot hold %s: no backsight or foresight on it in %s", name, book.Name)
+		}
+		r.Held[name] = h
+	}
+	return nil
+}
+
+// reduceRows computes readings, heights of instrument and point heights
+// (from 0 on the first point; anchor shifts them) and the setups.
+func (r *Result) reduceRows(book *levelbook.Book) error {
+	u := book.Meta.Unit
+	h := 0.0 // height of the current backsight point
+	var cur *Setup
+	for i, s := range book.Sightings {
+		row := Row{
+			Line:         s.Line,
+			Index:        i,
+			Point:        s.Point,
+			Sight:        s.Sight,
+			TurningPoint: s.TurningPoint,
+			ReadingM:     u.ToMetres(s.Reading(book.Meta.Reading)),
+			HasDistance:  s.HasDistance(),
+			Note:         s.Note,
+		}
+		if row.HasDistance {
+			row.DistanceM = u.ToMetres(s.Distance)
+		}
+		if r.CurvatureRefraction {
+			if !row.HasDistance {
+				return fmt.Errorf("%s:%d: curvature and refraction need the sight's length, and this sighting has none", book.Name, s.Line)
+			}
+			row.CorrectionM = CurvatureRefractionM(row.DistanceM)
+			row.ReadingM -= row.CorrectionM
+		}
+		switch s.Sight {
+		case levelbook.Backsight:
+			r.Setups = append(r.Setups, Setup{
+				Number:              len(r.Setups) + 1,
+				Back:                i,
+				BackPoint:           s.Point,
+				BackLine:            s.Line,
+				BacksightM:          row.ReadingM,
+				HeightOfInstrumentM: h + row.ReadingM,
+				BackDistanceM:       row.DistanceM,
+				HasDistances:        row.HasDistance,
+			})
+			cur = &r.Setups[len(r.Setups)-1]
+			row.HeightM = h
+		case levelbook.Intermediate:
+			cur.Intermediate = append(cur.Intermediate, i)
+			row.HeightM = cur.HeightOfInstrumentM - row.ReadingM
+		case levelbook.Foresight:
+			cur.Fore, cur.ForePoint, cur.ForeLine = i, s.Point, s.Line
+			cur.ForesightM = row.ReadingM
+			cur.ForeDistanceM = row.DistanceM
+			cur.HasDistances = cur.HasDistances && row.HasDistance
+			cur.DifferenceM = cur.BacksightM - cur.ForesightM
+			row.HeightM = cur.HeightOfInstrumentM - row.ReadingM
+			cur.ForeHeightM = row.HeightM
+			if cur.HasDistances {
+				cur.ImbalanceM = cur.BackDistanceM - cur.ForeDistanceM
+			}
+			h = row.HeightM
+		}
+		row.Setup = len(r.Setups)
+		row.HeightOfInstrumentM = cur.HeightOfInstrumentM
+		r.Rows = append(r.Rows, row)
+	}
+	return nil
+}
+
+// buildSections groups the setups into sections from mark to mark.
+func (r *Result) buildSections() {
+	var sec *Section
+	cumLen, cumSetups := 0.0, 0
+	for i := range r.Setups {
+		st := &r.Setups[i]
+		if sec == nil {
+			r.Sections = append(r.Sections, Section{
+				Number:      len(r.Sections) + 1,
+				From:        st.BackPoint,
+				FromLine:    st.BackLine,
+				FirstSetup:  st.Number,
+				HasLength:   true,
+				FromHeightM: r.Rows[st.Back].HeightM,
+			})
+			sec = &r.Sections[len(r.Sections)-1]
+		}
+		st.Section = sec.Number
+		sec.Setups++
+		sec.DifferenceM += st.DifferenceM
+		if st.HasDistances {
+			sec.LengthM += st.BackDistanceM + st.ForeDistanceM
+			sec.ImbalanceM += st.ImbalanceM
+		} else {
+			sec.HasLength = false
+		}
+		st.AccumulatedImbalanceM = sec.ImbalanceM
+		if !r.Rows[st.Fore].TurningPoint {
+			sec.To, sec.ToLine, sec.LastSetup = st.ForePoint, st.ForeLine, st.Number
+			sec.ToHeightM = st.ForeHeightM
+			cumLen += sec.LengthM
+			cumSetups += sec.Setups
+			sec.CumulativeLengthM, sec.CumulativeSetups = cumLen, cumSetups
+			sec = nil
+		}
+	}
+	first, last := r.Sections[0], r.Sections[len(r.Sections)-1]
+	r.Start, r.End = first.From, last.To
+	r.Loop = r.Start == r.End
+}
+
+// anchor shifts every height so that the first held mark the run reaches
+// takes its held height; with none held, heights stay relative to the
+// start at 0.
+func (r *Result) anchor() {
+	shift, found := 0.0, false
+	for _, row := range r.Rows {
+		if hv, ok := r.Held[row.Point]; ok && row.Sight != levelbook.Intermediate {
+			shift, found = hv-row.HeightM, true
+			break
+		}
+	}
+	r.Relative = !found
+	if shift == 0 {
+		return
+	}
+	for i := range r.Rows {
+		r.Rows[i].HeightM += shift
+		r.Rows[i].HeightOfInstrumentM += shift
+	}
+	for i := range r.Setups {
+		r.Setups[i].HeightOfInstrumentM += shift
+		r.Setups[i].ForeHeightM += shift
+	}
+	for i := range r.Sections {
+		r.Sections[i].FromHeightM += shift
+		r.Sections[i].ToHeightM += shift
+	}
+}
+
+// buildMisclosures closes the loop on itself (when its start is not held)
+// and each stretch between consecutive held marks.
+func (r *Result) buildMisclosures() {
+	// Marks of the line in order: the start, then the end of each section.
+	type stop struct {
+		mark string
+		sec  int // sections before this stop
+	}
+	stops := []stop{{r.Start, 0}}
+	for i, s := range r.Sections {
+		stops = append(stops, stop{s.To, i + 1})
+	}
+	add := func(kind string, a, b stop, known float64) {
+		ms := Misclosure{
+			Kind:         kind,
+			From:         a.mark,
+			To:           b.mark,
+			FromLine:     r.Sections[a.sec].FromLine,
+			ToLine:       r.Sections[b.sec-1].ToLine,
+			FirstSection: a.sec + 1,
+			LastSection:  b.sec,
+			KnownM:       known,
+			HasLength:    true,
+		}
+		for _, s := range r.Sections[a.sec:b.sec] {
+			ms.ObservedM += s.DifferenceM
+			ms.LengthM += s.LengthM
+			ms.Setups += s.Setups
+			ms.HasLength = ms.HasLength && s.HasLength
+		}
+		ms.MisclosureM = ms.ObservedM - ms.KnownM
+		if r.Tolerances != nil && ms.HasLength && ms.LengthM > 0 {
+			ms.AllowableM = r.Tolerances.AllowableLoopM(ms.LengthM)
+			ms.HasAllowable = true
+			ms.Pass = math.Abs(ms.MisclosureM) <= ms.AllowableM+eps
+		}
+		r.Misclosures = append(r.Misclosures, ms)
+	}
+	if _, held := r.Held[r.Start]; r.Loop && !held {
+		add("loop", stops[0], stops[len(stops)-1], 0)
+	}
+	prev := -1
+	for i, st := range stops {
+		if _, ok := r.Held[st.mark]; !ok {
+			continue
+		}
+		if prev >= 0 {
+			a, b := stops[prev], st
+			kind := "line"
+			if a.mark == b.mark {
+				kind = "loop"
+			}
+			add(kind, a, b, r.Held[b.mark]-r.Held[a.mark])
+		}
+		prev = i
+	}
+}
+
+// check runs the quality checks and lists every failure.
+func (r *Result) check() {
+	u := r.Unit
+	dec := Decimals(u)
+	f := func(m float64) string { return units.Format(u.FromMetres(m), dec) + " " + string(u) }
+	fd := func(m float64) string { return units.Format(u.FromMetres(m), DistanceDecimals) + " " + string(u) }
+	checks := map[CheckKind]*Check{}
+	order := []CheckKind{CheckThreeWire, CheckDistance, CheckSightLength, CheckSetupImbalance, CheckSectionImbalance, CheckMisclosure, CheckClosure}
+	for _, k := range order {
+		checks[k] = &Check{Kind: k}
+	}
+	fail := func(k CheckKind, line int, subject string, value, limit float64, format string, a ...any) {
+		checks[k].Failed++
+		r.Failures = append(r.Failures, Failure{Kind: k, Line: line, Subject: subject, ValueM: value, LimitM: limit, Message: fmt.Sprintf(format, a...)})
+	}
+	t := r.Tolerances
+	noClass := "no accuracy class: name one with \"# class:\" in the book or --class"
+
+	// Three-wire consistency, every class (EN0593 §4).
+	c := checks[CheckThreeWire]
+	c.Tolerance = "half-intervals agree within " + f(standards.ThreeWireM)
+	c.Source = standards.ThreeWireSource
+	for _, s := range r.Book.Sightings {
+		if !s.ThreeWire {
+			continue
+		}
+		c.Checked++
+		d := u.ToMetres(math.Abs((s.Upper - s.Middle) - (s.Middle - s.Lower)))
+		if d > standards.ThreeWireM+eps {
+			fail(CheckThreeWire, s.Line, s.Point, d, standards.ThreeWireM,
+				"half-intervals %s and %s differ by %s (limit %s): reobserve",
+				units.Format(s.Upper-s.Middle, dec), units.Format(s.Middle-s.Lower, dec), f(d), f(standards.ThreeWireM))
+		}
+	}
+	if c.Checked == 0 {
+		c.NotMade = "no sighting has all three wires"
+	}
+
+	// Class checks: distances, sight length, imbalances.
+	for _, k := range []CheckKind{CheckDistance, CheckSightLength, CheckSetupImbalance, CheckSectionImbalance, CheckMisclosure} {
+		if t == nil {
+			checks[k].NotMade = noClass
+		} else {
+			checks[k].Source = t.Source
+		}
+	}
+	if t != nil {
+		checks[CheckDistance].Tolerance = "every backsight and foresight has a length"
+		checks[CheckSightLength].Tolerance = "sights at most " + fd(t.MaxSightM)
+		checks[CheckSetupImbalance].Tolerance = "backsight − foresight length within " + fd(t.MaxSetupImbalanceM) + " per setup"
+		checks[CheckSectionImbalance].Tolerance = "within " + fd(t.MaxSectionImbalanceM) + " accumulated per section"
+		checks[CheckMisclosure].Tolerance = fmt.Sprintf("%g mm·√km (%s, E = length in km)", t.LoopMmSqrtKm, t.Class)
+		for _, row := range r.Rows {
+			if row.Sight == levelbook.Intermediate {
+				continue
+			}
+			checks[CheckDistance].Checked++
+			if !row.HasDistance {
+				fail(CheckDistance, row.Line, row.Point, 0, 0, "no sight length (book the stadia wires or a distance): class %s cannot be checked", t.Class)
+				continue
+			}
+			checks[CheckSightLength].Checked++
+			if row.DistanceM > t.MaxSightM+eps {
+				fail(CheckSightLength, row.Line, row.Point, row.DistanceM, t.MaxSightM, "sight of %s is longer than %s", fd(row.DistanceM), fd(t.MaxSightM))
+			}
+		}
+		for _, st := range r.Setups {
+			if !st.HasDistances {
+				continue
+			}
+			checks[CheckSetupImbalance].Checked++
+			if math.Abs(st.ImbalanceM) > t.MaxSetupImbalanceM+eps {
+				fail(CheckSetupImbalance, st.ForeLine, fmt.Sprintf("setup %d", st.Number), st.ImbalanceM, t.MaxSetupImbalanceM,
+					"backsight %s, foresight %s: imbalance %s exceeds %s", fd(st.BackDistanceM), fd(st.ForeDistanceM), fd(st.ImbalanceM), fd(t.MaxSetupImbalanceM))
+			}
+		}
+		for _, s := range r.Sections {
+			if !s.HasLength {
+				continue
+			}
+			checks[CheckSectionImbalance].Checked++
+			if math.Abs(s.ImbalanceM) > t.MaxSectionImbalanceM+eps {
+				fail(CheckSectionImbalance, s.ToLine, s.From+" to "+s.To, s.ImbalanceM, t.MaxSectionImbalanceM,
+					"accumulated imbalance %s exceeds %s", fd(s.ImbalanceM), fd(t.MaxSectionImbalanceM))
+			}
+		}
+		for _, ms := range r.Misclosures {
+			subject := ms.From + " to " + ms.To
+			checks[CheckMisclosure].Checked++
+			if !ms.HasAllowable {
+				fail(CheckMisclosure, ms.ToLine, subject, ms.MisclosureM, 0, "misclosure %s cannot be judged: the stretch has no length", f(ms.MisclosureM))
+				continue
+			}
+			if !ms.Pass {
+				fail(CheckMisclosure, ms.ToLine, subject, ms.MisclosureM, ms.AllowableM,
+					"misclosure %s exceeds the allowable %s over %s", f(ms.MisclosureM), f(ms.AllowableM), fd(ms.LengthM))
+			}
+		}
+		if checks[CheckMisclosure].Checked == 0 {
+			checks[CheckMisclosure].NotMade = "the run has no closure"
+		}
+	}
+
+	// Closure: the run must be checked by something.
+	c = checks[CheckClosure]
+	c.Tolerance = "the run closes on itself or joins two held marks"
+	c.Source = "common practice: check into two marks"
+	c.Checked = 1
+	if len(r.Misclosures) == 0 {
+		last := r.Sections[len(r.Sections)-1]
+		held := slices.Sorted(func(yield func(string) bool) {
+			for k := range r.Held {
+				if !yield(k) {
+					return
+				}
+			}
+		})
+		why := "no mark is held"
+		if len(held) > 0 {
+			why = "only " + strings.Join(held, ", ") + " is held"
+		}
+		fail(CheckClosure, last.ToLine, r.Start+" to "+r.End, 0, 0,
+			"the line from %s to %s does not close and %s: its heights are unchecked (hold two of its marks with --hold)", r.Start, r.End, why)
+	}
+	for _, k := range order {
+		r.Checks = append(r.Checks, *checks[k])
+	}
+}

@@ -1,0 +1,36 @@
+package store_test
+
+import (
+	"context"
+	"testing"
+
+	"cairn/internal/pgtest"
+	"cairn/internal/store"
+)
+
+// The migrations go all the way down and up again (pressly/goose's habit).
+func TestMigrateDownAndUp(t *testing.T) {
+	t.Parallel()
+	db := pgtest.New(t)
+	ctx := context.Background()
+	if err := store.MigrateDown(ctx, db.Pool); err != nil {
+		t.Fatalf("down: %v", err)
+	}
+	var n int
+	if err := db.Pool.QueryRow(ctx, "SELECT count(*) FROM pg_tables WHERE schemaname = 'public' AND tablename IN ('datum', 'mark', 'mark_condition', 'height')").Scan(&n); err != nil {
+		t.Fatal(err)
+	}
+	if n != 0 {
+		t.Fatalf("%d register tables left after migrating down", n)
+	}
+	if err := store.Migrate(ctx, db.Pool); err != nil {
+		t.Fatalf("up again: %v", err)
+	}
+	cur, latest, err := store.SchemaVersion(ctx, db.Pool)
+	if err != nil {
+		t.Fatal(err)
+	}
+	if cur != latest || cur < 1 {
+		t.Fatalf("schema version %d, newest %d", cur, latest)
+	}
+}
