@@ -75,7 +75,13 @@ codes and regulations that govern your work.`,
 		return flagError{fmt.Errorf("%w (see 'cairn %s --help')", err, strings.TrimPrefix(c.CommandPath(), "cairn "))}
 	})
 	root.AddCommand(
-	// Command groups register here, one line each.
+		// Command groups register here, one line each.
+		newCmdDatum(f),
+		newCmdMark(f),
+		newCmdHeight(f),
+		newCmdHistory(f),
+		newCmdAudit(f),
+		newCmdDemo(f),
 	)
 	return root
 }

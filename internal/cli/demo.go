@@ -1,0 +1,112 @@
+package cli
+
+import (
+	"fmt"
+	"strings"
+
+	"github.com/spf13/cobra"
+
+	"cairn/internal/demo"
+	"cairn/internal/localpg"
+	"cairn/internal/register"
+	"cairn/internal/store"
+)
+
+// demoDatabase is the database `cairn demo` builds, dropped and made anew
+// each run.
+const demoDatabase = "cairn_demo"
+
+func newCmdDemo(f *Factory) *cobra.Command {
+	name := demoDatabase
+	cmd := &cobra.Command{
+		Use:   "demo",
+		Short: "Build a small invented register to look around in",
+		Long: `Build a small register of the invented Tallis County (the town of Orrin Bay
+on the Mere River): two datums, eight benchmarks with their descriptions,
+condition reports (one mark disturbed, one not found), and published heights,
+one mark with several versions. Every name, position, height and citation in
+it is invented.
+
+The demo lives in its own database, ` + demoDatabase + `, on the server cairn would
+use (with none named, cairn's private PostgreSQL). It is dropped and built
+anew on each run; your own register is not touched.`,
+		Args: exactArgs(0, "no arguments"),
+		RunE: func(cmd *cobra.Command, args []string) error {
+			if name != demoDatabase && !strings.HasPrefix(name, demoDatabase+"_") {
+				return badInput("name: the demo database's name must be %s or start with %s_ (it is dropped and made anew)", demoDatabase, demoDatabase)
+			}
+			return demoRun(cmd, f, name)
+		},
+	}
+	cmd.Flags().StringVar(&name, "name", demoDatabase, "name of the demo database (dropped and made anew)")
+	_ = cmd.Flags().MarkHidden("name")
+	return cmd
+}
+
+func demoRun(cmd *cobra.Command, f *Factory, name string) error {
+	ctx := cmd.Context()
+	src := f.Source()
+	server := src.URL
+	if src.Embedded {
+		c, err := localpg.Default()
+		if err != nil {
+			return err
+		}
+		if server, err = c.Start(ctx); err != nil {
+			return err
+		}
+	}
+	url, err := store.WithDatabase(server, name)
+	if err != nil {
+		return err
+	}
+	if err := store.DatabaseRecreate(ctx, server, name); err != nil {
+		return fmt.Errorf("demo: %w", err)
+	}
+	pool, err := store.Open(ctx, url)
+	if err != nil {
+		return fmt.Errorf("demo: %w", err)
+	}
+	defer pool.Close()
+	if err := store.Migrate(ctx, pool); err != nil {
+		return fmt.Errorf("demo: create the register's tables: %w", err)
+	}
+	if err := demo.Build(ctx, register.New(pool)); err != nil {
+		return err
+	}
+
+	// Show it with cairn's own commands, on the demo database.
+	out := f.IO.Out
+	ios := &IOStreams{In: f.IO.In, Out: out, ErrOut: out, IsTerminal: true}
+	df := NewFactory(ios, f.Version)
+	defer df.Close()
+	fmt.Fprintf(out, "Built the demo register of the invented Tallis County in database %s (%s).\n", name, src.From)
+	for _, step := range []struct{ title, args string }{
+		{"The benchmarks", "mark list"},
+		{"Their current heights", "height list"},
+		{"The history of " + demo.HistoryMark, "history " + demo.HistoryMark},
+		{"The disturbed mark, as cairn shows it", "height show TC-0415"},
+	} {
+		fmt.Fprintf(out, "\n== %s (cairn %s)\n", step.title, step.args)
+		if err := Execute(ctx, df, append([]string{"--db", url}, strings.Fields(step.args)...)); err != nil {
+			return fmt.Errorf("demo: cairn %s: %w", step.args, err)
+		}
+	}
+	fmt.Fprintf(out, "\nAll names, positions, heights and citations above are invented.\n\n%s\n", cautions)
+	fmt.Fprintf(out, "\nLook at it again with, for example:\n  cairn --db '%s' mark show %s\n  cairn --db '%s' history %s\n",
+		redact(url), demo.HistoryMark, redact(url), demo.HistoryMark)
+	return nil
+}
+
+// redact hides a password in a URL for printing.
+func redact(url string) string {
+	if i := strings.Index(url, "://"); i >= 0 {
+		if at := strings.Index(url[i+3:], "@"); at >= 0 {
+			userinfo := url[i+3 : i+3+at]
+			if u, _, ok := strings.Cut(userinfo, ":"); ok {
+				return url[:i+3] + u + ":xxxxx" + url[i+3+at:]
+			}
+		}
+	}
+	return url
+}

@@ -1,0 +1,382 @@
+package cli
+
+import (
+	"encoding/hex"
+	"strconv"
+	"time"
+
+	"github.com/spf13/cobra"
+
+	"cairn/internal/register"
+	"cairn/internal/store"
+	"cairn/internal/units"
+)
+
+func newCmdHeight(f *Factory) *cobra.Command {
+	cmd := &cobra.Command{
+		Use:   "height",
+		Short: "Published heights of benchmarks: record and look up",
+	}
+	cmd.AddCommand(newCmdHeightSet(f, nil), newCmdHeightShow(f, nil), newCmdHeightList(f))
+	return cmd
+}
+
+type heightSetOptions struct {
+	f        *Factory
+	params   register.HeightSetParams
+	decimals int
+}
+
+func newCmdHeightSet(f *Factory, runF func(*heightSetOptions) error) *cobra.Command {
+	opts := &heightSetOptions{f: f}
+	cmd := &cobra.Command{
+		Use:   "set DESIGNATION VALUE --unit m|ft|usft --datum CODE --source CITATION --reason TEXT",
+		Short: "Record a height published by an outside authority",
+		Long: `Record a height of a benchmark as an outside authority published it: the
+value exactly as printed, its unit (m, ft for the international foot, usft for
+the US survey foot) and its number of decimals, on one datum, with a citation
+of the publication and the reason for recording it.
+
+The height becomes a new version; the version it replaces stays in the
+register for good (see 'cairn history').
+
+` + cautions,
+		Example: `  cairn height set TC-0412 769.83 --unit usft --datum NAVD88 --class 2nd-I \
+    --source "Tallis County Benchmark Book, 1994 edition, p. 12" \
+    --reason "entered from the county benchmark book"`,
+		Args: exactArgs(2, "a DESIGNATION and a VALUE"),
+		RunE: func(cmd *cobra.Command, args []string) error {
+			opts.params.Designation, opts.params.Value = args[0], args[1]
+			if cmd.Flags().Changed("decimals") {
+				opts.params.Decimals = &opts.decimals
+			}
+			if runF != nil {
+				return runF(opts)
+			}
+			r, err := openRegister(cmd.Context(), f)
+			if err != nil {
+				return err
+			}
+			res, err := r.HeightSet(cmd.Context(), opts.params)
+			if err != nil {
+				return err
+			}
+			v := res.Version
+			f.IO.printf("%s on %s is now %s (version %d)\n", v.Designation, v.DatumCode, valueText(v), v.Version)
+			if res.Previous != nil {
+				f.IO.printf("  replaces version %d: %s\n", res.Previous.Version, valueText(*res.Previous))
+			}
+			warnCondition(f.IO, mustMark(cmd, f, v.Designation))
+			return nil
+		},
+	}
+	fl := cmd.Flags()
+	fl.StringVar(&opts.params.Unit, "unit", "", "unit of the value: m, ft (international foot) or usft (US survey foot)")
+	fl.StringVar(&opts.params.Datum, "datum", "", "datum code (see cairn datum list)")
+	fl.IntVar(&opts.decimals, "decimals", 0, "number of decimals published (default: as written)")
+	fl.StringVar(&opts.params.Class, "class", "", "accuracy class, e.g. 1st-II, 2nd-I, 3rd")
+	fl.StringVar(&opts.params.Source, "source", "", "citation of the publication the height comes from")
+	fl.StringVar(&opts.params.Reason, "reason", "", "why this height is being recorded (required)")
+	fl.StringVar(&opts.params.RecordedBy, "by", osUser(), "who records it")
+	_ = cmd.RegisterFlagCompletionFunc("unit", func(*cobra.Command, []string, string) ([]string, cobra.ShellCompDirective) {
+		return []string{"m", "ft", "usft"}, cobra.ShellCompDirectiveNoFileComp
+	})
+	return cmd
+}
+
+// mustMark returns the mark for the warning after a write; a failure to
+// read it only loses the warning, which height show repeats.
+func mustMark(cmd *cobra.Command, f *Factory, designation string) store.Mark {
+	r, err := openRegister(cmd.Context(), f)
+	if err != nil {
+		return store.Mark{}
+	}
+	v, err := r.HeightShow(cmd.Context(), register.HeightShowParams{Designation: designation})
+	if err != nil {
+		return store.Mark{}
+	}
+	return v.Mark
+}
+
+// heightJSON is a height version in machine output.
+type heightJSON struct {
+	Mark       string         `json:"mark"`
+	Datum      string         `json:"datum"`
+	Version    int            `json:"version"`
+	Value      *string        `json:"value"`
+	Unit       *string        `json:"unit"`
+	Decimals   *int           `json:"decimals"`
+	Class      string         `json:"class"`
+	SourceKind string         `json:"source_kind"`
+	Source     string         `json:"source"`
+	Reason     string         `json:"reason"`
+	RecordedBy string         `json:"recorded_by"`
+	RecordedAt time.Time      `json:"recorded_at"`
+	Current    bool           `json:"current"`
+	Hash       string         `json:"hash"`
+	Converted  *convertedJSON `json:"converted,omitempty"`
+	Change     *string        `json:"change,omitempty"`
+}
+
+type convertedJSON struct {
+	Value    string `json:"value"`
+	Unit     string `json:"unit"`
+	Decimals int    `json:"decimals"`
+}
+
+// toHeightJSON renders h, converted exactly to unit in too if it is set.
+func toHeightJSON(h store.Height, in units.Unit) heightJSON {
+	j := heightJSON{Mark: h.Designation, Datum: h.DatumCode, Version: h.Version, Value: h.Value, Unit: h.Unit,
+		Decimals: h.Decimals, Class: h.Class, SourceKind: h.SourceKind, Source: h.Source, Reason: h.Reason,
+		RecordedBy: h.RecordedBy, RecordedAt: h.RecordedAt, Current: h.Current, Hash: hex.EncodeToString(h.Hash)}
+	if in != "" && h.Value != nil {
+		from := units.Unit(*h.Unit)
+		d := units.ConvertedDecimals(from, in, *h.Decimals)
+		if v, err := units.ConvertExact(*h.Value, from, in, d); err == nil {
+			j.Converted = &convertedJSON{v, string(in), d}
+		}
+	}
+	return j
+}
+
+// valueText is "769.83 usft", or "withdrawn".
+func valueText(h store.Height) string {
+	if h.Value == nil {
+		return "withdrawn"
+	}
+	return *h.Value + " " + *h.Unit
+}
+
+type heightShowOptions struct {
+	f      *Factory
+	format Format
+	params register.HeightShowParams
+	asOf   string
+	in     string
+}
+
+func newCmdHeightShow(f *Factory, runF func(*heightShowOptions) error) *cobra.Command {
+	opts := &heightShowOptions{f: f}
+	cmd := &cobra.Command{
+		Use:   "show DESIGNATION [--datum CODE] [--as-of TIME] [--in UNIT]",
+		Short: "Show a benchmark's heights in force, now or at a past time",
+		Long: `Show the heights of a benchmark in force now, or as the register stood at a
+past time (--as-of): one per datum, exactly as published, with the version,
+class and source. --in adds the value converted exactly to another unit.
+
+--as-of takes 2024-03-01T14:00:00Z, a local time 2024-03-01 14:00, or a
+date, meaning the end of that day.
+
+A loud warning goes to the error stream when the mark's latest condition
+report says it is disturbed, destroyed or not found.`,
+		Args: exactArgs(1, "a DESIGNATION"),
+		RunE: func(cmd *cobra.Command, args []string) error {
+			opts.params.Designation = args[0]
+			if opts.asOf != "" {
+				t, err := parseInstant(opts.asOf)
+				if err != nil {
+					return badInput("as-of: %v", err)
+				}
+				opts.params.AsOf = &t
+			}
+			if runF != nil {
+				return runF(opts)
+			}
+			return heightShowRun(cmd, opts)
+		},
+	}
+	addOutputFlag(cmd, &opts.format)
+	cmd.Flags().StringVar(&opts.params.Datum, "datum", "", "only this datum")
+	cmd.Flags().StringVar(&opts.asOf, "as-of", "", "show the heights in force at this time")
+	cmd.Flags().StringVar(&opts.in, "in", "", "also show the value converted to this unit: m, ft or usft")
+	return cmd
+}
+
+func heightShowRun(cmd *cobra.Command, opts *heightShowOptions) error {
+	var in units.Unit
+	if opts.in != "" {
+		u, err := units.Parse(opts.in)
+		if err != nil {
+			return badInput("in: %v", err)
+		}
+		in = u
+	}
+	r, err := openRegister(cmd.Context(), opts.f)
+	if err != nil {
+		return err
+	}
+	v, err := r.HeightShow(cmd.Context(), opts.params)
+	if err != nil {
+		return err
+	}
+	warning := warnCondition(opts.f.IO, v.Mark)
+	out := struct {
+		Mark      string       `json:"mark"`
+		Condition string       `json:"condition"`
+		Warning   string       `json:"warning,omitempty"`
+		AsOf      *time.Time   `json:"as_of"`
+		Heights   []heightJSON `json:"heights"`
+	}{v.Mark.Designation, condition(v.Mark), warning, opts.params.AsOf, []heightJSON{}}
+	for _, h := range v.Heights {
+		out.Heights = append(out.Heights, toHeightJSON(h, in))
+	}
+	if len(v.Heights) == 0 {
+		when := "now"
+		if opts.params.AsOf != nil {
+			when = "at " + timeText(*opts.params.AsOf)
+		}
+		opts.f.IO.printf("%s has no height in force %s\n", v.Mark.Designation, when)
+	}
+	return render(opts.f.IO, opts.format, out, func() Table {
+		t := Table{Headers: []string{"DATUM", "VERSION", "HEIGHT", "UNIT", "CLASS", "RECORDED (UTC)", "SOURCE"}}
+		if in != "" {
+			t.Headers = append(t.Headers, "HEIGHT ("+string(in)+")")
+		}
+		for _, h := range out.Heights {
+			row := []string{h.Datum, strconv.Itoa(h.Version), deref(h.Value), deref(h.Unit), h.Class, timeText(h.RecordedAt), h.Source}
+			if h.Value == nil {
+				row[2] = "withdrawn"
+			}
+			if in != "" {
+				c := ""
+				if h.Converted != nil {
+					c = h.Converted.Value
+				}
+				row = append(row, c)
+			}
+			t.AddRow(row...)
+		}
+		return t
+	})
+}
+
+func newCmdHeightList(f *Factory) *cobra.Command {
+	var format Format
+	var datum string
+	cmd := &cobra.Command{
+		Use:   "list [--datum CODE]",
+		Short: "List the current height of every benchmark",
+		Args:  exactArgs(0, "no arguments"),
+		RunE: func(cmd *cobra.Command, args []string) error {
+			r, err := openRegister(cmd.Context(), f)
+			if err != nil {
+				return err
+			}
+			hs, err := r.HeightsCurrent(cmd.Context(), datum)
+			if err != nil {
+				return err
+			}
+			out := []heightJSON{}
+			for _, h := range hs {
+				out = append(out, toHeightJSON(h, ""))
+			}
+			return render(f.IO, format, out, func() Table {
+				t := Table{Headers: []string{"MARK", "DATUM", "VERSION", "HEIGHT", "UNIT", "CLASS", "SOURCE"}}
+				for _, h := range out {
+					val := deref(h.Value)
+					if h.Value == nil {
+						val = "withdrawn"
+					}
+					t.AddRow(h.Mark, h.Datum, strconv.Itoa(h.Version), val, deref(h.Unit), h.Class, h.Source)
+				}
+				return t
+			})
+		},
+	}
+	addOutputFlag(cmd, &format)
+	cmd.Flags().StringVar(&datum, "datum", "", "only this datum")
+	return cmd
+}
+
+func newCmdHistory(f *Factory) *cobra.Command {
+	var format Format
+	var datum string
+	cmd := &cobra.Command{
+		Use:   "history DESIGNATION [--datum CODE]",
+		Short: "Every version of a benchmark's heights, newest first",
+		Long: `List every version of a benchmark's heights ever recorded, newest first
+(per datum), with the change from the version before (in the version's unit;
+an earlier version in another unit is converted exactly), its reason, its
+source and who recorded it.`,
+		Args: exactArgs(1, "a DESIGNATION"),
+		RunE: func(cmd *cobra.Command, args []string) error {
+			r, err := openRegister(cmd.Context(), f)
+			if err != nil {
+				return err
+			}
+			m, hs, err := r.History(cmd.Context(), args[0], datum)
+			if err != nil {
+				return err
+			}
+			warnCondition(f.IO, m)
+			out := []heightJSON{}
+			for _, h := range hs {
+				j := toHeightJSON(h.Height, "")
+				j.Change = h.Change
+				out = append(out, j)
+			}
+			return render(f.IO, format, out, func() Table {
+				t := Table{Headers: []string{"DATUM", "VERSION", "RECORDED (UTC)", "HEIGHT", "UNIT", "CHANGE", "KIND", "REASON", "SOURCE", "BY"}}
+				for _, h := range out {
+					val := deref(h.Value)
+					if h.Value == nil {
+						val = "withdrawn"
+					}
+					t.AddRow(h.Datum, strconv.Itoa(h.Version), timeText(h.RecordedAt), val, deref(h.Unit),
+						deref(h.Change), h.SourceKind, h.Reason, h.Source, h.RecordedBy)
+				}
+				return t
+			})
+		},
+	}
+	addOutputFlag(cmd, &format)
+	cmd.Flags().StringVar(&datum, "datum", "", "only this datum")
+	return cmd
+}
+
+func newCmdAudit(f *Factory) *cobra.Command {
+	cmd := &cobra.Command{
+		Use:   "audit",
+		Short: "Check the register's history for tampering",
+	}
+	var format Format
+	verify := &cobra.Command{
+		Use:   "verify",
+		Short: "Recompute every hash chain of height versions and report any break",
+		Long: `Recompute, independently of the database, the hash of every height version
+from its contents and its predecessor's hash, from the first version of each
+mark and datum to the last, and report every break: a version changed behind
+cairn's back, a broken link between versions, a gap in the numbering.
+
+Exit status 0 when every chain verifies, 3 when any break is found.`,
+		Args: exactArgs(0, "no arguments"),
+		RunE: func(cmd *cobra.Command, args []string) error {
+			r, err := openRegister(cmd.Context(), f)
+			if err != nil {
+				return err
+			}
+			rep, err := r.AuditVerify(cmd.Context())
+			if err != nil {
+				return err
+			}
+			if err := render(f.IO, format, rep, func() Table {
+				t := Table{Headers: []string{"MARK", "DATUM", "VERSION", "PROBLEM", "EXPECTED HASH", "STORED HASH"}}
+				for _, b := range rep.Breaks {
+					t.AddRow(b.Designation, b.Datum, strconv.Itoa(b.Version), b.Problem, b.Expected, b.Stored)
+				}
+				return t
+			}); err != nil {
+				return err
+			}
+			if len(rep.Breaks) > 0 {
+				f.IO.printf("audit: %d break(s) in %d chain(s) of %d version(s)\n", len(rep.Breaks), rep.Chains, rep.Versions)
+				return checksFailed{len(rep.Breaks)}
+			}
+			f.IO.printf("audit: %d chain(s) of %d version(s) verify\n", rep.Chains, rep.Versions)
+			return nil
+		},
+	}
+	addOutputFlag(verify, &format)
+	cmd.AddCommand(verify)
+	return cmd
+}

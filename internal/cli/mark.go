@@ -1,0 +1,335 @@
+package cli
+
+import (
+	"fmt"
+	"strconv"
+	"strings"
+	"time"
+
+	"github.com/spf13/cobra"
+
+	"cairn/internal/register"
+	"cairn/internal/store"
+)
+
+func newCmdMark(f *Factory) *cobra.Command {
+	cmd := &cobra.Command{
+		Use:   "mark",
+		Short: "Benchmarks: add, show, list, report their condition",
+	}
+	cmd.AddCommand(newCmdMarkAdd(f, nil), newCmdMarkShow(f), newCmdMarkList(f, nil), newCmdMarkCondition(f, nil))
+	return cmd
+}
+
+type markAddOptions struct {
+	f        *Factory
+	params   register.MarkAddParams
+	lat, lon float64
+}
+
+func newCmdMarkAdd(f *Factory, runF func(*markAddOptions) error) *cobra.Command {
+	opts := &markAddOptions{f: f}
+	cmd := &cobra.Command{
+		Use:   "add DESIGNATION",
+		Short: "Add a benchmark to the register",
+		Long: `Add a benchmark. DESIGNATION is its name in the register (for example
+TC-0412) and never changes. The position is approximate, in decimal degrees,
+for finding the mark; heights are recorded with 'cairn height set'.`,
+		Example: `  cairn mark add TC-0412 --type "bronze disk" --setting "concrete post" \
+    --stamping "TC 0412 1961" --to-reach "north end of the Mere River bridge" \
+    --lat 41.6207 --lon -97.9486`,
+		Args: exactArgs(1, "a DESIGNATION"),
+		RunE: func(cmd *cobra.Command, args []string) error {
+			opts.params.Designation = args[0]
+			if cmd.Flags().Changed("lat") {
+				opts.params.Lat = &opts.lat
+			}
+			if cmd.Flags().Changed("lon") {
+				opts.params.Lon = &opts.lon
+			}
+			if runF != nil {
+				return runF(opts)
+			}
+			r, err := openRegister(cmd.Context(), f)
+			if err != nil {
+				return err
+			}
+			m, err := r.MarkAdd(cmd.Context(), opts.params)
+			if err != nil {
+				return err
+			}
+			f.IO.printf("added mark %s\n", m.Designation)
+			return nil
+		},
+	}
+	fl := cmd.Flags()
+	fl.StringVar(&opts.params.Type, "type", "", "kind of mark, e.g. \"bronze disk\", \"brass rod\"")
+	fl.StringVar(&opts.params.Setting, "setting", "", "what it is set in, e.g. \"concrete post\", \"bridge abutment\"")
+	fl.StringVar(&opts.params.Stamping, "stamping", "", "what is stamped on it")
+	fl.StringVar(&opts.params.ToReach, "to-reach", "", "how to find it, in words")
+	fl.Float64Var(&opts.lat, "lat", 0, "approximate latitude, decimal degrees (north positive)")
+	fl.Float64Var(&opts.lon, "lon", 0, "approximate longitude, decimal degrees (east positive)")
+	fl.StringVar(&opts.params.CreatedBy, "by", osUser(), "who is adding it")
+	return cmd
+}
+
+// markJSON is a mark in machine output.
+type markJSON struct {
+	Designation string          `json:"designation"`
+	Type        string          `json:"type"`
+	Setting     string          `json:"setting"`
+	Stamping    string          `json:"stamping"`
+	ToReach     string          `json:"to_reach"`
+	Lat         *float64        `json:"lat"`
+	Lon         *float64        `json:"lon"`
+	Condition   string          `json:"condition"`
+	Warning     string          `json:"warning,omitempty"`
+	DistanceKm  *float64        `json:"distance_km,omitempty"`
+	Conditions  []conditionJSON `json:"conditions,omitempty"`
+	Heights     []heightJSON    `json:"heights,omitempty"`
+}
+
+type conditionJSON struct {
+	Condition  string    `json:"condition"`
+	ObservedOn string    `json:"observed_on"`
+	Note       string    `json:"note"`
+	RecordedBy string    `json:"recorded_by"`
+	RecordedAt time.Time `json:"recorded_at"`
+}
+
+func toMarkJSON(m store.Mark) markJSON {
+	j := markJSON{Designation: m.Designation, Type: m.Type, Setting: m.Setting, Stamping: m.Stamping,
+		ToReach: m.ToReach, Lat: m.Lat, Lon: m.Lon, Condition: condition(m), Warning: register.Warning(m)}
+	if m.DistanceM != nil {
+		km := *m.DistanceM / 1000
+		j.DistanceKm = &km
+	}
+	return j
+}
+
+func toConditionJSON(c store.Condition) conditionJSON {
+	return conditionJSON{c.Condition, c.ObservedOn.Format("2006-01-02"), c.Note, c.RecordedBy, c.RecordedAt}
+}
+
+func position(m store.Mark) (string, string) {
+	if m.Lat == nil {
+		return "", ""
+	}
+	return strconv.FormatFloat(*m.Lat, 'f', 5, 64), strconv.FormatFloat(*m.Lon, 'f', 5, 64)
+}
+
+func newCmdMarkShow(f *Factory) *cobra.Command {
+	var format Format
+	cmd := &cobra.Command{
+		Use:   "show DESIGNATION",
+		Short: "Show a benchmark, its condition history and its current heights",
+		Args:  exactArgs(1, "a DESIGNATION"),
+		RunE: func(cmd *cobra.Command, args []string) error {
+			r, err := openRegister(cmd.Context(), f)
+			if err != nil {
+				return err
+			}
+			v, err := r.MarkShow(cmd.Context(), args[0])
+			if err != nil {
+				return err
+			}
+			warnCondition(f.IO, v.Mark)
+			j := toMarkJSON(v.Mark)
+			j.Conditions, j.Heights = []conditionJSON{}, []heightJSON{}
+			for _, c := range v.Conditions {
+				j.Conditions = append(j.Conditions, toConditionJSON(c))
+			}
+			for _, h := range v.Heights {
+				j.Heights = append(j.Heights, toHeightJSON(h, ""))
+			}
+			if format == FormatJSON {
+				return writeJSON(f.IO.Out, j)
+			}
+			lat, lon := position(v.Mark)
+			t := Table{Headers: []string{"FIELD", "VALUE"}}
+			t.AddRow("designation", j.Designation)
+			t.AddRow("type", j.Type)
+			t.AddRow("setting", j.Setting)
+			t.AddRow("stamping", j.Stamping)
+			t.AddRow("to reach", j.ToReach)
+			t.AddRow("lat, lon (deg)", strings.Trim(lat+", "+lon, ", "))
+			t.AddRow("condition", j.Condition)
+			for _, c := range v.Conditions {
+				t.AddRow("reported", fmt.Sprintf("%s %s by %s: %s", c.ObservedOn.Format("2006-01-02"), c.Condition, c.RecordedBy, c.Note))
+			}
+			for _, h := range v.Heights {
+				t.AddRow("height "+h.DatumCode, fmt.Sprintf("%s (version %d, %s)", valueText(h), h.Version, h.Source))
+			}
+			return writeTable(f.IO, format, t)
+		},
+	}
+	addOutputFlag(cmd, &format)
+	return cmd
+}
+
+type markListOptions struct {
+	f          *Factory
+	format     Format
+	near       string
+	within     string
+	conditions []string
+}
+
+func newCmdMarkList(f *Factory, runF func(*markListOptions) error) *cobra.Command {
+	opts := &markListOptions{f: f}
+	cmd := &cobra.Command{
+		Use:   "list [--near LAT,LON --within 2km] [--condition ...]",
+		Short: "List benchmarks, optionally those near a point, nearest first",
+		Long: `List the benchmarks of the register with their latest condition.
+
+With --near, only marks within --within of the point (great-circle distance
+on a sphere of the mean Earth radius) are listed, nearest first. Marks last
+reported disturbed, destroyed or not found are flagged with a warning.`,
+		Example: `  cairn mark list --near 41.62,-97.95 --within 2km
+  cairn mark list --condition disturbed,not-found`,
+		Args: exactArgs(0, "no arguments"),
+		RunE: func(cmd *cobra.Command, args []string) error {
+			if runF != nil {
+				return runF(opts)
+			}
+			return markListRun(cmd, opts)
+		},
+	}
+	addOutputFlag(cmd, &opts.format)
+	cmd.Flags().StringVar(&opts.near, "near", "", "LAT,LON in decimal degrees: list marks near this point")
+	cmd.Flags().StringVar(&opts.within, "within", "2km", "search radius with --near, in km or m (e.g. 2km, 500m)")
+	cmd.Flags().StringSliceVar(&opts.conditions, "condition", nil, "keep marks whose latest condition is one of these: "+strings.Join(register.Conditions, ", ")+", unknown")
+	return cmd
+}
+
+func markListRun(cmd *cobra.Command, opts *markListOptions) error {
+	p := register.MarkListParams{Conditions: opts.conditions}
+	if opts.near != "" {
+		ll, err := parseLatLon(opts.near)
+		if err != nil {
+			return err
+		}
+		if p.RadiusM, err = parseDistance(opts.within); err != nil {
+			return err
+		}
+		p.Near = &ll
+	}
+	r, err := openRegister(cmd.Context(), opts.f)
+	if err != nil {
+		return err
+	}
+	ms, err := r.MarkList(cmd.Context(), p)
+	if err != nil {
+		return err
+	}
+	out := []markJSON{}
+	for _, m := range ms {
+		warnCondition(opts.f.IO, m)
+		out = append(out, toMarkJSON(m))
+	}
+	return render(opts.f.IO, opts.format, out, func() Table {
+		t := Table{Headers: []string{"DESIGNATION", "TYPE", "CONDITION", "LAT (deg)", "LON (deg)"}}
+		if p.Near != nil {
+			t.Headers = append(t.Headers, "DISTANCE (km)")
+		}
+		for i, m := range ms {
+			lat, lon := position(m)
+			cond := out[i].Condition
+			if out[i].Warning != "" {
+				cond = "!! " + strings.ToUpper(cond)
+			}
+			row := []string{m.Designation, m.Type, cond, lat, lon}
+			if p.Near != nil {
+				row = append(row, strconv.FormatFloat(*out[i].DistanceKm, 'f', 3, 64))
+			}
+			t.AddRow(row...)
+		}
+		return t
+	})
+}
+
+// parseLatLon reads "LAT,LON" in decimal degrees.
+func parseLatLon(s string) (store.LatLon, error) {
+	a, b, ok := strings.Cut(s, ",")
+	lat, err1 := strconv.ParseFloat(strings.TrimSpace(a), 64)
+	lon, err2 := strconv.ParseFloat(strings.TrimSpace(b), 64)
+	if !ok || err1 != nil || err2 != nil {
+		return store.LatLon{}, badInput("near: %q is not LAT,LON in decimal degrees (e.g. 41.62,-97.95)", s)
+	}
+	return store.LatLon{Lat: lat, Lon: lon}, nil
+}
+
+// parseDistance reads a distance such as 2km, 500m or 1.5 km, in metres.
+func parseDistance(s string) (float64, error) {
+	t := strings.ToLower(strings.ReplaceAll(s, " ", ""))
+	scale := 1.0
+	switch {
+	case strings.HasSuffix(t, "km"):
+		t, scale = strings.TrimSuffix(t, "km"), 1000
+	case strings.HasSuffix(t, "m"):
+		t = strings.TrimSuffix(t, "m")
+	default:
+		return 0, badInput("within: %q needs a unit, km or m (e.g. 2km)", s)
+	}
+	v, err := strconv.ParseFloat(t, 64)
+	if err != nil || !(v > 0) {
+		return 0, badInput("within: %q is not a distance more than zero (e.g. 2km)", s)
+	}
+	return v * scale, nil
+}
+
+type markConditionOptions struct {
+	f      *Factory
+	params register.MarkConditionParams
+	on     string
+}
+
+func newCmdMarkCondition(f *Factory, runF func(*markConditionOptions) error) *cobra.Command {
+	opts := &markConditionOptions{f: f}
+	cmd := &cobra.Command{
+		Use:   "condition DESIGNATION good|disturbed|destroyed|not-found",
+		Short: "Report the condition a benchmark was found in",
+		Long: `Add a condition report on a benchmark: good, disturbed, destroyed, or
+not-found (searched for and not found). Reports are kept for good; the latest
+one (by the date observed) is the mark's condition, and 'height show' and
+'mark list' warn loudly when it is disturbed, destroyed or not found.`,
+		Example: `  cairn mark condition TC-0415 disturbed --note "post tilted, struck by mower" --on 2024-05-14`,
+		Args:    exactArgs(2, "a DESIGNATION and a condition"),
+		ValidArgsFunction: func(cmd *cobra.Command, args []string, _ string) ([]string, cobra.ShellCompDirective) {
+			if len(args) == 1 {
+				return register.Conditions, cobra.ShellCompDirectiveNoFileComp
+			}
+			return nil, cobra.ShellCompDirectiveNoFileComp
+		},
+		RunE: func(cmd *cobra.Command, args []string) error {
+			now := time.Now()
+			opts.params.Designation, opts.params.Condition = args[0], args[1]
+			opts.params.Today = time.Date(now.Year(), now.Month(), now.Day(), 0, 0, 0, 0, time.UTC)
+			opts.params.ObservedOn = opts.params.Today
+			if opts.on != "" {
+				d, err := time.Parse("2006-01-02", opts.on)
+				if err != nil {
+					return badInput("on: %q is not a date (write 2024-05-14)", opts.on)
+				}
+				opts.params.ObservedOn = d
+			}
+			if runF != nil {
+				return runF(opts)
+			}
+			r, err := openRegister(cmd.Context(), f)
+			if err != nil {
+				return err
+			}
+			c, err := r.MarkCondition(cmd.Context(), opts.params)
+			if err != nil {
+				return err
+			}
+			f.IO.printf("recorded %s as %s on %s\n", args[0], c.Condition, c.ObservedOn.Format("2006-01-02"))
+			return nil
+		},
+	}
+	cmd.Flags().StringVar(&opts.params.Note, "note", "", "what was seen")
+	cmd.Flags().StringVar(&opts.on, "on", "", "date observed, YYYY-MM-DD (default today)")
+	cmd.Flags().StringVar(&opts.params.RecordedBy, "by", osUser(), "who observed it")
+	return cmd
+}

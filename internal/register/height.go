@@ -1,0 +1,281 @@
+package register
+
+import (
+	"context"
+	"errors"
+	"fmt"
+	"regexp"
+	"strings"
+	"time"
+
+	"github.com/jackc/pgx/v5"
+
+	"cairn/internal/store"
+	"cairn/internal/units"
+)
+
+// Source kinds of a height version.
+const (
+	KindAuthority   = "authority"    // published by an outside authority; cites it
+	KindAdjustment  = "adjustment"   // published from an adjustment of level runs
+	KindDatumChange = "datum-change" // moved to another realisation of the datum
+	KindCorrection  = "correction"   // a mistake in an earlier version put right
+	KindWithdrawal  = "withdrawal"   // no height in force any more
+)
+
+// MaxDecimals is the most decimals a published height may carry.
+const MaxDecimals = 6
+
+var decimalPattern = regexp.MustCompile(`^[+-]?[0-9]+(\.[0-9]+)?$`)
+
+// HeightSetParams are the fields of a new version of a mark's height.
+type HeightSetParams struct {
+	Designation string
+	Datum       string // datum code
+	// Value is the height exactly as published, in decimal (e.g. "769.83").
+	// Empty for a withdrawal.
+	Value string
+	Unit  string // m, ft or usft
+	// Decimals is the number of decimals published; nil means as many as
+	// Value is written with. Value may not carry more.
+	Decimals *int
+	Class    string // accuracy class, e.g. "2nd-I"
+	// Kind is the source kind (KindAuthority unless set).
+	Kind string
+	// Source cites the publication (required for KindAuthority).
+	Source       string
+	AdjustmentID *int64 // required for KindAdjustment
+	Reason       string // why this version (required)
+	RecordedBy   string // who (required)
+}
+
+// HeightSetResult is the version written and the one it superseded.
+type HeightSetResult struct {
+	Version  store.Height
+	Previous *store.Height
+}
+
+// HeightSet records a new version of a mark's height on a datum,
+// superseding the current one. Writers of one mark take turns: the mark's
+// row is locked for the length of the transaction.
+func (r *Register) HeightSet(ctx context.Context, p HeightSetParams) (HeightSetResult, error) {
+	ins, err := checkHeight(&p)
+	if err != nil {
+		return HeightSetResult{}, err
+	}
+	var res HeightSetResult
+	err = r.withTx(ctx, pgx.TxOptions{}, func(tx pgx.Tx) error {
+		m, err := r.mark(ctx, tx, "designation", p.Designation, true)
+		if err != nil {
+			return err
+		}
+		d, err := r.datum(ctx, tx, "datum", p.Datum)
+		if err != nil {
+			return err
+		}
+		ins.MarkID, ins.DatumID = m.ID, d.ID
+		prev, err := store.HeightLatest(ctx, tx, store.HeightLatestParams{MarkID: m.ID, DatumID: d.ID})
+		switch {
+		case err == nil:
+			ins.Supersedes, res.Previous = &prev.ID, &prev
+		case !errors.Is(err, store.ErrNotFound):
+			return err
+		}
+		if p.Kind == KindWithdrawal && (res.Previous == nil || res.Previous.Value == nil) {
+			return inputErr("datum", "mark %s has no height on %s to withdraw", m.Designation, d.Code)
+		}
+		res.Version, err = store.HeightInsert(ctx, tx, ins)
+		return asConflict(err)
+	})
+	if err != nil {
+		return HeightSetResult{}, fmt.Errorf("set height of %s: %w", p.Designation, err)
+	}
+	return res, nil
+}
+
+// checkHeight checks and normalises p, returning the insert without mark
+// and datum.
+func checkHeight(p *HeightSetParams) (store.HeightInsertParams, error) {
+	if p.Kind == "" {
+		p.Kind = KindAuthority
+	}
+	ins := store.HeightInsertParams{Class: strings.TrimSpace(p.Class), SourceKind: p.Kind,
+		Source: strings.TrimSpace(p.Source), AdjustmentID: p.AdjustmentID,
+		Reason: strings.TrimSpace(p.Reason), RecordedBy: strings.TrimSpace(p.RecordedBy)}
+	switch p.Kind {
+	case KindAuthority, KindDatumChange, KindCorrection, KindAdjustment:
+		value := strings.TrimPrefix(strings.TrimSpace(p.Value), "+")
+		if !decimalPattern.MatchString(value) {
+			return ins, inputErr("value", "%q is not a height: write a decimal number such as 769.83", p.Value)
+		}
+		u, err := units.Parse(p.Unit)
+		if err != nil {
+			return ins, inputErr("unit", "%v", err)
+		}
+		written := 0
+		if i := strings.IndexByte(value, '.'); i >= 0 {
+			written = len(value) - i - 1
+		}
+		dec := written
+		if p.Decimals != nil {
+			dec = *p.Decimals
+		}
+		if dec < 0 || dec > MaxDecimals {
+			return ins, inputErr("decimals", "%d is outside 0 to %d", dec, MaxDecimals)
+		}
+		if written > dec {
+			return ins, inputErr("decimals", "value %s has %d decimals, more than the %d published", value, written, dec)
+		}
+		if dec > written {
+			if written == 0 {
+				value += "."
+			}
+			value += strings.Repeat("0", dec-written)
+		}
+		unit := u.String()
+		ins.Value, ins.Unit, ins.Decimals = &value, &unit, &dec
+	case KindWithdrawal:
+		if strings.TrimSpace(p.Value) != "" {
+			return ins, inputErr("value", "a withdrawal has no value")
+		}
+	default:
+		return ins, inputErr("kind", "unknown source kind %q", p.Kind)
+	}
+	if p.Kind == KindAuthority && ins.Source == "" {
+		return ins, inputErr("source", "cite the publication the height comes from (--source)")
+	}
+	if p.Kind == KindAdjustment && p.AdjustmentID == nil {
+		return ins, inputErr("adjustment", "a height from an adjustment names the adjustment")
+	}
+	if ins.Reason == "" {
+		return ins, inputErr("reason", "say why this height is being recorded (--reason)")
+	}
+	if ins.RecordedBy == "" {
+		return ins, inputErr("by", "say who is recording the height")
+	}
+	return ins, nil
+}
+
+// HeightShowParams ask for a mark's heights.
+type HeightShowParams struct {
+	Designation string
+	Datum       string     // "" for every datum
+	AsOf        *time.Time // nil for the current heights
+}
+
+// HeightShow returns the mark (with its latest condition) and, for each
+// datum, the version in force at AsOf (or now). A datum whose version in
+// force is a withdrawal is listed with no value; a datum with no version
+// yet at that time is left out.
+func (r *Register) HeightShow(ctx context.Context, p HeightShowParams) (MarkView, error) {
+	var v MarkView
+	err := r.withTx(ctx, readTx, func(tx pgx.Tx) error {
+		var err error
+		if v.Mark, err = r.mark(ctx, tx, "designation", p.Designation, false); err != nil {
+			return err
+		}
+		q := store.HeightAsOfParams{MarkID: v.Mark.ID, AsOf: p.AsOf}
+		if p.Datum != "" {
+			d, err := r.datum(ctx, tx, "datum", p.Datum)
+			if err != nil {
+				return err
+			}
+			q.DatumID = d.ID
+		}
+		v.Heights, err = store.HeightAsOf(ctx, tx, q)
+		return err
+	})
+	return v, err
+}
+
+// HeightsCurrent returns the current version of every mark on datum (""
+// for every datum), by designation and datum code.
+func (r *Register) HeightsCurrent(ctx context.Context, datum string) ([]store.Height, error) {
+	var id int64
+	if datum != "" {
+		d, err := r.datum(ctx, r.pool, "datum", datum)
+		if err != nil {
+			return nil, err
+		}
+		id = d.ID
+	}
+	return store.HeightCurrentAll(ctx, r.pool, id)
+}
+
+// HistoryEntry is one version with its change from the version before.
+type HistoryEntry struct {
+	store.Height
+	// Change is this value minus the previous version's, in this version's
+	// unit and decimals (the previous one converted exactly if its unit
+	// differs); nil for a first version and when either has no value.
+	Change *string
+}
+
+// History returns every version of a mark's heights, newest first within
+// each datum (datums by code), each with its change from the one before.
+func (r *Register) History(ctx context.Context, designation, datum string) (store.Mark, []HistoryEntry, error) {
+	var m store.Mark
+	var hs []store.Height
+	err := r.withTx(ctx, readTx, func(tx pgx.Tx) error {
+		var err error
+		if m, err = r.mark(ctx, tx, "designation", designation, false); err != nil {
+			return err
+		}
+		q := store.HeightHistoryParams{MarkID: m.ID}
+		if datum != "" {
+			d, err := r.datum(ctx, tx, "datum", datum)
+			if err != nil {
+				return err
+			}
+			q.DatumID = d.ID
+		}
+		hs, err = store.HeightHistory(ctx, tx, q)
+		return err
+	})
+	if err != nil {
+		return m, nil, err
+	}
+	out := make([]HistoryEntry, len(hs))
+	for i, h := range hs {
+		out[i].Height = h
+		if i+1 < len(hs) && hs[i+1].DatumID == h.DatumID {
+			c, err := change(h, hs[i+1])
+			if err != nil {
+				return m, nil, err
+			}
+			out[i].Change = c
+		}
+	}
+	return m, out, nil
+}
+
+// change returns cur − prev in cur's unit, with exact arithmetic (prev
+// converted exactly when its unit differs), rounded half away from zero to
+// cur's decimals, with its sign.
+func change(cur, prev store.Height) (*string, error) {
+	if cur.Value == nil || prev.Value == nil {
+		return nil, nil
+	}
+	cu, err := units.Parse(*cur.Unit)
+	if err != nil {
+		return nil, err
+	}
+	pu, err := units.Parse(*prev.Unit)
+	if err != nil {
+		return nil, err
+	}
+	a, err := units.ParseRat(*cur.Value)
+	if err != nil {
+		return nil, err
+	}
+	b, err := units.ParseRat(*prev.Value)
+	if err != nil {
+		return nil, err
+	}
+	b.Mul(b, pu.Rat()).Quo(b, cu.Rat())
+	s := units.RoundRat(a.Sub(a, b), *cur.Decimals)
+	if !strings.HasPrefix(s, "-") {
+		s = "+" + s
+	}
+	return &s, nil
+}

@@ -1,0 +1,187 @@
+package register
+
+import (
+	"context"
+	"errors"
+	"fmt"
+	"math"
+	"regexp"
+	"slices"
+	"strings"
+	"time"
+
+	"github.com/jackc/pgx/v5"
+
+	"cairn/internal/store"
+)
+
+var designationPattern = regexp.MustCompile(`^[A-Za-z0-9][A-Za-z0-9._/-]*$`)
+
+// Conditions are the states a condition report may give, in the order
+// help texts list them.
+var Conditions = []string{"good", "disturbed", "destroyed", "not-found"}
+
+// MarkAddParams are the fields of a new mark.
+type MarkAddParams struct {
+	Designation string
+	Type        string // e.g. "bronze disk", "brass rod"
+	Setting     string // e.g. "concrete post", "bridge abutment"
+	Stamping    string // what is stamped on it
+	ToReach     string // how to find it, in words
+	Lat, Lon    *float64
+	CreatedBy   string
+}
+
+// MarkAdd adds a mark to the register.
+func (r *Register) MarkAdd(ctx context.Context, p MarkAddParams) (store.Mark, error) {
+	p.Designation = strings.TrimSpace(p.Designation)
+	if !designationPattern.MatchString(p.Designation) {
+		return store.Mark{}, inputErr("designation", "%q is not a designation: use letters, digits and . _ / -, starting with a letter or digit", p.Designation)
+	}
+	if (p.Lat == nil) != (p.Lon == nil) {
+		return store.Mark{}, inputErr("lat", "give both --lat and --lon, or neither")
+	}
+	if p.Lat != nil {
+		if math.IsNaN(*p.Lat) || *p.Lat < -90 || *p.Lat > 90 {
+			return store.Mark{}, inputErr("lat", "latitude %v is outside -90 to 90 degrees", *p.Lat)
+		}
+		if math.IsNaN(*p.Lon) || *p.Lon < -180 || *p.Lon > 180 {
+			return store.Mark{}, inputErr("lon", "longitude %v is outside -180 to 180 degrees", *p.Lon)
+		}
+	}
+	if strings.TrimSpace(p.CreatedBy) == "" {
+		return store.Mark{}, inputErr("by", "say who is adding the mark")
+	}
+	var m store.Mark
+	err := r.withTx(ctx, pgx.TxOptions{}, func(tx pgx.Tx) error {
+		_, err := store.MarkInsert(ctx, tx, store.MarkInsertParams{
+			Designation: p.Designation, Type: p.Type, Setting: p.Setting, Stamping: p.Stamping,
+			ToReach: p.ToReach, Lat: p.Lat, Lon: p.Lon, CreatedBy: p.CreatedBy,
+		})
+		if errors.Is(err, store.ErrAlreadyExists) {
+			return inputErr("designation", "mark %s is already in the register", p.Designation)
+		}
+		if err != nil {
+			return err
+		}
+		m, err = store.MarkGet(ctx, tx, store.MarkGetParams{Designation: p.Designation})
+		return err
+	})
+	return m, err
+}
+
+// MarkView is a mark with its condition reports (latest first) and the
+// heights in force (one per datum).
+type MarkView struct {
+	Mark       store.Mark
+	Conditions []store.Condition
+	Heights    []store.Height
+}
+
+// MarkShow returns a mark, its condition history and its current heights.
+func (r *Register) MarkShow(ctx context.Context, designation string) (MarkView, error) {
+	var v MarkView
+	err := r.withTx(ctx, readTx, func(tx pgx.Tx) error {
+		var err error
+		if v.Mark, err = r.mark(ctx, tx, "designation", designation, false); err != nil {
+			return err
+		}
+		if v.Conditions, err = store.ConditionListByMark(ctx, tx, v.Mark.ID); err != nil {
+			return err
+		}
+		v.Heights, err = store.HeightAsOf(ctx, tx, store.HeightAsOfParams{MarkID: v.Mark.ID})
+		return err
+	})
+	return v, err
+}
+
+// MarkListParams filter a listing of marks.
+type MarkListParams struct {
+	Near    *store.LatLon // with RadiusM: marks within that distance, nearest first
+	RadiusM float64
+	// Conditions keeps marks whose latest report is one of these
+	// ("unknown": no report yet).
+	Conditions []string
+}
+
+// MarkList lists marks with their latest condition.
+func (r *Register) MarkList(ctx context.Context, p MarkListParams) ([]store.Mark, error) {
+	if p.Near != nil {
+		if p.Near.Lat < -90 || p.Near.Lat > 90 {
+			return nil, inputErr("near", "latitude %v is outside -90 to 90 degrees", p.Near.Lat)
+		}
+		if p.Near.Lon < -180 || p.Near.Lon > 180 {
+			return nil, inputErr("near", "longitude %v is outside -180 to 180 degrees", p.Near.Lon)
+		}
+		if !(p.RadiusM > 0) {
+			return nil, inputErr("within", "the search radius must be more than zero")
+		}
+	}
+	for _, c := range p.Conditions {
+		if c != "unknown" && !slices.Contains(Conditions, c) {
+			return nil, inputErr("condition", "unknown condition %q (want %s or unknown)", c, strings.Join(Conditions, ", "))
+		}
+	}
+	return store.MarkList(ctx, r.pool, store.MarkListParams{Near: p.Near, RadiusM: p.RadiusM, Conditions: p.Conditions})
+}
+
+// MarkConditionParams are the fields of a condition report.
+type MarkConditionParams struct {
+	Designation string
+	Condition   string // one of Conditions
+	Note        string
+	ObservedOn  time.Time // the date the mark was seen (or searched for)
+	RecordedBy  string
+	// Today is the reporter's calendar date; ObservedOn may not be after it.
+	Today time.Time
+}
+
+// MarkCondition appends a condition report on a mark.
+func (r *Register) MarkCondition(ctx context.Context, p MarkConditionParams) (store.Condition, error) {
+	if !slices.Contains(Conditions, p.Condition) {
+		return store.Condition{}, inputErr("condition", "unknown condition %q (want %s)", p.Condition, strings.Join(Conditions, ", "))
+	}
+	if !p.Today.IsZero() && p.ObservedOn.After(p.Today) {
+		return store.Condition{}, inputErr("on", "%s is in the future", p.ObservedOn.Format("2006-01-02"))
+	}
+	if strings.TrimSpace(p.RecordedBy) == "" {
+		return store.Condition{}, inputErr("by", "say who made the report")
+	}
+	var c store.Condition
+	err := r.withTx(ctx, pgx.TxOptions{}, func(tx pgx.Tx) error {
+		m, err := r.mark(ctx, tx, "designation", p.Designation, false)
+		if err != nil {
+			return err
+		}
+		c, err = store.ConditionInsert(ctx, tx, store.ConditionInsertParams{
+			MarkID: m.ID, Condition: p.Condition, Note: p.Note, ObservedOn: p.ObservedOn, RecordedBy: p.RecordedBy,
+		})
+		return err
+	})
+	return c, err
+}
+
+// Warning returns the loud warning for a mark whose latest condition report
+// says it is disturbed, destroyed or not found, or "" if there is none.
+func Warning(m store.Mark) string {
+	c := m.Latest
+	if c == nil {
+		return ""
+	}
+	var what string
+	switch c.Condition {
+	case "disturbed":
+		what = "was reported DISTURBED"
+	case "destroyed":
+		what = "was reported DESTROYED"
+	case "not-found":
+		what = "was NOT FOUND when searched for"
+	default:
+		return ""
+	}
+	s := fmt.Sprintf("WARNING: mark %s %s on %s", m.Designation, what, c.ObservedOn.Format("2006-01-02"))
+	if c.Note != "" {
+		s += " (" + c.Note + ")"
+	}
+	return s + "; do not rely on its height until it has been checked in the field"
+}

@@ -1,0 +1,203 @@
+// Package register holds cairn's use cases over the database: datums,
+// marks and their condition reports, published heights and their history,
+// and the audit of the hash chains. It owns every transaction: each write
+// is one transaction, so bad input or a failure part way leaves nothing
+// written.
+package register
+
+import (
+	"context"
+	"errors"
+	"fmt"
+	"slices"
+	"sort"
+	"strings"
+
+	"github.com/jackc/pgx/v5"
+	"github.com/jackc/pgx/v5/pgxpool"
+
+	"cairn/internal/store"
+)
+
+// Register is the register in one PostgreSQL database.
+type Register struct {
+	pool *pgxpool.Pool
+}
+
+// New returns the register over pool (migrated by the caller).
+func New(pool *pgxpool.Pool) *Register { return &Register{pool: pool} }
+
+// InputError is bad input: it names the field at fault. Nothing was
+// written. Its exit status is 2.
+type InputError struct {
+	Field string // the flag or argument at fault, e.g. "lat", "designation"
+	Msg   string
+}
+
+func (e *InputError) Error() string { return e.Field + ": " + e.Msg }
+
+// ExitCode is the process exit status for bad input.
+func (e *InputError) ExitCode() int { return 2 }
+
+func inputErr(field, format string, a ...any) error {
+	return &InputError{Field: field, Msg: fmt.Sprintf(format, a...)}
+}
+
+// ConflictError says another writer changed the register first; nothing
+// was written and the command may be tried again. Its exit status is 4.
+type ConflictError struct{ Err error }
+
+func (e *ConflictError) Error() string {
+	return "the register changed meanwhile, nothing was written (try again): " + e.Err.Error()
+}
+func (e *ConflictError) Unwrap() error { return e.Err }
+
+// ExitCode is the process exit status for a conflict.
+func (e *ConflictError) ExitCode() int { return 4 }
+
+// asConflict wraps store.ErrConflict errors as ConflictError.
+func asConflict(err error) error {
+	if errors.Is(err, store.ErrConflict) {
+		return &ConflictError{Err: err}
+	}
+	return err
+}
+
+// withTx runs fn in one transaction, committing if fn returns nil. The
+// deferred rollback runs even when ctx has been cancelled.
+func (r *Register) withTx(ctx context.Context, opts pgx.TxOptions, fn func(tx pgx.Tx) error) error {
+	tx, err := r.pool.BeginTx(ctx, opts)
+	if err != nil {
+		return fmt.Errorf("begin transaction: %w", err)
+	}
+	defer tx.Rollback(context.WithoutCancel(ctx))
+	if err := fn(tx); err != nil {
+		return err
+	}
+	if err := tx.Commit(ctx); err != nil {
+		return asConflict(fmt.Errorf("commit: %w", err))
+	}
+	return nil
+}
+
+// readTx is a read-only transaction that sees one snapshot.
+var readTx = pgx.TxOptions{IsoLevel: pgx.RepeatableRead, AccessMode: pgx.ReadOnly}
+
+// mark returns the mark with designation, or an InputError naming field
+// with the nearest designations as suggestions.
+func (r *Register) mark(ctx context.Context, db store.DBTX, field, designation string, forUpdate bool) (store.Mark, error) {
+	designation = strings.TrimSpace(designation)
+	if designation == "" {
+		return store.Mark{}, inputErr(field, "a mark designation is required")
+	}
+	m, err := store.MarkGet(ctx, db, store.MarkGetParams{Designation: designation, ForUpdate: forUpdate})
+	if errors.Is(err, store.ErrNotFound) {
+		cands, err := store.MarkDesignationsLike(ctx, db, designation, 10000)
+		if err != nil {
+			return store.Mark{}, err
+		}
+		return store.Mark{}, inputErr(field, "no mark %q in the register%s", designation, didYouMean(designation, cands))
+	}
+	if err != nil {
+		return store.Mark{}, fmt.Errorf("look up mark %s: %w", designation, err)
+	}
+	return m, nil
+}
+
+// datum returns the datum with code, or an InputError naming field.
+func (r *Register) datum(ctx context.Context, db store.DBTX, field, code string) (store.Datum, error) {
+	code = strings.TrimSpace(code)
+	if code == "" {
+		return store.Datum{}, inputErr(field, "a datum code is required (see cairn datum list)")
+	}
+	d, err := store.DatumGetByCode(ctx, db, code)
+	if errors.Is(err, store.ErrNotFound) {
+		all, err := store.DatumList(ctx, db)
+		if err != nil {
+			return store.Datum{}, err
+		}
+		var codes []string
+		for _, d := range all {
+			codes = append(codes, d.Code)
+		}
+		return store.Datum{}, inputErr(field, "no datum %q in the register%s", code, didYouMean(code, codes))
+	}
+	if err != nil {
+		return store.Datum{}, fmt.Errorf("look up datum %s: %w", code, err)
+	}
+	return d, nil
+}
+
+// didYouMean returns " (did you mean X?)" naming the candidates nearest to
+// s, or "" if none is close. Near means an edit distance, ignoring case and
+// punctuation, of at most a third of the length (at least 1).
+func didYouMean(s string, cands []string) string {
+	key := func(x string) string {
+		return strings.Map(func(r rune) rune {
+			if r == '-' || r == '_' || r == '.' || r == '/' || r == ' ' {
+				return -1
+			}
+			return r
+		}, strings.ToUpper(x))
+	}
+	k := key(s)
+	limit := max(1, len(k)/3)
+	type scored struct {
+		s string
+		d int
+	}
+	sorted := func(x string) string {
+		r := []rune(x)
+		slices.Sort(r)
+		return string(r)
+	}
+	var near []scored
+	for _, c := range cands {
+		if d := editDistance(k, key(c)); d <= limit {
+			// Between equals, the same characters in another order (two
+			// digits swapped) come first.
+			d *= 2
+			if sorted(key(c)) != sorted(k) {
+				d++
+			}
+			near = append(near, scored{c, d})
+		}
+	}
+	if len(near) == 0 {
+		return ""
+	}
+	sort.SliceStable(near, func(i, j int) bool { return near[i].d < near[j].d })
+	var names []string
+	for i := 0; i < len(near) && i < 3; i++ {
+		names = append(names, near[i].s)
+	}
+	return " (did you mean " + strings.Join(names, " or ") + "?)"
+}
+
+// editDistance is the optimal string alignment distance between a and b:
+// insertions, deletions, substitutions and transpositions of neighbours
+// (TC-0421 for TC-0412) each count one.
+func editDistance(a, b string) int {
+	ra, rb := []rune(a), []rune(b)
+	d := make([][]int, len(ra)+1)
+	for i := range d {
+		d[i] = make([]int, len(rb)+1)
+		d[i][0] = i
+	}
+	for j := range d[0] {
+		d[0][j] = j
+	}
+	for i := 1; i <= len(ra); i++ {
+		for j := 1; j <= len(rb); j++ {
+			cost := 1
+			if ra[i-1] == rb[j-1] {
+				cost = 0
+			}
+			d[i][j] = min(d[i-1][j]+1, d[i][j-1]+1, d[i-1][j-1]+cost)
+			if i > 1 && j > 1 && ra[i-1] == rb[j-2] && ra[i-2] == rb[j-1] {
+				d[i][j] = min(d[i][j], d[i-2][j-2]+1)
+			}
+		}
+	}
+	return d[len(ra)][len(rb)]
+}

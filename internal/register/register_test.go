@@ -1,0 +1,274 @@
+package register_test
+
+import (
+	"context"
+	"errors"
+	"math"
+	"strings"
+	"testing"
+	"time"
+
+	"cairn/internal/pgtest"
+	"cairn/internal/register"
+	"cairn/internal/store"
+)
+
+type bundle struct {
+	ctx context.Context
+	db  *pgtest.DB
+	r   *register.Register
+}
+
+// setup gives a register with datum NAVD88 and mark TC-0412.
+func setup(t *testing.T) *bundle {
+	t.Helper()
+	db := pgtest.New(t)
+	b := &bundle{ctx: context.Background(), db: db, r: register.New(db.Pool)}
+	if _, err := b.r.DatumAdd(b.ctx, register.DatumAddParams{Code: "NAVD88", Name: "North American Vertical Datum of 1988"}); err != nil {
+		t.Fatal(err)
+	}
+	b.addMark(t, "TC-0412", 41.62, -97.95)
+	return b
+}
+
+func (b *bundle) addMark(t *testing.T, des string, lat, lon float64) {
+	t.Helper()
+	if _, err := b.r.MarkAdd(b.ctx, register.MarkAddParams{Designation: des, Lat: &lat, Lon: &lon, CreatedBy: "tester"}); err != nil {
+		t.Fatal(err)
+	}
+}
+
+// set records value (in usft) on TC-0412.
+func (b *bundle) set(t *testing.T, value, unit string) store.Height {
+	t.Helper()
+	res, err := b.r.HeightSet(b.ctx, register.HeightSetParams{Designation: "TC-0412", Datum: "NAVD88", Value: value,
+		Unit: unit, Source: "test citation", Reason: "test", RecordedBy: "tester"})
+	if err != nil {
+		t.Fatal(err)
+	}
+	return res.Version
+}
+
+func TestHeightAsOf(t *testing.T) {
+	t.Parallel()
+	b := setup(t)
+	v1, v2, v3 := b.set(t, "769.83", "usft"), b.set(t, "769.88", "usft"), b.set(t, "234.662", "m")
+	if !(v1.RecordedAt.Before(v2.RecordedAt) && v2.RecordedAt.Before(v3.RecordedAt)) {
+		t.Fatalf("recorded times not increasing: %v %v %v", v1.RecordedAt, v2.RecordedAt, v3.RecordedAt)
+	}
+	mid := func(a, b time.Time) time.Time { return a.Add(b.Sub(a) / 2) }
+	for _, c := range []struct {
+		name string
+		at   time.Time
+		want int // version, 0 for none
+	}{
+		{"before t1", v1.RecordedAt.Add(-time.Microsecond), 0},
+		{"at t1", v1.RecordedAt, 1},
+		{"between t1 and t2", mid(v1.RecordedAt, v2.RecordedAt), 1},
+		{"between t2 and t3", mid(v2.RecordedAt, v3.RecordedAt), 2},
+		{"after t3", v3.RecordedAt.Add(time.Hour), 3},
+	} {
+		at := c.at
+		v, err := b.r.HeightShow(b.ctx, register.HeightShowParams{Designation: "TC-0412", Datum: "NAVD88", AsOf: &at})
+		if err != nil {
+			t.Fatal(err)
+		}
+		got := 0
+		if len(v.Heights) > 1 {
+			t.Fatalf("%s: %d versions in force", c.name, len(v.Heights))
+		}
+		if len(v.Heights) == 1 {
+			got = v.Heights[0].Version
+		}
+		if got != c.want {
+			t.Errorf("%s: version %d in force, want %d", c.name, got, c.want)
+		}
+	}
+}
+
+// UPDATE, DELETE and TRUNCATE of history are refused by the database, for
+// the tables' owner (the test connects as the owner, a superuser) too.
+func TestHistoryIsAppendOnly(t *testing.T) {
+	t.Parallel()
+	b := setup(t)
+	b.set(t, "769.83", "usft")
+	if _, err := b.r.MarkCondition(b.ctx, register.MarkConditionParams{Designation: "TC-0412", Condition: "good",
+		ObservedOn: time.Date(2024, 5, 1, 0, 0, 0, 0, time.UTC), RecordedBy: "tester"}); err != nil {
+		t.Fatal(err)
+	}
+	var owner string
+	if err := b.db.Pool.QueryRow(b.ctx, "SELECT tableowner FROM pg_tables WHERE tablename = 'height'").Scan(&owner); err != nil {
+		t.Fatal(err)
+	}
+	var me string
+	if err := b.db.Pool.QueryRow(b.ctx, "SELECT current_user").Scan(&me); err != nil {
+		t.Fatal(err)
+	}
+	if owner != me {
+		t.Fatalf("test connects as %s, table owner is %s", me, owner)
+	}
+	for _, sql := range []string{
+		"UPDATE height SET value = 769.84",
+		"UPDATE height SET reason = 'rewritten'",
+		"DELETE FROM height",
+		"TRUNCATE height",
+		"UPDATE mark_condition SET condition = 'destroyed'",
+		"DELETE FROM mark_condition",
+		"TRUNCATE mark_condition",
+	} {
+		_, err := b.db.Pool.Exec(b.ctx, sql)
+		if err == nil || !strings.Contains(err.Error(), "append-only") {
+			t.Errorf("%s: err = %v, want a refusal saying history is append-only", sql, err)
+		}
+	}
+	var value string
+	if err := b.db.Pool.QueryRow(b.ctx, "SELECT value::text FROM height").Scan(&value); err != nil || value != "769.83" {
+		t.Fatalf("value after refused changes: %q, %v", value, err)
+	}
+	_, err := b.db.Pool.Exec(b.ctx, "UPDATE mark SET designation = 'TC-9999'")
+	if err == nil || !strings.Contains(err.Error(), "never changes") {
+		t.Errorf("renaming a mark: err = %v, want a refusal", err)
+	}
+}
+
+// A version must supersede the latest one: a stale writer gets a conflict
+// and writes nothing.
+func TestStaleSupersedesConflicts(t *testing.T) {
+	t.Parallel()
+	b := setup(t)
+	v1 := b.set(t, "769.83", "usft")
+	b.set(t, "769.88", "usft")
+	value, unit, dec := "769.90", "usft", 2
+	_, err := store.HeightInsert(b.ctx, b.db.Pool, store.HeightInsertParams{MarkID: v1.MarkID, DatumID: v1.DatumID,
+		Supersedes: &v1.ID, Value: &value, Unit: &unit, Decimals: &dec, SourceKind: "authority", Source: "x",
+		Reason: "stale", RecordedBy: "tester"})
+	if !errors.Is(err, store.ErrConflict) {
+		t.Fatalf("superseding an old version: err = %v, want ErrConflict", err)
+	}
+	_, err = store.HeightInsert(b.ctx, b.db.Pool, store.HeightInsertParams{MarkID: v1.MarkID, DatumID: v1.DatumID,
+		Value: &value, Unit: &unit, Decimals: &dec, SourceKind: "authority", Source: "x",
+		Reason: "second first version", RecordedBy: "tester"})
+	if !errors.Is(err, store.ErrConflict) {
+		t.Fatalf("a second first version: err = %v, want ErrConflict", err)
+	}
+	rep, err := b.r.AuditVerify(b.ctx)
+	if err != nil || len(rep.Breaks) != 0 || rep.Versions != 2 {
+		t.Fatalf("audit after refused writes: %+v, %v", rep, err)
+	}
+}
+
+// 769.83 usft is kept as written; converted exactly it is 234.645 m.
+// Source: 1 usft = 1200/3937 m (Federal Register Vol. 85 No. 193, 5 Oct 2020,
+// NIST and NOAA/NGS). 769.83 × 1200/3937 = 923796/3937 = 234.64465... m,
+// which rounds to 234.645 m at the millimetre.
+func TestUnitRoundTrip(t *testing.T) {
+	t.Parallel()
+	b := setup(t)
+	b.set(t, "769.83", "usft")
+	var stored, unit string
+	if err := b.db.Pool.QueryRow(b.ctx, "SELECT value::text, unit FROM height").Scan(&stored, &unit); err != nil {
+		t.Fatal(err)
+	}
+	if stored != "769.83" || unit != "usft" {
+		t.Fatalf("stored %s %s, want 769.83 usft", stored, unit)
+	}
+	v, err := b.r.HeightShow(b.ctx, register.HeightShowParams{Designation: "TC-0412"})
+	if err != nil {
+		t.Fatal(err)
+	}
+	h := v.Heights[0]
+	if *h.Value != "769.83" || *h.Unit != "usft" || *h.Decimals != 2 {
+		t.Fatalf("read back %s %s (%d decimals), want 769.83 usft (2)", *h.Value, *h.Unit, *h.Decimals)
+	}
+}
+
+// The change between versions is exact, converting when units differ.
+func TestHistoryChanges(t *testing.T) {
+	t.Parallel()
+	b := setup(t)
+	b.set(t, "769.83", "usft")
+	b.set(t, "769.88", "usft")
+	// 769.88 usft = 769.88 × 1200/3937 m = 234.65989... m; 234.662 − 234.65989 = +0.00211 → +0.002 m.
+	b.set(t, "234.662", "m")
+	_, hs, err := b.r.History(b.ctx, "TC-0412", "")
+	if err != nil {
+		t.Fatal(err)
+	}
+	want := []string{"+0.002", "+0.05", ""}
+	if len(hs) != 3 {
+		t.Fatalf("%d versions, want 3", len(hs))
+	}
+	for i, h := range hs {
+		got := ""
+		if h.Change != nil {
+			got = *h.Change
+		}
+		if h.Version != 3-i || got != want[i] {
+			t.Errorf("entry %d: version %d change %q, want version %d change %q", i, h.Version, got, 3-i, want[i])
+		}
+	}
+}
+
+// Near search distances against hand computation with the haversine
+// formula, d = 2R asin √(sin²(Δφ/2) + cos φ1 cos φ2 sin²(Δλ/2)), R =
+// 6371.0088 km (IUGG mean radius R1 of GRS 80, Moritz 2000).
+func TestMarkListNear(t *testing.T) {
+	t.Parallel()
+	b := setup(t) // TC-0412 at 41.62, -97.95: the search point itself
+	// Along the parallel, Δλ = 0.02°: cos 41.62° = 0.7475663, sin 0.01° =
+	// 1.7453292e-4, √a = 0.7475663 × 1.7453292e-4 = 1.3047494e-4,
+	// d = 2 × 6371008.8 m × asin(1.3047494e-4) = 1662.514 m.
+	b.addMark(t, "TC-0413", 41.62, -97.93)
+	// Along the meridian, Δφ = 0.01°: d = R Δφ = 6371008.8 m × 0.01 × π/180 = 1111.951 m.
+	b.addMark(t, "TC-0414", 41.63, -97.95)
+	// Δφ = 0.02°: 2223.902 m, outside 2 km.
+	b.addMark(t, "TC-0415", 41.64, -97.95)
+	ms, err := b.r.MarkList(b.ctx, register.MarkListParams{Near: &store.LatLon{Lat: 41.62, Lon: -97.95}, RadiusM: 2000})
+	if err != nil {
+		t.Fatal(err)
+	}
+	want := []struct {
+		des string
+		m   float64
+	}{{"TC-0412", 0}, {"TC-0414", 1111.951}, {"TC-0413", 1662.514}}
+	if len(ms) != len(want) {
+		t.Fatalf("%d marks within 2 km, want %d", len(ms), len(want))
+	}
+	for i, w := range want {
+		if ms[i].Designation != w.des || math.Abs(*ms[i].DistanceM-w.m) > 0.001 {
+			t.Errorf("%d: %s at %.4f m, want %s at %.3f m (±1 mm)", i, ms[i].Designation, *ms[i].DistanceM, w.des, w.m)
+		}
+	}
+}
+
+func TestDidYouMean(t *testing.T) {
+	t.Parallel()
+	b := setup(t)
+	_, err := b.r.MarkShow(b.ctx, "TC-0421")
+	var ie *register.InputError
+	if !errors.As(err, &ie) || ie.Field != "designation" || !strings.Contains(err.Error(), "did you mean TC-0412?") {
+		t.Fatalf("err = %v, want a designation error suggesting TC-0412", err)
+	}
+	_, err = b.r.HeightShow(b.ctx, register.HeightShowParams{Designation: "TC-0412", Datum: "NAVD 88"})
+	if !errors.As(err, &ie) || ie.Field != "datum" || !strings.Contains(err.Error(), "did you mean NAVD88?") {
+		t.Fatalf("err = %v, want a datum error suggesting NAVD88", err)
+	}
+}
+
+// The audit recomputes the same hashes as the database writes.
+func TestCanonicalMatchesDatabase(t *testing.T) {
+	t.Parallel()
+	b := setup(t)
+	b.set(t, "769.83", "usft")
+	if _, err := b.r.HeightSet(b.ctx, register.HeightSetParams{Designation: "TC-0412", Datum: "NAVD88", Kind: register.KindWithdrawal,
+		Reason: "mark reported destroyed: tab:\t newline:\n quote:' unicode: ±°", RecordedBy: "tester"}); err != nil {
+		t.Fatal(err)
+	}
+	rep, err := b.r.AuditVerify(b.ctx)
+	if err != nil {
+		t.Fatal(err)
+	}
+	if rep.Chains != 1 || rep.Versions != 2 || len(rep.Breaks) != 0 {
+		t.Fatalf("audit %+v, want 1 chain of 2 versions and no break", rep)
+	}
+}

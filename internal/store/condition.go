@@ -1,0 +1,59 @@
+package store
+
+import (
+	"context"
+	"fmt"
+	"time"
+
+	"github.com/jackc/pgx/v5"
+)
+
+// Condition is one report on the state of a mark in the ground.
+type Condition struct {
+	ID         int64
+	MarkID     int64
+	Condition  string // good, disturbed, destroyed, not-found
+	Note       string
+	ObservedOn time.Time // a date
+	RecordedAt time.Time
+	RecordedBy string
+}
+
+// ConditionInsertParams are the fields of a new condition report.
+type ConditionInsertParams struct {
+	MarkID     int64
+	Condition  string
+	Note       string
+	ObservedOn time.Time
+	RecordedBy string
+}
+
+// ConditionInsert appends a condition report.
+func ConditionInsert(ctx context.Context, db DBTX, p ConditionInsertParams) (Condition, error) {
+	var c Condition
+	err := db.QueryRow(ctx, `INSERT INTO mark_condition (mark_id, condition, note, observed_on, recorded_by)
+		VALUES ($1, $2, $3, $4, $5) RETURNING id, mark_id, condition, note, observed_on, recorded_at, recorded_by`,
+		p.MarkID, p.Condition, p.Note, pgDate(p.ObservedOn), p.RecordedBy).
+		Scan(&c.ID, &c.MarkID, &c.Condition, &c.Note, &c.ObservedOn, &c.RecordedAt, &c.RecordedBy)
+	if err != nil {
+		return Condition{}, fmt.Errorf("insert condition report: %w", translate(err))
+	}
+	return c, nil
+}
+
+// ConditionListByMark returns a mark's condition reports, latest first.
+func ConditionListByMark(ctx context.Context, db DBTX, markID int64) ([]Condition, error) {
+	rows, err := db.Query(ctx, `SELECT id, mark_id, condition, note, observed_on, recorded_at, recorded_by
+		FROM mark_condition WHERE mark_id = $1 ORDER BY observed_on DESC, id DESC`, markID)
+	if err != nil {
+		return nil, translate(err)
+	}
+	return collect(rows, func(r pgx.Row) (Condition, error) {
+		var c Condition
+		err := r.Scan(&c.ID, &c.MarkID, &c.Condition, &c.Note, &c.ObservedOn, &c.RecordedAt, &c.RecordedBy)
+		return c, translate(err)
+	})
+}
+
+// pgDate passes the calendar date of t as text, so no time zone shifts it.
+func pgDate(t time.Time) string { return t.Format("2006-01-02") }

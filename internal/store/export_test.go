@@ -1,0 +1,7 @@
+package store
+
+// Exported for the tests of package store_test.
+var (
+	MarkListSQL   = markListSQL
+	BoundingBoxes = boundingBoxes
+)

@@ -1,0 +1,168 @@
+package store
+
+import (
+	"context"
+	"fmt"
+	"time"
+
+	"github.com/jackc/pgx/v5"
+)
+
+// Height is one version of a mark's published height on one datum.
+type Height struct {
+	ID           int64
+	MarkID       int64
+	Designation  string
+	DatumID      int64
+	DatumCode    string
+	Version      int
+	Supersedes   *int64
+	Value        *string // exactly as published; nil for a withdrawal
+	Unit         *string
+	Decimals     *int
+	Class        string
+	SourceKind   string
+	Source       string
+	AdjustmentID *int64
+	Reason       string
+	RecordedBy   string
+	RecordedAt   time.Time
+	Hash         []byte
+	// Current is true when no version supersedes this one.
+	Current bool
+}
+
+const heightColumns = `h.id, h.mark_id, m.designation, h.datum_id, d.code, h.version, h.supersedes,
+	h.value::text, h.unit, h.decimals, h.class, h.source_kind, h.source, h.adjustment_id,
+	h.reason, h.recorded_by, h.recorded_at, h.hash,
+	NOT EXISTS (SELECT 1 FROM height s WHERE s.supersedes = h.id)`
+
+const heightFrom = " FROM height h JOIN mark m ON m.id = h.mark_id JOIN datum d ON d.id = h.datum_id"
+
+func scanHeight(row pgx.Row) (Height, error) {
+	var h Height
+	var dec *int16
+	err := row.Scan(&h.ID, &h.MarkID, &h.Designation, &h.DatumID, &h.DatumCode, &h.Version, &h.Supersedes,
+		&h.Value, &h.Unit, &dec, &h.Class, &h.SourceKind, &h.Source, &h.AdjustmentID,
+		&h.Reason, &h.RecordedBy, &h.RecordedAt, &h.Hash, &h.Current)
+	if dec != nil {
+		d := int(*dec)
+		h.Decimals = &d
+	}
+	return h, translate(err)
+}
+
+func heightQuery(ctx context.Context, db DBTX, sql string, args ...any) ([]Height, error) {
+	rows, err := db.Query(ctx, sql, args...)
+	if err != nil {
+		return nil, translate(err)
+	}
+	return collect(rows, scanHeight)
+}
+
+// HeightInsertParams are the fields of a new version. The database sets
+// version, recorded_at and hash.
+type HeightInsertParams struct {
+	MarkID, DatumID int64
+	// Supersedes is the version being replaced: the latest one, or nil for
+	// the first. If another writer added a version meanwhile, the insert
+	// fails with ErrConflict.
+	Supersedes   *int64
+	Value        *string // decimal text with exactly Decimals places; nil to withdraw
+	Unit         *string
+	Decimals     *int
+	Class        string
+	SourceKind   string
+	Source       string
+	AdjustmentID *int64
+	Reason       string
+	RecordedBy   string
+}
+
+// HeightInsert appends a version and returns it as stored.
+func HeightInsert(ctx context.Context, db DBTX, p HeightInsertParams) (Height, error) {
+	var id int64
+	err := db.QueryRow(ctx, `INSERT INTO height (mark_id, datum_id, supersedes, value, unit, decimals, class,
+			source_kind, source, adjustment_id, reason, recorded_by)
+		VALUES ($1, $2, $3, $4::numeric, $5, $6, $7, $8, $9, $10, $11, $12) RETURNING id`,
+		p.MarkID, p.DatumID, p.Supersedes, p.Value, p.Unit, p.Decimals, p.Class,
+		p.SourceKind, p.Source, p.AdjustmentID, p.Reason, p.RecordedBy).Scan(&id)
+	if err != nil {
+		return Height{}, fmt.Errorf("insert height version: %w", translate(err))
+	}
+	return HeightGet(ctx, db, id)
+}
+
+// HeightGet returns a version by id.
+func HeightGet(ctx context.Context, db DBTX, id int64) (Height, error) {
+	return scanHeight(db.QueryRow(ctx, "SELECT "+heightColumns+heightFrom+" WHERE h.id = $1", id))
+}
+
+// HeightLatestParams names one chain of versions.
+type HeightLatestParams struct{ MarkID, DatumID int64 }
+
+// HeightLatest returns the current version of a mark on a datum;
+// ErrNotFound if it has none.
+func HeightLatest(ctx context.Context, db DBTX, p HeightLatestParams) (Height, error) {
+	return scanHeight(db.QueryRow(ctx, "SELECT "+heightColumns+heightFrom+
+		" WHERE h.mark_id = $1 AND h.datum_id = $2 ORDER BY h.version DESC LIMIT 1", p.MarkID, p.DatumID))
+}
+
+// HeightAsOfParams asks for the versions in force at an instant.
+type HeightAsOfParams struct {
+	MarkID int64
+	// DatumID 0 means every datum of the mark.
+	DatumID int64
+	// AsOf nil means now (the current versions).
+	AsOf *time.Time
+}
+
+// HeightAsOf returns, for each datum, the version of the mark with the
+// greatest recorded_at not after AsOf (a withdrawal included), by datum code.
+func HeightAsOf(ctx context.Context, db DBTX, p HeightAsOfParams) ([]Height, error) {
+	return heightQuery(ctx, db, "SELECT * FROM (SELECT DISTINCT ON (h.datum_id) "+heightColumns+heightFrom+
+		` WHERE h.mark_id = $1 AND ($2::bigint = 0 OR h.datum_id = $2) AND ($3::timestamptz IS NULL OR h.recorded_at <= $3)
+		ORDER BY h.datum_id, h.recorded_at DESC) v ORDER BY v.code`, p.MarkID, p.DatumID, p.AsOf)
+}
+
+// HeightCurrentAll returns the current version of every mark on datumID
+// (0: every datum), by designation and datum code.
+func HeightCurrentAll(ctx context.Context, db DBTX, datumID int64) ([]Height, error) {
+	return heightQuery(ctx, db, "SELECT "+heightColumns+heightFrom+
+		` WHERE NOT EXISTS (SELECT 1 FROM height s WHERE s.supersedes = h.id) AND ($1::bigint = 0 OR h.datum_id = $1)
+		ORDER BY m.designation, d.code`, datumID)
+}
+
+// HeightHistoryParams names the versions to list.
+type HeightHistoryParams struct {
+	MarkID int64
+	// DatumID 0 means every datum.
+	DatumID int64
+}
+
+// HeightHistory returns every version of a mark, newest first within
+// each datum, datums by code.
+func HeightHistory(ctx context.Context, db DBTX, p HeightHistoryParams) ([]Height, error) {
+	return heightQuery(ctx, db, "SELECT "+heightColumns+heightFrom+
+		" WHERE h.mark_id = $1 AND ($2::bigint = 0 OR h.datum_id = $2) ORDER BY d.code, h.version DESC", p.MarkID, p.DatumID)
+}
+
+// HeightEach calls fn with every version in the register, chain by chain
+// (mark, datum) and in version order within a chain, streaming the rows.
+func HeightEach(ctx context.Context, db DBTX, fn func(Height) error) error {
+	rows, err := db.Query(ctx, "SELECT "+heightColumns+heightFrom+" ORDER BY h.mark_id, h.datum_id, h.version, h.id")
+	if err != nil {
+		return translate(err)
+	}
+	defer rows.Close()
+	for rows.Next() {
+		h, err := scanHeight(rows)
+		if err != nil {
+			return err
+		}
+		if err := fn(h); err != nil {
+			return err
+		}
+	}
+	return translate(rows.Err())
+}

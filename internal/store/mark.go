@@ -1,0 +1,210 @@
+package store
+
+import (
+	"context"
+	"fmt"
+	"math"
+	"strings"
+	"time"
+
+	"github.com/jackc/pgx/v5"
+)
+
+// Mark is a benchmark in the register, with its latest condition report.
+type Mark struct {
+	ID          int64
+	Designation string
+	Type        string
+	Setting     string
+	Stamping    string
+	ToReach     string
+	Lat, Lon    *float64 // approximate position, decimal degrees
+	CreatedAt   time.Time
+	CreatedBy   string
+	// Latest is the latest condition report, nil if none.
+	Latest *Condition
+	// DistanceM is the great-circle distance from the search point, in
+	// metres (near searches only).
+	DistanceM *float64
+}
+
+const markColumns = `m.id, m.designation, m.mark_type, m.setting, m.stamping, m.to_reach, m.lat, m.lon,
+	m.created_at, m.created_by, c.id, c.condition, c.note, c.observed_on, c.recorded_at, c.recorded_by`
+
+// markFrom joins each mark to its latest condition report.
+const markFrom = ` FROM mark m LEFT JOIN LATERAL (
+	SELECT * FROM mark_condition mc WHERE mc.mark_id = m.id ORDER BY mc.observed_on DESC, mc.id DESC LIMIT 1
+) c ON true`
+
+func scanMark(row pgx.Row, extra ...any) (Mark, error) {
+	var m Mark
+	var cid *int64
+	var c Condition
+	var cond, note, by *string
+	var on, at *time.Time
+	dest := append([]any{&m.ID, &m.Designation, &m.Type, &m.Setting, &m.Stamping, &m.ToReach, &m.Lat, &m.Lon,
+		&m.CreatedAt, &m.CreatedBy, &cid, &cond, &note, &on, &at, &by}, extra...)
+	if err := row.Scan(dest...); err != nil {
+		return Mark{}, translate(err)
+	}
+	if cid != nil {
+		c = Condition{ID: *cid, MarkID: m.ID, Condition: *cond, Note: *note, ObservedOn: *on, RecordedAt: *at, RecordedBy: *by}
+		m.Latest = &c
+	}
+	return m, nil
+}
+
+// MarkInsertParams are the fields of a new mark.
+type MarkInsertParams struct {
+	Designation, Type, Setting, Stamping, ToReach string
+	Lat, Lon                                      *float64
+	CreatedBy                                     string
+}
+
+// MarkInsert adds a mark; ErrAlreadyExists if the designation is taken.
+func MarkInsert(ctx context.Context, db DBTX, p MarkInsertParams) (int64, error) {
+	var id int64
+	err := db.QueryRow(ctx, `INSERT INTO mark (designation, mark_type, setting, stamping, to_reach, lat, lon, created_by)
+		VALUES ($1, $2, $3, $4, $5, $6, $7, $8) RETURNING id`,
+		p.Designation, p.Type, p.Setting, p.Stamping, p.ToReach, p.Lat, p.Lon, p.CreatedBy).Scan(&id)
+	if err != nil {
+		return 0, fmt.Errorf("insert mark %s: %w", p.Designation, translate(err))
+	}
+	return id, nil
+}
+
+// MarkGetParams names a mark.
+type MarkGetParams struct {
+	Designation string
+	// ForUpdate locks the mark's row until the transaction ends, so writers
+	// of the mark's heights take turns. It does not block condition reports.
+	ForUpdate bool
+}
+
+// MarkGet returns a mark by its exact designation; ErrNotFound if none.
+func MarkGet(ctx context.Context, db DBTX, p MarkGetParams) (Mark, error) {
+	if p.ForUpdate {
+		// Lock first, then read with the latest condition.
+		if _, err := db.Exec(ctx, "SELECT 1 FROM mark WHERE designation = $1 FOR NO KEY UPDATE", p.Designation); err != nil {
+			return Mark{}, translate(err)
+		}
+	}
+	return scanMark(db.QueryRow(ctx, "SELECT "+markColumns+markFrom+" WHERE m.designation = $1", p.Designation))
+}
+
+// MarkDesignationsLike returns up to limit designations that start with
+// the same first character as s (any case), as candidates for "did you mean".
+func MarkDesignationsLike(ctx context.Context, db DBTX, s string, limit int) ([]string, error) {
+	if s == "" {
+		return nil, nil
+	}
+	rows, err := db.Query(ctx, "SELECT designation FROM mark WHERE upper(left(designation, 1)) = upper(left($1, 1)) ORDER BY designation LIMIT $2", s, limit)
+	if err != nil {
+		return nil, translate(err)
+	}
+	return collect(rows, func(r pgx.Row) (string, error) {
+		var d string
+		return d, translate(r.Scan(&d))
+	})
+}
+
+// MarkListParams filters a listing of marks.
+type MarkListParams struct {
+	// Near, if set, keeps marks within RadiusM metres of it and sorts them
+	// by distance.
+	Near    *LatLon
+	RadiusM float64
+	// Conditions, if set, keeps marks whose latest condition is one of
+	// these; "unknown" matches marks with no report.
+	Conditions []string
+}
+
+// LatLon is a position in decimal degrees.
+type LatLon struct{ Lat, Lon float64 }
+
+// EarthRadiusM is the mean radius of the Earth in metres used for
+// distances: the IUGG mean radius R1 = (2a + b)/3 of GRS 80 (Moritz 2000,
+// "Geodetic Reference System 1980", J. Geodesy 74).
+const EarthRadiusM = 6371008.8
+
+// haversineSQL is the great-circle distance in metres from ($1, $2) to the
+// mark, by the haversine formula:
+//
+//	d = 2R asin √(sin²(Δφ/2) + cos φ1 cos φ2 sin²(Δλ/2))
+const haversineSQL = `2 * 6371008.8 * asin(least(1, sqrt(
+	power(sin(radians(m.lat - $1) / 2), 2) +
+	cos(radians($1)) * cos(radians(m.lat)) * power(sin(radians(m.lon - $2) / 2), 2))))`
+
+// MarkList lists marks with their latest condition: by designation, or by
+// distance for a near search.
+func MarkList(ctx context.Context, db DBTX, p MarkListParams) ([]Mark, error) {
+	q, args := markListSQL(p)
+	rows, err := db.Query(ctx, q, args...)
+	if err != nil {
+		return nil, translate(err)
+	}
+	return collect(rows, func(r pgx.Row) (Mark, error) {
+		if p.Near == nil {
+			return scanMark(r)
+		}
+		var d float64
+		m, err := scanMark(r, &d)
+		m.DistanceM = &d
+		return m, err
+	})
+}
+
+// markListSQL builds MarkList's query. A near search keeps the marks in
+// the bounding boxes (answered by the GiST index mark_position), then the
+// exact haversine distance decides and sorts.
+func markListSQL(p MarkListParams) (string, []any) {
+	var where []string
+	var args []any
+	q := "SELECT " + markColumns
+	if p.Near != nil {
+		args = append(args, p.Near.Lat, p.Near.Lon, p.RadiusM)
+		q = "SELECT * FROM (SELECT " + markColumns + ", " + haversineSQL + " AS distance_m"
+		var boxes []string
+		for _, b := range boundingBoxes(*p.Near, p.RadiusM) {
+			boxes = append(boxes, fmt.Sprintf("point(m.lon, m.lat) <@ box(point(%g, %g), point(%g, %g))", b[0], b[1], b[2], b[3]))
+		}
+		where = append(where, "m.lat IS NOT NULL", "("+strings.Join(boxes, " OR ")+")")
+	}
+	if len(p.Conditions) > 0 {
+		args = append(args, p.Conditions)
+		where = append(where, fmt.Sprintf("coalesce(c.condition, 'unknown') = ANY($%d)", len(args)))
+	}
+	q += markFrom
+	if len(where) > 0 {
+		q += " WHERE " + strings.Join(where, " AND ")
+	}
+	if p.Near != nil {
+		return q + ") near WHERE distance_m <= $3 ORDER BY distance_m, designation", args
+	}
+	return q + " ORDER BY m.designation", args
+}
+
+// boundingBoxes returns boxes (lon1, lat1, lon2, lat2, in degrees) that
+// together hold every point within r metres of c on the sphere. The latitude
+// band is φ ± r/R; the longitude half-width is asin(sin(r/R) / cos φ), the
+// widest a small circle reaches (it is the whole circle of longitude when
+// the circle holds a pole). A box that crosses ±180° is split in two.
+func boundingBoxes(c LatLon, r float64) [][4]float64 {
+	a := r / EarthRadiusM // angular radius, radians
+	dLat := a * 180 / math.Pi
+	lat1, lat2 := c.Lat-dLat, c.Lat+dLat
+	if lat1 <= -90 || lat2 >= 90 || math.Sin(a) >= math.Cos(c.Lat*math.Pi/180) {
+		return [][4]float64{{-180, math.Max(lat1, -90), 180, math.Min(lat2, 90)}}
+	}
+	dLon := math.Asin(math.Sin(a)/math.Cos(c.Lat*math.Pi/180)) * 180 / math.Pi
+	// A hair wider, so rounding never drops a mark on the edge.
+	dLon, lat1, lat2 = dLon*(1+1e-9)+1e-9, lat1-1e-9, lat2+1e-9
+	lon1, lon2 := c.Lon-dLon, c.Lon+dLon
+	switch {
+	case lon1 < -180:
+		return [][4]float64{{lon1 + 360, lat1, 180, lat2}, {-180, lat1, lon2, lat2}}
+	case lon2 > 180:
+		return [][4]float64{{lon1, lat1, 180, lat2}, {-180, lat1, lon2 - 360, lat2}}
+	}
+	return [][4]float64{{lon1, lat1, lon2, lat2}}
+}

@@ -1,0 +1,58 @@
+package store_test
+
+import (
+	"context"
+	"strings"
+	"testing"
+
+	"cairn/internal/pgtest"
+	"cairn/internal/store"
+)
+
+// The near search's bounding box is answered by the GiST index.
+func TestMarkListNearUsesIndex(t *testing.T) {
+	t.Parallel()
+	db := pgtest.New(t)
+	ctx := context.Background()
+	tx, err := db.Pool.Begin(ctx)
+	if err != nil {
+		t.Fatal(err)
+	}
+	defer tx.Rollback(ctx)
+	// With sequential scans priced out, a query the index can answer uses it.
+	if _, err := tx.Exec(ctx, "SET LOCAL enable_seqscan = off"); err != nil {
+		t.Fatal(err)
+	}
+	q, args := store.MarkListSQL(store.MarkListParams{Near: &store.LatLon{Lat: 41.62, Lon: -97.95}, RadiusM: 2000})
+	rows, err := tx.Query(ctx, "EXPLAIN "+q, args...)
+	if err != nil {
+		t.Fatal(err)
+	}
+	var plan []string
+	for rows.Next() {
+		var line string
+		if err := rows.Scan(&line); err != nil {
+			t.Fatal(err)
+		}
+		plan = append(plan, line)
+	}
+	if err := rows.Err(); err != nil {
+		t.Fatal(err)
+	}
+	if p := strings.Join(plan, "\n"); !strings.Contains(p, "mark_position") {
+		t.Fatalf("near search does not use index mark_position:\n%s", p)
+	}
+}
+
+func TestBoundingBoxesSplitAtAntimeridian(t *testing.T) {
+	t.Parallel()
+	bs := store.BoundingBoxes(store.LatLon{Lat: 0, Lon: 179.99}, 5000)
+	if len(bs) != 2 || bs[0][2] != 180 || bs[1][0] != -180 {
+		t.Fatalf("boxes %v, want two meeting at ±180", bs)
+	}
+	// Within 5 km of the pole, every longitude is in reach.
+	bs = store.BoundingBoxes(store.LatLon{Lat: 89.99, Lon: 10}, 5000)
+	if len(bs) != 1 || bs[0][0] != -180 || bs[0][2] != 180 || bs[0][3] != 90 {
+		t.Fatalf("boxes %v, want the whole polar cap", bs)
+	}
+}
