@@ -81,6 +81,12 @@ codes and regulations that govern your work.`,
 		newCmdHeight(f),
 		newCmdHistory(f),
 		newCmdAudit(f),
+		newCmdAdjust(f, nil),
+		newCmdPublish(f, nil),
+		newCmdDiscard(f, nil),
+		newCmdAdjustment(f),
+		newCmdTrace(f),
+		newCmdStale(f),
 		newCmdDemo(f),
 	)
 	return root
