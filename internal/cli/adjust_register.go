@@ -217,7 +217,11 @@ func renderAdjustment(ios *IOStreams, format Format, v *register.AdjustmentView,
 		} else {
 			rep = "(first)"
 		}
-		t.AddRow(r.Mark, held, metres(r.ComputedM), metres(r.CorrectionM), metres(&r.AdjustedM), metres(r.SigmaM), pub, deref(r.Unit), rep)
+		corr := metres(r.CorrectionM)
+		if r.CorrectionM != nil && *r.CorrectionM >= 0 {
+			corr = "+" + corr
+		}
+		t.AddRow(r.Mark, held, metres(r.ComputedM), corr, metres(&r.AdjustedM), metres(r.SigmaM), pub, deref(r.Unit), rep)
 	}
 	if err := writeTable(ios, format, t); err != nil {
 		return err

@@ -20,7 +20,7 @@ type PublishParams struct {
 }
 
 // Published is a publication: the adjustment as it now stands and the
-// versions it wrote, in report order.
+// versions it wrote, by designation.
 type Published struct {
 	Adjustment store.Adjustment
 	Versions   []store.Height
@@ -92,18 +92,17 @@ func (r *Register) Publish(ctx context.Context, p PublishParams) (*Published, er
 			Status: store.StatusPublished, Reason: p.Reason, RecordedBy: p.By}); err != nil {
 			return asConflict(err)
 		}
-		source := fmt.Sprintf("adjustment %d (%s, run %s)", a.ID, a.Method, joinIDs(a.RunIDs))
+		var publish []store.AdjustmentResult
 		for _, res := range results {
-			if res.Held {
-				continue
+			if !res.Held {
+				publish = append(publish, res)
 			}
-			h, err := store.HeightInsert(ctx, tx, store.HeightInsertParams{MarkID: res.MarkID, DatumID: a.DatumID,
-				Supersedes: res.Replaces, Value: res.Value, Unit: res.Unit, Decimals: res.Decimals, Class: res.Class,
-				SourceKind: KindAdjustment, Source: source, AdjustmentID: &a.ID, Reason: p.Reason, RecordedBy: p.By})
-			if err != nil {
-				return asConflict(fmt.Errorf("publish %s: %w", res.Designation, err))
-			}
-			out.Versions = append(out.Versions, h)
+		}
+		out.Versions, err = store.HeightInsertMany(ctx, tx, store.HeightInsertManyParams{DatumID: a.DatumID, AdjustmentID: a.ID,
+			Source: fmt.Sprintf("adjustment %d (%s, run %s)", a.ID, a.Method, joinIDs(a.RunIDs)),
+			Reason: p.Reason, RecordedBy: p.By, Results: publish})
+		if err != nil {
+			return asConflict(err)
 		}
 		out.Adjustment, err = store.AdjustmentGet(ctx, tx, store.AdjustmentGetParams{ID: a.ID})
 		return err
