@@ -1,57 +1,413 @@
 package cli
 
 import (
+	"errors"
+	"fmt"
+	"io"
+	"math"
+	"os"
+	"sort"
+	"strconv"
+	"sync"
+	"time"
+
 	"github.com/spf13/cobra"
+
+	"cairn/internal/adjust"
+	"cairn/internal/netfile"
 )
 
-// adjustCautions go with every adjustment report and publication.
-const adjustCautions = `Cautions: an adjustment is a computation, not a survey. Its results need
-review by a licensed surveyor before they are published or used. Check into
-two marks. Verify a mark's condition in the field before relying on it.
-Local codes and regulations govern.`
+type adjustOptions struct {
+	IO *IOStreams
 
-func newCmdAdjust(f *Factory, runF func(*adjustRegisterOptions) error) *cobra.Command {
-	opts := &adjustRegisterOptions{f: f}
+	Runs []string // register form (not offline)
+	// Register holds the options of the register form (RUN... --hold).
+	Register adjustRegisterOptions
+
+	SectionsPath string
+	HeldPath     string
+	OutPath      string
+	Format       Format
+
+	SigmaMMPerSqrtKm float64
+	Alpha            float64
+	SnoopCritical    float64
+	Minimal          bool
+	Timings          bool
+}
+
+func newCmdAdjust(f *Factory, runF func(*adjustOptions) error) *cobra.Command {
+	opts := &adjustOptions{IO: f.IO, Register: adjustRegisterOptions{f: f}}
 	cmd := &cobra.Command{
-		Use:   "adjust RUN... --hold DESIGNATION... [--by distance|setups] [--dry-run]",
-		Short: "Adjust recorded runs against held control, as a draft for review",
-		Long: `Adjust recorded level runs against held control marks and keep the result
-as a draft adjustment, to be reviewed and then published with 'cairn
-publish' or set aside with 'cairn discard'. Nothing is published here.
+		Use:   "adjust RUN... --hold DESIGNATION... | adjust --sections FILE.csv --held FILE.csv",
+		Short: "Adjust recorded runs against held control, or a network from files",
+		Long: adjustRegisterLong + `
 
-The held marks are held at their current heights on the datum (--datum, or
-the one datum on which all of them have a height); the draft keeps the exact
-versions held, so publishing later fails if any of them has changed.
+With --sections and --held instead of runs, a leveling network is adjusted
+by weighted least squares, read from files in the exchange format, and no
+register is opened:
 
---method proportional (the default) spreads each run's misclosure over its
-marks in proportion to the distance levelled (--by distance) or to the
-number of setups (--by setups). A loop closes on its starting mark; a line
-runs between two or more held marks, and each stretch between consecutive
-held marks is adjusted on its own.
+  sections: from,to,dh_m,length_km   (dh_m = height(to) - height(from))
+  held:     point,height_m[,sd_m]    (sd_m > 0 holds a mark weighted)
 
-The report shows, per mark, the computed height, the correction, the
-adjusted height and the height to be published (rounded to the precision the
-runs' accuracy class supports in the unit, unless --unit and --decimals say
-otherwise), and each stretch's misclosure against the class's allowable. A
-misclosure over the allowable gives exit status 3; the draft is still kept.
-
-A held mark whose latest condition report says disturbed, destroyed or not
-found is refused, unless --allow-condition is given with --reason.
+Each section weighs 1/length; sigma is the a-priori standard deviation of
+one kilometre. The result is one row per point: its adjusted height and its
+standard deviation (from the a-priori sigma), in metres. The variance factor
+with its chi-square test and the sections flagged by data snooping are
+reported on stderr (or in the json output); the exit status is 3 when the
+test fails or a section is flagged.
 
 ` + adjustCautions,
 		Example: `  cairn adjust 1 --hold TC-0412
-  cairn adjust 2 --hold TC-0420 --hold TC-0427 --by setups --dry-run`,
-		Args: minArgs(1, "at least one RUN"),
+  cairn adjust 2 --hold TC-0420,TC-0427 --by setups --dry-run
+  cairn adjust --sections net.csv --held held.csv -o json`,
+		Args: cobra.ArbitraryArgs,
 		RunE: func(cmd *cobra.Command, args []string) error {
-			if err := opts.parse(cmd, args); err != nil {
-				return err
+			opts.Runs = args
+			if opts.SectionsPath == "" {
+				if len(args) == 0 && opts.HeldPath == "" {
+					return badInput("give --sections FILE.csv and --held FILE.csv, or RUN numbers with --hold (see 'cairn adjust --help')")
+				}
+				if opts.HeldPath != "" {
+					return badInput("--held needs --sections (to hold marks of recorded runs, use --hold)")
+				}
+				opts.Register.format = opts.Format
+				if err := opts.Register.parse(cmd, args); err != nil {
+					return err
+				}
+				if runF != nil {
+					return runF(opts)
+				}
+				return adjustRegisterRun(cmd.Context(), &opts.Register)
+			}
+			if len(opts.Register.Hold()) > 0 {
+				return badInput("--hold goes with RUN numbers; with --sections, give the held marks in --held")
+			}
+			if len(args) > 0 {
+				return badInput("--sections adjusts a network from files; do not name runs as well")
+			}
+			if opts.HeldPath == "" {
+				return badInput("--sections needs --held FILE.csv")
+			}
+			if !(opts.SigmaMMPerSqrtKm > 0) || math.IsInf(opts.SigmaMMPerSqrtKm, 0) {
+				return badInput("--sigma-mm-per-sqrt-km must be positive, not %v", opts.SigmaMMPerSqrtKm)
+			}
+			if !(opts.Alpha > 0 && opts.Alpha < 1) {
+				return badInput("--alpha must lie between 0 and 1, not %v", opts.Alpha)
+			}
+			if !(opts.SnoopCritical > 0) || math.IsInf(opts.SnoopCritical, 0) {
+				return badInput("--snoop-critical must be positive, not %v", opts.SnoopCritical)
 			}
 			if runF != nil {
 				return runF(opts)
 			}
-			return adjustRegisterRun(cmd.Context(), opts)
+			return adjustFilesRun(opts)
 		},
 	}
-	opts.flags(cmd)
+	fl := cmd.Flags()
+	fl.StringVar(&opts.SectionsPath, "sections", "", "sections file (from,to,dh_m,length_km); adjusts offline, without the register")
+	fl.StringVar(&opts.HeldPath, "held", "", "held marks file (point,height_m[,sd_m])")
+	fl.StringVar(&opts.OutPath, "out", "", "write the heights to this file as csv instead of to stdout")
+	fl.Float64Var(&opts.SigmaMMPerSqrtKm, "sigma-mm-per-sqrt-km", 1, "a-priori standard deviation of leveling, mm per square root of km")
+	fl.Float64Var(&opts.Alpha, "alpha", 0.05, "significance level of the chi-square test of the variance factor")
+	fl.Float64Var(&opts.SnoopCritical, "snoop-critical", adjust.DefaultSnoopCritical, "critical value of data snooping (3.29: alpha = 0.001)")
+	fl.BoolVar(&opts.Minimal, "minimal", false, "hold only the first held mark (minimally constrained) and report how far the others are")
+	fl.BoolVar(&opts.Timings, "timings", false, "print the time of each phase on stderr")
+	addOutputFlag(cmd, &opts.Format)
+	opts.Register.flags(cmd)
 	return cmd
+}
+
+// progress shows the current phase on a terminal once a job has run for a
+// second.
+type progress struct {
+	w     io.Writer
+	start time.Time
+	mu    sync.Mutex
+	phase string
+	shown bool
+	stop  chan struct{}
+	done  chan struct{}
+}
+
+func startProgress(ios *IOStreams) *progress {
+	p := &progress{w: ios.ErrOut, start: time.Now(), stop: make(chan struct{}), done: make(chan struct{})}
+	if !ios.ErrIsTerminal {
+		close(p.done)
+		return p
+	}
+	go func() {
+		defer close(p.done)
+		tick := time.NewTicker(250 * time.Millisecond)
+		defer tick.Stop()
+		for {
+			select {
+			case <-p.stop:
+				return
+			case <-tick.C:
+				if el := time.Since(p.start); el >= time.Second {
+					p.mu.Lock()
+					fmt.Fprintf(p.w, "\r\033[Kadjusting: %s (%.0f s)", p.phase, el.Seconds())
+					p.shown = true
+					p.mu.Unlock()
+				}
+			}
+		}
+	}()
+	return p
+}
+
+func (p *progress) set(phase string) {
+	p.mu.Lock()
+	p.phase = phase
+	p.mu.Unlock()
+}
+
+func (p *progress) end() {
+	select {
+	case <-p.done:
+	default:
+		close(p.stop)
+		<-p.done
+	}
+	if p.shown {
+		fmt.Fprint(p.w, "\r\033[K")
+	}
+}
+
+func adjustFilesRun(opts *adjustOptions) error {
+	ios := opts.IO
+	prog := startProgress(ios)
+	defer prog.end()
+	var timings [][2]any
+	lap := func(name string, t0 time.Time) { timings = append(timings, [2]any{name, time.Since(t0)}) }
+
+	prog.set("reading")
+	t0 := time.Now()
+	held, err := readHeld(opts.HeldPath)
+	if err != nil {
+		return err
+	}
+	f, err := os.Open(opts.SectionsPath)
+	if err != nil {
+		return badInput("open sections: %v", err)
+	}
+	defer f.Close()
+	size := 1 << 12
+	if st, err := f.Stat(); err == nil {
+		size = int(st.Size() / 30) // about 30 bytes a line
+	}
+	net := adjust.NewNetwork(size)
+	var lines []int32
+	if err := netfile.ReadSections(f, opts.SectionsPath, func(s adjust.Section, line int) {
+		net.AddSection(s)
+		lines = append(lines, int32(line))
+	}); err != nil {
+		return flagError{err}
+	}
+	for _, h := range held {
+		net.AddHeld(h.HeldMark)
+	}
+	lap("read", t0)
+
+	sol, err := adjust.SolveNetwork(net, adjust.NetworkOptions{
+		SigmaM:        opts.SigmaMMPerSqrtKm / 1000,
+		Alpha:         opts.Alpha,
+		SnoopCritical: opts.SnoopCritical,
+		Minimal:       opts.Minimal,
+		Progress:      prog.set,
+	})
+	if err != nil {
+		return inputError(err, opts, lines, held)
+	}
+	tm := sol.Stats.Timings
+	timings = append(timings, [2]any{"reduce", tm.Reduce}, [2]any{"order", tm.Order}, [2]any{"factor", tm.Factor},
+		[2]any{"solve", tm.Solve}, [2]any{"inverse", tm.Inverse}, [2]any{"back substitution", tm.Back})
+
+	prog.set("writing")
+	t0 = time.Now()
+	if opts.OutPath != "" {
+		out, err := os.Create(opts.OutPath)
+		if err != nil {
+			return fmt.Errorf("create %s: %w", opts.OutPath, err)
+		}
+		if err := netfile.WriteHeights(out, sol.Points); err != nil {
+			out.Close()
+			return fmt.Errorf("write %s: %w", opts.OutPath, err)
+		}
+		if err := out.Close(); err != nil {
+			return fmt.Errorf("write %s: %w", opts.OutPath, err)
+		}
+	} else if err := writeAdjustment(ios, opts, sol, net, lines); err != nil {
+		return err
+	}
+	lap("write", t0)
+	prog.end()
+
+	if opts.Format != FormatJSON || opts.OutPath != "" {
+		writeAdjustReport(ios.ErrOut, sol, opts, lines)
+	}
+	if opts.Timings {
+		fmt.Fprintf(ios.ErrOut, "junction system: %d unknowns, %d entries in its factor\n", sol.Stats.Junctions, sol.Stats.FactorNNZ)
+		for _, t := range timings {
+			fmt.Fprintf(ios.ErrOut, "%-18s %8.3f s\n", t[0], t[1].(time.Duration).Seconds())
+		}
+	}
+	st := sol.Stats
+	if st.Flagged > 0 || st.Redundancy > 0 && !st.ChiSquare.Pass {
+		n := st.Flagged
+		if st.Redundancy > 0 && !st.ChiSquare.Pass {
+			n++
+		}
+		return checksFailed{n}
+	}
+	return nil
+}
+
+func readHeld(path string) ([]netfile.HeldRow, error) {
+	f, err := os.Open(path)
+	if err != nil {
+		return nil, badInput("open held marks: %v", err)
+	}
+	defer f.Close()
+	rows, err := netfile.ReadHeld(f, path)
+	if err != nil {
+		return nil, flagError{err}
+	}
+	return rows, nil
+}
+
+// inputError names the file and line behind an adjustment's data error.
+func inputError(err error, opts *adjustOptions, lines []int32, held []netfile.HeldRow) error {
+	var se *adjust.SectionError
+	var he *adjust.HeldError
+	var ue *adjust.UncontrolledError
+	switch {
+	case errors.As(err, &se):
+		return badInput("%s:%d: %s: %v", opts.SectionsPath, lines[se.Index], se.Field, se.Err)
+	case errors.As(err, &he):
+		return badInput("%s:%d: %s: %v", opts.HeldPath, held[he.Index].Line, he.Field, he.Err)
+	case errors.As(err, &ue), errors.Is(err, adjust.ErrEmptyNetwork):
+		return badInput("%s: %v", opts.SectionsPath, err)
+	}
+	return err
+}
+
+type adjustJSON struct {
+	Statistics adjustStatsJSON `json:"statistics"`
+	Points     []pointJSON     `json:"points"`
+	Flagged    []flaggedJSON   `json:"flagged_sections"`
+}
+
+type adjustStatsJSON struct {
+	Observations   int      `json:"observations"`
+	Unknowns       int      `json:"unknowns"`
+	Redundancy     int      `json:"redundancy"`
+	SigmaMM        float64  `json:"sigma_mm_per_sqrt_km"`
+	VarianceFactor *float64 `json:"variance_factor"`
+	ChiSquare      float64  `json:"chi_square"`
+	ChiSquareLower *float64 `json:"chi_square_lower"`
+	ChiSquareUpper *float64 `json:"chi_square_upper"`
+	Alpha          float64  `json:"alpha"`
+	ChiSquarePass  bool     `json:"chi_square_pass"`
+	SnoopCritical  float64  `json:"snoop_critical"`
+	Flagged        int      `json:"flagged"`
+}
+
+type pointJSON struct {
+	Point   string  `json:"point"`
+	HeightM float64 `json:"height_m"`
+	SDM     float64 `json:"sd_m"`
+	Held    bool    `json:"held"`
+}
+
+type flaggedJSON struct {
+	Line      int     `json:"line"`
+	From      string  `json:"from"`
+	To        string  `json:"to"`
+	ResidualM float64 `json:"residual_m"`
+	W         float64 `json:"w"`
+}
+
+func finite(v float64) *float64 {
+	if math.IsNaN(v) || math.IsInf(v, 0) {
+		return nil
+	}
+	return &v
+}
+
+// flagged returns the flagged sections, largest |W| first.
+func flagged(sol *adjust.NetworkSolution) []int {
+	var idx []int
+	for i, r := range sol.Sections {
+		if r.Flagged {
+			idx = append(idx, i)
+		}
+	}
+	sort.SliceStable(idx, func(a, b int) bool { return math.Abs(sol.Sections[idx[a]].W) > math.Abs(sol.Sections[idx[b]].W) })
+	return idx
+}
+
+func writeAdjustment(ios *IOStreams, opts *adjustOptions, sol *adjust.NetworkSolution, net *adjust.Network, lines []int32) error {
+	switch opts.Format {
+	case FormatCSV:
+		return netfile.WriteHeights(ios.Out, sol.Points)
+	case FormatJSON:
+		st := sol.Stats
+		v := adjustJSON{
+			Statistics: adjustStatsJSON{
+				Observations: st.Observations, Unknowns: st.Unknowns, Redundancy: st.Redundancy,
+				SigmaMM: opts.SigmaMMPerSqrtKm, VarianceFactor: finite(st.VarianceFactor),
+				ChiSquare: st.ChiSquare.Statistic, ChiSquareLower: finite(st.ChiSquare.Lower), ChiSquareUpper: finite(st.ChiSquare.Upper),
+				Alpha: st.ChiSquare.Alpha, ChiSquarePass: st.ChiSquare.Pass, SnoopCritical: st.SnoopCritical, Flagged: st.Flagged,
+			},
+			Points:  make([]pointJSON, len(sol.Points)),
+			Flagged: []flaggedJSON{},
+		}
+		for i, p := range sol.Points {
+			v.Points[i] = pointJSON{p.Point, round6(p.HeightM), round6(p.SDM), p.Held}
+		}
+		for _, i := range flagged(sol) {
+			from, to := net.SectionPoints(i)
+			r := sol.Sections[i]
+			v.Flagged = append(v.Flagged, flaggedJSON{int(lines[i]), from, to, round6(r.ResidualM), math.Round(r.W*100) / 100})
+		}
+		return writeJSON(ios.Out, v)
+	}
+	return render(ios, opts.Format, nil, func() Table {
+		t := Table{Headers: []string{"POINT", "HEIGHT (m)", "SD (m)"}}
+		for _, p := range sol.Points {
+			t.AddRow(p.Point, strconv.FormatFloat(p.HeightM, 'f', 4, 64), strconv.FormatFloat(p.SDM, 'f', 4, 64))
+		}
+		return t
+	})
+}
+
+func round6(v float64) float64 { return math.Round(v*1e6) / 1e6 }
+
+// writeAdjustReport prints the statistics and the flagged sections.
+func writeAdjustReport(w io.Writer, sol *adjust.NetworkSolution, opts *adjustOptions, lines []int32) {
+	st := sol.Stats
+	fmt.Fprintf(w, "%d points, %d observations, %d unknowns, redundancy %d\n", len(sol.Points), st.Observations, st.Unknowns, st.Redundancy)
+	if st.Redundancy > 0 {
+		verdict := "passes"
+		if !st.ChiSquare.Pass {
+			verdict = "FAILS"
+		}
+		fmt.Fprintf(w, "variance factor %.3f (sigma %.3g mm/sqrt(km)); chi-square %.2f %s the %.0f%% test, bounds %.2f to %.2f\n",
+			st.VarianceFactor, opts.SigmaMMPerSqrtKm, st.ChiSquare.Statistic, verdict, 100*(1-st.ChiSquare.Alpha), st.ChiSquare.Lower, st.ChiSquare.Upper)
+	} else {
+		fmt.Fprintln(w, "no redundancy: the observations cannot be checked")
+	}
+	idx := flagged(sol)
+	fmt.Fprintf(w, "%d section(s) flagged by data snooping (|w| > %.2f)\n", len(idx), st.SnoopCritical)
+	const show = 20
+	for k, i := range idx {
+		if k == show {
+			fmt.Fprintf(w, "  ... and %d more\n", len(idx)-show)
+			break
+		}
+		r := sol.Sections[i]
+		fmt.Fprintf(w, "  %s line %d: residual %+.4f m, w %+.2f\n", opts.SectionsPath, lines[i], r.ResidualM, r.W)
+	}
 }

@@ -1,0 +1,150 @@
+package cli
+
+import (
+	"context"
+	"encoding/json"
+	"os"
+	"path/filepath"
+	"strings"
+	"testing"
+)
+
+func writeFile(t *testing.T, dir, name, body string) string {
+	t.Helper()
+	p := filepath.Join(dir, name)
+	if err := os.WriteFile(p, []byte(body), 0o644); err != nil {
+		t.Fatal(err)
+	}
+	return p
+}
+
+func TestAdjustFlags(t *testing.T) {
+	for _, c := range []struct {
+		args []string
+		want string // error text, or "" for the options reaching runF
+	}{
+		{[]string{"--sections", "s.csv", "--held", "h.csv", "--alpha", "0.01", "--snoop-critical", "4", "-o", "json"}, ""},
+		{[]string{"--sections", "s.csv"}, "--sections needs --held"},
+		{[]string{"--held", "h.csv"}, "--held needs --sections"},
+		{[]string{}, "give --sections"},
+		{[]string{"RUN-1", "--hold", "TC-0412"}, "is not a run number"},
+		{[]string{"1"}, "hold at least one mark"},
+		{[]string{"--sections", "s.csv", "--held", "h.csv", "--hold", "TC-0412"}, "--hold goes with RUN numbers"},
+		{[]string{"RUN-1", "--sections", "s.csv", "--held", "h.csv"}, "do not name runs"},
+		{[]string{"--sections", "s.csv", "--held", "h.csv", "--alpha", "1.5"}, "--alpha must lie"},
+		{[]string{"--sections", "s.csv", "--held", "h.csv", "--sigma-mm-per-sqrt-km", "0"}, "must be positive"},
+	} {
+		ios, _, _, _ := TestStreams(false)
+		f := NewFactory(ios, "test")
+		var got *adjustOptions
+		cmd := newCmdAdjust(f, func(o *adjustOptions) error { got = o; return nil })
+		cmd.SetArgs(c.args)
+		cmd.SetOut(ios.Out)
+		cmd.SetErr(ios.ErrOut)
+		err := cmd.Execute()
+		if c.want == "" {
+			if err != nil || got == nil || got.Alpha != 0.01 || got.SnoopCritical != 4 || got.Format != FormatJSON || got.SigmaMMPerSqrtKm != 1 {
+				t.Errorf("%v: err %v, options %+v", c.args, err, got)
+			}
+			continue
+		}
+		if err == nil || !strings.Contains(err.Error(), c.want) || exitCode(err) != ExitBadInput {
+			t.Errorf("%v: got %v, want exit 2 with %q", c.args, err, c.want)
+		}
+	}
+}
+
+func TestAdjustHelpOpensNoDatabase(t *testing.T) {
+	ios, _, out, _ := TestStreams(false)
+	f := NewFactory(ios, "test")
+	f.DatabaseURL = "postgres://nowhere.invalid/none"
+	if err := Execute(context.Background(), f, []string{"adjust", "--help"}); err != nil {
+		t.Fatal(err)
+	}
+	if !strings.Contains(out.String(), "--sections") || f.pool != nil {
+		t.Errorf("help: %q, pool %v", out.String(), f.pool)
+	}
+}
+
+// A loop A→X→B→A of 4 km misclosing by −4 mm with A held: corrections
+// +1, +1, +2 mm in proportion to length (common practice).
+const loopSections = "from,to,dh_m,length_km\nA,X,1.000,1\nX,B,2.000,1\nB,A,-3.004,2\n"
+
+func TestAdjustFilesCSV(t *testing.T) {
+	dir := t.TempDir()
+	s := writeFile(t, dir, "s.csv", loopSections)
+	h := writeFile(t, dir, "h.csv", "point,height_m\nA,10\n")
+	ios, _, out, errOut := TestStreams(false)
+	f := NewFactory(ios, "test")
+	if err := Execute(context.Background(), f, []string{"adjust", "--sections", s, "--held", h, "-o", "csv"}); err != nil {
+		t.Fatal(err)
+	}
+	lines := strings.Split(strings.TrimSpace(out.String()), "\n")
+	if len(lines) != 4 || lines[0] != "point,height_m,sd_m" || !strings.HasPrefix(lines[1], "A,10.000000,0.000000") ||
+		!strings.HasPrefix(lines[2], "X,11.001000,") || !strings.HasPrefix(lines[3], "B,13.002000,") {
+		t.Errorf("output:\n%s", out.String())
+	}
+	if !strings.Contains(errOut.String(), "redundancy 1") || !strings.Contains(errOut.String(), "0 section(s) flagged") {
+		t.Errorf("report:\n%s", errOut.String())
+	}
+}
+
+func TestAdjustFilesJSON(t *testing.T) {
+	dir := t.TempDir()
+	s := writeFile(t, dir, "s.csv", loopSections)
+	h := writeFile(t, dir, "h.csv", "point,height_m\nA,10\n")
+	ios, _, out, _ := TestStreams(false)
+	if err := Execute(context.Background(), NewFactory(ios, "test"), []string{"adjust", "--sections", s, "--held", h, "-o", "json"}); err != nil {
+		t.Fatal(err)
+	}
+	var v struct {
+		Statistics struct {
+			Redundancy int  `json:"redundancy"`
+			Pass       bool `json:"chi_square_pass"`
+		} `json:"statistics"`
+		Points []struct {
+			Point   string  `json:"point"`
+			HeightM float64 `json:"height_m"`
+		} `json:"points"`
+	}
+	if err := json.Unmarshal(out.Bytes(), &v); err != nil {
+		t.Fatalf("%v in %s", err, out.String())
+	}
+	if v.Statistics.Redundancy != 1 || len(v.Points) != 3 || v.Points[2].HeightM != 13.002 {
+		t.Errorf("got %+v", v)
+	}
+}
+
+func TestAdjustFilesBadInput(t *testing.T) {
+	dir := t.TempDir()
+	s := writeFile(t, dir, "s.csv", loopSections+"P,Q,1,1\n")
+	h := writeFile(t, dir, "h.csv", "point,height_m\nA,10\n")
+	bad := writeFile(t, dir, "bad.csv", "from,to,dh_m,length_km\nA,X,1,1\nX,X,1,1\n")
+	missing := writeFile(t, dir, "m.csv", "point,height_m\nA,10\nZZ,3\n")
+	for _, c := range []struct {
+		sections, held, want string
+	}{
+		{s, h, "have no path to held control: P, Q"},
+		{bad, h, "bad.csv:3: to: the section begins and ends at X"},
+		{writeFile(t, dir, "s2.csv", loopSections), missing, `m.csv:3: point: "ZZ" is not a point of the network`},
+		{filepath.Join(dir, "none.csv"), h, "open sections"},
+	} {
+		ios, _, _, _ := TestStreams(false)
+		err := Execute(context.Background(), NewFactory(ios, "test"), []string{"adjust", "--sections", c.sections, "--held", c.held})
+		if err == nil || !strings.Contains(err.Error(), c.want) || exitCode(err) != ExitBadInput {
+			t.Errorf("got %v, want exit 2 with %q", err, c.want)
+		}
+	}
+}
+
+func TestAdjustFlaggedExitsChecksFailed(t *testing.T) {
+	dir := t.TempDir()
+	// Two loops sharing A–B; the 50 mm blunder on X→B is found by snooping.
+	s := writeFile(t, dir, "s.csv", "from,to,dh_m,length_km\nA,X,1.000,1\nX,B,2.050,1\nB,A,-3.000,1\nA,Y,0.500,1\nY,B,2.501,1\nB,Z,1,1\nZ,A,-1.001,1\n")
+	h := writeFile(t, dir, "h.csv", "point,height_m\nA,10\n")
+	ios, _, _, errOut := TestStreams(false)
+	err := Execute(context.Background(), NewFactory(ios, "test"), []string{"adjust", "--sections", s, "--held", h, "-o", "csv"})
+	if exitCode(err) != ExitChecks || !strings.Contains(errOut.String(), "s.csv line 2") {
+		t.Errorf("exit %d (%v), report:\n%s", exitCode(err), err, errOut.String())
+	}
+}
