@@ -227,6 +227,7 @@ func heightShowRun(cmd *cobra.Command, opts *heightShowOptions) error {
 		}
 		opts.f.IO.printf("%s has no height in force %s\n", v.Mark.Designation, when)
 	}
+	defer reportCautions(opts.f.IO, opts.format)
 	return render(opts.f.IO, opts.format, out, func() Table {
 		t := Table{Headers: []string{"DATUM", "VERSION", "HEIGHT", "UNIT", "CLASS", "RECORDED (UTC)", "SOURCE"}}
 		if in != "" {
@@ -315,6 +316,7 @@ source and who recorded it.`,
 				j.Change = h.Change
 				out = append(out, j)
 			}
+			defer reportCautions(f.IO, format)
 			return render(f.IO, format, out, func() Table {
 				t := Table{Headers: []string{"DATUM", "VERSION", "RECORDED (UTC)", "HEIGHT", "UNIT", "CHANGE", "KIND", "REASON", "SOURCE", "BY"}}
 				for _, h := range out {

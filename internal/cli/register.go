@@ -88,3 +88,10 @@ func deref[T any](p *T) T {
 // printf writes a message for the person at the terminal on ErrOut, so
 // that Out carries only data.
 func (s *IOStreams) printf(format string, a ...any) { fmt.Fprintf(s.ErrOut, format, a...) }
+
+// reportCautions ends a report read at a terminal with the cautions.
+func reportCautions(ios *IOStreams, format Format) {
+	if format == FormatTable && ios.IsTerminal {
+		fmt.Fprintln(ios.ErrOut, "\n"+cautions)
+	}
+}
