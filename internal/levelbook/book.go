@@ -63,6 +63,8 @@ type Book struct {
 	Columns []string `json:"columns"`
 	// Sightings are the rows of the book in field order.
 	Sightings []Sighting `json:"sightings"`
+
+	turningPoints []string // compiled Meta.TurningPoints
 }
 
 // Meta is the description of a run from the `# key: value` comments before
@@ -112,14 +114,14 @@ type Sighting struct {
 	TurningPoint bool `json:"turning_point"`
 	// Upper, Middle and Lower are the wire readings. Upper and Lower are
 	// meaningful only when ThreeWire is set.
-	Upper     float64 `json:"upper,omitempty"`
+	Upper     float64 `json:"upper"`
 	Middle    float64 `json:"middle"`
-	Lower     float64 `json:"lower,omitempty"`
+	Lower     float64 `json:"lower"`
 	ThreeWire bool    `json:"three_wire"`
 	// Distance is the sight length: the booked distance if there is one,
 	// else the stadia distance factor × (upper − lower) + constant.
 	// Meaningful only when DistanceFrom is not DistanceNone.
-	Distance     float64      `json:"distance,omitempty"`
+	Distance     float64      `json:"distance"`
 	DistanceFrom DistanceFrom `json:"distance_from"`
 	// Note is the row's free note.
 	Note string `json:"note,omitempty"`
@@ -131,10 +133,10 @@ type Sighting struct {
 // RawCells are the numeric cells of a row as written in the file (trimmed);
 // empty when the cell was empty or the column absent.
 type RawCells struct {
-	Upper    string `json:"upper,omitempty"`
+	Upper    string `json:"upper"`
 	Middle   string `json:"middle"`
-	Lower    string `json:"lower,omitempty"`
-	Distance string `json:"distance,omitempty"`
+	Lower    string `json:"lower"`
+	Distance string `json:"distance"`
 }
 
 // DistanceFrom says where a sighting's distance comes from.

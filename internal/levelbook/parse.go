@@ -77,6 +77,7 @@ func (p *parser) parse(data []byte) error {
 		return err
 	}
 
+	p.book.Sightings = make([]Sighting, 0, bytes.Count(data, []byte("\n"))+1)
 	r := csv.NewReader(bytes.NewReader(data))
 	r.Comment = '#'
 	r.FieldsPerRecord = -1
@@ -170,6 +171,7 @@ func (p *parser) parseMeta(data []byte) error {
 		return p.errorf(m.Lines["turning-points"], "turning-points", "%v", err)
 	}
 	p.tp = pats
+	p.book.turningPoints = pats
 	return nil
 }
 
@@ -269,11 +271,14 @@ func compilePatterns(list string) ([]string, error) {
 // IsTurningPoint reports whether point matches the book's turning-point
 // pattern.
 func (b *Book) IsTurningPoint(point string) bool {
-	pats, err := compilePatterns(b.Meta.TurningPoints)
-	if err != nil {
-		return false
+	if b.turningPoints == nil {
+		pats, err := compilePatterns(b.Meta.TurningPoints)
+		if err != nil {
+			return false
+		}
+		b.turningPoints = pats
 	}
-	return matchAny(pats, point)
+	return matchAny(b.turningPoints, point)
 }
 
 func matchAny(pats []string, point string) bool {
@@ -425,11 +430,19 @@ func (p *parser) parseRow(line int, rec []string, cols map[string]int) (Sighting
 	return s, nil
 }
 
-// parseNumber reads a finite decimal number.
+// maxMagnitude bounds every number of a book: no rod reading, sight length,
+// stadia factor or constant comes near it, and sums of such numbers stay
+// far from overflow.
+const maxMagnitude = 1e5
+
+// parseNumber reads a finite decimal number of at most maxMagnitude.
 func parseNumber(s string) (float64, error) {
 	v, err := strconv.ParseFloat(s, 64)
-	if err != nil || math.IsNaN(v) || math.IsInf(v, 0) || strings.ContainsAny(s, "xXpP_") || strings.HasPrefix(strings.TrimLeft(s, "+-"), "0x") {
+	if err != nil || math.IsNaN(v) || math.IsInf(v, 0) || strings.ContainsAny(s, "xXpP_") {
 		return 0, fmt.Errorf("not a number %q", s)
+	}
+	if math.Abs(v) > maxMagnitude {
+		return 0, fmt.Errorf("out of range %q (more than %g)", s, maxMagnitude)
 	}
 	return v, nil
 }

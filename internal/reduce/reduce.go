@@ -2,9 +2,9 @@ package reduce
 
 import (
 	"fmt"
+	"maps"
 	"math"
 	"slices"
-	"sort"
 	"strings"
 
 	"cairn/internal/levelbook"
@@ -55,6 +55,12 @@ func Reduce(book *levelbook.Book, opts Options) (*Result, error) {
 		Reading:             m.Reading,
 		CurvatureRefraction: opts.CurvatureRefraction,
 		Book:                book,
+		Rows:                make([]Row, 0, len(book.Sightings)),
+		Setups:              make([]Setup, 0, len(book.Sightings)/2),
+		Sections:            []Section{},
+		Misclosures:         []Misclosure{},
+		Checks:              []Check{},
+		Failures:            []Failure{},
 	}
 	if opts.Class != "" {
 		r.Class = opts.Class
@@ -87,13 +93,8 @@ func (r *Result) setHeld(book *levelbook.Book, hold map[string]float64) error {
 			onLine[s.Point] = true
 		}
 	}
-	names := make([]string, 0, len(hold))
-	for name := range hold {
-		names = append(names, name)
-	}
-	sort.Strings(names)
 	r.Held = map[string]float64{}
-	for _, name := range names {
+	for _, name := range slices.Sorted(maps.Keys(hold)) {
 		h := hold[name]
 		if math.IsNaN(h) || math.IsInf(h, 0) {
 			return fmt.Errorf("held height of %s is not a number", name)
@@ -321,7 +322,10 @@ func (r *Result) check() {
 
 	// Three-wire consistency, every class (EN0593 §4).
 	c := checks[CheckThreeWire]
-	c.Tolerance = "half-intervals agree within " + f(standards.ThreeWireM)
+	c.Tolerance = "half-intervals agree within 0.003 m"
+	if u != units.Metre {
+		c.Tolerance += " (" + units.Format(u.FromMetres(standards.ThreeWireM), 4) + " " + string(u) + ")"
+	}
 	c.Source = standards.ThreeWireSource
 	for _, s := range r.Book.Sightings {
 		if !s.ThreeWire {
@@ -332,7 +336,7 @@ func (r *Result) check() {
 		if d > standards.ThreeWireM+eps {
 			fail(CheckThreeWire, s.Line, s.Point, d, standards.ThreeWireM,
 				"half-intervals %s and %s differ by %s (limit %s): reobserve",
-				units.Format(s.Upper-s.Middle, dec), units.Format(s.Middle-s.Lower, dec), f(d), f(standards.ThreeWireM))
+				units.Format(s.Upper-s.Middle, dec), units.Format(s.Middle-s.Lower, dec), f(d), c.Tolerance[len("half-intervals agree within "):])
 		}
 	}
 	if c.Checked == 0 {
@@ -411,13 +415,7 @@ func (r *Result) check() {
 	c.Checked = 1
 	if len(r.Misclosures) == 0 {
 		last := r.Sections[len(r.Sections)-1]
-		held := slices.Sorted(func(yield func(string) bool) {
-			for k := range r.Held {
-				if !yield(k) {
-					return
-				}
-			}
-		})
+		held := slices.Sorted(maps.Keys(r.Held))
 		why := "no mark is held"
 		if len(held) > 0 {
 			why = "only " + strings.Join(held, ", ") + " is held"

@@ -89,12 +89,12 @@ type Tolerances struct {
 	// route in km. Source: NGS, "Standards & Requirements for Leveling",
 	// after FGCC 1984 (read).
 	MaxAccuracyMmSqrtKm float64 `json:"max_accuracy_mm_sqrt_km"`
-	// Source cites where the numbers come from.
+	// Source cites where the field-procedure numbers come from.
 	Source string `json:"source"`
 }
 
 // Source of the field-procedure table.
-const fgcc1984 = "FGCC 1984, Standards and Specifications for Geodetic Control Networks, §3.5 (from memory); b = S/√d from NGS Standards & Requirements for Leveling"
+const fgcc1984 = "FGCC 1984, Standards and Specifications for Geodetic Control Networks, §3.5 (values from memory)"
 
 // table holds FGCC 1984 §3.5 (from memory) and the NGS b = S/√d limits
 // (read), one row per class.
