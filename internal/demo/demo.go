@@ -28,6 +28,7 @@ var Steps = []Step{
 	{"marks", addMarks},
 	{"condition reports", addConditions},
 	{"published heights", addHeights},
+	{"adjustments", adjustRuns},
 }
 
 // HistoryMark is the mark whose history the demo shows: it has several

@@ -7,6 +7,7 @@ import (
 	"fmt"
 	"sort"
 	"strings"
+	"unicode"
 
 	"github.com/jackc/pgx/v5"
 
@@ -185,7 +186,7 @@ func (r *Register) adjust(ctx context.Context, tx pgx.Tx, p AdjustParams, unit u
 		heldNames[m.Designation] = true
 		holds = append(holds, m)
 	}
-	datum, err := r.adjustDatum(ctx, tx, p.Datum, holds)
+	datum, err := r.adjustDatum(ctx, tx, p.Datum, v.Runs, holds)
 	if err != nil {
 		return err
 	}
@@ -354,11 +355,32 @@ func (r *Register) storeDraft(ctx context.Context, tx pgx.Tx, p AdjustParams, v 
 	return nil
 }
 
-// adjustDatum resolves the datum of an adjustment: the one named, or the
-// only one on which every held mark has a current height.
-func (r *Register) adjustDatum(ctx context.Context, tx pgx.Tx, code string, holds []store.Mark) (store.Datum, error) {
+// adjustDatum resolves the datum of an adjustment: the one named; else the
+// one the runs' books all name (by code or name, ignoring case, spaces and
+// punctuation); else the only one on which every held mark has a current
+// height.
+func (r *Register) adjustDatum(ctx context.Context, tx pgx.Tx, code string, runs []store.Run, holds []store.Mark) (store.Datum, error) {
 	if code != "" {
 		return r.datum(ctx, tx, "datum", code)
+	}
+	named := ""
+	for i, run := range runs {
+		if i > 0 && looseKey(run.Datum) != looseKey(named) {
+			named = ""
+			break
+		}
+		named = run.Datum
+	}
+	if looseKey(named) != "" {
+		all, err := store.DatumList(ctx, tx)
+		if err != nil {
+			return store.Datum{}, err
+		}
+		for _, d := range all {
+			if looseKey(d.Code) == looseKey(named) || looseKey(d.Name) == looseKey(named) {
+				return d, nil
+			}
+		}
 	}
 	common := map[string]int{}
 	for _, m := range holds {
@@ -459,6 +481,16 @@ func heightMetres(h store.Height) (float64, error) {
 	v.Mul(v, u.Rat())
 	f, _ := v.Float64()
 	return f, nil
+}
+
+// looseKey is s in upper case without spaces and punctuation.
+func looseKey(s string) string {
+	return strings.Map(func(r rune) rune {
+		if unicode.IsLetter(r) || unicode.IsDigit(r) {
+			return unicode.ToUpper(r)
+		}
+		return -1
+	}, s)
 }
 
 func joinIDs(ids []int64) string {
