@@ -21,6 +21,8 @@ type adjustOptions struct {
 	IO *IOStreams
 
 	Runs []string // register form (not offline)
+	// Register holds the options of the register form (RUN... --hold).
+	Register adjustRegisterOptions
 
 	SectionsPath string
 	HeldPath     string
@@ -35,14 +37,15 @@ type adjustOptions struct {
 }
 
 func newCmdAdjust(f *Factory, runF func(*adjustOptions) error) *cobra.Command {
-	opts := &adjustOptions{IO: f.IO}
+	opts := &adjustOptions{IO: f.IO, Register: adjustRegisterOptions{f: f}}
 	cmd := &cobra.Command{
-		Use:   "adjust --sections FILE.csv --held FILE.csv",
-		Short: "Adjust a leveling network by least squares",
-		Long: `Adjust a leveling network by weighted least squares.
+		Use:   "adjust RUN... --hold DESIGNATION... | adjust --sections FILE.csv --held FILE.csv",
+		Short: "Adjust recorded runs against held control, or a network from files",
+		Long: adjustRegisterLong + `
 
-With --sections and --held, the network is read from files in the exchange
-format and no register is opened:
+With --sections and --held instead of runs, a leveling network is adjusted
+by weighted least squares, read from files in the exchange format, and no
+register is opened:
 
   sections: from,to,dh_m,length_km   (dh_m = height(to) - height(from))
   held:     point,height_m[,sd_m]    (sd_m > 0 holds a mark weighted)
@@ -52,18 +55,33 @@ one kilometre. The result is one row per point: its adjusted height and its
 standard deviation (from the a-priori sigma), in metres. The variance factor
 with its chi-square test and the sections flagged by data snooping are
 reported on stderr (or in the json output); the exit status is 3 when the
-test fails or a section is flagged.`,
+test fails or a section is flagged.
+
+` + adjustCautions,
+		Example: `  cairn adjust 1 --hold TC-0412
+  cairn adjust 2 --hold TC-0420,TC-0427 --by setups --dry-run
+  cairn adjust --sections net.csv --held held.csv -o json`,
 		Args: cobra.ArbitraryArgs,
 		RunE: func(cmd *cobra.Command, args []string) error {
 			opts.Runs = args
 			if opts.SectionsPath == "" {
 				if len(args) == 0 && opts.HeldPath == "" {
-					return badInput("give --sections FILE.csv and --held FILE.csv (see 'cairn adjust --help')")
+					return badInput("give --sections FILE.csv and --held FILE.csv, or RUN numbers with --hold (see 'cairn adjust --help')")
 				}
 				if opts.HeldPath != "" {
-					return badInput("--held needs --sections")
+					return badInput("--held needs --sections (to hold marks of recorded runs, use --hold)")
 				}
-				return badInput("adjusting runs from the register is not available yet; give --sections and --held")
+				opts.Register.format = opts.Format
+				if err := opts.Register.parse(cmd, args); err != nil {
+					return err
+				}
+				if runF != nil {
+					return runF(opts)
+				}
+				return adjustRegisterRun(cmd.Context(), &opts.Register)
+			}
+			if len(opts.Register.Hold()) > 0 {
+				return badInput("--hold goes with RUN numbers; with --sections, give the held marks in --held")
 			}
 			if len(args) > 0 {
 				return badInput("--sections adjusts a network from files; do not name runs as well")
@@ -96,6 +114,7 @@ test fails or a section is flagged.`,
 	fl.BoolVar(&opts.Minimal, "minimal", false, "hold only the first held mark (minimally constrained) and report how far the others are")
 	fl.BoolVar(&opts.Timings, "timings", false, "print the time of each phase on stderr")
 	addOutputFlag(cmd, &opts.Format)
+	opts.Register.flags(cmd)
 	return cmd
 }
 

@@ -81,14 +81,24 @@ func demoRun(cmd *cobra.Command, f *Factory, name string) error {
 	df := NewFactory(ios, f.Version)
 	defer df.Close()
 	fmt.Fprintf(out, "Built the demo register of the invented Tallis County in database %s (%s).\n", name, src.From)
-	for _, step := range []struct{ title, args string }{
+	steps := []struct{ title, args string }{
 		{"The benchmarks", "mark list"},
 		{"Their current heights", "height list"},
 		{"The history of " + demo.HistoryMark, "history " + demo.HistoryMark},
 		{"The disturbed mark, as cairn shows it", "height show TC-0415"},
 		{"The level runs recorded", "run list"},
 		{"The north loop as recorded", "run show 1"},
-	} {
+	}
+	if published, err := register.New(pool).AdjustmentList(ctx, register.AdjustmentListParams{Status: store.StatusPublished}); err != nil {
+		return err
+	} else if len(published) > 0 {
+		steps = append(steps, []struct{ title, args string }{
+			{"The adjustments of the demo runs", "adjustment list"},
+			{"The history of " + demo.TraceMark + ", now from an adjustment", "history " + demo.TraceMark},
+			{"Where " + demo.TraceMark + "'s height comes from", "trace " + demo.TraceMark},
+		}...)
+	}
+	for _, step := range steps {
 		fmt.Fprintf(out, "\n== %s (cairn %s)\n", step.title, step.args)
 		if err := Execute(ctx, df, append([]string{"--db", url}, strings.Fields(step.args)...)); err != nil {
 			return fmt.Errorf("demo: cairn %s: %w", step.args, err)

@@ -85,6 +85,11 @@ codes and regulations that govern your work.`,
 		newCmdDemo(f),
 		newCmdRun(f),
 		newCmdAdjust(f, nil),
+		newCmdPublish(f, nil),
+		newCmdDiscard(f, nil),
+		newCmdAdjustment(f),
+		newCmdTrace(f),
+		newCmdStale(f),
 	)
 	return root
 }

@@ -29,6 +29,7 @@ var Steps = []Step{
 	{"condition reports", addConditions},
 	{"published heights", addHeights},
 	{"field books", recordBooks},
+	{"adjustments", adjustRuns},
 }
 
 // HistoryMark is the mark whose history the demo shows: it has several
@@ -74,6 +75,10 @@ func addMarks(ctx context.Context, r *register.Register) error {
 			"Orrin Bay storm drain outfall at the end of Mill Lane, downstream headwall", 41.61590, -97.96310},
 		{"TC-0423", "bronze disk", "concrete footing of the old depot", "TC 0423 1961",
 			"former rail depot lot, Depot Street, southwest corner of the footing", 41.62280, -97.93640},
+		{"TC-0420", "bronze disk", "concrete post at the levee toe", "TC 0420 1988",
+			"Mere River levee, landward toe at the pump station, 3 m west of the outlet pipe", 41.61720, -97.94410},
+		{"TC-0427", "bronze disk", "top of the floodgate abutment", "TC 0427 1988",
+			"Mere River levee floodgate at Ferry Lane, south abutment, downstream corner", 41.61240, -97.93180},
 		{"TC-0430", "aluminium disk", "rod mark, 3 m deep, in a sleeve", "TC 0430 2019",
 			"Tallis County road yard, Quarry Road, 15 m east of the fuel island", 41.63510, -97.92870},
 	} {
@@ -97,6 +102,9 @@ func addConditions(ctx context.Context, r *register.Register) error {
 		{"TC-0419", "good", "2019-06-05", ""},
 		{"TC-0423", "not-found", "2023-04-12", "depot footing removed; lot regraded"},
 		{"TC-0430", "good", "2019-06-06", "set new for the 2019 re-levelling"},
+		{"TC-0423", "good", "2024-06-03", "recovered under 0.2 m of fill while running the levee line"},
+		{"TC-0420", "good", "2024-06-03", ""},
+		{"TC-0427", "good", "2024-06-03", ""},
 	} {
 		on, err := date(x.on)
 		if err != nil {
@@ -116,6 +124,7 @@ const (
 	errata   = "Tallis County Surveyor, errata sheet 3 to the 1994 Benchmark Book, 1996 (invented)"
 	report19 = "Tallis County Vertical Control Report 2019, table 4 (invented)"
 	town1961 = "Orrin Bay Works Department level book 1961, abstract of heights (invented)"
+	levee88  = "Mere River flood works 1988, levee benchmark sheet 2 (invented)"
 )
 
 func addHeights(ctx context.Context, r *register.Register) error {
@@ -124,6 +133,8 @@ func addHeights(ctx context.Context, r *register.Register) error {
 		{"TC-0401", "OBLD61", "118.62", "ft", "third", "", town1961, "entered from the town's 1961 abstract"},
 		{"TC-0412", "OBLD61", "112.47", "ft", "third", "", town1961, "entered from the town's 1961 abstract"},
 		{"TC-0419", "OBLD61", "96.35", "ft", "third", "", town1961, "entered from the town's 1961 abstract"},
+		{"TC-0420", "OBLD61", "3.512", "m", "second-I", "", levee88, "entered from the levee sheets"},
+		{"TC-0427", "OBLD61", "5.104", "m", "second-I", "", levee88, "entered from the levee sheets"},
 		{"TC-0401", "NAVD88", "776.12", "usft", "second-II", "", book1994 + ", p. 11", "entered from the 1994 benchmark book"},
 		{"TC-0405", "NAVD88", "771.40", "usft", "second-II", "", book1994 + ", p. 11", "entered from the 1994 benchmark book"},
 		{"TC-0408", "NAVD88", "781.07", "usft", "second-II", "", book1994 + ", p. 12", "entered from the 1994 benchmark book"},

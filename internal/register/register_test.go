@@ -112,12 +112,16 @@ func TestHistoryIsAppendOnly(t *testing.T) {
 		"UPDATE height SET reason = 'rewritten'",
 		"DELETE FROM height",
 		"TRUNCATE height",
+		"TRUNCATE height CASCADE",
 		"UPDATE mark_condition SET condition = 'destroyed'",
 		"DELETE FROM mark_condition",
-		"TRUNCATE mark_condition CASCADE", // without CASCADE, run_mark's reference refuses it first
+		"TRUNCATE mark_condition",
+		"TRUNCATE mark_condition CASCADE",
 	} {
 		_, err := b.db.Pool.Exec(b.ctx, sql)
-		if err == nil || !strings.Contains(err.Error(), "append-only") {
+		// Tables that later tables reference refuse a TRUNCATE without
+		// CASCADE before their triggers run.
+		if err == nil || !strings.Contains(err.Error(), "append-only") && !strings.Contains(err.Error(), "referenced in a foreign key constraint") {
 			t.Errorf("%s: err = %v, want a refusal saying history is append-only", sql, err)
 		}
 	}

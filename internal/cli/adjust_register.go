@@ -1,0 +1,289 @@
+package cli
+
+import (
+	"context"
+	"encoding/hex"
+	"fmt"
+	"strconv"
+	"strings"
+	"time"
+
+	"github.com/spf13/cobra"
+
+	"cairn/internal/adjust"
+	"cairn/internal/register"
+	"cairn/internal/store"
+)
+
+// adjustRegisterOptions are the options of `cairn adjust RUN... --hold`.
+type adjustRegisterOptions struct {
+	f        *Factory
+	format   Format
+	params   register.AdjustParams
+	by       string
+	decimals int
+}
+
+// adjustCautions go with every adjustment report and publication.
+const adjustCautions = `Cautions: an adjustment is a computation, not a survey. Its results need
+review by a licensed surveyor before they are published or used. Check into
+two marks. Verify a mark's condition in the field before relying on it.
+Local codes and regulations govern.`
+
+// adjustRegisterLong describes the register form of adjust.
+const adjustRegisterLong = `Adjust recorded level runs against held control marks and keep the result
+as a draft adjustment, to be reviewed and then published with 'cairn
+publish' or set aside with 'cairn discard'. Nothing is published here.
+
+The held marks are held at their current heights on the datum (--datum, or
+the one datum on which all of them have a height); the draft keeps the exact
+versions held, so publishing later fails if any of them has changed.
+
+--method proportional (the default) spreads each run's misclosure over its
+marks in proportion to the distance levelled (--by distance) or to the
+number of setups (--by setups). A loop closes on its starting mark; a line
+runs between two or more held marks, and each stretch between consecutive
+held marks is adjusted on its own.
+
+The report shows, per mark, the computed height, the correction, the
+adjusted height and the height to be published (rounded to the precision the
+runs' accuracy class supports in the unit, unless --unit and --decimals say
+otherwise), and each stretch's misclosure against the class's allowable. A
+misclosure over the allowable gives exit status 3; the draft is still kept.
+
+A held mark whose latest condition report says disturbed, destroyed or not
+found is refused, unless --allow-condition is given with --reason.`
+
+// Hold returns the designations given with --hold.
+func (o *adjustRegisterOptions) Hold() []string { return o.params.Hold }
+
+// flags adds the register form's flags (-o is the command's own).
+func (o *adjustRegisterOptions) flags(cmd *cobra.Command) {
+	fl := cmd.Flags()
+	fl.StringSliceVar(&o.params.Hold, "hold", nil, "designations of the marks to hold at their current heights (repeat, or separate with commas)")
+	fl.StringVar(&o.params.Datum, "datum", "", "datum code (default: the one datum on which every held mark has a height)")
+	fl.StringVar(&o.params.Method, "method", register.MethodProportional, "method of adjustment: proportional")
+	fl.StringVar(&o.by, "by", "distance", "proportional: spread the misclosure by distance or by setups")
+	fl.StringVar(&o.params.Unit, "unit", "", "unit of the heights to publish: m, ft or usft (default: the held heights' unit)")
+	fl.IntVar(&o.decimals, "decimals", 0, "decimals of the heights to publish (default: the precision of the runs' class)")
+	fl.BoolVar(&o.params.DryRun, "dry-run", false, "compute and report, store nothing")
+	fl.BoolVar(&o.params.AllowCondition, "allow-condition", false, "hold marks whose latest condition report is disturbed, destroyed or not found (needs --reason)")
+	fl.StringVar(&o.params.ConditionReason, "reason", "", "with --allow-condition: why those marks may be held")
+	fl.StringVar(&o.params.By, "made-by", osUser(), "who makes the adjustment")
+}
+
+func (o *adjustRegisterOptions) parse(cmd *cobra.Command, args []string) error {
+	for _, a := range args {
+		id, err := strconv.ParseInt(strings.TrimSpace(a), 10, 64)
+		if err != nil || id <= 0 {
+			return badInput("run: %q is not a run number (see cairn run list)", a)
+		}
+		o.params.RunIDs = append(o.params.RunIDs, id)
+	}
+	d, err := adjust.ParseDistribution(o.by)
+	if err != nil {
+		return badInput("by: %v", err)
+	}
+	o.params.Distribution = d
+	if cmd.Flags().Changed("decimals") {
+		o.params.Decimals = &o.decimals
+	}
+	if len(o.params.Hold) == 0 {
+		return badInput("hold: hold at least one mark with --hold (a loop closes on its starting mark; a line needs a mark at each end)")
+	}
+	if o.params.ConditionReason != "" && !o.params.AllowCondition {
+		return badInput("reason: --reason goes with --allow-condition")
+	}
+	return nil
+}
+
+func adjustRegisterRun(ctx context.Context, opts *adjustRegisterOptions) error {
+	r, err := openRegister(ctx, opts.f)
+	if err != nil {
+		return err
+	}
+	v, err := r.Adjust(ctx, opts.params)
+	if err != nil {
+		return err
+	}
+	if err := renderAdjustment(opts.f.IO, opts.format, v, opts.params.DryRun); err != nil {
+		return err
+	}
+	if n := v.Failed(); n > 0 {
+		return checksFailed{n}
+	}
+	return nil
+}
+
+// adjustmentJSON is an adjustment in machine output.
+type adjustmentJSON struct {
+	// AdjustmentID is null for a dry run.
+	AdjustmentID *int64              `json:"adjustment_id"`
+	DryRun       bool                `json:"dry_run"`
+	Status       string              `json:"status"`
+	StatusReason string              `json:"status_reason,omitempty"`
+	StatusBy     string              `json:"status_by,omitempty"`
+	StatusAt     *time.Time          `json:"status_at,omitempty"`
+	Method       string              `json:"method"`
+	Datum        string              `json:"datum"`
+	Parameters   register.Parameters `json:"parameters"`
+	CreatedBy    string              `json:"created_by,omitempty"`
+	CreatedAt    *time.Time          `json:"created_at,omitempty"`
+	// ConditionReason says why marks in doubt were held.
+	ConditionReason string              `json:"condition_reason,omitempty"`
+	Runs            []runRefJSON        `json:"runs"`
+	Held            []heldJSON          `json:"held"`
+	Results         []resultJSON        `json:"results"`
+	Statistics      register.Statistics `json:"statistics"`
+	ChecksFailed    int                 `json:"checks_failed"`
+	Cautions        string              `json:"cautions"`
+}
+
+type runRefJSON struct {
+	RunID      int64      `json:"run_id"`
+	Name       string     `json:"name"`
+	FileName   string     `json:"file_name"`
+	BookSHA256 string     `json:"book_sha256"`
+	ObservedOn *time.Time `json:"observed_on"`
+	Class      string     `json:"class"`
+}
+
+type heldJSON struct {
+	Mark     string  `json:"mark"`
+	Datum    string  `json:"datum"`
+	Version  int     `json:"version"`
+	Value    *string `json:"value"`
+	Unit     *string `json:"unit"`
+	Current  bool    `json:"current"`
+	Source   string  `json:"source"`
+	HeightID int64   `json:"height_id"`
+}
+
+type resultJSON struct {
+	Mark            string   `json:"mark"`
+	Held            bool     `json:"held"`
+	ComputedM       *float64 `json:"computed_m"`
+	CorrectionM     *float64 `json:"correction_m"`
+	AdjustedM       float64  `json:"adjusted_m"`
+	SigmaM          *float64 `json:"sigma_m"`
+	Value           *string  `json:"value"`
+	Unit            *string  `json:"unit"`
+	Decimals        *int     `json:"decimals"`
+	Class           string   `json:"class"`
+	ReplacesVersion *int     `json:"replaces_version"`
+}
+
+func toRunRef(r store.Run) runRefJSON {
+	return runRefJSON{RunID: r.ID, Name: r.Name, FileName: r.FileName, BookSHA256: hex.EncodeToString(r.BookSHA256),
+		ObservedOn: r.ObservedOn, Class: r.Class}
+}
+
+func toAdjustmentJSON(v *register.AdjustmentView, dryRun bool) adjustmentJSON {
+	a := v.Adjustment
+	j := adjustmentJSON{DryRun: dryRun, Status: a.Status, StatusReason: a.StatusReason, StatusBy: a.StatusBy, StatusAt: a.StatusAt,
+		Method: a.Method, Datum: a.DatumCode, Parameters: v.Parameters, CreatedBy: a.CreatedBy, ConditionReason: a.ConditionReason,
+		Runs: []runRefJSON{}, Held: []heldJSON{}, Results: []resultJSON{}, Statistics: v.Statistics,
+		ChecksFailed: v.Failed(), Cautions: adjustCautions}
+	if !dryRun {
+		id, at := a.ID, a.CreatedAt
+		j.AdjustmentID, j.CreatedAt = &id, &at
+	} else {
+		j.Status = "dry-run"
+	}
+	for _, r := range v.Runs {
+		j.Runs = append(j.Runs, toRunRef(r))
+	}
+	for _, h := range v.Held {
+		j.Held = append(j.Held, heldJSON{Mark: h.Designation, Datum: h.DatumCode, Version: h.Version, Value: h.Value,
+			Unit: h.Unit, Current: h.Current, Source: h.Source, HeightID: h.ID})
+	}
+	for _, r := range v.Results {
+		j.Results = append(j.Results, resultJSON{Mark: r.Designation, Held: r.Held, ComputedM: r.ComputedM, CorrectionM: r.CorrectionM,
+			AdjustedM: r.AdjustedM, SigmaM: r.SigmaM, Value: r.Value, Unit: r.Unit, Decimals: r.Decimals, Class: r.Class,
+			ReplacesVersion: r.ReplacesVersion})
+	}
+	return j
+}
+
+// renderAdjustment prints an adjustment's report: as JSON, or as a table
+// of its marks with the report's context around it (on Out on a terminal,
+// else on ErrOut so that Out carries only the rows).
+func renderAdjustment(ios *IOStreams, format Format, v *register.AdjustmentView, dryRun bool) error {
+	j := toAdjustmentJSON(v, dryRun)
+	if format == FormatJSON {
+		return writeJSON(ios.Out, j)
+	}
+	say := ios.printf
+	if ios.IsTerminal && format == FormatTable {
+		say = func(f string, a ...any) { fmt.Fprintf(ios.Out, f, a...) }
+	}
+	a := v.Adjustment
+	title := fmt.Sprintf("Adjustment %d (%s)", a.ID, a.Status)
+	if dryRun {
+		title = "Adjustment (dry run, not stored)"
+	}
+	how := a.Method
+	if v.Parameters.Distribution != "" {
+		how += " by " + v.Parameters.Distribution
+	}
+	say("%s: %s, on %s, heights published in %s to %d decimals\n", title, how, a.DatumCode, v.Parameters.Unit, v.Parameters.Decimals)
+	if a.Status != store.StatusDraft && a.StatusAt != nil {
+		say("  %s %s by %s: %s\n", a.Status, timeText(*a.StatusAt), a.StatusBy, a.StatusReason)
+	}
+	for _, r := range j.Runs {
+		say("  run %d %q: book %s, sha256 %s\n", r.RunID, r.Name, r.FileName, r.BookSHA256)
+	}
+	for _, h := range j.Held {
+		say("  held %s on %s, version %d: %s %s\n", h.Mark, h.Datum, h.Version, deref(h.Value), deref(h.Unit))
+	}
+	if a.ConditionReason != "" {
+		say("  marks in doubt held because: %s\n", a.ConditionReason)
+	}
+	say("\n")
+	t := Table{Headers: []string{"MARK", "HELD", "COMPUTED (m)", "CORRECTION (m)", "ADJUSTED (m)", "SIGMA (m)", "PUBLISH", "UNIT", "REPLACES"}}
+	for _, r := range j.Results {
+		held, pub, rep := "", deref(r.Value), ""
+		if r.Held {
+			held = "held"
+		} else if r.ReplacesVersion != nil {
+			rep = "version " + strconv.Itoa(*r.ReplacesVersion)
+		} else {
+			rep = "(first)"
+		}
+		corr := metres(r.CorrectionM)
+		if r.CorrectionM != nil && *r.CorrectionM >= 0 {
+			corr = "+" + corr
+		}
+		t.AddRow(r.Mark, held, metres(r.ComputedM), corr, metres(&r.AdjustedM), metres(r.SigmaM), pub, deref(r.Unit), rep)
+	}
+	if err := writeTable(ios, format, t); err != nil {
+		return err
+	}
+	say("\n")
+	for _, s := range v.Statistics.Stretches {
+		verdict := "no allowable (the run names no accuracy class cairn knows, or has no length)"
+		if s.AllowableM != nil {
+			verdict = fmt.Sprintf("allowable %.4f m (%s): ", *s.AllowableM, s.Class)
+			if *s.Pass {
+				verdict += "within"
+			} else {
+				verdict += "EXCEEDS THE ALLOWABLE"
+			}
+		}
+		say("Misclosure, run %d, %s to %s: %+.4f m over %.3f km (%g setups); %s\n",
+			s.RunID, s.From, s.To, s.MisclosureM, s.LengthM/1000, s.Setups, verdict)
+	}
+	say("\n%s\n", adjustCautions)
+	if !dryRun && a.Status == store.StatusDraft {
+		say("\nReview it, then: cairn publish %d --reason \"...\"   or   cairn discard %d --reason \"...\"\n", a.ID, a.ID)
+	}
+	return nil
+}
+
+// metres formats a value in metres to 0.1 mm, or "" for none.
+func metres(v *float64) string {
+	if v == nil {
+		return ""
+	}
+	return strconv.FormatFloat(*v, 'f', 4, 64)
+}

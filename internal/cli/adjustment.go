@@ -1,0 +1,99 @@
+package cli
+
+import (
+	"strconv"
+	"strings"
+
+	"github.com/spf13/cobra"
+
+	"cairn/internal/register"
+)
+
+func newCmdAdjustment(f *Factory) *cobra.Command {
+	cmd := &cobra.Command{
+		Use:   "adjustment",
+		Short: "Adjustments made: list them, show one",
+	}
+	cmd.AddCommand(newCmdAdjustmentList(f), newCmdAdjustmentShow(f))
+	return cmd
+}
+
+// adjustmentRowJSON is one adjustment in a listing.
+type adjustmentRowJSON struct {
+	AdjustmentID int64   `json:"adjustment_id"`
+	Status       string  `json:"status"`
+	Method       string  `json:"method"`
+	Datum        string  `json:"datum"`
+	RunIDs       []int64 `json:"run_ids"`
+	Marks        int     `json:"marks"`
+	CreatedBy    string  `json:"created_by"`
+	CreatedAt    string  `json:"created_at"`
+	StatusReason string  `json:"status_reason,omitempty"`
+}
+
+func newCmdAdjustmentList(f *Factory) *cobra.Command {
+	var format Format
+	var status string
+	cmd := &cobra.Command{
+		Use:   "list [--status draft|published|discarded]",
+		Short: "List adjustments, oldest first",
+		Args:  exactArgs(0, "no arguments"),
+		RunE: func(cmd *cobra.Command, args []string) error {
+			r, err := openRegister(cmd.Context(), f)
+			if err != nil {
+				return err
+			}
+			as, err := r.AdjustmentList(cmd.Context(), register.AdjustmentListParams{Status: status})
+			if err != nil {
+				return err
+			}
+			out := []adjustmentRowJSON{}
+			for _, a := range as {
+				out = append(out, adjustmentRowJSON{AdjustmentID: a.ID, Status: a.Status, Method: a.Method, Datum: a.DatumCode,
+					RunIDs: a.RunIDs, Marks: a.Results, CreatedBy: a.CreatedBy, CreatedAt: timeText(a.CreatedAt), StatusReason: a.StatusReason})
+			}
+			return render(f.IO, format, out, func() Table {
+				t := Table{Headers: []string{"ADJUSTMENT", "STATUS", "METHOD", "DATUM", "RUNS", "MARKS", "MADE (UTC)", "BY", "REASON"}}
+				for _, a := range out {
+					runs := make([]string, len(a.RunIDs))
+					for i, id := range a.RunIDs {
+						runs[i] = strconv.FormatInt(id, 10)
+					}
+					t.AddRow(strconv.FormatInt(a.AdjustmentID, 10), a.Status, a.Method, a.Datum, strings.Join(runs, ","),
+						strconv.Itoa(a.Marks), a.CreatedAt, a.CreatedBy, a.StatusReason)
+				}
+				return t
+			})
+		},
+	}
+	addOutputFlag(cmd, &format)
+	cmd.Flags().StringVar(&status, "status", "", "only adjustments with this status: draft, published or discarded")
+	return cmd
+}
+
+func newCmdAdjustmentShow(f *Factory) *cobra.Command {
+	var format Format
+	cmd := &cobra.Command{
+		Use:   "show ADJUSTMENT",
+		Short: "Show an adjustment's report: runs, held versions, results, misclosures",
+		Long:  "Show an adjustment's report as it was made, with its status.\n\n" + adjustCautions,
+		Args:  exactArgs(1, "an ADJUSTMENT number"),
+		RunE: func(cmd *cobra.Command, args []string) error {
+			id, err := strconv.ParseInt(strings.TrimSpace(args[0]), 10, 64)
+			if err != nil || id <= 0 {
+				return badInput("adjustment: %q is not an adjustment number (see cairn adjustment list)", args[0])
+			}
+			r, err := openRegister(cmd.Context(), f)
+			if err != nil {
+				return err
+			}
+			v, err := r.Adjustment(cmd.Context(), id)
+			if err != nil {
+				return err
+			}
+			return renderAdjustment(f.IO, format, v, false)
+		},
+	}
+	addOutputFlag(cmd, &format)
+	return cmd
+}

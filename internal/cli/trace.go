@@ -1,0 +1,169 @@
+package cli
+
+import (
+	"fmt"
+	"io"
+	"strconv"
+	"strings"
+	"time"
+
+	"github.com/spf13/cobra"
+
+	"cairn/internal/register"
+)
+
+// traceJSON is the derivation of a mark's heights in machine output.
+type traceJSON struct {
+	Mark     string             `json:"mark"`
+	AsOf     *time.Time         `json:"as_of"`
+	Versions []traceVersionJSON `json:"versions"`
+}
+
+// traceVersionJSON is a node of the tree: a version and, when it came from
+// an adjustment, the adjustment with its runs and held versions.
+type traceVersionJSON struct {
+	heightJSON
+	HeightID int64 `json:"height_id"`
+	// Repeated: the derivation is given earlier in the same trace.
+	Repeated   bool                 `json:"repeated"`
+	Adjustment *traceAdjustmentJSON `json:"adjustment,omitempty"`
+}
+
+type traceAdjustmentJSON struct {
+	AdjustmentID int64              `json:"adjustment_id"`
+	Method       string             `json:"method"`
+	Status       string             `json:"status"`
+	StatusBy     string             `json:"status_by"`
+	StatusAt     *time.Time         `json:"status_at"`
+	StatusReason string             `json:"status_reason"`
+	Runs         []runRefJSON       `json:"runs"`
+	Held         []traceVersionJSON `json:"held"`
+}
+
+func toTraceVersionJSON(n *register.TraceVersion) traceVersionJSON {
+	j := traceVersionJSON{heightJSON: toHeightJSON(n.Height, ""), HeightID: n.ID, Repeated: n.Repeated}
+	if a := n.Adjustment; a != nil {
+		ja := &traceAdjustmentJSON{AdjustmentID: a.ID, Method: a.Method, Status: a.Status, StatusBy: a.StatusBy,
+			StatusAt: a.StatusAt, StatusReason: a.StatusReason, Runs: []runRefJSON{}, Held: []traceVersionJSON{}}
+		for _, r := range a.Runs {
+			ja.Runs = append(ja.Runs, toRunRef(r))
+		}
+		for _, h := range a.Held {
+			ja.Held = append(ja.Held, toTraceVersionJSON(h))
+		}
+		j.Adjustment = ja
+	}
+	return j
+}
+
+func newCmdTrace(f *Factory) *cobra.Command {
+	var format Format
+	var datum, asOf string
+	cmd := &cobra.Command{
+		Use:   "trace DESIGNATION [--datum CODE] [--as-of TIME]",
+		Short: "Show where a benchmark's height came from, down to outside sources",
+		Long: `Show the derivation of a benchmark's height as a tree: the version in force
+(now, or at --as-of), the adjustment it came from, that adjustment's runs
+with the SHA-256 of their field books as recorded, and the versions it held,
+each traced in turn, down to the outside publications they cite.
+
+-o json gives the same tree; -o csv gives one row per node with its depth.`,
+		Args: exactArgs(1, "a DESIGNATION"),
+		RunE: func(cmd *cobra.Command, args []string) error {
+			p := register.TraceParams{Designation: args[0], Datum: datum}
+			if asOf != "" {
+				t, err := parseInstant(asOf)
+				if err != nil {
+					return badInput("as-of: %v", err)
+				}
+				p.AsOf = &t
+			}
+			r, err := openRegister(cmd.Context(), f)
+			if err != nil {
+				return err
+			}
+			tr, err := r.Trace(cmd.Context(), p)
+			if err != nil {
+				return err
+			}
+			warnCondition(f.IO, tr.Mark)
+			out := traceJSON{Mark: tr.Mark.Designation, AsOf: tr.AsOf, Versions: []traceVersionJSON{}}
+			for _, v := range tr.Versions {
+				out.Versions = append(out.Versions, toTraceVersionJSON(v))
+			}
+			switch format {
+			case FormatJSON:
+				return writeJSON(f.IO.Out, out)
+			case FormatCSV:
+				t := Table{Headers: []string{"depth", "node", "mark", "datum", "version", "value", "unit", "source_kind", "source", "adjustment_id", "run_id", "book_sha256"}}
+				for _, v := range out.Versions {
+					traceRows(&t, v, 0)
+				}
+				return writeTable(f.IO, format, t)
+			}
+			for i, v := range out.Versions {
+				if i > 0 {
+					fmt.Fprintln(f.IO.Out)
+				}
+				writeTrace(f.IO.Out, v, "")
+			}
+			return nil
+		},
+	}
+	addOutputFlag(cmd, &format)
+	cmd.Flags().StringVar(&datum, "datum", "", "only this datum")
+	cmd.Flags().StringVar(&asOf, "as-of", "", "trace the version in force at this time")
+	return cmd
+}
+
+// writeTrace writes the tree under v, indented.
+func writeTrace(w io.Writer, v traceVersionJSON, indent string) {
+	fmt.Fprintf(w, "%s%s on %s, version %d: %s (%s), recorded %s by %s\n", indent, v.Mark, v.Datum, v.Version,
+		valueOrWithdrawn(v.heightJSON), v.SourceKind, timeText(v.RecordedAt), v.RecordedBy)
+	in := indent + "    "
+	fmt.Fprintf(w, "%sreason: %s\n", in, v.Reason)
+	switch {
+	case v.Repeated:
+		fmt.Fprintf(w, "%s(derivation shown above)\n", in)
+	case v.Adjustment != nil:
+		a := v.Adjustment
+		status := a.Status
+		if a.StatusAt != nil {
+			status += fmt.Sprintf(" %s by %s: %s", timeText(*a.StatusAt), a.StatusBy, a.StatusReason)
+		}
+		fmt.Fprintf(w, "%sfrom adjustment %d (%s), %s\n", in, a.AdjustmentID, a.Method, status)
+		for _, r := range a.Runs {
+			fmt.Fprintf(w, "%s    run %d %q: book %s, sha256 %s\n", in, r.RunID, r.Name, r.FileName, r.BookSHA256)
+		}
+		for _, h := range a.Held {
+			fmt.Fprintf(w, "%s    held:\n", in)
+			writeTrace(w, h, in+"        ")
+		}
+	default:
+		fmt.Fprintf(w, "%ssource: %s\n", in, v.Source)
+	}
+}
+
+func traceRows(t *Table, v traceVersionJSON, depth int) {
+	adj := ""
+	if v.Adjustment != nil {
+		adj = strconv.FormatInt(v.Adjustment.AdjustmentID, 10)
+	}
+	t.AddRow(strconv.Itoa(depth), "version", v.Mark, v.Datum, strconv.Itoa(v.Version), deref(v.Value), deref(v.Unit), v.SourceKind, v.Source, adj, "", "")
+	if v.Adjustment == nil || v.Repeated {
+		return
+	}
+	for _, r := range v.Adjustment.Runs {
+		t.AddRow(strconv.Itoa(depth+1), "run", "", "", "", "", "", "", r.FileName, adj, strconv.FormatInt(r.RunID, 10), r.BookSHA256)
+	}
+	for _, h := range v.Adjustment.Held {
+		traceRows(t, h, depth+1)
+	}
+}
+
+func valueOrWithdrawn(h heightJSON) string {
+	if h.Value == nil {
+		return "withdrawn"
+	}
+	return strings.TrimSpace(*h.Value + " " + deref(h.Unit))
+}

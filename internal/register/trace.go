@@ -1,0 +1,132 @@
+package register
+
+import (
+	"context"
+	"errors"
+	"fmt"
+	"time"
+
+	"github.com/jackc/pgx/v5"
+
+	"cairn/internal/store"
+)
+
+// TraceParams ask for the derivation of a mark's heights.
+type TraceParams struct {
+	Designation string
+	// Datum is a datum code; "" traces the mark's height on every datum.
+	Datum string
+	// AsOf picks the versions in force then; nil means now.
+	AsOf *time.Time
+}
+
+// Trace is the derivation of the heights of one mark.
+type Trace struct {
+	Mark store.Mark
+	AsOf *time.Time
+	// Versions holds one tree per datum.
+	Versions []*TraceVersion
+}
+
+// TraceVersion is a node of a derivation: one height version and, when it
+// came from an adjustment, that adjustment.
+type TraceVersion struct {
+	store.Height
+	// Adjustment is set for a version from an adjustment, unless Repeated.
+	Adjustment *TraceAdjustment
+	// Repeated says the version's derivation is shown earlier in the same
+	// trace.
+	Repeated bool
+}
+
+// TraceAdjustment is the adjustment a version came from: its runs (with
+// their books' SHA-256) and the derivations of the versions it held.
+type TraceAdjustment struct {
+	store.Adjustment
+	Runs []store.Run
+	Held []*TraceVersion
+}
+
+// Trace returns the derivation of a mark's heights as trees: each version
+// leads to its adjustment, the adjustment to its runs and to the versions it
+// held, and those to their own derivations, down to outside sources.
+func (r *Register) Trace(ctx context.Context, p TraceParams) (*Trace, error) {
+	t := &Trace{AsOf: p.AsOf}
+	err := r.withTx(ctx, readTx, func(tx pgx.Tx) error {
+		var err error
+		if t.Mark, err = r.mark(ctx, tx, "designation", p.Designation, false); err != nil {
+			return err
+		}
+		q := store.HeightAsOfParams{MarkID: t.Mark.ID, AsOf: p.AsOf}
+		if p.Datum != "" {
+			d, err := r.datum(ctx, tx, "datum", p.Datum)
+			if err != nil {
+				return err
+			}
+			q.DatumID = d.ID
+		}
+		hs, err := store.HeightAsOf(ctx, tx, q)
+		if err != nil {
+			return err
+		}
+		if len(hs) == 0 {
+			when := "now"
+			if p.AsOf != nil {
+				when = "as of " + p.AsOf.UTC().Format(time.RFC3339)
+			}
+			return inputErr("designation", "%s has no height %s", t.Mark.Designation, when)
+		}
+		seen := map[int64]bool{}
+		for _, h := range hs {
+			n, err := traceVersion(ctx, tx, h, seen)
+			if err != nil {
+				return err
+			}
+			t.Versions = append(t.Versions, n)
+		}
+		return nil
+	})
+	if err != nil {
+		return nil, fmt.Errorf("trace %s: %w", p.Designation, err)
+	}
+	return t, nil
+}
+
+// traceVersion builds the derivation of h. Held versions are always older
+// than the adjustment that held them, so the recursion ends; seen stops a
+// version held by several adjustments being expanded more than once.
+func traceVersion(ctx context.Context, db store.DBTX, h store.Height, seen map[int64]bool) (*TraceVersion, error) {
+	n := &TraceVersion{Height: h}
+	if h.AdjustmentID == nil {
+		return n, nil
+	}
+	if seen[h.ID] {
+		n.Repeated = true
+		return n, nil
+	}
+	seen[h.ID] = true
+	a, err := store.AdjustmentGet(ctx, db, store.AdjustmentGetParams{ID: *h.AdjustmentID})
+	if errors.Is(err, store.ErrNotFound) {
+		return nil, fmt.Errorf("version %d of %s cites adjustment %d, which is missing", h.Version, h.Designation, *h.AdjustmentID)
+	}
+	if err != nil {
+		return nil, err
+	}
+	ta := &TraceAdjustment{Adjustment: a}
+	if ta.Runs, err = store.AdjustmentRunList(ctx, db, a.ID); err != nil {
+		return nil, err
+	}
+	held, err := store.AdjustmentHeldList(ctx, db, a.ID)
+	if err != nil {
+		return nil, err
+	}
+	for _, hv := range held {
+		c, err := traceVersion(ctx, db, hv.Height, seen)
+		if err != nil {
+			return nil, err
+		}
+		ta.Held = append(ta.Held, c)
+	}
+	n.Adjustment = ta
+	return n, nil
+}

@@ -1,0 +1,116 @@
+package store
+
+import (
+	"context"
+	"time"
+
+	"github.com/jackc/pgx/v5"
+)
+
+// Kinds of cause that make a current height stale.
+const (
+	// CauseHeldSuperseded: its adjustment held a version that has since
+	// been superseded.
+	CauseHeldSuperseded = "held-superseded"
+	// CauseMarkCondition: its adjustment used a run that touched a mark
+	// later reported disturbed or destroyed.
+	CauseMarkCondition = "mark-condition"
+)
+
+// StaleCause is one reason a current height, derived from an adjustment,
+// no longer stands on current control.
+type StaleCause struct {
+	// HeightID is the current version concerned; AdjustmentID its
+	// adjustment.
+	HeightID     int64
+	AdjustmentID int64
+	Kind         string
+	// Mark is the mark the cause concerns: the held mark, or the mark
+	// reported on.
+	Mark string
+	// For CauseHeldSuperseded: the version held and the one that
+	// superseded it.
+	HeldID, HeldVersion           int64
+	SuccessorID, SuccessorVersion int64
+	SuccessorAt                   time.Time
+	// For CauseMarkCondition: the run, and the condition report.
+	RunID       int64
+	Condition   string
+	ObservedOn  time.Time
+	ConditionAt time.Time
+}
+
+// StaleCauseList returns every cause that makes a current height from an
+// adjustment stale, by height. A condition report counts when it says
+// disturbed or destroyed, was recorded after the run, and was observed on
+// or after the day the run was observed (the same day counts: which came
+// first is not known). A report known when the run was recorded, or of a
+// state before the run, does not count: the run levelled the mark as it
+// then stood.
+func StaleCauseList(ctx context.Context, db DBTX) ([]StaleCause, error) {
+	rows, err := db.Query(ctx, `
+		WITH cur AS (
+			SELECT h.id, h.adjustment_id FROM height h
+			WHERE h.adjustment_id IS NOT NULL AND NOT EXISTS (SELECT 1 FROM height x WHERE x.supersedes = h.id)
+		)
+		SELECT cur.id, cur.adjustment_id, 'held-superseded', m.designation,
+			held.id, held.version, s.id, s.version, s.recorded_at,
+			0::bigint, '', 'epoch'::date, 'epoch'::timestamptz
+		FROM cur
+		JOIN adjustment_held ah ON ah.adjustment_id = cur.adjustment_id
+		JOIN height held ON held.id = ah.height_id
+		JOIN height s ON s.supersedes = held.id
+		JOIN mark m ON m.id = held.mark_id
+		UNION ALL
+		SELECT cur.id, cur.adjustment_id, 'mark-condition', m.designation,
+			0, 0, 0, 0, 'epoch'::timestamptz,
+			r.id, c.condition, c.observed_on, c.recorded_at
+		FROM cur
+		JOIN adjustment_run ar ON ar.adjustment_id = cur.adjustment_id
+		JOIN run r ON r.id = ar.run_id
+		JOIN run_mark rm ON rm.run_id = r.id
+		JOIN mark_condition c ON c.mark_id = rm.mark_id
+		JOIN mark m ON m.id = rm.mark_id
+		WHERE c.condition IN ('disturbed', 'destroyed')
+		  AND c.recorded_at > r.recorded_at
+		  AND c.observed_on >= coalesce(r.observed_on, (r.recorded_at AT TIME ZONE 'UTC')::date)
+		ORDER BY 1, 3, 4, 10, 13`)
+	if err != nil {
+		return nil, translate(err)
+	}
+	return collect(rows, func(r pgx.Row) (StaleCause, error) {
+		var c StaleCause
+		err := r.Scan(&c.HeightID, &c.AdjustmentID, &c.Kind, &c.Mark,
+			&c.HeldID, &c.HeldVersion, &c.SuccessorID, &c.SuccessorVersion, &c.SuccessorAt,
+			&c.RunID, &c.Condition, &c.ObservedOn, &c.ConditionAt)
+		return c, translate(err)
+	})
+}
+
+// HeldLink says that current version HeightID comes from an adjustment
+// that held version HeldID, itself still current.
+type HeldLink struct{ HeightID, HeldID int64 }
+
+// HeldLinkList returns, for every current height from an adjustment, the
+// held versions of its adjustment that are still current: the links along
+// which staleness spreads.
+func HeldLinkList(ctx context.Context, db DBTX) ([]HeldLink, error) {
+	rows, err := db.Query(ctx, `SELECT h.id, ah.height_id FROM height h
+		JOIN adjustment_held ah ON ah.adjustment_id = h.adjustment_id
+		WHERE NOT EXISTS (SELECT 1 FROM height x WHERE x.supersedes = h.id)
+		  AND NOT EXISTS (SELECT 1 FROM height y WHERE y.supersedes = ah.height_id)
+		ORDER BY 1, 2`)
+	if err != nil {
+		return nil, translate(err)
+	}
+	return collect(rows, func(r pgx.Row) (HeldLink, error) {
+		var l HeldLink
+		return l, translate(r.Scan(&l.HeightID, &l.HeldID))
+	})
+}
+
+// HeightListByIDs returns the versions with the given identifiers, by
+// designation and datum code.
+func HeightListByIDs(ctx context.Context, db DBTX, ids []int64) ([]Height, error) {
+	return heightQuery(ctx, db, "SELECT "+heightColumns+heightFrom+" WHERE h.id = ANY($1) ORDER BY m.designation, d.code", ids)
+}
