@@ -15,6 +15,7 @@ import (
 
 	"cairn/internal/adjust"
 	"cairn/internal/netfile"
+	"cairn/internal/register"
 )
 
 type adjustOptions struct {
@@ -39,7 +40,7 @@ type adjustOptions struct {
 func newCmdAdjust(f *Factory, runF func(*adjustOptions) error) *cobra.Command {
 	opts := &adjustOptions{IO: f.IO, Register: adjustRegisterOptions{f: f}}
 	cmd := &cobra.Command{
-		Use:   "adjust RUN... --hold DESIGNATION... | adjust --sections FILE.csv --held FILE.csv",
+		Use:   "adjust RUN... [--marks MARK,... | --area LAT,LON --within D] --hold MARK[:SD_MM]... | adjust --sections FILE.csv --held FILE.csv",
 		Short: "Adjust recorded runs against held control, or a network from files",
 		Long: adjustRegisterLong + `
 
@@ -60,12 +61,16 @@ test fails or a section is flagged.
 ` + adjustCautions,
 		Example: `  cairn adjust 1 --hold TC-0412
   cairn adjust 2 --hold TC-0420,TC-0427 --by setups --dry-run
+  cairn adjust 1 2 3 --method least-squares --hold TC-0412,TC-0427:5
+  cairn adjust --marks TC-0412,TC-0415 --method least-squares --hold TC-0412 --minimal
+  cairn adjust --area 41.62,-97.95 --within 5km --method least-squares --hold TC-0412
   cairn adjust --sections net.csv --held held.csv -o json`,
 		Args: cobra.ArbitraryArgs,
 		RunE: func(cmd *cobra.Command, args []string) error {
 			opts.Runs = args
 			if opts.SectionsPath == "" {
-				if len(args) == 0 && opts.HeldPath == "" {
+				reg := &opts.Register
+				if len(args) == 0 && opts.HeldPath == "" && len(reg.Hold()) == 0 && len(reg.params.Marks) == 0 && reg.area == "" {
 					return badInput("give --sections FILE.csv and --held FILE.csv, or RUN numbers with --hold (see 'cairn adjust --help')")
 				}
 				if opts.HeldPath != "" {
@@ -74,6 +79,13 @@ test fails or a section is flagged.
 				opts.Register.format = opts.Format
 				if err := opts.Register.parse(cmd, args); err != nil {
 					return err
+				}
+				if opts.Register.params.Method == register.MethodLeastSquares {
+					if err := opts.checkNetworkFlags(); err != nil {
+						return err
+					}
+					o := &opts.Register.params.LeastSquares
+					o.SigmaM, o.Alpha, o.SnoopCritical, o.Minimal = opts.SigmaMMPerSqrtKm/1000, opts.Alpha, opts.SnoopCritical, opts.Minimal
 				}
 				if runF != nil {
 					return runF(opts)
@@ -89,14 +101,8 @@ test fails or a section is flagged.
 			if opts.HeldPath == "" {
 				return badInput("--sections needs --held FILE.csv")
 			}
-			if !(opts.SigmaMMPerSqrtKm > 0) || math.IsInf(opts.SigmaMMPerSqrtKm, 0) {
-				return badInput("--sigma-mm-per-sqrt-km must be positive, not %v", opts.SigmaMMPerSqrtKm)
-			}
-			if !(opts.Alpha > 0 && opts.Alpha < 1) {
-				return badInput("--alpha must lie between 0 and 1, not %v", opts.Alpha)
-			}
-			if !(opts.SnoopCritical > 0) || math.IsInf(opts.SnoopCritical, 0) {
-				return badInput("--snoop-critical must be positive, not %v", opts.SnoopCritical)
+			if err := opts.checkNetworkFlags(); err != nil {
+				return err
 			}
 			if runF != nil {
 				return runF(opts)
@@ -111,11 +117,25 @@ test fails or a section is flagged.
 	fl.Float64Var(&opts.SigmaMMPerSqrtKm, "sigma-mm-per-sqrt-km", 1, "a-priori standard deviation of leveling, mm per square root of km")
 	fl.Float64Var(&opts.Alpha, "alpha", 0.05, "significance level of the chi-square test of the variance factor")
 	fl.Float64Var(&opts.SnoopCritical, "snoop-critical", adjust.DefaultSnoopCritical, "critical value of data snooping (3.29: alpha = 0.001)")
-	fl.BoolVar(&opts.Minimal, "minimal", false, "hold only the first held mark (minimally constrained) and report how far the others are")
+	fl.BoolVar(&opts.Minimal, "minimal", false, "least squares: hold only the first held mark (minimally constrained) and report how far the others are")
 	fl.BoolVar(&opts.Timings, "timings", false, "print the time of each phase on stderr")
 	addOutputFlag(cmd, &opts.Format)
 	opts.Register.flags(cmd)
 	return cmd
+}
+
+// checkNetworkFlags checks the settings of a least-squares adjustment.
+func (opts *adjustOptions) checkNetworkFlags() error {
+	if !(opts.SigmaMMPerSqrtKm > 0) || math.IsInf(opts.SigmaMMPerSqrtKm, 0) {
+		return badInput("--sigma-mm-per-sqrt-km must be positive, not %v", opts.SigmaMMPerSqrtKm)
+	}
+	if !(opts.Alpha > 0 && opts.Alpha < 1) {
+		return badInput("--alpha must lie between 0 and 1, not %v", opts.Alpha)
+	}
+	if !(opts.SnoopCritical > 0) || math.IsInf(opts.SnoopCritical, 0) {
+		return badInput("--snoop-critical must be positive, not %v", opts.SnoopCritical)
+	}
+	return nil
 }
 
 // progress shows the current phase on a terminal once a job has run for a

@@ -4,6 +4,8 @@ import (
 	"context"
 	"encoding/hex"
 	"fmt"
+	"math"
+	"sort"
 	"strconv"
 	"strings"
 	"time"
@@ -22,6 +24,9 @@ type adjustRegisterOptions struct {
 	params   register.AdjustParams
 	by       string
 	decimals int
+	weight   string
+	area     string
+	within   string
 }
 
 // adjustCautions go with every adjustment report and publication.
@@ -51,6 +56,25 @@ runs' accuracy class supports in the unit, unless --unit and --decimals say
 otherwise), and each stretch's misclosure against the class's allowable. A
 misclosure over the allowable gives exit status 3; the draft is still kept.
 
+--method least-squares adjusts the sections of all the runs together as
+one network by weighted least squares: a mark reached by several runs is
+one unknown, so the order of the runs does not matter. Sections weigh
+1/length (--weight length) or 1/setups (--weight setups); the a-priori
+standard deviation --sigma-mm-per-sqrt-km is then per square root of a
+kilometre, or of a setup. --hold MARK holds a mark fixed; --hold MARK:SD_MM
+holds it weighted, its current height taken as an observation with that
+standard deviation in millimetres. --minimal holds only the first held mark
+and adjusts the others as check marks, never published, to judge the runs
+apart from the control. --marks and --area (with --within) add every run
+with a section from or to the marks named or the marks in the area.
+
+The least-squares report gives each mark's adjusted height and standard
+deviation, the redundancy, the variance factor with its chi-square test at
+--alpha, and the sections flagged by data snooping (|w| over
+--snoop-critical), with their runs and book lines. A failed test or a
+flagged section gives exit status 3; the draft is still kept. Marks with no
+path to a held mark are an error naming them.
+
 A held mark whose latest condition report says disturbed, destroyed or not
 found is refused, unless --allow-condition is given with --reason.`
 
@@ -60,9 +84,13 @@ func (o *adjustRegisterOptions) Hold() []string { return o.params.Hold }
 // flags adds the register form's flags (-o is the command's own).
 func (o *adjustRegisterOptions) flags(cmd *cobra.Command) {
 	fl := cmd.Flags()
-	fl.StringSliceVar(&o.params.Hold, "hold", nil, "designations of the marks to hold at their current heights (repeat, or separate with commas)")
+	fl.StringSliceVar(&o.params.Hold, "hold", nil, "marks to hold at their current heights: MARK fixed, MARK:SD_MM weighted (least squares); repeat, or separate with commas")
+	fl.StringSliceVar(&o.params.Marks, "marks", nil, "also adjust every run with a section from or to these marks")
+	fl.StringVar(&o.area, "area", "", "LAT,LON: also adjust every run with a section from or to a mark within --within of this point")
+	fl.StringVar(&o.within, "within", "", "radius of --area, in km or m (e.g. 5km)")
+	fl.StringVar(&o.weight, "weight", "length", "least squares: weigh sections by length or by setups")
 	fl.StringVar(&o.params.Datum, "datum", "", "datum code (default: the one datum on which every held mark has a height)")
-	fl.StringVar(&o.params.Method, "method", register.MethodProportional, "method of adjustment: proportional")
+	fl.StringVar(&o.params.Method, "method", register.MethodProportional, "method of adjustment: proportional or least-squares")
 	fl.StringVar(&o.by, "by", "distance", "proportional: spread the misclosure by distance or by setups")
 	fl.StringVar(&o.params.Unit, "unit", "", "unit of the heights to publish: m, ft or usft (default: the held heights' unit)")
 	fl.IntVar(&o.decimals, "decimals", 0, "decimals of the heights to publish (default: the precision of the runs' class)")
@@ -73,6 +101,9 @@ func (o *adjustRegisterOptions) flags(cmd *cobra.Command) {
 }
 
 func (o *adjustRegisterOptions) parse(cmd *cobra.Command, args []string) error {
+	if len(args) == 0 && len(o.params.Marks) == 0 && o.area == "" {
+		return badInput("run: name the runs to adjust (see cairn run list), or choose them with --marks or --area")
+	}
 	for _, a := range args {
 		id, err := strconv.ParseInt(strings.TrimSpace(a), 10, 64)
 		if err != nil || id <= 0 {
@@ -85,6 +116,38 @@ func (o *adjustRegisterOptions) parse(cmd *cobra.Command, args []string) error {
 		return badInput("by: %v", err)
 	}
 	o.params.Distribution = d
+	lsq := o.params.Method == register.MethodLeastSquares
+	if lsq && cmd.Flags().Changed("by") {
+		return badInput("by: --by spreads a proportional misclosure; least squares weighs sections with --weight")
+	}
+	for _, name := range []string{"weight", "sigma-mm-per-sqrt-km", "alpha", "snoop-critical", "minimal"} {
+		if !lsq && cmd.Flags().Changed(name) {
+			return badInput("%s: --%s goes with --method least-squares", name, name)
+		}
+	}
+	switch o.weight {
+	case "length":
+		o.params.LeastSquares.Weighting = adjust.WeightByLength
+	case "setups":
+		o.params.LeastSquares.Weighting = adjust.WeightBySetups
+	default:
+		return badInput("weight: %q is not length or setups", o.weight)
+	}
+	if o.area != "" {
+		ll, err := parseLatLon(o.area)
+		if err != nil || ll.Lat < -90 || ll.Lat > 90 || ll.Lon < -180 || ll.Lon > 180 {
+			return badInput("area: %q is not LAT,LON in decimal degrees (e.g. 41.62,-97.95)", o.area)
+		}
+		if o.within == "" {
+			return badInput("within: give the radius of --area (e.g. --within 5km)")
+		}
+		if o.params.RadiusM, err = parseDistance(o.within); err != nil {
+			return err
+		}
+		o.params.Near = &ll
+	} else if o.within != "" {
+		return badInput("within: --within goes with --area")
+	}
 	if cmd.Flags().Changed("decimals") {
 		o.params.Decimals = &o.decimals
 	}
@@ -102,7 +165,11 @@ func adjustRegisterRun(ctx context.Context, opts *adjustRegisterOptions) error {
 	if err != nil {
 		return err
 	}
+	prog := startProgress(opts.f.IO)
+	prog.set("reading the runs")
+	opts.params.LeastSquares.Progress = prog.set
 	v, err := r.Adjust(ctx, opts.params)
+	prog.end()
 	if err != nil {
 		return err
 	}
@@ -135,8 +202,23 @@ type adjustmentJSON struct {
 	Held            []heldJSON          `json:"held"`
 	Results         []resultJSON        `json:"results"`
 	Statistics      register.Statistics `json:"statistics"`
-	ChecksFailed    int                 `json:"checks_failed"`
-	Cautions        string              `json:"cautions"`
+	// Sections are a least-squares adjustment's sections, flagged or not.
+	Sections     []adjSectionJSON `json:"sections,omitempty"`
+	ChecksFailed int              `json:"checks_failed"`
+	Cautions     string           `json:"cautions"`
+}
+
+type adjSectionJSON struct {
+	RunID       int64    `json:"run_id"`
+	Seq         int      `json:"section"`
+	From        string   `json:"from"`
+	To          string   `json:"to"`
+	FirstLine   int      `json:"first_line"`
+	LastLine    int      `json:"last_line"`
+	ResidualM   float64  `json:"residual_m"`
+	ResidualSDM float64  `json:"residual_sd_m"`
+	W           *float64 `json:"w"`
+	Flagged     bool     `json:"flagged"`
 }
 
 type runRefJSON struct {
@@ -197,6 +279,10 @@ func toAdjustmentJSON(v *register.AdjustmentView, dryRun bool) adjustmentJSON {
 		j.Held = append(j.Held, heldJSON{Mark: h.Designation, Datum: h.DatumCode, Version: h.Version, Value: h.Value,
 			Unit: h.Unit, Current: h.Current, Source: h.Source, HeightID: h.ID})
 	}
+	for _, s := range v.Sections {
+		j.Sections = append(j.Sections, adjSectionJSON{RunID: s.RunID, Seq: s.Seq, From: s.From, To: s.To, FirstLine: s.FirstLine,
+			LastLine: s.LastLine, ResidualM: s.ResidualM, ResidualSDM: s.ResidualSDM, W: s.W, Flagged: s.Flagged})
+	}
 	for _, r := range v.Results {
 		j.Results = append(j.Results, resultJSON{Mark: r.Designation, Held: r.Held, ComputedM: r.ComputedM, CorrectionM: r.CorrectionM,
 			AdjustedM: r.AdjustedM, SigmaM: r.SigmaM, Value: r.Value, Unit: r.Unit, Decimals: r.Decimals, Class: r.Class,
@@ -226,6 +312,16 @@ func renderAdjustment(ios *IOStreams, format Format, v *register.AdjustmentView,
 	if v.Parameters.Distribution != "" {
 		how += " by " + v.Parameters.Distribution
 	}
+	if pm := v.Parameters; pm.Weighting != "" {
+		per := "km"
+		if pm.Weighting == "setups" {
+			per = "setup"
+		}
+		how += fmt.Sprintf(" weighted by %s (sigma %g mm per sqrt %s)", pm.Weighting, pm.SigmaMM, per)
+		if pm.Minimal {
+			how += ", minimally constrained"
+		}
+	}
 	say("%s: %s, on %s, heights published in %s to %d decimals\n", title, how, a.DatumCode, v.Parameters.Unit, v.Parameters.Decimals)
 	if a.Status != store.StatusDraft && a.StatusAt != nil {
 		say("  %s %s by %s: %s\n", a.Status, timeText(*a.StatusAt), a.StatusBy, a.StatusReason)
@@ -244,7 +340,7 @@ func renderAdjustment(ios *IOStreams, format Format, v *register.AdjustmentView,
 	for _, r := range j.Results {
 		held, pub, rep := "", deref(r.Value), ""
 		if r.Held {
-			held = "held"
+			held = heldKind(v.Parameters, r.Mark)
 		} else if r.ReplacesVersion != nil {
 			rep = "version " + strconv.Itoa(*r.ReplacesVersion)
 		} else {
@@ -273,6 +369,9 @@ func renderAdjustment(ios *IOStreams, format Format, v *register.AdjustmentView,
 		say("Misclosure, run %d, %s to %s: %+.4f m over %.3f km (%g setups); %s\n",
 			s.RunID, s.From, s.To, s.MisclosureM, s.LengthM/1000, s.Setups, verdict)
 	}
+	if st := v.Statistics.Network; st != nil {
+		renderNetworkStats(say, v, st)
+	}
 	say("\n%s\n", adjustCautions)
 	if !dryRun && a.Status == store.StatusDraft {
 		say("\nReview it, then: cairn publish %d --reason \"...\"   or   cairn discard %d --reason \"...\"\n", a.ID, a.ID)
@@ -286,4 +385,71 @@ func metres(v *float64) string {
 		return ""
 	}
 	return strconv.FormatFloat(*v, 'f', 4, 64)
+}
+
+// heldKind says how a least-squares adjustment held a mark: fixed
+// ("held"), weighted, or only checked against (minimal).
+func heldKind(pm register.Parameters, mark string) string {
+	switch {
+	case pm.Minimal && len(pm.Hold) > 0 && pm.Hold[0] != mark:
+		return "check"
+	case pm.HoldSDMM[mark] > 0 && !pm.Minimal:
+		return fmt.Sprintf("%g mm", pm.HoldSDMM[mark])
+	}
+	return "held"
+}
+
+// renderNetworkStats prints a least-squares adjustment's statistics and its
+// flagged sections, largest |w| first, with their runs and book lines.
+func renderNetworkStats(say func(string, ...any), v *register.AdjustmentView, st *register.NetworkStat) {
+	say("Least squares: %d marks, %d sections, %d observations, %d unknowns, redundancy %d\n",
+		st.Points, st.Sections, st.Observations, st.Unknowns, st.Redundancy)
+	if st.Redundancy > 0 && st.VarianceFactor != nil && st.ChiSquareLower != nil && st.ChiSquareUpper != nil {
+		verdict := "passes"
+		if !st.ChiSquarePass {
+			verdict = "FAILS"
+		}
+		say("  vTPv %.3f, variance factor %.3f; chi-square test at alpha %g (bounds %.3f to %.3f): %s\n",
+			st.VTPV, *st.VarianceFactor, st.Alpha, *st.ChiSquareLower, *st.ChiSquareUpper, verdict)
+	} else {
+		say("  no redundancy: the observations cannot be checked against each other\n")
+	}
+	for _, h := range st.Held {
+		w := "untested"
+		if h.W != nil {
+			w = fmt.Sprintf("w %+.2f", *h.W)
+		}
+		flag := ""
+		if h.Flagged {
+			flag = "  FLAGGED: the runs disagree with this held height"
+		}
+		say("  held %s weighted: adjusted minus held %+.4f m (sd %.4f), %s%s\n", h.Mark, h.ResidualM, h.SDM, w, flag)
+	}
+	var idx []int
+	for i, s := range v.Sections {
+		if s.Flagged {
+			idx = append(idx, i)
+		}
+	}
+	sort.SliceStable(idx, func(a, b int) bool {
+		return math.Abs(*v.Sections[idx[a]].W) > math.Abs(*v.Sections[idx[b]].W)
+	})
+	say("  data snooping, critical value %.2f: %d section(s) flagged\n", st.SnoopCritical, len(idx))
+	names := map[int64]string{}
+	for _, r := range v.Runs {
+		names[r.ID] = r.FileName
+	}
+	const show = 20
+	for k, i := range idx {
+		if k == show {
+			say("  ... and %d more (see -o json)\n", len(idx)-show)
+			break
+		}
+		s := v.Sections[i]
+		say("  FLAGGED run %d, section %d, %s to %s (%s lines %d-%d): residual %+.4f m (sd %.4f), w %+.2f\n",
+			s.RunID, s.Seq, s.From, s.To, names[s.RunID], s.FirstLine, s.LastLine, s.ResidualM, s.ResidualSDM, *s.W)
+	}
+	if len(idx) > 0 {
+		say("  Sections in series between two junctions share one w: the blunder may be in any of them.\n")
+	}
 }

@@ -27,14 +27,24 @@ const (
 type AdjustParams struct {
 	// RunIDs are the runs to adjust.
 	RunIDs []int64
-	// Hold are the designations of the marks held fixed at their current
-	// heights on Datum.
+	// Hold are the marks held at their current heights on Datum: a
+	// designation holds the mark fixed; DESIGNATION:SD_MM (least squares
+	// only) holds it weighted, with that standard deviation in millimetres.
 	Hold []string
+	// Marks and Near select, besides RunIDs, every run with a section from
+	// or to one of the marks named, or one of the marks within RadiusM
+	// metres of Near.
+	Marks   []string
+	Near    *store.LatLon
+	RadiusM float64
 	// Datum is the datum code; "" means the one datum on which every held
 	// mark has a current height.
 	Datum string
-	// Method is MethodProportional ("" means it).
+	// Method is MethodProportional ("" means it) or MethodLeastSquares.
 	Method string
+	// LeastSquares are the settings of a least-squares adjustment; its
+	// Progress, if set, hears each phase of the solution.
+	LeastSquares adjust.NetworkOptions
 	// Distribution spreads a proportional adjustment's misclosure by
 	// distance or by setups.
 	Distribution adjust.Distribution
@@ -61,12 +71,60 @@ type Parameters struct {
 	Decimals     int      `json:"decimals"`
 	Class        string   `json:"class,omitempty"`
 	Hold         []string `json:"hold"`
+	// Least squares: weighting (length or setups), σ₀ in millimetres per
+	// √km or per √setup, the significance level of the χ² test, the
+	// critical value of data snooping, whether only the first held mark was
+	// held (minimal), and the standard deviations of marks held weighted.
+	Weighting     string             `json:"weighting,omitempty"`
+	SigmaMM       float64            `json:"sigma_mm,omitempty"`
+	Alpha         float64            `json:"alpha,omitempty"`
+	SnoopCritical float64            `json:"snoop_critical,omitempty"`
+	Minimal       bool               `json:"minimal,omitempty"`
+	HoldSDMM      map[string]float64 `json:"hold_sd_mm,omitempty"`
+	// How the runs were chosen, besides by number.
+	Marks []string `json:"marks,omitempty"`
+	Area  string   `json:"area,omitempty"`
 }
 
 // Statistics are what an adjustment reports of its fit, kept with it as
-// JSON. A proportional adjustment fills Stretches.
+// JSON. A proportional adjustment fills Stretches, a least-squares one
+// Network.
 type Statistics struct {
 	Stretches []StretchStat `json:"stretches,omitempty"`
+	Network   *NetworkStat  `json:"network,omitempty"`
+}
+
+// NetworkStat are the statistics of a least-squares adjustment. Values
+// that do not exist without redundancy are null.
+type NetworkStat struct {
+	Points       int `json:"points"`
+	Sections     int `json:"sections"`
+	Observations int `json:"observations"` // sections and marks held weighted
+	Unknowns     int `json:"unknowns"`
+	Redundancy   int `json:"redundancy"`
+	// VTPV is vᵀ·Σ⁻¹·v, the χ² test's statistic.
+	VTPV           float64  `json:"vtpv"`
+	VarianceFactor *float64 `json:"variance_factor"`
+	Alpha          float64  `json:"alpha"`
+	ChiSquareLower *float64 `json:"chi_square_lower"`
+	ChiSquareUpper *float64 `json:"chi_square_upper"`
+	// ChiSquarePass is false as well when there is no redundancy.
+	ChiSquarePass bool    `json:"chi_square_pass"`
+	SnoopCritical float64 `json:"snoop_critical"`
+	// Flagged counts the observations (sections and weighted held marks)
+	// with |w| over SnoopCritical.
+	Flagged int `json:"flagged"`
+	// Held are the pseudo-observations of the marks held weighted.
+	Held []HeldStat `json:"held,omitempty"`
+}
+
+// HeldStat is the outcome of a mark held weighted: adjusted minus held.
+type HeldStat struct {
+	Mark      string   `json:"mark"`
+	ResidualM float64  `json:"residual_m"`
+	SDM       float64  `json:"residual_sd_m"`
+	W         *float64 `json:"w"`
+	Flagged   bool     `json:"flagged"`
 }
 
 // StretchStat is the closure of one stretch of a run between held marks.
@@ -95,11 +153,20 @@ type AdjustmentView struct {
 	Runs       []store.Run
 	Held       []store.Held
 	Results    []store.AdjustmentResult
+	// Sections are a least-squares adjustment's section outcomes.
+	Sections []store.AdjustmentSection
 }
 
-// Failed counts the stretches whose misclosure exceeds the allowable.
+// Failed counts the stretches whose misclosure exceeds the allowable, or
+// for least squares the flagged observations and a failed χ² test.
 func (v *AdjustmentView) Failed() int {
 	n := 0
+	if st := v.Statistics.Network; st != nil {
+		n += st.Flagged
+		if st.Redundancy > 0 && !st.ChiSquarePass {
+			n++
+		}
+	}
 	for _, s := range v.Statistics.Stretches {
 		if s.Pass != nil && !*s.Pass {
 			n++
@@ -119,12 +186,10 @@ func (r *Register) Adjust(ctx context.Context, p AdjustParams) (*AdjustmentView,
 		p.Method = MethodProportional
 	}
 	switch {
-	case p.Method == MethodLeastSquares:
-		return nil, inputErr("method", "least squares is not yet available in the register form of adjust")
-	case p.Method != MethodProportional:
-		return nil, inputErr("method", "unknown method %q (want %s)", p.Method, MethodProportional)
-	case len(p.RunIDs) == 0:
-		return nil, inputErr("run", "name at least one run to adjust (see cairn run list)")
+	case p.Method != MethodProportional && p.Method != MethodLeastSquares:
+		return nil, inputErr("method", "unknown method %q (want %s or %s)", p.Method, MethodProportional, MethodLeastSquares)
+	case len(p.RunIDs) == 0 && len(p.Marks) == 0 && p.Near == nil:
+		return nil, inputErr("run", "name at least one run to adjust (see cairn run list), or choose them with --marks or --area")
 	case len(p.Hold) == 0:
 		return nil, inputErr("hold", "hold at least one mark (a loop closes on its starting mark; a line needs a mark at each end)")
 	case p.AllowCondition && strings.TrimSpace(p.ConditionReason) == "":
@@ -142,6 +207,9 @@ func (r *Register) Adjust(ctx context.Context, p AdjustParams) (*AdjustmentView,
 	}
 	if p.Decimals != nil && (*p.Decimals < 0 || *p.Decimals > MaxDecimals) {
 		return nil, inputErr("decimals", "%d is outside 0 to %d", *p.Decimals, MaxDecimals)
+	}
+	if err := checkLeastSquares(&p); err != nil {
+		return nil, err
 	}
 	v := &AdjustmentView{}
 	err := r.withTx(ctx, pgx.TxOptions{IsoLevel: pgx.RepeatableRead}, func(tx pgx.Tx) error {
@@ -167,6 +235,19 @@ func (r *Register) adjust(ctx context.Context, tx pgx.Tx, p AdjustParams, unit u
 			return inputErr("run", "run %d is named twice", id)
 		}
 		seen[id] = true
+	}
+	chosen, err := r.runsTouching(ctx, tx, p)
+	if err != nil {
+		return err
+	}
+	runIDs := append([]int64(nil), p.RunIDs...)
+	for _, id := range chosen {
+		if !seen[id] {
+			seen[id] = true
+			runIDs = append(runIDs, id)
+		}
+	}
+	for _, id := range runIDs {
 		run, err := r.run(ctx, tx, id)
 		if err != nil {
 			return err
@@ -175,7 +256,12 @@ func (r *Register) adjust(ctx context.Context, tx pgx.Tx, p AdjustParams, unit u
 	}
 	var holds []store.Mark
 	heldNames := map[string]bool{}
-	for _, d := range p.Hold {
+	holdSD := map[string]float64{} // metres
+	for _, h := range p.Hold {
+		d, sd, err := splitHold(h)
+		if err != nil {
+			return err
+		}
 		m, err := r.mark(ctx, tx, "hold", d, false)
 		if err != nil {
 			return err
@@ -185,6 +271,15 @@ func (r *Register) adjust(ctx context.Context, tx pgx.Tx, p AdjustParams, unit u
 		}
 		heldNames[m.Designation] = true
 		holds = append(holds, m)
+		if sd > 0 {
+			if p.Method != MethodLeastSquares {
+				return inputErr("hold", "%s is held weighted (%s); only --method %s holds marks weighted", m.Designation, h, MethodLeastSquares)
+			}
+			holdSD[m.Designation] = sd
+		}
+	}
+	if len(holds) == 0 {
+		return inputErr("hold", "hold at least one mark")
 	}
 	datum, err := r.adjustDatum(ctx, tx, p.Datum, v.Runs, holds)
 	if err != nil {
@@ -242,6 +337,10 @@ func (r *Register) adjust(ctx context.Context, tx pgx.Tx, p AdjustParams, unit u
 	for _, m := range holds {
 		v.Parameters.Hold = append(v.Parameters.Hold, m.Designation)
 	}
+	if p.Method == MethodLeastSquares {
+		v.Parameters.Distribution = ""
+		lsqParameters(p, holdSD, &v.Parameters)
+	}
 
 	secs, err := store.SectionList(ctx, tx, store.SectionListParams{RunIDs: v.Adjustment.RunIDs})
 	if err != nil {
@@ -259,7 +358,15 @@ func (r *Register) adjust(ctx context.Context, tx pgx.Tx, p AdjustParams, unit u
 			return inputErr("hold", "%s is not on run(s) %s", m.Designation, joinIDs(v.Adjustment.RunIDs))
 		}
 	}
+	if p.Method == MethodLeastSquares {
+		if err := leastSquares(p, secs, markIDs, holds, heldM, holdSD, class, unit, decimals, v); err != nil {
+			return err
+		}
+	}
 	for _, run := range v.Runs {
+		if p.Method == MethodLeastSquares {
+			break
+		}
 		stations, err := stationsOf(run, byRun[run.ID], p.Distribution)
 		if err != nil {
 			return err
@@ -346,6 +453,11 @@ func (r *Register) storeDraft(ctx context.Context, tx pgx.Tx, p AdjustParams, v 
 	}
 	if _, err := store.AdjustmentResultCopy(ctx, tx, store.AdjustmentResultCopyParams{AdjustmentID: a.ID, Results: v.Results}); err != nil {
 		return err
+	}
+	if len(v.Sections) > 0 {
+		if _, err := store.AdjustmentSectionCopy(ctx, tx, store.AdjustmentSectionCopyParams{AdjustmentID: a.ID, Sections: v.Sections}); err != nil {
+			return err
+		}
 	}
 	stored, err := store.AdjustmentGet(ctx, tx, store.AdjustmentGetParams{ID: a.ID})
 	if err != nil {
@@ -538,7 +650,12 @@ func (r *Register) adjustmentView(ctx context.Context, db store.DBTX, id int64, 
 	if v.Held, err = store.AdjustmentHeldList(ctx, db, id); err != nil {
 		return err
 	}
-	v.Results, err = store.AdjustmentResultList(ctx, db, id)
+	if v.Results, err = store.AdjustmentResultList(ctx, db, id); err != nil {
+		return err
+	}
+	if v.Adjustment.Method == MethodLeastSquares {
+		v.Sections, err = store.AdjustmentSectionList(ctx, db, id)
+	}
 	return err
 }
 
