@@ -450,6 +450,7 @@ func renderNetworkStats(say func(string, ...any), v *register.AdjustmentView, st
 			s.RunID, s.Seq, s.From, s.To, names[s.RunID], s.FirstLine, s.LastLine, s.ResidualM, s.ResidualSDM, *s.W)
 	}
 	if len(idx) > 0 {
-		say("  Sections in series between two junctions share one w: the blunder may be in any of them.\n")
+		say("  The largest |w| points to the likeliest blunder; one blunder raises the w of its neighbours too, so\n")
+		say("  check that section's book first and adjust again. Sections in series between two junctions share one w.\n")
 	}
 }

@@ -1,0 +1,152 @@
+package cli
+
+import (
+	"context"
+	"encoding/json"
+	"fmt"
+	"strings"
+	"testing"
+
+	"cairn/internal/pgtest"
+	"cairn/internal/register"
+)
+
+// tallisLines are three invented runs over TC-0412 to TC-0416 (TC-0413
+// and TC-0416 reached by several) and a fourth far off, as (from, to,
+// dh_m, km). The second section of the first run carries a planted 5 cm
+// blunder (0.5421 observed + 0.05).
+var tallisLines = [][][4]any{
+	{{"TC-0412", "TC-0413", 1.2357, 1.2}, {"TC-0413", "TC-0414", 0.5921, 0.9}, {"TC-0414", "TC-0415", -0.8757, 1.1}},
+	{{"TC-0415", "TC-0416", 0.3199, 0.8}, {"TC-0416", "TC-0413", 0.0133, 1.3}, {"TC-0413", "TC-0412", -1.2356, 1.0}},
+	{{"TC-0414", "TC-0416", -0.5545, 0.7}},
+	{{"TC-0430", "TC-0431", 0.4321, 1.0}},
+}
+
+// seedTallis adds the marks (with positions 2.2 km apart, TC-0430 and
+// TC-0431 a degree off), the held heights TC-0412 = 10.0000 m and
+// TC-0415 = 10.9012 m, and records the runs: one setup per section, the
+// rise on the backsight, half the length on each sight; the book lines of
+// section k are 6+2k and 7+2k.
+func seedTallis(t *testing.T, db *pgtest.DB) {
+	t.Helper()
+	mustRun(t, db.URL, "datum", "add", "NAVD88", "--name", "North American Vertical Datum of 1988")
+	for i, d := range []string{"TC-0412", "TC-0413", "TC-0414", "TC-0415", "TC-0416", "TC-0430", "TC-0431"} {
+		lat := 41.60 + 0.02*float64(i)
+		if i >= 5 {
+			lat += 1
+		}
+		mustRun(t, db.URL, "mark", "add", d, "--lat", fmt.Sprint(lat), "--lon", "-97.90")
+	}
+	for d, h := range map[string]string{"TC-0412": "10.0000", "TC-0415": "10.9012"} {
+		mustRun(t, db.URL, "height", "set", d, h, "--unit", "m", "--datum", "NAVD88",
+			"--source", "Outside control (invented citation)", "--reason", "held control", "--by", "tester")
+	}
+	reg := register.New(db.Pool)
+	for i, secs := range tallisLines {
+		var b strings.Builder
+		fmt.Fprintf(&b, "# Invented Tallis County line.\n# run: Tallis %c\n# date: 2024-06-03\n# units: m\npoint,sight,middle,distance,note\n", 'A'+i)
+		for _, s := range secs {
+			dh, km := s[2].(float64), s[3].(float64)
+			bs, fs := 1.0, 1.0
+			if dh > 0 {
+				bs += dh
+			} else {
+				fs -= dh
+			}
+			fmt.Fprintf(&b, "%s,BS,%.4f,%.1f,\n%s,FS,%.4f,%.1f,\n", s[0], bs, km*500, s[1], fs, km*500)
+		}
+		if _, err := reg.Record(context.Background(), register.RecordParams{Path: fmt.Sprintf("tallis-%c.csv", 'a'+i),
+			Book: []byte(b.String()), By: "tester", AcceptFailedChecks: true, Reason: "a line of the network"}); err != nil {
+			t.Fatal(err)
+		}
+	}
+}
+
+// The register form by least squares: the report lists the planted
+// blunder first among the flagged sections with its run, book and lines,
+// exits 3, keeps the draft, and shows it again from the register.
+func TestAdjustLeastSquaresCommand(t *testing.T) {
+	t.Parallel()
+	db := pgtest.New(t)
+	seedTallis(t, db)
+
+	out, errOut, status := run(t, db.URL, "adjust", "1", "2", "3", "--method", "least-squares", "--hold", "TC-0412,TC-0415", "--made-by", "tester")
+	if status != ExitChecks {
+		t.Fatalf("exit %d, want %d: %s", status, ExitChecks, errOut)
+	}
+	flag := regexpLine(errOut, "FLAGGED")
+	if !strings.Contains(flag, "run 1, section 2, TC-0413 to TC-0414 (tallis-a.csv lines 8-9)") {
+		t.Fatalf("first flagged line %q in:\n%s", flag, errOut)
+	}
+	for _, want := range []string{"least-squares weighted by length (sigma 1 mm per sqrt km)", "redundancy 4", "variance factor", "FAILS", "licensed surveyor"} {
+		if !strings.Contains(errOut, want) {
+			t.Errorf("report lacks %q:\n%s", want, errOut)
+		}
+	}
+	if !strings.Contains(out, "TC-0416") {
+		t.Fatalf("rows:\n%s", out)
+	}
+	_, shown, _ := run(t, db.URL, "adjustment", "show", "1")
+	if regexpLine(shown, "FLAGGED") != flag {
+		t.Fatalf("shown again:\n%s", shown)
+	}
+
+	// --marks picks the runs through TC-0416; JSON carries every section.
+	var rep adjustmentJSON
+	js, errOut, status := run(t, db.URL, "adjust", "--marks", "TC-0416", "--method", "least-squares", "--hold", "TC-0415:3", "--dry-run", "-o", "json")
+	if err := json.Unmarshal([]byte(js), &rep); err != nil {
+		t.Fatalf("exit %d %s: %v", status, errOut, err)
+	}
+	if len(rep.Runs) != 2 || rep.Runs[0].RunID != 2 || rep.Runs[1].RunID != 3 || len(rep.Sections) != 4 || rep.Statistics.Network == nil {
+		t.Fatalf("--marks TC-0416: %+v", rep)
+	}
+	// --area around TC-0412 (the only mark within 1 km) picks runs 1 and 2.
+	js, errOut, status = run(t, db.URL, "adjust", "--area", "41.6,-97.9", "--within", "1km", "--method", "least-squares", "--hold", "TC-0412", "--dry-run", "-o", "json")
+	rep = adjustmentJSON{}
+	if err := json.Unmarshal([]byte(js), &rep); err != nil || len(rep.Runs) != 2 || rep.Runs[0].RunID != 1 || rep.Runs[1].RunID != 2 {
+		t.Fatalf("--area: exit %d %s %+v", status, errOut, rep.Runs)
+	}
+}
+
+// regexpLine returns the first line of s containing sub.
+func regexpLine(s, sub string) string {
+	for _, l := range strings.Split(s, "\n") {
+		if strings.Contains(l, sub) {
+			return l
+		}
+	}
+	return ""
+}
+
+// Bad input to the least-squares register form names the field and exits
+// 2, storing nothing.
+func TestAdjustLeastSquaresBadInput(t *testing.T) {
+	t.Parallel()
+	db := pgtest.New(t)
+	seedTallis(t, db)
+	lsq := []string{"--method", "least-squares", "--made-by", "tester"}
+	for _, c := range []struct {
+		args []string
+		want string
+	}{
+		{append([]string{"1", "--hold", "TC-0412", "--weight", "fathoms"}, lsq...), "weight:"},
+		{append([]string{"1", "--hold", "TC-0412", "--by", "setups"}, lsq...), "by:"},
+		{append([]string{"--area", "91,0", "--within", "1km", "--hold", "TC-0412"}, lsq...), "area:"},
+		{append([]string{"--area", "41.6,-97.9", "--hold", "TC-0412"}, lsq...), "within:"},
+		{append([]string{"1", "--hold", "TC-0412", "--within", "2km"}, lsq...), "within:"},
+		{append([]string{"1", "--hold", "TC-0412:x"}, lsq...), "hold:"},
+		{append([]string{"1", "4", "--hold", "TC-0412"}, lsq...), "TC-0430, TC-0431"},
+		{append([]string{"1", "--hold", "TC-0412", "--alpha", "0"}, lsq...), "--alpha"},
+		{[]string{"1", "--hold", "TC-0412,TC-0415", "--sigma-mm-per-sqrt-km", "2"}, "sigma-mm-per-sqrt-km:"},
+		{[]string{"1", "--hold", "TC-0412,TC-0415", "--minimal"}, "minimal:"},
+		{[]string{"--marks", "TC-0499", "--hold", "TC-0412", "--method", "least-squares"}, "TC-0499"},
+	} {
+		_, errOut, status := run(t, db.URL, append([]string{"adjust"}, c.args...)...)
+		if status != ExitBadInput || !strings.Contains(errOut, c.want) {
+			t.Errorf("adjust %s: exit %d, %q; want exit 2 saying %q", strings.Join(c.args, " "), status, errOut, c.want)
+		}
+	}
+	if out := mustRun(t, db.URL, "adjustment", "list", "-o", "csv"); strings.Count(out, "\n") > 1 {
+		t.Fatalf("stored:\n%s", out)
+	}
+}
