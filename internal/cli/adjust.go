@@ -95,6 +95,11 @@ test fails or a section is flagged.
 			if len(opts.Register.Hold()) > 0 {
 				return badInput("--hold goes with RUN numbers; with --sections, give the held marks in --held")
 			}
+			for _, name := range []string{"marks", "area", "within", "weight", "method", "by", "datum", "dry-run"} {
+				if cmd.Flags().Changed(name) {
+					return badInput("%s: --%s goes with RUN numbers, not with --sections", name, name)
+				}
+			}
 			if len(args) > 0 {
 				return badInput("--sections adjusts a network from files; do not name runs as well")
 			}
