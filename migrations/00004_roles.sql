@@ -24,6 +24,10 @@
 -- row locks (SELECT ... FOR UPDATE) that make publishers take turns; the
 -- triggers refuse any actual change of either.
 
+-- Who added each datum, like every other thing the register keeps (empty
+-- for datums added before this version).
+ALTER TABLE datum ADD COLUMN created_by text NOT NULL DEFAULT '';
+
 -- +goose StatementBegin
 CREATE OR REPLACE FUNCTION refuse_key_change() RETURNS trigger LANGUAGE plpgsql AS $$
 BEGIN
@@ -167,6 +171,7 @@ $$;
 GRANT EXECUTE ON FUNCTION height_canonical(bytea, text, text, height), height_before_insert(),
     height_from_adjustment(), refuse_change(), refuse_key_change() TO PUBLIC;
 DROP FUNCTION cairn_roles_apply();
+ALTER TABLE datum DROP COLUMN created_by;
 -- +goose StatementBegin
 CREATE OR REPLACE FUNCTION refuse_key_change() RETURNS trigger LANGUAGE plpgsql AS $$
 BEGIN

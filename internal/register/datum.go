@@ -16,6 +16,7 @@ type DatumAddParams struct {
 	Code string // short code used on the command line, e.g. NAVD88
 	Name string // official or full name
 	Note string
+	By   string // who adds it
 }
 
 // DatumAdd adds a datum to the register.
@@ -27,7 +28,10 @@ func (r *Register) DatumAdd(ctx context.Context, p DatumAddParams) (store.Datum,
 	if p.Name == "" {
 		return store.Datum{}, inputErr("name", "a datum needs its full name (--name)")
 	}
-	d, err := store.DatumInsert(ctx, r.pool, store.DatumInsertParams{Code: p.Code, Name: p.Name, Note: p.Note})
+	if p.By = strings.TrimSpace(p.By); p.By == "" {
+		return store.Datum{}, inputErr("by", "say who adds the datum (--by)")
+	}
+	d, err := store.DatumInsert(ctx, r.pool, store.DatumInsertParams{Code: p.Code, Name: p.Name, Note: p.Note, CreatedBy: p.By})
 	if errors.Is(err, store.ErrAlreadyExists) {
 		return store.Datum{}, inputErr("code", "datum %s is already in the register", p.Code)
 	}
