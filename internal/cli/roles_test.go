@@ -22,11 +22,7 @@ import (
 // returns db's URL for it; the role is dropped when the test ends.
 func loginAs(t *testing.T, db *pgtest.DB, role string) string {
 	t.Helper()
-	b := make([]byte, 6)
-	if _, err := rand.Read(b); err != nil {
-		t.Fatal(err)
-	}
-	name := "cairn_t_" + strings.TrimPrefix(role, "cairn_") + "_" + hex.EncodeToString(b)
+	name := uniqueName(t, "cairn_t_"+strings.TrimPrefix(role, "cairn_")+"_")
 	ident := pgx.Identifier{name}.Sanitize()
 	ctx := context.Background()
 	if _, err := db.Pool.Exec(ctx, "CREATE ROLE "+ident+" LOGIN IN ROLE "+pgx.Identifier{role}.Sanitize()); err != nil {
@@ -48,6 +44,27 @@ func loginAs(t *testing.T, db *pgtest.DB, role string) string {
 		u.User = url.User(name)
 	}
 	return u.String()
+}
+
+// uniqueName returns prefix and twelve random hex digits.
+func uniqueName(t *testing.T, prefix string) string {
+	t.Helper()
+	b := make([]byte, 6)
+	if _, err := rand.Read(b); err != nil {
+		t.Fatal(err)
+	}
+	return prefix + hex.EncodeToString(b)
+}
+
+// adjustForTest makes a draft adjustment of run holding BM1 and returns
+// its identifier.
+func adjustForTest(t *testing.T, url, runID string) string {
+	t.Helper()
+	var rep adjustmentJSON
+	if err := json.Unmarshal([]byte(mustRun(t, url, "adjust", runID, "--hold", "BM1", "-o", "json")), &rep); err != nil {
+		t.Fatal(err)
+	}
+	return fmt.Sprint(*rep.AdjustmentID)
 }
 
 // registerRows counts the rows of every table of the register.
@@ -90,14 +107,8 @@ func TestRolesPrivileges(t *testing.T) {
 	mustRun(t, db.URL, "db", "roles")
 	runs, _ := seedWorked(t, db, 2)
 	run1, run2 := fmt.Sprint(runs[0]), fmt.Sprint(runs[1])
-	draft := func(url, runID string) string {
-		var rep adjustmentJSON
-		if err := json.Unmarshal([]byte(mustRun(t, url, "adjust", runID, "--hold", "BM1", "-o", "json")), &rep); err != nil {
-			t.Fatal(err)
-		}
-		return fmt.Sprint(*rep.AdjustmentID)
-	}
-	ownerDraft := draft(db.URL, run1)
+	draft := adjustForTest
+	ownerDraft := draft(t, db.URL, run1)
 
 	reader := loginAs(t, db, store.RoleReader)
 	recorder := loginAs(t, db, store.RoleRecorder)
@@ -135,7 +146,7 @@ func TestRolesPrivileges(t *testing.T) {
 	mustRun(t, recorder, "mark", "add", "TC-0412")
 	mustRun(t, recorder, "mark", "condition", "BM6", "good", "--note", "found as described")
 	mustRun(t, recorder, "run", "record", book)
-	recorderDraft := draft(recorder, run2)
+	recorderDraft := draft(t, recorder, run2)
 	// ... but publishes nothing.
 	refused(t, db, recorder, store.RolePublisher, "publish", recorderDraft, "--reason", "reviewed", "--yes")
 	refused(t, db, recorder, store.RolePublisher, "discard", ownerDraft, "--reason", "not wanted", "--yes")

@@ -90,6 +90,8 @@ codes and regulations that govern your work.`,
 		newCmdAdjustment(f),
 		newCmdTrace(f),
 		newCmdStale(f),
+		newCmdBackup(f, nil),
+		newCmdRestore(f, nil),
 	)
 	return root
 }
