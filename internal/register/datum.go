@@ -9,7 +9,7 @@ import (
 	"cairn/internal/store"
 )
 
-var codePattern = regexp.MustCompile(`^[A-Za-z0-9][A-Za-z0-9._-]*$`)
+var codePattern = regexp.MustCompile(`^[A-Za-z0-9][A-Za-z0-9._-]{0,31}$`)
 
 // DatumAddParams are the fields of a new datum.
 type DatumAddParams struct {
@@ -23,7 +23,7 @@ type DatumAddParams struct {
 func (r *Register) DatumAdd(ctx context.Context, p DatumAddParams) (store.Datum, error) {
 	p.Code, p.Name = strings.TrimSpace(p.Code), strings.TrimSpace(p.Name)
 	if !codePattern.MatchString(p.Code) {
-		return store.Datum{}, inputErr("code", "%q is not a datum code: use letters, digits and . _ -, starting with a letter or digit", p.Code)
+		return store.Datum{}, inputErr("code", "%q is not a datum code: use at most 32 letters, digits and . _ -, starting with a letter or digit", p.Code)
 	}
 	if p.Name == "" {
 		return store.Datum{}, inputErr("name", "a datum needs its full name (--name)")
