@@ -39,6 +39,7 @@ command line (for example NAVD88); --name is its full or official name.`,
 	}
 	cmd.Flags().StringVar(&opts.params.Name, "name", "", "full or official name of the datum (required)")
 	cmd.Flags().StringVar(&opts.params.Note, "note", "", "notes: realisation, epoch, where it is used")
+	cmd.Flags().StringVar(&opts.params.By, "by", osUser(), "who adds it")
 	return cmd
 }
 
@@ -59,6 +60,7 @@ type datumJSON struct {
 	Code string `json:"code"`
 	Name string `json:"name"`
 	Note string `json:"note"`
+	By   string `json:"created_by"`
 }
 
 func newCmdDatumList(f *Factory) *cobra.Command {
@@ -78,7 +80,7 @@ func newCmdDatumList(f *Factory) *cobra.Command {
 			}
 			out := []datumJSON{}
 			for _, d := range ds {
-				out = append(out, datumJSON{d.Code, d.Name, d.Note})
+				out = append(out, datumJSON{d.Code, d.Name, d.Note, d.CreatedBy})
 			}
 			return render(f.IO, format, out, func() Table {
 				t := Table{Headers: []string{"CODE", "NAME", "NOTE"}}

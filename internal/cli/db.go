@@ -22,7 +22,7 @@ cairn keeps the register in a private PostgreSQL of its own, in your data
 folder; "db start" and "db stop" start and stop that one. Every command
 starts it when needed, so "db start" is seldom necessary.`,
 	}
-	cmd.AddCommand(newCmdDBStart(f, nil), newCmdDBStop(f, nil), newCmdDBStatus(f, nil), newCmdDBMigrate(f, nil))
+	cmd.AddCommand(newCmdDBStart(f, nil), newCmdDBStop(f, nil), newCmdDBStatus(f, nil), newCmdDBMigrate(f, nil), newCmdDBRoles(f, nil))
 	return cmd
 }
 

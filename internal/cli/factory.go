@@ -27,6 +27,7 @@ type Factory struct {
 	connOnce    sync.Once
 	migrateOnce sync.Once
 	pool        *pgxpool.Pool
+	connURL     string
 	connErr     error
 	migrateErr  error
 }
@@ -94,9 +95,18 @@ func (f *Factory) Conn(ctx context.Context) (*pgxpool.Pool, error) {
 			f.connErr = fmt.Errorf("open register (%s): %w", src.From, err)
 			return
 		}
-		f.pool = pool
+		f.pool, f.connURL = pool, url
 	})
 	return f.pool, f.connErr
+}
+
+// ConnURL returns the connection string Conn uses ("" for the PG*
+// variables), starting the embedded default when it is the one chosen.
+func (f *Factory) ConnURL(ctx context.Context) (string, error) {
+	if _, err := f.Conn(ctx); err != nil {
+		return "", err
+	}
+	return f.connURL, nil
 }
 
 // Pool connects to the register like Conn and brings its schema up to

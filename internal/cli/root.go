@@ -69,6 +69,8 @@ codes and regulations that govern your work.`,
 		Version:       f.Version,
 		SilenceErrors: true,
 		SilenceUsage:  true,
+		// Every command refuses text the register could not keep exactly.
+		PersistentPreRunE: checkText,
 	}
 	root.PersistentFlags().StringVar(&f.DatabaseURL, "db", "", "PostgreSQL connection URL of the register (default: $CAIRN_DATABASE_URL, PG* variables, or the embedded default)")
 	root.SetFlagErrorFunc(func(c *cobra.Command, err error) error {
@@ -90,6 +92,8 @@ codes and regulations that govern your work.`,
 		newCmdAdjustment(f),
 		newCmdTrace(f),
 		newCmdStale(f),
+		newCmdBackup(f, nil),
+		newCmdRestore(f, nil),
 	)
 	return root
 }

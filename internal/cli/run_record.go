@@ -2,13 +2,12 @@ package cli
 
 import (
 	"encoding/hex"
-	"errors"
 	"fmt"
-	"os"
 	"strings"
 
 	"github.com/spf13/cobra"
 
+	"cairn/internal/levelbook"
 	"cairn/internal/reduce"
 	"cairn/internal/register"
 	"cairn/internal/standards"
@@ -120,13 +119,9 @@ type recordedJSON struct {
 
 func runRecordRun(cmd *cobra.Command, opts *runRecordOptions) error {
 	ios := opts.f.IO
-	data, err := os.ReadFile(opts.BookPath)
+	data, err := levelbook.ReadBytes(opts.BookPath)
 	if err != nil {
-		var pe *os.PathError
-		if errors.As(err, &pe) {
-			err = pe.Err
-		}
-		return badInput("%s: cannot read the book: %v", opts.BookPath, err)
+		return err
 	}
 	r, err := openRegister(cmd.Context(), opts.f)
 	if err != nil {

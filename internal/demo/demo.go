@@ -46,6 +46,7 @@ func addDatums(ctx context.Context, r *register.Register) error {
 		{Code: "OBLD61", Name: "Orrin Bay Local Datum 1961",
 			Note: "invented local datum of the Orrin Bay town works department, zero near the Mere River low water of 1961"},
 	} {
+		d.By = Clerk
 		if _, err := r.DatumAdd(ctx, d); err != nil {
 			return err
 		}

@@ -36,7 +36,25 @@ var metaLine = regexp.MustCompile(`^#\s*([A-Za-z][A-Za-z0-9_-]*)\s*:(.*)$`)
 // ReadFile reads and parses the level book at path; the path as given
 // names the book in errors. A file that cannot be read is an *Error too.
 func ReadFile(name string) (*Book, error) {
-	data, err := os.ReadFile(name)
+	data, err := ReadBytes(name)
+	if err != nil {
+		return nil, err
+	}
+	return Parse(name, data)
+}
+
+// MaxBookBytes is the largest field book cairn reads: 32 MiB, some 300,000
+// setups, fifteen times a long day's work of 20,000. The book is kept
+// byte for byte in the register, so it is read whole; the cap bounds the
+// memory a command needs (docs/reliability.md).
+const MaxBookBytes = 32 << 20
+
+// ReadBytes reads the bytes of the level book at path, refusing a book
+// larger than MaxBookBytes before reading more than that (a file that grows
+// while it is read, or a pipe, is stopped at the cap too). Errors are
+// *Error.
+func ReadBytes(name string) ([]byte, error) {
+	f, err := os.Open(name)
 	if err != nil {
 		var pe *os.PathError
 		if errors.As(err, &pe) {
@@ -44,7 +62,48 @@ func ReadFile(name string) (*Book, error) {
 		}
 		return nil, &Error{File: name, Msg: "cannot read the book: " + err.Error()}
 	}
-	return Parse(name, data)
+	defer f.Close()
+	tooBig := func(size int64) error {
+		return &Error{File: name, Msg: fmt.Sprintf("the book is %s; a field book may be at most %d MiB (split the work into several runs)",
+			sizeText(size), MaxBookBytes>>20)}
+	}
+	// One buffer, of the file's size or else of the cap (its untouched
+	// pages cost no memory), so reading never holds two copies.
+	size := int64(MaxBookBytes)
+	if fi, err := f.Stat(); err == nil && fi.Mode().IsRegular() {
+		if fi.Size() > MaxBookBytes {
+			return nil, tooBig(fi.Size())
+		}
+		size = fi.Size()
+	}
+	buf := make([]byte, size+1)
+	n, err := io.ReadFull(f, buf)
+	switch {
+	case err == nil:
+		// The buffer filled: the book is longer than measured.
+		if size >= MaxBookBytes {
+			return nil, tooBig(-1)
+		}
+		rest, err := io.ReadAll(io.LimitReader(f, MaxBookBytes-int64(n)+1))
+		if err != nil {
+			return nil, &Error{File: name, Msg: "cannot read the book: " + err.Error()}
+		}
+		if buf = append(buf[:n], rest...); len(buf) > MaxBookBytes {
+			return nil, tooBig(-1)
+		}
+		return buf, nil
+	case errors.Is(err, io.ErrUnexpectedEOF), errors.Is(err, io.EOF):
+		return buf[:n], nil
+	}
+	return nil, &Error{File: name, Msg: "cannot read the book: " + err.Error()}
+}
+
+// sizeText writes a size in MiB; -1 is "larger than the cap".
+func sizeText(size int64) string {
+	if size < 0 {
+		return fmt.Sprintf("more than %d MiB", MaxBookBytes>>20)
+	}
+	return fmt.Sprintf("%.1f MiB", float64(size)/(1<<20))
 }
 
 // Parse parses the level book data; name (usually the file's path) prefixes

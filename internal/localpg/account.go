@@ -110,8 +110,25 @@ func (c *Cluster) binDir() (string, error) {
 // root/<want>/bin when want is set, then on path, then the newest version
 // under root/*/bin.
 func findBin(path, root, want string) (string, error) {
+	return findBinOf([]string{"initdb", "pg_ctl"}, path, root, want)
+}
+
+// FindTool returns the path of PostgreSQL client program name (pg_dump,
+// pg_restore, ...), looked for as initdb and pg_ctl are: under
+// /usr/lib/postgresql/<major>/bin first when major is set (a client of the
+// server's own version), then on PATH, then the newest version there.
+func FindTool(name, major string) (string, error) {
+	dir, err := findBinOf([]string{name}, os.Getenv("PATH"), "/usr/lib/postgresql", major)
+	if err != nil {
+		return "", fmt.Errorf("find %s: %w", name, err)
+	}
+	return filepath.Join(dir, name), nil
+}
+
+// findBinOf looks for a folder holding every program in names.
+func findBinOf(names []string, path, root, want string) (string, error) {
 	has := func(dir string) bool {
-		for _, name := range []string{"initdb", "pg_ctl"} {
+		for _, name := range names {
 			fi, err := os.Stat(filepath.Join(dir, name))
 			if err != nil || fi.IsDir() || fi.Mode()&0o111 == 0 {
 				return false
@@ -129,7 +146,7 @@ func findBin(path, root, want string) (string, error) {
 		if has(dir) {
 			// Follow a link such as /usr/local/bin/pg_ctl to the real folder,
 			// where the server binary lives too.
-			if real, err := filepath.EvalSymlinks(filepath.Join(dir, "pg_ctl")); err == nil {
+			if real, err := filepath.EvalSymlinks(filepath.Join(dir, names[len(names)-1])); err == nil {
 				return filepath.Dir(real), nil
 			}
 			return dir, nil

@@ -9,25 +9,29 @@ import (
 	"cairn/internal/store"
 )
 
-var codePattern = regexp.MustCompile(`^[A-Za-z0-9][A-Za-z0-9._-]*$`)
+var codePattern = regexp.MustCompile(`^[A-Za-z0-9][A-Za-z0-9._-]{0,31}$`)
 
 // DatumAddParams are the fields of a new datum.
 type DatumAddParams struct {
 	Code string // short code used on the command line, e.g. NAVD88
 	Name string // official or full name
 	Note string
+	By   string // who adds it
 }
 
 // DatumAdd adds a datum to the register.
 func (r *Register) DatumAdd(ctx context.Context, p DatumAddParams) (store.Datum, error) {
 	p.Code, p.Name = strings.TrimSpace(p.Code), strings.TrimSpace(p.Name)
 	if !codePattern.MatchString(p.Code) {
-		return store.Datum{}, inputErr("code", "%q is not a datum code: use letters, digits and . _ -, starting with a letter or digit", p.Code)
+		return store.Datum{}, inputErr("code", "%q is not a datum code: use at most 32 letters, digits and . _ -, starting with a letter or digit", p.Code)
 	}
 	if p.Name == "" {
 		return store.Datum{}, inputErr("name", "a datum needs its full name (--name)")
 	}
-	d, err := store.DatumInsert(ctx, r.pool, store.DatumInsertParams{Code: p.Code, Name: p.Name, Note: p.Note})
+	if p.By = strings.TrimSpace(p.By); p.By == "" {
+		return store.Datum{}, inputErr("by", "say who adds the datum (--by)")
+	}
+	d, err := store.DatumInsert(ctx, r.pool, store.DatumInsertParams{Code: p.Code, Name: p.Name, Note: p.Note, CreatedBy: p.By})
 	if errors.Is(err, store.ErrAlreadyExists) {
 		return store.Datum{}, inputErr("code", "datum %s is already in the register", p.Code)
 	}

@@ -9,13 +9,14 @@ import (
 	"slices"
 	"strings"
 	"time"
+	"unicode"
 
 	"github.com/jackc/pgx/v5"
 
 	"cairn/internal/store"
 )
 
-var designationPattern = regexp.MustCompile(`^[A-Za-z0-9][A-Za-z0-9._/-]*$`)
+var designationPattern = regexp.MustCompile(`^[A-Za-z0-9][A-Za-z0-9._/-]{0,63}$`)
 
 // Conditions are the states a condition report may give, in the order
 // help texts list them.
@@ -34,9 +35,12 @@ type MarkAddParams struct {
 
 // MarkAdd adds a mark to the register.
 func (r *Register) MarkAdd(ctx context.Context, p MarkAddParams) (store.Mark, error) {
+	if strings.ContainsFunc(p.Designation, unicode.IsControl) {
+		return store.Mark{}, inputErr("designation", "%q is not a designation: it holds a control character", p.Designation)
+	}
 	p.Designation = strings.TrimSpace(p.Designation)
 	if !designationPattern.MatchString(p.Designation) {
-		return store.Mark{}, inputErr("designation", "%q is not a designation: use letters, digits and . _ / -, starting with a letter or digit", p.Designation)
+		return store.Mark{}, inputErr("designation", "%q is not a designation: use at most 64 letters, digits and . _ / -, starting with a letter or digit", p.Designation)
 	}
 	if (p.Lat == nil) != (p.Lon == nil) {
 		return store.Mark{}, inputErr("lat", "give both --lat and --lon, or neither")

@@ -15,7 +15,7 @@ func largeLoop(b *testing.B) (*Register, int64) {
 	ctx := context.Background()
 	db := pgtest.New(b)
 	r := New(db.Pool)
-	if _, err := r.DatumAdd(ctx, DatumAddParams{Code: "NAVD88", Name: "North American Vertical Datum of 1988"}); err != nil {
+	if _, err := r.DatumAdd(ctx, DatumAddParams{Code: "NAVD88", Name: "North American Vertical Datum of 1988", By: "test"}); err != nil {
 		b.Fatal(err)
 	}
 	loop := booktest.Loop{Setups: 20000, MarkEvery: 10, Seed: 1}

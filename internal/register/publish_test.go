@@ -61,7 +61,7 @@ func setup(t *testing.T) (*bundle, int64) {
 	t.Helper()
 	db := pgtest.New(t)
 	b := &bundle{db: db, reg: New(db.Pool), ctx: context.Background()}
-	if _, err := b.reg.DatumAdd(b.ctx, DatumAddParams{Code: "NAVD88", Name: "North American Vertical Datum of 1988"}); err != nil {
+	if _, err := b.reg.DatumAdd(b.ctx, DatumAddParams{Code: "NAVD88", Name: "North American Vertical Datum of 1988", By: "test"}); err != nil {
 		t.Fatal(err)
 	}
 	for i := 1; i <= 6; i++ {

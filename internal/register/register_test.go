@@ -24,7 +24,7 @@ func setup(t *testing.T) *bundle {
 	t.Helper()
 	db := pgtest.New(t)
 	b := &bundle{ctx: context.Background(), db: db, r: register.New(db.Pool)}
-	if _, err := b.r.DatumAdd(b.ctx, register.DatumAddParams{Code: "NAVD88", Name: "North American Vertical Datum of 1988"}); err != nil {
+	if _, err := b.r.DatumAdd(b.ctx, register.DatumAddParams{Code: "NAVD88", Name: "North American Vertical Datum of 1988", By: "test"}); err != nil {
 		t.Fatal(err)
 	}
 	b.addMark(t, "TC-0412", 41.62, -97.95)

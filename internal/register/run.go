@@ -348,7 +348,7 @@ func createMarks(ctx context.Context, tx pgx.Tx, p RecordParams, book *levelbook
 	for _, u := range missing {
 		if !designationPattern.MatchString(u.Designation) {
 			return nil, &levelbook.Error{File: p.Path, Line: u.Line, Field: "point",
-				Msg: fmt.Sprintf("%q cannot be a mark's designation (use letters, digits and . _ / -, starting with a letter or digit), or name it as a turning point", u.Designation)}
+				Msg: fmt.Sprintf("%q cannot be a mark's designation (use at most 64 letters, digits and . _ / -, starting with a letter or digit), or name it as a turning point", u.Designation)}
 		}
 		id, err := store.MarkInsert(ctx, tx, store.MarkInsertParams{Designation: u.Designation, CreatedBy: p.By})
 		if errors.Is(err, store.ErrAlreadyExists) {

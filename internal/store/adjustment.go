@@ -102,7 +102,7 @@ type AdjustmentGetParams struct {
 func AdjustmentGet(ctx context.Context, db DBTX, p AdjustmentGetParams) (Adjustment, error) {
 	if p.ForUpdate {
 		if _, err := db.Exec(ctx, "SELECT 1 FROM adjustment WHERE id = $1 FOR UPDATE", p.ID); err != nil {
-			return Adjustment{}, translate(err)
+			return Adjustment{}, translateAs(err, RolePublisher)
 		}
 	}
 	return scanAdjustment(db.QueryRow(ctx, "SELECT "+adjustmentColumns+adjustmentFrom+" WHERE a.id = $1", p.ID))
@@ -304,7 +304,7 @@ func AdjustmentEventInsert(ctx context.Context, db DBTX, p AdjustmentEventInsert
 // transaction ends. It takes the lock HeightSet takes for one mark.
 func MarkLock(ctx context.Context, db DBTX, markIDs []int64) error {
 	_, err := db.Exec(ctx, "SELECT 1 FROM mark WHERE id = ANY($1) ORDER BY id FOR NO KEY UPDATE", markIDs)
-	return translate(err)
+	return translateAs(err, RolePublisher)
 }
 
 // HeightLatestManyParams name chains of versions: the given marks on one

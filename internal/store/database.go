@@ -57,3 +57,16 @@ func DatabaseRecreate(ctx context.Context, conn, name string) error {
 	}
 	return nil
 }
+
+// DatabaseEmpty reports whether the connected database holds no tables of
+// its own (a restore goes only into such a database).
+func DatabaseEmpty(ctx context.Context, db DBTX) (bool, error) {
+	var n int
+	err := db.QueryRow(ctx, `SELECT count(*) FROM pg_class c JOIN pg_namespace n ON n.oid = c.relnamespace
+		WHERE c.relkind IN ('r', 'p', 'v', 'm', 'S') AND n.nspname NOT IN ('pg_catalog', 'information_schema')
+		AND n.nspname NOT LIKE 'pg_toast%'`).Scan(&n)
+	if err != nil {
+		return false, fmt.Errorf("look for tables: %w", translate(err))
+	}
+	return n == 0, nil
+}

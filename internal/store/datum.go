@@ -15,26 +15,28 @@ type Datum struct {
 	Name      string
 	Note      string
 	CreatedAt time.Time
+	CreatedBy string // empty for datums added before schema v4
 }
 
-const datumColumns = "id, code, name, note, created_at"
+const datumColumns = "id, code, name, note, created_at, created_by"
 
 func scanDatum(row pgx.Row) (Datum, error) {
 	var d Datum
-	err := row.Scan(&d.ID, &d.Code, &d.Name, &d.Note, &d.CreatedAt)
+	err := row.Scan(&d.ID, &d.Code, &d.Name, &d.Note, &d.CreatedAt, &d.CreatedBy)
 	return d, translate(err)
 }
 
 // DatumInsertParams are the fields of a new datum.
 type DatumInsertParams struct {
 	Code, Name, Note string
+	CreatedBy        string
 }
 
 // DatumInsert adds a datum; ErrAlreadyExists if its code is taken.
 func DatumInsert(ctx context.Context, db DBTX, p DatumInsertParams) (Datum, error) {
 	d, err := scanDatum(db.QueryRow(ctx,
-		"INSERT INTO datum (code, name, note) VALUES ($1, $2, $3) RETURNING "+datumColumns,
-		p.Code, p.Name, p.Note))
+		"INSERT INTO datum (code, name, note, created_by) VALUES ($1, $2, $3, $4) RETURNING "+datumColumns,
+		p.Code, p.Name, p.Note, p.CreatedBy))
 	if err != nil {
 		return Datum{}, fmt.Errorf("insert datum %s: %w", p.Code, err)
 	}

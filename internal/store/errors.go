@@ -4,6 +4,8 @@ import (
 	"context"
 	"errors"
 	"fmt"
+	"regexp"
+	"strings"
 
 	"github.com/jackc/pgx/v5"
 	"github.com/jackc/pgx/v5/pgconn"
@@ -20,12 +22,66 @@ var (
 	ErrConflict = errors.New("changed by another writer")
 	// ErrAppendOnly: the database refused to change or remove history.
 	ErrAppendOnly = errors.New("history is append-only")
+	// ErrPermission: the role connected lacks a privilege; the message
+	// names the role of the register that has it.
+	ErrPermission = errors.New("permission denied")
 )
+
+// Roles of the register (migrations/00004_roles.sql); each includes the
+// ones before it.
+const (
+	RoleReader    = "cairn_reader"
+	RoleRecorder  = "cairn_recorder"
+	RolePublisher = "cairn_publisher"
+)
+
+// roleToWrite is the least role that may write each table. Reading any
+// table needs RoleReader.
+var roleToWrite = map[string]string{
+	"mark": RoleRecorder, "mark_condition": RoleRecorder, "run": RoleRecorder, "sighting": RoleRecorder,
+	"section": RoleRecorder, "run_mark": RoleRecorder, "adjustment": RoleRecorder, "adjustment_run": RoleRecorder,
+	"adjustment_held": RoleRecorder, "adjustment_result": RoleRecorder,
+	"height": RolePublisher, "adjustment_event": RolePublisher, "datum": RolePublisher,
+}
+
+// deniedTable finds the table of "permission denied for table height".
+var deniedTable = regexp.MustCompile(`permission denied for (?:table|relation) (\S+)`)
+
+// permission explains a missing privilege (SQLSTATE 42501): which role of
+// the register is needed. role, when not empty, is the role the caller
+// knows its statement needs (a row lock needs more than a read).
+func permission(pe *pgconn.PgError, role string) error {
+	if role == "" {
+		if m := deniedTable.FindStringSubmatch(pe.Message); m != nil {
+			role = roleToWrite[m[1]]
+		}
+	}
+	what := strings.TrimPrefix(pe.Message, "permission denied")
+	if what == pe.Message {
+		what = ": " + what
+	}
+	if role == "" {
+		return fmt.Errorf("%w%s (the register's roles are %s, %s and %s; cairn db roles lists them)",
+			ErrPermission, what, RoleReader, RoleRecorder, RolePublisher)
+	}
+	return fmt.Errorf("%w%s: this needs role %s (ask the register's owner to grant it to you)", ErrPermission, what, role)
+}
+
+// translateAs is translate for a statement that needs role: a missing
+// privilege names it.
+func translateAs(err error, role string) error {
+	var pe *pgconn.PgError
+	if errors.As(err, &pe) && pe.Code == codeDenied {
+		return permission(pe, role)
+	}
+	return translate(err)
+}
 
 // SQLSTATE codes raised by the register's triggers (migrations/00001).
 const (
 	codeAppendOnly = "CA001" // UPDATE, DELETE or TRUNCATE of append-only history
 	codeStale      = "CA002" // a new version does not supersede the latest
+	codeDenied     = "42501" // insufficient_privilege
 )
 
 // constraintsOfChains are the unique constraints that keep each mark's
@@ -58,6 +114,8 @@ func translate(err error) error {
 		return fmt.Errorf("%w: %s", ErrConflict, pe.Message)
 	case pe.Code == "23505":
 		return fmt.Errorf("%w: %s", ErrAlreadyExists, pe.Message)
+	case pe.Code == codeDenied:
+		return permission(pe, "")
 	}
 	return err
 }

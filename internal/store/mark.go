@@ -86,7 +86,7 @@ func MarkGet(ctx context.Context, db DBTX, p MarkGetParams) (Mark, error) {
 	if p.ForUpdate {
 		// Lock first, then read with the latest condition.
 		if _, err := db.Exec(ctx, "SELECT 1 FROM mark WHERE designation = $1 FOR NO KEY UPDATE", p.Designation); err != nil {
-			return Mark{}, translate(err)
+			return Mark{}, translateAs(err, RolePublisher)
 		}
 	}
 	return scanMark(db.QueryRow(ctx, "SELECT "+markColumns+markFrom+" WHERE m.designation = $1", p.Designation))

@@ -1,0 +1,150 @@
+package cli
+
+import (
+	"context"
+	"fmt"
+	"strings"
+
+	"github.com/spf13/cobra"
+
+	"cairn/internal/backup"
+	"cairn/internal/register"
+	"cairn/internal/store"
+)
+
+// backupOptions are the options of backup and restore.
+type backupOptions struct {
+	f    *Factory
+	ctx  context.Context
+	file string
+}
+
+func newCmdBackup(f *Factory, runF func(*backupOptions) error) *cobra.Command {
+	opts := &backupOptions{f: f}
+	return &cobra.Command{
+		Use:   "backup FILE",
+		Short: "Copy the whole register into one file",
+		Long: `Copy the whole register, every table and every version of its history, into
+FILE, with PostgreSQL's pg_dump (custom format) of the server's version. The
+copy is one consistent snapshot; others may go on working meanwhile. FILE
+must not exist; it appears only once the copy is complete and readable.
+
+Keep the copies somewhere other than the server. "cairn restore FILE" loads
+one into an empty database.`,
+		Example: `  cairn backup register-2024-05-14.dump`,
+		Args:    exactArgs(1, "a FILE to write"),
+		RunE: func(cmd *cobra.Command, args []string) error {
+			opts.ctx, opts.file = cmd.Context(), args[0]
+			if runF != nil {
+				return runF(opts)
+			}
+			return backupRun(opts)
+		},
+	}
+}
+
+func backupRun(opts *backupOptions) error {
+	pool, err := opts.f.Pool(opts.ctx)
+	if err != nil {
+		return err
+	}
+	srv, err := store.ServerGet(opts.ctx, pool)
+	if err != nil {
+		return err
+	}
+	n, _, err := store.RegisterCount(opts.ctx, pool)
+	if err != nil {
+		return err
+	}
+	url, err := opts.f.ConnURL(opts.ctx)
+	if err != nil {
+		return err
+	}
+	if err := backup.Dump(opts.ctx, url, srv.Version, opts.file); err != nil {
+		if strings.Contains(err.Error(), "exists: name a new file") {
+			return badInput("%v", err)
+		}
+		return fmt.Errorf("back up register: %w", err)
+	}
+	opts.f.IO.printf("backed up %d mark(s) and %d height version(s) to %s\n", n.Marks, n.HeightVersions, opts.file)
+	return nil
+}
+
+func newCmdRestore(f *Factory, runF func(*backupOptions) error) *cobra.Command {
+	opts := &backupOptions{f: f}
+	return &cobra.Command{
+		Use:   "restore FILE",
+		Short: "Load a backup into an empty database and audit it",
+		Long: `Load FILE, made by "cairn backup", into the database named by --db (or the
+embedded default), which must be empty: create a new database for it. The
+load is one transaction, so it arrives whole or not at all. The register's
+roles get their privileges again (cairn db roles), the schema is brought up
+to date, and every chain of height versions is audited as "cairn audit
+verify" does; the exit status is 3 if any chain does not verify.`,
+		Example: `  createdb register_restored
+  cairn --db postgres://localhost/register_restored restore register-2024-05-14.dump`,
+		Args: exactArgs(1, "a backup FILE"),
+		RunE: func(cmd *cobra.Command, args []string) error {
+			opts.ctx, opts.file = cmd.Context(), args[0]
+			if runF != nil {
+				return runF(opts)
+			}
+			return restoreRun(opts)
+		},
+	}
+}
+
+func restoreRun(opts *backupOptions) error {
+	f, ctx := opts.f, opts.ctx
+	pool, err := f.Conn(ctx)
+	if err != nil {
+		return err
+	}
+	empty, err := store.DatabaseEmpty(ctx, pool)
+	if err != nil {
+		return err
+	}
+	if !empty {
+		srv, _ := store.ServerGet(ctx, pool)
+		return badInput("database %q is not empty: restore into a new, empty database", srv.Database)
+	}
+	srv, err := store.ServerGet(ctx, pool)
+	if err != nil {
+		return err
+	}
+	url, err := f.ConnURL(ctx)
+	if err != nil {
+		return err
+	}
+	if err := backup.List(ctx, opts.file, srv.Version); err != nil {
+		return badInput("%s is not a backup cairn can read: %v", opts.file, err)
+	}
+	if err := backup.Restore(ctx, url, srv.Version, opts.file); err != nil {
+		return fmt.Errorf("restore %s: %w", opts.file, err)
+	}
+	if _, err := f.Pool(ctx); err != nil {
+		return err
+	}
+	missing, err := store.RolesApply(ctx, pool)
+	if err != nil {
+		return err
+	}
+	if len(missing) > 0 {
+		fmt.Fprintf(f.IO.ErrOut, "roles %s are missing on this server: run cairn db roles as a role that may create them\n", strings.Join(missing, ", "))
+	}
+	n, _, err := store.RegisterCount(ctx, pool)
+	if err != nil {
+		return err
+	}
+	f.IO.printf("restored %d mark(s) and %d height version(s) from %s\n", n.Marks, n.HeightVersions, opts.file)
+	rep, err := register.New(pool).AuditVerify(ctx)
+	if err != nil {
+		return err
+	}
+	if len(rep.Breaks) > 0 {
+		f.IO.printf("audit: %d break(s) in %d chain(s) of %d version(s)\n", len(rep.Breaks), rep.Chains, rep.Versions)
+		return checksFailed{len(rep.Breaks)}
+	}
+	f.IO.printf("audit: %d chain(s) of %d version(s) verify\n", rep.Chains, rep.Versions)
+	return nil
+}
