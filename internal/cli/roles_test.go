@@ -72,7 +72,7 @@ func registerRows(t *testing.T, db *pgtest.DB) map[string]int64 {
 	t.Helper()
 	out := map[string]int64{}
 	for _, tab := range []string{"datum", "mark", "mark_condition", "height", "run", "sighting", "section", "run_mark",
-		"adjustment", "adjustment_run", "adjustment_held", "adjustment_result", "adjustment_event"} {
+		"adjustment", "adjustment_run", "adjustment_held", "adjustment_result", "adjustment_event", "adjustment_section"} {
 		var n int64
 		if err := db.Pool.QueryRow(context.Background(), "SELECT count(*) FROM "+tab).Scan(&n); err != nil {
 			t.Fatal(err)
@@ -147,6 +147,9 @@ func TestRolesPrivileges(t *testing.T) {
 	mustRun(t, recorder, "mark", "condition", "BM6", "good", "--note", "found as described")
 	mustRun(t, recorder, "run", "record", book)
 	recorderDraft := draft(t, recorder, run2)
+	// A least-squares draft also keeps each section's residual
+	// (adjustment_section), which the recorder may write.
+	mustRun(t, recorder, "adjust", run1, "--hold", "BM1", "--method", "least-squares", "--sigma-mm-per-sqrt-km", "100", "-o", "json")
 	// ... but publishes nothing.
 	refused(t, db, recorder, store.RolePublisher, "publish", recorderDraft, "--reason", "reviewed", "--yes")
 	refused(t, db, recorder, store.RolePublisher, "discard", ownerDraft, "--reason", "not wanted", "--yes")

@@ -68,7 +68,7 @@ func setupNet(t *testing.T, net [][]netSection) *netBundle {
 	t.Helper()
 	db := pgtest.New(t)
 	b := &netBundle{bundle: &bundle{db: db, reg: New(db.Pool), ctx: context.Background()}}
-	if _, err := b.reg.DatumAdd(b.ctx, DatumAddParams{Code: "NAVD88", Name: "North American Vertical Datum of 1988"}); err != nil {
+	if _, err := b.reg.DatumAdd(b.ctx, DatumAddParams{Code: "NAVD88", Name: "North American Vertical Datum of 1988", By: "test"}); err != nil {
 		t.Fatal(err)
 	}
 	// TC-0412 at 41.600,-97.900; the others 0.02° of latitude (2.2 km)

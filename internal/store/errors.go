@@ -27,7 +27,7 @@ var (
 	ErrPermission = errors.New("permission denied")
 )
 
-// Roles of the register (migrations/00004_roles.sql); each includes the
+// Roles of the register (migrations/00005_roles.sql); each includes the
 // ones before it.
 const (
 	RoleReader    = "cairn_reader"

@@ -7,7 +7,7 @@ import (
 
 // RolesApply creates the register's roles when they are absent and the
 // connected role may create roles, and grants this database's privileges
-// to them (the function cairn_roles_apply of migrations/00004). It returns
+// to them (the function cairn_roles_apply of migrations/00005). It returns
 // the roles still missing. Running it again changes nothing.
 func RolesApply(ctx context.Context, db DBTX) (missing []string, err error) {
 	if err := db.QueryRow(ctx, "SELECT cairn_roles_apply()").Scan(&missing); err != nil {

@@ -1,5 +1,5 @@
 -- +goose Up
--- Schema v4: the register's roles and what each may do (docs/reliability.md).
+-- Schema v5: the register's roles and what each may do (docs/reliability.md).
 --
 --   cairn_reader     look-ups only: SELECT on every table
 --   cairn_recorder   cairn_reader, and records runs, condition reports, new
@@ -19,7 +19,7 @@
 --
 -- Nobody may UPDATE, DELETE or TRUNCATE history: those privileges are
 -- revoked from PUBLIC, from every cairn role and from the tables' owner
--- (whose attempts the triggers of 00001-00003 refuse besides). The only
+-- (whose attempts the triggers of 00001-00004 refuse besides). The only
 -- UPDATE privilege left is on the id column of mark and adjustment, for the
 -- row locks (SELECT ... FOR UPDATE) that make publishers take turns; the
 -- triggers refuse any actual change of either.
@@ -53,10 +53,11 @@ DECLARE
     roles      constant text[] := ARRAY['cairn_reader', 'cairn_recorder', 'cairn_publisher'];
     history    constant text[] := ARRAY['height', 'mark_condition', 'run', 'sighting', 'section', 'run_mark',
                                         'adjustment', 'adjustment_run', 'adjustment_held', 'adjustment_result',
-                                        'adjustment_event'];
+                                        'adjustment_event', 'adjustment_section'];
     everything constant text[] := history || ARRAY['mark', 'datum', 'goose_db_version'];
     recorded   constant text[] := ARRAY['mark', 'mark_condition', 'run', 'sighting', 'section', 'run_mark',
-                                        'adjustment', 'adjustment_run', 'adjustment_held', 'adjustment_result'];
+                                        'adjustment', 'adjustment_run', 'adjustment_held', 'adjustment_result',
+                                        'adjustment_section'];
     published  constant text[] := ARRAY['height', 'adjustment_event', 'datum'];
     may_create boolean;
     missing    text[] := '{}';
@@ -151,7 +152,7 @@ BEGIN
     SELECT tableowner INTO owner FROM pg_tables WHERE schemaname = current_schema() AND tablename = 'height';
     FOREACH t IN ARRAY ARRAY['height', 'mark_condition', 'run', 'sighting', 'section', 'run_mark',
                              'adjustment', 'adjustment_run', 'adjustment_held', 'adjustment_result',
-                             'adjustment_event', 'mark', 'datum', 'goose_db_version'] LOOP
+                             'adjustment_event', 'adjustment_section', 'mark', 'datum', 'goose_db_version'] LOOP
         FOREACH r IN ARRAY ARRAY['cairn_reader', 'cairn_recorder', 'cairn_publisher'] LOOP
             IF EXISTS (SELECT 1 FROM pg_roles WHERE rolname = r) THEN
                 EXECUTE format('REVOKE ALL ON TABLE %I FROM %I', t, r);

@@ -1,5 +1,5 @@
 -- +goose Up
--- Schema v5: the outcome of each section in a least-squares adjustment. A
+-- Schema v4: the outcome of each section in a least-squares adjustment. A
 -- network adjustment gives every observed section a residual, its standard
 -- deviation and Baarda's standardized residual; the draft keeps them, so
 -- that the report (flagged sections with their runs and book lines) can be
