@@ -7,6 +7,7 @@ import (
 	"context"
 	"errors"
 	"fmt"
+	"io"
 	"os"
 	"os/signal"
 	"strings"
@@ -26,6 +27,9 @@ func Main(args []string) int {
 	ctx, stop := signal.NotifyContext(context.Background(), os.Interrupt, syscall.SIGTERM)
 	defer stop()
 	err := Execute(ctx, f, args)
+	if os.Getenv("CAIRN_REPORT_PEAK_MEMORY") != "" {
+		reportPeakMemory(ios.ErrOut)
+	}
 	if err != nil && !errors.As(err, new(checksFailed)) {
 		fmt.Fprintln(ios.ErrOut, "cairn: "+err.Error())
 	}
@@ -115,5 +119,21 @@ func minArgs(n int, names string) cobra.PositionalArgs {
 			return badInput("%s wants %s", cmd.CommandPath(), names)
 		}
 		return nil
+	}
+}
+
+// reportPeakMemory writes the process's peak resident memory (VmHWM of
+// /proc/self/status, Linux) to w, for tests that bound memory. It is read
+// from the process itself because the rusage a parent gets for a child
+// started with vfork-like clone also counts the parent's memory.
+func reportPeakMemory(w io.Writer) {
+	b, err := os.ReadFile("/proc/self/status")
+	if err != nil {
+		return
+	}
+	for _, line := range strings.Split(string(b), "\n") {
+		if rest, ok := strings.CutPrefix(line, "VmHWM:"); ok {
+			fmt.Fprintf(w, "cairn: peak resident memory %s\n", strings.TrimSpace(rest))
+		}
 	}
 }
