@@ -140,7 +140,7 @@ func addHeights(ctx context.Context, r *register.Register) error {
 		{"TC-0405", "NAVD88", "771.40", "usft", "second-II", "", book1994 + ", p. 11", "entered from the 1994 benchmark book"},
 		{"TC-0408", "NAVD88", "781.07", "usft", "second-II", "", book1994 + ", p. 12", "entered from the 1994 benchmark book"},
 		{"TC-0412", "NAVD88", "769.83", "usft", "second-II", "", book1994 + ", p. 12", "entered from the 1994 benchmark book"},
-		{"TC-0415", "NAVD88", "772.95", "usft", "second-II", "", book1994 + ", p. 12", "entered from the 1994 benchmark book"},
+		{"TC-0415", "NAVD88", "768.29", "usft", "second-II", "", book1994 + ", p. 12", "entered from the 1994 benchmark book"},
 		{"TC-0419", "NAVD88", "753.71", "usft", "second-II", "", book1994 + ", p. 13", "entered from the 1994 benchmark book"},
 		{"TC-0423", "NAVD88", "778.36", "usft", "second-II", "", book1994 + ", p. 13", "entered from the 1994 benchmark book"},
 		{"TC-0412", "NAVD88", "769.88", "usft", "second-II", register.KindCorrection, errata,
