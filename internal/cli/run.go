@@ -9,6 +9,7 @@ import (
 	"text/tabwriter"
 
 	"github.com/spf13/cobra"
+	"github.com/spf13/pflag"
 
 	"cairn/internal/levelbook"
 	"cairn/internal/reduce"
@@ -46,8 +47,7 @@ type runCheckOptions struct {
 // tests.
 func newCmdRunCheck(f *Factory, runF func(*runCheckOptions) error) *cobra.Command {
 	opts := &runCheckOptions{IO: f.IO}
-	var holds []string
-	var class string
+	var rf reductionFlags
 	cmd := &cobra.Command{
 		Use:   "check BOOK.csv",
 		Short: "Reduce a level book and check it against its accuracy class",
@@ -77,28 +77,51 @@ and follow the codes and regulations that govern your work.`,
 		RunE: func(cmd *cobra.Command, args []string) error {
 			opts.BookPath = args[0]
 			var err error
-			if opts.Hold, err = parseHolds(holds); err != nil {
+			if opts.Hold, opts.Class, err = rf.parse(); err != nil {
 				return err
 			}
-			if class != "" {
-				if opts.Class, err = standards.ParseClass(class); err != nil {
-					return badInput("--class: %v", err)
-				}
-			}
+			opts.CurvatureRefraction = rf.curvatureRefraction
 			if runF != nil {
 				return runF(opts)
 			}
 			return runCheckRun(opts)
 		},
 	}
-	cmd.Flags().StringArrayVar(&holds, "hold", nil, "hold a mark at a known height, MARK=HEIGHT in the book's unit (repeatable)")
-	cmd.Flags().StringVar(&class, "class", "", "accuracy class to check against, overriding the book's: first-I, first-II, second-I, second-II, third")
-	cmd.Flags().BoolVar(&opts.CurvatureRefraction, "curvature-refraction", false, "correct every reading for curvature and refraction (k = 0.14)")
+	rf.add(cmd.Flags())
 	addOutputFlag(cmd, &opts.Format)
 	return cmd
 }
 
 // parseHolds reads --hold MARK=HEIGHT values.
+// reductionFlags are the flags of run check and run record that say how a
+// book is reduced.
+type reductionFlags struct {
+	holds               []string
+	class               string
+	curvatureRefraction bool
+}
+
+func (rf *reductionFlags) add(fl *pflag.FlagSet) {
+	fl.StringArrayVar(&rf.holds, "hold", nil, "hold a mark at a known height, MARK=HEIGHT in the book's unit (repeatable)")
+	fl.StringVar(&rf.class, "class", "", "accuracy class to check against, overriding the book's: first-I, first-II, second-I, second-II, third")
+	fl.BoolVar(&rf.curvatureRefraction, "curvature-refraction", false, "correct every reading for curvature and refraction (k = 0.14)")
+}
+
+// parse reads the held heights and the class ("" keeps the book's).
+func (rf *reductionFlags) parse() (map[string]float64, standards.Class, error) {
+	hold, err := parseHolds(rf.holds)
+	if err != nil {
+		return nil, "", err
+	}
+	var class standards.Class
+	if rf.class != "" {
+		if class, err = standards.ParseClass(rf.class); err != nil {
+			return nil, "", badInput("--class: %v", err)
+		}
+	}
+	return hold, class, nil
+}
+
 func parseHolds(holds []string) (map[string]float64, error) {
 	if len(holds) == 0 {
 		return nil, nil

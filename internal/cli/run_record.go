@@ -33,8 +33,7 @@ type runRecordOptions struct {
 // tests.
 func newCmdRunRecord(f *Factory, runF func(*runRecordOptions) error) *cobra.Command {
 	opts := &runRecordOptions{f: f}
-	var holds []string
-	var class string
+	var rf reductionFlags
 	cmd := &cobra.Command{
 		Use:   "record BOOK.csv",
 		Short: "Record a level book in the register as a run",
@@ -70,14 +69,10 @@ work.`,
 		RunE: func(cmd *cobra.Command, args []string) error {
 			opts.BookPath = args[0]
 			var err error
-			if opts.Hold, err = parseHolds(holds); err != nil {
+			if opts.Hold, opts.Class, err = rf.parse(); err != nil {
 				return err
 			}
-			if class != "" {
-				if opts.Class, err = standards.ParseClass(class); err != nil {
-					return badInput("--class: %v", err)
-				}
-			}
+			opts.CurvatureRefraction = rf.curvatureRefraction
 			opts.Reason = strings.TrimSpace(opts.Reason)
 			if opts.AcceptFailedChecks && opts.Reason == "" {
 				return badInput("--accept-failed-checks needs --reason saying why the run is recorded anyway")
@@ -98,9 +93,7 @@ work.`,
 		},
 	}
 	fl := cmd.Flags()
-	fl.StringArrayVar(&holds, "hold", nil, "hold a mark at a known height, MARK=HEIGHT in the book's unit (repeatable)")
-	fl.StringVar(&class, "class", "", "accuracy class to check against, overriding the book's: first-I, first-II, second-I, second-II, third")
-	fl.BoolVar(&opts.CurvatureRefraction, "curvature-refraction", false, "correct every reading for curvature and refraction (k = 0.14)")
+	rf.add(fl)
 	fl.StringVar(&opts.By, "by", osUser(), "who records the run")
 	fl.BoolVar(&opts.NewMarks, "new-marks", false, "create the marks the register lacks (condition unverified, no height)")
 	fl.BoolVar(&opts.AcceptFailedChecks, "accept-failed-checks", false, "record the book even though checks fail (needs --reason)")
