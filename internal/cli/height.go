@@ -17,7 +17,7 @@ func newCmdHeight(f *Factory) *cobra.Command {
 		Use:   "height",
 		Short: "Published heights of benchmarks: record and look up",
 	}
-	cmd.AddCommand(newCmdHeightSet(f, nil), newCmdHeightShow(f, nil), newCmdHeightList(f))
+	cmd.AddCommand(newCmdHeightSet(f, nil), newCmdHeightWithdraw(f, nil), newCmdHeightShow(f, nil), newCmdHeightList(f))
 	return cmd
 }
 
@@ -37,16 +37,29 @@ value exactly as printed, its unit (m, ft for the international foot, usft for
 the US survey foot) and its number of decimals, on one datum, with a citation
 of the publication and the reason for recording it.
 
+--kind says what the new version is: authority (the default: a height as an
+outside authority published it), correction (an earlier version was wrong,
+for example a transcription error), or datum-change (the same mark moved to
+another realisation of the datum). Heights from adjustments of recorded runs
+come from 'cairn publish', and a withdrawal from 'cairn height withdraw'.
+
 The height becomes a new version; the version it replaces stays in the
 register for good (see 'cairn history').
 
 ` + cautions,
-		Example: `  cairn height set TC-0412 769.83 --unit usft --datum NAVD88 --class 2nd-I \
+		Example: `  cairn height set TC-0412 769.83 --unit usft --datum NAVD88 --class second-I \
     --source "Tallis County Benchmark Book, 1994 edition, p. 12" \
-    --reason "entered from the county benchmark book"`,
+    --reason "entered from the county benchmark book"
+  cairn height set TC-0412 769.88 --unit usft --datum NAVD88 --kind correction \
+    --source "errata sheet 3 to the 1994 book" --reason "769.83 was a transcription error"`,
 		Args: exactArgs(2, "a DESIGNATION and a VALUE"),
 		RunE: func(cmd *cobra.Command, args []string) error {
 			opts.params.Designation, opts.params.Value = args[0], args[1]
+			switch opts.params.Kind {
+			case register.KindAuthority, register.KindCorrection, register.KindDatumChange:
+			default:
+				return badInput("--kind: %q is not a kind of outside height (want authority, correction or datum-change)", opts.params.Kind)
+			}
 			if cmd.Flags().Changed("decimals") {
 				opts.params.Decimals = &opts.decimals
 			}
@@ -78,9 +91,58 @@ register for good (see 'cairn history').
 	fl.StringVar(&opts.params.Source, "source", "", "citation of the publication the height comes from")
 	fl.StringVar(&opts.params.Reason, "reason", "", "why this height is being recorded (required)")
 	fl.StringVar(&opts.params.RecordedBy, "by", osUser(), "who records it")
+	fl.StringVar(&opts.params.Kind, "kind", register.KindAuthority, "what the version is: authority, correction or datum-change")
+	_ = cmd.RegisterFlagCompletionFunc("kind", func(*cobra.Command, []string, string) ([]string, cobra.ShellCompDirective) {
+		return []string{register.KindAuthority, register.KindCorrection, register.KindDatumChange}, cobra.ShellCompDirectiveNoFileComp
+	})
 	_ = cmd.RegisterFlagCompletionFunc("unit", func(*cobra.Command, []string, string) ([]string, cobra.ShellCompDirective) {
 		return []string{"m", "ft", "usft"}, cobra.ShellCompDirectiveNoFileComp
 	})
+	return cmd
+}
+
+// newCmdHeightWithdraw builds `cairn height withdraw`: a version with no
+// value, so that the mark has no height in force on that datum.
+func newCmdHeightWithdraw(f *Factory, runF func(*heightSetOptions) error) *cobra.Command {
+	opts := &heightSetOptions{f: f}
+	cmd := &cobra.Command{
+		Use:   "withdraw DESIGNATION --datum CODE --reason TEXT",
+		Short: "Withdraw a mark's height on a datum, leaving none in force",
+		Long: `Withdraw a benchmark's height on one datum, for example when the mark is
+destroyed or its height can no longer be vouched for. The withdrawal is a new
+version with no value and a reason; the versions before it stay in the
+register, and as-of look-ups before the withdrawal still return them.
+
+` + cautions,
+		Example: `  cairn height withdraw TC-0423 --datum NAVD88 --reason "mark destroyed when the depot was demolished"`,
+		Args:    exactArgs(1, "a DESIGNATION"),
+		RunE: func(cmd *cobra.Command, args []string) error {
+			opts.params.Designation = args[0]
+			opts.params.Kind = register.KindWithdrawal
+			if runF != nil {
+				return runF(opts)
+			}
+			r, err := openRegister(cmd.Context(), f)
+			if err != nil {
+				return err
+			}
+			res, err := r.HeightSet(cmd.Context(), opts.params)
+			if err != nil {
+				return err
+			}
+			v := res.Version
+			f.IO.printf("%s on %s has no height in force from now on (version %d, a withdrawal)\n", v.Designation, v.DatumCode, v.Version)
+			if res.Previous != nil {
+				f.IO.printf("  withdraws version %d: %s\n", res.Previous.Version, valueText(*res.Previous))
+			}
+			return nil
+		},
+	}
+	fl := cmd.Flags()
+	fl.StringVar(&opts.params.Datum, "datum", "", "datum code (see cairn datum list)")
+	fl.StringVar(&opts.params.Source, "source", "", "citation of a notice of the withdrawal, if any")
+	fl.StringVar(&opts.params.Reason, "reason", "", "why the height is withdrawn (required)")
+	fl.StringVar(&opts.params.RecordedBy, "by", osUser(), "who withdraws it")
 	return cmd
 }
 

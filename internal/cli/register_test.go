@@ -11,6 +11,7 @@ import (
 	"strings"
 	"sync"
 	"testing"
+	"time"
 
 	"cairn/internal/pgtest"
 	"cairn/internal/store"
@@ -362,4 +363,51 @@ func currentDatabase(t *testing.T, db *pgtest.DB) string {
 		t.Fatal(err)
 	}
 	return name
+}
+
+// A correction and a withdrawal are versions like any other: history lists
+// them with their kinds, the current look-up has no height after the
+// withdrawal, an as-of look-up before it still answers, and the chain
+// verifies. A second withdrawal, or an adjustment's kind given by hand, is
+// bad input that writes nothing.
+func TestHeightCorrectionAndWithdrawal(t *testing.T) {
+	t.Parallel()
+	db := pgtest.New(t)
+	seed(t, db.URL)
+	mustRun(t, db.URL, setArgs("769.83", "entered from the book")...)
+	mustRun(t, db.URL, append(setArgs("769.88", "769.83 was a transcription error"), "--kind", "correction")...)
+	mustRun(t, db.URL, "height", "withdraw", "TC-0412", "--datum", "NAVD88", "--reason", "mark destroyed by roadworks", "--by", "tester")
+
+	out := mustRun(t, db.URL, "history", "TC-0412")
+	for _, want := range []string{"withdrawal\tmark destroyed by roadworks", "correction\t769.83 was a transcription error", "authority\tentered from the book"} {
+		if !strings.Contains(out, want) {
+			t.Errorf("history lacks %q:\n%s", want, out)
+		}
+	}
+	if out := mustRun(t, db.URL, "height", "show", "TC-0412", "-o", "json"); strings.Contains(out, `"769.88"`) {
+		t.Errorf("a withdrawn height is still shown as current:\n%s", out)
+	}
+	if out := mustRun(t, db.URL, "height", "show", "TC-0412", "--as-of", time.Now().Add(-time.Hour).UTC().Format(time.RFC3339)); strings.Contains(out, "769") {
+		t.Errorf("an hour ago there was no height yet:\n%s", out)
+	}
+	rows := func() int {
+		var n int
+		if err := db.Pool.QueryRow(context.Background(), "SELECT count(*) FROM height").Scan(&n); err != nil {
+			t.Fatal(err)
+		}
+		return n
+	}
+	n := rows()
+	for _, args := range [][]string{
+		{"height", "withdraw", "TC-0412", "--datum", "NAVD88", "--reason", "again"},
+		append(setArgs("769.90", "by hand"), "--kind", "adjustment"),
+	} {
+		if _, errOut, st := run(t, db.URL, args...); st != ExitBadInput {
+			t.Errorf("cairn %s: exit %d, want 2: %s", strings.Join(args, " "), st, errOut)
+		}
+	}
+	if rows() != n {
+		t.Fatalf("refused writes changed the number of versions from %d to %d", n, rows())
+	}
+	mustRun(t, db.URL, "audit", "verify")
 }
