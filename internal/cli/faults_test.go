@@ -13,6 +13,7 @@ import (
 
 	"github.com/jackc/pgx/v5/pgxpool"
 
+	"cairn/internal/localpg"
 	"cairn/internal/pgtest"
 )
 
@@ -67,6 +68,10 @@ func stallCommand(t *testing.T, ctx context.Context, pool *pgxpool.Pool, url str
 	s.release = holdLock(t, pool, hold...)
 	s.cmd = exec.CommandContext(ctx, cairnBinary(t), append([]string{"--db", url}, args...)...)
 	s.cmd.Stderr = s.stderr
+	// Past the guard, a hung process is asked for its goroutines' stacks
+	// (they end up in its stderr, in the failure), then killed.
+	s.cmd.Cancel = func() error { return s.cmd.Process.Signal(syscall.SIGQUIT) }
+	s.cmd.WaitDelay = 5 * time.Second
 	if err := s.cmd.Start(); err != nil {
 		t.Fatal(err)
 	}
@@ -191,5 +196,87 @@ func TestWriteCommandsKilledLeaveNothing(t *testing.T) {
 			}
 			mustRun(t, db.URL, "audit", "verify")
 		})
+	}
+}
+
+// The server restarted (a fast shutdown and start of a throwaway cluster
+// of the test's own) in the middle of a publication and in the middle of a
+// recording: each cairn process ends with an error saying the connection
+// was lost and nothing was written; the register is as it was; the audit
+// passes; and the command then succeeds whole.
+//
+// As in TestWriteCommandsKilledLeaveNothing, a lock held by another
+// connection stops each process inside its transaction, having written
+// part of its work, when the server restarts.
+func TestServerRestartMidWrite(t *testing.T) {
+	t.Parallel()
+	ctx := context.Background()
+	cluster, url, err := localpg.Throwaway(ctx)
+	if err != nil {
+		t.Fatal(err)
+	}
+	pool, err := pgxpool.New(ctx, url)
+	if err != nil {
+		t.Fatal(err)
+	}
+	t.Cleanup(pool.Close) // after the holding transactions' cleanups
+	db := &pgtest.DB{Pool: pool, URL: url}
+	runs, books := seedWorked(t, db, 1)
+	book := writeBook(t, "copy-2.csv", append([]byte("# copy 2\n"), books[0]...))
+	draft := adjustForTest(t, url, fmt.Sprint(runs[0]))
+
+	cases := []struct {
+		name string
+		hold string
+		args []string
+		// wrote checks the register after the command has run again.
+		wrote func(before, after map[string]int64) bool
+	}{
+		// The publication event is written; the new versions wait.
+		{"publication", "LOCK TABLE height IN SHARE MODE",
+			[]string{"publish", draft, "--reason", "reviewed", "--yes", "--by", "test"},
+			func(b, a map[string]int64) bool {
+				// BM2 to BM6: every mark of the circuit but the held one.
+				return a["adjustment_event"] == b["adjustment_event"]+1 && a["height"] == b["height"]+5
+			}},
+		// The run and its sightings are written; its sections wait.
+		{"recording", "LOCK TABLE section IN SHARE MODE",
+			[]string{"run", "record", book, "--by", "test"},
+			func(b, a map[string]int64) bool {
+				return a["run"] == b["run"]+1 && a["sighting"] == b["sighting"]*2 && a["section"] == b["section"]*2
+			}},
+	}
+	for _, c := range cases {
+		before := registerRows(t, db)
+		guard, cancel := context.WithTimeout(ctx, faultGuard)
+		s := stallCommand(t, guard, pool, url, []string{c.hold}, c.args...)
+		if err := cluster.Restart(ctx); err != nil {
+			t.Fatal(err)
+		}
+		err := <-s.exited
+		hung := guard.Err() != nil
+		cancel()
+		if hung {
+			t.Fatalf("%s: cairn did not end after the restart (stopped by the guard): %s", c.name, s.stderr.String())
+		}
+		msg := s.stderr.String()
+		if code := s.cmd.ProcessState.ExitCode(); code != ExitFailure {
+			t.Fatalf("%s: cairn ended with %v (exit %d), want exit %d: %s", c.name, err, code, ExitFailure, msg)
+		}
+		if !strings.Contains(msg, "connection to the database was lost") || !strings.Contains(msg, "nothing was written") {
+			t.Errorf("%s: the error does not say the connection was lost and nothing was written: %s", c.name, msg)
+		}
+		t.Logf("%s: %s", c.name, strings.TrimSpace(msg))
+		s.release() // its connection went with the old server
+		pool.Reset()
+		if after := registerRows(t, db); fmt.Sprint(after) != fmt.Sprint(before) {
+			t.Fatalf("%s cut by a restart changed the register: %v to %v", c.name, before, after)
+		}
+		mustRun(t, url, "audit", "verify")
+		mustRun(t, url, c.args...)
+		if after := registerRows(t, db); !c.wrote(before, after) {
+			t.Fatalf("%s after the restart: %v to %v", c.name, before, after)
+		}
+		mustRun(t, url, "audit", "verify")
 	}
 }
