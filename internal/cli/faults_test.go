@@ -76,11 +76,7 @@ func stallCommand(t *testing.T, ctx context.Context, pool *pgxpool.Pool, url str
 		t.Fatal(err)
 	}
 	go func() { s.exited <- s.cmd.Wait() }()
-	t.Cleanup(func() {
-		if s.cmd.ProcessState == nil {
-			_ = s.cmd.Process.Kill()
-		}
-	})
+	t.Cleanup(func() { _ = s.cmd.Process.Kill() }) // done already, if all went well
 	waitFor(t, "cairn "+args[0]+" to wait inside its transaction", func() bool {
 		select {
 		case err := <-s.exited:
