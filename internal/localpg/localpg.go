@@ -235,6 +235,34 @@ func (c *Cluster) Stop(ctx context.Context) error {
 	return nil
 }
 
+// Restart stops the cluster's server with a fast shutdown (sessions are
+// ended, their open transactions rolled back, nothing committed is lost)
+// and starts it again. The cluster must be running.
+func (c *Cluster) Restart(ctx context.Context) error {
+	run, err := runAs()
+	if err != nil {
+		return err
+	}
+	unlock, err := lockFile(ctx, filepath.Join(c.Dir, "lock"))
+	if err != nil {
+		return err
+	}
+	defer unlock()
+	if _, running, err := c.postmaster(); err != nil {
+		return err
+	} else if !running {
+		return fmt.Errorf("restart PostgreSQL in %s: the server is not running", c.Dir)
+	}
+	bin, err := c.binDir()
+	if err != nil {
+		return err
+	}
+	if err := c.pgctl(ctx, bin, run, "restart", "-w", "-t", "60", "-m", "fast", "-l", c.logFile()); err != nil {
+		return fmt.Errorf("restart PostgreSQL in %s: %w%s", c.Dir, err, c.logTail())
+	}
+	return nil
+}
+
 // prepareDir makes the cluster's folder (and the socket's, when apart),
 // owned by the user who runs the server and closed to everyone else.
 func (c *Cluster) prepareDir(run *account) error {

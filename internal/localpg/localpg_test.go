@@ -142,6 +142,34 @@ func TestStartStopRestart(t *testing.T) {
 	if got := query(t, url, "SELECT n::text FROM kept"); got != "42" {
 		t.Errorf("after restart: kept = %q, want 42", got)
 	}
+
+	// Restart: a new server process, the data kept, and a session of the
+	// old server ended.
+	before, _ := c.Status(ctx)
+	conn, err := pgx.Connect(ctx, url)
+	if err != nil {
+		t.Fatal(err)
+	}
+	defer conn.Close(ctx)
+	if err := c.Restart(ctx); err != nil {
+		t.Fatal(err)
+	}
+	after, _ := c.Status(ctx)
+	if !after.Running || after.PID == before.PID {
+		t.Errorf("after Restart: status %+v, was pid %d; want a new server", after, before.PID)
+	}
+	if err := conn.Ping(ctx); err == nil {
+		t.Error("a session of the server before Restart still answers")
+	}
+	if got := query(t, url, "SELECT n::text FROM kept"); got != "42" {
+		t.Errorf("after Restart: kept = %q, want 42", got)
+	}
+	if err := c.Stop(ctx); err != nil {
+		t.Fatal(err)
+	}
+	if err := c.Restart(ctx); err == nil || !strings.Contains(err.Error(), "not running") {
+		t.Errorf("Restart of a stopped cluster: %v, want not running", err)
+	}
 }
 
 func processUID(t *testing.T, pid int) int {

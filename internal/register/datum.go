@@ -6,6 +6,8 @@ import (
 	"regexp"
 	"strings"
 
+	"github.com/jackc/pgx/v5"
+
 	"cairn/internal/store"
 )
 
@@ -31,10 +33,19 @@ func (r *Register) DatumAdd(ctx context.Context, p DatumAddParams) (store.Datum,
 	if p.By = strings.TrimSpace(p.By); p.By == "" {
 		return store.Datum{}, inputErr("by", "say who adds the datum (--by)")
 	}
-	d, err := store.DatumInsert(ctx, r.pool, store.DatumInsertParams{Code: p.Code, Name: p.Name, Note: p.Note, CreatedBy: p.By})
-	if errors.Is(err, store.ErrAlreadyExists) {
-		return store.Datum{}, inputErr("code", "datum %s is already in the register", p.Code)
-	}
+	// In a transaction of its own, like every write: a statement sent on
+	// its own commits when the server finishes it, even if the process
+	// that sent it has died meanwhile; a transaction commits only when
+	// asked to.
+	var d store.Datum
+	err := r.withTx(ctx, pgx.TxOptions{}, func(tx pgx.Tx) error {
+		var err error
+		d, err = store.DatumInsert(ctx, tx, store.DatumInsertParams{Code: p.Code, Name: p.Name, Note: p.Note, CreatedBy: p.By})
+		if errors.Is(err, store.ErrAlreadyExists) {
+			return inputErr("code", "datum %s is already in the register", p.Code)
+		}
+		return err
+	})
 	return d, err
 }
 

@@ -31,11 +31,16 @@ func loadDuration(t *testing.T) time.Duration {
 }
 
 // Sixteen workers for a bounded time mix look-ups, recordings, condition
-// reports, outside heights and publications of adjustments, all on the
-// same six marks. Afterwards no version is lost or duplicated (the
-// versions in the register are exactly those the workers were told they
-// wrote), every chain verifies, and every failure was a clean conflict.
-// Throughput is reported, not asserted.
+// reports, outside heights and publications of adjustments over two
+// circuits of six marks each: BM1 to BM6 (the worked circuit) and OB1 to
+// OB6 (the same book with its marks renamed), each held at its first mark.
+// Outside heights land mostly on the BM circuit, so its publications
+// mostly conflict; publications of the OB circuit, drafted and published
+// at once, mostly succeed, except when another publisher or the outside
+// heights that still reach the OB marks get there first. Afterwards no
+// version is lost or duplicated (the versions in the register are exactly
+// those the workers were told they wrote), every chain verifies, and every
+// failure was a clean conflict. Throughput is reported, not asserted.
 func TestLoadSixteenWorkers(t *testing.T) {
 	t.Parallel()
 	b, firstRun := setup(t)
@@ -53,10 +58,31 @@ func TestLoadSixteenWorkers(t *testing.T) {
 	defer pool.Close()
 	reg := New(pool)
 	book := workedBook(t, 0)
+	// The quiet circuits: the same book over marks of their own.
+	quiet := []string{"OA", "OB", "OC", "OD"}
+	circuits := append([]string{"BM"}, quiet...)
+	books := map[string][]byte{"BM": book}
+	firstRuns := map[string]int64{"BM": firstRun}
+	for _, c := range quiet {
+		books[c] = []byte(strings.ReplaceAll(string(book), "BM", c))
+		for i := 1; i <= 6; i++ {
+			if _, err := b.reg.MarkAdd(ctx, MarkAddParams{Designation: fmt.Sprintf("%s%d", c, i), CreatedBy: "test"}); err != nil {
+				t.Fatal(err)
+			}
+		}
+		b.setHeight(t, c+"1", "728.730", "Outside control, sheet "+c+" (invented citation)")
+		rec, err := b.reg.Record(ctx, RecordParams{Path: "orrin-bay-" + c + ".csv", Book: books[c], By: "test"})
+		if err != nil {
+			t.Fatal(err)
+		}
+		firstRuns[c] = rec.Run.ID
+	}
 
 	type tally struct {
 		ops, conflicts map[string]int
-		versions       int // height versions the worker was told it wrote
+		tried          map[string]int // publications tried, by circuit
+		published      map[string]int // publications that wrote, by circuit
+		versions       int            // height versions the worker was told it wrote
 		perMark        map[string]int
 		unexpected     []string
 	}
@@ -64,15 +90,20 @@ func TestLoadSixteenWorkers(t *testing.T) {
 	deadline := time.Now().Add(loadDuration(t))
 	var wg sync.WaitGroup
 	for w := range workers {
-		tl := &tally{ops: map[string]int{}, conflicts: map[string]int{}, perMark: map[string]int{}}
+		tl := &tally{ops: map[string]int{}, conflicts: map[string]int{}, perMark: map[string]int{}, tried: map[string]int{}, published: map[string]int{}}
 		tallies[w] = tl
 		wg.Add(1)
 		go func() {
 			defer wg.Done()
 			rng := rand.New(rand.NewPCG(uint64(w), 7))
-			runs := []int64{firstRun}
+			runs := map[string][]int64{}
+			for c, id := range firstRuns {
+				runs[c] = []int64{id}
+			}
 			for i := 0; time.Now().Before(deadline); i++ {
-				mark := fmt.Sprintf("BM%d", 1+rng.IntN(6))
+				// Look-ups, reports and recordings go to any circuit.
+				circuit := circuits[rng.IntN(len(circuits))]
+				mark := fmt.Sprintf("%s%d", circuit, 1+rng.IntN(6))
 				var kind string
 				var err error
 				switch p := rng.IntN(100); {
@@ -95,15 +126,19 @@ func TestLoadSixteenWorkers(t *testing.T) {
 					kind = "recording"
 					var rec *Recorded
 					rec, err = reg.Record(ctx, RecordParams{Path: "worked-circuit.csv", By: "load",
-						Book: append([]byte(fmt.Sprintf("# load worker %d book %d\n", w, i)), book...)})
+						Book: append([]byte(fmt.Sprintf("# load worker %d book %d\n", w, i)), books[circuit]...)})
 					if err == nil {
-						runs = append(runs, rec.Run.ID)
+						runs[circuit] = append(runs[circuit], rec.Run.ID)
 					}
 				case p < 90:
 					kind = "outside height"
-					if mark == "BM1" {
-						mark = "BM2" // BM1 stays the held mark's one line
+					// Nineteen in twenty on the BM circuit; the held marks
+					// keep their one version.
+					circuit = "BM"
+					if rng.IntN(20) == 0 {
+						circuit = quiet[rng.IntN(len(quiet))]
 					}
+					mark = fmt.Sprintf("%s%d", circuit, 2+rng.IntN(5))
 					_, err = reg.HeightSet(ctx, HeightSetParams{Designation: mark, Datum: "NAVD88",
 						Value: fmt.Sprintf("%d.%03d", 700+rng.IntN(200), rng.IntN(1000)), Unit: "m",
 						Source: "Load test sheet (invented citation)", Reason: fmt.Sprintf("worker %d, %d", w, i), RecordedBy: "load"})
@@ -113,12 +148,20 @@ func TestLoadSixteenWorkers(t *testing.T) {
 					}
 				default:
 					kind = "publication"
+					// Three in four on a quiet circuit.
+					circuit = quiet[rng.IntN(len(quiet))]
+					if rng.IntN(4) == 0 {
+						circuit = "BM"
+					}
+					tl.tried[circuit]++
+					rs := runs[circuit]
 					var v *AdjustmentView
-					v, err = reg.Adjust(ctx, AdjustParams{RunIDs: []int64{runs[rng.IntN(len(runs))]}, Hold: []string{"BM1"}, By: "load"})
+					v, err = reg.Adjust(ctx, AdjustParams{RunIDs: []int64{rs[rng.IntN(len(rs))]}, Hold: []string{circuit + "1"}, By: "load"})
 					if err == nil {
 						var pub *Published
 						pub, err = reg.Publish(ctx, PublishParams{AdjustmentID: v.Adjustment.ID, Reason: "load", By: "load"})
 						if err == nil {
+							tl.published[circuit]++
 							tl.versions += len(pub.Versions)
 							for _, h := range pub.Versions {
 								tl.perMark[h.Designation]++
@@ -142,9 +185,12 @@ func TestLoadSixteenWorkers(t *testing.T) {
 	wg.Wait()
 	elapsed := time.Since(start)
 
-	ops, conflicts := map[string]int{}, map[string]int{}
-	perMark := map[string]int{"BM1": 1}
-	versions, total := 1, 0 // BM1's outside height from setup
+	ops, conflicts, tried, published := map[string]int{}, map[string]int{}, map[string]int{}, map[string]int{}
+	perMark := map[string]int{}
+	for _, c := range circuits {
+		perMark[c+"1"] = 1 // the held marks' outside heights from setup
+	}
+	versions, total := len(circuits), 0
 	for _, tl := range tallies {
 		for _, u := range tl.unexpected {
 			t.Errorf("not a clean conflict: %s", u)
@@ -156,6 +202,12 @@ func TestLoadSixteenWorkers(t *testing.T) {
 		for k, n := range tl.conflicts {
 			conflicts[k] += n
 		}
+		for k, n := range tl.published {
+			published[k] += n
+		}
+		for k, n := range tl.tried {
+			tried[k] += n
+		}
 		for k, n := range tl.perMark {
 			perMark[k] += n
 		}
@@ -164,6 +216,12 @@ func TestLoadSixteenWorkers(t *testing.T) {
 	for _, k := range []string{"look-up", "condition", "recording", "outside height", "publication"} {
 		t.Logf("%-15s %6d operations, %4d conflicts", k, ops[k], conflicts[k])
 	}
+	var quietTried, quietWrote int
+	for _, c := range quiet {
+		quietTried, quietWrote = quietTried+tried[c], quietWrote+published[c]
+	}
+	t.Logf("publications that wrote: %d of %d on the quiet circuits, %d of %d on the BM circuit",
+		quietWrote, quietTried, published["BM"], tried["BM"])
 	t.Logf("%d workers, %.1f s: %d operations, %.0f per second; %d height versions written", workers, elapsed.Seconds(),
 		total, float64(total)/elapsed.Seconds(), versions)
 	if ops["publication"] == 0 || ops["recording"] == 0 || ops["condition"] == 0 || ops["outside height"] == 0 {
@@ -199,7 +257,7 @@ func TestLoadSixteenWorkers(t *testing.T) {
 	if err := b.db.Pool.QueryRow(ctx, "SELECT count(*) FROM run").Scan(&runsIn); err != nil {
 		t.Fatal(err)
 	}
-	if want := 1 + ops["recording"] - conflicts["recording"]; runsIn != want {
+	if want := len(circuits) + ops["recording"] - conflicts["recording"]; runsIn != want {
 		t.Errorf("%d runs in the register, %d recorded", runsIn, want)
 	}
 	rep, err := b.reg.AuditVerify(ctx)

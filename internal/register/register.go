@@ -72,13 +72,37 @@ func (r *Register) withTx(ctx context.Context, opts pgx.TxOptions, fn func(tx pg
 	}
 	defer tx.Rollback(context.WithoutCancel(ctx))
 	if err := fn(tx); err != nil {
+		if tx.Conn().IsClosed() {
+			return &ConnectionLostError{Err: err}
+		}
 		return err
 	}
 	if err := tx.Commit(ctx); err != nil {
+		if tx.Conn().IsClosed() {
+			return &ConnectionLostError{Err: fmt.Errorf("commit: %w", err), Committing: true}
+		}
 		return asConflict(fmt.Errorf("commit: %w", err))
 	}
 	return nil
 }
+
+// ConnectionLostError says the connection to the database broke inside a
+// transaction (the server stopped or restarted, or the network failed).
+// Before the commit was asked for, the server rolls the transaction back:
+// nothing was written. While committing, the outcome cannot be known.
+type ConnectionLostError struct {
+	Err error
+	// Committing is set when the connection broke during the commit.
+	Committing bool
+}
+
+func (e *ConnectionLostError) Error() string {
+	if e.Committing {
+		return "the connection to the database was lost while committing, so the work may or may not have been written (look before trying again): " + e.Err.Error()
+	}
+	return "the connection to the database was lost before the work was committed, so nothing was written (try again once the database is back): " + e.Err.Error()
+}
+func (e *ConnectionLostError) Unwrap() error { return e.Err }
 
 // readTx is a read-only transaction that sees one snapshot.
 var readTx = pgx.TxOptions{IsoLevel: pgx.RepeatableRead, AccessMode: pgx.ReadOnly}
