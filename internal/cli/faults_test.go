@@ -143,6 +143,9 @@ func TestWriteCommandsKilledLeaveNothing(t *testing.T) {
 		// The mark is locked and its latest version read; the new
 		// version waits.
 		{"height set", []string{"LOCK TABLE height IN SHARE MODE"}, height},
+		// The same for a withdrawal, a version with no value.
+		{"height withdraw", []string{"LOCK TABLE height IN SHARE MODE"},
+			[]string{"height", "withdraw", "BM1", "--datum", "NAVD88", "--reason", "mark destroyed", "--by", "test"}},
 		// The adjustment, its runs and its held marks are written; its
 		// results wait.
 		{"adjust", []string{"LOCK TABLE adjustment_result IN SHARE MODE"},
