@@ -66,21 +66,7 @@ register for good (see 'cairn history').
 			if runF != nil {
 				return runF(opts)
 			}
-			r, err := openRegister(cmd.Context(), f)
-			if err != nil {
-				return err
-			}
-			res, err := r.HeightSet(cmd.Context(), opts.params)
-			if err != nil {
-				return err
-			}
-			v := res.Version
-			f.IO.printf("%s on %s is now %s (version %d)\n", v.Designation, v.DatumCode, valueText(v), v.Version)
-			if res.Previous != nil {
-				f.IO.printf("  replaces version %d: %s\n", res.Previous.Version, valueText(*res.Previous))
-			}
-			warnCondition(f.IO, mustMark(cmd, f, v.Designation))
-			return nil
+			return heightSetRun(cmd, opts)
 		},
 	}
 	fl := cmd.Flags()
@@ -122,20 +108,7 @@ register, and as-of look-ups before the withdrawal still return them.
 			if runF != nil {
 				return runF(opts)
 			}
-			r, err := openRegister(cmd.Context(), f)
-			if err != nil {
-				return err
-			}
-			res, err := r.HeightSet(cmd.Context(), opts.params)
-			if err != nil {
-				return err
-			}
-			v := res.Version
-			f.IO.printf("%s on %s has no height in force from now on (version %d, a withdrawal)\n", v.Designation, v.DatumCode, v.Version)
-			if res.Previous != nil {
-				f.IO.printf("  withdraws version %d: %s\n", res.Previous.Version, valueText(*res.Previous))
-			}
-			return nil
+			return heightSetRun(cmd, opts)
 		},
 	}
 	fl := cmd.Flags()
@@ -144,6 +117,32 @@ register, and as-of look-ups before the withdrawal still return them.
 	fl.StringVar(&opts.params.Reason, "reason", "", "why the height is withdrawn (required)")
 	fl.StringVar(&opts.params.RecordedBy, "by", osUser(), "who withdraws it")
 	return cmd
+}
+
+// heightSetRun records the version opts describes (a value, or a
+// withdrawal) and says what it replaced.
+func heightSetRun(cmd *cobra.Command, opts *heightSetOptions) error {
+	f := opts.f
+	r, err := openRegister(cmd.Context(), f)
+	if err != nil {
+		return err
+	}
+	res, err := r.HeightSet(cmd.Context(), opts.params)
+	if err != nil {
+		return err
+	}
+	v := res.Version
+	if opts.params.Kind == register.KindWithdrawal {
+		f.IO.printf("%s on %s has no height in force from now on (version %d, a withdrawal)\n", v.Designation, v.DatumCode, v.Version)
+		f.IO.printf("  withdraws version %d: %s\n", res.Previous.Version, valueText(*res.Previous))
+		return nil
+	}
+	f.IO.printf("%s on %s is now %s (version %d)\n", v.Designation, v.DatumCode, valueText(v), v.Version)
+	if res.Previous != nil {
+		f.IO.printf("  replaces version %d: %s\n", res.Previous.Version, valueText(*res.Previous))
+	}
+	warnCondition(f.IO, mustMark(cmd, f, v.Designation))
+	return nil
 }
 
 // mustMark returns the mark for the warning after a write; a failure to
