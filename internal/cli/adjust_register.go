@@ -203,9 +203,19 @@ type adjustmentJSON struct {
 	Results         []resultJSON        `json:"results"`
 	Statistics      register.Statistics `json:"statistics"`
 	// Sections are a least-squares adjustment's sections, flagged or not.
-	Sections     []adjSectionJSON `json:"sections,omitempty"`
-	ChecksFailed int              `json:"checks_failed"`
-	Cautions     string           `json:"cautions"`
+	Sections []adjSectionJSON `json:"sections,omitempty"`
+	// MarksInDoubt are adjusted marks whose latest condition report is
+	// disturbed, destroyed or not found.
+	MarksInDoubt []markInDoubtJSON `json:"marks_in_doubt"`
+	ChecksFailed int               `json:"checks_failed"`
+	Cautions     string            `json:"cautions"`
+}
+
+type markInDoubtJSON struct {
+	Mark       string    `json:"mark"`
+	Condition  string    `json:"condition"`
+	ObservedOn time.Time `json:"observed_on"`
+	Note       string    `json:"note"`
 }
 
 type adjSectionJSON struct {
@@ -264,7 +274,7 @@ func toAdjustmentJSON(v *register.AdjustmentView, dryRun bool) adjustmentJSON {
 	a := v.Adjustment
 	j := adjustmentJSON{DryRun: dryRun, Status: a.Status, StatusReason: a.StatusReason, StatusBy: a.StatusBy, StatusAt: a.StatusAt,
 		Method: a.Method, Datum: a.DatumCode, Parameters: v.Parameters, CreatedBy: a.CreatedBy, ConditionReason: a.ConditionReason,
-		Runs: []runRefJSON{}, Held: []heldJSON{}, Results: []resultJSON{}, Statistics: v.Statistics,
+		Runs: []runRefJSON{}, Held: []heldJSON{}, Results: []resultJSON{}, Statistics: v.Statistics, MarksInDoubt: []markInDoubtJSON{},
 		ChecksFailed: v.Failed(), Cautions: adjustCautions}
 	if !dryRun {
 		id, at := a.ID, a.CreatedAt
@@ -278,6 +288,10 @@ func toAdjustmentJSON(v *register.AdjustmentView, dryRun bool) adjustmentJSON {
 	for _, h := range v.Held {
 		j.Held = append(j.Held, heldJSON{Mark: h.Designation, Datum: h.DatumCode, Version: h.Version, Value: h.Value,
 			Unit: h.Unit, Current: h.Current, Source: h.Source, HeightID: h.ID})
+	}
+	for _, d := range v.InDoubt {
+		j.MarksInDoubt = append(j.MarksInDoubt, markInDoubtJSON{Mark: d.Designation, Condition: d.Condition.Condition,
+			ObservedOn: d.Condition.ObservedOn, Note: d.Condition.Note})
 	}
 	for _, s := range v.Sections {
 		j.Sections = append(j.Sections, adjSectionJSON{RunID: s.RunID, Seq: s.Seq, From: s.From, To: s.To, FirstLine: s.FirstLine,
@@ -334,6 +348,10 @@ func renderAdjustment(ios *IOStreams, format Format, v *register.AdjustmentView,
 	}
 	if a.ConditionReason != "" {
 		say("  marks in doubt held because: %s\n", a.ConditionReason)
+	}
+	for _, d := range j.MarksInDoubt {
+		fmt.Fprintf(ios.ErrOut, "\n%s\nWARNING: %s was last reported %s on %s (%s); verify it in the field before publishing a height for it\n%s\n",
+			strings.Repeat("!", 72), d.Mark, strings.ToUpper(d.Condition), d.ObservedOn.Format("2006-01-02"), d.Note, strings.Repeat("!", 72))
 	}
 	say("\n")
 	t := Table{Headers: []string{"MARK", "HELD", "COMPUTED (m)", "CORRECTION (m)", "ADJUSTED (m)", "SIGMA (m)", "PUBLISH", "UNIT", "REPLACES"}}

@@ -248,3 +248,36 @@ func TestAdjustPublishHelpCautions(t *testing.T) {
 		}
 	}
 }
+
+// An adjusted mark last reported destroyed is named in the report: loudly
+// on stderr, and under marks_in_doubt in JSON, both when the draft is made
+// and when it is shown again. A held mark in doubt is refused outright
+// (tested with the register); an adjusted one is the reviewer's call, so
+// it is warned about, not refused.
+func TestAdjustWarnsOfAdjustedMarksInDoubt(t *testing.T) {
+	t.Parallel()
+	db := pgtest.New(t)
+	seedWorked(t, db, 1)
+	mustRun(t, db.URL, "mark", "condition", "BM4", "destroyed", "--on", "2025-02-01", "--note", "culvert replaced", "--by", "tester")
+
+	_, errOut, st := run(t, db.URL, "adjust", "1", "--hold", "BM1", "--made-by", "tester")
+	if st != 0 || !strings.Contains(errOut, "WARNING: BM4 was last reported DESTROYED on 2025-02-01 (culvert replaced)") {
+		t.Fatalf("adjust: exit %d, stderr %q", st, errOut)
+	}
+	if strings.Contains(errOut, "BM5 was last reported") {
+		t.Fatalf("a mark in good standing is warned about: %q", errOut)
+	}
+	var j struct {
+		MarksInDoubt []struct {
+			Mark      string `json:"mark"`
+			Condition string `json:"condition"`
+		} `json:"marks_in_doubt"`
+	}
+	out := mustRun(t, db.URL, "adjustment", "show", "1", "-o", "json")
+	if err := json.Unmarshal([]byte(out), &j); err != nil {
+		t.Fatal(err)
+	}
+	if len(j.MarksInDoubt) != 1 || j.MarksInDoubt[0].Mark != "BM4" || j.MarksInDoubt[0].Condition != "destroyed" {
+		t.Fatalf("marks_in_doubt = %+v, want BM4 destroyed", j.MarksInDoubt)
+	}
+}

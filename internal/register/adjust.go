@@ -155,6 +155,40 @@ type AdjustmentView struct {
 	Results    []store.AdjustmentResult
 	// Sections are a least-squares adjustment's section outcomes.
 	Sections []store.AdjustmentSection
+	// InDoubt are the adjusted (not held) marks whose latest condition
+	// report is disturbed, destroyed or not found, as of when the view was
+	// made: a height published for them describes a mark that may have
+	// moved or be gone.
+	InDoubt []MarkInDoubt
+}
+
+// MarkInDoubt is an adjusted mark whose latest condition report puts it in
+// doubt.
+type MarkInDoubt struct {
+	Designation string
+	Condition   store.Condition
+}
+
+// markDoubts fills v.InDoubt from the latest condition reports of the
+// marks v adjusts.
+func markDoubts(ctx context.Context, db store.DBTX, v *AdjustmentView) error {
+	var ids []int64
+	for _, res := range v.Results {
+		if !res.Held {
+			ids = append(ids, res.MarkID)
+		}
+	}
+	latest, err := store.ConditionLatestMany(ctx, db, ids)
+	if err != nil {
+		return fmt.Errorf("read the condition of the adjusted marks: %w", err)
+	}
+	v.InDoubt = nil
+	for _, res := range v.Results {
+		if c, ok := latest[res.MarkID]; ok && !res.Held && conditionsInDoubt[c.Condition] {
+			v.InDoubt = append(v.InDoubt, MarkInDoubt{Designation: res.Designation, Condition: c})
+		}
+	}
+	return nil
 }
 
 // Failed counts the stretches whose misclosure exceeds the allowable, or
@@ -426,7 +460,7 @@ func (r *Register) adjust(ctx context.Context, tx pgx.Tx, p AdjustParams, unit u
 		}
 	}
 	v.Adjustment.Results = len(v.Results)
-	return nil
+	return markDoubts(ctx, tx, v)
 }
 
 // storeDraft writes the adjustment computed into v.
@@ -654,9 +688,11 @@ func (r *Register) adjustmentView(ctx context.Context, db store.DBTX, id int64, 
 		return err
 	}
 	if v.Adjustment.Method == MethodLeastSquares {
-		v.Sections, err = store.AdjustmentSectionList(ctx, db, id)
+		if v.Sections, err = store.AdjustmentSectionList(ctx, db, id); err != nil {
+			return err
+		}
 	}
-	return err
+	return markDoubts(ctx, db, v)
 }
 
 func (r *Register) adjustment(ctx context.Context, db store.DBTX, id int64, forUpdate bool) (store.Adjustment, error) {

@@ -57,3 +57,26 @@ func ConditionListByMark(ctx context.Context, db DBTX, markID int64) ([]Conditio
 
 // pgDate passes the calendar date of t as text, so no time zone shifts it.
 func pgDate(t time.Time) string { return t.Format("2006-01-02") }
+
+// ConditionLatestMany returns the latest condition report (by date
+// observed) of each of the marks that has one, by mark id.
+func ConditionLatestMany(ctx context.Context, db DBTX, markIDs []int64) (map[int64]Condition, error) {
+	rows, err := db.Query(ctx, `SELECT DISTINCT ON (mark_id) id, mark_id, condition, note, observed_on, recorded_at, recorded_by
+		FROM mark_condition WHERE mark_id = ANY($1) ORDER BY mark_id, observed_on DESC, id DESC`, markIDs)
+	if err != nil {
+		return nil, translate(err)
+	}
+	list, err := collect(rows, func(r pgx.Row) (Condition, error) {
+		var c Condition
+		err := r.Scan(&c.ID, &c.MarkID, &c.Condition, &c.Note, &c.ObservedOn, &c.RecordedAt, &c.RecordedBy)
+		return c, translate(err)
+	})
+	if err != nil {
+		return nil, err
+	}
+	out := make(map[int64]Condition, len(list))
+	for _, c := range list {
+		out[c.MarkID] = c
+	}
+	return out, nil
+}
