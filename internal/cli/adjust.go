@@ -324,19 +324,11 @@ type adjustJSON struct {
 	Flagged    []flaggedJSON   `json:"flagged_sections"`
 }
 
+// adjustStatsJSON is the offline adjustment's statistics: those the
+// register stores for a least-squares draft, and the a-priori σ used.
 type adjustStatsJSON struct {
-	Observations   int      `json:"observations"`
-	Unknowns       int      `json:"unknowns"`
-	Redundancy     int      `json:"redundancy"`
-	SigmaMM        float64  `json:"sigma_mm_per_sqrt_km"`
-	VarianceFactor *float64 `json:"variance_factor"`
-	ChiSquare      float64  `json:"chi_square"`
-	ChiSquareLower *float64 `json:"chi_square_lower"`
-	ChiSquareUpper *float64 `json:"chi_square_upper"`
-	Alpha          float64  `json:"alpha"`
-	ChiSquarePass  bool     `json:"chi_square_pass"`
-	SnoopCritical  float64  `json:"snoop_critical"`
-	Flagged        int      `json:"flagged"`
+	*register.NetworkStat
+	SigmaMM float64 `json:"sigma_mm_per_sqrt_km"`
 }
 
 type pointJSON struct {
@@ -352,13 +344,6 @@ type flaggedJSON struct {
 	To        string  `json:"to"`
 	ResidualM float64 `json:"residual_m"`
 	W         float64 `json:"w"`
-}
-
-func finite(v float64) *float64 {
-	if math.IsNaN(v) || math.IsInf(v, 0) {
-		return nil
-	}
-	return &v
 }
 
 // flagged returns the flagged sections, largest |W| first.
@@ -378,16 +363,10 @@ func writeAdjustment(ios *IOStreams, opts *adjustOptions, sol *adjust.NetworkSol
 	case FormatCSV:
 		return netfile.WriteHeights(ios.Out, sol.Points)
 	case FormatJSON:
-		st := sol.Stats
 		v := adjustJSON{
-			Statistics: adjustStatsJSON{
-				Observations: st.Observations, Unknowns: st.Unknowns, Redundancy: st.Redundancy,
-				SigmaMM: opts.SigmaMMPerSqrtKm, VarianceFactor: finite(st.VarianceFactor),
-				ChiSquare: st.ChiSquare.Statistic, ChiSquareLower: finite(st.ChiSquare.Lower), ChiSquareUpper: finite(st.ChiSquare.Upper),
-				Alpha: st.ChiSquare.Alpha, ChiSquarePass: st.ChiSquare.Pass, SnoopCritical: st.SnoopCritical, Flagged: st.Flagged,
-			},
-			Points:  make([]pointJSON, len(sol.Points)),
-			Flagged: []flaggedJSON{},
+			Statistics: adjustStatsJSON{register.NewNetworkStat(sol), opts.SigmaMMPerSqrtKm},
+			Points:     make([]pointJSON, len(sol.Points)),
+			Flagged:    []flaggedJSON{},
 		}
 		for i, p := range sol.Points {
 			v.Points[i] = pointJSON{p.Point, round6(p.HeightM), round6(p.SDM), p.Held}

@@ -207,11 +207,7 @@ func leastSquares(p AdjustParams, secs []store.Section, markIDs map[string]int64
 			FirstLine: s.FirstLine, LastLine: s.LastLine, ResidualM: r.ResidualM, ResidualSDM: r.SDM,
 			W: finitePtr(r.W), Flagged: r.Flagged})
 	}
-	st := sol.Stats
-	ns := &NetworkStat{Points: len(sol.Points), Sections: len(sol.Sections), Observations: st.Observations,
-		Unknowns: st.Unknowns, Redundancy: st.Redundancy, VTPV: st.VTPV, VarianceFactor: finitePtr(st.VarianceFactor),
-		Alpha: st.ChiSquare.Alpha, ChiSquareLower: finitePtr(st.ChiSquare.Lower), ChiSquareUpper: finitePtr(st.ChiSquare.Upper),
-		ChiSquarePass: st.ChiSquare.Pass, SnoopCritical: st.SnoopCritical, Flagged: st.Flagged}
+	ns := NewNetworkStat(sol)
 	for k, m := range holds {
 		if holdSD[m.Designation] > 0 && !(o.Minimal && k > 0) {
 			h := sol.Held[k]
@@ -220,6 +216,18 @@ func leastSquares(p AdjustParams, secs []store.Section, markIDs map[string]int64
 	}
 	v.Statistics.Network = ns
 	return nil
+}
+
+// NewNetworkStat gives the statistics of a network solution as they are
+// stored and shown (values that need redundancy are nil without it). The
+// held marks' pseudo-observations are left to the caller, which knows how
+// each was held.
+func NewNetworkStat(sol *adjust.NetworkSolution) *NetworkStat {
+	st := sol.Stats
+	return &NetworkStat{Points: len(sol.Points), Sections: len(sol.Sections), Observations: st.Observations,
+		Unknowns: st.Unknowns, Redundancy: st.Redundancy, VTPV: st.VTPV, VarianceFactor: finitePtr(st.VarianceFactor),
+		Alpha: st.ChiSquare.Alpha, ChiSquareLower: finitePtr(st.ChiSquare.Lower), ChiSquareUpper: finitePtr(st.ChiSquare.Upper),
+		ChiSquarePass: st.ChiSquare.Pass, SnoopCritical: st.SnoopCritical, Flagged: st.Flagged}
 }
 
 func finitePtr(x float64) *float64 {
