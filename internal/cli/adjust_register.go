@@ -350,8 +350,8 @@ func renderAdjustment(ios *IOStreams, format Format, v *register.AdjustmentView,
 		say("  marks in doubt held because: %s\n", a.ConditionReason)
 	}
 	for _, d := range j.MarksInDoubt {
-		fmt.Fprintf(ios.ErrOut, "\n%s\nWARNING: %s was last reported %s on %s (%s); verify it in the field before publishing a height for it\n%s\n",
-			strings.Repeat("!", 72), d.Mark, strings.ToUpper(d.Condition), d.ObservedOn.Format("2006-01-02"), d.Note, strings.Repeat("!", 72))
+		warnLoudly(ios, fmt.Sprintf("WARNING: %s was last reported %s on %s (%s); verify it in the field before publishing a height for it",
+			d.Mark, strings.ToUpper(d.Condition), d.ObservedOn.Format("2006-01-02"), d.Note))
 	}
 	say("\n")
 	t := Table{Headers: []string{"MARK", "HELD", "COMPUTED (m)", "CORRECTION (m)", "ADJUSTED (m)", "SIGMA (m)", "PUBLISH", "UNIT", "REPLACES"}}

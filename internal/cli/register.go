@@ -43,9 +43,16 @@ func osUser() string {
 func warnCondition(ios *IOStreams, m store.Mark) string {
 	w := register.Warning(m)
 	if w != "" {
-		fmt.Fprintln(ios.ErrOut, "\n"+strings.Repeat("!", 72)+"\n"+w+"\n"+strings.Repeat("!", 72))
+		warnLoudly(ios, w)
 	}
 	return w
+}
+
+// warnLoudly writes a warning about a mark's condition on stderr between
+// two rules, so that it cannot be missed among the rows.
+func warnLoudly(ios *IOStreams, text string) {
+	rule := strings.Repeat("!", 72)
+	fmt.Fprintln(ios.ErrOut, "\n"+rule+"\n"+text+"\n"+rule)
 }
 
 // condition returns the latest condition's name, "unknown" if none.

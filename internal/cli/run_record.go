@@ -135,7 +135,7 @@ func runRecordRun(cmd *cobra.Command, opts *runRecordOptions) error {
 		}
 	}
 	for _, c := range rec.Cautions {
-		fmt.Fprintln(ios.ErrOut, "\n"+strings.Repeat("!", 72)+"\n"+c+"\n"+strings.Repeat("!", 72))
+		warnLoudly(ios, c)
 	}
 	if opts.Format == FormatJSON {
 		return writeJSON(ios.Out, recordedJSON{Run: toRunJSON(rec.Run), CreatedMarks: created, Cautions: nonNil(rec.Cautions), Reduction: rec.Result})

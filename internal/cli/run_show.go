@@ -167,7 +167,7 @@ func runShowRun(cmd *cobra.Command, opts *runShowOptions) error {
 		return writeJSON(ios.Out, j)
 	}
 	for _, c := range v.Cautions {
-		fmt.Fprintln(ios.ErrOut, "\n"+strings.Repeat("!", 72)+"\n"+c+"\n"+strings.Repeat("!", 72))
+		warnLoudly(ios, c)
 	}
 	return writeRunReport(ios.Out, v.Run, v.Summary.Misclosures, v.Summary.Checks, v.Summary.Failures, v.Sections, v.Marks)
 }
