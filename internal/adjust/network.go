@@ -87,47 +87,6 @@ func (n *Network) SectionPoints(i int) (from, to string) {
 // NumPoints returns the number of distinct points named by the sections.
 func (n *Network) NumPoints() int { return len(n.pts.list) }
 
-// NetworkOptions are the settings of a network adjustment. The zero value
-// means the defaults documented on each field.
-type NetworkOptions struct {
-	Weighting Weighting
-	// SigmaM is the a-priori standard deviation of unit weight σ₀ in metres:
-	// per √km with WeightByLength, per √setup with WeightBySetups.
-	// Default 0.001 (1 mm·√km).
-	SigmaM float64
-	// Alpha is the significance level of the two-tailed χ² test of the
-	// variance factor. Default 0.05.
-	Alpha float64
-	// SnoopCritical is the critical value of Baarda's data snooping.
-	// Default 3.29 (α = 0.001 two-sided, see SnoopCriticalValue).
-	SnoopCritical float64
-	// Minimal holds only the first held mark, fixed, and adjusts every other
-	// mark (the held ones included) from it: a minimally constrained
-	// adjustment that judges the observations apart from the control.
-	Minimal bool
-	// Progress, if set, is called with the name of each phase as it begins.
-	Progress func(phase string)
-}
-
-// DefaultSnoopCritical is the default critical value of data snooping: the
-// two-sided standard normal quantile for α = 0.001, 3.2905 rounded (Baarda
-// 1968, Netherlands Geodetic Commission, Publications on Geodesy 2(5),
-// from memory; the quantile is derived in stats_test.go).
-const DefaultSnoopCritical = 3.29
-
-func (o NetworkOptions) withDefaults() NetworkOptions {
-	if o.SigmaM == 0 {
-		o.SigmaM = 0.001
-	}
-	if o.Alpha == 0 {
-		o.Alpha = 0.05
-	}
-	if o.SnoopCritical == 0 {
-		o.SnoopCritical = DefaultSnoopCritical
-	}
-	return o
-}
-
 // PointResult is the adjusted height of one point.
 type PointResult struct {
 	Point   string
@@ -267,15 +226,9 @@ var ErrEmptyNetwork = errors.New("the network has no sections")
 // Bad data is a *SectionError or *HeldError, parts of the network without
 // held control an *UncontrolledError, an empty network ErrEmptyNetwork.
 func SolveNetwork(net *Network, opt NetworkOptions) (*NetworkSolution, error) {
-	opt = opt.withDefaults()
-	if !(opt.SigmaM > 0) || math.IsInf(opt.SigmaM, 0) {
-		panic("adjust: SigmaM must be positive")
-	}
-	if !(opt.Alpha > 0 && opt.Alpha < 1) {
-		panic("adjust: Alpha must lie in (0, 1)")
-	}
-	if !(opt.SnoopCritical > 0) {
-		panic("adjust: SnoopCritical must be positive")
+	opt = opt.WithDefaults()
+	if err := opt.Validate(); err != nil {
+		panic("adjust: " + err.Error())
 	}
 	progress := func(string) {}
 	if opt.Progress != nil {
