@@ -63,11 +63,12 @@ type OptionError struct {
 	// Field is "weighting", "sigma_m", "alpha" or "snoop_critical".
 	Field string
 	Value float64
-	Msg   string // what the value must be
+	// Must says what the value must be ("be positive", ...).
+	Must string
 }
 
 func (e *OptionError) Error() string {
-	return fmt.Sprintf("%s %v: %s", e.Field, e.Value, e.Msg)
+	return fmt.Sprintf("%s must %s, not %v", e.Field, e.Must, e.Value)
 }
 
 // Validate checks o after WithDefaults: it returns an *OptionError naming
@@ -75,13 +76,13 @@ func (e *OptionError) Error() string {
 func (o NetworkOptions) Validate() error {
 	switch {
 	case o.Weighting != WeightByLength && o.Weighting != WeightBySetups:
-		return &OptionError{Field: "weighting", Value: float64(o.Weighting), Msg: "must be by length or by setups"}
+		return &OptionError{Field: "weighting", Value: float64(o.Weighting), Must: "be by length or by setups"}
 	case !(o.SigmaM > 0) || math.IsInf(o.SigmaM, 0):
-		return &OptionError{Field: "sigma_m", Value: o.SigmaM, Msg: "the a-priori standard deviation must be a positive finite number"}
+		return &OptionError{Field: "sigma_m", Value: o.SigmaM, Must: "be positive"}
 	case !(o.Alpha > 0 && o.Alpha < 1):
-		return &OptionError{Field: "alpha", Value: o.Alpha, Msg: "the significance level must lie between 0 and 1"}
+		return &OptionError{Field: "alpha", Value: o.Alpha, Must: "lie between 0 and 1"}
 	case !(o.SnoopCritical > 0) || math.IsInf(o.SnoopCritical, 0):
-		return &OptionError{Field: "snoop_critical", Value: o.SnoopCritical, Msg: "the critical value of data snooping must be a positive finite number"}
+		return &OptionError{Field: "snoop_critical", Value: o.SnoopCritical, Must: "be positive"}
 	}
 	return nil
 }

@@ -6,7 +6,6 @@ import (
 	"io"
 	"math"
 	"os"
-	"sort"
 	"strconv"
 	"sync"
 	"time"
@@ -15,7 +14,6 @@ import (
 
 	"cairn/internal/adjust"
 	"cairn/internal/netfile"
-	"cairn/internal/register"
 )
 
 type adjustOptions struct {
@@ -40,7 +38,7 @@ type adjustOptions struct {
 func newCmdAdjust(f *Factory, runF func(*adjustOptions) error) *cobra.Command {
 	opts := &adjustOptions{IO: f.IO, Register: adjustRegisterOptions{f: f}}
 	cmd := &cobra.Command{
-		Use:   "adjust RUN... [--marks MARK,... | --area LAT,LON --within D] --hold MARK[:SD_MM]... | adjust --sections FILE.csv --held FILE.csv",
+		Use:   "adjust RUN... [--marks MARK,... | --area LAT,LON --within D] --hold MARK... [--hold-weighted MARK=SD_MM...] | adjust --sections FILE.csv --held FILE.csv",
 		Short: "Adjust recorded runs against held control, or a network from files",
 		Long: adjustRegisterLong + `
 
@@ -60,8 +58,8 @@ test fails or a section is flagged.
 
 ` + adjustCautions,
 		Example: `  cairn adjust 1 --hold TC-0412
-  cairn adjust 2 --hold TC-0420,TC-0427 --by setups --dry-run
-  cairn adjust 1 2 3 --method least-squares --hold TC-0412,TC-0427:5
+  cairn adjust 2 --hold TC-0420,TC-0427 --distribute setups --dry-run
+  cairn adjust 1 2 3 --method least-squares --hold TC-0412 --hold-weighted TC-0427=5
   cairn adjust --marks TC-0412,TC-0415 --method least-squares --hold TC-0412 --minimal
   cairn adjust --area 41.62,-97.95 --within 5km --method least-squares --hold TC-0412
   cairn adjust --sections net.csv --held held.csv -o json`,
@@ -70,7 +68,7 @@ test fails or a section is flagged.
 			opts.Runs = args
 			if opts.SectionsPath == "" {
 				reg := &opts.Register
-				if len(args) == 0 && opts.HeldPath == "" && len(reg.Hold()) == 0 && len(reg.params.Marks) == 0 && reg.area == "" {
+				if len(args) == 0 && opts.HeldPath == "" && !reg.holds() && len(reg.params.Marks) == 0 && reg.area == "" {
 					return badInput("give --sections FILE.csv and --held FILE.csv, or RUN numbers with --hold (see 'cairn adjust --help')")
 				}
 				if opts.HeldPath != "" {
@@ -80,22 +78,22 @@ test fails or a section is flagged.
 				if err := opts.Register.parse(cmd, args); err != nil {
 					return err
 				}
-				if opts.Register.params.Method == register.MethodLeastSquares {
-					if err := opts.checkNetworkFlags(); err != nil {
-						return err
-					}
+				if opts.Register.params.Method == adjust.MethodLeastSquares {
 					o := &opts.Register.params.LeastSquares
 					o.SigmaM, o.Alpha, o.SnoopCritical, o.Minimal = opts.SigmaMMPerSqrtKm/1000, opts.Alpha, opts.SnoopCritical, opts.Minimal
+					if err := checkNetworkOptions(*o); err != nil {
+						return err
+					}
 				}
 				if runF != nil {
 					return runF(opts)
 				}
 				return adjustRegisterRun(cmd.Context(), &opts.Register)
 			}
-			if len(opts.Register.Hold()) > 0 {
+			if opts.Register.holds() {
 				return badInput("--hold goes with RUN numbers; with --sections, give the held marks in --held")
 			}
-			for _, name := range []string{"marks", "area", "within", "weight", "method", "by", "datum", "dry-run"} {
+			for _, name := range []string{"marks", "area", "within", "weight", "method", "by", "made-by", "distribute", "datum", "dry-run"} {
 				if cmd.Flags().Changed(name) {
 					return badInput("%s: --%s goes with RUN numbers, not with --sections", name, name)
 				}
@@ -106,7 +104,7 @@ test fails or a section is flagged.
 			if opts.HeldPath == "" {
 				return badInput("--sections needs --held FILE.csv")
 			}
-			if err := opts.checkNetworkFlags(); err != nil {
+			if err := checkNetworkOptions(opts.networkOptions()); err != nil {
 				return err
 			}
 			if runF != nil {
@@ -119,8 +117,8 @@ test fails or a section is flagged.
 	fl.StringVar(&opts.SectionsPath, "sections", "", "sections file (from,to,dh_m,length_km); adjusts offline, without the register")
 	fl.StringVar(&opts.HeldPath, "held", "", "held marks file (point,height_m[,sd_m])")
 	fl.StringVar(&opts.OutPath, "out", "", "write the heights to this file as csv instead of to stdout")
-	fl.Float64Var(&opts.SigmaMMPerSqrtKm, "sigma-mm-per-sqrt-km", 1, "a-priori standard deviation of leveling, mm per square root of km")
-	fl.Float64Var(&opts.Alpha, "alpha", 0.05, "significance level of the chi-square test of the variance factor")
+	fl.Float64Var(&opts.SigmaMMPerSqrtKm, "sigma-mm-per-sqrt-km", adjust.DefaultSigmaM*1000, "a-priori standard deviation of leveling, mm per square root of km")
+	fl.Float64Var(&opts.Alpha, "alpha", adjust.DefaultAlpha, "significance level of the chi-square test of the variance factor")
 	fl.Float64Var(&opts.SnoopCritical, "snoop-critical", adjust.DefaultSnoopCritical, "critical value of data snooping (3.29: alpha = 0.001)")
 	fl.BoolVar(&opts.Minimal, "minimal", false, "least squares: hold only the first held mark (minimally constrained) and report how far the others are")
 	fl.BoolVar(&opts.Timings, "timings", false, "print the time of each phase on stderr")
@@ -129,16 +127,25 @@ test fails or a section is flagged.
 	return cmd
 }
 
-// checkNetworkFlags checks the settings of a least-squares adjustment.
-func (opts *adjustOptions) checkNetworkFlags() error {
-	if !(opts.SigmaMMPerSqrtKm > 0) || math.IsInf(opts.SigmaMMPerSqrtKm, 0) {
-		return badInput("--sigma-mm-per-sqrt-km must be positive, not %v", opts.SigmaMMPerSqrtKm)
-	}
-	if !(opts.Alpha > 0 && opts.Alpha < 1) {
-		return badInput("--alpha must lie between 0 and 1, not %v", opts.Alpha)
-	}
-	if !(opts.SnoopCritical > 0) || math.IsInf(opts.SnoopCritical, 0) {
-		return badInput("--snoop-critical must be positive, not %v", opts.SnoopCritical)
+// networkOptions are the least-squares settings of the offline form.
+func (opts *adjustOptions) networkOptions() adjust.NetworkOptions {
+	return adjust.NetworkOptions{SigmaM: opts.SigmaMMPerSqrtKm / 1000, Alpha: opts.Alpha,
+		SnoopCritical: opts.SnoopCritical, Minimal: opts.Minimal}
+}
+
+// networkFlags are the flags of adjust.NetworkOptions' settings.
+var networkFlags = map[string]string{"weighting": "weight", "sigma_m": "sigma-mm-per-sqrt-km", "alpha": "alpha", "snoop_critical": "snoop-critical"}
+
+// checkNetworkOptions checks least-squares settings (adjust.NetworkOptions.
+// Validate, where they are checked), naming the flag at fault.
+func checkNetworkOptions(o adjust.NetworkOptions) error {
+	var oe *adjust.OptionError
+	if err := o.Validate(); errors.As(err, &oe) {
+		v := oe.Value
+		if oe.Field == "sigma_m" {
+			v *= 1000 // given in millimetres
+		}
+		return badInput("--%s must %s, not %v", networkFlags[oe.Field], oe.Must, v)
 	}
 	return nil
 }
@@ -235,13 +242,9 @@ func adjustFilesRun(opts *adjustOptions) error {
 	}
 	lap("read", t0)
 
-	sol, err := adjust.SolveNetwork(net, adjust.NetworkOptions{
-		SigmaM:        opts.SigmaMMPerSqrtKm / 1000,
-		Alpha:         opts.Alpha,
-		SnoopCritical: opts.SnoopCritical,
-		Minimal:       opts.Minimal,
-		Progress:      prog.set,
-	})
+	o := opts.networkOptions()
+	o.Progress = prog.set
+	sol, err := adjust.SolveNetwork(net, o)
 	if err != nil {
 		return inputError(err, opts, lines, held)
 	}
@@ -278,12 +281,7 @@ func adjustFilesRun(opts *adjustOptions) error {
 			fmt.Fprintf(ios.ErrOut, "%-18s %8.3f s\n", t[0], t[1].(time.Duration).Seconds())
 		}
 	}
-	st := sol.Stats
-	if st.Flagged > 0 || st.Redundancy > 0 && !st.ChiSquare.Pass {
-		n := st.Flagged
-		if st.Redundancy > 0 && !st.ChiSquare.Pass {
-			n++
-		}
+	if n := adjust.NetworkStatOf(sol).Failed(); n > 0 {
 		return checksFailed{n}
 	}
 	return nil
@@ -327,7 +325,7 @@ type adjustJSON struct {
 // adjustStatsJSON is the offline adjustment's statistics: those the
 // register stores for a least-squares draft, and the a-priori σ used.
 type adjustStatsJSON struct {
-	*register.NetworkStat
+	*adjust.NetworkStat
 	SigmaMM float64 `json:"sigma_mm_per_sqrt_km"`
 }
 
@@ -348,14 +346,9 @@ type flaggedJSON struct {
 
 // flagged returns the flagged sections, largest |W| first.
 func flagged(sol *adjust.NetworkSolution) []int {
-	var idx []int
-	for i, r := range sol.Sections {
-		if r.Flagged {
-			idx = append(idx, i)
-		}
-	}
-	sort.SliceStable(idx, func(a, b int) bool { return math.Abs(sol.Sections[idx[a]].W) > math.Abs(sol.Sections[idx[b]].W) })
-	return idx
+	return adjust.LargestWFirst(len(sol.Sections),
+		func(i int) bool { return sol.Sections[i].Flagged },
+		func(i int) float64 { return sol.Sections[i].W })
 }
 
 func writeAdjustment(ios *IOStreams, opts *adjustOptions, sol *adjust.NetworkSolution, net *adjust.Network, lines []int32) error {
@@ -364,7 +357,7 @@ func writeAdjustment(ios *IOStreams, opts *adjustOptions, sol *adjust.NetworkSol
 		return netfile.WriteHeights(ios.Out, sol.Points)
 	case FormatJSON:
 		v := adjustJSON{
-			Statistics: adjustStatsJSON{register.NewNetworkStat(sol), opts.SigmaMMPerSqrtKm},
+			Statistics: adjustStatsJSON{adjust.NetworkStatOf(sol), opts.SigmaMMPerSqrtKm},
 			Points:     make([]pointJSON, len(sol.Points)),
 			Flagged:    []flaggedJSON{},
 		}

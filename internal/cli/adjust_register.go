@@ -5,7 +5,6 @@ import (
 	"encoding/hex"
 	"fmt"
 	"math"
-	"sort"
 	"strconv"
 	"strings"
 	"time"
@@ -17,16 +16,25 @@ import (
 	"cairn/internal/store"
 )
 
-// adjustRegisterOptions are the options of `cairn adjust RUN... --hold`.
+// adjustRegisterOptions are the options of `cairn adjust RUN... --hold`:
+// the flags as given, and the parameters parsed from them.
 type adjustRegisterOptions struct {
 	f        *Factory
 	format   Format
 	params   register.AdjustParams
-	by       string
-	decimals int
-	weight   string
-	area     string
-	within   string
+	hold     []string // --hold MARK (or, deprecated, MARK:SD_MM)
+	weighted []string // --hold-weighted MARK=SD_MM
+	method   string
+	by       string // who; once the distribution (deprecated)
+	madeBy   string // deprecated spelling of --by
+	distrib  string
+	// distribFlag is the flag that gave the distribution: "distribute",
+	// "by" (deprecated), or "" for none.
+	distribFlag string
+	decimals    int
+	weight      string
+	area        string
+	within      string
 }
 
 // adjustCautions go with every adjustment report and publication.
@@ -45,8 +53,8 @@ the one datum on which all of them have a height); the draft keeps the exact
 versions held, so publishing later fails if any of them has changed.
 
 --method proportional (the default) spreads each run's misclosure over its
-marks in proportion to the distance levelled (--by distance) or to the
-number of setups (--by setups). A loop closes on its starting mark; a line
+marks in proportion to the distance levelled (--distribute distance) or to
+the number of setups (--distribute setups). A loop closes on its starting mark; a line
 runs between two or more held marks, and each stretch between consecutive
 held marks is adjusted on its own.
 
@@ -61,9 +69,9 @@ one network by weighted least squares: a mark reached by several runs is
 one unknown, so the order of the runs does not matter. Sections weigh
 1/length (--weight length) or 1/setups (--weight setups); the a-priori
 standard deviation --sigma-mm-per-sqrt-km is then per square root of a
-kilometre, or of a setup. --hold MARK holds a mark fixed; --hold MARK:SD_MM
-holds it weighted, its current height taken as an observation with that
-standard deviation in millimetres. --minimal holds only the first held mark
+kilometre, or of a setup. --hold MARK holds a mark fixed; --hold-weighted
+MARK=SD_MM holds it weighted, its current height taken as an observation
+with that standard deviation in millimetres. --minimal holds only the first held mark
 and adjusts the others as check marks, never published, to judge the runs
 apart from the control. --marks and --area (with --within) add every run
 with a section from or to the marks named or the marks in the area.
@@ -76,30 +84,38 @@ flagged section gives exit status 3; the draft is still kept. Marks with no
 path to a held mark are an error naming them.
 
 A held mark whose latest condition report says disturbed, destroyed or not
-found is refused, unless --allow-condition is given with --reason.`
+found is refused, unless --allow-condition is given with --reason.
 
-// Hold returns the designations given with --hold.
-func (o *adjustRegisterOptions) Hold() []string { return o.params.Hold }
+--by names who makes the adjustment, as on every command that writes.
+Deprecated spellings, kept for this release: --hold MARK:SD_MM (now
+--hold-weighted MARK=SD_MM), --by distance|setups (now --distribute) and
+--made-by (now --by).`
+
+// holds reports whether any mark is held with --hold or --hold-weighted.
+func (o *adjustRegisterOptions) holds() bool { return len(o.hold)+len(o.weighted) > 0 }
 
 // flags adds the register form's flags (-o is the command's own).
 func (o *adjustRegisterOptions) flags(cmd *cobra.Command) {
 	fl := cmd.Flags()
-	fl.StringSliceVar(&o.params.Hold, "hold", nil, "marks to hold at their current heights: MARK fixed, MARK:SD_MM weighted (least squares); repeat, or separate with commas")
+	fl.StringSliceVar(&o.hold, "hold", nil, "marks to hold fixed at their current heights; repeat, or separate with commas (MARK:SD_MM is deprecated: use --hold-weighted)")
+	fl.StringSliceVar(&o.weighted, "hold-weighted", nil, "least squares: MARK=SD_MM holds a mark weighted, its current height an observation with that standard deviation in millimetres")
 	fl.StringSliceVar(&o.params.Marks, "marks", nil, "also adjust every run with a section from or to these marks")
 	fl.StringVar(&o.area, "area", "", "LAT,LON: also adjust every run with a section from or to a mark within --within of this point")
 	fl.StringVar(&o.within, "within", "", "radius of --area, in km or m (e.g. 5km)")
 	fl.StringVar(&o.weight, "weight", "length", "least squares: weigh sections by length or by setups")
-	fl.StringVar(&o.params.Datum, "datum", "", "datum code (default: the one datum on which every held mark has a height)")
-	fl.StringVar(&o.params.Method, "method", register.MethodProportional, "method of adjustment: proportional or least-squares")
-	fl.StringVar(&o.by, "by", "distance", "proportional: spread the misclosure by distance or by setups")
+	fl.StringVar(&o.params.Datum, "datum", "", "datum code (default: the one the runs' books name, else the one on which every held mark has a height)")
+	fl.StringVar(&o.method, "method", string(adjust.MethodProportional), "method of adjustment: proportional or least-squares")
+	fl.StringVar(&o.distrib, "distribute", "distance", "proportional: spread the misclosure by distance or by setups")
 	fl.StringVar(&o.params.Unit, "unit", "", "unit of the heights to publish: m, ft or usft (default: the held heights' unit)")
 	fl.IntVar(&o.decimals, "decimals", 0, "decimals of the heights to publish (default: the precision of the runs' class)")
 	fl.BoolVar(&o.params.DryRun, "dry-run", false, "compute and report, store nothing")
 	fl.BoolVar(&o.params.AllowCondition, "allow-condition", false, "hold marks whose latest condition report is disturbed, destroyed or not found (needs --reason)")
 	fl.StringVar(&o.params.ConditionReason, "reason", "", "with --allow-condition: why those marks may be held")
-	fl.StringVar(&o.params.By, "made-by", osUser(), "who makes the adjustment")
+	fl.StringVar(&o.by, "by", osUser(), "who makes the adjustment (--by distance|setups is deprecated: use --distribute)")
+	fl.StringVar(&o.madeBy, "made-by", "", "deprecated: use --by")
 }
 
+// parse fills o.params from the flags and args.
 func (o *adjustRegisterOptions) parse(cmd *cobra.Command, args []string) error {
 	if len(args) == 0 && len(o.params.Marks) == 0 && o.area == "" {
 		return badInput("run: name the runs to adjust (see cairn run list), or choose them with --marks or --area")
@@ -111,16 +127,27 @@ func (o *adjustRegisterOptions) parse(cmd *cobra.Command, args []string) error {
 		}
 		o.params.RunIDs = append(o.params.RunIDs, id)
 	}
-	d, err := adjust.ParseDistribution(o.by)
+	m, err := adjust.ParseMethod(o.method)
 	if err != nil {
-		return badInput("by: %v", err)
+		return badInput("method: %v", err)
+	}
+	o.params.Method = m
+	lsq := m == adjust.MethodLeastSquares
+	if err := o.parseBy(cmd); err != nil {
+		return err
+	}
+	d, err := adjust.ParseDistribution(o.distrib)
+	if err != nil {
+		return badInput("distribute: %v", err)
 	}
 	o.params.Distribution = d
-	lsq := o.params.Method == register.MethodLeastSquares
-	if lsq && cmd.Flags().Changed("by") {
-		return badInput("by: --by spreads a proportional misclosure; least squares weighs sections with --weight")
+	if cmd.Flags().Changed("distribute") {
+		o.distribFlag = "distribute"
 	}
-	for _, name := range []string{"weight", "sigma-mm-per-sqrt-km", "alpha", "snoop-critical", "minimal"} {
+	if lsq && o.distribFlag != "" {
+		return badInput("%s: --%s spreads a proportional misclosure; least squares weighs sections with --weight", o.distribFlag, o.distribFlag)
+	}
+	for _, name := range []string{"weight", "sigma-mm-per-sqrt-km", "alpha", "snoop-critical", "minimal", "hold-weighted"} {
 		if !lsq && cmd.Flags().Changed(name) {
 			return badInput("%s: --%s goes with --method least-squares", name, name)
 		}
@@ -151,6 +178,9 @@ func (o *adjustRegisterOptions) parse(cmd *cobra.Command, args []string) error {
 	if cmd.Flags().Changed("decimals") {
 		o.params.Decimals = &o.decimals
 	}
+	if o.params.Hold, err = parseHeldMarks(o.f.IO, o.hold, o.weighted); err != nil {
+		return err
+	}
 	if len(o.params.Hold) == 0 {
 		return badInput("hold: hold at least one mark with --hold (a loop closes on its starting mark; a line needs a mark at each end)")
 	}
@@ -158,6 +188,77 @@ func (o *adjustRegisterOptions) parse(cmd *cobra.Command, args []string) error {
 		return badInput("reason: --reason goes with --allow-condition")
 	}
 	return nil
+}
+
+// parseBy reads who makes the adjustment from --by (or the deprecated
+// --made-by), and the deprecated --by distance|setups as the distribution.
+func (o *adjustRegisterOptions) parseBy(cmd *cobra.Command) error {
+	fl := cmd.Flags()
+	o.params.By = o.by
+	if fl.Changed("by") {
+		if d, err := adjust.ParseDistribution(o.by); err == nil && strings.TrimSpace(o.by) != "" {
+			if fl.Changed("distribute") {
+				return badInput("by: --by names who makes the adjustment; give the distribution with --distribute only")
+			}
+			deprecated(o.f.IO, "--by "+o.by, "--distribute "+d.String()+" (and --by for who makes the adjustment)")
+			o.distrib, o.distribFlag, o.params.By = d.String(), "by", osUser()
+		}
+	}
+	if fl.Changed("made-by") {
+		if fl.Changed("by") && o.params.By == o.by {
+			return badInput("made-by: --made-by is the old spelling of --by; give one of them")
+		}
+		deprecated(o.f.IO, "--made-by", "--by")
+		o.params.By = o.madeBy
+	}
+	return nil
+}
+
+// parseHeldMarks reads --hold MARK (and the deprecated MARK:SD_MM) and
+// --hold-weighted MARK=SD_MM into held marks, in the order given: those of
+// --hold first.
+func parseHeldMarks(ios *IOStreams, fixed, weighted []string) ([]register.Hold, error) {
+	var holds []register.Hold
+	for _, h := range fixed {
+		d, mm, colon := strings.Cut(strings.TrimSpace(h), ":")
+		if !colon {
+			holds = append(holds, register.Hold{Designation: d})
+			continue
+		}
+		sd, err := parseSDMM(mm)
+		if err != nil {
+			return nil, badInput("hold: %q: after the colon give the held height's standard deviation in millimetres, more than zero (e.g. %s:5)", h, d)
+		}
+		deprecated(ios, "--hold "+h, "--hold-weighted "+d+"="+strings.TrimSpace(mm))
+		holds = append(holds, register.Hold{Designation: d, SigmaM: sd})
+	}
+	for _, h := range weighted {
+		d, mm, ok := strings.Cut(strings.TrimSpace(h), "=")
+		sd, err := parseSDMM(mm)
+		if !ok || err != nil || strings.TrimSpace(d) == "" {
+			return nil, badInput("hold-weighted: %q: give MARK=SD_MM, the held height's standard deviation in millimetres, more than zero (e.g. TC-0412=5)", h)
+		}
+		holds = append(holds, register.Hold{Designation: strings.TrimSpace(d), SigmaM: sd})
+	}
+	return holds, nil
+}
+
+// parseSDMM reads a positive standard deviation in millimetres ("5" or
+// "5mm") and returns it in metres.
+func parseSDMM(s string) (float64, error) {
+	v, err := strconv.ParseFloat(strings.TrimSuffix(strings.TrimSpace(s), "mm"), 64)
+	if err != nil {
+		return 0, err
+	}
+	if !(v > 0) || math.IsInf(v, 0) {
+		return 0, fmt.Errorf("%v is not more than zero", v)
+	}
+	return v / 1000, nil
+}
+
+// deprecated says on stderr that an old spelling was used, and its new one.
+func deprecated(ios *IOStreams, old, now string) {
+	fmt.Fprintf(ios.ErrOut, "cairn: %s is deprecated and will be removed in the next release: use %s\n", old, now)
 }
 
 func adjustRegisterRun(ctx context.Context, opts *adjustRegisterOptions) error {
@@ -197,11 +298,11 @@ type adjustmentJSON struct {
 	CreatedBy    string              `json:"created_by,omitempty"`
 	CreatedAt    *time.Time          `json:"created_at,omitempty"`
 	// ConditionReason says why marks in doubt were held.
-	ConditionReason string              `json:"condition_reason,omitempty"`
-	Runs            []runRefJSON        `json:"runs"`
-	Held            []heldJSON          `json:"held"`
-	Results         []resultJSON        `json:"results"`
-	Statistics      register.Statistics `json:"statistics"`
+	ConditionReason string            `json:"condition_reason,omitempty"`
+	Runs            []runRefJSON      `json:"runs"`
+	Held            []heldJSON        `json:"held"`
+	Results         []resultJSON      `json:"results"`
+	Statistics      adjust.Statistics `json:"statistics"`
 	// Sections are a least-squares adjustment's sections, flagged or not.
 	Sections []adjSectionJSON `json:"sections,omitempty"`
 	// MarksInDoubt are adjusted marks whose latest condition report is
@@ -405,13 +506,13 @@ func metres(v *float64) string {
 	return strconv.FormatFloat(*v, 'f', 4, 64)
 }
 
-// heldKind says how a least-squares adjustment held a mark: fixed
-// ("held"), weighted, or only checked against (minimal).
+// heldKind says how an adjustment held a mark: fixed ("held"), weighted
+// (its standard deviation), or only checked against (minimal).
 func heldKind(pm register.Parameters, mark string) string {
-	switch {
-	case pm.Minimal && len(pm.Hold) > 0 && pm.Hold[0] != mark:
+	switch pm.HeldAs(mark) {
+	case adjust.HeldCheck:
 		return "check"
-	case pm.HoldSDMM[mark] > 0 && !pm.Minimal:
+	case adjust.HeldWeighted:
 		return fmt.Sprintf("%g mm", pm.HoldSDMM[mark])
 	}
 	return "held"
@@ -419,7 +520,7 @@ func heldKind(pm register.Parameters, mark string) string {
 
 // renderNetworkStats prints a least-squares adjustment's statistics and its
 // flagged sections, largest |w| first, with their runs and book lines.
-func renderNetworkStats(say func(string, ...any), v *register.AdjustmentView, st *register.NetworkStat) {
+func renderNetworkStats(say func(string, ...any), v *register.AdjustmentView, st *adjust.NetworkStat) {
 	say("Least squares: %d marks, %d sections, %d observations, %d unknowns, redundancy %d\n",
 		st.Points, st.Sections, st.Observations, st.Unknowns, st.Redundancy)
 	if st.Redundancy > 0 && st.VarianceFactor != nil && st.ChiSquareLower != nil && st.ChiSquareUpper != nil {
@@ -443,15 +544,7 @@ func renderNetworkStats(say func(string, ...any), v *register.AdjustmentView, st
 		}
 		say("  held %s weighted: adjusted minus held %+.4f m (sd %.4f), %s%s\n", h.Mark, h.ResidualM, h.SDM, w, flag)
 	}
-	var idx []int
-	for i, s := range v.Sections {
-		if s.Flagged {
-			idx = append(idx, i)
-		}
-	}
-	sort.SliceStable(idx, func(a, b int) bool {
-		return math.Abs(*v.Sections[idx[a]].W) > math.Abs(*v.Sections[idx[b]].W)
-	})
+	idx := v.FlaggedSections()
 	say("  data snooping, critical value %.2f: %d section(s) flagged\n", st.SnoopCritical, len(idx))
 	names := map[int64]string{}
 	for _, r := range v.Runs {

@@ -213,7 +213,7 @@ func TestAdjustPublishFlags(t *testing.T) {
 	}{
 		{[]string{"adjust", "1"}, "hold:"},
 		{[]string{"adjust", "one", "--hold", "TC-0412"}, "run:"},
-		{[]string{"adjust", "1", "--hold", "TC-0412", "--by", "sideways"}, "by:"},
+		{[]string{"adjust", "1", "--hold", "TC-0412", "--distribute", "sideways"}, "distribute:"},
 		{[]string{"adjust", "1", "--hold", "TC-0412", "--reason", "x"}, "reason:"},
 		{[]string{"publish", "0", "--reason", "x"}, "adjustment:"},
 		{[]string{"publish", "3"}, "reason:"},

@@ -36,7 +36,7 @@ func adjustRuns(ctx context.Context, r *register.Register) error {
 			if run.Name != a.run {
 				continue
 			}
-			v, err := r.Adjust(ctx, register.AdjustParams{RunIDs: []int64{run.ID}, Hold: a.hold, By: Clerk})
+			v, err := r.Adjust(ctx, register.AdjustParams{RunIDs: []int64{run.ID}, Hold: register.HoldFixed(a.hold...), By: Clerk})
 			if err != nil {
 				return fmt.Errorf("%s: %w", a.run, err)
 			}

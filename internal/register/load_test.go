@@ -156,7 +156,7 @@ func TestLoadSixteenWorkers(t *testing.T) {
 					tl.tried[circuit]++
 					rs := runs[circuit]
 					var v *AdjustmentView
-					v, err = reg.Adjust(ctx, AdjustParams{RunIDs: []int64{rs[rng.IntN(len(rs))]}, Hold: []string{circuit + "1"}, By: "load"})
+					v, err = reg.Adjust(ctx, AdjustParams{RunIDs: []int64{rs[rng.IntN(len(rs))]}, Hold: HoldFixed(circuit + "1"), By: "load"})
 					if err == nil {
 						var pub *Published
 						pub, err = reg.Publish(ctx, PublishParams{AdjustmentID: v.Adjustment.ID, Reason: "load", By: "load"})

@@ -100,7 +100,7 @@ func setupNet(t *testing.T, net [][]netSection) *netBundle {
 }
 
 func lsqParams(runs []int64, hold ...string) AdjustParams {
-	return AdjustParams{RunIDs: runs, Hold: hold, Method: MethodLeastSquares, By: "test"}
+	return AdjustParams{RunIDs: runs, Hold: HoldFixed(hold...), Method: MethodLeastSquares, By: "test"}
 }
 
 // denseLSQ adjusts a network with TC-0412 and TC-0415 held fixed by the
@@ -257,7 +257,7 @@ func TestLeastSquaresPublishTraceStale(t *testing.T) {
 		t.Fatal(err)
 	}
 	a := tr.Versions[0].Adjustment
-	if a == nil || a.Method != MethodLeastSquares || len(a.Runs) != 3 || len(a.Held) != 2 {
+	if a == nil || a.Method != string(MethodLeastSquares) || len(a.Runs) != 3 || len(a.Held) != 2 {
 		t.Fatalf("trace: %+v", tr.Versions[0])
 	}
 	if s, err := b.reg.Stale(b.ctx); err != nil || len(s) != 0 {
@@ -335,7 +335,9 @@ func TestLeastSquaresChoosesRuns(t *testing.T) {
 func TestLeastSquaresWeightedAndMinimal(t *testing.T) {
 	t.Parallel()
 	b := setupNet(t, tallisNet)
-	v, err := b.reg.Adjust(b.ctx, lsqParams(b.runs[:3], "TC-0412", "TC-0415:5"))
+	p := lsqParams(b.runs[:3], "TC-0412", "TC-0415")
+	p.Hold[1].SigmaM = 0.005 // 5 mm
+	v, err := b.reg.Adjust(b.ctx, p)
 	if err != nil {
 		t.Fatal(err)
 	}
@@ -350,7 +352,7 @@ func TestLeastSquaresWeightedAndMinimal(t *testing.T) {
 		v.Parameters.HoldSDMM["TC-0415"] != 5 || v.Statistics.Network.Observations != 8 {
 		t.Fatalf("weighted TC-0415 %+v, held %+v, parameters %+v", w, h, v.Parameters)
 	}
-	p := lsqParams(b.runs[:3], "TC-0412", "TC-0415")
+	p = lsqParams(b.runs[:3], "TC-0412", "TC-0415")
 	p.LeastSquares.Minimal = true
 	v, err = b.reg.Adjust(b.ctx, p)
 	if err != nil {
@@ -379,11 +381,10 @@ func TestLeastSquaresBadInput(t *testing.T) {
 		want  string
 	}{
 		{"no path to control", func(p *AdjustParams) { p.RunIDs = []int64{b.runs[0], b.runs[3]} }, "hold", "TC-0430, TC-0431"},
-		{"bad weighted hold", func(p *AdjustParams) { p.Hold = []string{"TC-0412:abc"} }, "hold", "millimetres"},
-		{"zero weighted hold", func(p *AdjustParams) { p.Hold = []string{"TC-0412:0"} }, "hold", "more than zero"},
-		{"weighted proportional", func(p *AdjustParams) { p.Method = MethodProportional; p.Hold = []string{"TC-0412:5"} }, "hold", "least-squares"},
+		{"negative weighted hold", func(p *AdjustParams) { p.Hold = []Hold{{Designation: "TC-0412", SigmaM: -0.005}} }, "hold", "standard deviation"},
+		{"weighted proportional", func(p *AdjustParams) { p.Method = MethodProportional; p.Hold = []Hold{{Designation: "TC-0412", SigmaM: 0.005}} }, "hold", "least-squares"},
 		{"minimal proportional", func(p *AdjustParams) { p.Method = ""; p.LeastSquares.Minimal = true }, "minimal", ""},
-		{"by with least squares", func(p *AdjustParams) { p.Distribution = adjust.BySetups }, "by", "--weight"},
+		{"distribution with least squares", func(p *AdjustParams) { p.Distribution = adjust.BySetups }, "distribute", "weighs its sections"},
 		{"unknown mark", func(p *AdjustParams) { p.Marks = []string{"TC-9999"} }, "marks", "TC-9999"},
 		{"mark on no run", func(p *AdjustParams) {
 			p.RunIDs = nil
@@ -393,7 +394,7 @@ func TestLeastSquaresBadInput(t *testing.T) {
 		}, "marks", "TC-0499"},
 		{"empty area", func(p *AdjustParams) { p.Near, p.RadiusM = near, 1000 }, "area", "no mark"},
 		{"area without radius", func(p *AdjustParams) { p.Near = near }, "within", ""},
-		{"held off the runs", func(p *AdjustParams) { p.Hold = []string{"TC-0412", "TC-0415", "TC-0413"} }, "hold", "no current height"},
+		{"held off the runs", func(p *AdjustParams) { p.Hold = HoldFixed("TC-0412", "TC-0415", "TC-0413") }, "hold", "no current height"},
 		{"bad alpha", func(p *AdjustParams) { p.LeastSquares.Alpha = 2 }, "alpha", ""},
 		{"bad sigma", func(p *AdjustParams) { p.LeastSquares.SigmaM = -1 }, "sigma", ""},
 	} {

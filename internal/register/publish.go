@@ -34,10 +34,10 @@ type Published struct {
 func (r *Register) Publish(ctx context.Context, p PublishParams) (*Published, error) {
 	p.Reason, p.By = strings.TrimSpace(p.Reason), strings.TrimSpace(p.By)
 	if p.Reason == "" {
-		return nil, inputErr("reason", "say why these heights are published (--reason)")
+		return nil, inputErr("reason", "say why these heights are published")
 	}
 	if p.By == "" {
-		return nil, inputErr("by", "say who publishes (--by)")
+		return nil, inputErr("by", "say who publishes")
 	}
 	out := &Published{}
 	err := r.withTx(ctx, pgx.TxOptions{}, func(tx pgx.Tx) error {
@@ -145,10 +145,10 @@ type DiscardParams struct {
 func (r *Register) Discard(ctx context.Context, p DiscardParams) (store.Adjustment, error) {
 	p.Reason, p.By = strings.TrimSpace(p.Reason), strings.TrimSpace(p.By)
 	if p.Reason == "" {
-		return store.Adjustment{}, inputErr("reason", "say why the adjustment is discarded (--reason)")
+		return store.Adjustment{}, inputErr("reason", "say why the adjustment is discarded")
 	}
 	if p.By == "" {
-		return store.Adjustment{}, inputErr("by", "say who discards it (--by)")
+		return store.Adjustment{}, inputErr("by", "say who discards it")
 	}
 	var out store.Adjustment
 	err := r.withTx(ctx, pgx.TxOptions{}, func(tx pgx.Tx) error {

@@ -33,7 +33,7 @@ func largeLoop(b *testing.B) (*Register, int64) {
 func adjustPublish(b *testing.B, r *Register, run int64) {
 	b.Helper()
 	ctx := context.Background()
-	v, err := r.Adjust(ctx, AdjustParams{RunIDs: []int64{run}, Hold: []string{"TC-1001"}, By: "bench"})
+	v, err := r.Adjust(ctx, AdjustParams{RunIDs: []int64{run}, Hold: HoldFixed("TC-1001"), By: "bench"})
 	if err != nil {
 		b.Fatal(err)
 	}
@@ -83,7 +83,7 @@ func BenchmarkTrace(b *testing.B) {
 func BenchmarkAdjust(b *testing.B) {
 	r, run := largeLoop(b)
 	for b.Loop() {
-		if _, err := r.Adjust(context.Background(), AdjustParams{RunIDs: []int64{run}, Hold: []string{"TC-1001"}, By: "bench"}); err != nil {
+		if _, err := r.Adjust(context.Background(), AdjustParams{RunIDs: []int64{run}, Hold: HoldFixed("TC-1001"), By: "bench"}); err != nil {
 			b.Fatal(err)
 		}
 	}

@@ -4,6 +4,7 @@ import (
 	"context"
 	"errors"
 	"fmt"
+	"math"
 	"os"
 	"strings"
 	"sync"
@@ -94,7 +95,7 @@ func (b *bundle) setHeight(t *testing.T, mark, value, source string) store.Heigh
 
 func (b *bundle) adjust(t *testing.T, runs ...int64) *AdjustmentView {
 	t.Helper()
-	v, err := b.reg.Adjust(b.ctx, AdjustParams{RunIDs: runs, Hold: []string{"BM1"}, By: "test"})
+	v, err := b.reg.Adjust(b.ctx, AdjustParams{RunIDs: runs, Hold: HoldFixed("BM1"), By: "test"})
 	if err != nil {
 		t.Fatal(err)
 	}
@@ -133,7 +134,7 @@ func TestAdjustPublishTrace(t *testing.T) {
 	t.Parallel()
 	b, run := setup(t)
 
-	dry, err := b.reg.Adjust(b.ctx, AdjustParams{RunIDs: []int64{run}, Hold: []string{"BM1"}, DryRun: true})
+	dry, err := b.reg.Adjust(b.ctx, AdjustParams{RunIDs: []int64{run}, Hold: HoldFixed("BM1"), DryRun: true})
 	if err != nil {
 		t.Fatal(err)
 	}
@@ -146,7 +147,7 @@ func TestAdjustPublishTrace(t *testing.T) {
 		t.Fatalf("draft: status %s, %d results", v.Adjustment.Status, len(v.Results))
 	}
 	st := v.Statistics.Stretches
-	if len(st) != 1 || abs(st[0].MisclosureM-(-0.244)) > 1e-9 || abs(st[0].LengthM-30500) > 1e-6 {
+	if len(st) != 1 || math.Abs(st[0].MisclosureM-(-0.244)) > 1e-9 || math.Abs(st[0].LengthM-30500) > 1e-6 {
 		t.Fatalf("stretches %+v, want one of 30.5 km closing -0.244 m", st)
 	}
 	// Draft results as stored equal the worked example, and the corrections
@@ -158,11 +159,11 @@ func TestAdjustPublishTrace(t *testing.T) {
 	}
 	for i, r := range stored.Results[1:] {
 		want := workedExample[i+1]
-		if r.Designation != want.point || *r.Value != want.adjusted || abs(*r.ComputedM-want.computedM) > 1e-9 {
+		if r.Designation != want.point || *r.Value != want.adjusted || math.Abs(*r.ComputedM-want.computedM) > 1e-9 {
 			t.Errorf("result %s %s (computed %.4f), want %s %s (computed %.3f)", r.Designation, *r.Value, *r.ComputedM, want.point, want.adjusted, want.computedM)
 		}
 		// Each correction is −E·d/D, E = −0.244 m, D = 30.5 km.
-		if c := 0.244 * want.cumKm / 30.5; abs(*r.CorrectionM-c) > 1e-9 {
+		if c := 0.244 * want.cumKm / 30.5; math.Abs(*r.CorrectionM-c) > 1e-9 {
 			t.Errorf("%s correction %.6f, want %.6f", r.Designation, *r.CorrectionM, c)
 		}
 	}
@@ -336,7 +337,7 @@ func TestStale(t *testing.T) {
 	if err != nil {
 		t.Fatal(err)
 	}
-	spur, err := b.reg.Adjust(b.ctx, AdjustParams{RunIDs: []int64{rec.Run.ID}, Hold: []string{"BM2", "BM1"}, By: "test"})
+	spur, err := b.reg.Adjust(b.ctx, AdjustParams{RunIDs: []int64{rec.Run.ID}, Hold: HoldFixed("BM2", "BM1"), By: "test"})
 	if err != nil {
 		t.Fatal(err)
 	}
@@ -368,7 +369,7 @@ func TestStale(t *testing.T) {
 	if got := stale(); fmt.Sprint(got) != "map[TC-0900:held-superseded BM1, held-superseded BM2]" {
 		t.Fatalf("stale after re-adjusting the circuit: %v", got)
 	}
-	spur2, err := b.reg.Adjust(b.ctx, AdjustParams{RunIDs: []int64{rec.Run.ID}, Hold: []string{"BM2", "BM1"}, By: "test"})
+	spur2, err := b.reg.Adjust(b.ctx, AdjustParams{RunIDs: []int64{rec.Run.ID}, Hold: HoldFixed("BM2", "BM1"), By: "test"})
 	if err != nil {
 		t.Fatal(err)
 	}
@@ -487,14 +488,14 @@ func TestAdjustRefusals(t *testing.T) {
 		field string
 		msg   string
 	}{
-		{"no runs", AdjustParams{Hold: []string{"BM1"}, By: "t"}, "run", "at least one run"},
-		{"unknown run", AdjustParams{RunIDs: []int64{run + 100}, Hold: []string{"BM1"}, By: "t"}, "run", "no run"},
-		{"unknown mark", AdjustParams{RunIDs: []int64{run}, Hold: []string{"BM7"}, By: "t"}, "hold", "did you mean"},
-		{"no height", AdjustParams{RunIDs: []int64{run}, Hold: []string{"BM1", "BM3"}, By: "t", AllowCondition: true, ConditionReason: "checked"}, "hold", "BM3 has no current height"},
-		{"disturbed", AdjustParams{RunIDs: []int64{run}, Hold: []string{"BM1"}, By: "t"}, "hold", "BM1 (disturbed"},
-		{"no reason", AdjustParams{RunIDs: []int64{run}, Hold: []string{"BM1"}, By: "t", AllowCondition: true}, "reason", "say why"},
-		{"method", AdjustParams{RunIDs: []int64{run}, Hold: []string{"BM1"}, By: "t", Method: "guess"}, "method", "unknown method"},
-		{"decimals", AdjustParams{RunIDs: []int64{run}, Hold: []string{"BM1"}, By: "t", Decimals: ptr(9)}, "decimals", "outside"},
+		{"no runs", AdjustParams{Hold: HoldFixed("BM1"), By: "t"}, "run", "at least one run"},
+		{"unknown run", AdjustParams{RunIDs: []int64{run + 100}, Hold: HoldFixed("BM1"), By: "t"}, "run", "no run"},
+		{"unknown mark", AdjustParams{RunIDs: []int64{run}, Hold: HoldFixed("BM7"), By: "t"}, "hold", "did you mean"},
+		{"no height", AdjustParams{RunIDs: []int64{run}, Hold: HoldFixed("BM1", "BM3"), By: "t", AllowCondition: true, ConditionReason: "checked"}, "hold", "BM3 has no current height"},
+		{"disturbed", AdjustParams{RunIDs: []int64{run}, Hold: HoldFixed("BM1"), By: "t"}, "hold", "BM1 (disturbed"},
+		{"no reason", AdjustParams{RunIDs: []int64{run}, Hold: HoldFixed("BM1"), By: "t", AllowCondition: true}, "reason", "say why"},
+		{"method", AdjustParams{RunIDs: []int64{run}, Hold: HoldFixed("BM1"), By: "t", Method: "guess"}, "method", "unknown method"},
+		{"decimals", AdjustParams{RunIDs: []int64{run}, Hold: HoldFixed("BM1"), By: "t", Decimals: ptr(9)}, "decimals", "outside"},
 	}
 	for _, tt := range tests {
 		_, err := b.reg.Adjust(b.ctx, tt.p)
@@ -507,7 +508,7 @@ func TestAdjustRefusals(t *testing.T) {
 		t.Fatalf("refusals wrote: %s", got)
 	}
 	// Allowed with a reason, the reason is kept.
-	v, err := b.reg.Adjust(b.ctx, AdjustParams{RunIDs: []int64{run}, Hold: []string{"BM1"}, By: "t",
+	v, err := b.reg.Adjust(b.ctx, AdjustParams{RunIDs: []int64{run}, Hold: HoldFixed("BM1"), By: "t",
 		AllowCondition: true, ConditionReason: "re-checked against TC-0001 on 2024-07-02", Distribution: adjust.BySetups})
 	if err != nil {
 		t.Fatal(err)

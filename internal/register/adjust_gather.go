@@ -1,0 +1,285 @@
+package register
+
+import (
+	"context"
+	"errors"
+	"fmt"
+	"sort"
+	"strings"
+	"unicode"
+
+	"github.com/jackc/pgx/v5"
+
+	"cairn/internal/adjust"
+	"cairn/internal/store"
+	"cairn/internal/units"
+)
+
+// gathered is what an adjustment is computed from, read in its
+// transaction: the draft's input and the rows it came from.
+type gathered struct {
+	input adjust.DraftInput
+	runs  []store.Run
+	datum store.Datum
+	// held are the held versions, exactly as current now, in the order of
+	// AdjustParams.Hold; holds the held marks.
+	held  []store.Held
+	holds []store.Mark
+	// inDoubt says a held mark's latest condition puts it in doubt (and
+	// the condition was allowed).
+	inDoubt bool
+	// markIDs are the marks of the runs' sections by designation.
+	markIDs map[string]int64
+}
+
+// gather reads, in tx, everything the adjustment p asks for is computed
+// from, and refuses held marks without a current height or in doubt.
+func (r *Register) gather(ctx context.Context, tx pgx.Tx, p AdjustParams) (*gathered, error) {
+	g := &gathered{markIDs: map[string]int64{}}
+	runIDs, err := r.chooseRuns(ctx, tx, p)
+	if err != nil {
+		return nil, err
+	}
+	for _, id := range runIDs {
+		run, err := r.run(ctx, tx, id)
+		if err != nil {
+			return nil, err
+		}
+		g.runs = append(g.runs, run)
+	}
+	held := map[string]bool{}
+	for _, h := range p.Hold {
+		m, err := r.mark(ctx, tx, "hold", h.Designation, false)
+		if err != nil {
+			return nil, err
+		}
+		if held[m.Designation] {
+			return nil, inputErr("hold", "%s is held twice", m.Designation)
+		}
+		held[m.Designation] = true
+		g.holds = append(g.holds, m)
+	}
+	if g.datum, err = r.adjustDatum(ctx, tx, p.Datum, g.runs, g.holds); err != nil {
+		return nil, err
+	}
+	var doubt []string
+	for k, m := range g.holds {
+		h, err := store.HeightLatest(ctx, tx, store.HeightLatestParams{MarkID: m.ID, DatumID: g.datum.ID})
+		if errors.Is(err, store.ErrNotFound) || err == nil && h.Value == nil {
+			return nil, inputErr("hold", "%s has no current height on %s to hold", m.Designation, g.datum.Code)
+		}
+		if err != nil {
+			return nil, err
+		}
+		hm, err := heightMetres(h)
+		if err != nil {
+			return nil, err
+		}
+		g.input.Held = append(g.input.Held, adjust.DraftHeld{Point: m.Designation, HeightM: hm, Unit: units.Unit(*h.Unit), SigmaM: p.Hold[k].SigmaM})
+		held := store.Held{Height: h}
+		if m.Latest != nil {
+			held.ConditionID = &m.Latest.ID
+			if conditionsInDoubt[m.Latest.Condition] {
+				doubt = append(doubt, fmt.Sprintf("%s (%s, reported %s)", m.Designation, m.Latest.Condition, m.Latest.ObservedOn.Format("2006-01-02")))
+			}
+		}
+		g.held = append(g.held, held)
+	}
+	g.inDoubt = len(doubt) > 0
+	if g.inDoubt && !p.AllowCondition {
+		return nil, inputErr("hold", "the latest condition report of %s puts it in doubt: verify it in the field, or allow the condition and give the reason to hold it anyway",
+			strings.Join(doubt, ", "))
+	}
+
+	ids := make([]int64, len(g.runs))
+	for i, run := range g.runs {
+		ids[i] = run.ID
+	}
+	secs, err := store.SectionList(ctx, tx, store.SectionListParams{RunIDs: ids})
+	if err != nil {
+		return nil, err
+	}
+	byRun := map[int64][]adjust.DraftSection{}
+	for _, s := range secs {
+		byRun[s.RunID] = append(byRun[s.RunID], adjust.DraftSection{Seq: s.Seq, From: s.From, To: s.To, DhM: s.DifferenceM,
+			LengthM: s.LengthM, Setups: s.Setups, FirstLine: s.FirstLine, LastLine: s.LastLine})
+		g.markIDs[s.From], g.markIDs[s.To] = s.FromMarkID, s.ToMarkID
+	}
+	for _, run := range g.runs {
+		g.input.Runs = append(g.input.Runs, adjust.DraftRun{ID: run.ID, Class: run.Class, Sections: byRun[run.ID]})
+	}
+	g.input.Method, g.input.Distribution, g.input.Network = p.Method, p.Distribution, p.LeastSquares
+	g.input.Decimals = p.Decimals
+	if p.Unit != "" {
+		u, _ := units.Parse(p.Unit) // checked by AdjustParams.check
+		g.input.Unit = u
+	}
+	return g, nil
+}
+
+// chooseRuns returns the runs p names, then those it chooses by marks or
+// area, each once.
+func (r *Register) chooseRuns(ctx context.Context, tx pgx.Tx, p AdjustParams) ([]int64, error) {
+	chosen, err := r.runsTouching(ctx, tx, p)
+	if err != nil {
+		return nil, err
+	}
+	seen := map[int64]bool{}
+	ids := append([]int64(nil), p.RunIDs...)
+	for _, id := range ids {
+		seen[id] = true
+	}
+	for _, id := range chosen {
+		if !seen[id] {
+			seen[id] = true
+			ids = append(ids, id)
+		}
+	}
+	return ids, nil
+}
+
+// runsTouching returns the runs with a section from or to one of the marks
+// chosen by p.Marks or p.Near (none if neither is given).
+func (r *Register) runsTouching(ctx context.Context, tx pgx.Tx, p AdjustParams) ([]int64, error) {
+	var ids []int64
+	for _, d := range p.Marks {
+		m, err := r.mark(ctx, tx, "marks", strings.TrimSpace(d), false)
+		if err != nil {
+			return nil, err
+		}
+		ids = append(ids, m.ID)
+	}
+	if len(p.Marks) > 0 {
+		runs, err := store.RunIDsTouchingMarks(ctx, tx, ids)
+		if err != nil {
+			return nil, err
+		}
+		if len(runs) == 0 {
+			return nil, inputErr("marks", "no recorded run has a section from or to %s", strings.Join(p.Marks, ", "))
+		}
+		ids = runs
+	} else {
+		ids = nil
+	}
+	if p.Near == nil {
+		return ids, nil
+	}
+	near, err := store.MarkList(ctx, tx, store.MarkListParams{Near: p.Near, RadiusM: p.RadiusM})
+	if err != nil {
+		return nil, err
+	}
+	where := areaText(p)
+	if len(near) == 0 {
+		return nil, inputErr("area", "no mark with a position lies within %s", where)
+	}
+	mids := make([]int64, len(near))
+	for i, m := range near {
+		mids[i] = m.ID
+	}
+	runs, err := store.RunIDsTouchingMarks(ctx, tx, mids)
+	if err != nil {
+		return nil, err
+	}
+	if len(runs) == 0 {
+		return nil, inputErr("area", "no recorded run has a section from or to the %d mark(s) within %s", len(near), where)
+	}
+	return append(ids, runs...), nil
+}
+
+// areaText describes the area p chooses runs by.
+func areaText(p AdjustParams) string {
+	return fmt.Sprintf("%g,%g within %g m", p.Near.Lat, p.Near.Lon, p.RadiusM)
+}
+
+// adjustDatum resolves the datum of an adjustment: the one named; else the
+// one the runs' books all name (by code or name, ignoring case, spaces and
+// punctuation); else the only one on which every held mark has a current
+// height.
+func (r *Register) adjustDatum(ctx context.Context, tx pgx.Tx, code string, runs []store.Run, holds []store.Mark) (store.Datum, error) {
+	if code != "" {
+		return r.datum(ctx, tx, "datum", code)
+	}
+	named := ""
+	for i, run := range runs {
+		if i > 0 && looseKey(run.Datum) != looseKey(named) {
+			named = ""
+			break
+		}
+		named = run.Datum
+	}
+	if looseKey(named) != "" {
+		all, err := store.DatumList(ctx, tx)
+		if err != nil {
+			return store.Datum{}, err
+		}
+		for _, d := range all {
+			if looseKey(d.Code) == looseKey(named) || looseKey(d.Name) == looseKey(named) {
+				return d, nil
+			}
+		}
+	}
+	common := map[string]int{}
+	for _, m := range holds {
+		hs, err := store.HeightAsOf(ctx, tx, store.HeightAsOfParams{MarkID: m.ID})
+		if err != nil {
+			return store.Datum{}, err
+		}
+		n := 0
+		for _, h := range hs {
+			if h.Value != nil {
+				common[h.DatumCode]++
+				n++
+			}
+		}
+		if n == 0 {
+			return store.Datum{}, inputErr("hold", "%s has no current height to hold", m.Designation)
+		}
+	}
+	var codes []string
+	for c, n := range common {
+		if n == len(holds) {
+			codes = append(codes, c)
+		}
+	}
+	sort.Strings(codes)
+	switch len(codes) {
+	case 1:
+		return r.datum(ctx, tx, "datum", codes[0])
+	case 0:
+		return store.Datum{}, inputErr("hold", "the held marks have no datum on which all of them have a current height")
+	}
+	return store.Datum{}, inputErr("datum", "the held marks have heights on %s: choose one", strings.Join(codes, " and "))
+}
+
+// heightMetres returns a version's value in metres.
+func heightMetres(h store.Height) (float64, error) {
+	u, err := units.Parse(*h.Unit)
+	if err != nil {
+		return 0, err
+	}
+	v, err := units.ParseRat(*h.Value)
+	if err != nil {
+		return 0, err
+	}
+	v.Mul(v, u.Rat())
+	f, _ := v.Float64()
+	return f, nil
+}
+
+// looseKey is s in upper case without spaces and punctuation.
+func looseKey(s string) string {
+	return strings.Map(func(r rune) rune {
+		if unicode.IsLetter(r) || unicode.IsDigit(r) {
+			return unicode.ToUpper(r)
+		}
+		return -1
+	}, s)
+}
+
+func joinIDs(ids []int64) string {
+	s := make([]string, len(ids))
+	for i, id := range ids {
+		s[i] = fmt.Sprint(id)
+	}
+	return strings.Join(s, ", ")
+}
