@@ -5,8 +5,12 @@ import (
 	"encoding/json"
 	"os"
 	"path/filepath"
+	"slices"
 	"strings"
 	"testing"
+
+	"cairn/internal/adjust"
+	"cairn/internal/register"
 )
 
 func writeFile(t *testing.T, dir, name, body string) string {
@@ -146,5 +150,71 @@ func TestAdjustFlaggedExitsChecksFailed(t *testing.T) {
 	err := Execute(context.Background(), NewFactory(ios, "test"), []string{"adjust", "--sections", s, "--held", h, "-o", "csv"})
 	if exitCode(err) != ExitChecks || !strings.Contains(errOut.String(), "s.csv line 2") {
 		t.Errorf("exit %d (%v), report:\n%s", exitCode(err), err, errOut.String())
+	}
+}
+
+// The register form's flags parse into typed parameters (no database is
+// opened), the old spellings of this release included, each with a
+// deprecation notice on stderr.
+func TestAdjustRegisterFlags(t *testing.T) {
+	hold := func(d string, sdM float64) register.Hold { return register.Hold{Designation: d, SigmaM: sdM} }
+	for _, c := range []struct {
+		args       []string
+		hold       []register.Hold
+		by         string
+		distribute adjust.Distribution
+		notice     string // on stderr; "" for none
+	}{
+		{[]string{"1", "--hold", "TC-0412,TC-0427", "--by", "A. Moreau"}, []register.Hold{hold("TC-0412", 0), hold("TC-0427", 0)}, "A. Moreau", adjust.ByDistance, ""},
+		{[]string{"1", "--hold", "TC-0412", "--distribute", "setups", "--by", "A. Moreau"}, []register.Hold{hold("TC-0412", 0)}, "A. Moreau", adjust.BySetups, ""},
+		{[]string{"1", "--method", "least-squares", "--hold", "TC-0412", "--hold-weighted", "TC-0427=5", "--by", "A. Moreau"},
+			[]register.Hold{hold("TC-0412", 0), hold("TC-0427", 0.005)}, "A. Moreau", adjust.ByDistance, ""},
+		{[]string{"1", "--method", "least-squares", "--hold", "TC-0412,TC-0427:5mm", "--by", "A. Moreau"},
+			[]register.Hold{hold("TC-0412", 0), hold("TC-0427", 0.005)}, "A. Moreau", adjust.ByDistance, "--hold TC-0427:5mm is deprecated"},
+		{[]string{"1", "--hold", "TC-0412", "--by", "setups"}, []register.Hold{hold("TC-0412", 0)}, osUser(), adjust.BySetups, "use --distribute setups"},
+		{[]string{"1", "--hold", "TC-0412", "--made-by", "R. Okafor"}, []register.Hold{hold("TC-0412", 0)}, "R. Okafor", adjust.ByDistance, "--made-by is deprecated"},
+	} {
+		ios, _, _, errOut := TestStreams(false)
+		f := NewFactory(ios, "test")
+		var got *adjustOptions
+		cmd := newCmdAdjust(f, func(o *adjustOptions) error { got = o; return nil })
+		cmd.SetArgs(c.args)
+		cmd.SetOut(ios.Out)
+		cmd.SetErr(ios.ErrOut)
+		if err := cmd.Execute(); err != nil || got == nil {
+			t.Errorf("%v: %v", c.args, err)
+			continue
+		}
+		p := got.Register.params
+		if !slices.Equal(p.Hold, c.hold) || p.By != c.by || p.Distribution != c.distribute || f.pool != nil {
+			t.Errorf("%v: hold %+v, by %q, distribution %v; want %+v, %q, %v", c.args, p.Hold, p.By, p.Distribution, c.hold, c.by, c.distribute)
+		}
+		if notice := errOut.String(); c.notice == "" && notice != "" || !strings.Contains(notice, c.notice) {
+			t.Errorf("%v: stderr %q, want %q", c.args, notice, c.notice)
+		}
+	}
+	for _, c := range []struct {
+		args []string
+		want string
+	}{
+		{[]string{"1", "--method", "least-squares", "--hold", "TC-0412:abc"}, "millimetres"},
+		{[]string{"1", "--method", "least-squares", "--hold", "TC-0412:0"}, "more than zero"},
+		{[]string{"1", "--method", "least-squares", "--hold-weighted", "TC-0412"}, "hold-weighted: \"TC-0412\": give MARK=SD_MM"},
+		{[]string{"1", "--method", "least-squares", "--hold-weighted", "TC-0412=-2"}, "more than zero"},
+		{[]string{"1", "--hold", "TC-0412", "--hold-weighted", "TC-0427=5"}, "--hold-weighted goes with --method least-squares"},
+		{[]string{"1", "--hold", "TC-0412", "--distribute", "sideways"}, "distribute: unknown distribution"},
+		{[]string{"1", "--method", "least-squares", "--hold", "TC-0412", "--distribute", "setups"}, "least squares weighs sections with --weight"},
+		{[]string{"1", "--hold", "TC-0412", "--by", "setups", "--distribute", "setups"}, "give the distribution with --distribute only"},
+		{[]string{"1", "--method", "sideways", "--hold", "TC-0412"}, "method: unknown method"},
+	} {
+		ios, _, _, _ := TestStreams(false)
+		f := NewFactory(ios, "test")
+		cmd := newCmdAdjust(f, func(o *adjustOptions) error { return nil })
+		cmd.SetArgs(c.args)
+		cmd.SetOut(ios.Out)
+		cmd.SetErr(ios.ErrOut)
+		if err := cmd.Execute(); err == nil || !strings.Contains(err.Error(), c.want) || exitCode(err) != ExitBadInput {
+			t.Errorf("%v: got %v, want exit 2 with %q", c.args, err, c.want)
+		}
 	}
 }
