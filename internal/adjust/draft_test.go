@@ -22,7 +22,7 @@ func ptr[T any](v T) *T { return &v }
 // as lengths and one setup each.
 func circuit(class string) adjust.DraftRun {
 	pts := []struct {
-		point             string
+		point            string
 		cumKm, computedM float64
 	}{
 		{"BM1", 0, 728.730}, {"BM2", 5.245, 783.213}, {"BM3", 11.271, 891.764}, {"BM4", 17.718, 843.195},

@@ -30,6 +30,8 @@ import (
 	"time"
 
 	"github.com/jackc/pgx/v5"
+
+	"cairn/internal/store"
 )
 
 // Port is the port number in the socket's name; no TCP port is opened.
@@ -335,17 +337,11 @@ func (c *Cluster) createDatabase(ctx context.Context) error {
 		return fmt.Errorf("connect to cluster %s: %w", c.Dir, err)
 	}
 	defer conn.Close(context.WithoutCancel(ctx))
-	var exists bool
-	if err := conn.QueryRow(ctx, "SELECT EXISTS (SELECT 1 FROM pg_database WHERE datname = $1)", Database).Scan(&exists); err != nil {
-		return fmt.Errorf("look for database %s: %w", Database, err)
+	exists, err := store.DatabaseExists(ctx, conn, store.DatabaseGetParams{Name: Database})
+	if err != nil || exists {
+		return err
 	}
-	if exists {
-		return nil
-	}
-	if _, err := conn.Exec(ctx, "CREATE DATABASE "+pgx.Identifier{Database}.Sanitize()); err != nil {
-		return fmt.Errorf("create database %s: %w", Database, err)
-	}
-	return nil
+	return store.DatabaseCreate(ctx, conn, store.DatabaseCreateParams{Name: Database})
 }
 
 func (c *Cluster) pgctl(ctx context.Context, bin string, run *account, args ...string) error {

@@ -160,8 +160,10 @@ func New(t testing.TB) *DB {
 	}
 	t.Cleanup(func() {
 		pool.Close()
-		if err := execSQL(context.Background(), admin, "DROP DATABASE IF EXISTS "+pgx.Identifier{name}.Sanitize()+" WITH (FORCE)"); err != nil {
-			t.Logf("pgtest: drop %s: %v", name, err)
+		if err := onAdmin(context.Background(), admin, func(conn *pgx.Conn) error {
+			return store.DatabaseDrop(context.Background(), conn, name)
+		}); err != nil {
+			t.Logf("pgtest: %v", err)
 		}
 	})
 	return &DB{Pool: pool, URL: url}
@@ -178,22 +180,19 @@ func template(ctx context.Context, admin string) (string, error) {
 	}
 	defer conn.Close(ctx)
 	// Test processes of several packages run at once: take turns.
-	if _, err := conn.Exec(ctx, "SELECT pg_advisory_lock(727411)"); err != nil {
+	unlock, err := store.AdvisoryLock(ctx, conn, 727411)
+	if err != nil {
 		return "", err
 	}
-	defer conn.Exec(context.WithoutCancel(ctx), "SELECT pg_advisory_unlock(727411)")
-	var exists bool
-	if err := conn.QueryRow(ctx, "SELECT EXISTS (SELECT 1 FROM pg_database WHERE datname = $1 AND datistemplate)", name).Scan(&exists); err != nil {
+	defer unlock()
+	exists, err := store.DatabaseExists(ctx, conn, store.DatabaseGetParams{Name: name, Template: true})
+	if err != nil || exists {
+		return name, err
+	}
+	if err := store.DatabaseDrop(ctx, conn, name); err != nil {
 		return "", err
 	}
-	if exists {
-		return name, nil
-	}
-	ident := pgx.Identifier{name}.Sanitize()
-	if _, err := conn.Exec(ctx, "DROP DATABASE IF EXISTS "+ident+" WITH (FORCE)"); err != nil {
-		return "", err
-	}
-	if _, err := conn.Exec(ctx, "CREATE DATABASE "+ident); err != nil {
+	if err := store.DatabaseCreate(ctx, conn, store.DatabaseCreateParams{Name: name}); err != nil {
 		return "", err
 	}
 	url, err := withDatabase(admin, name)
@@ -209,7 +208,7 @@ func template(ctx context.Context, admin string) (string, error) {
 	if err != nil {
 		return "", fmt.Errorf("migrate: %w", err)
 	}
-	if _, err := conn.Exec(ctx, "ALTER DATABASE "+ident+" WITH IS_TEMPLATE true ALLOW_CONNECTIONS false"); err != nil {
+	if err := store.DatabaseMakeTemplate(ctx, conn, name); err != nil {
 		return "", err
 	}
 	return name, nil
@@ -220,8 +219,10 @@ func template(ctx context.Context, admin string) (string, error) {
 func createFrom(ctx context.Context, admin, name, tmpl string) error {
 	var err error
 	for i := 0; i < 50; i++ {
-		err = execSQL(ctx, admin, "CREATE DATABASE "+pgx.Identifier{name}.Sanitize()+" TEMPLATE "+pgx.Identifier{tmpl}.Sanitize())
-		if err == nil || !strings.Contains(err.Error(), "being accessed by other users") {
+		err = onAdmin(ctx, admin, func(conn *pgx.Conn) error {
+			return store.DatabaseCreate(ctx, conn, store.DatabaseCreateParams{Name: name, Template: tmpl})
+		})
+		if !store.DatabaseBusy(err) {
 			return err
 		}
 		time.Sleep(100 * time.Millisecond)
@@ -229,14 +230,14 @@ func createFrom(ctx context.Context, admin, name, tmpl string) error {
 	return err
 }
 
-func execSQL(ctx context.Context, url, sql string) error {
+// onAdmin runs fn on a new connection to the server's admin database.
+func onAdmin(ctx context.Context, url string, fn func(*pgx.Conn) error) error {
 	conn, err := pgx.Connect(ctx, url)
 	if err != nil {
 		return err
 	}
 	defer conn.Close(ctx)
-	_, err = conn.Exec(ctx, sql)
-	return err
+	return fn(conn)
 }
 
 // withDatabase returns url (URL or key=value form) with its database

@@ -153,6 +153,7 @@ func markDoubts(ctx context.Context, db store.DBTX, v *AdjustmentView) error {
 	}
 	return nil
 }
+
 // Adjustment returns adjustment id with everything its report shows.
 func (r *Register) Adjustment(ctx context.Context, id int64) (*AdjustmentView, error) {
 	v := &AdjustmentView{}

@@ -382,7 +382,10 @@ func TestLeastSquaresBadInput(t *testing.T) {
 	}{
 		{"no path to control", func(p *AdjustParams) { p.RunIDs = []int64{b.runs[0], b.runs[3]} }, "hold", "TC-0430, TC-0431"},
 		{"negative weighted hold", func(p *AdjustParams) { p.Hold = []Hold{{Designation: "TC-0412", SigmaM: -0.005}} }, "hold", "standard deviation"},
-		{"weighted proportional", func(p *AdjustParams) { p.Method = MethodProportional; p.Hold = []Hold{{Designation: "TC-0412", SigmaM: 0.005}} }, "hold", "least-squares"},
+		{"weighted proportional", func(p *AdjustParams) {
+			p.Method = MethodProportional
+			p.Hold = []Hold{{Designation: "TC-0412", SigmaM: 0.005}}
+		}, "hold", "least-squares"},
 		{"minimal proportional", func(p *AdjustParams) { p.Method = ""; p.LeastSquares.Minimal = true }, "minimal", ""},
 		{"distribution with least squares", func(p *AdjustParams) { p.Distribution = adjust.BySetups }, "distribute", "weighs its sections"},
 		{"unknown mark", func(p *AdjustParams) { p.Marks = []string{"TC-9999"} }, "marks", "TC-9999"},

@@ -48,14 +48,10 @@ func DatabaseRecreate(ctx context.Context, conn, name string) error {
 		return fmt.Errorf("connect to server: %w", err)
 	}
 	defer c.Close(context.WithoutCancel(ctx))
-	ident := pgx.Identifier{name}.Sanitize()
-	if _, err := c.Exec(ctx, "DROP DATABASE IF EXISTS "+ident+" WITH (FORCE)"); err != nil {
-		return fmt.Errorf("drop database %s: %w", name, err)
+	if err := DatabaseDrop(ctx, c, name); err != nil {
+		return err
 	}
-	if _, err := c.Exec(ctx, "CREATE DATABASE "+ident); err != nil {
-		return fmt.Errorf("create database %s: %w", name, err)
-	}
-	return nil
+	return DatabaseCreate(ctx, c, DatabaseCreateParams{Name: name})
 }
 
 // DatabaseEmpty reports whether the connected database holds no tables of
@@ -69,4 +65,80 @@ func DatabaseEmpty(ctx context.Context, db DBTX) (bool, error) {
 		return false, fmt.Errorf("look for tables: %w", translate(err))
 	}
 	return n == 0, nil
+}
+
+// The functions below administer the server the register lives on rather
+// than the register itself (the embedded default's start-up, restore and
+// the test harness use them). Each takes a connection to another database
+// of the server, such as postgres.
+
+// DatabaseGetParams name a database to look for.
+type DatabaseGetParams struct {
+	Name string
+	// Template looks only for a database marked as a template.
+	Template bool
+}
+
+// DatabaseExists reports whether the database exists on conn's server.
+func DatabaseExists(ctx context.Context, conn *pgx.Conn, p DatabaseGetParams) (bool, error) {
+	var exists bool
+	err := conn.QueryRow(ctx, `SELECT EXISTS (SELECT 1 FROM pg_database WHERE datname = $1 AND (datistemplate OR NOT $2))`,
+		p.Name, p.Template).Scan(&exists)
+	if err != nil {
+		return false, fmt.Errorf("look for database %s: %w", p.Name, err)
+	}
+	return exists, nil
+}
+
+// DatabaseCreateParams name a database to create.
+type DatabaseCreateParams struct {
+	Name string
+	// Template is the database to copy; "" for the server's default.
+	Template string
+}
+
+// DatabaseCreate creates a database. A template another session is
+// connected to gives an error whose text says it is "being accessed by
+// other users" (PostgreSQL's own words), which the caller may retry.
+func DatabaseCreate(ctx context.Context, conn *pgx.Conn, p DatabaseCreateParams) error {
+	sql := "CREATE DATABASE " + pgx.Identifier{p.Name}.Sanitize()
+	if p.Template != "" {
+		sql += " TEMPLATE " + pgx.Identifier{p.Template}.Sanitize()
+	}
+	if _, err := conn.Exec(ctx, sql); err != nil {
+		return fmt.Errorf("create database %s: %w", p.Name, err)
+	}
+	return nil
+}
+
+// DatabaseBusy reports whether err is DatabaseCreate's refusal to copy a
+// template that another session is connected to.
+func DatabaseBusy(err error) bool {
+	return err != nil && strings.Contains(err.Error(), "being accessed by other users")
+}
+
+// DatabaseDrop drops a database if it exists, ending its sessions.
+func DatabaseDrop(ctx context.Context, conn *pgx.Conn, name string) error {
+	if _, err := conn.Exec(ctx, "DROP DATABASE IF EXISTS "+pgx.Identifier{name}.Sanitize()+" WITH (FORCE)"); err != nil {
+		return fmt.Errorf("drop database %s: %w", name, err)
+	}
+	return nil
+}
+
+// DatabaseMakeTemplate marks a database as a template that no session may
+// connect to, so that copies of it can be made at once.
+func DatabaseMakeTemplate(ctx context.Context, conn *pgx.Conn, name string) error {
+	if _, err := conn.Exec(ctx, "ALTER DATABASE "+pgx.Identifier{name}.Sanitize()+" WITH IS_TEMPLATE true ALLOW_CONNECTIONS false"); err != nil {
+		return fmt.Errorf("make database %s a template: %w", name, err)
+	}
+	return nil
+}
+
+// AdvisoryLock takes the session-level advisory lock key on conn, waiting
+// for it; the returned function releases it.
+func AdvisoryLock(ctx context.Context, conn *pgx.Conn, key int64) (unlock func(), err error) {
+	if _, err := conn.Exec(ctx, "SELECT pg_advisory_lock($1)", key); err != nil {
+		return nil, fmt.Errorf("take advisory lock %d: %w", key, err)
+	}
+	return func() { conn.Exec(context.WithoutCancel(ctx), "SELECT pg_advisory_unlock($1)", key) }, nil
 }
