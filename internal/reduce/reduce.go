@@ -21,10 +21,17 @@ import (
 // textbook's k = 0.14 and R = 20,906,000 ft this gives their table (500 ft
 // → 0.005142 ft, 1000 ft → 0.020568 ft, 5000 ft → 0.514206 ft) and their
 // rounded formula 0.0675 K² m (K in km).
+//
+// CurvatureEarthRadiusM is that textbook's R, 20,906,000 ft, taken as
+// international feet (0.3048 m): 6,372,148.8 m. It is kept, rather than
+// store.MeanEarthRadiusM (the IUGG mean radius R1 of GRS 80, 6,371,008.8
+// m, with which the register measures distances between marks), because
+// the corrections must reproduce the textbook's table; the two differ by
+// about 0.02 %. See docs/references.md#earth-radii.
 const (
-	RefractionK   = 0.14
-	EarthRadiusM  = 20_906_000 * 0.3048 // 20,906,000 international feet
-	crCoefficient = (1 - RefractionK) / (2 * EarthRadiusM)
+	RefractionK           = 0.14
+	CurvatureEarthRadiusM = 20_906_000 * 0.3048 // 20,906,000 international feet
+	crCoefficient         = (1 - RefractionK) / (2 * CurvatureEarthRadiusM)
 )
 
 // CurvatureRefractionM returns the combined curvature-and-refraction
