@@ -329,10 +329,11 @@ func (r *Result) check() {
 
 	// Three-wire consistency, every class (EN0593 §4).
 	c := checks[CheckThreeWire]
-	c.Tolerance = "half-intervals agree within 0.003 m"
+	threeWireLimit := "0.003 m"
 	if u != units.Metre {
-		c.Tolerance += " (" + units.Format(u.FromMetres(standards.ThreeWireM), 4) + " " + string(u) + ")"
+		threeWireLimit += " (" + units.Format(u.FromMetres(standards.ThreeWireM), 4) + " " + string(u) + ")"
 	}
+	c.Tolerance = "half-intervals agree within " + threeWireLimit
 	c.Source = standards.ThreeWireSource
 	for _, s := range r.Book.Sightings {
 		if !s.ThreeWire {
@@ -343,7 +344,7 @@ func (r *Result) check() {
 		if d > standards.ThreeWireM+eps {
 			fail(CheckThreeWire, s.Line, s.Point, d, standards.ThreeWireM,
 				"half-intervals %s and %s differ by %s (limit %s): reobserve",
-				units.Format(s.Upper-s.Middle, dec), units.Format(s.Middle-s.Lower, dec), f(d), c.Tolerance[len("half-intervals agree within "):])
+				units.Format(s.Upper-s.Middle, dec), units.Format(s.Middle-s.Lower, dec), f(d), threeWireLimit)
 		}
 	}
 	if c.Checked == 0 {
