@@ -213,3 +213,21 @@ func boundingBoxes(c LatLon, r float64) [][4]float64 {
 	}
 	return [][4]float64{{lon1, lat1, lon2, lat2}}
 }
+
+// MarkListByDesignations returns the marks with the given designations
+// (those that exist), each with its latest condition report.
+func MarkListByDesignations(ctx context.Context, db DBTX, designations []string) ([]Mark, error) {
+	rows, err := db.Query(ctx, "SELECT "+markColumns+markFrom+" WHERE m.designation = ANY($1) ORDER BY m.designation", designations)
+	if err != nil {
+		return nil, translate(err)
+	}
+	return collect(rows, func(r pgx.Row) (Mark, error) { return scanMark(r) })
+}
+
+// MarkLock locks the rows of the given marks, in order of identifier so
+// that writers locking overlapping sets never deadlock, until the
+// transaction ends. It takes the lock HeightSet takes for one mark.
+func MarkLock(ctx context.Context, db DBTX, markIDs []int64) error {
+	_, err := db.Exec(ctx, "SELECT 1 FROM mark WHERE id = ANY($1) ORDER BY id FOR NO KEY UPDATE", markIDs)
+	return translateAs(err, RolePublisher)
+}
