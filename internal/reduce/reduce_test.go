@@ -43,7 +43,7 @@ func reduce(t *testing.T, b *levelbook.Book, o Options) *Result {
 
 // Universiti Sains Malaysia, civil engineering lecture "Ukur Aras"
 // (height-of-collimation reduction with intermediate sights; readings and
-// answers read, see REFERENCES.md, worked example 2): OBM1 = 29.23 and
+// answers read, see docs/references.md, worked example 2): OBM1 = 29.23 and
 // OBM2 = 29.66 held; the published reduced levels below and a misclosure of
 // +10 mm over 5 setups. Compared at the millimetre before any rounding.
 func TestUSMWorkedExample(t *testing.T) {
