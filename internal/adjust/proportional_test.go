@@ -9,7 +9,7 @@ import (
 )
 
 // A distance-proportional adjustment of a level circuit closing on BM1.
-// Source: REFERENCES.md, worked example 1 (inputs read from a published
+// Source: docs/references.md, worked example 1 (inputs read from a published
 // sample problem of a level-circuit adjustment; answers derived: misclosure
 // 728.486 − 728.730 = −0.244 m over 30.500 km, +0.008 m/km).
 func TestProportionalDistanceWorkedExample(t *testing.T) {
@@ -59,7 +59,7 @@ func TestProportionalDistanceWorkedExample(t *testing.T) {
 // A per-setup distribution on a line between two held marks, with
 // intermediate sights. Source: Universiti Sains Malaysia, civil engineering
 // lecture notes "Ukur Aras" (levelling), height-of-collimation example with
-// adjustment (REFERENCES.md worked example 2: OBM1 = 29.23 and OBM2 = 29.66
+// adjustment (docs/references.md, worked example 2: OBM1 = 29.23 and OBM2 = 29.66
 // held, misclosure +10 mm over 5 setups). The page rounds F to 28.93 although
 // 28.935 would round to 28.94, so compare at the millimetre before rounding.
 func TestProportionalSetupsWorkedExample(t *testing.T) {

@@ -8,7 +8,7 @@ import (
 )
 
 // Two-tailed 95 % bounds of r·ŝ₀²/σ₀², derived from χ² quantiles
-// (REFERENCES.md, after UNSW GPS surveying course notes ch. 9.1.4, Harvey
+// (docs/references.md#least-squares, after UNSW GPS surveying course notes ch. 9.1.4, Harvey
 // 1994), to the 4 decimals given there.
 func TestVarianceFactorBounds(t *testing.T) {
 	for _, c := range []struct {
@@ -36,7 +36,7 @@ func TestVarianceFactorBounds(t *testing.T) {
 }
 
 // The critical value 3.29 is the two-sided normal quantile for α = 0.001,
-// 3.2905 (derived; REFERENCES.md).
+// 3.2905 (derived; docs/references.md#least-squares).
 func TestSnoopCriticalValue(t *testing.T) {
 	if k := adjust.SnoopCriticalValue(0.001); math.Abs(k-3.2905) > 5e-5 {
 		t.Errorf("k(0.001) = %.5f, want 3.2905", k)

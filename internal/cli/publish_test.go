@@ -17,7 +17,7 @@ import (
 	"cairn/internal/register"
 )
 
-// workedCircuit is worked example 1 of REFERENCES.md as a level book (see
+// workedCircuit is worked example 1 of docs/references.md as a level book (see
 // the file's comments): BM1 held at 728.730 m, adjusted heights derived
 // there at +0.008 m/km.
 const workedCircuit = "../../testdata/adjust/worked-circuit.csv"

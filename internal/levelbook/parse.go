@@ -16,6 +16,7 @@ import (
 	"unicode/utf8"
 
 	"cairn/internal/standards"
+	"cairn/internal/suggest"
 	"cairn/internal/units"
 )
 
@@ -302,7 +303,7 @@ func (p *parser) setMeta(line int, key, value string) error {
 		m.TurningPoints = value
 	default:
 		msg := "unknown key"
-		if s := suggest(key, Keys); s != "" {
+		if s := suggest.Nearest(key, Keys, typoLimit); s != "" {
 			msg += fmt.Sprintf(" (did you mean %q?)", s)
 		}
 		return bad("%s; keys of your own start with \"x-\"", msg)
@@ -368,7 +369,7 @@ func (p *parser) parseHeader(line int, rec []string) (map[string]int, error) {
 		}
 		if !known {
 			msg := "unknown column"
-			if s := suggest(c, Columns); s != "" {
+			if s := suggest.Nearest(c, Columns, typoLimit); s != "" {
 				msg += fmt.Sprintf(" (did you mean %q?)", s)
 			}
 			return nil, p.errorf(line, c, "%s; columns of your own start with \"x-\"", msg)
@@ -550,35 +551,8 @@ func (p *parser) checkShape() error {
 	return nil
 }
 
-// suggest returns the word of list closest to s when it is close enough to
-// be a likely typo, else "".
-func suggest(s string, list []string) string {
-	best, bestD := "", 3
-	for _, w := range list {
-		if d := editDistance(s, w); d < bestD {
-			best, bestD = w, d
-		}
-	}
-	return best
-}
-
-// editDistance is the Levenshtein distance between a and b.
-func editDistance(a, b string) int {
-	prev := make([]int, len(b)+1)
-	cur := make([]int, len(b)+1)
-	for j := range prev {
-		prev[j] = j
-	}
-	for i := 1; i <= len(a); i++ {
-		cur[0] = i
-		for j := 1; j <= len(b); j++ {
-			cost := 1
-			if a[i-1] == b[j-1] {
-				cost = 0
-			}
-			cur[j] = min(prev[j]+1, cur[j-1]+1, prev[j-1]+cost)
-		}
-		prev, cur = cur, prev
-	}
-	return prev[len(b)]
-}
+// typoLimit bounds the hint for an unknown key or column: the nearest
+// known name is suggested when it is fewer than typoLimit edits
+// (suggest.Levenshtein) away, close enough to be a likely typo (common
+// practice).
+const typoLimit = 3

@@ -21,10 +21,17 @@ import (
 // textbook's k = 0.14 and R = 20,906,000 ft this gives their table (500 ft
 // → 0.005142 ft, 1000 ft → 0.020568 ft, 5000 ft → 0.514206 ft) and their
 // rounded formula 0.0675 K² m (K in km).
+//
+// CurvatureEarthRadiusM is that textbook's R, 20,906,000 ft, taken as
+// international feet (0.3048 m): 6,372,148.8 m. It is kept, rather than
+// store.MeanEarthRadiusM (the IUGG mean radius R1 of GRS 80, 6,371,008.8
+// m, with which the register measures distances between marks), because
+// the corrections must reproduce the textbook's table; the two differ by
+// about 0.02 %. See docs/references.md#earth-radii.
 const (
-	RefractionK   = 0.14
-	EarthRadiusM  = 20_906_000 * 0.3048 // 20,906,000 international feet
-	crCoefficient = (1 - RefractionK) / (2 * EarthRadiusM)
+	RefractionK           = 0.14
+	CurvatureEarthRadiusM = 20_906_000 * 0.3048 // 20,906,000 international feet
+	crCoefficient         = (1 - RefractionK) / (2 * CurvatureEarthRadiusM)
 )
 
 // CurvatureRefractionM returns the combined curvature-and-refraction
@@ -322,10 +329,11 @@ func (r *Result) check() {
 
 	// Three-wire consistency, every class (EN0593 §4).
 	c := checks[CheckThreeWire]
-	c.Tolerance = "half-intervals agree within 0.003 m"
+	threeWireLimit := "0.003 m"
 	if u != units.Metre {
-		c.Tolerance += " (" + units.Format(u.FromMetres(standards.ThreeWireM), 4) + " " + string(u) + ")"
+		threeWireLimit += " (" + units.Format(u.FromMetres(standards.ThreeWireM), 4) + " " + string(u) + ")"
 	}
+	c.Tolerance = "half-intervals agree within " + threeWireLimit
 	c.Source = standards.ThreeWireSource
 	for _, s := range r.Book.Sightings {
 		if !s.ThreeWire {
@@ -336,7 +344,7 @@ func (r *Result) check() {
 		if d > standards.ThreeWireM+eps {
 			fail(CheckThreeWire, s.Line, s.Point, d, standards.ThreeWireM,
 				"half-intervals %s and %s differ by %s (limit %s): reobserve",
-				units.Format(s.Upper-s.Middle, dec), units.Format(s.Middle-s.Lower, dec), f(d), c.Tolerance[len("half-intervals agree within "):])
+				units.Format(s.Upper-s.Middle, dec), units.Format(s.Middle-s.Lower, dec), f(d), threeWireLimit)
 		}
 	}
 	if c.Checked == 0 {

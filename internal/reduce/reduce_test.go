@@ -43,7 +43,7 @@ func reduce(t *testing.T, b *levelbook.Book, o Options) *Result {
 
 // Universiti Sains Malaysia, civil engineering lecture "Ukur Aras"
 // (height-of-collimation reduction with intermediate sights; readings and
-// answers read, see REFERENCES.md, worked example 2): OBM1 = 29.23 and
+// answers read, see docs/references.md, worked example 2): OBM1 = 29.23 and
 // OBM2 = 29.66 held; the published reduced levels below and a misclosure of
 // +10 mm over 5 setups. Compared at the millimetre before any rounding.
 func TestUSMWorkedExample(t *testing.T) {
@@ -395,5 +395,25 @@ func TestMahunThreeWireCheck(t *testing.T) {
 	}
 	if fmt.Sprint(lines) != "[3 6]" {
 		t.Errorf("three-wire failures on lines %v, want [3 6]", lines)
+	}
+}
+
+// A book in feet states the three-wire limit in metres and in its unit
+// (0.003 m / 0.3048 = 0.0098 ft), and a failure quotes the check's limit.
+func TestThreeWireLimitInFeet(t *testing.T) {
+	r := reduce(t, parse(t, "# units: ft\npoint,sight,upper,middle,lower\nBM1,BS,4.31,4.16,4.02\nBM2,FS,4.31,4.165,4.02\n"), Options{})
+	for _, c := range r.Checks {
+		if c.Kind == CheckThreeWire && c.Tolerance != "half-intervals agree within 0.003 m (0.0098 ft)" {
+			t.Errorf("tolerance %q", c.Tolerance)
+		}
+	}
+	var msgs []string
+	for _, f := range r.Failures {
+		if f.Kind == CheckThreeWire {
+			msgs = append(msgs, f.Message)
+		}
+	}
+	if want := "half-intervals 0.150 and 0.140 differ by 0.010 ft (limit 0.003 m (0.0098 ft)): reobserve"; len(msgs) != 1 || msgs[0] != want {
+		t.Errorf("three-wire failures %q, want [%q]", msgs, want)
 	}
 }

@@ -16,7 +16,7 @@ import (
 	"cairn/internal/store"
 )
 
-// workedExample is worked example 1 of REFERENCES.md: a level circuit from
+// workedExample is worked example 1 of docs/references.md: a level circuit from
 // BM1 (728.730 m) closing on BM1 at 728.486 m after 30.500 km. Inputs read
 // from a published sample problem of a distance-proportional adjustment;
 // the adjusted heights are derived there (+0.008 m/km) and are what cairn

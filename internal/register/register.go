@@ -17,6 +17,7 @@ import (
 	"github.com/jackc/pgx/v5/pgxpool"
 
 	"cairn/internal/store"
+	"cairn/internal/suggest"
 )
 
 // Register is the register in one PostgreSQL database.
@@ -177,7 +178,7 @@ func didYouMean(s string, cands []string) string {
 	}
 	var near []scored
 	for _, c := range cands {
-		if d := editDistance(k, key(c)); d <= limit {
+		if d := suggest.OptimalAlignment(k, key(c)); d <= limit {
 			// Between equals, the same characters in another order (two
 			// digits swapped) come first.
 			d *= 2
@@ -196,32 +197,4 @@ func didYouMean(s string, cands []string) string {
 		names = append(names, near[i].s)
 	}
 	return " (did you mean " + strings.Join(names, " or ") + "?)"
-}
-
-// editDistance is the optimal string alignment distance between a and b:
-// insertions, deletions, substitutions and transpositions of neighbours
-// (TC-0421 for TC-0412) each count one.
-func editDistance(a, b string) int {
-	ra, rb := []rune(a), []rune(b)
-	d := make([][]int, len(ra)+1)
-	for i := range d {
-		d[i] = make([]int, len(rb)+1)
-		d[i][0] = i
-	}
-	for j := range d[0] {
-		d[0][j] = j
-	}
-	for i := 1; i <= len(ra); i++ {
-		for j := 1; j <= len(rb); j++ {
-			cost := 1
-			if ra[i-1] == rb[j-1] {
-				cost = 0
-			}
-			d[i][j] = min(d[i-1][j]+1, d[i][j-1]+1, d[i-1][j-1]+cost)
-			if i > 1 && j > 1 && ra[i-1] == rb[j-2] && ra[i-2] == rb[j-1] {
-				d[i][j] = min(d[i][j], d[i-2][j-2]+1)
-			}
-		}
-	}
-	return d[len(ra)][len(rb)]
 }

@@ -25,7 +25,7 @@ func TestParseClass(t *testing.T) {
 
 // FGCC 1984, "Standards and Specifications for Geodetic Control Networks",
 // §3.5, field procedures of geodetic leveling: values from memory (see
-// ../../../shared/REFERENCES.md); this pins the table against that note.
+// docs/references.md#accuracy-classes); this pins the table against that note.
 func TestTableFromMemory(t *testing.T) {
 	want := []struct {
 		c                            Class

@@ -299,83 +299,24 @@ func AdjustmentEventInsert(ctx context.Context, db DBTX, p AdjustmentEventInsert
 	return nil
 }
 
-// MarkLock locks the rows of the given marks, in order of identifier so
-// that writers locking overlapping sets never deadlock, until the
-// transaction ends. It takes the lock HeightSet takes for one mark.
-func MarkLock(ctx context.Context, db DBTX, markIDs []int64) error {
-	_, err := db.Exec(ctx, "SELECT 1 FROM mark WHERE id = ANY($1) ORDER BY id FOR NO KEY UPDATE", markIDs)
-	return translateAs(err, RolePublisher)
-}
+// HeldLink says that current version HeightID comes from an adjustment
+// that held version HeldID, itself still current.
+type HeldLink struct{ HeightID, HeldID int64 }
 
-// HeightLatestManyParams name chains of versions: the given marks on one
-// datum.
-type HeightLatestManyParams struct {
-	MarkIDs []int64
-	DatumID int64
-}
-
-// HeightLatestMany returns the latest version of each of the marks on the
-// datum, by mark identifier; marks without one are absent.
-func HeightLatestMany(ctx context.Context, db DBTX, p HeightLatestManyParams) (map[int64]Height, error) {
-	hs, err := heightQuery(ctx, db, "SELECT DISTINCT ON (h.mark_id) "+heightColumns+heightFrom+
-		" WHERE h.mark_id = ANY($1) AND h.datum_id = $2 ORDER BY h.mark_id, h.version DESC", p.MarkIDs, p.DatumID)
+// HeldLinkList returns, for every current height from an adjustment, the
+// held versions of its adjustment that are still current: the links along
+// which staleness spreads.
+func HeldLinkList(ctx context.Context, db DBTX) ([]HeldLink, error) {
+	rows, err := db.Query(ctx, `SELECT h.id, ah.height_id FROM height h
+		JOIN adjustment_held ah ON ah.adjustment_id = h.adjustment_id
+		WHERE NOT EXISTS (SELECT 1 FROM height x WHERE x.supersedes = h.id)
+		  AND NOT EXISTS (SELECT 1 FROM height y WHERE y.supersedes = ah.height_id)
+		ORDER BY 1, 2`)
 	if err != nil {
-		return nil, err
+		return nil, translate(err)
 	}
-	out := make(map[int64]Height, len(hs))
-	for _, h := range hs {
-		out[h.MarkID] = h
-	}
-	return out, nil
-}
-
-// HeightSuccessor returns the version that supersedes version id;
-// ErrNotFound if it is current.
-func HeightSuccessor(ctx context.Context, db DBTX, id int64) (Height, error) {
-	return scanHeight(db.QueryRow(ctx, "SELECT "+heightColumns+heightFrom+" WHERE h.supersedes = $1", id))
-}
-
-// HeightInsertManyParams are new versions from one adjustment: one per
-// mark, all on one datum, with the same source, reason and author.
-type HeightInsertManyParams struct {
-	DatumID      int64
-	AdjustmentID int64
-	Source       string
-	Reason       string
-	RecordedBy   string
-	// Results give each version's mark, value, unit, decimals and class,
-	// and the version it supersedes (Replaces).
-	Results []AdjustmentResult
-}
-
-// HeightInsertMany appends the versions in one statement and returns them
-// as stored, by designation. If another writer added a version of one of
-// the marks meanwhile, it fails with ErrConflict.
-func HeightInsertMany(ctx context.Context, db DBTX, p HeightInsertManyParams) ([]Height, error) {
-	n := len(p.Results)
-	marks, sup, vals, unitsOf, decs, classes := make([]int64, n), make([]*int64, n), make([]*string, n), make([]*string, n), make([]*int16, n), make([]string, n)
-	for i, r := range p.Results {
-		marks[i], sup[i], vals[i], unitsOf[i], classes[i] = r.MarkID, r.Replaces, r.Value, r.Unit, r.Class
-		if r.Decimals != nil {
-			d := int16(*r.Decimals)
-			decs[i] = &d
-		}
-	}
-	rows, err := db.Query(ctx, `INSERT INTO height (mark_id, datum_id, supersedes, value, unit, decimals, class,
-			source_kind, source, adjustment_id, reason, recorded_by)
-		SELECT u.mark_id, $1, u.supersedes, u.value, u.unit, u.decimals, u.class, 'adjustment', $2, $3, $4, $5
-		FROM unnest($6::bigint[], $7::bigint[], $8::numeric[], $9::text[], $10::smallint[], $11::text[])
-			AS u (mark_id, supersedes, value, unit, decimals, class)
-		RETURNING id`, p.DatumID, p.Source, p.AdjustmentID, p.Reason, p.RecordedBy, marks, sup, vals, unitsOf, decs, classes)
-	if err != nil {
-		return nil, fmt.Errorf("insert height versions: %w", translate(err))
-	}
-	ids, err := collect(rows, func(r pgx.Row) (int64, error) {
-		var id int64
-		return id, translate(r.Scan(&id))
+	return collect(rows, func(r pgx.Row) (HeldLink, error) {
+		var l HeldLink
+		return l, translate(r.Scan(&l.HeightID, &l.HeldID))
 	})
-	if err != nil {
-		return nil, fmt.Errorf("insert height versions: %w", err)
-	}
-	return HeightListByIDs(ctx, db, ids)
 }

@@ -61,17 +61,3 @@ func AdjustmentSectionList(ctx context.Context, db DBTX, adjustmentID int64) ([]
 		return s, translate(err)
 	})
 }
-
-// RunIDsTouchingMarks returns, in order, the runs with a section from or to
-// any of the marks.
-func RunIDsTouchingMarks(ctx context.Context, db DBTX, markIDs []int64) ([]int64, error) {
-	rows, err := db.Query(ctx, `SELECT DISTINCT run_id FROM section
-		WHERE from_mark_id = ANY($1) OR to_mark_id = ANY($1) ORDER BY run_id`, markIDs)
-	if err != nil {
-		return nil, translate(err)
-	}
-	return collect(rows, func(r pgx.Row) (int64, error) {
-		var id int64
-		return id, translate(r.Scan(&id))
-	})
-}

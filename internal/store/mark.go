@@ -4,6 +4,7 @@ import (
 	"context"
 	"fmt"
 	"math"
+	"strconv"
 	"strings"
 	"time"
 
@@ -122,16 +123,20 @@ type MarkListParams struct {
 // LatLon is a position in decimal degrees.
 type LatLon struct{ Lat, Lon float64 }
 
-// EarthRadiusM is the mean radius of the Earth in metres used for
-// distances: the IUGG mean radius R1 = (2a + b)/3 of GRS 80 (Moritz 2000,
-// "Geodetic Reference System 1980", J. Geodesy 74).
-const EarthRadiusM = 6371008.8
+// MeanEarthRadiusM is the radius in metres of the sphere on which the
+// register measures distances between marks (near searches): the IUGG mean
+// radius R1 = (2a + b)/3 of GRS 80 (Moritz 2000, "Geodetic Reference System
+// 1980", J. Geodesy 74). It is not reduce.CurvatureEarthRadiusM, the
+// textbook's radius (20,906,000 ft) with which curvature and refraction are
+// computed so that the textbook's table is reproduced; the two differ by
+// about 0.02 %. See docs/references.md#earth-radii.
+const MeanEarthRadiusM = 6371008.8
 
 // haversineSQL is the great-circle distance in metres from ($1, $2) to the
-// mark, by the haversine formula:
+// mark, by the haversine formula, with R = MeanEarthRadiusM:
 //
 //	d = 2R asin √(sin²(Δφ/2) + cos φ1 cos φ2 sin²(Δλ/2))
-const haversineSQL = `2 * 6371008.8 * asin(least(1, sqrt(
+var haversineSQL = `2 * ` + strconv.FormatFloat(MeanEarthRadiusM, 'f', -1, 64) + ` * asin(least(1, sqrt(
 	power(sin(radians(m.lat - $1) / 2), 2) +
 	cos(radians($1)) * cos(radians(m.lat)) * power(sin(radians(m.lon - $2) / 2), 2))))`
 
@@ -190,7 +195,7 @@ func markListSQL(p MarkListParams) (string, []any) {
 // widest a small circle reaches (it is the whole circle of longitude when
 // the circle holds a pole). A box that crosses ±180° is split in two.
 func boundingBoxes(c LatLon, r float64) [][4]float64 {
-	a := r / EarthRadiusM // angular radius, radians
+	a := r / MeanEarthRadiusM // angular radius, radians
 	dLat := a * 180 / math.Pi
 	lat1, lat2 := c.Lat-dLat, c.Lat+dLat
 	if lat1 <= -90 || lat2 >= 90 || math.Sin(a) >= math.Cos(c.Lat*math.Pi/180) {
@@ -207,4 +212,22 @@ func boundingBoxes(c LatLon, r float64) [][4]float64 {
 		return [][4]float64{{lon1, lat1, 180, lat2}, {-180, lat1, lon2 - 360, lat2}}
 	}
 	return [][4]float64{{lon1, lat1, lon2, lat2}}
+}
+
+// MarkListByDesignations returns the marks with the given designations
+// (those that exist), each with its latest condition report.
+func MarkListByDesignations(ctx context.Context, db DBTX, designations []string) ([]Mark, error) {
+	rows, err := db.Query(ctx, "SELECT "+markColumns+markFrom+" WHERE m.designation = ANY($1) ORDER BY m.designation", designations)
+	if err != nil {
+		return nil, translate(err)
+	}
+	return collect(rows, func(r pgx.Row) (Mark, error) { return scanMark(r) })
+}
+
+// MarkLock locks the rows of the given marks, in order of identifier so
+// that writers locking overlapping sets never deadlock, until the
+// transaction ends. It takes the lock HeightSet takes for one mark.
+func MarkLock(ctx context.Context, db DBTX, markIDs []int64) error {
+	_, err := db.Exec(ctx, "SELECT 1 FROM mark WHERE id = ANY($1) ORDER BY id FOR NO KEY UPDATE", markIDs)
+	return translateAs(err, RolePublisher)
 }

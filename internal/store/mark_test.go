@@ -56,3 +56,13 @@ func TestBoundingBoxesSplitAtAntimeridian(t *testing.T) {
 		t.Fatalf("boxes %v, want the whole polar cap", bs)
 	}
 }
+
+// The near search's haversine computes with MeanEarthRadiusM, written out in
+// full: one number in Go and SQL.
+func TestMarkListNearSQLUsesMeanRadius(t *testing.T) {
+	t.Parallel()
+	q, _ := store.MarkListSQL(store.MarkListParams{Near: &store.LatLon{Lat: 41.62, Lon: -97.95}, RadiusM: 2000})
+	if want := "2 * 6371008.8 * asin("; store.MeanEarthRadiusM != 6371008.8 || !strings.Contains(q, want) {
+		t.Fatalf("near search SQL does not compute with R = %v m as %q:\n%s", store.MeanEarthRadiusM, want, q)
+	}
+}

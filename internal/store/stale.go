@@ -86,31 +86,3 @@ func StaleCauseList(ctx context.Context, db DBTX) ([]StaleCause, error) {
 		return c, translate(err)
 	})
 }
-
-// HeldLink says that current version HeightID comes from an adjustment
-// that held version HeldID, itself still current.
-type HeldLink struct{ HeightID, HeldID int64 }
-
-// HeldLinkList returns, for every current height from an adjustment, the
-// held versions of its adjustment that are still current: the links along
-// which staleness spreads.
-func HeldLinkList(ctx context.Context, db DBTX) ([]HeldLink, error) {
-	rows, err := db.Query(ctx, `SELECT h.id, ah.height_id FROM height h
-		JOIN adjustment_held ah ON ah.adjustment_id = h.adjustment_id
-		WHERE NOT EXISTS (SELECT 1 FROM height x WHERE x.supersedes = h.id)
-		  AND NOT EXISTS (SELECT 1 FROM height y WHERE y.supersedes = ah.height_id)
-		ORDER BY 1, 2`)
-	if err != nil {
-		return nil, translate(err)
-	}
-	return collect(rows, func(r pgx.Row) (HeldLink, error) {
-		var l HeldLink
-		return l, translate(r.Scan(&l.HeightID, &l.HeldID))
-	})
-}
-
-// HeightListByIDs returns the versions with the given identifiers, by
-// designation and datum code.
-func HeightListByIDs(ctx context.Context, db DBTX, ids []int64) ([]Height, error) {
-	return heightQuery(ctx, db, "SELECT "+heightColumns+heightFrom+" WHERE h.id = ANY($1) ORDER BY m.designation, d.code", ids)
-}

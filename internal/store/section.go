@@ -1,0 +1,89 @@
+package store
+
+import (
+	"context"
+	"fmt"
+
+	"github.com/jackc/pgx/v5"
+)
+
+// Section is the observation of a run between two consecutive marks: the
+// height difference an adjustment uses.
+type Section struct {
+	RunID int64
+	// Seq numbers the sections of a run along it from 1.
+	Seq int
+	// FromMarkID and ToMarkID are the marks; From and To their
+	// designations (filled when read).
+	FromMarkID, ToMarkID int64
+	From, To             string
+	// DifferenceM is the observed height difference H(To) − H(From) in
+	// metres, unrounded.
+	DifferenceM float64
+	// LengthM is the sum of backsight and foresight lengths in metres; nil
+	// when the book gives no distances.
+	LengthM *float64
+	// Setups is the number of instrument setups.
+	Setups int
+	// FirstLine and LastLine are the book lines of the first backsight and
+	// the last foresight.
+	FirstLine, LastLine int
+}
+
+var sectionColumns = []string{"run_id", "seq", "from_mark_id", "to_mark_id", "dh_m", "length_m", "setups", "first_line", "last_line"}
+
+// SectionCopyParams are a run's sections to store.
+type SectionCopyParams struct {
+	RunID    int64
+	Sections []Section
+}
+
+// SectionCopy stores sections with COPY and returns how many.
+func SectionCopy(ctx context.Context, db Copier, p SectionCopyParams) (int64, error) {
+	rows := make([][]any, len(p.Sections))
+	for i, s := range p.Sections {
+		rows[i] = []any{p.RunID, s.Seq, s.FromMarkID, s.ToMarkID, s.DifferenceM, s.LengthM, s.Setups, s.FirstLine, s.LastLine}
+	}
+	n, err := db.CopyFrom(ctx, pgx.Identifier{"section"}, sectionColumns, pgx.CopyFromRows(rows))
+	if err != nil {
+		return n, fmt.Errorf("copy sections: %w", translate(err))
+	}
+	return n, nil
+}
+
+// SectionListParams choose the sections to list.
+type SectionListParams struct {
+	// RunIDs are the runs whose sections to list.
+	RunIDs []int64
+}
+
+// SectionList returns the sections of the given runs, by run and along
+// each run.
+func SectionList(ctx context.Context, db DBTX, p SectionListParams) ([]Section, error) {
+	rows, err := db.Query(ctx, `SELECT s.run_id, s.seq, s.from_mark_id, s.to_mark_id, f.designation, t.designation,
+		s.dh_m, s.length_m, s.setups, s.first_line, s.last_line
+		FROM section s JOIN mark f ON f.id = s.from_mark_id JOIN mark t ON t.id = s.to_mark_id
+		WHERE s.run_id = ANY($1) ORDER BY s.run_id, s.seq`, p.RunIDs)
+	if err != nil {
+		return nil, translate(err)
+	}
+	return collect(rows, func(r pgx.Row) (Section, error) {
+		var s Section
+		err := r.Scan(&s.RunID, &s.Seq, &s.FromMarkID, &s.ToMarkID, &s.From, &s.To, &s.DifferenceM, &s.LengthM, &s.Setups, &s.FirstLine, &s.LastLine)
+		return s, translate(err)
+	})
+}
+
+// RunIDsTouchingMarks returns, in order, the runs with a section from or to
+// any of the marks.
+func RunIDsTouchingMarks(ctx context.Context, db DBTX, markIDs []int64) ([]int64, error) {
+	rows, err := db.Query(ctx, `SELECT DISTINCT run_id FROM section
+		WHERE from_mark_id = ANY($1) OR to_mark_id = ANY($1) ORDER BY run_id`, markIDs)
+	if err != nil {
+		return nil, translate(err)
+	}
+	return collect(rows, func(r pgx.Row) (int64, error) {
+		var id int64
+		return id, translate(r.Scan(&id))
+	})
+}

@@ -1,0 +1,69 @@
+package store
+
+import (
+	"context"
+	"fmt"
+
+	"github.com/jackc/pgx/v5"
+)
+
+// Sighting is one row of a run's book: a rod reading on a point.
+type Sighting struct {
+	// Seq numbers the sightings of a run in field order from 1; Line is the
+	// row's line in the book.
+	Seq  int
+	Line int
+	// Point is the point sighted; Sight is BS, IS or FS.
+	Point        string
+	Sight        string
+	TurningPoint bool
+	// Upper and Lower are the stadia wires (nil when not booked), Middle
+	// the middle wire, Distance the sight length (nil when the book gives
+	// none), all in the run's unit; DistanceFrom is none, stadia or
+	// measured.
+	Upper, Lower *float64
+	Middle       float64
+	Distance     *float64
+	DistanceFrom string
+	Note         string
+}
+
+var sightingColumns = []string{"run_id", "seq", "line", "point", "sight", "turning_point", "upper", "middle", "lower", "distance", "distance_from", "note"}
+
+// SightingCopyParams are a run's sightings to store.
+type SightingCopyParams struct {
+	RunID     int64
+	Sightings []Sighting
+}
+
+// SightingCopy stores sightings with COPY and returns how many.
+func SightingCopy(ctx context.Context, db Copier, p SightingCopyParams) (int64, error) {
+	i := -1
+	src := pgx.CopyFromFunc(func() ([]any, error) {
+		i++
+		if i == len(p.Sightings) {
+			return nil, nil
+		}
+		s := &p.Sightings[i]
+		return []any{p.RunID, s.Seq, s.Line, s.Point, s.Sight, s.TurningPoint, s.Upper, s.Middle, s.Lower, s.Distance, s.DistanceFrom, s.Note}, nil
+	})
+	n, err := db.CopyFrom(ctx, pgx.Identifier{"sighting"}, sightingColumns, src)
+	if err != nil {
+		return n, fmt.Errorf("copy sightings: %w", translate(err))
+	}
+	return n, nil
+}
+
+// SightingListByRun returns a run's sightings in field order.
+func SightingListByRun(ctx context.Context, db DBTX, runID int64) ([]Sighting, error) {
+	rows, err := db.Query(ctx, `SELECT seq, line, point, sight, turning_point, upper, middle, lower, distance, distance_from, note
+		FROM sighting WHERE run_id = $1 ORDER BY seq`, runID)
+	if err != nil {
+		return nil, translate(err)
+	}
+	return collect(rows, func(r pgx.Row) (Sighting, error) {
+		var s Sighting
+		err := r.Scan(&s.Seq, &s.Line, &s.Point, &s.Sight, &s.TurningPoint, &s.Upper, &s.Middle, &s.Lower, &s.Distance, &s.DistanceFrom, &s.Note)
+		return s, translate(err)
+	})
+}
