@@ -63,10 +63,10 @@ type Bundle struct {
 	// WorkedCircuit adds its held mark, BM1.
 	Held []string
 
-	datum string // code of the first datum made through the bundle
-	marks int    // default designations handed out
-	placed int   // marks made through Mark
-	books int    // default books handed out
+	datum  string // code of the first datum made through the bundle
+	marks  int    // default designations handed out
+	placed int    // marks made through Mark
+	books  int    // default books handed out
 }
 
 // Setup gives a fresh, migrated register of its own to tb.
