@@ -41,7 +41,7 @@ var workedExample = []struct {
 func setupWorked(t *testing.T) (*registertest.Bundle, int64) {
 	t.Helper()
 	b := registertest.Setup(t)
-	return b, b.WorkedCircuit(t, registertest.WorkedCircuitOpts{})[0]
+	return b, b.WorkedCircuit(t, registertest.WorkedCircuitOpts{Class: "first-II"})[0]
 }
 
 // outside records an outside height of mark, in metres, citing source.

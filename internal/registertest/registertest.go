@@ -363,7 +363,7 @@ type WorkedCircuitOpts struct {
 	Copies int
 	Source string // the held height's citation; default "Outside control, sheet 1 (invented citation)"
 	Reason string // the held height's reason; default "outside control"
-	Class  string // the held height's class; default "first-II"
+	Class  string // the held height's class; default none
 	By     string // default By
 }
 
@@ -376,7 +376,7 @@ func (b *Bundle) WorkedCircuit(tb testing.TB, o WorkedCircuitOpts) []int64 {
 	for i := 1; i <= 6; i++ {
 		b.Mark(tb, MarkOpts{Designation: fmt.Sprintf("BM%d", i), NoPosition: true, By: o.By})
 	}
-	b.Height(tb, HeightOpts{Designation: "BM1", Value: "728.730", Unit: "m", Class: or(o.Class, "first-II"),
+	b.Height(tb, HeightOpts{Designation: "BM1", Value: "728.730", Unit: "m", Class: o.Class,
 		Source: or(o.Source, "Outside control, sheet 1 (invented citation)"), Reason: or(o.Reason, "outside control"), By: o.By})
 	b.Held = append(b.Held, "BM1")
 	var runs []int64
