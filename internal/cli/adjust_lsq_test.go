@@ -1,14 +1,13 @@
 package cli
 
 import (
-	"context"
 	"encoding/json"
 	"fmt"
 	"strings"
 	"testing"
 
 	"cairn/internal/pgtest"
-	"cairn/internal/register"
+	"cairn/internal/registertest"
 )
 
 // tallisLines are three invented runs over TC-0412 to TC-0416 (TC-0413
@@ -29,22 +28,22 @@ var tallisLines = [][][4]any{
 // section k are 6+2k and 7+2k.
 func seedTallis(t *testing.T, db *pgtest.DB) {
 	t.Helper()
-	mustRun(t, db.URL, "datum", "add", "NAVD88", "--name", "North American Vertical Datum of 1988")
+	b := registertest.On(t, db)
+	b.Datum(t, registertest.DatumOpts{})
 	for i, d := range []string{"TC-0412", "TC-0413", "TC-0414", "TC-0415", "TC-0416", "TC-0430", "TC-0431"} {
-		lat := 41.60 + 0.02*float64(i)
+		lat, lon := 41.60+0.02*float64(i), -97.90
 		if i >= 5 {
 			lat += 1
 		}
-		mustRun(t, db.URL, "mark", "add", d, "--lat", fmt.Sprint(lat), "--lon", "-97.90")
+		b.Mark(t, registertest.MarkOpts{Designation: d, Lat: &lat, Lon: &lon})
 	}
-	for d, h := range map[string]string{"TC-0412": "10.0000", "TC-0415": "10.9012"} {
-		mustRun(t, db.URL, "height", "set", d, h, "--unit", "m", "--datum", "NAVD88",
-			"--source", "Outside control (invented citation)", "--reason", "held control", "--by", "tester")
+	for _, h := range [][2]string{{"TC-0412", "10.0000"}, {"TC-0415", "10.9012"}} {
+		b.Height(t, registertest.HeightOpts{Designation: h[0], Value: h[1],
+			Source: "Outside control (invented citation)", Reason: "held control", By: "tester"})
 	}
-	reg := register.New(db.Pool)
 	for i, secs := range tallisLines {
-		var b strings.Builder
-		fmt.Fprintf(&b, "# Invented Tallis County line.\n# run: Tallis %c\n# date: 2024-06-03\n# units: m\npoint,sight,middle,distance,note\n", 'A'+i)
+		var book strings.Builder
+		fmt.Fprintf(&book, "# Invented Tallis County line.\n# run: Tallis %c\n# date: 2024-06-03\n# units: m\npoint,sight,middle,distance,note\n", 'A'+i)
 		for _, s := range secs {
 			dh, km := s[2].(float64), s[3].(float64)
 			bs, fs := 1.0, 1.0
@@ -53,12 +52,10 @@ func seedTallis(t *testing.T, db *pgtest.DB) {
 			} else {
 				fs -= dh
 			}
-			fmt.Fprintf(&b, "%s,BS,%.4f,%.1f,\n%s,FS,%.4f,%.1f,\n", s[0], bs, km*500, s[1], fs, km*500)
+			fmt.Fprintf(&book, "%s,BS,%.4f,%.1f,\n%s,FS,%.4f,%.1f,\n", s[0], bs, km*500, s[1], fs, km*500)
 		}
-		if _, err := reg.Record(context.Background(), register.RecordParams{Path: fmt.Sprintf("tallis-%c.csv", 'a'+i),
-			Book: []byte(b.String()), By: "tester", AcceptFailedChecks: true, Reason: "a line of the network"}); err != nil {
-			t.Fatal(err)
-		}
+		b.Run(t, registertest.RunOpts{Path: fmt.Sprintf("tallis-%c.csv", 'a'+i),
+			Book: []byte(book.String()), By: "tester", AcceptFailedChecks: true, Reason: "a line of the network"})
 	}
 }
 
@@ -124,6 +121,7 @@ func TestAdjustLeastSquaresBadInput(t *testing.T) {
 	t.Parallel()
 	db := pgtest.New(t)
 	seedTallis(t, db)
+	before := registertest.Counts(t, db.Pool)
 	lsq := []string{"--method", "least-squares", "--made-by", "tester"}
 	for _, c := range []struct {
 		args []string
@@ -149,4 +147,5 @@ func TestAdjustLeastSquaresBadInput(t *testing.T) {
 	if out := mustRun(t, db.URL, "adjustment", "list", "-o", "csv"); strings.Count(out, "\n") > 1 {
 		t.Fatalf("stored:\n%s", out)
 	}
+	registertest.AssertNothingWritten(t, db.Pool, before)
 }

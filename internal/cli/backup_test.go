@@ -10,6 +10,7 @@ import (
 	"github.com/jackc/pgx/v5"
 
 	"cairn/internal/pgtest"
+	"cairn/internal/registertest"
 	"cairn/internal/store"
 )
 
@@ -58,8 +59,7 @@ func registerImage(t *testing.T, url string) string {
 	for _, v := range vals {
 		fmt.Fprintln(&b, v...)
 	}
-	for _, tab := range []string{"datum", "mark", "mark_condition", "height", "run", "sighting", "section", "run_mark",
-		"adjustment", "adjustment_run", "adjustment_held", "adjustment_result", "adjustment_event"} {
+	for _, tab := range registertest.Counts(t, conn).Tables() {
 		var n int64
 		var sum string
 		if err := conn.QueryRow(ctx, "SELECT count(*), md5(coalesce(string_agg(t::text, ',' ORDER BY t::text), '')) FROM "+tab+" t").Scan(&n, &sum); err != nil {

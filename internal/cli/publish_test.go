@@ -7,14 +7,13 @@ import (
 	"encoding/hex"
 	"encoding/json"
 	"fmt"
-	"os"
 	"os/exec"
 	"strings"
 	"sync"
 	"testing"
 
 	"cairn/internal/pgtest"
-	"cairn/internal/register"
+	"cairn/internal/registertest"
 )
 
 // workedCircuit is worked example 1 of docs/references.md as a level book (see
@@ -27,32 +26,13 @@ const workedCircuit = "../../testdata/adjust/worked-circuit.csv"
 // it returns the run identifiers and the books' bytes.
 func seedWorked(t *testing.T, db *pgtest.DB, copies int) ([]int64, [][]byte) {
 	t.Helper()
-	mustRun(t, db.URL, "datum", "add", "NAVD88", "--name", "North American Vertical Datum of 1988")
-	for i := 1; i <= 6; i++ {
-		mustRun(t, db.URL, "mark", "add", fmt.Sprintf("BM%d", i))
-	}
-	mustRun(t, db.URL, "height", "set", "BM1", "728.730", "--unit", "m", "--datum", "NAVD88",
-		"--source", "Outside control sheet 1 (invented citation)", "--reason", "held control", "--by", "tester")
-	book, err := os.ReadFile(workedCircuit)
-	if err != nil {
-		t.Fatal(err)
-	}
-	reg := register.New(db.Pool)
-	var ids []int64
+	runs := registertest.On(t, db).WorkedCircuit(t, registertest.WorkedCircuitOpts{Copies: copies,
+		Source: "Outside control sheet 1 (invented citation)", Reason: "held control", By: "tester"})
 	var books [][]byte
 	for c := 1; c <= copies; c++ {
-		b := book
-		if c > 1 {
-			b = append([]byte(fmt.Sprintf("# copy %d\n", c)), book...)
-		}
-		rec, err := reg.Record(context.Background(), register.RecordParams{Path: "worked-circuit.csv", Book: b, By: "tester"})
-		if err != nil {
-			t.Fatal(err)
-		}
-		ids = append(ids, rec.Run.ID)
-		books = append(books, b)
+		books = append(books, registertest.WorkedBook(t, c))
 	}
-	return ids, books
+	return runs, books
 }
 
 // End to end through the commands: adjust, publish (refused off a
@@ -151,6 +131,7 @@ func TestPublishRaceProcesses(t *testing.T) {
 		}
 		ids = append(ids, fmt.Sprint(*rep.AdjustmentID))
 	}
+	before := registertest.Counts(t, db.Pool)
 	var wg sync.WaitGroup
 	status := make([]int, 2)
 	stderr := make([]string, 2)
@@ -195,6 +176,8 @@ func TestPublishRaceProcesses(t *testing.T) {
 	if n != 5 {
 		t.Fatalf("%d versions from adjustments, want the winner's 5", n)
 	}
+	// The winner wrote its event and its versions; the loser nothing.
+	registertest.AssertWrote(t, db.Pool, before, map[string]int64{"adjustment_event": 1, "height": 5})
 	var list []adjustmentRowJSON
 	if err := json.Unmarshal([]byte(mustRun(t, db.URL, "adjustment", "list", "--status", "draft", "-o", "json")), &list); err != nil {
 		t.Fatal(err)

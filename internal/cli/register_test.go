@@ -14,6 +14,7 @@ import (
 	"time"
 
 	"cairn/internal/pgtest"
+	"cairn/internal/registertest"
 	"cairn/internal/store"
 )
 
@@ -252,11 +253,7 @@ func TestBadInputChangesNothing(t *testing.T) {
 	db := pgtest.New(t)
 	seed(t, db.URL)
 	mustRun(t, db.URL, setArgs("769.83", "from the book")...)
-	ctx := context.Background()
-	before, err := store.Count(ctx, db.Pool)
-	if err != nil {
-		t.Fatal(err)
-	}
+	before := registertest.Counts(t, db.Pool)
 	hs := func(value, unit, datum, reason string) []string {
 		return []string{"height", "set", "TC-0412", value, "--unit", unit, "--datum", datum, "--source", "book", "--reason", reason}
 	}
@@ -300,14 +297,8 @@ func TestBadInputChangesNothing(t *testing.T) {
 			t.Errorf("%s: message does not name %s: %q", c.name, c.field, msg)
 		}
 	}
-	after, err := store.Count(ctx, db.Pool)
-	if err != nil {
-		t.Fatal(err)
-	}
-	for k, v := range before {
-		if after[k] != v {
-			t.Errorf("%s: %d rows before bad input, %d after", k, v, after[k])
-		}
+	if !registertest.AssertNothingWritten(t, db.Pool, before) {
+		t.Errorf("bad input changed the register")
 	}
 }
 
@@ -339,13 +330,10 @@ func TestDemoRunsTwice(t *testing.T) {
 		t.Fatal(err)
 	}
 	defer pool.Close()
-	n, err := store.Count(context.Background(), pool)
-	if err != nil {
-		t.Fatal(err)
-	}
+	n := registertest.Counts(t, pool)
 	// 10 marks, and 1 created by the field books; 16 heights from outside
 	// sources and 3 published from the adjustments of the two runs.
-	if n["datum"] != 2 || n["mark"] != 11 || n["height"] != 19 {
+	if n.Rows("datum") != 2 || n.Rows("mark") != 11 || n.Rows("height") != 19 {
 		t.Fatalf("demo register after two runs: %v, want 2 datums, 11 marks, 19 versions", n)
 	}
 	if _, errOut, st := run(t, demoURL, "audit", "verify"); st != 0 {
@@ -390,14 +378,7 @@ func TestHeightCorrectionAndWithdrawal(t *testing.T) {
 	if out := mustRun(t, db.URL, "height", "show", "TC-0412", "--as-of", time.Now().Add(-time.Hour).UTC().Format(time.RFC3339)); strings.Contains(out, "769") {
 		t.Errorf("an hour ago there was no height yet:\n%s", out)
 	}
-	rows := func() int {
-		var n int
-		if err := db.Pool.QueryRow(context.Background(), "SELECT count(*) FROM height").Scan(&n); err != nil {
-			t.Fatal(err)
-		}
-		return n
-	}
-	n := rows()
+	before := registertest.Counts(t, db.Pool)
 	for _, args := range [][]string{
 		{"height", "withdraw", "TC-0412", "--datum", "NAVD88", "--reason", "again"},
 		append(setArgs("769.90", "by hand"), "--kind", "adjustment"),
@@ -406,8 +387,8 @@ func TestHeightCorrectionAndWithdrawal(t *testing.T) {
 			t.Errorf("cairn %s: exit %d, want 2: %s", strings.Join(args, " "), st, errOut)
 		}
 	}
-	if rows() != n {
-		t.Fatalf("refused writes changed the number of versions from %d to %d", n, rows())
+	if !registertest.AssertNothingWritten(t, db.Pool, before) {
+		t.Fatal("refused writes changed the register")
 	}
 	mustRun(t, db.URL, "audit", "verify")
 }

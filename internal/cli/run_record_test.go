@@ -18,8 +18,7 @@ import (
 
 	"cairn/internal/booktest"
 	"cairn/internal/pgtest"
-	"cairn/internal/register"
-	"cairn/internal/store"
+	"cairn/internal/registertest"
 )
 
 // writeBook writes data to a file named name in a fresh folder and returns
@@ -33,25 +32,14 @@ func writeBook(t *testing.T, name string, data []byte) string {
 	return path
 }
 
-// addMarks adds marks to the register at db.
+// addMarks adds marks (no position) to the register at db.
 func addMarks(t *testing.T, db *pgtest.DB, marks ...string) {
 	t.Helper()
-	reg := register.New(db.Pool)
-	for _, m := range marks {
-		if _, err := reg.MarkAdd(context.Background(), register.MarkAddParams{Designation: m, CreatedBy: "test"}); err != nil {
-			t.Fatal(err)
-		}
-	}
+	registertest.On(t, db).Marks(t, marks...)
 }
 
-func runCounts(t *testing.T, db *pgtest.DB) store.RunTableCounts {
-	t.Helper()
-	c, err := store.RunTableCount(context.Background(), db.Pool)
-	if err != nil {
-		t.Fatal(err)
-	}
-	return c
-}
+// noRuns are the counts of a register with no run.
+var noRuns = map[string]int64{"run": 0, "sighting": 0, "section": 0, "run_mark": 0}
 
 var recordedRun = regexp.MustCompile(`Recorded run (\d+) from `)
 
@@ -130,13 +118,13 @@ func TestRunRecordShowBookRoundTrip(t *testing.T) {
 	}
 
 	// Again: refused, naming the run.
+	before := registertest.Counts(t, db.Pool)
 	_, errOut, st = run(t, db.URL, "run", "record", path)
 	if st != ExitBadInput || !strings.Contains(errOut, "is already recorded as run "+id+" ") {
 		t.Errorf("second record: exit %d: %s", st, errOut)
 	}
-	if c := runCounts(t, db); c.Runs != 1 {
-		t.Errorf("counts %+v", c)
-	}
+	registertest.AssertCounts(t, db.Pool, map[string]int64{"run": 1})
+	registertest.AssertNothingWritten(t, db.Pool, before)
 }
 
 // Refused books exit 2 and write nothing; a reason makes a failing book
@@ -149,11 +137,14 @@ func TestRunRecordRefusals(t *testing.T) {
 		t.Fatal(err)
 	}
 	path := writeBook(t, "north-loop.csv", orig)
+	empty := registertest.Counts(t, db.Pool)
 	_, errOut, st := run(t, db.URL, "run", "record", path)
 	if st != ExitBadInput || !strings.Contains(errOut, "3 marks are not in the register: TC-0412 (line 16), TC-0413 (line 21), TC-0415 (line 25)") {
 		t.Errorf("unknown marks: exit %d: %s", st, errOut)
 	}
+	registertest.AssertNothingWritten(t, db.Pool, empty)
 	addMarks(t, db, "TC-0412", "TC-0413", "TC-0415")
+	before := registertest.Counts(t, db.Pool)
 
 	// The loop's sights of 160-220 ft are longer than first-I's 50 m.
 	tight := []string{"run", "record", path, "--class", "first-I"}
@@ -170,8 +161,8 @@ func TestRunRecordRefusals(t *testing.T) {
 	if _, errOut, st = run(t, db.URL, "run", "record", filepath.Join(t.TempDir(), "missing.csv")); st != ExitBadInput || !strings.Contains(errOut, "missing.csv: cannot read the book") {
 		t.Errorf("missing file: exit %d: %s", st, errOut)
 	}
-	if c := runCounts(t, db); c != (store.RunTableCounts{}) {
-		t.Fatalf("refused books left %+v", c)
+	if !registertest.AssertCounts(t, db.Pool, noRuns) || !registertest.AssertNothingWritten(t, db.Pool, before) {
+		t.Fatal("refused books left rows")
 	}
 	reason := "first-order sight lengths not kept; recorded for the section differences"
 	out := mustRun(t, db.URL, append(tight, "--accept-failed-checks", "--reason", reason)...)
@@ -254,6 +245,7 @@ func TestRunRecordKilledLeavesNothing(t *testing.T) {
 	db := pgtest.New(t)
 	loop := booktest.Loop{Setups: 20000, Seed: 3}
 	addMarks(t, db, loop.Marks()...)
+	before := registertest.Counts(t, db.Pool)
 	path := writeBook(t, "loop-20k.csv", loop.Book())
 	release := holdSections(t, db)
 
@@ -305,15 +297,15 @@ func TestRunRecordKilledLeavesNothing(t *testing.T) {
 		}
 		return n == 0
 	})
-	if c := runCounts(t, db); c != (store.RunTableCounts{}) {
-		t.Fatalf("killed recording left %+v", c)
+	if !registertest.AssertCounts(t, db.Pool, noRuns) || !registertest.AssertNothingWritten(t, db.Pool, before) {
+		t.Fatal("killed recording left rows")
 	}
 	out := mustRun(t, db.URL, "run", "record", path, "--by", "test")
 	if !strings.Contains(out, "Recorded run ") {
 		t.Fatalf("recording after the kill:\n%s", out)
 	}
-	if c := runCounts(t, db); c.Runs != 1 || c.Sightings != 40000 || c.Sections != int64(loop.Sections()) {
-		t.Fatalf("after recording again: %+v", c)
+	if !registertest.AssertCounts(t, db.Pool, map[string]int64{"run": 1, "sighting": 40000, "section": int64(loop.Sections())}) {
+		t.Fatal("after recording again")
 	}
 }
 
@@ -373,7 +365,7 @@ func TestRunRecordTwoProcessesOneWins(t *testing.T) {
 	if m == nil || !strings.Contains(lost.err.String(), "is already recorded as run "+m[1]+" ") {
 		t.Fatalf("winner:\n%s\nloser:\n%s", won.out.String(), lost.err.String())
 	}
-	if c := runCounts(t, db); c.Runs != 1 || c.Sightings != 400 {
-		t.Fatalf("counts %+v", c)
+	if !registertest.AssertCounts(t, db.Pool, map[string]int64{"run": 1, "sighting": 400}) {
+		t.FailNow()
 	}
 }

@@ -1,4 +1,4 @@
-package register
+package register_test
 
 import (
 	"context"
@@ -13,6 +13,9 @@ import (
 	"time"
 
 	"github.com/jackc/pgx/v5/pgxpool"
+
+	. "cairn/internal/register"
+	"cairn/internal/registertest"
 )
 
 // loadDuration is how long the load test runs: CAIRN_LOAD_SECONDS, else 5
@@ -43,9 +46,9 @@ func loadDuration(t *testing.T) time.Duration {
 // failure was a clean conflict. Throughput is reported, not asserted.
 func TestLoadSixteenWorkers(t *testing.T) {
 	t.Parallel()
-	b, firstRun := setup(t)
+	b, firstRun := setupWorked(t)
 	ctx := context.Background()
-	cfg, err := pgxpool.ParseConfig(b.db.URL)
+	cfg, err := pgxpool.ParseConfig(b.DB.URL)
 	if err != nil {
 		t.Fatal(err)
 	}
@@ -57,7 +60,7 @@ func TestLoadSixteenWorkers(t *testing.T) {
 	}
 	defer pool.Close()
 	reg := New(pool)
-	book := workedBook(t, 0)
+	book := registertest.WorkedBook(t, 0)
 	// The quiet circuits: the same book over marks of their own.
 	quiet := []string{"OA", "OB", "OC", "OD"}
 	circuits := append([]string{"BM"}, quiet...)
@@ -66,16 +69,10 @@ func TestLoadSixteenWorkers(t *testing.T) {
 	for _, c := range quiet {
 		books[c] = []byte(strings.ReplaceAll(string(book), "BM", c))
 		for i := 1; i <= 6; i++ {
-			if _, err := b.reg.MarkAdd(ctx, MarkAddParams{Designation: fmt.Sprintf("%s%d", c, i), CreatedBy: "test"}); err != nil {
-				t.Fatal(err)
-			}
+			b.Mark(t, registertest.MarkOpts{Designation: fmt.Sprintf("%s%d", c, i), NoPosition: true})
 		}
-		b.setHeight(t, c+"1", "728.730", "Outside control, sheet "+c+" (invented citation)")
-		rec, err := b.reg.Record(ctx, RecordParams{Path: "orrin-bay-" + c + ".csv", Book: books[c], By: "test"})
-		if err != nil {
-			t.Fatal(err)
-		}
-		firstRuns[c] = rec.Run.ID
+		outside(t, b, c+"1", "728.730", "Outside control, sheet "+c+" (invented citation)")
+		firstRuns[c] = b.Run(t, registertest.RunOpts{Path: "orrin-bay-" + c + ".csv", Book: books[c]}).Run.ID
 	}
 
 	type tally struct {
@@ -156,7 +153,7 @@ func TestLoadSixteenWorkers(t *testing.T) {
 					tl.tried[circuit]++
 					rs := runs[circuit]
 					var v *AdjustmentView
-					v, err = reg.Adjust(ctx, AdjustParams{RunIDs: []int64{rs[rng.IntN(len(rs))]}, Hold: HoldFixed(circuit + "1"), By: "load"})
+					v, err = reg.Adjust(ctx, b.AdjustParams(registertest.AdjustmentOpts{Runs: []int64{rs[rng.IntN(len(rs))]}, Hold: []string{circuit + "1"}, By: "load"}))
 					if err == nil {
 						var pub *Published
 						pub, err = reg.Publish(ctx, PublishParams{AdjustmentID: v.Adjustment.ID, Reason: "load", By: "load"})
@@ -230,7 +227,7 @@ func TestLoadSixteenWorkers(t *testing.T) {
 
 	// No version lost, none duplicated: per mark, the register holds
 	// versions 1..n, exactly as many as were reported written.
-	rows, err := b.db.Pool.Query(ctx, `SELECT m.designation, count(*), count(DISTINCT h.version), max(h.version)
+	rows, err := b.DB.Pool.Query(ctx, `SELECT m.designation, count(*), count(DISTINCT h.version), max(h.version)
 		FROM height h JOIN mark m ON m.id = h.mark_id GROUP BY m.designation`)
 	if err != nil {
 		t.Fatal(err)
@@ -254,13 +251,13 @@ func TestLoadSixteenWorkers(t *testing.T) {
 		t.Errorf("%d versions in the register, %d reported written", inRegister, versions)
 	}
 	var runsIn int
-	if err := b.db.Pool.QueryRow(ctx, "SELECT count(*) FROM run").Scan(&runsIn); err != nil {
+	if err := b.DB.Pool.QueryRow(ctx, "SELECT count(*) FROM run").Scan(&runsIn); err != nil {
 		t.Fatal(err)
 	}
 	if want := len(circuits) + ops["recording"] - conflicts["recording"]; runsIn != want {
 		t.Errorf("%d runs in the register, %d recorded", runsIn, want)
 	}
-	rep, err := b.reg.AuditVerify(ctx)
+	rep, err := b.Reg.AuditVerify(ctx)
 	if err != nil {
 		t.Fatal(err)
 	}

@@ -1,7 +1,6 @@
-package register
+package register_test
 
 import (
-	"context"
 	"errors"
 	"fmt"
 	"math"
@@ -11,7 +10,8 @@ import (
 	"gonum.org/v1/gonum/mat"
 
 	"cairn/internal/adjust"
-	"cairn/internal/pgtest"
+	. "cairn/internal/register"
+	"cairn/internal/registertest"
 	"cairn/internal/store"
 )
 
@@ -55,52 +55,41 @@ func netBook(name string, secs []netSection) ([]byte, [][2]int) {
 	return []byte(b.String()), lines
 }
 
-type netBundle struct {
-	*bundle
-	runs  []int64
-	lines [][][2]int
-}
-
 // setupNet gives a register with datum NAVD88, the marks of tallisNet (and
 // TC-0430, TC-0431 far off, with a run of their own as the last run), the
-// held heights, and the runs recorded from net.
-func setupNet(t *testing.T, net [][]netSection) *netBundle {
+// held heights, and the runs recorded from net (the bundle's Runs); it
+// returns, per run and section, the book lines of the section's backsight
+// and foresight.
+func setupNet(t *testing.T, net [][]netSection) (*registertest.Bundle, [][][2]int) {
 	t.Helper()
-	db := pgtest.New(t)
-	b := &netBundle{bundle: &bundle{db: db, reg: New(db.Pool), ctx: context.Background()}}
-	if _, err := b.reg.DatumAdd(b.ctx, DatumAddParams{Code: "NAVD88", Name: "North American Vertical Datum of 1988", By: "test"}); err != nil {
-		t.Fatal(err)
-	}
+	b := registertest.Setup(t)
+	b.Datum(t, registertest.DatumOpts{})
 	// TC-0412 at 41.600,-97.900; the others 0.02° of latitude (2.2 km)
 	// apart; TC-0430 and TC-0431 a degree away.
 	pos := map[string][2]float64{"TC-0412": {41.60, -97.90}, "TC-0413": {41.62, -97.90}, "TC-0414": {41.64, -97.90},
 		"TC-0415": {41.66, -97.90}, "TC-0416": {41.68, -97.90}, "TC-0430": {42.60, -97.90}, "TC-0431": {42.62, -97.90}}
 	for _, d := range []string{"TC-0412", "TC-0413", "TC-0414", "TC-0415", "TC-0416", "TC-0430", "TC-0431"} {
 		lat, lon := pos[d][0], pos[d][1]
-		if _, err := b.reg.MarkAdd(b.ctx, MarkAddParams{Designation: d, Lat: &lat, Lon: &lon, CreatedBy: "test"}); err != nil {
-			t.Fatal(err)
-		}
+		b.Mark(t, registertest.MarkOpts{Designation: d, Lat: &lat, Lon: &lon})
 	}
-	b.setHeight(t, "TC-0412", "10.0000", "Outside control (invented citation)")
-	b.setHeight(t, "TC-0415", "10.9012", "Outside control (invented citation)")
+	outside(t, b, "TC-0412", "10.0000", "Outside control (invented citation)")
+	outside(t, b, "TC-0415", "10.9012", "Outside control (invented citation)")
+	var lines [][][2]int
 	all := append(append([][]netSection{}, net...), []netSection{{"TC-0430", "TC-0431", 0.4321, 1.0}})
 	for i, secs := range all {
-		book, lines := netBook(fmt.Sprintf("Tallis run %c", 'A'+i), secs)
+		book, ls := netBook(fmt.Sprintf("Tallis run %c", 'A'+i), secs)
 		// A line of a network closes only in the network: record it with
 		// its closure check set aside, as an office would.
-		rec, err := b.reg.Record(b.ctx, RecordParams{Path: fmt.Sprintf("tallis-%c.csv", 'a'+i), Book: book, By: "test",
+		b.Run(t, registertest.RunOpts{Path: fmt.Sprintf("tallis-%c.csv", 'a'+i), Book: book,
 			AcceptFailedChecks: true, Reason: "a line of the Tallis network, checked by its least-squares adjustment"})
-		if err != nil {
-			t.Fatal(err)
-		}
-		b.runs = append(b.runs, rec.Run.ID)
-		b.lines = append(b.lines, lines)
+		lines = append(lines, ls)
 	}
-	return b
+	return b, lines
 }
 
-func lsqParams(runs []int64, hold ...string) AdjustParams {
-	return AdjustParams{RunIDs: runs, Hold: HoldFixed(hold...), Method: MethodLeastSquares, By: "test"}
+// lsq adjusts runs by least squares holding hold fixed.
+func lsq(runs []int64, hold ...string) registertest.AdjustmentOpts {
+	return registertest.AdjustmentOpts{Runs: runs, Hold: hold, Method: MethodLeastSquares}
 }
 
 // denseLSQ adjusts a network with TC-0412 and TC-0415 held fixed by the
@@ -166,11 +155,8 @@ func denseLSQ(t *testing.T, net [][]netSection) map[string][2]float64 {
 // of the dense textbook solution; a mark reached by two runs is one result.
 func TestLeastSquaresSharedMarks(t *testing.T) {
 	t.Parallel()
-	b := setupNet(t, tallisNet)
-	v, err := b.reg.Adjust(b.ctx, lsqParams(b.runs[:3], "TC-0412", "TC-0415"))
-	if err != nil {
-		t.Fatal(err)
-	}
+	b, lines := setupNet(t, tallisNet)
+	v := b.Adjustment(t, lsq(b.Runs[:3], "TC-0412", "TC-0415"))
 	if len(v.Results) != 5 || len(v.Sections) != 7 {
 		t.Fatalf("%d results and %d sections, want 5 and 7", len(v.Results), len(v.Sections))
 	}
@@ -219,7 +205,7 @@ func TestLeastSquaresSharedMarks(t *testing.T) {
 	}
 
 	// Stored and read back, the same.
-	again, err := b.reg.Adjustment(b.ctx, v.Adjustment.ID)
+	again, err := b.Reg.Adjustment(b.Ctx, v.Adjustment.ID)
 	if err != nil {
 		t.Fatal(err)
 	}
@@ -228,8 +214,8 @@ func TestLeastSquaresSharedMarks(t *testing.T) {
 		again.Parameters.Weighting != "length" || again.Parameters.SigmaMM != 1 || len(again.Runs) != 3 {
 		t.Fatalf("read back: %+v / %+v", again.Sections, again.Parameters)
 	}
-	if l := b.lines[1][1]; again.Sections[4].RunID != b.runs[1] || again.Sections[4].FirstLine != l[0] || again.Sections[4].LastLine != l[1] {
-		t.Fatalf("section 5: %+v, want run %d lines %v", again.Sections[4], b.runs[1], l)
+	if l := lines[1][1]; again.Sections[4].RunID != b.Runs[1] || again.Sections[4].FirstLine != l[0] || again.Sections[4].LastLine != l[1] {
+		t.Fatalf("section 5: %+v, want run %d lines %v", again.Sections[4], b.Runs[1], l)
 	}
 }
 
@@ -237,22 +223,16 @@ func TestLeastSquaresSharedMarks(t *testing.T) {
 // finds its heights once a held mark gets a new version.
 func TestLeastSquaresPublishTraceStale(t *testing.T) {
 	t.Parallel()
-	b := setupNet(t, tallisNet)
-	v, err := b.reg.Adjust(b.ctx, lsqParams(b.runs[:3], "TC-0412", "TC-0415"))
-	if err != nil {
-		t.Fatal(err)
-	}
-	pub, err := b.reg.Publish(b.ctx, PublishParams{AdjustmentID: v.Adjustment.ID, Reason: "network of three runs", By: "test"})
-	if err != nil {
-		t.Fatal(err)
-	}
+	b, _ := setupNet(t, tallisNet)
+	v := b.Adjustment(t, lsq(b.Runs[:3], "TC-0412", "TC-0415"))
+	pub := b.Publication(t, v.Adjustment.ID, registertest.PublicationOpts{Reason: "network of three runs"})
 	if len(pub.Versions) != 3 {
 		t.Fatalf("%d versions published, want 3", len(pub.Versions))
 	}
-	if h := b.current(t, "TC-0413"); h.AdjustmentID == nil || *h.AdjustmentID != v.Adjustment.ID || *h.Value != *v.Results[1].Value {
+	if h := current(t, b, "TC-0413"); h.AdjustmentID == nil || *h.AdjustmentID != v.Adjustment.ID || *h.Value != *v.Results[1].Value {
 		t.Fatalf("TC-0413 now %+v, want %s from adjustment %d", h, *v.Results[1].Value, v.Adjustment.ID)
 	}
-	tr, err := b.reg.Trace(b.ctx, TraceParams{Designation: "TC-0416"})
+	tr, err := b.Reg.Trace(b.Ctx, TraceParams{Designation: "TC-0416"})
 	if err != nil {
 		t.Fatal(err)
 	}
@@ -260,11 +240,11 @@ func TestLeastSquaresPublishTraceStale(t *testing.T) {
 	if a == nil || a.Method != string(MethodLeastSquares) || len(a.Runs) != 3 || len(a.Held) != 2 {
 		t.Fatalf("trace: %+v", tr.Versions[0])
 	}
-	if s, err := b.reg.Stale(b.ctx); err != nil || len(s) != 0 {
+	if s, err := b.Reg.Stale(b.Ctx); err != nil || len(s) != 0 {
 		t.Fatalf("stale before: %v %v", s, err)
 	}
-	b.setHeight(t, "TC-0415", "10.9020", "Outside control, revised (invented citation)")
-	s, err := b.reg.Stale(b.ctx)
+	outside(t, b, "TC-0415", "10.9020", "Outside control, revised (invented citation)")
+	s, err := b.Reg.Stale(b.Ctx)
 	if err != nil {
 		t.Fatal(err)
 	}
@@ -280,20 +260,17 @@ func TestLeastSquaresFlagsPlantedBlunder(t *testing.T) {
 	t.Parallel()
 	net := [][]netSection{append([]netSection{}, tallisNet[0]...), tallisNet[1], tallisNet[2]}
 	net[0][1].dhM += 0.05
-	b := setupNet(t, net)
-	v, err := b.reg.Adjust(b.ctx, lsqParams(b.runs[:3], "TC-0412", "TC-0415"))
-	if err != nil {
-		t.Fatal(err)
-	}
+	b, lines := setupNet(t, net)
+	v := b.Adjustment(t, lsq(b.Runs[:3], "TC-0412", "TC-0415"))
 	var top *store.AdjustmentSection
 	for i, s := range v.Sections {
 		if s.Flagged && (top == nil || math.Abs(*s.W) > math.Abs(*top.W)) {
 			top = &v.Sections[i]
 		}
 	}
-	l := b.lines[0][1]
-	if top == nil || top.RunID != b.runs[0] || top.Seq != 2 || top.FirstLine != l[0] || top.LastLine != l[1] {
-		t.Fatalf("largest flagged %+v, want run %d section 2 lines %v", top, b.runs[0], l)
+	l := lines[0][1]
+	if top == nil || top.RunID != b.Runs[0] || top.Seq != 2 || top.FirstLine != l[0] || top.LastLine != l[1] {
+		t.Fatalf("largest flagged %+v, want run %d section 2 lines %v", top, b.Runs[0], l)
 	}
 	if v.Failed() == 0 || v.Statistics.Network.ChiSquarePass {
 		t.Fatalf("failed %d, statistics %+v", v.Failed(), v.Statistics.Network)
@@ -303,25 +280,19 @@ func TestLeastSquaresFlagsPlantedBlunder(t *testing.T) {
 // --marks and --area choose the runs with a section from or to the marks.
 func TestLeastSquaresChoosesRuns(t *testing.T) {
 	t.Parallel()
-	b := setupNet(t, tallisNet)
+	b, _ := setupNet(t, tallisNet)
 	ids := func(v *AdjustmentView) []int64 { return v.Adjustment.RunIDs }
-	p := lsqParams(nil, "TC-0415")
-	p.Marks, p.DryRun = []string{"TC-0416"}, true
-	v, err := b.reg.Adjust(b.ctx, p)
-	if err != nil {
-		t.Fatal(err)
+	o := lsq(nil, "TC-0415")
+	o.DryRun, o.Edit = true, func(p *AdjustParams) { p.RunIDs, p.Marks = nil, []string{"TC-0416"} }
+	v := b.Adjustment(t, o)
+	if got := fmt.Sprint(ids(v)); got != fmt.Sprint(b.Runs[1:3]) {
+		t.Fatalf("--marks TC-0416 chose %s, want %v", got, b.Runs[1:3])
 	}
-	if got := fmt.Sprint(ids(v)); got != fmt.Sprint(b.runs[1:3]) {
-		t.Fatalf("--marks TC-0416 chose %s, want %v", got, b.runs[1:3])
-	}
-	p = lsqParams([]int64{b.runs[2]}, "TC-0412")
-	p.Near, p.RadiusM, p.DryRun = &store.LatLon{Lat: 41.601, Lon: -97.90}, 500, true
-	v, err = b.reg.Adjust(b.ctx, p)
-	if err != nil {
-		t.Fatal(err)
-	}
+	o = lsq([]int64{b.Runs[2]}, "TC-0412")
+	o.DryRun, o.Edit = true, func(p *AdjustParams) { p.Near, p.RadiusM = &store.LatLon{Lat: 41.601, Lon: -97.90}, 500 }
+	v = b.Adjustment(t, o)
 	// Run C by number, then A and B through TC-0412, the only mark within 500 m.
-	if got, want := fmt.Sprint(ids(v)), fmt.Sprint([]int64{b.runs[2], b.runs[0], b.runs[1]}); got != want {
+	if got, want := fmt.Sprint(ids(v)), fmt.Sprint([]int64{b.Runs[2], b.Runs[0], b.Runs[1]}); got != want {
 		t.Fatalf("--area chose %s, want %s", got, want)
 	}
 	if v.Parameters.Area == "" {
@@ -334,13 +305,10 @@ func TestLeastSquaresChoosesRuns(t *testing.T) {
 // and reports the others as check marks, never published.
 func TestLeastSquaresWeightedAndMinimal(t *testing.T) {
 	t.Parallel()
-	b := setupNet(t, tallisNet)
-	p := lsqParams(b.runs[:3], "TC-0412", "TC-0415")
-	p.Hold[1].SigmaM = 0.005 // 5 mm
-	v, err := b.reg.Adjust(b.ctx, p)
-	if err != nil {
-		t.Fatal(err)
-	}
+	b, _ := setupNet(t, tallisNet)
+	o := lsq(b.Runs[:3], "TC-0412", "TC-0415")
+	o.SigmaMM = map[string]float64{"TC-0415": 5}
+	v := b.Adjustment(t, o)
 	var w store.AdjustmentResult
 	for _, r := range v.Results {
 		if r.Designation == "TC-0415" {
@@ -352,12 +320,9 @@ func TestLeastSquaresWeightedAndMinimal(t *testing.T) {
 		v.Parameters.HoldSDMM["TC-0415"] != 5 || v.Statistics.Network.Observations != 8 {
 		t.Fatalf("weighted TC-0415 %+v, held %+v, parameters %+v", w, h, v.Parameters)
 	}
-	p = lsqParams(b.runs[:3], "TC-0412", "TC-0415")
-	p.LeastSquares.Minimal = true
-	v, err = b.reg.Adjust(b.ctx, p)
-	if err != nil {
-		t.Fatal(err)
-	}
+	o = lsq(b.Runs[:3], "TC-0412", "TC-0415")
+	o.Edit = func(p *AdjustParams) { p.LeastSquares.Minimal = true }
+	v = b.Adjustment(t, o)
 	for _, r := range v.Results {
 		if r.Designation == "TC-0415" && (!r.Held || r.Value != nil || math.Abs(r.AdjustedM-10.9012-*r.CorrectionM) > 1e-12 || *r.CorrectionM == 0) {
 			t.Fatalf("check mark %+v", r)
@@ -371,8 +336,10 @@ func TestLeastSquaresWeightedAndMinimal(t *testing.T) {
 // Bad input names its field and writes nothing.
 func TestLeastSquaresBadInput(t *testing.T) {
 	t.Parallel()
-	b := setupNet(t, tallisNet)
-	before := b.counts(t)
+	b, _ := setupNet(t, tallisNet)
+	// The mark of "mark on no run", made before counting.
+	b.Mark(t, registertest.MarkOpts{Designation: "TC-0499", NoPosition: true})
+	before := b.Counts(t)
 	near := &store.LatLon{Lat: 0, Lon: 0}
 	for _, c := range []struct {
 		name  string
@@ -380,7 +347,7 @@ func TestLeastSquaresBadInput(t *testing.T) {
 		field string
 		want  string
 	}{
-		{"no path to control", func(p *AdjustParams) { p.RunIDs = []int64{b.runs[0], b.runs[3]} }, "hold", "TC-0430, TC-0431"},
+		{"no path to control", func(p *AdjustParams) { p.RunIDs = []int64{b.Runs[0], b.Runs[3]} }, "hold", "TC-0430, TC-0431"},
 		{"negative weighted hold", func(p *AdjustParams) { p.Hold = []Hold{{Designation: "TC-0412", SigmaM: -0.005}} }, "hold", "standard deviation"},
 		{"weighted proportional", func(p *AdjustParams) {
 			p.Method = MethodProportional
@@ -392,7 +359,6 @@ func TestLeastSquaresBadInput(t *testing.T) {
 		{"mark on no run", func(p *AdjustParams) {
 			p.RunIDs = nil
 			p.Marks = []string{"TC-0412"}
-			b.addMark(t, "TC-0499")
 			p.Marks = []string{"TC-0499"}
 		}, "marks", "TC-0499"},
 		{"empty area", func(p *AdjustParams) { p.Near, p.RadiusM = near, 1000 }, "area", "no mark"},
@@ -401,22 +367,15 @@ func TestLeastSquaresBadInput(t *testing.T) {
 		{"bad alpha", func(p *AdjustParams) { p.LeastSquares.Alpha = 2 }, "alpha", ""},
 		{"bad sigma", func(p *AdjustParams) { p.LeastSquares.SigmaM = -1 }, "sigma", ""},
 	} {
-		p := lsqParams(b.runs[:3], "TC-0412", "TC-0415")
+		p := b.AdjustParams(lsq(b.Runs[:3], "TC-0412", "TC-0415"))
 		c.p(&p)
-		_, err := b.reg.Adjust(b.ctx, p)
+		_, err := b.Reg.Adjust(b.Ctx, p)
 		var ie *InputError
 		if !errors.As(err, &ie) || ie.Field != c.field || !strings.Contains(err.Error(), c.want) {
 			t.Errorf("%s: %v, want field %s saying %q", c.name, err, c.field, c.want)
 		}
 	}
-	if after := b.counts(t); after != before {
-		t.Fatalf("written: %s, was %s", after, before)
-	}
-}
-
-func (b *netBundle) addMark(t *testing.T, d string) {
-	t.Helper()
-	if _, err := b.reg.MarkAdd(b.ctx, MarkAddParams{Designation: d, CreatedBy: "test"}); err != nil {
-		t.Fatal(err)
+	if !b.AssertNothingWritten(t, before) {
+		t.Fatal("bad input wrote")
 	}
 }

@@ -1,22 +1,21 @@
-package register
+package register_test
 
 import (
-	"context"
 	"errors"
 	"fmt"
 	"math"
-	"os"
 	"strings"
 	"sync"
 	"testing"
 	"time"
 
 	"cairn/internal/adjust"
-	"cairn/internal/pgtest"
+	. "cairn/internal/register"
+	"cairn/internal/registertest"
 	"cairn/internal/store"
 )
 
-// workedExample is worked example 1 of docs/references.md: a level circuit from
+// workedExample is worked example 1 of REFERENCES.md: a level circuit from
 // BM1 (728.730 m) closing on BM1 at 728.486 m after 30.500 km. Inputs read
 // from a published sample problem of a distance-proportional adjustment;
 // the adjusted heights are derived there (+0.008 m/km) and are what cairn
@@ -36,75 +35,31 @@ var workedExample = []struct {
 	{"BM1", 30.500, 728.486, ""},
 }
 
-// workedBook returns the worked circuit's book; copies after the first get
-// a comment line of their own, so that they are different files.
-func workedBook(t *testing.T, copy int) []byte {
+// setupWorked gives a fresh register with datum NAVD88, marks BM1 to BM6,
+// BM1's outside height, and the worked circuit recorded as a run (the
+// bundle holds BM1 when told nothing else).
+func setupWorked(t *testing.T) (*registertest.Bundle, int64) {
 	t.Helper()
-	b, err := os.ReadFile("../../testdata/adjust/worked-circuit.csv")
-	if err != nil {
-		t.Fatal(err)
-	}
-	if copy > 1 {
-		b = append([]byte(fmt.Sprintf("# copy %d\n", copy)), b...)
-	}
-	return b
+	b := registertest.Setup(t)
+	return b, b.WorkedCircuit(t, registertest.WorkedCircuitOpts{Class: "first-II"})[0]
 }
 
-type bundle struct {
-	db  *pgtest.DB
-	reg *Register
-	ctx context.Context
+// outside records an outside height of mark, in metres, citing source.
+func outside(t *testing.T, b *registertest.Bundle, mark, value, source string) store.Height {
+	t.Helper()
+	return b.Height(t, registertest.HeightOpts{Designation: mark, Value: value, Class: "first-II", Source: source})
 }
 
-// setup gives a fresh register with datum NAVD88, marks BM1 to BM6, BM1's
-// outside height, and the worked circuit recorded as a run.
-func setup(t *testing.T) (*bundle, int64) {
+// adjustRuns makes a draft of runs holding BM1.
+func adjustRuns(t *testing.T, b *registertest.Bundle, runs ...int64) *AdjustmentView {
 	t.Helper()
-	db := pgtest.New(t)
-	b := &bundle{db: db, reg: New(db.Pool), ctx: context.Background()}
-	if _, err := b.reg.DatumAdd(b.ctx, DatumAddParams{Code: "NAVD88", Name: "North American Vertical Datum of 1988", By: "test"}); err != nil {
-		t.Fatal(err)
-	}
-	for i := 1; i <= 6; i++ {
-		if _, err := b.reg.MarkAdd(b.ctx, MarkAddParams{Designation: fmt.Sprintf("BM%d", i), CreatedBy: "test"}); err != nil {
-			t.Fatal(err)
-		}
-	}
-	b.setHeight(t, "BM1", "728.730", "Outside control, sheet 1 (invented citation)")
-	return b, b.record(t, 1)
+	return b.Adjustment(t, registertest.AdjustmentOpts{Runs: runs})
 }
 
-func (b *bundle) record(t *testing.T, seed int) int64 {
+// current returns mark's one current height.
+func current(t *testing.T, b *registertest.Bundle, mark string) store.Height {
 	t.Helper()
-	rec, err := b.reg.Record(b.ctx, RecordParams{Path: fmt.Sprintf("worked-%d.csv", seed), Book: workedBook(t, seed), By: "test"})
-	if err != nil {
-		t.Fatal(err)
-	}
-	return rec.Run.ID
-}
-
-func (b *bundle) setHeight(t *testing.T, mark, value, source string) store.Height {
-	t.Helper()
-	res, err := b.reg.HeightSet(b.ctx, HeightSetParams{Designation: mark, Datum: "NAVD88", Value: value, Unit: "m",
-		Class: "first-II", Source: source, Reason: "outside control", RecordedBy: "test"})
-	if err != nil {
-		t.Fatal(err)
-	}
-	return res.Version
-}
-
-func (b *bundle) adjust(t *testing.T, runs ...int64) *AdjustmentView {
-	t.Helper()
-	v, err := b.reg.Adjust(b.ctx, AdjustParams{RunIDs: runs, Hold: HoldFixed("BM1"), By: "test"})
-	if err != nil {
-		t.Fatal(err)
-	}
-	return v
-}
-
-func (b *bundle) current(t *testing.T, mark string) store.Height {
-	t.Helper()
-	v, err := b.reg.HeightShow(b.ctx, HeightShowParams{Designation: mark})
+	v, err := b.Reg.HeightShow(b.Ctx, HeightShowParams{Designation: mark})
 	if err != nil {
 		t.Fatal(err)
 	}
@@ -114,17 +69,11 @@ func (b *bundle) current(t *testing.T, mark string) store.Height {
 	return v.Heights[0]
 }
 
-func (b *bundle) counts(t *testing.T) string {
-	t.Helper()
-	var s string
-	err := b.db.Pool.QueryRow(b.ctx, `SELECT format('adjustment %s, result %s, held %s, event %s, height %s',
-		(SELECT count(*) FROM adjustment), (SELECT count(*) FROM adjustment_result), (SELECT count(*) FROM adjustment_held),
-		(SELECT count(*) FROM adjustment_event), (SELECT count(*) FROM height))`).Scan(&s)
-	if err != nil {
-		t.Fatal(err)
-	}
-	return s
-}
+// noAdjustment are the counts of a register with the worked circuit and no
+// adjustment.
+var noAdjustment = map[string]int64{"adjustment": 0, "adjustment_result": 0, "adjustment_held": 0, "adjustment_event": 0, "height": 1}
+
+var abs = math.Abs
 
 // End to end: outside control, a recorded loop, a draft, its publication;
 // the new heights are the worked example's, history keeps both versions
@@ -132,17 +81,18 @@ func (b *bundle) counts(t *testing.T) string {
 // outside citation.
 func TestAdjustPublishTrace(t *testing.T) {
 	t.Parallel()
-	b, run := setup(t)
+	b, run := setupWorked(t)
 
-	dry, err := b.reg.Adjust(b.ctx, AdjustParams{RunIDs: []int64{run}, Hold: HoldFixed("BM1"), DryRun: true})
-	if err != nil {
-		t.Fatal(err)
+	before := b.Counts(t)
+	dry := b.Adjustment(t, registertest.AdjustmentOpts{Runs: []int64{run}, DryRun: true})
+	if dry.Adjustment.ID != 0 {
+		t.Fatalf("dry run stored something: id %d", dry.Adjustment.ID)
 	}
-	if dry.Adjustment.ID != 0 || b.counts(t) != "adjustment 0, result 0, held 0, event 0, height 1" {
-		t.Fatalf("dry run stored something: id %d, %s", dry.Adjustment.ID, b.counts(t))
+	if !b.AssertCounts(t, noAdjustment) || !b.AssertNothingWritten(t, before) {
+		t.Fatal("dry run stored something")
 	}
 
-	v := b.adjust(t, run)
+	v := adjustRuns(t, b, run)
 	if v.Adjustment.Status != store.StatusDraft || len(v.Results) != 6 {
 		t.Fatalf("draft: status %s, %d results", v.Adjustment.Status, len(v.Results))
 	}
@@ -153,7 +103,7 @@ func TestAdjustPublishTrace(t *testing.T) {
 	// Draft results as stored equal the worked example, and the corrections
 	// grow to minus the misclosure at the closing mark (the rule of the
 	// method).
-	stored, err := b.reg.Adjustment(b.ctx, v.Adjustment.ID)
+	stored, err := b.Reg.Adjustment(b.Ctx, v.Adjustment.ID)
 	if err != nil {
 		t.Fatal(err)
 	}
@@ -168,19 +118,19 @@ func TestAdjustPublishTrace(t *testing.T) {
 		}
 	}
 
-	pub, err := b.reg.Publish(b.ctx, PublishParams{AdjustmentID: v.Adjustment.ID, Reason: "first adjustment of the circuit", By: "reviewer"})
+	pub, err := b.Reg.Publish(b.Ctx, PublishParams{AdjustmentID: v.Adjustment.ID, Reason: "first adjustment of the circuit", By: "reviewer"})
 	if err != nil {
 		t.Fatal(err)
 	}
 	if len(pub.Versions) != 5 || pub.Adjustment.Status != store.StatusPublished {
 		t.Fatalf("published %d versions, status %s", len(pub.Versions), pub.Adjustment.Status)
 	}
-	if h := b.current(t, "BM4"); *h.Value != "843.337" || h.SourceKind != KindAdjustment || *h.AdjustmentID != v.Adjustment.ID {
+	if h := current(t, b, "BM4"); *h.Value != "843.337" || h.SourceKind != KindAdjustment || *h.AdjustmentID != v.Adjustment.ID {
 		t.Fatalf("BM4 now %s (%s, adjustment %v), want 843.337 from adjustment %d", *h.Value, h.SourceKind, h.AdjustmentID, v.Adjustment.ID)
 	}
 
 	// A second publication of the same draft is refused.
-	_, err = b.reg.Publish(b.ctx, PublishParams{AdjustmentID: v.Adjustment.ID, Reason: "again", By: "reviewer"})
+	_, err = b.Reg.Publish(b.Ctx, PublishParams{AdjustmentID: v.Adjustment.ID, Reason: "again", By: "reviewer"})
 	var ce *ConflictError
 	if !errors.As(err, &ce) {
 		t.Fatalf("publishing twice: %v, want a conflict", err)
@@ -188,12 +138,12 @@ func TestAdjustPublishTrace(t *testing.T) {
 
 	// History: a new adjustment of BM2 over an outside first version keeps
 	// both, each with its reason.
-	b.setHeight(t, "BM2", "783.250", "Outside control, sheet 2 (invented citation)")
-	v2 := b.adjust(t, run)
-	if _, err := b.reg.Publish(b.ctx, PublishParams{AdjustmentID: v2.Adjustment.ID, Reason: "re-adjusted after review", By: "reviewer"}); err != nil {
+	outside(t, b, "BM2", "783.250", "Outside control, sheet 2 (invented citation)")
+	v2 := adjustRuns(t, b, run)
+	if _, err := b.Reg.Publish(b.Ctx, PublishParams{AdjustmentID: v2.Adjustment.ID, Reason: "re-adjusted after review", By: "reviewer"}); err != nil {
 		t.Fatal(err)
 	}
-	_, hist, err := b.reg.History(b.ctx, "BM2", "")
+	_, hist, err := b.Reg.History(b.Ctx, "BM2", "")
 	if err != nil {
 		t.Fatal(err)
 	}
@@ -206,12 +156,12 @@ func TestAdjustPublishTrace(t *testing.T) {
 		t.Fatalf("history of BM2:\n got %q\nwant %q", got, want)
 	}
 
-	tr, err := b.reg.Trace(b.ctx, TraceParams{Designation: "BM4"})
+	tr, err := b.Reg.Trace(b.Ctx, TraceParams{Designation: "BM4"})
 	if err != nil {
 		t.Fatal(err)
 	}
 	top := tr.Versions[0]
-	runs, err := b.reg.RunList(b.ctx, RunListParams{})
+	runs, err := b.Reg.RunList(b.Ctx, RunListParams{})
 	if err != nil {
 		t.Fatal(err)
 	}
@@ -231,16 +181,16 @@ func TestAdjustPublishTrace(t *testing.T) {
 // conflict naming a mark and writes nothing.
 func TestPublishRace(t *testing.T) {
 	t.Parallel()
-	b, run := setup(t)
-	run2 := b.record(t, 2)
-	a1, a2 := b.adjust(t, run), b.adjust(t, run2)
-	before := b.counts(t)
+	b, run := setupWorked(t)
+	run2 := b.WorkedCopy(t, 2, "")
+	a1, a2 := adjustRuns(t, b, run), adjustRuns(t, b, run2)
+	before := b.Counts(t)
 
-	blocker, err := b.db.Pool.Begin(b.ctx)
+	blocker, err := b.DB.Pool.Begin(b.Ctx)
 	if err != nil {
 		t.Fatal(err)
 	}
-	if _, err := blocker.Exec(b.ctx, "SELECT 1 FROM mark WHERE designation = 'BM3' FOR UPDATE"); err != nil {
+	if _, err := blocker.Exec(b.Ctx, "SELECT 1 FROM mark WHERE designation = 'BM3' FOR UPDATE"); err != nil {
 		t.Fatal(err)
 	}
 	var wg sync.WaitGroup
@@ -249,13 +199,13 @@ func TestPublishRace(t *testing.T) {
 		wg.Add(1)
 		go func() {
 			defer wg.Done()
-			_, errs[i] = b.reg.Publish(b.ctx, PublishParams{AdjustmentID: id, Reason: fmt.Sprintf("publication %d", i+1), By: "racer"})
+			_, errs[i] = b.Reg.Publish(b.Ctx, PublishParams{AdjustmentID: id, Reason: fmt.Sprintf("publication %d", i+1), By: "racer"})
 		}()
 	}
 	// Wait until both are blocked on the lock (polled, not timed).
 	for {
 		var n int
-		if err := b.db.Pool.QueryRow(b.ctx, `SELECT count(*) FROM pg_stat_activity
+		if err := b.DB.Pool.QueryRow(b.Ctx, `SELECT count(*) FROM pg_stat_activity
 			WHERE datname = current_database() AND wait_event_type = 'Lock' AND query LIKE '%FOR NO KEY UPDATE%'`).Scan(&n); err != nil {
 			t.Fatal(err)
 		}
@@ -264,7 +214,7 @@ func TestPublishRace(t *testing.T) {
 		}
 		time.Sleep(5 * time.Millisecond)
 	}
-	if err := blocker.Rollback(b.ctx); err != nil {
+	if err := blocker.Rollback(b.Ctx); err != nil {
 		t.Fatal(err)
 	}
 	wg.Wait()
@@ -288,11 +238,10 @@ func TestPublishRace(t *testing.T) {
 		t.Fatalf("%d won and %d conflicted, want one of each: %v", wins, conflicts, errs)
 	}
 	// The winner wrote its event and 5 versions; the loser nothing.
-	want := strings.Replace(strings.Replace(before, "event 0", "event 1", 1), "height 1", "height 6", 1)
-	if got := b.counts(t); got != want {
-		t.Fatalf("after the race %s, want %s", got, want)
+	if !b.AssertWrote(t, before, map[string]int64{"adjustment_event": 1, "height": 5}) {
+		t.Fatal("after the race: the winner's event and 5 versions, and nothing else, were wanted")
 	}
-	list, err := b.reg.AdjustmentList(b.ctx, AdjustmentListParams{Status: store.StatusDraft})
+	list, err := b.Reg.AdjustmentList(b.Ctx, AdjustmentListParams{Status: store.StatusDraft})
 	if err != nil || len(list) != 1 {
 		t.Fatalf("drafts after the race: %d (%v), want the loser's one", len(list), err)
 	}
@@ -304,14 +253,12 @@ func TestPublishRace(t *testing.T) {
 // heights of that run stale too.
 func TestStale(t *testing.T) {
 	t.Parallel()
-	b, run := setup(t)
-	a := b.adjust(t, run)
-	if _, err := b.reg.Publish(b.ctx, PublishParams{AdjustmentID: a.Adjustment.ID, Reason: "circuit", By: "test"}); err != nil {
-		t.Fatal(err)
-	}
+	b, run := setupWorked(t)
+	a := adjustRuns(t, b, run)
+	b.Publication(t, a.Adjustment.ID, registertest.PublicationOpts{Reason: "circuit"})
 	stale := func() map[string]string {
 		t.Helper()
-		s, err := b.reg.Stale(b.ctx)
+		s, err := b.Reg.Stale(b.Ctx)
 		if err != nil {
 			t.Fatal(err)
 		}
@@ -330,26 +277,18 @@ func TestStale(t *testing.T) {
 	}
 
 	// A second circuit holds BM2 (from the first adjustment) and BM1.
-	rec, err := b.reg.Record(b.ctx, RecordParams{Path: "spur.csv", By: "test", NewMarks: true,
+	rec := b.Run(t, registertest.RunOpts{Path: "spur.csv", NewMarks: true,
 		Hold: map[string]float64{"BM2": 783.255, "BM1": 728.730}, Book: []byte(
 			"# run: Spur\n# date: 2024-05-20\n# units: m\npoint,sight,middle,distance,note\n" +
 				"BM2,BS,1.500,40.0,\nTC-0900,FS,1.200,40.0,\nTC-0900,BS,1.300,40.0,\nBM1,FS,56.080,40.0,\n")})
-	if err != nil {
-		t.Fatal(err)
-	}
-	spur, err := b.reg.Adjust(b.ctx, AdjustParams{RunIDs: []int64{rec.Run.ID}, Hold: HoldFixed("BM2", "BM1"), By: "test"})
-	if err != nil {
-		t.Fatal(err)
-	}
-	if _, err := b.reg.Publish(b.ctx, PublishParams{AdjustmentID: spur.Adjustment.ID, Reason: "spur", By: "test"}); err != nil {
-		t.Fatal(err)
-	}
+	spur := b.Adjustment(t, registertest.AdjustmentOpts{Runs: []int64{rec.Run.ID}, Hold: []string{"BM2", "BM1"}})
+	b.Publication(t, spur.Adjustment.ID, registertest.PublicationOpts{Reason: "spur"})
 	if s := stale(); len(s) != 0 {
 		t.Fatalf("stale before any change: %v", s)
 	}
 
 	// A new outside value for BM1.
-	b.setHeight(t, "BM1", "728.735", "Outside control, sheet 1, revision 2 (invented citation)")
+	outside(t, b, "BM1", "728.735", "Outside control, sheet 1, revision 2 (invented citation)")
 	got := stale()
 	want := map[string]string{
 		"BM2": "held-superseded BM1", "BM3": "held-superseded BM1", "BM4": "held-superseded BM1",
@@ -362,30 +301,21 @@ func TestStale(t *testing.T) {
 
 	// Re-adjusting the circuit clears its heights; the spur still holds
 	// an old BM1 and an old BM2.
-	a2 := b.adjust(t, run)
-	if _, err := b.reg.Publish(b.ctx, PublishParams{AdjustmentID: a2.Adjustment.ID, Reason: "new BM1", By: "test"}); err != nil {
-		t.Fatal(err)
-	}
+	a2 := adjustRuns(t, b, run)
+	b.Publication(t, a2.Adjustment.ID, registertest.PublicationOpts{Reason: "new BM1"})
 	if got := stale(); fmt.Sprint(got) != "map[TC-0900:held-superseded BM1, held-superseded BM2]" {
 		t.Fatalf("stale after re-adjusting the circuit: %v", got)
 	}
-	spur2, err := b.reg.Adjust(b.ctx, AdjustParams{RunIDs: []int64{rec.Run.ID}, Hold: HoldFixed("BM2", "BM1"), By: "test"})
-	if err != nil {
-		t.Fatal(err)
-	}
-	if _, err := b.reg.Publish(b.ctx, PublishParams{AdjustmentID: spur2.Adjustment.ID, Reason: "new BM1 and BM2", By: "test"}); err != nil {
-		t.Fatal(err)
-	}
+	spur2 := b.Adjustment(t, registertest.AdjustmentOpts{Runs: []int64{rec.Run.ID}, Hold: []string{"BM2", "BM1"}})
+	b.Publication(t, spur2.Adjustment.ID, registertest.PublicationOpts{Reason: "new BM1 and BM2"})
 	if got := stale(); len(got) != 0 {
 		t.Fatalf("stale after re-adjusting both: %v", got)
 	}
 
 	// BM4 is found disturbed after the circuit was run: every height of
 	// the circuit's adjustment is in question.
-	if _, err := b.reg.MarkCondition(b.ctx, MarkConditionParams{Designation: "BM4", Condition: "disturbed",
-		ObservedOn: time.Date(2024, 6, 1, 0, 0, 0, 0, time.UTC), RecordedBy: "test"}); err != nil {
-		t.Fatal(err)
-	}
+	b.Condition(t, registertest.ConditionOpts{Designation: "BM4", Condition: "disturbed",
+		ObservedOn: time.Date(2024, 6, 1, 0, 0, 0, 0, time.UTC)})
 	got = stale()
 	for _, m := range []string{"BM2", "BM3", "BM4", "BM5", "BM6"} {
 		if got[m] != "mark-condition BM4" {
@@ -401,11 +331,11 @@ func TestStale(t *testing.T) {
 // then.
 func TestAsOfTimeline(t *testing.T) {
 	t.Parallel()
-	b, run := setup(t)
+	b, run := setupWorked(t)
 	now := func() time.Time {
 		t.Helper()
 		var ts time.Time
-		if err := b.db.Pool.QueryRow(b.ctx, "SELECT clock_timestamp()").Scan(&ts); err != nil {
+		if err := b.DB.Pool.QueryRow(b.Ctx, "SELECT clock_timestamp()").Scan(&ts); err != nil {
 			t.Fatal(err)
 		}
 		return ts
@@ -416,22 +346,20 @@ func TestAsOfTimeline(t *testing.T) {
 	}
 	steps := []step{{now(), ""}}
 	publish := func(reason string) {
-		a := b.adjust(t, run)
-		if _, err := b.reg.Publish(b.ctx, PublishParams{AdjustmentID: a.Adjustment.ID, Reason: reason, By: "test"}); err != nil {
-			t.Fatal(err)
-		}
+		a := adjustRuns(t, b, run)
+		b.Publication(t, a.Adjustment.ID, registertest.PublicationOpts{Reason: reason})
 	}
 	publish("first")
 	steps = append(steps, step{now(), "891.854"})
-	b.setHeight(t, "BM3", "891.900", "Outside check (invented citation)")
+	outside(t, b, "BM3", "891.900", "Outside check (invented citation)")
 	steps = append(steps, step{now(), "891.900"})
-	b.setHeight(t, "BM1", "728.740", "Outside control, revision (invented citation)")
+	outside(t, b, "BM1", "728.740", "Outside control, revision (invented citation)")
 	steps = append(steps, step{now(), "891.900"})
 	publish("after the new BM1")
 	// 891.764 computed + 0.010 held change + 0.090168 correction (derived).
 	steps = append(steps, step{now(), "891.864"})
 
-	_, hist, err := b.reg.History(b.ctx, "BM3", "")
+	_, hist, err := b.Reg.History(b.Ctx, "BM3", "")
 	if err != nil {
 		t.Fatal(err)
 	}
@@ -440,7 +368,7 @@ func TestAsOfTimeline(t *testing.T) {
 		steps = append(steps, step{h.RecordedAt, *h.Value})
 		prev := ""
 		if h.Supersedes != nil {
-			p, err := store.HeightGet(b.ctx, b.db.Pool, *h.Supersedes)
+			p, err := store.HeightGet(b.Ctx, b.DB.Pool, *h.Supersedes)
 			if err != nil {
 				t.Fatal(err)
 			}
@@ -450,7 +378,7 @@ func TestAsOfTimeline(t *testing.T) {
 	}
 	for _, s := range steps {
 		at := s.at
-		v, err := b.reg.HeightShow(b.ctx, HeightShowParams{Designation: "BM3", AsOf: &at})
+		v, err := b.Reg.HeightShow(b.Ctx, HeightShowParams{Designation: "BM3", AsOf: &at})
 		if err != nil {
 			t.Fatal(err)
 		}
@@ -461,7 +389,7 @@ func TestAsOfTimeline(t *testing.T) {
 		if got != s.want {
 			t.Errorf("BM3 as of %s: %q, want %q", at.Format(time.RFC3339Nano), got, s.want)
 		}
-		tr, err := b.reg.Trace(b.ctx, TraceParams{Designation: "BM3", AsOf: &at})
+		tr, err := b.Reg.Trace(b.Ctx, TraceParams{Designation: "BM3", AsOf: &at})
 		if s.want == "" {
 			if err == nil {
 				t.Errorf("trace of BM3 as of %s found %d heights, want none", at.Format(time.RFC3339Nano), len(tr.Versions))
@@ -477,11 +405,10 @@ func TestAsOfTimeline(t *testing.T) {
 // Bad input names its field and writes nothing.
 func TestAdjustRefusals(t *testing.T) {
 	t.Parallel()
-	b, run := setup(t)
-	if _, err := b.reg.MarkCondition(b.ctx, MarkConditionParams{Designation: "BM1", Condition: "disturbed",
-		ObservedOn: time.Date(2024, 7, 1, 0, 0, 0, 0, time.UTC), RecordedBy: "test"}); err != nil {
-		t.Fatal(err)
-	}
+	b, run := setupWorked(t)
+	b.Condition(t, registertest.ConditionOpts{Designation: "BM1", Condition: "disturbed",
+		ObservedOn: time.Date(2024, 7, 1, 0, 0, 0, 0, time.UTC)})
+	before := b.Counts(t)
 	tests := []struct {
 		name  string
 		p     AdjustParams
@@ -498,17 +425,17 @@ func TestAdjustRefusals(t *testing.T) {
 		{"decimals", AdjustParams{RunIDs: []int64{run}, Hold: HoldFixed("BM1"), By: "t", Decimals: ptr(9)}, "decimals", "outside"},
 	}
 	for _, tt := range tests {
-		_, err := b.reg.Adjust(b.ctx, tt.p)
+		_, err := b.Reg.Adjust(b.Ctx, tt.p)
 		var ie *InputError
 		if !errors.As(err, &ie) || ie.Field != tt.field || !strings.Contains(err.Error(), tt.msg) {
 			t.Errorf("%s: %v, want an input error on %s saying %q", tt.name, err, tt.field, tt.msg)
 		}
 	}
-	if got := b.counts(t); got != "adjustment 0, result 0, held 0, event 0, height 1" {
-		t.Fatalf("refusals wrote: %s", got)
+	if !b.AssertCounts(t, noAdjustment) || !b.AssertNothingWritten(t, before) {
+		t.Fatal("refusals wrote")
 	}
 	// Allowed with a reason, the reason is kept.
-	v, err := b.reg.Adjust(b.ctx, AdjustParams{RunIDs: []int64{run}, Hold: HoldFixed("BM1"), By: "t",
+	v, err := b.Reg.Adjust(b.Ctx, AdjustParams{RunIDs: []int64{run}, Hold: HoldFixed("BM1"), By: "t",
 		AllowCondition: true, ConditionReason: "re-checked against TC-0001 on 2024-07-02", Distribution: adjust.BySetups})
 	if err != nil {
 		t.Fatal(err)
@@ -517,10 +444,10 @@ func TestAdjustRefusals(t *testing.T) {
 		t.Fatalf("condition reason %q, distribution %q", v.Adjustment.ConditionReason, v.Parameters.Distribution)
 	}
 	// Discarded, it cannot be published.
-	if _, err := b.reg.Discard(b.ctx, DiscardParams{AdjustmentID: v.Adjustment.ID, Reason: "by setups was a mistake", By: "t"}); err != nil {
+	if _, err := b.Reg.Discard(b.Ctx, DiscardParams{AdjustmentID: v.Adjustment.ID, Reason: "by setups was a mistake", By: "t"}); err != nil {
 		t.Fatal(err)
 	}
-	_, err = b.reg.Publish(b.ctx, PublishParams{AdjustmentID: v.Adjustment.ID, Reason: "x", By: "t"})
+	_, err = b.Reg.Publish(b.Ctx, PublishParams{AdjustmentID: v.Adjustment.ID, Reason: "x", By: "t"})
 	if err == nil || !strings.Contains(err.Error(), "was discarded") {
 		t.Fatalf("publishing a discarded adjustment: %v", err)
 	}
@@ -532,21 +459,23 @@ func ptr[T any](v T) *T { return &v }
 // unpublished adjustment, whoever asks.
 func TestAdjustmentAppendOnly(t *testing.T) {
 	t.Parallel()
-	b, run := setup(t)
-	v := b.adjust(t, run)
+	b, run := setupWorked(t)
+	v := adjustRuns(t, b, run)
+	before := b.Counts(t)
 	for _, sql := range []string{
 		"UPDATE adjustment SET method = 'least-squares'",
 		"DELETE FROM adjustment_result",
 		"UPDATE adjustment_held SET condition_id = NULL",
 		"DELETE FROM adjustment_run",
 	} {
-		if _, err := b.db.Pool.Exec(b.ctx, sql); err == nil || !strings.Contains(err.Error(), "append-only") {
+		if _, err := b.DB.Pool.Exec(b.Ctx, sql); err == nil || !strings.Contains(err.Error(), "append-only") {
 			t.Errorf("%s: %v, want refused", sql, err)
 		}
 	}
-	_, err := b.db.Pool.Exec(b.ctx, `INSERT INTO height (mark_id, datum_id, value, unit, decimals, source_kind, adjustment_id, reason, recorded_by)
+	_, err := b.DB.Pool.Exec(b.Ctx, `INSERT INTO height (mark_id, datum_id, value, unit, decimals, source_kind, adjustment_id, reason, recorded_by)
 		SELECT m.id, d.id, 783.255, 'm', 3, 'adjustment', $1, 'sneak', 'x' FROM mark m, datum d WHERE m.designation = 'BM2'`, v.Adjustment.ID)
 	if err == nil || !strings.Contains(err.Error(), "not published") {
 		t.Fatalf("height citing a draft: %v, want refused", err)
 	}
+	b.AssertNothingWritten(t, before)
 }

@@ -1,58 +1,37 @@
 package register_test
 
 import (
-	"context"
 	"errors"
 	"math"
 	"strings"
 	"testing"
 	"time"
 
-	"cairn/internal/pgtest"
 	"cairn/internal/register"
+	"cairn/internal/registertest"
 	"cairn/internal/store"
 )
 
-type bundle struct {
-	ctx context.Context
-	db  *pgtest.DB
-	r   *register.Register
-}
-
-// setup gives a register with datum NAVD88 and mark TC-0412.
-func setup(t *testing.T) *bundle {
+// setup gives a register with datum NAVD88 and mark TC-0412 at 41.62,
+// -97.95.
+func setup(t *testing.T) *registertest.Bundle {
 	t.Helper()
-	db := pgtest.New(t)
-	b := &bundle{ctx: context.Background(), db: db, r: register.New(db.Pool)}
-	if _, err := b.r.DatumAdd(b.ctx, register.DatumAddParams{Code: "NAVD88", Name: "North American Vertical Datum of 1988", By: "test"}); err != nil {
-		t.Fatal(err)
-	}
-	b.addMark(t, "TC-0412", 41.62, -97.95)
+	b := registertest.Setup(t)
+	b.Datum(t, registertest.DatumOpts{})
+	b.Mark(t, registertest.MarkOpts{Designation: "TC-0412"})
 	return b
 }
 
-func (b *bundle) addMark(t *testing.T, des string, lat, lon float64) {
+// set records value (in unit) on TC-0412.
+func set(t *testing.T, b *registertest.Bundle, value, unit string) store.Height {
 	t.Helper()
-	if _, err := b.r.MarkAdd(b.ctx, register.MarkAddParams{Designation: des, Lat: &lat, Lon: &lon, CreatedBy: "tester"}); err != nil {
-		t.Fatal(err)
-	}
-}
-
-// set records value (in usft) on TC-0412.
-func (b *bundle) set(t *testing.T, value, unit string) store.Height {
-	t.Helper()
-	res, err := b.r.HeightSet(b.ctx, register.HeightSetParams{Designation: "TC-0412", Datum: "NAVD88", Value: value,
-		Unit: unit, Source: "test citation", Reason: "test", RecordedBy: "tester"})
-	if err != nil {
-		t.Fatal(err)
-	}
-	return res.Version
+	return b.Height(t, registertest.HeightOpts{Designation: "TC-0412", Value: value, Unit: unit})
 }
 
 func TestHeightAsOf(t *testing.T) {
 	t.Parallel()
 	b := setup(t)
-	v1, v2, v3 := b.set(t, "769.83", "usft"), b.set(t, "769.88", "usft"), b.set(t, "234.662", "m")
+	v1, v2, v3 := set(t, b, "769.83", "usft"), set(t, b, "769.88", "usft"), set(t, b, "234.662", "m")
 	if !(v1.RecordedAt.Before(v2.RecordedAt) && v2.RecordedAt.Before(v3.RecordedAt)) {
 		t.Fatalf("recorded times not increasing: %v %v %v", v1.RecordedAt, v2.RecordedAt, v3.RecordedAt)
 	}
@@ -69,7 +48,7 @@ func TestHeightAsOf(t *testing.T) {
 		{"after t3", v3.RecordedAt.Add(time.Hour), 3},
 	} {
 		at := c.at
-		v, err := b.r.HeightShow(b.ctx, register.HeightShowParams{Designation: "TC-0412", Datum: "NAVD88", AsOf: &at})
+		v, err := b.Reg.HeightShow(b.Ctx, register.HeightShowParams{Designation: "TC-0412", Datum: "NAVD88", AsOf: &at})
 		if err != nil {
 			t.Fatal(err)
 		}
@@ -91,22 +70,21 @@ func TestHeightAsOf(t *testing.T) {
 func TestHistoryIsAppendOnly(t *testing.T) {
 	t.Parallel()
 	b := setup(t)
-	b.set(t, "769.83", "usft")
-	if _, err := b.r.MarkCondition(b.ctx, register.MarkConditionParams{Designation: "TC-0412", Condition: "good",
-		ObservedOn: time.Date(2024, 5, 1, 0, 0, 0, 0, time.UTC), RecordedBy: "tester"}); err != nil {
-		t.Fatal(err)
-	}
+	set(t, b, "769.83", "usft")
+	b.Condition(t, registertest.ConditionOpts{Designation: "TC-0412", Condition: "good",
+		ObservedOn: time.Date(2024, 5, 1, 0, 0, 0, 0, time.UTC)})
 	var owner string
-	if err := b.db.Pool.QueryRow(b.ctx, "SELECT tableowner FROM pg_tables WHERE tablename = 'height'").Scan(&owner); err != nil {
+	if err := b.DB.Pool.QueryRow(b.Ctx, "SELECT tableowner FROM pg_tables WHERE tablename = 'height'").Scan(&owner); err != nil {
 		t.Fatal(err)
 	}
 	var me string
-	if err := b.db.Pool.QueryRow(b.ctx, "SELECT current_user").Scan(&me); err != nil {
+	if err := b.DB.Pool.QueryRow(b.Ctx, "SELECT current_user").Scan(&me); err != nil {
 		t.Fatal(err)
 	}
 	if owner != me {
 		t.Fatalf("test connects as %s, table owner is %s", me, owner)
 	}
+	before := b.Counts(t)
 	for _, sql := range []string{
 		"UPDATE height SET value = 769.84",
 		"UPDATE height SET reason = 'rewritten'",
@@ -118,7 +96,7 @@ func TestHistoryIsAppendOnly(t *testing.T) {
 		"TRUNCATE mark_condition",
 		"TRUNCATE mark_condition CASCADE",
 	} {
-		_, err := b.db.Pool.Exec(b.ctx, sql)
+		_, err := b.DB.Pool.Exec(b.Ctx, sql)
 		// Tables that later tables reference refuse a TRUNCATE without
 		// CASCADE before their triggers run.
 		if err == nil || !strings.Contains(err.Error(), "append-only") && !strings.Contains(err.Error(), "referenced in a foreign key constraint") {
@@ -126,10 +104,11 @@ func TestHistoryIsAppendOnly(t *testing.T) {
 		}
 	}
 	var value string
-	if err := b.db.Pool.QueryRow(b.ctx, "SELECT value::text FROM height").Scan(&value); err != nil || value != "769.83" {
+	if err := b.DB.Pool.QueryRow(b.Ctx, "SELECT value::text FROM height").Scan(&value); err != nil || value != "769.83" {
 		t.Fatalf("value after refused changes: %q, %v", value, err)
 	}
-	_, err := b.db.Pool.Exec(b.ctx, "UPDATE mark SET designation = 'TC-9999'")
+	b.AssertNothingWritten(t, before)
+	_, err := b.DB.Pool.Exec(b.Ctx, "UPDATE mark SET designation = 'TC-9999'")
 	if err == nil || !strings.Contains(err.Error(), "never changes") {
 		t.Errorf("renaming a mark: err = %v, want a refusal", err)
 	}
@@ -140,22 +119,24 @@ func TestHistoryIsAppendOnly(t *testing.T) {
 func TestStaleSupersedesConflicts(t *testing.T) {
 	t.Parallel()
 	b := setup(t)
-	v1 := b.set(t, "769.83", "usft")
-	b.set(t, "769.88", "usft")
+	v1 := set(t, b, "769.83", "usft")
+	set(t, b, "769.88", "usft")
+	before := b.Counts(t)
 	value, unit, dec := "769.90", "usft", 2
-	_, err := store.HeightInsert(b.ctx, b.db.Pool, store.HeightInsertParams{MarkID: v1.MarkID, DatumID: v1.DatumID,
+	_, err := store.HeightInsert(b.Ctx, b.DB.Pool, store.HeightInsertParams{MarkID: v1.MarkID, DatumID: v1.DatumID,
 		Supersedes: &v1.ID, Value: &value, Unit: &unit, Decimals: &dec, SourceKind: "authority", Source: "x",
 		Reason: "stale", RecordedBy: "tester"})
 	if !errors.Is(err, store.ErrConflict) {
 		t.Fatalf("superseding an old version: err = %v, want ErrConflict", err)
 	}
-	_, err = store.HeightInsert(b.ctx, b.db.Pool, store.HeightInsertParams{MarkID: v1.MarkID, DatumID: v1.DatumID,
+	_, err = store.HeightInsert(b.Ctx, b.DB.Pool, store.HeightInsertParams{MarkID: v1.MarkID, DatumID: v1.DatumID,
 		Value: &value, Unit: &unit, Decimals: &dec, SourceKind: "authority", Source: "x",
 		Reason: "second first version", RecordedBy: "tester"})
 	if !errors.Is(err, store.ErrConflict) {
 		t.Fatalf("a second first version: err = %v, want ErrConflict", err)
 	}
-	rep, err := b.r.AuditVerify(b.ctx)
+	b.AssertNothingWritten(t, before)
+	rep, err := b.Reg.AuditVerify(b.Ctx)
 	if err != nil || len(rep.Breaks) != 0 || rep.Versions != 2 {
 		t.Fatalf("audit after refused writes: %+v, %v", rep, err)
 	}
@@ -168,15 +149,15 @@ func TestStaleSupersedesConflicts(t *testing.T) {
 func TestUnitRoundTrip(t *testing.T) {
 	t.Parallel()
 	b := setup(t)
-	b.set(t, "769.83", "usft")
+	set(t, b, "769.83", "usft")
 	var stored, unit string
-	if err := b.db.Pool.QueryRow(b.ctx, "SELECT value::text, unit FROM height").Scan(&stored, &unit); err != nil {
+	if err := b.DB.Pool.QueryRow(b.Ctx, "SELECT value::text, unit FROM height").Scan(&stored, &unit); err != nil {
 		t.Fatal(err)
 	}
 	if stored != "769.83" || unit != "usft" {
 		t.Fatalf("stored %s %s, want 769.83 usft", stored, unit)
 	}
-	v, err := b.r.HeightShow(b.ctx, register.HeightShowParams{Designation: "TC-0412"})
+	v, err := b.Reg.HeightShow(b.Ctx, register.HeightShowParams{Designation: "TC-0412"})
 	if err != nil {
 		t.Fatal(err)
 	}
@@ -190,11 +171,11 @@ func TestUnitRoundTrip(t *testing.T) {
 func TestHistoryChanges(t *testing.T) {
 	t.Parallel()
 	b := setup(t)
-	b.set(t, "769.83", "usft")
-	b.set(t, "769.88", "usft")
+	set(t, b, "769.83", "usft")
+	set(t, b, "769.88", "usft")
 	// 769.88 usft = 769.88 × 1200/3937 m = 234.65989... m; 234.662 − 234.65989 = +0.00211 → +0.002 m.
-	b.set(t, "234.662", "m")
-	_, hs, err := b.r.History(b.ctx, "TC-0412", "")
+	set(t, b, "234.662", "m")
+	_, hs, err := b.Reg.History(b.Ctx, "TC-0412", "")
 	if err != nil {
 		t.Fatal(err)
 	}
@@ -222,12 +203,12 @@ func TestMarkListNear(t *testing.T) {
 	// Along the parallel, Δλ = 0.02°: cos 41.62° = 0.7475663, sin 0.01° =
 	// 1.7453292e-4, √a = 0.7475663 × 1.7453292e-4 = 1.3047494e-4,
 	// d = 2 × 6371008.8 m × asin(1.3047494e-4) = 1662.514 m.
-	b.addMark(t, "TC-0413", 41.62, -97.93)
+	b.Mark(t, registertest.MarkOpts{Designation: "TC-0413", Lat: ptr(41.62), Lon: ptr(-97.93)})
 	// Along the meridian, Δφ = 0.01°: d = R Δφ = 6371008.8 m × 0.01 × π/180 = 1111.951 m.
-	b.addMark(t, "TC-0414", 41.63, -97.95)
+	b.Mark(t, registertest.MarkOpts{Designation: "TC-0414", Lat: ptr(41.63), Lon: ptr(-97.95)})
 	// Δφ = 0.02°: 2223.902 m, outside 2 km.
-	b.addMark(t, "TC-0415", 41.64, -97.95)
-	ms, err := b.r.MarkList(b.ctx, register.MarkListParams{Near: &store.LatLon{Lat: 41.62, Lon: -97.95}, RadiusM: 2000})
+	b.Mark(t, registertest.MarkOpts{Designation: "TC-0415", Lat: ptr(41.64), Lon: ptr(-97.95)})
+	ms, err := b.Reg.MarkList(b.Ctx, register.MarkListParams{Near: &store.LatLon{Lat: 41.62, Lon: -97.95}, RadiusM: 2000})
 	if err != nil {
 		t.Fatal(err)
 	}
@@ -248,12 +229,12 @@ func TestMarkListNear(t *testing.T) {
 func TestDidYouMean(t *testing.T) {
 	t.Parallel()
 	b := setup(t)
-	_, err := b.r.MarkShow(b.ctx, "TC-0421")
+	_, err := b.Reg.MarkShow(b.Ctx, "TC-0421")
 	var ie *register.InputError
 	if !errors.As(err, &ie) || ie.Field != "designation" || !strings.Contains(err.Error(), "did you mean TC-0412?") {
 		t.Fatalf("err = %v, want a designation error suggesting TC-0412", err)
 	}
-	_, err = b.r.HeightShow(b.ctx, register.HeightShowParams{Designation: "TC-0412", Datum: "NAVD 88"})
+	_, err = b.Reg.HeightShow(b.Ctx, register.HeightShowParams{Designation: "TC-0412", Datum: "NAVD 88"})
 	if !errors.As(err, &ie) || ie.Field != "datum" || !strings.Contains(err.Error(), "did you mean NAVD88?") {
 		t.Fatalf("err = %v, want a datum error suggesting NAVD88", err)
 	}
@@ -263,12 +244,12 @@ func TestDidYouMean(t *testing.T) {
 func TestCanonicalMatchesDatabase(t *testing.T) {
 	t.Parallel()
 	b := setup(t)
-	b.set(t, "769.83", "usft")
-	if _, err := b.r.HeightSet(b.ctx, register.HeightSetParams{Designation: "TC-0412", Datum: "NAVD88", Kind: register.KindWithdrawal,
+	set(t, b, "769.83", "usft")
+	if _, err := b.Reg.HeightSet(b.Ctx, register.HeightSetParams{Designation: "TC-0412", Datum: "NAVD88", Kind: register.KindWithdrawal,
 		Reason: "mark reported destroyed: tab:\t newline:\n quote:' unicode: ±°", RecordedBy: "tester"}); err != nil {
 		t.Fatal(err)
 	}
-	rep, err := b.r.AuditVerify(b.ctx)
+	rep, err := b.Reg.AuditVerify(b.Ctx)
 	if err != nil {
 		t.Fatal(err)
 	}

@@ -2,7 +2,6 @@ package register_test
 
 import (
 	"bytes"
-	"context"
 	"crypto/sha256"
 	"encoding/json"
 	"errors"
@@ -13,8 +12,8 @@ import (
 	"time"
 
 	"cairn/internal/booktest"
-	"cairn/internal/pgtest"
 	"cairn/internal/register"
+	"cairn/internal/registertest"
 	"cairn/internal/store"
 )
 
@@ -41,37 +40,23 @@ TC-0412,FS,1.651,1.501,1.351,
 // loopMarks are the marks loopBook names.
 var loopMarks = []string{"TC-0412", "TC-0415", "TC-0417"}
 
-type runBundle struct {
-	db  *pgtest.DB
-	reg *register.Register
-	ctx context.Context
-}
-
-func runSetup(t *testing.T, marks ...string) runBundle {
+// runSetup gives a register with marks (no position) and nothing else.
+func runSetup(t *testing.T, marks ...string) *registertest.Bundle {
 	t.Helper()
-	db := pgtest.New(t)
-	b := runBundle{db: db, reg: register.New(db.Pool), ctx: context.Background()}
-	for _, m := range marks {
-		if _, err := b.reg.MarkAdd(b.ctx, register.MarkAddParams{Designation: m, CreatedBy: "test"}); err != nil {
-			t.Fatal(err)
-		}
-	}
+	b := registertest.Setup(t)
+	b.Marks(t, marks...)
 	return b
 }
 
-func (b runBundle) counts(t *testing.T) store.RunTableCounts {
-	t.Helper()
-	c, err := store.RunTableCount(b.ctx, b.db.Pool)
-	if err != nil {
-		t.Fatal(err)
-	}
-	return c
-}
+// noRuns are the counts of a register with no run.
+var noRuns = map[string]int64{"run": 0, "sighting": 0, "section": 0, "run_mark": 0}
 
-func (b runBundle) assertNothingRecorded(t *testing.T) {
+// assertNothingRecorded fails the test unless the register holds no run
+// and every table is as it was before.
+func assertNothingRecorded(t *testing.T, b *registertest.Bundle, before store.TableCounts) {
 	t.Helper()
-	if c := b.counts(t); c != (store.RunTableCounts{}) {
-		t.Fatalf("rows left behind: %+v", c)
+	if !b.AssertCounts(t, noRuns) || !b.AssertNothingWritten(t, before) {
+		t.FailNow()
 	}
 }
 
@@ -86,11 +71,11 @@ func TestRecordKeepsBookVerbatim(t *testing.T) {
 	t.Parallel()
 	b := runSetup(t, loopMarks...)
 	book := []byte("\ufeff" + strings.ReplaceAll(loopBook, "\n", "\r\n"))
-	rec, err := b.reg.Record(b.ctx, params("books/harbour.csv", book))
+	rec, err := b.Reg.Record(b.Ctx, params("books/harbour.csv", book))
 	if err != nil {
 		t.Fatal(err)
 	}
-	got, err := b.reg.RunBook(b.ctx, rec.Run.ID)
+	got, err := b.Reg.RunBook(b.Ctx, rec.Run.ID)
 	if err != nil {
 		t.Fatal(err)
 	}
@@ -117,7 +102,7 @@ func TestRecordKeepsBookVerbatim(t *testing.T) {
 		t.Errorf("%d sightings, %d sections, %.3f m", r.Sightings, r.Sections, r.LengthM)
 	}
 
-	sights, err := b.reg.Sightings(b.ctx, r.ID)
+	sights, err := b.Reg.Sightings(b.Ctx, r.ID)
 	if err != nil {
 		t.Fatal(err)
 	}
@@ -142,7 +127,7 @@ func TestRecordKeepsBookVerbatim(t *testing.T) {
 		{"TC-0415", "TC-0417", 0.200, 60, 1, 12, 13},
 		{"TC-0417", "TC-0412", -0.301, 60, 1, 14, 15},
 	}
-	secs, err := b.reg.Sections(b.ctx, []int64{r.ID})
+	secs, err := b.Reg.Sections(b.Ctx, []int64{r.ID})
 	if err != nil {
 		t.Fatal(err)
 	}
@@ -167,6 +152,7 @@ func TestRecordKeepsBookVerbatim(t *testing.T) {
 func TestRecordFailingHalfWayLeavesNothing(t *testing.T) {
 	t.Parallel()
 	b := runSetup(t, "TC-1001")
+	before := b.Counts(t)
 	l := booktest.Loop{Setups: 500, MarkEvery: 25}
 	p := params("long.csv", l.Book())
 	p.NewMarks = true
@@ -175,15 +161,15 @@ func TestRecordFailingHalfWayLeavesNothing(t *testing.T) {
 		wrote = true
 		secs[len(secs)-1].Setups = 0
 	})
-	_, err := b.reg.Record(b.ctx, p)
+	_, err := b.Reg.Record(b.Ctx, p)
 	if err == nil || !strings.Contains(err.Error(), "section_setups_check") {
 		t.Fatalf("error %v, want the section check violated", err)
 	}
 	if !wrote {
 		t.Fatal("the failure came before the sightings were written")
 	}
-	b.assertNothingRecorded(t)
-	marks, err := b.reg.MarkList(b.ctx, register.MarkListParams{})
+	assertNothingRecorded(t, b, before)
+	marks, err := b.Reg.MarkList(b.Ctx, register.MarkListParams{})
 	if err != nil {
 		t.Fatal(err)
 	}
@@ -197,11 +183,12 @@ func TestRecordFailingHalfWayLeavesNothing(t *testing.T) {
 func TestRecordTwiceIsRefused(t *testing.T) {
 	t.Parallel()
 	b := runSetup(t, loopMarks...)
-	first, err := b.reg.Record(b.ctx, params("harbour.csv", []byte(loopBook)))
+	first, err := b.Reg.Record(b.Ctx, params("harbour.csv", []byte(loopBook)))
 	if err != nil {
 		t.Fatal(err)
 	}
-	_, err = b.reg.Record(b.ctx, params("copy-of-harbour.csv", []byte(loopBook)))
+	before := b.Counts(t)
+	_, err = b.Reg.Record(b.Ctx, params("copy-of-harbour.csv", []byte(loopBook)))
 	var are *register.AlreadyRecordedError
 	if !errors.As(err, &are) || are.Run.ID != first.Run.ID {
 		t.Fatalf("error %v, want already recorded as run %d", err, first.Run.ID)
@@ -209,11 +196,10 @@ func TestRecordTwiceIsRefused(t *testing.T) {
 	if !strings.Contains(err.Error(), "copy-of-harbour.csv is already recorded as run ") || are.ExitCode() != 2 {
 		t.Errorf("message %q", err)
 	}
-	if c := b.counts(t); c.Runs != 1 || c.Sightings != 8 {
-		t.Errorf("counts %+v", c)
-	}
+	b.AssertCounts(t, map[string]int64{"run": 1, "sighting": 8})
+	b.AssertNothingWritten(t, before)
 	// One byte more is another book.
-	if _, err := b.reg.Record(b.ctx, params("harbour.csv", []byte(loopBook+"\n"))); err != nil {
+	if _, err := b.Reg.Record(b.Ctx, params("harbour.csv", []byte(loopBook+"\n"))); err != nil {
 		t.Errorf("a different file: %v", err)
 	}
 }
@@ -223,7 +209,8 @@ func TestRecordTwiceIsRefused(t *testing.T) {
 func TestRecordUnknownMarks(t *testing.T) {
 	t.Parallel()
 	b := runSetup(t, "TC-0415")
-	_, err := b.reg.Record(b.ctx, params("harbour.csv", []byte(loopBook)))
+	before := b.Counts(t)
+	_, err := b.Reg.Record(b.Ctx, params("harbour.csv", []byte(loopBook)))
 	var ume *register.UnknownMarksError
 	if !errors.As(err, &ume) {
 		t.Fatalf("error %v, want unknown marks", err)
@@ -235,11 +222,11 @@ func TestRecordUnknownMarks(t *testing.T) {
 	if msg := err.Error(); !strings.Contains(msg, "harbour.csv: 2 marks are not in the register: TC-0412 (line 8), TC-0417 (line 13)") {
 		t.Errorf("message %q", msg)
 	}
-	b.assertNothingRecorded(t)
+	assertNothingRecorded(t, b, before)
 
 	p := params("harbour.csv", []byte(loopBook))
 	p.NewMarks = true
-	rec, err := b.reg.Record(b.ctx, p)
+	rec, err := b.Reg.Record(b.Ctx, p)
 	if err != nil {
 		t.Fatal(err)
 	}
@@ -256,7 +243,7 @@ func TestRecordUnknownMarks(t *testing.T) {
 	if !created["TC-0412"] || created["TC-0415"] || !created["TC-0417"] {
 		t.Errorf("created %v", created)
 	}
-	v, err := b.reg.MarkShow(b.ctx, "TC-0417")
+	v, err := b.Reg.MarkShow(b.Ctx, "TC-0417")
 	if err != nil {
 		t.Fatal(err)
 	}
@@ -270,10 +257,11 @@ func TestRecordUnknownMarks(t *testing.T) {
 func TestRecordFailedChecks(t *testing.T) {
 	t.Parallel()
 	b := runSetup(t, loopMarks...)
+	before := b.Counts(t)
 	// Upper wire 1.260 against 1.100 and 0.950: half-intervals 0.160 and
 	// 0.150 differ by 10 mm, beyond the 3 mm of EN0593 §4.
 	bad := strings.Replace(loopBook, "TC-0417,FS,1.250,", "TC-0417,FS,1.260,", 1)
-	_, err := b.reg.Record(b.ctx, params("harbour.csv", []byte(bad)))
+	_, err := b.Reg.Record(b.Ctx, params("harbour.csv", []byte(bad)))
 	var cfe *register.ChecksFailedError
 	if !errors.As(err, &cfe) || cfe.ExitCode() != 2 {
 		t.Fatalf("error %v, want checks failed", err)
@@ -281,19 +269,20 @@ func TestRecordFailedChecks(t *testing.T) {
 	if !strings.Contains(err.Error(), "line 13: three_wire: TC-0417:") {
 		t.Errorf("message %q", err)
 	}
-	b.assertNothingRecorded(t)
+	assertNothingRecorded(t, b, before)
 
 	p := params("harbour.csv", []byte(bad))
 	p.AcceptFailedChecks = true
-	if _, err := b.reg.Record(b.ctx, p); err == nil {
+	if _, err := b.Reg.Record(b.Ctx, p); err == nil {
 		t.Fatal("accepted without a reason")
 	}
+	assertNothingRecorded(t, b, before)
 	p.Reason = "upper wire misread; crew confirmed the middle wire"
-	rec, err := b.reg.Record(b.ctx, p)
+	rec, err := b.Reg.Record(b.Ctx, p)
 	if err != nil {
 		t.Fatal(err)
 	}
-	v, err := b.reg.Run(b.ctx, rec.Run.ID)
+	v, err := b.Reg.Run(b.Ctx, rec.Run.ID)
 	if err != nil {
 		t.Fatal(err)
 	}
@@ -309,25 +298,25 @@ func TestRecordLinksConditions(t *testing.T) {
 	t.Parallel()
 	b := runSetup(t, loopMarks...)
 	day := time.Date(2026, 2, 1, 0, 0, 0, 0, time.UTC)
-	c, err := b.reg.MarkCondition(b.ctx, register.MarkConditionParams{
+	c, err := b.Reg.MarkCondition(b.Ctx, register.MarkConditionParams{
 		Designation: "TC-0415", Condition: "disturbed", Note: "kerb relaid", ObservedOn: day, RecordedBy: "P. Oduya",
 	})
 	if err != nil {
 		t.Fatal(err)
 	}
-	rec, err := b.reg.Record(b.ctx, params("harbour.csv", []byte(loopBook)))
+	rec, err := b.Reg.Record(b.Ctx, params("harbour.csv", []byte(loopBook)))
 	if err != nil {
 		t.Fatal(err)
 	}
 	if len(rec.Cautions) != 1 || !strings.Contains(rec.Cautions[0], "TC-0415") || !strings.Contains(rec.Cautions[0], "DISTURBED") {
 		t.Errorf("cautions %q", rec.Cautions)
 	}
-	if _, err := b.reg.MarkCondition(b.ctx, register.MarkConditionParams{
+	if _, err := b.Reg.MarkCondition(b.Ctx, register.MarkConditionParams{
 		Designation: "TC-0415", Condition: "good", ObservedOn: day.AddDate(0, 1, 0), RecordedBy: "P. Oduya",
 	}); err != nil {
 		t.Fatal(err)
 	}
-	v, err := b.reg.Run(b.ctx, rec.Run.ID)
+	v, err := b.Reg.Run(b.Ctx, rec.Run.ID)
 	if err != nil {
 		t.Fatal(err)
 	}
@@ -349,9 +338,10 @@ func TestRecordLinksConditions(t *testing.T) {
 func TestRunsAreAppendOnly(t *testing.T) {
 	t.Parallel()
 	b := runSetup(t, loopMarks...)
-	if _, err := b.reg.Record(b.ctx, params("harbour.csv", []byte(loopBook))); err != nil {
+	if _, err := b.Reg.Record(b.Ctx, params("harbour.csv", []byte(loopBook))); err != nil {
 		t.Fatal(err)
 	}
+	before := b.Counts(t)
 	for _, q := range []string{
 		"UPDATE run SET name = 'other'",
 		"DELETE FROM run",
@@ -366,33 +356,32 @@ func TestRunsAreAppendOnly(t *testing.T) {
 		"DELETE FROM run_mark",
 		"TRUNCATE run_mark",
 	} {
-		_, err := b.db.Pool.Exec(b.ctx, q)
+		_, err := b.DB.Pool.Exec(b.Ctx, q)
 		if err == nil || !strings.Contains(err.Error(), "append-only") {
 			t.Errorf("%s: %v, want refused", q, err)
 		}
 	}
-	if c := b.counts(t); c.Runs != 1 || c.Sightings != 8 || c.Sections != 3 || c.RunMarks != 3 {
-		t.Errorf("counts %+v", c)
-	}
+	b.AssertCounts(t, map[string]int64{"run": 1, "sighting": 8, "section": 3, "run_mark": 3})
+	b.AssertNothingWritten(t, before)
 }
 
 // Runs are listed by the marks they touched and by date.
 func TestRunList(t *testing.T) {
 	t.Parallel()
 	b := runSetup(t, loopMarks...)
-	harbour, err := b.reg.Record(b.ctx, params("harbour.csv", []byte(loopBook)))
+	harbour, err := b.Reg.Record(b.Ctx, params("harbour.csv", []byte(loopBook)))
 	if err != nil {
 		t.Fatal(err)
 	}
 	p := params("long.csv", booktest.Loop{Setups: 40, MarkEvery: 10}.Book())
 	p.NewMarks = true
-	long, err := b.reg.Record(b.ctx, p)
+	long, err := b.Reg.Record(b.Ctx, p)
 	if err != nil {
 		t.Fatal(err)
 	}
 	ids := func(p register.RunListParams) []int64 {
 		t.Helper()
-		runs, err := b.reg.RunList(b.ctx, p)
+		runs, err := b.Reg.RunList(b.Ctx, p)
 		if err != nil {
 			t.Fatal(err)
 		}
@@ -420,10 +409,10 @@ func TestRunList(t *testing.T) {
 			t.Errorf("%+v: runs %v, want %v", c.p, got, c.want)
 		}
 	}
-	if _, err := b.reg.RunList(b.ctx, register.RunListParams{Mark: "TC-O415"}); err == nil || !strings.Contains(err.Error(), "did you mean TC-0415") {
+	if _, err := b.Reg.RunList(b.Ctx, register.RunListParams{Mark: "TC-O415"}); err == nil || !strings.Contains(err.Error(), "did you mean TC-0415") {
 		t.Errorf("misspelt mark: %v", err)
 	}
-	if _, err := b.reg.Sections(b.ctx, []int64{harbour.Run.ID, 999}); err == nil || !strings.Contains(err.Error(), "no run 999") {
+	if _, err := b.Reg.Sections(b.Ctx, []int64{harbour.Run.ID, 999}); err == nil || !strings.Contains(err.Error(), "no run 999") {
 		t.Errorf("unknown run: %v", err)
 	}
 }
@@ -447,14 +436,9 @@ func slicesEqual(a, b []int64) bool {
 func BenchmarkRecord20kSetups(b *testing.B) {
 	l := booktest.Loop{Setups: 20000, Seed: 1}
 	book := l.Book()
-	db := pgtest.New(b)
-	reg := register.New(db.Pool)
-	ctx := context.Background()
-	for _, m := range l.Marks() {
-		if _, err := reg.MarkAdd(ctx, register.MarkAddParams{Designation: m, CreatedBy: "bench"}); err != nil {
-			b.Fatal(err)
-		}
-	}
+	fx := registertest.Setup(b)
+	fx.Marks(b, l.Marks()...)
+	reg, ctx := fx.Reg, fx.Ctx
 	b.SetBytes(int64(len(book)))
 	i := 0
 	for b.Loop() {
@@ -471,6 +455,7 @@ func BenchmarkRecord20kSetups(b *testing.B) {
 func TestRunConstraints(t *testing.T) {
 	t.Parallel()
 	b := runSetup(t)
+	before := b.Counts(t)
 	book := []byte(loopBook)
 	sum := sha256.Sum256(book)
 	other := sha256.Sum256(append(book, '\n'))
@@ -483,11 +468,12 @@ func TestRunConstraints(t *testing.T) {
 		{store.RunInsertParams{Unit: "m", FileName: "a.csv", Book: book, BookSHA256: sum[:], RecordedBy: "t", AcceptedReason: "why"}, "run_failed_checks_accepted"},
 		{store.RunInsertParams{Unit: "yd", FileName: "a.csv", Book: book, BookSHA256: sum[:], RecordedBy: "t"}, "run_unit_check"},
 	} {
-		if _, err := store.RunInsert(b.ctx, b.db.Pool, c.p); err == nil || !strings.Contains(err.Error(), c.want) {
+		if _, err := store.RunInsert(b.Ctx, b.DB.Pool, c.p); err == nil || !strings.Contains(err.Error(), c.want) {
 			t.Errorf("%s: error %v", c.want, err)
 		}
 	}
-	if _, err := store.RunInsert(b.ctx, b.db.Pool, store.RunInsertParams{Unit: "m", FileName: "a.csv", Book: book, BookSHA256: sum[:], RecordedBy: "t"}); err != nil {
+	b.AssertNothingWritten(t, before)
+	if _, err := store.RunInsert(b.Ctx, b.DB.Pool, store.RunInsertParams{Unit: "m", FileName: "a.csv", Book: book, BookSHA256: sum[:], RecordedBy: "t"}); err != nil {
 		t.Errorf("a consistent run: %v", err)
 	}
 }

@@ -70,15 +70,3 @@ func collect[T any](rows pgx.Rows, scan func(pgx.Row) (T, error)) ([]T, error) {
 	}
 	return out, translate(rows.Err())
 }
-
-// Count returns the number of rows in each of the register's tables, keyed
-// by table name.
-func Count(ctx context.Context, db DBTX) (map[string]int64, error) {
-	var d, m, c, h int64
-	err := db.QueryRow(ctx, `SELECT (SELECT count(*) FROM datum), (SELECT count(*) FROM mark),
-		(SELECT count(*) FROM mark_condition), (SELECT count(*) FROM height)`).Scan(&d, &m, &c, &h)
-	if err != nil {
-		return nil, translate(err)
-	}
-	return map[string]int64{"datum": d, "mark": m, "mark_condition": c, "height": h}, nil
-}

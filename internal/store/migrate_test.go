@@ -23,6 +23,9 @@ func TestMigrateDownAndUp(t *testing.T) {
 	if n != 0 {
 		t.Fatalf("%d register tables left after migrating down", n)
 	}
+	if c, err := store.TableCount(ctx, db.Pool); err != nil || len(c) != 0 {
+		t.Fatalf("tables left after migrating down: %v (%v)", c, err)
+	}
 	if err := store.Migrate(ctx, db.Pool); err != nil {
 		t.Fatalf("up again: %v", err)
 	}

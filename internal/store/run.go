@@ -236,16 +236,3 @@ func RunMarkListByRun(ctx context.Context, db DBTX, runID int64) ([]RunMark, err
 		return m, nil
 	})
 }
-
-// RunTableCounts are the numbers of rows in the tables of recorded runs.
-type RunTableCounts struct {
-	Runs, Sightings, Sections, RunMarks int64
-}
-
-// RunTableCount counts the rows of the tables of recorded runs.
-func RunTableCount(ctx context.Context, db DBTX) (RunTableCounts, error) {
-	var c RunTableCounts
-	err := db.QueryRow(ctx, `SELECT (SELECT count(*) FROM run), (SELECT count(*) FROM sighting),
-		(SELECT count(*) FROM section), (SELECT count(*) FROM run_mark)`).Scan(&c.Runs, &c.Sightings, &c.Sections, &c.RunMarks)
-	return c, translate(err)
-}
