@@ -38,14 +38,7 @@ func TestAdjustFlags(t *testing.T) {
 		{[]string{"--sections", "s.csv", "--held", "h.csv", "--alpha", "1.5"}, "--alpha must lie"},
 		{[]string{"--sections", "s.csv", "--held", "h.csv", "--sigma-mm-per-sqrt-km", "0"}, "must be positive"},
 	} {
-		ios, _, _, _ := TestStreams(false)
-		f := NewFactory(ios, "test")
-		var got *adjustOptions
-		cmd := newCmdAdjust(f, func(o *adjustOptions) error { got = o; return nil })
-		cmd.SetArgs(c.args)
-		cmd.SetOut(ios.Out)
-		cmd.SetErr(ios.ErrOut)
-		err := cmd.Execute()
+		got, _, _, err := parseAdjust(c.args...)
 		if c.want == "" {
 			if err != nil || got == nil || got.Alpha != 0.01 || got.SnoopCritical != 4 || got.Format != FormatJSON || got.SigmaMMPerSqrtKm != 1 {
 				t.Errorf("%v: err %v, options %+v", c.args, err, got)
@@ -174,14 +167,8 @@ func TestAdjustRegisterFlags(t *testing.T) {
 		{[]string{"1", "--hold", "TC-0412", "--by", "setups"}, []register.Hold{hold("TC-0412", 0)}, osUser(), adjust.BySetups, "use --distribute setups"},
 		{[]string{"1", "--hold", "TC-0412", "--made-by", "R. Okafor"}, []register.Hold{hold("TC-0412", 0)}, "R. Okafor", adjust.ByDistance, "--made-by is deprecated"},
 	} {
-		ios, _, _, errOut := TestStreams(false)
-		f := NewFactory(ios, "test")
-		var got *adjustOptions
-		cmd := newCmdAdjust(f, func(o *adjustOptions) error { got = o; return nil })
-		cmd.SetArgs(c.args)
-		cmd.SetOut(ios.Out)
-		cmd.SetErr(ios.ErrOut)
-		if err := cmd.Execute(); err != nil || got == nil {
+		got, f, notice, err := parseAdjust(c.args...)
+		if err != nil || got == nil {
 			t.Errorf("%v: %v", c.args, err)
 			continue
 		}
@@ -189,7 +176,7 @@ func TestAdjustRegisterFlags(t *testing.T) {
 		if !slices.Equal(p.Hold, c.hold) || p.By != c.by || p.Distribution != c.distribute || f.pool != nil {
 			t.Errorf("%v: hold %+v, by %q, distribution %v; want %+v, %q, %v", c.args, p.Hold, p.By, p.Distribution, c.hold, c.by, c.distribute)
 		}
-		if notice := errOut.String(); c.notice == "" && notice != "" || !strings.Contains(notice, c.notice) {
+		if c.notice == "" && notice != "" || !strings.Contains(notice, c.notice) {
 			t.Errorf("%v: stderr %q, want %q", c.args, notice, c.notice)
 		}
 	}
@@ -207,14 +194,23 @@ func TestAdjustRegisterFlags(t *testing.T) {
 		{[]string{"1", "--hold", "TC-0412", "--by", "setups", "--distribute", "setups"}, "give the distribution with --distribute only"},
 		{[]string{"1", "--method", "sideways", "--hold", "TC-0412"}, "method: unknown method"},
 	} {
-		ios, _, _, _ := TestStreams(false)
-		f := NewFactory(ios, "test")
-		cmd := newCmdAdjust(f, func(o *adjustOptions) error { return nil })
-		cmd.SetArgs(c.args)
-		cmd.SetOut(ios.Out)
-		cmd.SetErr(ios.ErrOut)
-		if err := cmd.Execute(); err == nil || !strings.Contains(err.Error(), c.want) || exitCode(err) != ExitBadInput {
+		if _, _, _, err := parseAdjust(c.args...); err == nil || !strings.Contains(err.Error(), c.want) || exitCode(err) != ExitBadInput {
 			t.Errorf("%v: got %v, want exit 2 with %q", c.args, err, c.want)
 		}
 	}
+}
+
+// parseAdjust runs adjust's flag parsing on args through its runF: the
+// options it would run with (nil on an error), the factory (whose pool
+// must stay unopened) and what went to stderr.
+func parseAdjust(args ...string) (*adjustOptions, *Factory, string, error) {
+	ios, _, _, errOut := TestStreams(false)
+	f := NewFactory(ios, "test")
+	var got *adjustOptions
+	cmd := newCmdAdjust(f, func(o *adjustOptions) error { got = o; return nil })
+	cmd.SetArgs(args)
+	cmd.SetOut(ios.Out)
+	cmd.SetErr(ios.ErrOut)
+	err := cmd.Execute()
+	return got, f, errOut.String(), err
 }
