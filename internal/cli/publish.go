@@ -1,15 +1,12 @@
 package cli
 
 import (
-	"bufio"
 	"context"
 	"fmt"
-	"os"
 	"strconv"
 	"strings"
 
 	"github.com/spf13/cobra"
-	"golang.org/x/term"
 
 	"cairn/internal/register"
 )
@@ -160,18 +157,14 @@ On a terminal it asks for confirmation; otherwise --yes is required.`,
 	return cmd
 }
 
-// confirm asks a yes/no question on a terminal. Off a terminal it refuses:
-// the caller must say --yes.
+// confirm asks a yes/no question when the streams can prompt. When they
+// cannot, it refuses: the caller must say --yes.
 func confirm(ios *IOStreams, question string) error {
-	in, ok := ios.In.(*os.File)
-	if !ok || !term.IsTerminal(int(in.Fd())) {
+	if !ios.CanPrompt() {
 		return badInput("yes: not on a terminal, so nothing was asked and nothing was done; give --yes to go ahead")
 	}
-	fmt.Fprintf(ios.ErrOut, "%s [y/N] ", question)
-	line, _ := bufio.NewReader(in).ReadString('\n')
-	switch strings.ToLower(strings.TrimSpace(line)) {
-	case "y", "yes":
-		return nil
+	if !ios.Confirm(question) {
+		return badInput("yes: not confirmed; nothing was done")
 	}
-	return badInput("yes: not confirmed; nothing was done")
+	return nil
 }

@@ -43,11 +43,17 @@ func Execute(ctx context.Context, f *Factory, args []string) error {
 	root.SetIn(f.IO.In)
 	root.SetOut(f.IO.Out)
 	root.SetErr(f.IO.ErrOut)
-	err := root.ExecuteContext(ctx)
-	if err != nil && strings.HasPrefix(err.Error(), "unknown command") {
-		return flagError{err}
+	cmd, err := root.ExecuteContextC(ctx)
+	if err == nil {
+		return nil
 	}
-	return err
+	// Finding the command fails only when the first argument names no
+	// command of the root (cobra's legacy argument check, which the root
+	// gets as it has no Args of its own): a mistake in the command line.
+	if _, _, ferr := root.Find(args); ferr != nil {
+		err = flagError{err}
+	}
+	return &commandError{cmd: cmd, err: err}
 }
 
 // NewRootCmd builds the `cairn` command and all its subcommands.
