@@ -14,6 +14,7 @@ import (
 // publishOptions are the options of `cairn publish` and `cairn discard`.
 type publishOptions struct {
 	f      *Factory
+	ctx    context.Context
 	format Format
 	id     int64
 	reason string
@@ -54,13 +55,14 @@ On a terminal it asks for confirmation; otherwise --yes is required.
 		Example: `  cairn publish 3 --reason "north loop of May 2024, reviewed by J. Ames, PLS"`,
 		Args:    exactArgs(1, "an ADJUSTMENT number"),
 		RunE: func(cmd *cobra.Command, args []string) error {
+			opts.ctx = cmd.Context()
 			if err := opts.parse(args); err != nil {
 				return err
 			}
 			if runF != nil {
 				return runF(opts)
 			}
-			return publishRun(cmd.Context(), opts)
+			return publishRun(opts)
 		},
 	}
 	addOutputFlag(cmd, &opts.format)
@@ -70,7 +72,9 @@ On a terminal it asks for confirmation; otherwise --yes is required.
 	return cmd
 }
 
-func publishRun(ctx context.Context, opts *publishOptions) error {
+// publishRun publishes the draft once confirmed.
+func publishRun(opts *publishOptions) error {
+	ctx := opts.ctx
 	r, err := openRegister(ctx, opts.f)
 	if err != nil {
 		return err
@@ -128,33 +132,40 @@ but can no longer be published.
 On a terminal it asks for confirmation; otherwise --yes is required.`,
 		Args: exactArgs(1, "an ADJUSTMENT number"),
 		RunE: func(cmd *cobra.Command, args []string) error {
+			opts.ctx = cmd.Context()
 			if err := opts.parse(args); err != nil {
 				return err
 			}
 			if runF != nil {
 				return runF(opts)
 			}
-			if !opts.yes {
-				if err := confirm(f.IO, fmt.Sprintf("Discard adjustment %d for good?", opts.id)); err != nil {
-					return err
-				}
-			}
-			r, err := openRegister(cmd.Context(), f)
-			if err != nil {
-				return err
-			}
-			a, err := r.Discard(cmd.Context(), register.DiscardParams{AdjustmentID: opts.id, Reason: opts.reason, By: opts.by})
-			if err != nil {
-				return err
-			}
-			f.IO.printf("Adjustment %d discarded by %s: %s\n", a.ID, a.StatusBy, a.StatusReason)
-			return nil
+			return discardRun(opts)
 		},
 	}
 	cmd.Flags().StringVar(&opts.reason, "reason", "", "why it is discarded (required)")
 	cmd.Flags().StringVar(&opts.by, "by", osUser(), "who discards it")
 	cmd.Flags().BoolVar(&opts.yes, "yes", false, "discard without asking (required when not on a terminal)")
 	return cmd
+}
+
+// discardRun sets the draft aside once confirmed.
+func discardRun(opts *publishOptions) error {
+	f := opts.f
+	if !opts.yes {
+		if err := confirm(f.IO, fmt.Sprintf("Discard adjustment %d for good?", opts.id)); err != nil {
+			return err
+		}
+	}
+	r, err := openRegister(opts.ctx, f)
+	if err != nil {
+		return err
+	}
+	a, err := r.Discard(opts.ctx, register.DiscardParams{AdjustmentID: opts.id, Reason: opts.reason, By: opts.by})
+	if err != nil {
+		return err
+	}
+	f.IO.printf("Adjustment %d discarded by %s: %s\n", a.ID, a.StatusBy, a.StatusReason)
+	return nil
 }
 
 // confirm asks a yes/no question when the streams can prompt. When they
