@@ -68,6 +68,16 @@ func exitCode(err error) int {
 	return ExitFailure
 }
 
+// finish ends a run of cairn: it prints err, if any, on ios.ErrOut as its
+// user is to read it (a report whose checks failed has said so already),
+// and returns the exit status. It is the one place that prints errors.
+func finish(ios *IOStreams, err error) int {
+	if err != nil && !errors.As(err, new(checksFailed)) {
+		fmt.Fprintln(ios.ErrOut, "cairn: "+err.Error())
+	}
+	return exitCode(err)
+}
+
 // commandError is an error of the command cmd as its user is to read it:
 // the domain's errors in the command line's terms (see errorMessage).
 type commandError struct {

@@ -5,7 +5,6 @@ package cli
 
 import (
 	"context"
-	"errors"
 	"fmt"
 	"io"
 	"os"
@@ -30,10 +29,7 @@ func Main(args []string) int {
 	if os.Getenv("CAIRN_REPORT_PEAK_MEMORY") != "" {
 		reportPeakMemory(ios.ErrOut)
 	}
-	if err != nil && !errors.As(err, new(checksFailed)) {
-		fmt.Fprintln(ios.ErrOut, "cairn: "+err.Error())
-	}
-	return exitCode(err)
+	return finish(ios, err)
 }
 
 // Execute runs the root command over f with args; tests call it directly.
