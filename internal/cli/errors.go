@@ -88,17 +88,21 @@ type commandError struct {
 func (e *commandError) Error() string { return errorMessage(e.cmd, e.err) }
 func (e *commandError) Unwrap() error { return e.err }
 
-// fieldFlags names the flag of a register field whose flag is spelt
-// otherwise; every other field is its flag's name.
-var fieldFlags = map[string]string{
-	"sigma": "sigma-mm-per-sqrt-km",
+// fieldFlags names, by command path, the flag that gives a register field
+// where the two are spelt differently; every other field is its flag's
+// name. An empty flag keeps the field's plain name: on adjust the register
+// says "by" both for who makes the adjustment (--made-by) and for how a
+// misclosure is spread (--by), so neither flag can be named for it.
+var fieldFlags = map[string]map[string]string{
+	"cairn adjust": {"sigma": "sigma-mm-per-sqrt-km", "by": ""},
 }
 
 // errorMessage renders err, returned by the command cmd, for its user:
 //
 //   - a register.InputError names its field as the flag of cmd that gives
-//     it (field "reason" of `height set` is "--reason: ..."), or by its
-//     plain name when cmd has no such flag (an argument, say);
+//     it (field "reason" of `height set` is "--reason: ..."; see
+//     fieldFlags), or by its plain name when cmd has no such flag (an
+//     argument, say);
 //   - a register.UnknownMarksError advises `cairn mark add` or --new-marks;
 //   - a register.ChecksFailedError advises --accept-failed-checks with
 //     --reason.
@@ -132,9 +136,12 @@ func errorMessage(cmd *cobra.Command, err error) string {
 // fieldName is how a register field is named to the user of cmd: as the
 // flag that gives it ("--reason"), or plainly when no flag of cmd does.
 func fieldName(cmd *cobra.Command, field string) string {
-	name := field
-	if f, ok := fieldFlags[field]; ok {
-		name = f
+	name, ok := fieldFlags[cmd.CommandPath()][field]
+	if !ok {
+		name = field
+	}
+	if name == "" {
+		return field
 	}
 	return flagOr(cmd, name, field)
 }

@@ -115,7 +115,11 @@ func TestErrorMessageNamesTheCommandsFlag(t *testing.T) {
 	t.Parallel()
 	cmd := &cobra.Command{Use: "set"}
 	cmd.Flags().String("reason", "", "")
-	cmd.Flags().String("sigma-mm-per-sqrt-km", "", "")
+	adjust := &cobra.Command{Use: "adjust"}
+	(&cobra.Command{Use: "cairn"}).AddCommand(adjust)
+	for _, name := range []string{"sigma-mm-per-sqrt-km", "by", "made-by", "reason"} {
+		adjust.Flags().String(name, "", "")
+	}
 	record := &cobra.Command{Use: "record"}
 	record.Flags().Bool("new-marks", false, "")
 	record.Flags().Bool("accept-failed-checks", false, "")
@@ -130,7 +134,10 @@ func TestErrorMessageNamesTheCommandsFlag(t *testing.T) {
 		want string
 	}{
 		{"a flag", cmd, &register.InputError{Field: "reason", Msg: "say why"}, "--reason: say why"},
-		{"a flag spelt otherwise", cmd, &register.InputError{Field: "sigma", Msg: "must be positive"}, "--sigma-mm-per-sqrt-km: must be positive"},
+		{"a flag spelt otherwise", adjust, &register.InputError{Field: "sigma", Msg: "must be positive"}, "--sigma-mm-per-sqrt-km: must be positive"},
+		{"a field two flags give", adjust, &register.InputError{Field: "by", Msg: "say who makes the adjustment"}, "by: say who makes the adjustment"},
+		{"a flag of adjust", adjust, &register.InputError{Field: "reason", Msg: "say why"}, "--reason: say why"},
+		{"a field not mapped elsewhere", cmd, &register.InputError{Field: "sigma", Msg: "must be positive"}, "sigma: must be positive"},
 		{"an argument", cmd, &register.InputError{Field: "designation", Msg: "no mark"}, "designation: no mark"},
 		{"wrapped", cmd, fmt.Errorf("set height: %w", &register.InputError{Field: "reason", Msg: "say why"}), "set height: --reason: say why"},
 		{"another error", cmd, errors.New("reason: as it was"), "reason: as it was"},

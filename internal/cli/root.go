@@ -33,6 +33,9 @@ func Main(args []string) int {
 }
 
 // Execute runs the root command over f with args; tests call it directly.
+// An error comes back wrapped with the command that ran, so that its
+// message names that command's flags (see errorMessage); errors.As and
+// exitCode see through the wrapping.
 func Execute(ctx context.Context, f *Factory, args []string) error {
 	root := NewRootCmd(f)
 	root.SetArgs(args)
