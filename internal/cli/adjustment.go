@@ -1,6 +1,7 @@
 package cli
 
 import (
+	"context"
 	"strconv"
 	"strings"
 
@@ -14,7 +15,7 @@ func newCmdAdjustment(f *Factory) *cobra.Command {
 		Use:   "adjustment",
 		Short: "Adjustments made: list them, show one",
 	}
-	cmd.AddCommand(newCmdAdjustmentList(f), newCmdAdjustmentShow(f))
+	cmd.AddCommand(newCmdAdjustmentList(f, nil), newCmdAdjustmentShow(f, nil))
 	return cmd
 }
 
@@ -31,48 +32,72 @@ type adjustmentRowJSON struct {
 	StatusReason string  `json:"status_reason,omitempty"`
 }
 
-func newCmdAdjustmentList(f *Factory) *cobra.Command {
-	var format Format
-	var status string
+// adjustmentListOptions are the inputs of `cairn adjustment list`.
+type adjustmentListOptions struct {
+	f      *Factory
+	ctx    context.Context
+	format Format
+	status string
+}
+
+func newCmdAdjustmentList(f *Factory, runF func(*adjustmentListOptions) error) *cobra.Command {
+	opts := &adjustmentListOptions{f: f}
 	cmd := &cobra.Command{
 		Use:   "list [--status draft|published|discarded]",
 		Short: "List adjustments, oldest first",
 		Args:  exactArgs(0, "no arguments"),
 		RunE: func(cmd *cobra.Command, args []string) error {
-			r, err := openRegister(cmd.Context(), f)
-			if err != nil {
-				return err
+			opts.ctx = cmd.Context()
+			if runF != nil {
+				return runF(opts)
 			}
-			as, err := r.AdjustmentList(cmd.Context(), register.AdjustmentListParams{Status: status})
-			if err != nil {
-				return err
-			}
-			out := []adjustmentRowJSON{}
-			for _, a := range as {
-				out = append(out, adjustmentRowJSON{AdjustmentID: a.ID, Status: a.Status, Method: a.Method, Datum: a.DatumCode,
-					RunIDs: a.RunIDs, Marks: a.Results, CreatedBy: a.CreatedBy, CreatedAt: timeText(a.CreatedAt), StatusReason: a.StatusReason})
-			}
-			return render(f.IO, format, out, func() Table {
-				t := Table{Headers: []string{"ADJUSTMENT", "STATUS", "METHOD", "DATUM", "RUNS", "MARKS", "MADE (UTC)", "BY", "REASON"}}
-				for _, a := range out {
-					runs := make([]string, len(a.RunIDs))
-					for i, id := range a.RunIDs {
-						runs[i] = strconv.FormatInt(id, 10)
-					}
-					t.AddRow(strconv.FormatInt(a.AdjustmentID, 10), a.Status, a.Method, a.Datum, strings.Join(runs, ","),
-						strconv.Itoa(a.Marks), a.CreatedAt, a.CreatedBy, a.StatusReason)
-				}
-				return t
-			})
+			return adjustmentListRun(opts)
 		},
 	}
-	addOutputFlag(cmd, &format)
-	cmd.Flags().StringVar(&status, "status", "", "only adjustments with this status: draft, published or discarded")
+	addOutputFlag(cmd, &opts.format)
+	cmd.Flags().StringVar(&opts.status, "status", "", "only adjustments with this status: draft, published or discarded")
 	return cmd
 }
 
-func newCmdAdjustmentShow(f *Factory) *cobra.Command {
-	var format Format
+// adjustmentListRun lists the adjustments.
+func adjustmentListRun(opts *adjustmentListOptions) error {
+	r, err := openRegister(opts.ctx, opts.f)
+	if err != nil {
+		return err
+	}
+	as, err := r.AdjustmentList(opts.ctx, register.AdjustmentListParams{Status: opts.status})
+	if err != nil {
+		return err
+	}
+	out := []adjustmentRowJSON{}
+	for _, a := range as {
+		out = append(out, adjustmentRowJSON{AdjustmentID: a.ID, Status: a.Status, Method: a.Method, Datum: a.DatumCode,
+			RunIDs: a.RunIDs, Marks: a.Results, CreatedBy: a.CreatedBy, CreatedAt: timeText(a.CreatedAt), StatusReason: a.StatusReason})
+	}
+	return render(opts.f.IO, opts.format, out, func() Table {
+		t := Table{Headers: []string{"ADJUSTMENT", "STATUS", "METHOD", "DATUM", "RUNS", "MARKS", "MADE (UTC)", "BY", "REASON"}}
+		for _, a := range out {
+			runs := make([]string, len(a.RunIDs))
+			for i, id := range a.RunIDs {
+				runs[i] = strconv.FormatInt(id, 10)
+			}
+			t.AddRow(strconv.FormatInt(a.AdjustmentID, 10), a.Status, a.Method, a.Datum, strings.Join(runs, ","),
+				strconv.Itoa(a.Marks), a.CreatedAt, a.CreatedBy, a.StatusReason)
+		}
+		return t
+	})
+}
+
+// adjustmentShowOptions are the inputs of `cairn adjustment show`.
+type adjustmentShowOptions struct {
+	f      *Factory
+	ctx    context.Context
+	format Format
+	id     int64
+}
+
+func newCmdAdjustmentShow(f *Factory, runF func(*adjustmentShowOptions) error) *cobra.Command {
+	opts := &adjustmentShowOptions{f: f}
 	cmd := &cobra.Command{
 		Use:   "show ADJUSTMENT",
 		Short: "Show an adjustment's report: runs, held versions, results, misclosures",
@@ -83,17 +108,26 @@ func newCmdAdjustmentShow(f *Factory) *cobra.Command {
 			if err != nil || id <= 0 {
 				return badInput("adjustment: %q is not an adjustment number (see cairn adjustment list)", args[0])
 			}
-			r, err := openRegister(cmd.Context(), f)
-			if err != nil {
-				return err
+			opts.ctx, opts.id = cmd.Context(), id
+			if runF != nil {
+				return runF(opts)
 			}
-			v, err := r.Adjustment(cmd.Context(), id)
-			if err != nil {
-				return err
-			}
-			return renderAdjustment(f.IO, format, v, false)
+			return adjustmentShowRun(opts)
 		},
 	}
-	addOutputFlag(cmd, &format)
+	addOutputFlag(cmd, &opts.format)
 	return cmd
+}
+
+// adjustmentShowRun shows the adjustment's report.
+func adjustmentShowRun(opts *adjustmentShowOptions) error {
+	r, err := openRegister(opts.ctx, opts.f)
+	if err != nil {
+		return err
+	}
+	v, err := r.Adjustment(opts.ctx, opts.id)
+	if err != nil {
+		return err
+	}
+	return renderAdjustment(opts.f.IO, opts.format, v, false)
 }

@@ -1,6 +1,8 @@
 package cli
 
 import (
+	"context"
+
 	"github.com/spf13/cobra"
 
 	"cairn/internal/register"
@@ -11,12 +13,14 @@ func newCmdDatum(f *Factory) *cobra.Command {
 		Use:   "datum",
 		Short: "Vertical datums heights refer to",
 	}
-	cmd.AddCommand(newCmdDatumAdd(f, nil), newCmdDatumList(f))
+	cmd.AddCommand(newCmdDatumAdd(f, nil), newCmdDatumList(f, nil))
 	return cmd
 }
 
+// datumAddOptions are the inputs of `cairn datum add`.
 type datumAddOptions struct {
 	f      *Factory
+	ctx    context.Context
 	params register.DatumAddParams
 }
 
@@ -30,11 +34,11 @@ command line (for example NAVD88); --name is its full or official name.`,
 		Example: `  cairn datum add NAVD88 --name "North American Vertical Datum of 1988"`,
 		Args:    exactArgs(1, "a datum CODE"),
 		RunE: func(cmd *cobra.Command, args []string) error {
-			opts.params.Code = args[0]
+			opts.ctx, opts.params.Code = cmd.Context(), args[0]
 			if runF != nil {
 				return runF(opts)
 			}
-			return datumAddRun(cmd, opts)
+			return datumAddRun(opts)
 		},
 	}
 	cmd.Flags().StringVar(&opts.params.Name, "name", "", "full or official name of the datum (required)")
@@ -43,12 +47,13 @@ command line (for example NAVD88); --name is its full or official name.`,
 	return cmd
 }
 
-func datumAddRun(cmd *cobra.Command, opts *datumAddOptions) error {
-	r, err := openRegister(cmd.Context(), opts.f)
+// datumAddRun adds the datum.
+func datumAddRun(opts *datumAddOptions) error {
+	r, err := openRegister(opts.ctx, opts.f)
 	if err != nil {
 		return err
 	}
-	d, err := r.DatumAdd(cmd.Context(), opts.params)
+	d, err := r.DatumAdd(opts.ctx, opts.params)
 	if err != nil {
 		return err
 	}
@@ -63,34 +68,50 @@ type datumJSON struct {
 	By   string `json:"created_by"`
 }
 
-func newCmdDatumList(f *Factory) *cobra.Command {
-	var format Format
+// datumListOptions are the inputs of `cairn datum list`.
+type datumListOptions struct {
+	f      *Factory
+	ctx    context.Context
+	format Format
+}
+
+func newCmdDatumList(f *Factory, runF func(*datumListOptions) error) *cobra.Command {
+	opts := &datumListOptions{f: f}
 	cmd := &cobra.Command{
 		Use:   "list",
 		Short: "List the datums",
 		Args:  exactArgs(0, "no arguments"),
 		RunE: func(cmd *cobra.Command, args []string) error {
-			r, err := openRegister(cmd.Context(), f)
-			if err != nil {
-				return err
+			opts.ctx = cmd.Context()
+			if runF != nil {
+				return runF(opts)
 			}
-			ds, err := r.DatumList(cmd.Context())
-			if err != nil {
-				return err
-			}
-			out := []datumJSON{}
-			for _, d := range ds {
-				out = append(out, datumJSON{d.Code, d.Name, d.Note, d.CreatedBy})
-			}
-			return render(f.IO, format, out, func() Table {
-				t := Table{Headers: []string{"CODE", "NAME", "NOTE"}}
-				for _, d := range out {
-					t.AddRow(d.Code, d.Name, d.Note)
-				}
-				return t
-			})
+			return datumListRun(opts)
 		},
 	}
-	addOutputFlag(cmd, &format)
+	addOutputFlag(cmd, &opts.format)
 	return cmd
+}
+
+// datumListRun lists the datums.
+func datumListRun(opts *datumListOptions) error {
+	r, err := openRegister(opts.ctx, opts.f)
+	if err != nil {
+		return err
+	}
+	ds, err := r.DatumList(opts.ctx)
+	if err != nil {
+		return err
+	}
+	out := []datumJSON{}
+	for _, d := range ds {
+		out = append(out, datumJSON{d.Code, d.Name, d.Note, d.CreatedBy})
+	}
+	return render(opts.f.IO, opts.format, out, func() Table {
+		t := Table{Headers: []string{"CODE", "NAME", "NOTE"}}
+		for _, d := range out {
+			t.AddRow(d.Code, d.Name, d.Note)
+		}
+		return t
+	})
 }

@@ -1,6 +1,7 @@
 package cli
 
 import (
+	"context"
 	"fmt"
 	"strings"
 
@@ -16,8 +17,15 @@ import (
 // each run.
 const demoDatabase = "cairn_demo"
 
-func newCmdDemo(f *Factory) *cobra.Command {
-	name := demoDatabase
+// demoOptions are the inputs of `cairn demo`.
+type demoOptions struct {
+	f    *Factory
+	ctx  context.Context
+	name string // the demo database
+}
+
+func newCmdDemo(f *Factory, runF func(*demoOptions) error) *cobra.Command {
+	opts := &demoOptions{f: f}
 	cmd := &cobra.Command{
 		Use:   "demo",
 		Short: "Build a small invented register to look around in",
@@ -32,19 +40,24 @@ use (with none named, cairn's private PostgreSQL). It is dropped and built
 anew on each run; your own register is not touched.`,
 		Args: exactArgs(0, "no arguments"),
 		RunE: func(cmd *cobra.Command, args []string) error {
-			if name != demoDatabase && !strings.HasPrefix(name, demoDatabase+"_") {
+			opts.ctx = cmd.Context()
+			if opts.name != demoDatabase && !strings.HasPrefix(opts.name, demoDatabase+"_") {
 				return badInput("name: the demo database's name must be %s or start with %s_ (it is dropped and made anew)", demoDatabase, demoDatabase)
 			}
-			return demoRun(cmd, f, name)
+			if runF != nil {
+				return runF(opts)
+			}
+			return demoRun(opts)
 		},
 	}
-	cmd.Flags().StringVar(&name, "name", demoDatabase, "name of the demo database (dropped and made anew)")
+	cmd.Flags().StringVar(&opts.name, "name", demoDatabase, "name of the demo database (dropped and made anew)")
 	_ = cmd.Flags().MarkHidden("name")
 	return cmd
 }
 
-func demoRun(cmd *cobra.Command, f *Factory, name string) error {
-	ctx := cmd.Context()
+// demoRun builds the demo register and shows it.
+func demoRun(opts *demoOptions) error {
+	ctx, f, name := opts.ctx, opts.f, opts.name
 	src := f.Source()
 	server := src.URL
 	if src.Embedded {

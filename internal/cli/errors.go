@@ -3,6 +3,12 @@ package cli
 import (
 	"errors"
 	"fmt"
+	"strings"
+
+	"github.com/spf13/cobra"
+
+	"cairn/internal/levelbook"
+	"cairn/internal/register"
 )
 
 // Exit statuses of cairn.
@@ -14,16 +20,12 @@ const (
 	ExitConflict = 4 // someone else changed the register first; nothing was written
 )
 
-// exitCoder is implemented by errors that choose their exit status. Packages
-// outside cli implement it without importing cli.
-type exitCoder interface{ ExitCode() int }
-
-// flagError is a mistake in the command line itself.
+// flagError is a mistake in the command line itself: a bad flag, argument
+// or input file, or an unknown command. Its exit status is 2.
 type flagError struct{ err error }
 
 func (e flagError) Error() string { return e.err.Error() }
 func (e flagError) Unwrap() error { return e.err }
-func (e flagError) ExitCode() int { return ExitBadInput }
 
 // badInput makes an error with exit status 2.
 func badInput(format string, a ...any) error {
@@ -31,19 +33,123 @@ func badInput(format string, a ...any) error {
 }
 
 // checksFailed is returned when a report was printed but checks failed.
+// Its exit status is 3.
 type checksFailed struct{ n int }
 
 func (e checksFailed) Error() string { return fmt.Sprintf("%d check(s) failed", e.n) }
-func (e checksFailed) ExitCode() int { return ExitChecks }
 
-// exitCode maps an error to the process's exit status.
+// exitCode maps an error to the process's exit status. It is the one place
+// that does: the domain packages return typed errors and know nothing of
+// exit statuses.
 func exitCode(err error) int {
-	if err == nil {
+	var (
+		fe  flagError
+		ie  *register.InputError
+		le  *levelbook.Error
+		ume *register.UnknownMarksError
+		are *register.AlreadyRecordedError
+		cfe *register.ChecksFailedError
+		cf  checksFailed
+		ce  *register.ConflictError
+	)
+	switch {
+	case err == nil:
 		return ExitOK
-	}
-	var ec exitCoder
-	if errors.As(err, &ec) {
-		return ec.ExitCode()
+	case errors.As(err, &fe), errors.As(err, &ie), errors.As(err, &le),
+		errors.As(err, &ume), errors.As(err, &are), errors.As(err, &cfe):
+		// A refused book (unknown marks, already recorded, failed checks
+		// without --accept-failed-checks) is bad input: nothing was written.
+		return ExitBadInput
+	case errors.As(err, &cf):
+		return ExitChecks
+	case errors.As(err, &ce):
+		return ExitConflict
 	}
 	return ExitFailure
+}
+
+// finish ends a run of cairn: it prints err, if any, on ios.ErrOut as its
+// user is to read it (a report whose checks failed has said so already),
+// and returns the exit status. It is the one place that prints errors.
+func finish(ios *IOStreams, err error) int {
+	if err != nil && !errors.As(err, new(checksFailed)) {
+		fmt.Fprintln(ios.ErrOut, "cairn: "+err.Error())
+	}
+	return exitCode(err)
+}
+
+// commandError is an error of the command cmd as its user is to read it:
+// the domain's errors in the command line's terms (see errorMessage).
+type commandError struct {
+	cmd *cobra.Command
+	err error
+}
+
+func (e *commandError) Error() string { return errorMessage(e.cmd, e.err) }
+func (e *commandError) Unwrap() error { return e.err }
+
+// fieldFlags names, by command path, the flag that gives a register field
+// where the two are spelt differently; every other field is its flag's
+// name. An empty flag keeps the field's plain name: on adjust the register
+// says "by" both for who makes the adjustment (--made-by) and for how a
+// misclosure is spread (--by), so neither flag can be named for it.
+var fieldFlags = map[string]map[string]string{
+	"cairn adjust": {"sigma": "sigma-mm-per-sqrt-km", "by": ""},
+}
+
+// errorMessage renders err, returned by the command cmd, for its user:
+//
+//   - a register.InputError names its field as the flag of cmd that gives
+//     it (field "reason" of `height set` is "--reason: ..."; see
+//     fieldFlags), or by its plain name when cmd has no such flag (an
+//     argument, say);
+//   - a register.UnknownMarksError advises `cairn mark add` or --new-marks;
+//   - a register.ChecksFailedError advises --accept-failed-checks with
+//     --reason.
+//
+// The rest of the message is err's own.
+func errorMessage(cmd *cobra.Command, err error) string {
+	msg := err.Error()
+	var inner *commandError
+	if errors.As(err, &inner) || cmd == nil {
+		return msg // rendered already (a command run by another), or no command
+	}
+	var ie *register.InputError
+	if errors.As(err, &ie) {
+		msg = strings.Replace(msg, ie.Error(), fieldName(cmd, ie.Field)+": "+ie.Msg, 1)
+	}
+	var ume *register.UnknownMarksError
+	if errors.As(err, &ume) {
+		msg = strings.Replace(msg, ume.Error(), ume.Problem()+
+			"; add them with `cairn mark add`, or record with "+flagOr(cmd, "new-marks", "new marks")+
+			" to create them; nothing was written", 1)
+	}
+	var cfe *register.ChecksFailedError
+	if errors.As(err, &cfe) {
+		msg = strings.Replace(msg, cfe.Error(), cfe.Error()+"\nto record it anyway, give "+
+			flagOr(cmd, "accept-failed-checks", "acceptance of failed checks")+" with "+
+			flagOr(cmd, "reason", "a reason")+" saying why", 1)
+	}
+	return msg
+}
+
+// fieldName is how a register field is named to the user of cmd: as the
+// flag that gives it ("--reason"), or plainly when no flag of cmd does.
+func fieldName(cmd *cobra.Command, field string) string {
+	name, ok := fieldFlags[cmd.CommandPath()][field]
+	if !ok {
+		name = field
+	}
+	if name == "" {
+		return field
+	}
+	return flagOr(cmd, name, field)
+}
+
+// flagOr is "--name" when cmd has the flag name, else plain.
+func flagOr(cmd *cobra.Command, name, plain string) string {
+	if cmd.Flags().Lookup(name) != nil {
+		return "--" + name
+	}
+	return plain
 }

@@ -9,6 +9,7 @@ import (
 	"github.com/jackc/pgx/v5/pgxpool"
 
 	"cairn/internal/localpg"
+	"cairn/internal/register"
 	"cairn/internal/store"
 )
 
@@ -133,4 +134,14 @@ func (f *Factory) Close() {
 	if f.pool != nil {
 		f.pool.Close()
 	}
+}
+
+// openRegister connects to the register f names, its schema brought up to
+// date.
+func openRegister(ctx context.Context, f *Factory) (*register.Register, error) {
+	pool, err := f.Pool(ctx)
+	if err != nil {
+		return nil, err
+	}
+	return register.New(pool), nil
 }

@@ -1,6 +1,7 @@
 package cli
 
 import (
+	"context"
 	"encoding/hex"
 	"strconv"
 	"time"
@@ -17,12 +18,15 @@ func newCmdHeight(f *Factory) *cobra.Command {
 		Use:   "height",
 		Short: "Published heights of benchmarks: record and look up",
 	}
-	cmd.AddCommand(newCmdHeightSet(f, nil), newCmdHeightWithdraw(f, nil), newCmdHeightShow(f, nil), newCmdHeightList(f))
+	cmd.AddCommand(newCmdHeightSet(f, nil), newCmdHeightWithdraw(f, nil), newCmdHeightShow(f, nil), newCmdHeightList(f, nil))
 	return cmd
 }
 
+// heightSetOptions are the inputs of `cairn height set` and `cairn height
+// withdraw`.
 type heightSetOptions struct {
 	f        *Factory
+	ctx      context.Context
 	params   register.HeightSetParams
 	decimals int
 }
@@ -54,6 +58,7 @@ register for good (see 'cairn history').
     --source "errata sheet 3 to the 1994 book" --reason "769.83 was a transcription error"`,
 		Args: exactArgs(2, "a DESIGNATION and a VALUE"),
 		RunE: func(cmd *cobra.Command, args []string) error {
+			opts.ctx = cmd.Context()
 			opts.params.Designation, opts.params.Value = args[0], args[1]
 			switch opts.params.Kind {
 			case register.KindAuthority, register.KindCorrection, register.KindDatumChange:
@@ -66,7 +71,7 @@ register for good (see 'cairn history').
 			if runF != nil {
 				return runF(opts)
 			}
-			return heightSetRun(cmd, opts)
+			return heightSetRun(opts)
 		},
 	}
 	fl := cmd.Flags()
@@ -103,12 +108,13 @@ register, and as-of look-ups before the withdrawal still return them.
 		Example: `  cairn height withdraw TC-0423 --datum NAVD88 --reason "mark destroyed when the depot was demolished"`,
 		Args:    exactArgs(1, "a DESIGNATION"),
 		RunE: func(cmd *cobra.Command, args []string) error {
+			opts.ctx = cmd.Context()
 			opts.params.Designation = args[0]
 			opts.params.Kind = register.KindWithdrawal
 			if runF != nil {
 				return runF(opts)
 			}
-			return heightSetRun(cmd, opts)
+			return heightSetRun(opts)
 		},
 	}
 	fl := cmd.Flags()
@@ -121,13 +127,13 @@ register, and as-of look-ups before the withdrawal still return them.
 
 // heightSetRun records the version opts describes (a value, or a
 // withdrawal) and says what it replaced.
-func heightSetRun(cmd *cobra.Command, opts *heightSetOptions) error {
+func heightSetRun(opts *heightSetOptions) error {
 	f := opts.f
-	r, err := openRegister(cmd.Context(), f)
+	r, err := openRegister(opts.ctx, f)
 	if err != nil {
 		return err
 	}
-	res, err := r.HeightSet(cmd.Context(), opts.params)
+	res, err := r.HeightSet(opts.ctx, opts.params)
 	if err != nil {
 		return err
 	}
@@ -141,18 +147,18 @@ func heightSetRun(cmd *cobra.Command, opts *heightSetOptions) error {
 	if res.Previous != nil {
 		f.IO.printf("  replaces version %d: %s\n", res.Previous.Version, valueText(*res.Previous))
 	}
-	warnCondition(f.IO, mustMark(cmd, f, v.Designation))
+	warnCondition(f.IO, mustMark(opts.ctx, f, v.Designation))
 	return nil
 }
 
 // mustMark returns the mark for the warning after a write; a failure to
 // read it only loses the warning, which height show repeats.
-func mustMark(cmd *cobra.Command, f *Factory, designation string) store.Mark {
-	r, err := openRegister(cmd.Context(), f)
+func mustMark(ctx context.Context, f *Factory, designation string) store.Mark {
+	r, err := openRegister(ctx, f)
 	if err != nil {
 		return store.Mark{}
 	}
-	v, err := r.HeightShow(cmd.Context(), register.HeightShowParams{Designation: designation})
+	v, err := r.HeightShow(ctx, register.HeightShowParams{Designation: designation})
 	if err != nil {
 		return store.Mark{}
 	}
@@ -208,8 +214,10 @@ func valueText(h store.Height) string {
 	return *h.Value + " " + *h.Unit
 }
 
+// heightShowOptions are the inputs of `cairn height show`.
 type heightShowOptions struct {
 	f      *Factory
+	ctx    context.Context
 	format Format
 	params register.HeightShowParams
 	asOf   string
@@ -232,7 +240,7 @@ A loud warning goes to the error stream when the mark's latest condition
 report says it is disturbed, destroyed or not found.`,
 		Args: exactArgs(1, "a DESIGNATION"),
 		RunE: func(cmd *cobra.Command, args []string) error {
-			opts.params.Designation = args[0]
+			opts.ctx, opts.params.Designation = cmd.Context(), args[0]
 			if opts.asOf != "" {
 				t, err := parseInstant(opts.asOf)
 				if err != nil {
@@ -243,7 +251,7 @@ report says it is disturbed, destroyed or not found.`,
 			if runF != nil {
 				return runF(opts)
 			}
-			return heightShowRun(cmd, opts)
+			return heightShowRun(opts)
 		},
 	}
 	addOutputFlag(cmd, &opts.format)
@@ -253,7 +261,8 @@ report says it is disturbed, destroyed or not found.`,
 	return cmd
 }
 
-func heightShowRun(cmd *cobra.Command, opts *heightShowOptions) error {
+// heightShowRun shows the heights in force.
+func heightShowRun(opts *heightShowOptions) error {
 	var in units.Unit
 	if opts.in != "" {
 		u, err := units.Parse(opts.in)
@@ -262,11 +271,11 @@ func heightShowRun(cmd *cobra.Command, opts *heightShowOptions) error {
 		}
 		in = u
 	}
-	r, err := openRegister(cmd.Context(), opts.f)
+	r, err := openRegister(opts.ctx, opts.f)
 	if err != nil {
 		return err
 	}
-	v, err := r.HeightShow(cmd.Context(), opts.params)
+	v, err := r.HeightShow(opts.ctx, opts.params)
 	if err != nil {
 		return err
 	}
@@ -312,47 +321,71 @@ func heightShowRun(cmd *cobra.Command, opts *heightShowOptions) error {
 	})
 }
 
-func newCmdHeightList(f *Factory) *cobra.Command {
-	var format Format
-	var datum string
+// heightListOptions are the inputs of `cairn height list`.
+type heightListOptions struct {
+	f      *Factory
+	ctx    context.Context
+	format Format
+	datum  string
+}
+
+func newCmdHeightList(f *Factory, runF func(*heightListOptions) error) *cobra.Command {
+	opts := &heightListOptions{f: f}
 	cmd := &cobra.Command{
 		Use:   "list [--datum CODE]",
 		Short: "List the current height of every benchmark",
 		Args:  exactArgs(0, "no arguments"),
 		RunE: func(cmd *cobra.Command, args []string) error {
-			r, err := openRegister(cmd.Context(), f)
-			if err != nil {
-				return err
+			opts.ctx = cmd.Context()
+			if runF != nil {
+				return runF(opts)
 			}
-			hs, err := r.HeightsCurrent(cmd.Context(), datum)
-			if err != nil {
-				return err
-			}
-			out := []heightJSON{}
-			for _, h := range hs {
-				out = append(out, toHeightJSON(h, ""))
-			}
-			return render(f.IO, format, out, func() Table {
-				t := Table{Headers: []string{"MARK", "DATUM", "VERSION", "HEIGHT", "UNIT", "CLASS", "SOURCE"}}
-				for _, h := range out {
-					val := deref(h.Value)
-					if h.Value == nil {
-						val = "withdrawn"
-					}
-					t.AddRow(h.Mark, h.Datum, strconv.Itoa(h.Version), val, deref(h.Unit), h.Class, h.Source)
-				}
-				return t
-			})
+			return heightListRun(opts)
 		},
 	}
-	addOutputFlag(cmd, &format)
-	cmd.Flags().StringVar(&datum, "datum", "", "only this datum")
+	addOutputFlag(cmd, &opts.format)
+	cmd.Flags().StringVar(&opts.datum, "datum", "", "only this datum")
 	return cmd
 }
 
-func newCmdHistory(f *Factory) *cobra.Command {
-	var format Format
-	var datum string
+// heightListRun lists the current heights.
+func heightListRun(opts *heightListOptions) error {
+	r, err := openRegister(opts.ctx, opts.f)
+	if err != nil {
+		return err
+	}
+	hs, err := r.HeightsCurrent(opts.ctx, opts.datum)
+	if err != nil {
+		return err
+	}
+	out := []heightJSON{}
+	for _, h := range hs {
+		out = append(out, toHeightJSON(h, ""))
+	}
+	return render(opts.f.IO, opts.format, out, func() Table {
+		t := Table{Headers: []string{"MARK", "DATUM", "VERSION", "HEIGHT", "UNIT", "CLASS", "SOURCE"}}
+		for _, h := range out {
+			val := deref(h.Value)
+			if h.Value == nil {
+				val = "withdrawn"
+			}
+			t.AddRow(h.Mark, h.Datum, strconv.Itoa(h.Version), val, deref(h.Unit), h.Class, h.Source)
+		}
+		return t
+	})
+}
+
+// historyOptions are the inputs of `cairn history`.
+type historyOptions struct {
+	f           *Factory
+	ctx         context.Context
+	format      Format
+	designation string
+	datum       string
+}
+
+func newCmdHistory(f *Factory, runF func(*historyOptions) error) *cobra.Command {
+	opts := &historyOptions{f: f}
 	cmd := &cobra.Command{
 		Use:   "history DESIGNATION [--datum CODE]",
 		Short: "Every version of a benchmark's heights, newest first",
@@ -362,39 +395,49 @@ an earlier version in another unit is converted exactly), its reason, its
 source and who recorded it.`,
 		Args: exactArgs(1, "a DESIGNATION"),
 		RunE: func(cmd *cobra.Command, args []string) error {
-			r, err := openRegister(cmd.Context(), f)
-			if err != nil {
-				return err
+			opts.ctx, opts.designation = cmd.Context(), args[0]
+			if runF != nil {
+				return runF(opts)
 			}
-			m, hs, err := r.History(cmd.Context(), args[0], datum)
-			if err != nil {
-				return err
-			}
-			warnCondition(f.IO, m)
-			out := []heightJSON{}
-			for _, h := range hs {
-				j := toHeightJSON(h.Height, "")
-				j.Change = h.Change
-				out = append(out, j)
-			}
-			defer reportCautions(f.IO, format)
-			return render(f.IO, format, out, func() Table {
-				t := Table{Headers: []string{"DATUM", "VERSION", "RECORDED (UTC)", "HEIGHT", "UNIT", "CHANGE", "KIND", "REASON", "SOURCE", "BY"}}
-				for _, h := range out {
-					val := deref(h.Value)
-					if h.Value == nil {
-						val = "withdrawn"
-					}
-					t.AddRow(h.Datum, strconv.Itoa(h.Version), timeText(h.RecordedAt), val, deref(h.Unit),
-						deref(h.Change), h.SourceKind, h.Reason, h.Source, h.RecordedBy)
-				}
-				return t
-			})
+			return historyRun(opts)
 		},
 	}
-	addOutputFlag(cmd, &format)
-	cmd.Flags().StringVar(&datum, "datum", "", "only this datum")
+	addOutputFlag(cmd, &opts.format)
+	cmd.Flags().StringVar(&opts.datum, "datum", "", "only this datum")
 	return cmd
+}
+
+// historyRun lists every version of the mark's heights.
+func historyRun(opts *historyOptions) error {
+	ios := opts.f.IO
+	r, err := openRegister(opts.ctx, opts.f)
+	if err != nil {
+		return err
+	}
+	m, hs, err := r.History(opts.ctx, opts.designation, opts.datum)
+	if err != nil {
+		return err
+	}
+	warnCondition(ios, m)
+	out := []heightJSON{}
+	for _, h := range hs {
+		j := toHeightJSON(h.Height, "")
+		j.Change = h.Change
+		out = append(out, j)
+	}
+	defer reportCautions(ios, opts.format)
+	return render(ios, opts.format, out, func() Table {
+		t := Table{Headers: []string{"DATUM", "VERSION", "RECORDED (UTC)", "HEIGHT", "UNIT", "CHANGE", "KIND", "REASON", "SOURCE", "BY"}}
+		for _, h := range out {
+			val := deref(h.Value)
+			if h.Value == nil {
+				val = "withdrawn"
+			}
+			t.AddRow(h.Datum, strconv.Itoa(h.Version), timeText(h.RecordedAt), val, deref(h.Unit),
+				deref(h.Change), h.SourceKind, h.Reason, h.Source, h.RecordedBy)
+		}
+		return t
+	})
 }
 
 func newCmdAudit(f *Factory) *cobra.Command {
@@ -402,8 +445,20 @@ func newCmdAudit(f *Factory) *cobra.Command {
 		Use:   "audit",
 		Short: "Check the register's history for tampering",
 	}
-	var format Format
-	verify := &cobra.Command{
+	cmd.AddCommand(newCmdAuditVerify(f, nil))
+	return cmd
+}
+
+// auditVerifyOptions are the inputs of `cairn audit verify`.
+type auditVerifyOptions struct {
+	f      *Factory
+	ctx    context.Context
+	format Format
+}
+
+func newCmdAuditVerify(f *Factory, runF func(*auditVerifyOptions) error) *cobra.Command {
+	opts := &auditVerifyOptions{f: f}
+	cmd := &cobra.Command{
 		Use:   "verify",
 		Short: "Recompute every hash chain of height versions and report any break",
 		Long: `Recompute, independently of the database, the hash of every height version
@@ -414,32 +469,41 @@ cairn's back, a broken link between versions, a gap in the numbering.
 Exit status 0 when every chain verifies, 3 when any break is found.`,
 		Args: exactArgs(0, "no arguments"),
 		RunE: func(cmd *cobra.Command, args []string) error {
-			r, err := openRegister(cmd.Context(), f)
-			if err != nil {
-				return err
+			opts.ctx = cmd.Context()
+			if runF != nil {
+				return runF(opts)
 			}
-			rep, err := r.AuditVerify(cmd.Context())
-			if err != nil {
-				return err
-			}
-			if err := render(f.IO, format, rep, func() Table {
-				t := Table{Headers: []string{"MARK", "DATUM", "VERSION", "PROBLEM", "EXPECTED HASH", "STORED HASH"}}
-				for _, b := range rep.Breaks {
-					t.AddRow(b.Designation, b.Datum, strconv.Itoa(b.Version), b.Problem, b.Expected, b.Stored)
-				}
-				return t
-			}); err != nil {
-				return err
-			}
-			if len(rep.Breaks) > 0 {
-				f.IO.printf("audit: %d break(s) in %d chain(s) of %d version(s)\n", len(rep.Breaks), rep.Chains, rep.Versions)
-				return checksFailed{len(rep.Breaks)}
-			}
-			f.IO.printf("audit: %d chain(s) of %d version(s) verify\n", rep.Chains, rep.Versions)
-			return nil
+			return auditVerifyRun(opts)
 		},
 	}
-	addOutputFlag(verify, &format)
-	cmd.AddCommand(verify)
+	addOutputFlag(cmd, &opts.format)
 	return cmd
+}
+
+// auditVerifyRun recomputes the hash chains and reports their breaks.
+func auditVerifyRun(opts *auditVerifyOptions) error {
+	ios := opts.f.IO
+	r, err := openRegister(opts.ctx, opts.f)
+	if err != nil {
+		return err
+	}
+	rep, err := r.AuditVerify(opts.ctx)
+	if err != nil {
+		return err
+	}
+	if err := render(ios, opts.format, rep, func() Table {
+		t := Table{Headers: []string{"MARK", "DATUM", "VERSION", "PROBLEM", "EXPECTED HASH", "STORED HASH"}}
+		for _, b := range rep.Breaks {
+			t.AddRow(b.Designation, b.Datum, strconv.Itoa(b.Version), b.Problem, b.Expected, b.Stored)
+		}
+		return t
+	}); err != nil {
+		return err
+	}
+	if len(rep.Breaks) > 0 {
+		ios.printf("audit: %d break(s) in %d chain(s) of %d version(s)\n", len(rep.Breaks), rep.Chains, rep.Versions)
+		return checksFailed{len(rep.Breaks)}
+	}
+	ios.printf("audit: %d chain(s) of %d version(s) verify\n", rep.Chains, rep.Versions)
+	return nil
 }

@@ -1,15 +1,18 @@
 package cli
 
 import (
+	"bufio"
 	"bytes"
+	"fmt"
 	"io"
 	"os"
+	"strings"
 
 	"golang.org/x/term"
 )
 
 // IOStreams carries every input and output of a command: data on Out,
-// messages and warnings on ErrOut.
+// messages and warnings on ErrOut, answers to questions on In.
 type IOStreams struct {
 	In     io.Reader
 	Out    io.Writer
@@ -19,6 +22,11 @@ type IOStreams struct {
 	IsTerminal bool
 	// ErrIsTerminal says whether ErrOut is a terminal (progress indications).
 	ErrIsTerminal bool
+	// InIsTerminal says whether In is a terminal.
+	InIsTerminal bool
+
+	// canPrompt, when set, overrides the terminal test of CanPrompt.
+	canPrompt *bool
 }
 
 // SystemStreams returns the process's standard streams.
@@ -29,11 +37,42 @@ func SystemStreams() *IOStreams {
 		ErrOut:        os.Stderr,
 		IsTerminal:    term.IsTerminal(int(os.Stdout.Fd())),
 		ErrIsTerminal: term.IsTerminal(int(os.Stderr.Fd())),
+		InIsTerminal:  term.IsTerminal(int(os.Stdin.Fd())),
 	}
 }
 
-// TestStreams returns streams backed by buffers, for tests.
+// TestStreams returns streams backed by buffers, for tests. terminal sets
+// IsTerminal only; tests set the other terminal flags as they need.
 func TestStreams(terminal bool) (ios *IOStreams, in, out, errOut *bytes.Buffer) {
 	in, out, errOut = &bytes.Buffer{}, &bytes.Buffer{}, &bytes.Buffer{}
 	return &IOStreams{In: in, Out: out, ErrOut: errOut, IsTerminal: terminal}, in, out, errOut
 }
+
+// CanPrompt says whether a question can be asked and answered: In and
+// ErrOut are terminals, unless SetCanPrompt has said otherwise.
+func (s *IOStreams) CanPrompt() bool {
+	if s.canPrompt != nil {
+		return *s.canPrompt
+	}
+	return s.InIsTerminal && s.ErrIsTerminal
+}
+
+// SetCanPrompt overrides the terminal test of CanPrompt, for tests that
+// answer questions through In.
+func (s *IOStreams) SetCanPrompt(v bool) { s.canPrompt = &v }
+
+// Confirm asks question on ErrOut and reads a yes or no from In; anything
+// but y or yes is no. The caller checks CanPrompt first.
+func (s *IOStreams) Confirm(question string) bool {
+	fmt.Fprintf(s.ErrOut, "%s [y/N] ", question)
+	line, _ := bufio.NewReader(s.In).ReadString('\n')
+	switch strings.ToLower(strings.TrimSpace(line)) {
+	case "y", "yes":
+		return true
+	}
+	return false
+}
+
+// printf writes a message for the person at the terminal on ErrOut, so
+// that Out carries only data.
+func (s *IOStreams) printf(format string, a ...any) { fmt.Fprintf(s.ErrOut, format, a...) }

@@ -1,6 +1,7 @@
 package cli
 
 import (
+	"context"
 	"fmt"
 	"strconv"
 	"strings"
@@ -17,12 +18,14 @@ func newCmdMark(f *Factory) *cobra.Command {
 		Use:   "mark",
 		Short: "Benchmarks: add, show, list, report their condition",
 	}
-	cmd.AddCommand(newCmdMarkAdd(f, nil), newCmdMarkShow(f), newCmdMarkList(f, nil), newCmdMarkCondition(f, nil))
+	cmd.AddCommand(newCmdMarkAdd(f, nil), newCmdMarkShow(f, nil), newCmdMarkList(f, nil), newCmdMarkCondition(f, nil))
 	return cmd
 }
 
+// markAddOptions are the inputs of `cairn mark add`.
 type markAddOptions struct {
 	f        *Factory
+	ctx      context.Context
 	params   register.MarkAddParams
 	lat, lon float64
 }
@@ -40,7 +43,7 @@ for finding the mark; heights are recorded with 'cairn height set'.`,
     --lat 41.6207 --lon -97.9486`,
 		Args: exactArgs(1, "a DESIGNATION"),
 		RunE: func(cmd *cobra.Command, args []string) error {
-			opts.params.Designation = args[0]
+			opts.ctx, opts.params.Designation = cmd.Context(), args[0]
 			if cmd.Flags().Changed("lat") {
 				opts.params.Lat = &opts.lat
 			}
@@ -50,16 +53,7 @@ for finding the mark; heights are recorded with 'cairn height set'.`,
 			if runF != nil {
 				return runF(opts)
 			}
-			r, err := openRegister(cmd.Context(), f)
-			if err != nil {
-				return err
-			}
-			m, err := r.MarkAdd(cmd.Context(), opts.params)
-			if err != nil {
-				return err
-			}
-			f.IO.printf("added mark %s\n", m.Designation)
-			return nil
+			return markAddRun(opts)
 		},
 	}
 	fl := cmd.Flags()
@@ -71,6 +65,20 @@ for finding the mark; heights are recorded with 'cairn height set'.`,
 	fl.Float64Var(&opts.lon, "lon", 0, "approximate longitude, decimal degrees (east positive)")
 	fl.StringVar(&opts.params.CreatedBy, "by", osUser(), "who is adding it")
 	return cmd
+}
+
+// markAddRun adds the mark.
+func markAddRun(opts *markAddOptions) error {
+	r, err := openRegister(opts.ctx, opts.f)
+	if err != nil {
+		return err
+	}
+	m, err := r.MarkAdd(opts.ctx, opts.params)
+	if err != nil {
+		return err
+	}
+	opts.f.IO.printf("added mark %s\n", m.Designation)
+	return nil
 }
 
 // markJSON is a mark in machine output.
@@ -119,64 +127,84 @@ func position(m store.Mark) (string, string) {
 	return strconv.FormatFloat(*m.Lat, 'f', 5, 64), strconv.FormatFloat(*m.Lon, 'f', 5, 64)
 }
 
-func newCmdMarkShow(f *Factory) *cobra.Command {
-	var format Format
+// markShowOptions are the inputs of `cairn mark show`.
+type markShowOptions struct {
+	f           *Factory
+	ctx         context.Context
+	format      Format
+	designation string
+}
+
+func newCmdMarkShow(f *Factory, runF func(*markShowOptions) error) *cobra.Command {
+	opts := &markShowOptions{f: f}
 	cmd := &cobra.Command{
 		Use:   "show DESIGNATION",
 		Short: "Show a benchmark, its condition history and its current heights",
 		Args:  exactArgs(1, "a DESIGNATION"),
 		RunE: func(cmd *cobra.Command, args []string) error {
-			r, err := openRegister(cmd.Context(), f)
-			if err != nil {
-				return err
+			opts.ctx, opts.designation = cmd.Context(), args[0]
+			if runF != nil {
+				return runF(opts)
 			}
-			v, err := r.MarkShow(cmd.Context(), args[0])
-			if err != nil {
-				return err
-			}
-			warnCondition(f.IO, v.Mark)
-			j := toMarkJSON(v.Mark)
-			j.Conditions, j.Heights = []conditionJSON{}, []heightJSON{}
-			for _, c := range v.Conditions {
-				j.Conditions = append(j.Conditions, toConditionJSON(c))
-			}
-			for _, h := range v.Heights {
-				j.Heights = append(j.Heights, toHeightJSON(h, ""))
-			}
-			j.Runs = []runJSON{}
-			for _, run := range v.Runs {
-				j.Runs = append(j.Runs, toRunJSON(run))
-			}
-			if format == FormatJSON {
-				return writeJSON(f.IO.Out, j)
-			}
-			lat, lon := position(v.Mark)
-			t := Table{Headers: []string{"FIELD", "VALUE"}}
-			t.AddRow("designation", j.Designation)
-			t.AddRow("type", j.Type)
-			t.AddRow("setting", j.Setting)
-			t.AddRow("stamping", j.Stamping)
-			t.AddRow("to reach", j.ToReach)
-			t.AddRow("lat, lon (deg)", strings.Trim(lat+", "+lon, ", "))
-			t.AddRow("condition", j.Condition)
-			for _, c := range v.Conditions {
-				t.AddRow("reported", fmt.Sprintf("%s %s by %s: %s", c.ObservedOn.Format("2006-01-02"), c.Condition, c.RecordedBy, c.Note))
-			}
-			for _, h := range v.Heights {
-				t.AddRow("height "+h.DatumCode, fmt.Sprintf("%s (version %d, %s)", valueText(h), h.Version, h.Source))
-			}
-			for _, run := range j.Runs {
-				t.AddRow("run", fmt.Sprintf("%d %s %s (%s)", run.ID, run.ObservedOn, run.Name, run.FileName))
-			}
-			return writeTable(f.IO, format, t)
+			return markShowRun(opts)
 		},
 	}
-	addOutputFlag(cmd, &format)
+	addOutputFlag(cmd, &opts.format)
 	return cmd
 }
 
+// markShowRun shows the mark with its conditions, heights and runs.
+func markShowRun(opts *markShowOptions) error {
+	ios := opts.f.IO
+	r, err := openRegister(opts.ctx, opts.f)
+	if err != nil {
+		return err
+	}
+	v, err := r.MarkShow(opts.ctx, opts.designation)
+	if err != nil {
+		return err
+	}
+	warnCondition(ios, v.Mark)
+	j := toMarkJSON(v.Mark)
+	j.Conditions, j.Heights = []conditionJSON{}, []heightJSON{}
+	for _, c := range v.Conditions {
+		j.Conditions = append(j.Conditions, toConditionJSON(c))
+	}
+	for _, h := range v.Heights {
+		j.Heights = append(j.Heights, toHeightJSON(h, ""))
+	}
+	j.Runs = []runJSON{}
+	for _, run := range v.Runs {
+		j.Runs = append(j.Runs, toRunJSON(run))
+	}
+	if opts.format == FormatJSON {
+		return writeJSON(ios.Out, j)
+	}
+	lat, lon := position(v.Mark)
+	t := Table{Headers: []string{"FIELD", "VALUE"}}
+	t.AddRow("designation", j.Designation)
+	t.AddRow("type", j.Type)
+	t.AddRow("setting", j.Setting)
+	t.AddRow("stamping", j.Stamping)
+	t.AddRow("to reach", j.ToReach)
+	t.AddRow("lat, lon (deg)", strings.Trim(lat+", "+lon, ", "))
+	t.AddRow("condition", j.Condition)
+	for _, c := range v.Conditions {
+		t.AddRow("reported", fmt.Sprintf("%s %s by %s: %s", c.ObservedOn.Format("2006-01-02"), c.Condition, c.RecordedBy, c.Note))
+	}
+	for _, h := range v.Heights {
+		t.AddRow("height "+h.DatumCode, fmt.Sprintf("%s (version %d, %s)", valueText(h), h.Version, h.Source))
+	}
+	for _, run := range j.Runs {
+		t.AddRow("run", fmt.Sprintf("%d %s %s (%s)", run.ID, run.ObservedOn, run.Name, run.FileName))
+	}
+	return writeTable(ios, opts.format, t)
+}
+
+// markListOptions are the inputs of `cairn mark list`.
 type markListOptions struct {
 	f          *Factory
+	ctx        context.Context
 	format     Format
 	near       string
 	within     string
@@ -197,10 +225,11 @@ reported disturbed, destroyed or not found are flagged with a warning.`,
   cairn mark list --condition disturbed,not-found`,
 		Args: exactArgs(0, "no arguments"),
 		RunE: func(cmd *cobra.Command, args []string) error {
+			opts.ctx = cmd.Context()
 			if runF != nil {
 				return runF(opts)
 			}
-			return markListRun(cmd, opts)
+			return markListRun(opts)
 		},
 	}
 	addOutputFlag(cmd, &opts.format)
@@ -210,7 +239,8 @@ reported disturbed, destroyed or not found are flagged with a warning.`,
 	return cmd
 }
 
-func markListRun(cmd *cobra.Command, opts *markListOptions) error {
+// markListRun lists the marks, those near a point nearest first.
+func markListRun(opts *markListOptions) error {
 	p := register.MarkListParams{Conditions: opts.conditions}
 	if opts.near != "" {
 		ll, err := parseLatLon(opts.near)
@@ -222,11 +252,11 @@ func markListRun(cmd *cobra.Command, opts *markListOptions) error {
 		}
 		p.Near = &ll
 	}
-	r, err := openRegister(cmd.Context(), opts.f)
+	r, err := openRegister(opts.ctx, opts.f)
 	if err != nil {
 		return err
 	}
-	ms, err := r.MarkList(cmd.Context(), p)
+	ms, err := r.MarkList(opts.ctx, p)
 	if err != nil {
 		return err
 	}
@@ -286,8 +316,10 @@ func parseDistance(s string) (float64, error) {
 	return v * scale, nil
 }
 
+// markConditionOptions are the inputs of `cairn mark condition`.
 type markConditionOptions struct {
 	f      *Factory
+	ctx    context.Context
 	params register.MarkConditionParams
 	on     string
 }
@@ -311,6 +343,7 @@ one (by the date observed) is the mark's condition, and 'height show' and
 		},
 		RunE: func(cmd *cobra.Command, args []string) error {
 			now := time.Now()
+			opts.ctx = cmd.Context()
 			opts.params.Designation, opts.params.Condition = args[0], args[1]
 			opts.params.Today = time.Date(now.Year(), now.Month(), now.Day(), 0, 0, 0, 0, time.UTC)
 			opts.params.ObservedOn = opts.params.Today
@@ -324,20 +357,25 @@ one (by the date observed) is the mark's condition, and 'height show' and
 			if runF != nil {
 				return runF(opts)
 			}
-			r, err := openRegister(cmd.Context(), f)
-			if err != nil {
-				return err
-			}
-			c, err := r.MarkCondition(cmd.Context(), opts.params)
-			if err != nil {
-				return err
-			}
-			f.IO.printf("recorded %s as %s on %s\n", args[0], c.Condition, c.ObservedOn.Format("2006-01-02"))
-			return nil
+			return markConditionRun(opts)
 		},
 	}
 	cmd.Flags().StringVar(&opts.params.Note, "note", "", "what was seen")
 	cmd.Flags().StringVar(&opts.on, "on", "", "date observed, YYYY-MM-DD (default today)")
 	cmd.Flags().StringVar(&opts.params.RecordedBy, "by", osUser(), "who observed it")
 	return cmd
+}
+
+// markConditionRun records the condition report.
+func markConditionRun(opts *markConditionOptions) error {
+	r, err := openRegister(opts.ctx, opts.f)
+	if err != nil {
+		return err
+	}
+	c, err := r.MarkCondition(opts.ctx, opts.params)
+	if err != nil {
+		return err
+	}
+	opts.f.IO.printf("recorded %s as %s on %s\n", opts.params.Designation, c.Condition, c.ObservedOn.Format("2006-01-02"))
+	return nil
 }

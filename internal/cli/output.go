@@ -101,3 +101,12 @@ func render(ios *IOStreams, format Format, v any, table func() Table) error {
 	}
 	return writeTable(ios, format, table())
 }
+
+// deref is *p, or the zero value for nil: a cell of an optional value.
+func deref[T any](p *T) T {
+	var zero T
+	if p == nil {
+		return zero
+	}
+	return *p
+}

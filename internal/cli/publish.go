@@ -1,15 +1,12 @@
 package cli
 
 import (
-	"bufio"
 	"context"
 	"fmt"
-	"os"
 	"strconv"
 	"strings"
 
 	"github.com/spf13/cobra"
-	"golang.org/x/term"
 
 	"cairn/internal/register"
 )
@@ -17,6 +14,7 @@ import (
 // publishOptions are the options of `cairn publish` and `cairn discard`.
 type publishOptions struct {
 	f      *Factory
+	ctx    context.Context
 	format Format
 	id     int64
 	reason string
@@ -57,13 +55,14 @@ On a terminal it asks for confirmation; otherwise --yes is required.
 		Example: `  cairn publish 3 --reason "north loop of May 2024, reviewed by J. Ames, PLS"`,
 		Args:    exactArgs(1, "an ADJUSTMENT number"),
 		RunE: func(cmd *cobra.Command, args []string) error {
+			opts.ctx = cmd.Context()
 			if err := opts.parse(args); err != nil {
 				return err
 			}
 			if runF != nil {
 				return runF(opts)
 			}
-			return publishRun(cmd.Context(), opts)
+			return publishRun(opts)
 		},
 	}
 	addOutputFlag(cmd, &opts.format)
@@ -73,7 +72,9 @@ On a terminal it asks for confirmation; otherwise --yes is required.
 	return cmd
 }
 
-func publishRun(ctx context.Context, opts *publishOptions) error {
+// publishRun publishes the draft once confirmed.
+func publishRun(opts *publishOptions) error {
+	ctx := opts.ctx
 	r, err := openRegister(ctx, opts.f)
 	if err != nil {
 		return err
@@ -131,27 +132,14 @@ but can no longer be published.
 On a terminal it asks for confirmation; otherwise --yes is required.`,
 		Args: exactArgs(1, "an ADJUSTMENT number"),
 		RunE: func(cmd *cobra.Command, args []string) error {
+			opts.ctx = cmd.Context()
 			if err := opts.parse(args); err != nil {
 				return err
 			}
 			if runF != nil {
 				return runF(opts)
 			}
-			if !opts.yes {
-				if err := confirm(f.IO, fmt.Sprintf("Discard adjustment %d for good?", opts.id)); err != nil {
-					return err
-				}
-			}
-			r, err := openRegister(cmd.Context(), f)
-			if err != nil {
-				return err
-			}
-			a, err := r.Discard(cmd.Context(), register.DiscardParams{AdjustmentID: opts.id, Reason: opts.reason, By: opts.by})
-			if err != nil {
-				return err
-			}
-			f.IO.printf("Adjustment %d discarded by %s: %s\n", a.ID, a.StatusBy, a.StatusReason)
-			return nil
+			return discardRun(opts)
 		},
 	}
 	cmd.Flags().StringVar(&opts.reason, "reason", "", "why it is discarded (required)")
@@ -160,18 +148,34 @@ On a terminal it asks for confirmation; otherwise --yes is required.`,
 	return cmd
 }
 
-// confirm asks a yes/no question on a terminal. Off a terminal it refuses:
-// the caller must say --yes.
+// discardRun sets the draft aside once confirmed.
+func discardRun(opts *publishOptions) error {
+	f := opts.f
+	if !opts.yes {
+		if err := confirm(f.IO, fmt.Sprintf("Discard adjustment %d for good?", opts.id)); err != nil {
+			return err
+		}
+	}
+	r, err := openRegister(opts.ctx, f)
+	if err != nil {
+		return err
+	}
+	a, err := r.Discard(opts.ctx, register.DiscardParams{AdjustmentID: opts.id, Reason: opts.reason, By: opts.by})
+	if err != nil {
+		return err
+	}
+	f.IO.printf("Adjustment %d discarded by %s: %s\n", a.ID, a.StatusBy, a.StatusReason)
+	return nil
+}
+
+// confirm asks a yes/no question when the streams can prompt. When they
+// cannot, it refuses: the caller must say --yes.
 func confirm(ios *IOStreams, question string) error {
-	in, ok := ios.In.(*os.File)
-	if !ok || !term.IsTerminal(int(in.Fd())) {
+	if !ios.CanPrompt() {
 		return badInput("yes: not on a terminal, so nothing was asked and nothing was done; give --yes to go ahead")
 	}
-	fmt.Fprintf(ios.ErrOut, "%s [y/N] ", question)
-	line, _ := bufio.NewReader(in).ReadString('\n')
-	switch strings.ToLower(strings.TrimSpace(line)) {
-	case "y", "yes":
-		return nil
+	if !ios.Confirm(question) {
+		return badInput("yes: not confirmed; nothing was done")
 	}
-	return badInput("yes: not confirmed; nothing was done")
+	return nil
 }

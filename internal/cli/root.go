@@ -5,7 +5,6 @@ package cli
 
 import (
 	"context"
-	"errors"
 	"fmt"
 	"io"
 	"os"
@@ -30,24 +29,30 @@ func Main(args []string) int {
 	if os.Getenv("CAIRN_REPORT_PEAK_MEMORY") != "" {
 		reportPeakMemory(ios.ErrOut)
 	}
-	if err != nil && !errors.As(err, new(checksFailed)) {
-		fmt.Fprintln(ios.ErrOut, "cairn: "+err.Error())
-	}
-	return exitCode(err)
+	return finish(ios, err)
 }
 
 // Execute runs the root command over f with args; tests call it directly.
+// An error comes back wrapped with the command that ran, so that its
+// message names that command's flags (see errorMessage); errors.As and
+// exitCode see through the wrapping.
 func Execute(ctx context.Context, f *Factory, args []string) error {
 	root := NewRootCmd(f)
 	root.SetArgs(args)
 	root.SetIn(f.IO.In)
 	root.SetOut(f.IO.Out)
 	root.SetErr(f.IO.ErrOut)
-	err := root.ExecuteContext(ctx)
-	if err != nil && strings.HasPrefix(err.Error(), "unknown command") {
-		return flagError{err}
+	cmd, err := root.ExecuteContextC(ctx)
+	if err == nil {
+		return nil
 	}
-	return err
+	// Finding the command fails only when the first argument names no
+	// command of the root (cobra's legacy argument check, which the root
+	// gets as it has no Args of its own): a mistake in the command line.
+	if _, _, ferr := root.Find(args); ferr != nil {
+		err = flagError{err}
+	}
+	return &commandError{cmd: cmd, err: err}
 }
 
 // NewRootCmd builds the `cairn` command and all its subcommands.
@@ -86,16 +91,16 @@ codes and regulations that govern your work.`,
 		newCmdDatum(f),
 		newCmdMark(f),
 		newCmdHeight(f),
-		newCmdHistory(f),
+		newCmdHistory(f, nil),
 		newCmdAudit(f),
-		newCmdDemo(f),
+		newCmdDemo(f, nil),
 		newCmdRun(f),
 		newCmdAdjust(f, nil),
 		newCmdPublish(f, nil),
 		newCmdDiscard(f, nil),
 		newCmdAdjustment(f),
-		newCmdTrace(f),
-		newCmdStale(f),
+		newCmdTrace(f, nil),
+		newCmdStale(f, nil),
 		newCmdBackup(f, nil),
 		newCmdRestore(f, nil),
 	)

@@ -35,7 +35,7 @@ type runCheckOptions struct {
 	IO *IOStreams
 
 	BookPath string
-	// Hold gives held heights in the book's unit, by mark.
+	// Hold gives held heights (--held-height) in the book's unit, by mark.
 	Hold map[string]float64
 	// Class overrides the book's accuracy class ("" keeps it).
 	Class               standards.Class
@@ -58,7 +58,8 @@ accuracy class, and every quality check with its tolerance and source.
 Nothing is written to the register.
 
 A loop closes on itself. A line closes only between held marks: give each
-known height with --hold MARK=HEIGHT, in the book's unit. A run that
+known height with --held-height MARK=HEIGHT, in the book's unit (--hold
+MARK=HEIGHT, its old spelling, still works for this release). A run that
 neither closes on itself nor joins two held marks fails the closure check.
 
 Exit status: 0 when every check passes, 3 when any fails (the report is
@@ -71,13 +72,13 @@ Checking a book is not approving it: results need review by a licensed
 surveyor, check into two marks, verify each mark's condition before use,
 and follow the codes and regulations that govern your work.`,
 		Example: `  cairn run check north-loop.csv
-  cairn run check levee-line.csv --hold TC-0420=3.512 --hold TC-0427=5.104
+  cairn run check levee-line.csv --held-height TC-0420=3.512 --held-height TC-0427=5.104
   cairn run check levee-line.csv --class second-II -o json`,
 		Args: exactArgs(1, "one level book"),
 		RunE: func(cmd *cobra.Command, args []string) error {
 			opts.BookPath = args[0]
 			var err error
-			if opts.Hold, opts.Class, err = rf.parse(); err != nil {
+			if opts.Hold, opts.Class, err = rf.parse(cmd, opts.IO); err != nil {
 				return err
 			}
 			opts.CurvatureRefraction = rf.curvatureRefraction
@@ -92,24 +93,32 @@ and follow the codes and regulations that govern your work.`,
 	return cmd
 }
 
-// parseHolds reads --hold MARK=HEIGHT values.
 // reductionFlags are the flags of run check and run record that say how a
 // book is reduced.
 type reductionFlags struct {
+	heldHeights []string // --held-height MARK=HEIGHT
+	// holds is --hold MARK=HEIGHT, the old spelling of --held-height, kept
+	// for one release: on adjust, --hold holds a mark at its register
+	// height, which is another thing.
 	holds               []string
 	class               string
 	curvatureRefraction bool
 }
 
 func (rf *reductionFlags) add(fl *pflag.FlagSet) {
-	fl.StringArrayVar(&rf.holds, "hold", nil, "hold a mark at a known height, MARK=HEIGHT in the book's unit (repeatable)")
+	fl.StringArrayVar(&rf.heldHeights, "held-height", nil, "known height of a mark to reduce the book from, MARK=HEIGHT in the book's unit (repeatable)")
+	fl.StringArrayVar(&rf.holds, "hold", nil, "deprecated: use --held-height")
 	fl.StringVar(&rf.class, "class", "", "accuracy class to check against, overriding the book's: first-I, first-II, second-I, second-II, third")
 	fl.BoolVar(&rf.curvatureRefraction, "curvature-refraction", false, "correct every reading for curvature and refraction (k = 0.14)")
 }
 
-// parse reads the held heights and the class ("" keeps the book's).
-func (rf *reductionFlags) parse() (map[string]float64, standards.Class, error) {
-	hold, err := parseHolds(rf.holds)
+// parse reads the held heights and the class ("" keeps the book's). When
+// the deprecated --hold is given, a one-line notice on ios.ErrOut says so.
+func (rf *reductionFlags) parse(cmd *cobra.Command, ios *IOStreams) (map[string]float64, standards.Class, error) {
+	if len(rf.holds) > 0 {
+		fmt.Fprintf(ios.ErrOut, "%s: --hold is deprecated here and will be removed: use --held-height MARK=HEIGHT\n", cmd.CommandPath())
+	}
+	hold, err := parseHeldHeights(map[string][]string{"held-height": rf.heldHeights, "hold": rf.holds})
 	if err != nil {
 		return nil, "", err
 	}
@@ -122,25 +131,29 @@ func (rf *reductionFlags) parse() (map[string]float64, standards.Class, error) {
 	return hold, class, nil
 }
 
-func parseHolds(holds []string) (map[string]float64, error) {
-	if len(holds) == 0 {
-		return nil, nil
-	}
-	m := map[string]float64{}
-	for _, h := range holds {
-		mark, value, ok := strings.Cut(h, "=")
-		mark, value = strings.TrimSpace(mark), strings.TrimSpace(value)
-		if !ok || mark == "" || value == "" {
-			return nil, badInput("--hold %q: want MARK=HEIGHT", h)
+// parseHeldHeights reads MARK=HEIGHT values, given by flag name; a mark
+// may be held once in all.
+func parseHeldHeights(byFlag map[string][]string) (map[string]float64, error) {
+	var m map[string]float64
+	for _, name := range []string{"held-height", "hold"} {
+		for _, h := range byFlag[name] {
+			mark, value, ok := strings.Cut(h, "=")
+			mark, value = strings.TrimSpace(mark), strings.TrimSpace(value)
+			if !ok || mark == "" || value == "" {
+				return nil, badInput("--%s %q: want MARK=HEIGHT", name, h)
+			}
+			v, err := strconv.ParseFloat(value, 64)
+			if err != nil || v != v || v > 1e6 || v < -1e6 {
+				return nil, badInput("--%s %q: height %q is not a number", name, h, value)
+			}
+			if _, dup := m[mark]; dup {
+				return nil, badInput("--%s %q: %s is held twice", name, h, mark)
+			}
+			if m == nil {
+				m = map[string]float64{}
+			}
+			m[mark] = v
 		}
-		v, err := strconv.ParseFloat(value, 64)
-		if err != nil || v != v || v > 1e6 || v < -1e6 {
-			return nil, badInput("--hold %q: height %q is not a number", h, value)
-		}
-		if _, dup := m[mark]; dup {
-			return nil, badInput("--hold %q: %s is held twice", h, mark)
-		}
-		m[mark] = v
 	}
 	return m, nil
 }

@@ -1,6 +1,7 @@
 package cli
 
 import (
+	"context"
 	"fmt"
 	"strconv"
 	"time"
@@ -13,6 +14,7 @@ import (
 // runListOptions are the inputs of `cairn run list`.
 type runListOptions struct {
 	f      *Factory
+	ctx    context.Context
 	Mark   string
 	Since  *time.Time
 	Format Format
@@ -33,6 +35,7 @@ touched a mark; --since keeps those observed on or after a date.`,
   cairn run list -o csv`,
 		Args: exactArgs(0, "no arguments"),
 		RunE: func(cmd *cobra.Command, args []string) error {
+			opts.ctx = cmd.Context()
 			if since != "" {
 				d, err := time.Parse("2006-01-02", since)
 				if err != nil {
@@ -43,7 +46,7 @@ touched a mark; --since keeps those observed on or after a date.`,
 			if runF != nil {
 				return runF(opts)
 			}
-			return runListRun(cmd, opts)
+			return runListRun(opts)
 		},
 	}
 	cmd.Flags().StringVar(&opts.Mark, "mark", "", "only runs that touched this mark")
@@ -52,12 +55,13 @@ touched a mark; --since keeps those observed on or after a date.`,
 	return cmd
 }
 
-func runListRun(cmd *cobra.Command, opts *runListOptions) error {
-	r, err := openRegister(cmd.Context(), opts.f)
+// runListRun lists the recorded runs.
+func runListRun(opts *runListOptions) error {
+	r, err := openRegister(opts.ctx, opts.f)
 	if err != nil {
 		return err
 	}
-	runs, err := r.RunList(cmd.Context(), register.RunListParams{Mark: opts.Mark, Since: opts.Since})
+	runs, err := r.RunList(opts.ctx, register.RunListParams{Mark: opts.Mark, Since: opts.Since})
 	if err != nil {
 		return err
 	}

@@ -1,6 +1,7 @@
 package cli
 
 import (
+	"context"
 	"encoding/hex"
 	"fmt"
 	"strings"
@@ -15,10 +16,11 @@ import (
 
 // runRecordOptions are the inputs of `cairn run record`.
 type runRecordOptions struct {
-	f *Factory
+	f   *Factory
+	ctx context.Context
 
 	BookPath string
-	// Hold gives held heights in the book's unit, by mark.
+	// Hold gives held heights (--held-height) in the book's unit, by mark.
 	Hold                map[string]float64
 	Class               standards.Class
 	CurvatureRefraction bool
@@ -63,13 +65,13 @@ review by a licensed surveyor, check into two marks, verify each mark's
 condition before use, and follow the codes and regulations that govern your
 work.`,
 		Example: `  cairn run record north-loop.csv --by "R. Okafor"
-  cairn run record levee-line.csv --hold TC-0420=3.512 --hold TC-0427=5.104 --new-marks
+  cairn run record levee-line.csv --held-height TC-0420=3.512 --held-height TC-0427=5.104 --new-marks
   cairn run record old-line.csv --accept-failed-checks --reason "rerun impossible: marks destroyed in 2024"`,
 		Args: exactArgs(1, "one level book"),
 		RunE: func(cmd *cobra.Command, args []string) error {
-			opts.BookPath = args[0]
+			opts.ctx, opts.BookPath = cmd.Context(), args[0]
 			var err error
-			if opts.Hold, opts.Class, err = rf.parse(); err != nil {
+			if opts.Hold, opts.Class, err = rf.parse(cmd, f.IO); err != nil {
 				return err
 			}
 			opts.CurvatureRefraction = rf.curvatureRefraction
@@ -89,7 +91,7 @@ work.`,
 			if runF != nil {
 				return runF(opts)
 			}
-			return runRecordRun(cmd, opts)
+			return runRecordRun(opts)
 		},
 	}
 	fl := cmd.Flags()
@@ -110,17 +112,18 @@ type recordedJSON struct {
 	Reduction    *reduce.Result `json:"reduction"`
 }
 
-func runRecordRun(cmd *cobra.Command, opts *runRecordOptions) error {
+// runRecordRun records the book and prints its report.
+func runRecordRun(opts *runRecordOptions) error {
 	ios := opts.f.IO
 	data, err := levelbook.ReadBytes(opts.BookPath)
 	if err != nil {
 		return err
 	}
-	r, err := openRegister(cmd.Context(), opts.f)
+	r, err := openRegister(opts.ctx, opts.f)
 	if err != nil {
 		return err
 	}
-	rec, err := r.Record(cmd.Context(), register.RecordParams{
+	rec, err := r.Record(opts.ctx, register.RecordParams{
 		Path: opts.BookPath, Book: data, By: opts.By,
 		Hold: opts.Hold, Class: opts.Class, CurvatureRefraction: opts.CurvatureRefraction,
 		NewMarks: opts.NewMarks, AcceptFailedChecks: opts.AcceptFailedChecks, Reason: opts.Reason,

@@ -2,6 +2,7 @@ package cli
 
 import (
 	"bytes"
+	"context"
 	"encoding/hex"
 	"encoding/json"
 	"fmt"
@@ -64,6 +65,7 @@ func parseRunID(s string) (int64, error) {
 // runShowOptions are the inputs of `cairn run show`.
 type runShowOptions struct {
 	f      *Factory
+	ctx    context.Context
 	ID     int64
 	Book   bool
 	Format Format
@@ -86,6 +88,7 @@ nothing else: cairn run show 12 --book > copy.csv gives back the file.`,
   cairn run show 12 -o json`,
 		Args: exactArgs(1, "a RUN number"),
 		RunE: func(cmd *cobra.Command, args []string) error {
+			opts.ctx = cmd.Context()
 			var err error
 			if opts.ID, err = parseRunID(args[0]); err != nil {
 				return err
@@ -99,7 +102,7 @@ nothing else: cairn run show 12 --book > copy.csv gives back the file.`,
 			if runF != nil {
 				return runF(opts)
 			}
-			return runShowRun(cmd, opts)
+			return runShowRun(opts)
 		},
 	}
 	cmd.Flags().BoolVar(&opts.Book, "book", false, "print the recorded field book byte for byte")
@@ -126,8 +129,9 @@ type runMarkJSON struct {
 	Condition   *conditionJSON `json:"condition"`
 }
 
-func runShowRun(cmd *cobra.Command, opts *runShowOptions) error {
-	ctx := cmd.Context()
+// runShowRun prints the run's report, or its book.
+func runShowRun(opts *runShowOptions) error {
+	ctx := opts.ctx
 	ios := opts.f.IO
 	r, err := openRegister(ctx, opts.f)
 	if err != nil {

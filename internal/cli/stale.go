@@ -1,6 +1,7 @@
 package cli
 
 import (
+	"context"
 	"strconv"
 
 	"github.com/spf13/cobra"
@@ -19,8 +20,15 @@ type staleReasonJSON struct {
 	Text string `json:"text"`
 }
 
-func newCmdStale(f *Factory) *cobra.Command {
-	var format Format
+// staleOptions are the inputs of `cairn stale`.
+type staleOptions struct {
+	f      *Factory
+	ctx    context.Context
+	format Format
+}
+
+func newCmdStale(f *Factory, runF func(*staleOptions) error) *cobra.Command {
+	opts := &staleOptions{f: f}
 	cmd := &cobra.Command{
 		Use:   "stale",
 		Short: "List current heights that no longer stand on current control",
@@ -37,38 +45,48 @@ These are the heights to adjust again; publishing a new adjustment of them
 clears them.`,
 		Args: exactArgs(0, "no arguments"),
 		RunE: func(cmd *cobra.Command, args []string) error {
-			r, err := openRegister(cmd.Context(), f)
-			if err != nil {
-				return err
+			opts.ctx = cmd.Context()
+			if runF != nil {
+				return runF(opts)
 			}
-			hs, err := r.Stale(cmd.Context())
-			if err != nil {
-				return err
-			}
-			out := []staleJSON{}
-			for _, h := range hs {
-				j := staleJSON{heightJSON: toHeightJSON(h.Height, ""), AdjustmentID: deref(h.AdjustmentID), Reasons: []staleReasonJSON{}}
-				for _, r := range h.Reasons {
-					j.Reasons = append(j.Reasons, staleReasonJSON{r.Kind, r.Mark, r.Text})
-				}
-				out = append(out, j)
-			}
-			if format == FormatTable && f.IO.IsTerminal && len(out) == 0 {
-				f.IO.printf("No stale heights: every height from an adjustment stands on current control.\n")
-				return nil
-			}
-			return render(f.IO, format, out, func() Table {
-				t := Table{Headers: []string{"MARK", "DATUM", "VERSION", "HEIGHT", "UNIT", "ADJUSTMENT", "KIND", "REASON"}}
-				for _, h := range out {
-					for _, r := range h.Reasons {
-						t.AddRow(h.Mark, h.Datum, strconv.Itoa(h.Version), deref(h.Value), deref(h.Unit),
-							strconv.FormatInt(h.AdjustmentID, 10), r.Kind, r.Text)
-					}
-				}
-				return t
-			})
+			return staleRun(opts)
 		},
 	}
-	addOutputFlag(cmd, &format)
+	addOutputFlag(cmd, &opts.format)
 	return cmd
+}
+
+// staleRun lists the stale heights with their reasons.
+func staleRun(opts *staleOptions) error {
+	ios := opts.f.IO
+	r, err := openRegister(opts.ctx, opts.f)
+	if err != nil {
+		return err
+	}
+	hs, err := r.Stale(opts.ctx)
+	if err != nil {
+		return err
+	}
+	out := []staleJSON{}
+	for _, h := range hs {
+		j := staleJSON{heightJSON: toHeightJSON(h.Height, ""), AdjustmentID: deref(h.AdjustmentID), Reasons: []staleReasonJSON{}}
+		for _, r := range h.Reasons {
+			j.Reasons = append(j.Reasons, staleReasonJSON{r.Kind, r.Mark, r.Text})
+		}
+		out = append(out, j)
+	}
+	if opts.format == FormatTable && ios.IsTerminal && len(out) == 0 {
+		ios.printf("No stale heights: every height from an adjustment stands on current control.\n")
+		return nil
+	}
+	return render(ios, opts.format, out, func() Table {
+		t := Table{Headers: []string{"MARK", "DATUM", "VERSION", "HEIGHT", "UNIT", "ADJUSTMENT", "KIND", "REASON"}}
+		for _, h := range out {
+			for _, r := range h.Reasons {
+				t.AddRow(h.Mark, h.Datum, strconv.Itoa(h.Version), deref(h.Value), deref(h.Unit),
+					strconv.FormatInt(h.AdjustmentID, 10), r.Kind, r.Text)
+			}
+		}
+		return t
+	})
 }

@@ -1,6 +1,7 @@
 package cli
 
 import (
+	"context"
 	"fmt"
 	"io"
 	"strconv"
@@ -56,9 +57,17 @@ func toTraceVersionJSON(n *register.TraceVersion) traceVersionJSON {
 	return j
 }
 
-func newCmdTrace(f *Factory) *cobra.Command {
-	var format Format
-	var datum, asOf string
+// traceOptions are the inputs of `cairn trace`.
+type traceOptions struct {
+	f      *Factory
+	ctx    context.Context
+	format Format
+	params register.TraceParams
+	asOf   string
+}
+
+func newCmdTrace(f *Factory, runF func(*traceOptions) error) *cobra.Command {
+	opts := &traceOptions{f: f}
 	cmd := &cobra.Command{
 		Use:   "trace DESIGNATION [--datum CODE] [--as-of TIME]",
 		Short: "Show where a benchmark's height came from, down to outside sources",
@@ -70,50 +79,59 @@ each traced in turn, down to the outside publications they cite.
 -o json gives the same tree; -o csv gives one row per node with its depth.`,
 		Args: exactArgs(1, "a DESIGNATION"),
 		RunE: func(cmd *cobra.Command, args []string) error {
-			p := register.TraceParams{Designation: args[0], Datum: datum}
-			if asOf != "" {
-				t, err := parseInstant(asOf)
+			opts.ctx, opts.params.Designation = cmd.Context(), args[0]
+			if opts.asOf != "" {
+				t, err := parseInstant(opts.asOf)
 				if err != nil {
 					return badInput("as-of: %v", err)
 				}
-				p.AsOf = &t
+				opts.params.AsOf = &t
 			}
-			r, err := openRegister(cmd.Context(), f)
-			if err != nil {
-				return err
+			if runF != nil {
+				return runF(opts)
 			}
-			tr, err := r.Trace(cmd.Context(), p)
-			if err != nil {
-				return err
-			}
-			warnCondition(f.IO, tr.Mark)
-			out := traceJSON{Mark: tr.Mark.Designation, AsOf: tr.AsOf, Versions: []traceVersionJSON{}}
-			for _, v := range tr.Versions {
-				out.Versions = append(out.Versions, toTraceVersionJSON(v))
-			}
-			switch format {
-			case FormatJSON:
-				return writeJSON(f.IO.Out, out)
-			case FormatCSV:
-				t := Table{Headers: []string{"depth", "node", "mark", "datum", "version", "value", "unit", "source_kind", "source", "adjustment_id", "run_id", "book_sha256"}}
-				for _, v := range out.Versions {
-					traceRows(&t, v, 0)
-				}
-				return writeTable(f.IO, format, t)
-			}
-			for i, v := range out.Versions {
-				if i > 0 {
-					fmt.Fprintln(f.IO.Out)
-				}
-				writeTrace(f.IO.Out, v, "")
-			}
-			return nil
+			return traceRun(opts)
 		},
 	}
-	addOutputFlag(cmd, &format)
-	cmd.Flags().StringVar(&datum, "datum", "", "only this datum")
-	cmd.Flags().StringVar(&asOf, "as-of", "", "trace the version in force at this time")
+	addOutputFlag(cmd, &opts.format)
+	cmd.Flags().StringVar(&opts.params.Datum, "datum", "", "only this datum")
+	cmd.Flags().StringVar(&opts.asOf, "as-of", "", "trace the version in force at this time")
 	return cmd
+}
+
+// traceRun prints the derivation of the mark's heights.
+func traceRun(opts *traceOptions) error {
+	ios := opts.f.IO
+	r, err := openRegister(opts.ctx, opts.f)
+	if err != nil {
+		return err
+	}
+	tr, err := r.Trace(opts.ctx, opts.params)
+	if err != nil {
+		return err
+	}
+	warnCondition(ios, tr.Mark)
+	out := traceJSON{Mark: tr.Mark.Designation, AsOf: tr.AsOf, Versions: []traceVersionJSON{}}
+	for _, v := range tr.Versions {
+		out.Versions = append(out.Versions, toTraceVersionJSON(v))
+	}
+	switch opts.format {
+	case FormatJSON:
+		return writeJSON(ios.Out, out)
+	case FormatCSV:
+		t := Table{Headers: []string{"depth", "node", "mark", "datum", "version", "value", "unit", "source_kind", "source", "adjustment_id", "run_id", "book_sha256"}}
+		for _, v := range out.Versions {
+			traceRows(&t, v, 0)
+		}
+		return writeTable(ios, opts.format, t)
+	}
+	for i, v := range out.Versions {
+		if i > 0 {
+			fmt.Fprintln(ios.Out)
+		}
+		writeTrace(ios.Out, v, "")
+	}
+	return nil
 }
 
 // writeTrace writes the tree under v, indented.

@@ -170,7 +170,7 @@ func (s Sighting) Reading(mode ReadingMode) float64 {
 //
 //	north-loop.csv:14: field "upper": not a number "4.3x"
 //
-// and makes cairn exit with status 2 (bad input).
+// The book is bad input; nothing made from it should be kept.
 type Error struct {
 	File  string
 	Line  int
@@ -190,6 +190,3 @@ func (e *Error) Error() string {
 	}
 	return s + e.Msg
 }
-
-// ExitCode is 2: the book is bad input.
-func (e *Error) ExitCode() int { return 2 }

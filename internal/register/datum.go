@@ -28,10 +28,10 @@ func (r *Register) DatumAdd(ctx context.Context, p DatumAddParams) (store.Datum,
 		return store.Datum{}, inputErr("code", "%q is not a datum code: use at most 32 letters, digits and . _ -, starting with a letter or digit", p.Code)
 	}
 	if p.Name == "" {
-		return store.Datum{}, inputErr("name", "a datum needs its full name (--name)")
+		return store.Datum{}, inputErr("name", "a datum needs its full name")
 	}
 	if p.By = strings.TrimSpace(p.By); p.By == "" {
-		return store.Datum{}, inputErr("by", "say who adds the datum (--by)")
+		return store.Datum{}, inputErr("by", "say who adds the datum")
 	}
 	// In a transaction of its own, like every write: a statement sent on
 	// its own commits when the server finishes it, even if the process

@@ -151,13 +151,13 @@ func checkHeight(p *HeightSetParams) (store.HeightInsertParams, error) {
 		return ins, inputErr("kind", "unknown source kind %q", p.Kind)
 	}
 	if p.Kind == KindAuthority && ins.Source == "" {
-		return ins, inputErr("source", "cite the publication the height comes from (--source)")
+		return ins, inputErr("source", "cite the publication the height comes from")
 	}
 	if p.Kind == KindAdjustment && p.AdjustmentID == nil {
 		return ins, inputErr("adjustment", "a height from an adjustment names the adjustment")
 	}
 	if ins.Reason == "" {
-		return ins, inputErr("reason", "say why this height is being recorded (--reason)")
+		return ins, inputErr("reason", "say why this height is being recorded")
 	}
 	if ins.RecordedBy == "" {
 		return ins, inputErr("by", "say who is recording the height")

@@ -43,7 +43,7 @@ func (r *Register) MarkAdd(ctx context.Context, p MarkAddParams) (store.Mark, er
 		return store.Mark{}, inputErr("designation", "%q is not a designation: use at most 64 letters, digits and . _ / -, starting with a letter or digit", p.Designation)
 	}
 	if (p.Lat == nil) != (p.Lon == nil) {
-		return store.Mark{}, inputErr("lat", "give both --lat and --lon, or neither")
+		return store.Mark{}, inputErr("lat", "give both a latitude and a longitude, or neither")
 	}
 	if p.Lat != nil {
 		if math.IsNaN(*p.Lat) || *p.Lat < -90 || *p.Lat > 90 {

@@ -29,32 +29,27 @@ type Register struct {
 func New(pool *pgxpool.Pool) *Register { return &Register{pool: pool} }
 
 // InputError is bad input: it names the field at fault. Nothing was
-// written. Its exit status is 2.
+// written. Msg names no flag of the command line: the caller names the
+// field as its own interface spells it.
 type InputError struct {
-	Field string // the flag or argument at fault, e.g. "lat", "designation"
+	Field string // the parameter at fault, e.g. "lat", "designation", "reason"
 	Msg   string
 }
 
 func (e *InputError) Error() string { return e.Field + ": " + e.Msg }
-
-// ExitCode is the process exit status for bad input.
-func (e *InputError) ExitCode() int { return 2 }
 
 func inputErr(field, format string, a ...any) error {
 	return &InputError{Field: field, Msg: fmt.Sprintf(format, a...)}
 }
 
 // ConflictError says another writer changed the register first; nothing
-// was written and the command may be tried again. Its exit status is 4.
+// was written and the work may be tried again.
 type ConflictError struct{ Err error }
 
 func (e *ConflictError) Error() string {
 	return "the register changed meanwhile, nothing was written (try again): " + e.Err.Error()
 }
 func (e *ConflictError) Unwrap() error { return e.Err }
-
-// ExitCode is the process exit status for a conflict.
-func (e *ConflictError) ExitCode() int { return 4 }
 
 // asConflict wraps store.ErrConflict errors as ConflictError.
 func asConflict(err error) error {

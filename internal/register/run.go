@@ -84,7 +84,9 @@ func summaryOf(res *reduce.Result) CheckSummary {
 }
 
 // UnknownMarksError refuses a book that names marks the register lacks;
-// nothing was written. Its exit status is 2.
+// nothing was written. The marks can be added first, or created with the
+// run (RecordParams.NewMarks): the caller words that advice in its own
+// terms, between Problem and "; nothing was written".
 type UnknownMarksError struct {
 	File  string
 	Marks []UnknownMark
@@ -97,7 +99,10 @@ type UnknownMark struct {
 	Line        int
 }
 
-func (e *UnknownMarksError) Error() string {
+// Problem says which marks are missing, without advice:
+//
+//	north-loop.csv: 2 marks are not in the register: TC-0412 (line 16), TC-0413 (line 21)
+func (e *UnknownMarksError) Problem() string {
 	names := make([]string, len(e.Marks))
 	for i, m := range e.Marks {
 		names[i] = fmt.Sprintf("%s (line %d)", m.Designation, m.Line)
@@ -106,15 +111,15 @@ func (e *UnknownMarksError) Error() string {
 	if len(e.Marks) != 1 {
 		what = "marks are"
 	}
-	return fmt.Sprintf("%s: %d %s not in the register: %s; add them with `cairn mark add`, or record with --new-marks to create them; nothing was written",
-		e.File, len(e.Marks), what, strings.Join(names, ", "))
+	return fmt.Sprintf("%s: %d %s not in the register: %s", e.File, len(e.Marks), what, strings.Join(names, ", "))
 }
 
-// ExitCode is 2: the book is refused as input.
-func (e *UnknownMarksError) ExitCode() int { return 2 }
+func (e *UnknownMarksError) Error() string {
+	return e.Problem() + "; add them to the register first, or create them with the run; nothing was written"
+}
 
 // AlreadyRecordedError refuses a book whose bytes are already recorded;
-// Run is the run that holds them. Its exit status is 2.
+// Run is the run that holds them.
 type AlreadyRecordedError struct {
 	File string
 	Run  store.Run
@@ -125,11 +130,10 @@ func (e *AlreadyRecordedError) Error() string {
 		e.File, e.Run.ID, e.Run.FileName, e.Run.RecordedAt.UTC().Format("2006-01-02 15:04:05Z"), e.Run.RecordedBy)
 }
 
-// ExitCode is 2: the book is refused as input.
-func (e *AlreadyRecordedError) ExitCode() int { return 2 }
-
 // ChecksFailedError refuses a book whose checks fail; Result holds the
-// reduction with every failure. Its exit status is 2.
+// reduction with every failure. The book can be recorded anyway with a
+// reason (RecordParams.AcceptFailedChecks and Reason): the caller words
+// that advice in its own terms, on a line after the message.
 type ChecksFailedError struct {
 	File   string
 	Result *reduce.Result
@@ -146,12 +150,8 @@ func (e *ChecksFailedError) Error() string {
 		}
 		fmt.Fprintf(&b, "\n  line %d: %s: %s: %s", f.Line, f.Kind, f.Subject, f.Message)
 	}
-	b.WriteString("\nto record it anyway, give --accept-failed-checks with --reason saying why")
 	return b.String()
 }
-
-// ExitCode is 2: the book is refused as input.
-func (e *ChecksFailedError) ExitCode() int { return 2 }
 
 // errAlreadyRecorded leaves the recording transaction when the book's
 // SHA-256 is taken; the run holding it is looked up afterwards, when the
@@ -272,15 +272,30 @@ func (r *Register) Record(ctx context.Context, p RecordParams) (*Recorded, error
 		}
 		return nil, &AlreadyRecordedError{File: p.Path, Run: holder}
 	}
-	var typed interface{ ExitCode() int }
-	if errors.As(err, &typed) {
-		return nil, err // it names the book already
+	if isRefusal(err) {
+		return nil, err // it names the book or the field already
 	}
 	if err != nil {
 		return nil, fmt.Errorf("record %s: %w", p.Path, asConflict(err))
 	}
 	out.Cautions = cautions(out.Marks)
 	return out, nil
+}
+
+// isRefusal says whether err is one of the typed refusals of Record (bad
+// input, a bad book, unknown marks, a book already recorded, failed checks,
+// a conflict), which name the book or the field at fault already.
+func isRefusal(err error) bool {
+	var (
+		ie  *InputError
+		le  *levelbook.Error
+		ume *UnknownMarksError
+		are *AlreadyRecordedError
+		cfe *ChecksFailedError
+		ce  *ConflictError
+	)
+	return errors.As(err, &ie) || errors.As(err, &le) || errors.As(err, &ume) ||
+		errors.As(err, &are) || errors.As(err, &cfe) || errors.As(err, &ce)
 }
 
 // runInsertParams gathers the run's row from the book and its reduction.

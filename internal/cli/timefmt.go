@@ -1,0 +1,29 @@
+package cli
+
+import (
+	"fmt"
+	"strings"
+	"time"
+)
+
+// parseInstant reads --as-of: RFC 3339 (2024-03-01T14:00:00Z), a local
+// date and time (2024-03-01 14:00[:05]), or a date, meaning the end of that
+// day in local time.
+func parseInstant(s string) (time.Time, error) {
+	s = strings.TrimSpace(s)
+	if t, err := time.Parse(time.RFC3339Nano, s); err == nil {
+		return t, nil
+	}
+	for _, layout := range []string{"2006-01-02 15:04:05", "2006-01-02T15:04:05", "2006-01-02 15:04", "2006-01-02T15:04"} {
+		if t, err := time.ParseInLocation(layout, s, time.Local); err == nil {
+			return t, nil
+		}
+	}
+	if d, err := time.ParseInLocation("2006-01-02", s, time.Local); err == nil {
+		return d.AddDate(0, 0, 1).Add(-time.Microsecond), nil
+	}
+	return time.Time{}, fmt.Errorf("%q is not a time: write 2024-03-01, 2024-03-01 14:00 or 2024-03-01T14:00:00Z", s)
+}
+
+// timeText is an instant as tables show it, in UTC to the second.
+func timeText(t time.Time) string { return t.UTC().Format("2006-01-02 15:04:05Z") }
