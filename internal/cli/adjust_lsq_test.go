@@ -67,7 +67,7 @@ func TestAdjustLeastSquaresCommand(t *testing.T) {
 	db := pgtest.New(t)
 	seedTallis(t, db)
 
-	out, errOut, status := run(t, db.URL, "adjust", "1", "2", "3", "--method", "least-squares", "--hold", "TC-0412,TC-0415", "--made-by", "tester")
+	out, errOut, status := run(t, db.URL, "adjust", "1", "2", "3", "--method", "least-squares", "--hold", "TC-0412,TC-0415", "--by", "tester")
 	if status != ExitChecks {
 		t.Fatalf("exit %d, want %d: %s", status, ExitChecks, errOut)
 	}
@@ -122,6 +122,9 @@ func TestAdjustLeastSquaresBadInput(t *testing.T) {
 	db := pgtest.New(t)
 	seedTallis(t, db)
 	before := registertest.Counts(t, db.Pool)
+	// The author by its old spelling, --made-by, still read in this
+	// release, so that --by setups below is the old spelling of
+	// --distribute setups.
 	lsq := []string{"--method", "least-squares", "--made-by", "tester"}
 	for _, c := range []struct {
 		args []string
@@ -129,6 +132,8 @@ func TestAdjustLeastSquaresBadInput(t *testing.T) {
 	}{
 		{append([]string{"1", "--hold", "TC-0412", "--weight", "fathoms"}, lsq...), "weight:"},
 		{append([]string{"1", "--hold", "TC-0412", "--by", "setups"}, lsq...), "by:"},
+		{append([]string{"1", "--hold", "TC-0412", "--distribute", "setups"}, lsq...), "distribute:"},
+		{append([]string{"1", "--hold-weighted", "TC-0412"}, lsq...), "hold-weighted:"},
 		{append([]string{"--area", "91,0", "--within", "1km", "--hold", "TC-0412"}, lsq...), "area:"},
 		{append([]string{"--area", "41.6,-97.9", "--hold", "TC-0412"}, lsq...), "within:"},
 		{append([]string{"1", "--hold", "TC-0412", "--within", "2km"}, lsq...), "within:"},

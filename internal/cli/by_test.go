@@ -64,7 +64,7 @@ func TestEveryWriteStoresBy(t *testing.T) {
 		adjust := func() string {
 			args := []string{"adjust", fmt.Sprint(runID), "--hold", "BM1", "--datum", "D" + sfx, "-o", "json"}
 			if who != "" {
-				args = append(args, "--made-by", who)
+				args = append(args, "--by", who)
 			}
 			var rep adjustmentJSON
 			if err := json.Unmarshal([]byte(mustRun(t, db.URL, args...)), &rep); err != nil {

@@ -90,11 +90,9 @@ func (e *commandError) Unwrap() error { return e.err }
 
 // fieldFlags names, by command path, the flag that gives a register field
 // where the two are spelt differently; every other field is its flag's
-// name. An empty flag keeps the field's plain name: on adjust the register
-// says "by" both for who makes the adjustment (--made-by) and for how a
-// misclosure is spread (--by), so neither flag can be named for it.
+// name.
 var fieldFlags = map[string]map[string]string{
-	"cairn adjust": {"sigma": "sigma-mm-per-sqrt-km", "by": ""},
+	"cairn adjust": {"sigma": "sigma-mm-per-sqrt-km"},
 }
 
 // errorMessage renders err, returned by the command cmd, for its user:
@@ -139,9 +137,6 @@ func fieldName(cmd *cobra.Command, field string) string {
 	name, ok := fieldFlags[cmd.CommandPath()][field]
 	if !ok {
 		name = field
-	}
-	if name == "" {
-		return field
 	}
 	return flagOr(cmd, name, field)
 }

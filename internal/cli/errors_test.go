@@ -117,7 +117,7 @@ func TestErrorMessageNamesTheCommandsFlag(t *testing.T) {
 	cmd.Flags().String("reason", "", "")
 	adjust := &cobra.Command{Use: "adjust"}
 	(&cobra.Command{Use: "cairn"}).AddCommand(adjust)
-	for _, name := range []string{"sigma-mm-per-sqrt-km", "by", "made-by", "reason"} {
+	for _, name := range []string{"sigma-mm-per-sqrt-km", "by", "distribute", "reason"} {
 		adjust.Flags().String(name, "", "")
 	}
 	record := &cobra.Command{Use: "record"}
@@ -135,7 +135,8 @@ func TestErrorMessageNamesTheCommandsFlag(t *testing.T) {
 	}{
 		{"a flag", cmd, &register.InputError{Field: "reason", Msg: "say why"}, "--reason: say why"},
 		{"a flag spelt otherwise", adjust, &register.InputError{Field: "sigma", Msg: "must be positive"}, "--sigma-mm-per-sqrt-km: must be positive"},
-		{"a field two flags give", adjust, &register.InputError{Field: "by", Msg: "say who makes the adjustment"}, "by: say who makes the adjustment"},
+		{"the author on adjust", adjust, &register.InputError{Field: "by", Msg: "say who makes the adjustment"}, "--by: say who makes the adjustment"},
+		{"the distribution on adjust", adjust, &register.InputError{Field: "distribute", Msg: "by setups"}, "--distribute: by setups"},
 		{"a flag of adjust", adjust, &register.InputError{Field: "reason", Msg: "say why"}, "--reason: say why"},
 		{"a field not mapped elsewhere", cmd, &register.InputError{Field: "sigma", Msg: "must be positive"}, "sigma: must be positive"},
 		{"an argument", cmd, &register.InputError{Field: "designation", Msg: "no mark"}, "designation: no mark"},

@@ -151,7 +151,7 @@ func TestWriteCommandsKilledLeaveNothing(t *testing.T) {
 		// The adjustment, its runs and its held marks are written; its
 		// results wait.
 		{"adjust", []string{"LOCK TABLE adjustment_result IN SHARE MODE"},
-			[]string{"adjust", "1", "--hold", "BM1", "--made-by", "test"}},
+			[]string{"adjust", "1", "--hold", "BM1", "--by", "test"}},
 		// The adjustment and its marks are locked and the publication
 		// event written; the new versions wait.
 		{"publish", []string{"LOCK TABLE height IN SHARE MODE"},

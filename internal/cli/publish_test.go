@@ -44,7 +44,7 @@ func TestAdjustPublishTraceCommands(t *testing.T) {
 	runID := fmt.Sprint(runs[0])
 
 	var rep adjustmentJSON
-	if err := json.Unmarshal([]byte(mustRun(t, db.URL, "adjust", runID, "--hold", "BM1", "--made-by", "tester", "-o", "json")), &rep); err != nil {
+	if err := json.Unmarshal([]byte(mustRun(t, db.URL, "adjust", runID, "--hold", "BM1", "--by", "tester", "-o", "json")), &rep); err != nil {
 		t.Fatal(err)
 	}
 	if rep.AdjustmentID == nil || rep.Status != "draft" || len(rep.Results) != 6 || rep.Cautions == "" {
@@ -243,7 +243,7 @@ func TestAdjustWarnsOfAdjustedMarksInDoubt(t *testing.T) {
 	seedWorked(t, db, 1)
 	mustRun(t, db.URL, "mark", "condition", "BM4", "destroyed", "--on", "2025-02-01", "--note", "culvert replaced", "--by", "tester")
 
-	_, errOut, st := run(t, db.URL, "adjust", "1", "--hold", "BM1", "--made-by", "tester")
+	_, errOut, st := run(t, db.URL, "adjust", "1", "--hold", "BM1", "--by", "tester")
 	if st != 0 || !strings.Contains(errOut, "WARNING: BM4 was last reported DESTROYED on 2025-02-01 (culvert replaced)") {
 		t.Fatalf("adjust: exit %d, stderr %q", st, errOut)
 	}
