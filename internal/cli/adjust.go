@@ -1,6 +1,7 @@
 package cli
 
 import (
+	"context"
 	"errors"
 	"fmt"
 	"io"
@@ -17,7 +18,8 @@ import (
 )
 
 type adjustOptions struct {
-	IO *IOStreams
+	IO  *IOStreams
+	ctx context.Context
 
 	Runs []string // register form (not offline)
 	// Register holds the options of the register form (RUN... --hold).
@@ -65,52 +67,11 @@ test fails or a section is flagged.
   cairn adjust --sections net.csv --held held.csv -o json`,
 		Args: cobra.ArbitraryArgs,
 		RunE: func(cmd *cobra.Command, args []string) error {
-			opts.Runs = args
-			if opts.SectionsPath == "" {
-				reg := &opts.Register
-				if len(args) == 0 && opts.HeldPath == "" && !reg.holds() && len(reg.params.Marks) == 0 && reg.area == "" {
-					return badInput("give --sections FILE.csv and --held FILE.csv, or RUN numbers with --hold (see 'cairn adjust --help')")
-				}
-				if opts.HeldPath != "" {
-					return badInput("--held needs --sections (to hold marks of recorded runs, use --hold)")
-				}
-				opts.Register.format = opts.Format
-				if err := opts.Register.parse(cmd, args); err != nil {
-					return err
-				}
-				if opts.Register.params.Method == adjust.MethodLeastSquares {
-					o := &opts.Register.params.LeastSquares
-					o.SigmaM, o.Alpha, o.SnoopCritical, o.Minimal = opts.SigmaMMPerSqrtKm/1000, opts.Alpha, opts.SnoopCritical, opts.Minimal
-					if err := checkNetworkOptions(*o); err != nil {
-						return err
-					}
-				}
-				if runF != nil {
-					return runF(opts)
-				}
-				return adjustRegisterRun(cmd.Context(), &opts.Register)
-			}
-			if opts.Register.holds() {
-				return badInput("--hold goes with RUN numbers; with --sections, give the held marks in --held")
-			}
-			for _, name := range []string{"marks", "area", "within", "weight", "method", "by", "made-by", "distribute", "datum", "dry-run"} {
-				if cmd.Flags().Changed(name) {
-					return badInput("%s: --%s goes with RUN numbers, not with --sections", name, name)
-				}
-			}
-			if len(args) > 0 {
-				return badInput("--sections adjusts a network from files; do not name runs as well")
-			}
-			if opts.HeldPath == "" {
-				return badInput("--sections needs --held FILE.csv")
-			}
-			if err := checkNetworkOptions(opts.networkOptions()); err != nil {
+			opts.ctx = cmd.Context()
+			if err := opts.parse(cmd, args); err != nil {
 				return err
 			}
-			if runF != nil {
-				return runF(opts)
-			}
-			return adjustFilesRun(opts)
+			return dispatch(opts, runF, adjustRun)
 		},
 	}
 	fl := cmd.Flags()
@@ -125,6 +86,59 @@ test fails or a section is flagged.
 	addOutputFlag(cmd, &opts.Format)
 	opts.Register.flags(cmd)
 	return cmd
+}
+
+// parse fills and checks the options of either form from the flags and
+// args.
+func (opts *adjustOptions) parse(cmd *cobra.Command, args []string) error {
+	opts.Runs = args
+	if opts.SectionsPath == "" {
+		reg := &opts.Register
+		if len(args) == 0 && opts.HeldPath == "" && !reg.holds() && len(reg.params.Marks) == 0 && reg.area == "" {
+			return badInput("give --sections FILE.csv and --held FILE.csv, or RUN numbers with --hold (see 'cairn adjust --help')")
+		}
+		if opts.HeldPath != "" {
+			return badInput("--held needs --sections (to hold marks of recorded runs, use --hold)")
+		}
+		opts.Register.format = opts.Format
+		if err := opts.Register.parse(cmd, args); err != nil {
+			return err
+		}
+		if opts.Register.params.Method == adjust.MethodLeastSquares {
+			o := &opts.Register.params.LeastSquares
+			o.SigmaM, o.Alpha, o.SnoopCritical, o.Minimal = opts.SigmaMMPerSqrtKm/1000, opts.Alpha, opts.SnoopCritical, opts.Minimal
+			if err := checkNetworkOptions(*o); err != nil {
+				return err
+			}
+		}
+		return nil
+	}
+	if opts.Register.holds() {
+		return badInput("--hold goes with RUN numbers; with --sections, give the held marks in --held")
+	}
+	for _, name := range []string{"marks", "area", "within", "weight", "method", "by", "made-by", "distribute", "datum", "dry-run"} {
+		if cmd.Flags().Changed(name) {
+			return badInput("%s: --%s goes with RUN numbers, not with --sections", name, name)
+		}
+	}
+	if len(args) > 0 {
+		return badInput("--sections adjusts a network from files; do not name runs as well")
+	}
+	if opts.HeldPath == "" {
+		return badInput("--sections needs --held FILE.csv")
+	}
+	if err := checkNetworkOptions(opts.networkOptions()); err != nil {
+		return err
+	}
+	return nil
+}
+
+// adjustRun adjusts recorded runs in the register, or a network from files.
+func adjustRun(opts *adjustOptions) error {
+	if opts.SectionsPath != "" {
+		return adjustFilesRun(opts)
+	}
+	return adjustRegisterRun(opts.ctx, &opts.Register)
 }
 
 // networkOptions are the least-squares settings of the offline form.

@@ -10,15 +10,6 @@ import (
 	"cairn/internal/register"
 )
 
-func newCmdAdjustment(f *Factory) *cobra.Command {
-	cmd := &cobra.Command{
-		Use:   "adjustment",
-		Short: "Adjustments made: list them, show one",
-	}
-	cmd.AddCommand(newCmdAdjustmentList(f, nil), newCmdAdjustmentShow(f, nil))
-	return cmd
-}
-
 // adjustmentRowJSON is one adjustment in a listing.
 type adjustmentRowJSON struct {
 	AdjustmentID int64   `json:"adjustment_id"`
@@ -46,13 +37,7 @@ func newCmdAdjustmentList(f *Factory, runF func(*adjustmentListOptions) error) *
 		Use:   "list [--status draft|published|discarded]",
 		Short: "List adjustments, oldest first",
 		Args:  exactArgs(0, "no arguments"),
-		RunE: func(cmd *cobra.Command, args []string) error {
-			opts.ctx = cmd.Context()
-			if runF != nil {
-				return runF(opts)
-			}
-			return adjustmentListRun(opts)
-		},
+		RunE: runE(&opts.ctx, opts, runF, adjustmentListRun),
 	}
 	addOutputFlag(cmd, &opts.format)
 	cmd.Flags().StringVar(&opts.status, "status", "", "only adjustments with this status: draft, published or discarded")
@@ -109,10 +94,7 @@ func newCmdAdjustmentShow(f *Factory, runF func(*adjustmentShowOptions) error) *
 				return badInput("adjustment: %q is not an adjustment number (see cairn adjustment list)", args[0])
 			}
 			opts.ctx, opts.id = cmd.Context(), id
-			if runF != nil {
-				return runF(opts)
-			}
-			return adjustmentShowRun(opts)
+			return dispatch(opts, runF, adjustmentShowRun)
 		},
 	}
 	addOutputFlag(cmd, &opts.format)

@@ -35,10 +35,7 @@ one into an empty database.`,
 		Args:    exactArgs(1, "a FILE to write"),
 		RunE: func(cmd *cobra.Command, args []string) error {
 			opts.ctx, opts.file = cmd.Context(), args[0]
-			if runF != nil {
-				return runF(opts)
-			}
-			return backupRun(opts)
+			return dispatch(opts, runF, backupRun)
 		},
 	}
 }
@@ -86,10 +83,7 @@ verify" does; the exit status is 3 if any chain does not verify.`,
 		Args: exactArgs(1, "a backup FILE"),
 		RunE: func(cmd *cobra.Command, args []string) error {
 			opts.ctx, opts.file = cmd.Context(), args[0]
-			if runF != nil {
-				return runF(opts)
-			}
-			return restoreRun(opts)
+			return dispatch(opts, runF, restoreRun)
 		},
 	}
 }

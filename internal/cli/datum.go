@@ -8,15 +8,6 @@ import (
 	"cairn/internal/register"
 )
 
-func newCmdDatum(f *Factory) *cobra.Command {
-	cmd := &cobra.Command{
-		Use:   "datum",
-		Short: "Vertical datums heights refer to",
-	}
-	cmd.AddCommand(newCmdDatumAdd(f, nil), newCmdDatumList(f, nil))
-	return cmd
-}
-
 // datumAddOptions are the inputs of `cairn datum add`.
 type datumAddOptions struct {
 	f      *Factory
@@ -35,10 +26,7 @@ command line (for example NAVD88); --name is its full or official name.`,
 		Args:    exactArgs(1, "a datum CODE"),
 		RunE: func(cmd *cobra.Command, args []string) error {
 			opts.ctx, opts.params.Code = cmd.Context(), args[0]
-			if runF != nil {
-				return runF(opts)
-			}
-			return datumAddRun(opts)
+			return dispatch(opts, runF, datumAddRun)
 		},
 	}
 	cmd.Flags().StringVar(&opts.params.Name, "name", "", "full or official name of the datum (required)")
@@ -81,13 +69,7 @@ func newCmdDatumList(f *Factory, runF func(*datumListOptions) error) *cobra.Comm
 		Use:   "list",
 		Short: "List the datums",
 		Args:  exactArgs(0, "no arguments"),
-		RunE: func(cmd *cobra.Command, args []string) error {
-			opts.ctx = cmd.Context()
-			if runF != nil {
-				return runF(opts)
-			}
-			return datumListRun(opts)
-		},
+		RunE: runE(&opts.ctx, opts, runF, datumListRun),
 	}
 	addOutputFlag(cmd, &opts.format)
 	return cmd

@@ -10,22 +10,6 @@ import (
 	"cairn/internal/store"
 )
 
-// newCmdDB builds `cairn db` and its subcommands.
-func newCmdDB(f *Factory) *cobra.Command {
-	cmd := &cobra.Command{
-		Use:   "db",
-		Short: "Start, stop, inspect and migrate the register's database",
-		Long: `Manage the database that holds the register.
-
-With no database named (--db, CAIRN_DATABASE_URL or the PG* variables),
-cairn keeps the register in a private PostgreSQL of its own, in your data
-folder; "db start" and "db stop" start and stop that one. Every command
-starts it when needed, so "db start" is seldom necessary.`,
-	}
-	cmd.AddCommand(newCmdDBStart(f, nil), newCmdDBStop(f, nil), newCmdDBStatus(f, nil), newCmdDBMigrate(f, nil), newCmdDBRoles(f, nil))
-	return cmd
-}
-
 // dbOptions are the options of the db subcommands.
 type dbOptions struct {
 	f      *Factory
@@ -41,10 +25,7 @@ func newDBCmd(f *Factory, use, short string, runF, run func(*dbOptions) error) (
 		Args:  exactArgs(0, "no arguments"),
 		RunE: func(cmd *cobra.Command, _ []string) error {
 			opts.ctx = cmd.Context()
-			if runF != nil {
-				return runF(opts)
-			}
-			return run(opts)
+			return dispatch(opts, runF, run)
 		},
 	}
 	return cmd, opts

@@ -44,10 +44,7 @@ anew on each run; your own register is not touched.`,
 			if opts.name != demoDatabase && !strings.HasPrefix(opts.name, demoDatabase+"_") {
 				return badInput("name: the demo database's name must be %s or start with %s_ (it is dropped and made anew)", demoDatabase, demoDatabase)
 			}
-			if runF != nil {
-				return runF(opts)
-			}
-			return demoRun(opts)
+			return dispatch(opts, runF, demoRun)
 		},
 	}
 	cmd.Flags().StringVar(&opts.name, "name", demoDatabase, "name of the demo database (dropped and made anew)")

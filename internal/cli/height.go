@@ -13,15 +13,6 @@ import (
 	"cairn/internal/units"
 )
 
-func newCmdHeight(f *Factory) *cobra.Command {
-	cmd := &cobra.Command{
-		Use:   "height",
-		Short: "Published heights of benchmarks: record and look up",
-	}
-	cmd.AddCommand(newCmdHeightSet(f, nil), newCmdHeightWithdraw(f, nil), newCmdHeightShow(f, nil), newCmdHeightList(f, nil))
-	return cmd
-}
-
 // heightSetOptions are the inputs of `cairn height set` and `cairn height
 // withdraw`.
 type heightSetOptions struct {
@@ -68,10 +59,7 @@ register for good (see 'cairn history').
 			if cmd.Flags().Changed("decimals") {
 				opts.params.Decimals = &opts.decimals
 			}
-			if runF != nil {
-				return runF(opts)
-			}
-			return heightSetRun(opts)
+			return dispatch(opts, runF, heightSetRun)
 		},
 	}
 	fl := cmd.Flags()
@@ -111,10 +99,7 @@ register, and as-of look-ups before the withdrawal still return them.
 			opts.ctx = cmd.Context()
 			opts.params.Designation = args[0]
 			opts.params.Kind = register.KindWithdrawal
-			if runF != nil {
-				return runF(opts)
-			}
-			return heightSetRun(opts)
+			return dispatch(opts, runF, heightSetRun)
 		},
 	}
 	fl := cmd.Flags()
@@ -241,17 +226,11 @@ report says it is disturbed, destroyed or not found.`,
 		Args: exactArgs(1, "a DESIGNATION"),
 		RunE: func(cmd *cobra.Command, args []string) error {
 			opts.ctx, opts.params.Designation = cmd.Context(), args[0]
-			if opts.asOf != "" {
-				t, err := parseInstant(opts.asOf)
-				if err != nil {
-					return badInput("as-of: %v", err)
-				}
-				opts.params.AsOf = &t
+			var err error
+			if opts.params.AsOf, err = parseAsOf(opts.asOf); err != nil {
+				return err
 			}
-			if runF != nil {
-				return runF(opts)
-			}
-			return heightShowRun(opts)
+			return dispatch(opts, runF, heightShowRun)
 		},
 	}
 	addOutputFlag(cmd, &opts.format)
@@ -335,13 +314,7 @@ func newCmdHeightList(f *Factory, runF func(*heightListOptions) error) *cobra.Co
 		Use:   "list [--datum CODE]",
 		Short: "List the current height of every benchmark",
 		Args:  exactArgs(0, "no arguments"),
-		RunE: func(cmd *cobra.Command, args []string) error {
-			opts.ctx = cmd.Context()
-			if runF != nil {
-				return runF(opts)
-			}
-			return heightListRun(opts)
-		},
+		RunE: runE(&opts.ctx, opts, runF, heightListRun),
 	}
 	addOutputFlag(cmd, &opts.format)
 	cmd.Flags().StringVar(&opts.datum, "datum", "", "only this datum")
@@ -396,10 +369,7 @@ source and who recorded it.`,
 		Args: exactArgs(1, "a DESIGNATION"),
 		RunE: func(cmd *cobra.Command, args []string) error {
 			opts.ctx, opts.designation = cmd.Context(), args[0]
-			if runF != nil {
-				return runF(opts)
-			}
-			return historyRun(opts)
+			return dispatch(opts, runF, historyRun)
 		},
 	}
 	addOutputFlag(cmd, &opts.format)
@@ -440,15 +410,6 @@ func historyRun(opts *historyOptions) error {
 	})
 }
 
-func newCmdAudit(f *Factory) *cobra.Command {
-	cmd := &cobra.Command{
-		Use:   "audit",
-		Short: "Check the register's history for tampering",
-	}
-	cmd.AddCommand(newCmdAuditVerify(f, nil))
-	return cmd
-}
-
 // auditVerifyOptions are the inputs of `cairn audit verify`.
 type auditVerifyOptions struct {
 	f      *Factory
@@ -468,13 +429,7 @@ cairn's back, a broken link between versions, a gap in the numbering.
 
 Exit status 0 when every chain verifies, 3 when any break is found.`,
 		Args: exactArgs(0, "no arguments"),
-		RunE: func(cmd *cobra.Command, args []string) error {
-			opts.ctx = cmd.Context()
-			if runF != nil {
-				return runF(opts)
-			}
-			return auditVerifyRun(opts)
-		},
+		RunE: runE(&opts.ctx, opts, runF, auditVerifyRun),
 	}
 	addOutputFlag(cmd, &opts.format)
 	return cmd

@@ -13,15 +13,6 @@ import (
 	"cairn/internal/store"
 )
 
-func newCmdMark(f *Factory) *cobra.Command {
-	cmd := &cobra.Command{
-		Use:   "mark",
-		Short: "Benchmarks: add, show, list, report their condition",
-	}
-	cmd.AddCommand(newCmdMarkAdd(f, nil), newCmdMarkShow(f, nil), newCmdMarkList(f, nil), newCmdMarkCondition(f, nil))
-	return cmd
-}
-
 // markAddOptions are the inputs of `cairn mark add`.
 type markAddOptions struct {
 	f        *Factory
@@ -50,10 +41,7 @@ for finding the mark; heights are recorded with 'cairn height set'.`,
 			if cmd.Flags().Changed("lon") {
 				opts.params.Lon = &opts.lon
 			}
-			if runF != nil {
-				return runF(opts)
-			}
-			return markAddRun(opts)
+			return dispatch(opts, runF, markAddRun)
 		},
 	}
 	fl := cmd.Flags()
@@ -143,10 +131,7 @@ func newCmdMarkShow(f *Factory, runF func(*markShowOptions) error) *cobra.Comman
 		Args:  exactArgs(1, "a DESIGNATION"),
 		RunE: func(cmd *cobra.Command, args []string) error {
 			opts.ctx, opts.designation = cmd.Context(), args[0]
-			if runF != nil {
-				return runF(opts)
-			}
-			return markShowRun(opts)
+			return dispatch(opts, runF, markShowRun)
 		},
 	}
 	addOutputFlag(cmd, &opts.format)
@@ -224,13 +209,7 @@ reported disturbed, destroyed or not found are flagged with a warning.`,
 		Example: `  cairn mark list --near 41.62,-97.95 --within 2km
   cairn mark list --condition disturbed,not-found`,
 		Args: exactArgs(0, "no arguments"),
-		RunE: func(cmd *cobra.Command, args []string) error {
-			opts.ctx = cmd.Context()
-			if runF != nil {
-				return runF(opts)
-			}
-			return markListRun(opts)
-		},
+		RunE: runE(&opts.ctx, opts, runF, markListRun),
 	}
 	addOutputFlag(cmd, &opts.format)
 	cmd.Flags().StringVar(&opts.near, "near", "", "LAT,LON in decimal degrees: list marks near this point")
@@ -354,10 +333,7 @@ one (by the date observed) is the mark's condition, and 'height show' and
 				}
 				opts.params.ObservedOn = d
 			}
-			if runF != nil {
-				return runF(opts)
-			}
-			return markConditionRun(opts)
+			return dispatch(opts, runF, markConditionRun)
 		},
 	}
 	cmd.Flags().StringVar(&opts.params.Note, "note", "", "what was seen")

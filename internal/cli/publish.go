@@ -59,10 +59,7 @@ On a terminal it asks for confirmation; otherwise --yes is required.
 			if err := opts.parse(args); err != nil {
 				return err
 			}
-			if runF != nil {
-				return runF(opts)
-			}
-			return publishRun(opts)
+			return dispatch(opts, runF, publishRun)
 		},
 	}
 	addOutputFlag(cmd, &opts.format)
@@ -136,10 +133,7 @@ On a terminal it asks for confirmation; otherwise --yes is required.`,
 			if err := opts.parse(args); err != nil {
 				return err
 			}
-			if runF != nil {
-				return runF(opts)
-			}
-			return discardRun(opts)
+			return dispatch(opts, runF, discardRun)
 		},
 	}
 	cmd.Flags().StringVar(&opts.reason, "reason", "", "why it is discarded (required)")

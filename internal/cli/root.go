@@ -85,20 +85,28 @@ codes and regulations that govern your work.`,
 	root.SetFlagErrorFunc(func(c *cobra.Command, err error) error {
 		return flagError{fmt.Errorf("%w (see 'cairn %s --help')", err, strings.TrimPrefix(c.CommandPath(), "cairn "))}
 	})
+	// Commands register here: groups with their subcommands, one file a
+	// group; leaf commands one line each.
 	root.AddCommand(
-		// Command groups register here, one line each.
-		newCmdDB(f),
-		newCmdDatum(f),
-		newCmdMark(f),
-		newCmdHeight(f),
+		commandGroup(&cobra.Command{Use: "db", Short: "Start, stop, inspect and migrate the register's database", Long: dbLong},
+			newCmdDBStart(f, nil), newCmdDBStop(f, nil), newCmdDBStatus(f, nil), newCmdDBMigrate(f, nil), newCmdDBRoles(f, nil)),
+		commandGroup(&cobra.Command{Use: "datum", Short: "Vertical datums heights refer to"},
+			newCmdDatumAdd(f, nil), newCmdDatumList(f, nil)),
+		commandGroup(&cobra.Command{Use: "mark", Short: "Benchmarks: add, show, list, report their condition"},
+			newCmdMarkAdd(f, nil), newCmdMarkShow(f, nil), newCmdMarkList(f, nil), newCmdMarkCondition(f, nil)),
+		commandGroup(&cobra.Command{Use: "height", Short: "Published heights of benchmarks: record and look up"},
+			newCmdHeightSet(f, nil), newCmdHeightWithdraw(f, nil), newCmdHeightShow(f, nil), newCmdHeightList(f, nil)),
 		newCmdHistory(f, nil),
-		newCmdAudit(f),
+		commandGroup(&cobra.Command{Use: "audit", Short: "Check the register's history for tampering"},
+			newCmdAuditVerify(f, nil)),
 		newCmdDemo(f, nil),
-		newCmdRun(f),
+		commandGroup(&cobra.Command{Use: "run <command>", Short: "Level runs: check and record field books", Long: runLong},
+			newCmdRunCheck(f, nil), newCmdRunRecord(f, nil), newCmdRunList(f, nil), newCmdRunShow(f, nil)),
 		newCmdAdjust(f, nil),
 		newCmdPublish(f, nil),
 		newCmdDiscard(f, nil),
-		newCmdAdjustment(f),
+		commandGroup(&cobra.Command{Use: "adjustment", Short: "Adjustments made: list them, show one"},
+			newCmdAdjustmentList(f, nil), newCmdAdjustmentShow(f, nil)),
 		newCmdTrace(f, nil),
 		newCmdStale(f, nil),
 		newCmdBackup(f, nil),
@@ -106,6 +114,18 @@ codes and regulations that govern your work.`,
 	)
 	return root
 }
+
+// dbLong is the help of `cairn db`.
+const dbLong = `Manage the database that holds the register.
+
+With no database named (--db, CAIRN_DATABASE_URL or the PG* variables),
+cairn keeps the register in a private PostgreSQL of its own, in your data
+folder; "db start" and "db stop" start and stop that one. Every command
+starts it when needed, so "db start" is seldom necessary.`
+
+// runLong is the help of `cairn run`.
+const runLong = `Level runs are the circuits a crew levels over the marks, each written in a
+level book (see docs/levelbook.md).`
 
 // exactArgs is cobra.ExactArgs with a bad-input exit status.
 func exactArgs(n int, names string) cobra.PositionalArgs {
@@ -140,5 +160,31 @@ func reportPeakMemory(w io.Writer) {
 		if rest, ok := strings.CutPrefix(line, "VmHWM:"); ok {
 			fmt.Fprintf(w, "cairn: peak resident memory %s\n", strings.TrimSpace(rest))
 		}
+	}
+}
+
+// dispatch hands a leaf command's options to runF when a test gives one
+// (to see what the flags parsed into), else to run, which does the work.
+func dispatch[O any](opts *O, runF, run func(*O) error) error {
+	if runF != nil {
+		return runF(opts)
+	}
+	return run(opts)
+}
+
+// commandGroup is cmd holding the subcommands subs, and doing nothing of
+// its own (cobra prints its help).
+func commandGroup(cmd *cobra.Command, subs ...*cobra.Command) *cobra.Command {
+	cmd.AddCommand(subs...)
+	return cmd
+}
+
+// runE is the RunE of a leaf command whose flags fill its options with
+// nothing left to check: it keeps the command's context in *ctx and
+// dispatches.
+func runE[O any](ctx *context.Context, opts *O, runF, run func(*O) error) func(*cobra.Command, []string) error {
+	return func(cmd *cobra.Command, _ []string) error {
+		*ctx = cmd.Context()
+		return dispatch(opts, runF, run)
 	}
 }

@@ -18,18 +18,6 @@ import (
 )
 
 // newCmdRun builds the `cairn run` command group: level runs and their
-// field books.
-func newCmdRun(f *Factory) *cobra.Command {
-	cmd := &cobra.Command{
-		Use:   "run <command>",
-		Short: "Level runs: check and record field books",
-		Long: `Level runs are the circuits a crew levels over the marks, each written in a
-level book (see docs/levelbook.md).`,
-	}
-	cmd.AddCommand(newCmdRunCheck(f, nil), newCmdRunRecord(f, nil), newCmdRunList(f, nil), newCmdRunShow(f, nil))
-	return cmd
-}
-
 // runCheckOptions are the inputs of `cairn run check`.
 type runCheckOptions struct {
 	IO *IOStreams
@@ -82,10 +70,7 @@ and follow the codes and regulations that govern your work.`,
 				return err
 			}
 			opts.CurvatureRefraction = rf.curvatureRefraction
-			if runF != nil {
-				return runF(opts)
-			}
-			return runCheckRun(opts)
+			return dispatch(opts, runF, runCheckRun)
 		},
 	}
 	rf.add(cmd.Flags())

@@ -43,10 +43,7 @@ touched a mark; --since keeps those observed on or after a date.`,
 				}
 				opts.Since = &d
 			}
-			if runF != nil {
-				return runF(opts)
-			}
-			return runListRun(opts)
+			return dispatch(opts, runF, runListRun)
 		},
 	}
 	cmd.Flags().StringVar(&opts.Mark, "mark", "", "only runs that touched this mark")

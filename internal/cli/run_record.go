@@ -88,10 +88,7 @@ work.`,
 			if strings.TrimSpace(opts.By) == "" {
 				return badInput("--by: say who records the run")
 			}
-			if runF != nil {
-				return runF(opts)
-			}
-			return runRecordRun(opts)
+			return dispatch(opts, runF, runRecordRun)
 		},
 	}
 	fl := cmd.Flags()

@@ -99,10 +99,7 @@ nothing else: cairn run show 12 --book > copy.csv gives back the file.`,
 			if opts.Format == FormatCSV {
 				return badInput("--output: run show prints a report or json, not csv")
 			}
-			if runF != nil {
-				return runF(opts)
-			}
-			return runShowRun(opts)
+			return dispatch(opts, runF, runShowRun)
 		},
 	}
 	cmd.Flags().BoolVar(&opts.Book, "book", false, "print the recorded field book byte for byte")

@@ -44,13 +44,7 @@ control, with each reason:
 These are the heights to adjust again; publishing a new adjustment of them
 clears them.`,
 		Args: exactArgs(0, "no arguments"),
-		RunE: func(cmd *cobra.Command, args []string) error {
-			opts.ctx = cmd.Context()
-			if runF != nil {
-				return runF(opts)
-			}
-			return staleRun(opts)
-		},
+		RunE: runE(&opts.ctx, opts, runF, staleRun),
 	}
 	addOutputFlag(cmd, &opts.format)
 	return cmd

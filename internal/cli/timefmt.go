@@ -25,5 +25,17 @@ func parseInstant(s string) (time.Time, error) {
 	return time.Time{}, fmt.Errorf("%q is not a time: write 2024-03-01, 2024-03-01 14:00 or 2024-03-01T14:00:00Z", s)
 }
 
+// parseAsOf reads the --as-of flag: nil when it is not given.
+func parseAsOf(s string) (*time.Time, error) {
+	if s == "" {
+		return nil, nil
+	}
+	t, err := parseInstant(s)
+	if err != nil {
+		return nil, badInput("as-of: %v", err)
+	}
+	return &t, nil
+}
+
 // timeText is an instant as tables show it, in UTC to the second.
 func timeText(t time.Time) string { return t.UTC().Format("2006-01-02 15:04:05Z") }

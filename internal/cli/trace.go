@@ -80,17 +80,11 @@ each traced in turn, down to the outside publications they cite.
 		Args: exactArgs(1, "a DESIGNATION"),
 		RunE: func(cmd *cobra.Command, args []string) error {
 			opts.ctx, opts.params.Designation = cmd.Context(), args[0]
-			if opts.asOf != "" {
-				t, err := parseInstant(opts.asOf)
-				if err != nil {
-					return badInput("as-of: %v", err)
-				}
-				opts.params.AsOf = &t
+			var err error
+			if opts.params.AsOf, err = parseAsOf(opts.asOf); err != nil {
+				return err
 			}
-			if runF != nil {
-				return runF(opts)
-			}
-			return traceRun(opts)
+			return dispatch(opts, runF, traceRun)
 		},
 	}
 	addOutputFlag(cmd, &opts.format)

@@ -41,11 +41,8 @@ func (r *Register) Publish(ctx context.Context, p PublishParams) (*Published, er
 	}
 	out := &Published{}
 	err := r.withTx(ctx, pgx.TxOptions{}, func(tx pgx.Tx) error {
-		a, err := r.adjustment(ctx, tx, p.AdjustmentID, true)
+		a, err := r.lockDraft(ctx, tx, p.AdjustmentID)
 		if err != nil {
-			return err
-		}
-		if err := stillDraft(a); err != nil {
 			return err
 		}
 		held, err := store.AdjustmentHeldList(ctx, tx, a.ID)
@@ -133,6 +130,16 @@ func stillDraft(a store.Adjustment) error {
 		a.StatusAt.UTC().Format("2006-01-02 15:04:05Z"), a.StatusBy, a.StatusReason)}
 }
 
+// lockDraft locks adjustment id in tx for its publication or discard, and
+// refuses one that is no longer a draft.
+func (r *Register) lockDraft(ctx context.Context, tx pgx.Tx, id int64) (store.Adjustment, error) {
+	a, err := r.adjustment(ctx, tx, id, true)
+	if err != nil {
+		return a, err
+	}
+	return a, stillDraft(a)
+}
+
 // DiscardParams ask for a draft adjustment to be set aside.
 type DiscardParams struct {
 	AdjustmentID int64
@@ -152,11 +159,8 @@ func (r *Register) Discard(ctx context.Context, p DiscardParams) (store.Adjustme
 	}
 	var out store.Adjustment
 	err := r.withTx(ctx, pgx.TxOptions{}, func(tx pgx.Tx) error {
-		a, err := r.adjustment(ctx, tx, p.AdjustmentID, true)
+		a, err := r.lockDraft(ctx, tx, p.AdjustmentID)
 		if err != nil {
-			return err
-		}
-		if err := stillDraft(a); err != nil {
 			return err
 		}
 		if err := store.AdjustmentEventInsert(ctx, tx, store.AdjustmentEventInsertParams{AdjustmentID: a.ID,

@@ -237,21 +237,15 @@ type AdjustmentResultCopyParams struct {
 
 // AdjustmentResultCopy stores an adjustment's results with COPY.
 func AdjustmentResultCopy(ctx context.Context, db Copier, p AdjustmentResultCopyParams) (int64, error) {
-	rows := make([][]any, len(p.Results))
-	for i, r := range p.Results {
+	return copyRows(ctx, db, "adjustment_result", adjustmentResultColumns, p.Results, "results of adjustment", func(r *AdjustmentResult) []any {
 		var dec *int16
 		if r.Decimals != nil {
 			d := int16(*r.Decimals)
 			dec = &d
 		}
-		rows[i] = []any{p.AdjustmentID, r.MarkID, r.Seq, r.Held, r.ComputedM, r.CorrectionM,
+		return []any{p.AdjustmentID, r.MarkID, r.Seq, r.Held, r.ComputedM, r.CorrectionM,
 			r.AdjustedM, r.SigmaM, r.Value, r.Unit, dec, r.Class, r.Replaces}
-	}
-	n, err := db.CopyFrom(ctx, pgx.Identifier{"adjustment_result"}, adjustmentResultColumns, pgx.CopyFromRows(rows))
-	if err != nil {
-		return n, fmt.Errorf("copy results of adjustment: %w", translate(err))
-	}
-	return n, nil
+	})
 }
 
 // AdjustmentResultList returns an adjustment's results in report order.

@@ -2,7 +2,6 @@ package store
 
 import (
 	"context"
-	"fmt"
 
 	"github.com/jackc/pgx/v5"
 )
@@ -32,16 +31,10 @@ type AdjustmentSectionCopyParams struct {
 
 // AdjustmentSectionCopy stores section outcomes with COPY.
 func AdjustmentSectionCopy(ctx context.Context, db Copier, p AdjustmentSectionCopyParams) (int64, error) {
-	rows := make([][]any, len(p.Sections))
-	for i, s := range p.Sections {
-		rows[i] = []any{p.AdjustmentID, s.RunID, s.Seq, s.ResidualM, s.ResidualSDM, s.W, s.Flagged}
-	}
-	n, err := db.CopyFrom(ctx, pgx.Identifier{"adjustment_section"},
-		[]string{"adjustment_id", "run_id", "seq", "residual_m", "residual_sd_m", "w", "flagged"}, pgx.CopyFromRows(rows))
-	if err != nil {
-		return n, fmt.Errorf("copy sections of adjustment: %w", translate(err))
-	}
-	return n, nil
+	return copyRows(ctx, db, "adjustment_section", []string{"adjustment_id", "run_id", "seq", "residual_m", "residual_sd_m", "w", "flagged"},
+		p.Sections, "sections of adjustment", func(s *AdjustmentSection) []any {
+			return []any{p.AdjustmentID, s.RunID, s.Seq, s.ResidualM, s.ResidualSDM, s.W, s.Flagged}
+		})
 }
 
 // AdjustmentSectionList returns an adjustment's section outcomes by run and

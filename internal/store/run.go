@@ -17,6 +17,24 @@ type Copier interface {
 	CopyFrom(ctx context.Context, table pgx.Identifier, columns []string, src pgx.CopyFromSource) (int64, error)
 }
 
+// copyRows stores items in table with one COPY, row giving each item's
+// values in the order of columns; what names the rows in an error. The
+// rows are made as COPY reads them, not all at once.
+func copyRows[T any](ctx context.Context, db Copier, table string, columns []string, items []T, what string, row func(*T) []any) (int64, error) {
+	i := 0
+	n, err := db.CopyFrom(ctx, pgx.Identifier{table}, columns, pgx.CopyFromFunc(func() ([]any, error) {
+		if i == len(items) {
+			return nil, nil
+		}
+		i++
+		return row(&items[i-1]), nil
+	}))
+	if err != nil {
+		return n, fmt.Errorf("copy %s: %w", what, translate(err))
+	}
+	return n, nil
+}
+
 // Run is a recorded level circuit, without its book's bytes.
 type Run struct {
 	ID int64
@@ -198,19 +216,13 @@ type RunMarkCopyParams struct {
 
 // RunMarkCopy stores the marks a run touched with COPY.
 func RunMarkCopy(ctx context.Context, db Copier, p RunMarkCopyParams) (int64, error) {
-	rows := make([][]any, len(p.Marks))
-	for i, m := range p.Marks {
+	return copyRows(ctx, db, "run_mark", []string{"run_id", "mark_id", "condition_id", "created"}, p.Marks, "marks of run", func(m *RunMark) []any {
 		var cid *int64
 		if m.Condition != nil {
 			cid = &m.Condition.ID
 		}
-		rows[i] = []any{p.RunID, m.MarkID, cid, m.Created}
-	}
-	n, err := db.CopyFrom(ctx, pgx.Identifier{"run_mark"}, []string{"run_id", "mark_id", "condition_id", "created"}, pgx.CopyFromRows(rows))
-	if err != nil {
-		return n, fmt.Errorf("copy marks of run: %w", translate(err))
-	}
-	return n, nil
+		return []any{p.RunID, m.MarkID, cid, m.Created}
+	})
 }
 
 // RunMarkListByRun returns the marks a run touched, by designation.

@@ -2,7 +2,6 @@ package store
 
 import (
 	"context"
-	"fmt"
 
 	"github.com/jackc/pgx/v5"
 )
@@ -40,15 +39,9 @@ type SectionCopyParams struct {
 
 // SectionCopy stores sections with COPY and returns how many.
 func SectionCopy(ctx context.Context, db Copier, p SectionCopyParams) (int64, error) {
-	rows := make([][]any, len(p.Sections))
-	for i, s := range p.Sections {
-		rows[i] = []any{p.RunID, s.Seq, s.FromMarkID, s.ToMarkID, s.DifferenceM, s.LengthM, s.Setups, s.FirstLine, s.LastLine}
-	}
-	n, err := db.CopyFrom(ctx, pgx.Identifier{"section"}, sectionColumns, pgx.CopyFromRows(rows))
-	if err != nil {
-		return n, fmt.Errorf("copy sections: %w", translate(err))
-	}
-	return n, nil
+	return copyRows(ctx, db, "section", sectionColumns, p.Sections, "sections", func(s *Section) []any {
+		return []any{p.RunID, s.Seq, s.FromMarkID, s.ToMarkID, s.DifferenceM, s.LengthM, s.Setups, s.FirstLine, s.LastLine}
+	})
 }
 
 // SectionListParams choose the sections to list.

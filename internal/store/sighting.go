@@ -2,7 +2,6 @@ package store
 
 import (
 	"context"
-	"fmt"
 
 	"github.com/jackc/pgx/v5"
 )
@@ -38,20 +37,9 @@ type SightingCopyParams struct {
 
 // SightingCopy stores sightings with COPY and returns how many.
 func SightingCopy(ctx context.Context, db Copier, p SightingCopyParams) (int64, error) {
-	i := -1
-	src := pgx.CopyFromFunc(func() ([]any, error) {
-		i++
-		if i == len(p.Sightings) {
-			return nil, nil
-		}
-		s := &p.Sightings[i]
-		return []any{p.RunID, s.Seq, s.Line, s.Point, s.Sight, s.TurningPoint, s.Upper, s.Middle, s.Lower, s.Distance, s.DistanceFrom, s.Note}, nil
+	return copyRows(ctx, db, "sighting", sightingColumns, p.Sightings, "sightings", func(s *Sighting) []any {
+		return []any{p.RunID, s.Seq, s.Line, s.Point, s.Sight, s.TurningPoint, s.Upper, s.Middle, s.Lower, s.Distance, s.DistanceFrom, s.Note}
 	})
-	n, err := db.CopyFrom(ctx, pgx.Identifier{"sighting"}, sightingColumns, src)
-	if err != nil {
-		return n, fmt.Errorf("copy sightings: %w", translate(err))
-	}
-	return n, nil
 }
 
 // SightingListByRun returns a run's sightings in field order.
