@@ -11,7 +11,6 @@ import (
 	"cairn/internal/levelbook"
 	"cairn/internal/reduce"
 	"cairn/internal/register"
-	"cairn/internal/standards"
 )
 
 // runRecordOptions are the inputs of `cairn run record`.
@@ -20,15 +19,12 @@ type runRecordOptions struct {
 	ctx context.Context
 
 	BookPath string
-	// Hold gives held heights (--held-height) in the book's unit, by mark.
-	Hold                map[string]float64
-	Class               standards.Class
-	CurvatureRefraction bool
-	By                  string
-	NewMarks            bool
-	AcceptFailedChecks  bool
-	Reason              string
-	Format              Format
+	// RecordParams are what the flags give the register: held heights
+	// (--held-height) in the book's unit by mark, class, corrections, who,
+	// new marks, acceptance and its reason. Path and Book are filled when
+	// the book is read.
+	register.RecordParams
+	Format Format
 }
 
 // newCmdRunRecord builds `cairn run record`. runF replaces runRecordRun in
@@ -120,11 +116,9 @@ func runRecordRun(opts *runRecordOptions) error {
 	if err != nil {
 		return err
 	}
-	rec, err := r.Record(opts.ctx, register.RecordParams{
-		Path: opts.BookPath, Book: data, By: opts.By,
-		Hold: opts.Hold, Class: opts.Class, CurvatureRefraction: opts.CurvatureRefraction,
-		NewMarks: opts.NewMarks, AcceptFailedChecks: opts.AcceptFailedChecks, Reason: opts.Reason,
-	})
+	p := opts.RecordParams
+	p.Path, p.Book = opts.BookPath, data
+	rec, err := r.Record(opts.ctx, p)
 	if err != nil {
 		return err
 	}

@@ -215,32 +215,38 @@ func (c *Cluster) Stop(ctx context.Context) error {
 	if _, running, err := c.postmaster(); err != nil || !running {
 		return err
 	}
-	run, err := runAs()
-	if err != nil {
-		return err
-	}
-	unlock, err := lockFile(ctx, filepath.Join(c.Dir, "lock"))
-	if err != nil {
-		return err
-	}
-	defer unlock()
-	if _, running, err := c.postmaster(); err != nil || !running {
-		return err
-	}
-	bin, err := c.binDir()
-	if err != nil {
-		return err
-	}
-	if err := c.pgctl(ctx, bin, run, "stop", "-w", "-t", "60", "-m", "fast"); err != nil {
-		return fmt.Errorf("stop PostgreSQL in %s: %w", c.Dir, err)
-	}
-	return nil
+	return c.withServerLock(ctx, func(run *account, bin string) error {
+		if _, running, err := c.postmaster(); err != nil || !running {
+			return err
+		}
+		if err := c.pgctl(ctx, bin, run, "stop", "-w", "-t", "60", "-m", "fast"); err != nil {
+			return fmt.Errorf("stop PostgreSQL in %s: %w", c.Dir, err)
+		}
+		return nil
+	})
 }
 
 // Restart stops the cluster's server with a fast shutdown (sessions are
 // ended, their open transactions rolled back, nothing committed is lost)
 // and starts it again. The cluster must be running.
 func (c *Cluster) Restart(ctx context.Context) error {
+	return c.withServerLock(ctx, func(run *account, bin string) error {
+		if _, running, err := c.postmaster(); err != nil {
+			return err
+		} else if !running {
+			return fmt.Errorf("restart PostgreSQL in %s: the server is not running", c.Dir)
+		}
+		if err := c.pgctl(ctx, bin, run, "restart", "-w", "-t", "60", "-m", "fast", "-l", c.logFile()); err != nil {
+			return fmt.Errorf("restart PostgreSQL in %s: %w%s", c.Dir, err, c.logTail())
+		}
+		return nil
+	})
+}
+
+// withServerLock runs fn, which starts or stops the server, holding the
+// cluster's lock, with the account that runs the server and the folder of
+// its binaries.
+func (c *Cluster) withServerLock(ctx context.Context, fn func(run *account, bin string) error) error {
 	run, err := runAs()
 	if err != nil {
 		return err
@@ -250,19 +256,11 @@ func (c *Cluster) Restart(ctx context.Context) error {
 		return err
 	}
 	defer unlock()
-	if _, running, err := c.postmaster(); err != nil {
-		return err
-	} else if !running {
-		return fmt.Errorf("restart PostgreSQL in %s: the server is not running", c.Dir)
-	}
 	bin, err := c.binDir()
 	if err != nil {
 		return err
 	}
-	if err := c.pgctl(ctx, bin, run, "restart", "-w", "-t", "60", "-m", "fast", "-l", c.logFile()); err != nil {
-		return fmt.Errorf("restart PostgreSQL in %s: %w%s", c.Dir, err, c.logTail())
-	}
-	return nil
+	return fn(run, bin)
 }
 
 // prepareDir makes the cluster's folder (and the socket's, when apart),
