@@ -325,7 +325,7 @@ func (r *Result) check() {
 		r.Failures = append(r.Failures, Failure{Kind: k, Line: line, Subject: subject, ValueM: value, LimitM: limit, Message: fmt.Sprintf(format, a...)})
 	}
 	t := r.Tolerances
-	noClass := "no accuracy class: name one with \"# class:\" in the book or --class"
+	noClass := "no accuracy class: the book names none (\"# class:\") and none was given"
 
 	// Three-wire consistency, every class (EN0593 §4).
 	c := checks[CheckThreeWire]
@@ -429,7 +429,7 @@ func (r *Result) check() {
 			why = "only " + strings.Join(held, ", ") + " is held"
 		}
 		fail(CheckClosure, last.ToLine, r.Start+" to "+r.End, 0, 0,
-			"the line from %s to %s does not close and %s: its heights are unchecked (hold two of its marks with --hold)", r.Start, r.End, why)
+			"the line from %s to %s does not close and %s: its heights are unchecked (give the known heights of two of its marks)", r.Start, r.End, why)
 	}
 	for _, k := range order {
 		r.Checks = append(r.Checks, *checks[k])
