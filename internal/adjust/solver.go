@@ -433,6 +433,7 @@ func (s *solver) chainResults() {
 	secs, q, jx, sign, ord := s.net.secs, s.q, s.jx, s.sign, s.ord
 	chains, qjj, pts, res := s.chains, s.qjj, s.sol.Points, s.sol.Sections
 	sig := s.opt.SigmaM
+	vtpv := s.vtpv
 	for c, ch := range chains {
 		end := int32(len(ord))
 		if c+1 < len(chains) {
@@ -458,7 +459,7 @@ func (s *solver) chainResults() {
 			qab = v
 		}
 		veq := hb - ha - ch.d
-		s.vtpv += veq * veq / ch.c
+		vtpv += veq * veq / ch.c
 		qvvEq := ch.c - (qaa + qbb - 2*qab)
 		var cum, d1 float64
 		for _, k := range ord[ch.first:end] {
@@ -482,6 +483,7 @@ func (s *solver) chainResults() {
 			p.SDM = sig * math.Sqrt(max(qpp, 0))
 		}
 	}
+	s.vtpv = vtpv
 }
 
 // heldResults sets the residual of each weighted mark's pseudo-observation,
