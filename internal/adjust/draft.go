@@ -93,8 +93,9 @@ type DraftHeld struct {
 	SigmaM float64
 }
 
-// HeldKind says how a draft held a mark.
-type HeldKind int
+// HeldKind says how a mark is held: by a draft, and by the solver for
+// each point (so it is one byte).
+type HeldKind uint8
 
 // How a mark is held.
 const (

@@ -9,24 +9,15 @@ import (
 	"cairn/internal/sparse"
 )
 
-// heldState is the part a point plays as control in an adjustment.
-type heldState uint8
-
-const (
-	// free: an unknown height, not held.
-	free heldState = iota
-	// fixed: a constant, H = Hₕ exactly.
-	fixed
-	// weighted: an unknown with the pseudo-observation H = Hₕ + v of
-	// cofactor qₕ = σₕ²/σ₀².
-	weighted
-	// checked: a held mark other than the first under Minimal, adjusted as
-	// free; its distance from Hₕ is reported, not observed.
-	checked
-)
+// A point's part as control in the solver is its HeldKind (draft.go):
+// NotHeld, an unknown height; HeldFixed, a constant, H = Hₕ exactly;
+// HeldWeighted, an unknown with the pseudo-observation H = Hₕ + v of
+// cofactor qₕ = σₕ²/σ₀²; HeldCheck, a held mark other than the first under
+// Minimal, adjusted as NotHeld, its distance from Hₕ reported, not
+// observed.
 
 // controls says the point constrains the adjustment (fixed or weighted).
-func (h heldState) controls() bool { return h == fixed || h == weighted }
+func (h HeldKind) controls() bool { return h == HeldFixed || h == HeldWeighted }
 
 // Sentinels of solver.jx for points that are not unknowns of the junction
 // system; an unknown's number is ≥ 0.
@@ -70,7 +61,7 @@ type solver struct {
 	q []float64 // cofactor qᵢ of section i
 
 	// classifyHeld, per point
-	held   []heldState
+	held   []HeldKind
 	heldH  []float64 // the held height Hₕ
 	heldQ  []float64 // weighted: qₕ = σₕ²/σ₀²
 	heldAt []int32   // the point of each held mark, in the order added
@@ -163,7 +154,7 @@ func sectionError(net *Network, i int, field, format string, a ...any) error {
 func (s *solver) classifyHeld() error {
 	net, opt := s.net, s.opt
 	np := len(net.pts.list)
-	s.held = make([]heldState, np)
+	s.held = make([]HeldKind, np)
 	s.heldH = make([]float64, np)
 	s.heldQ = make([]float64, np)
 	s.heldAt = make([]int32, len(net.held))
@@ -175,7 +166,7 @@ func (s *solver) classifyHeld() error {
 		switch {
 		case !ok:
 			return herr("point", "%q is not a point of the network", h.Point)
-		case s.held[id] != free:
+		case s.held[id] != NotHeld:
 			return herr("point", "%q is held twice", h.Point)
 		case math.IsNaN(h.HeightM) || math.IsInf(h.HeightM, 0):
 			return herr("height_m", "height %v is not a finite number", h.HeightM)
@@ -184,14 +175,11 @@ func (s *solver) classifyHeld() error {
 		}
 		s.heldAt[k] = id
 		s.heldH[id] = h.HeightM
-		switch {
-		case opt.Minimal && k > 0:
-			s.held[id] = checked
-		case opt.Minimal || h.SigmaM == 0:
-			s.held[id] = fixed
+		s.held[id] = HoldKind(k, h.SigmaM, opt.Minimal)
+		switch s.held[id] {
+		case HeldFixed:
 			s.nfixed++
-		default:
-			s.held[id] = weighted
+		case HeldWeighted:
 			s.heldQ[id] = (h.SigmaM / opt.SigmaM) * (h.SigmaM / opt.SigmaM)
 			s.nweighted++
 		}
@@ -241,9 +229,9 @@ func (s *solver) findJunctions(g incidence) {
 	nj := int32(0)
 	for i := int32(0); i < np; i++ {
 		switch {
-		case held[i] == fixed:
+		case held[i] == HeldFixed:
 			jx[i] = fixedMark
-		case held[i] == weighted || g.degree(i) != 2:
+		case held[i] == HeldWeighted || g.degree(i) != 2:
 			jx[i] = nj
 			nj++
 		default:
@@ -337,7 +325,7 @@ func (s *solver) assemble() (*sparse.Symmetric, []float64) {
 		}
 	}
 	for i, h := range s.held {
-		if h == weighted {
+		if h == HeldWeighted {
 			j := jx[i]
 			bld.Add(int(j), int(j), 1/s.heldQ[i])
 			rhs[j] += hh[i] / s.heldQ[i]
@@ -494,9 +482,9 @@ func (s *solver) heldResults() {
 	pts, res := s.sol.Points, s.sol.Held
 	for k, id := range s.heldAt {
 		switch s.held[id] {
-		case checked:
+		case HeldCheck:
 			res[k] = Residual{ResidualM: pts[id].HeightM - s.heldH[id], W: math.NaN()}
-		case weighted:
+		case HeldWeighted:
 			j, hq := s.jx[id], s.heldQ[id]
 			v := s.x[j] - s.heldH[id]
 			s.vtpv += v * v / hq
