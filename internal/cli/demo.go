@@ -22,6 +22,8 @@ type demoOptions struct {
 	f    *Factory
 	ctx  context.Context
 	name string // the demo database
+	// url prints the demo register's URL instead of building it.
+	url bool
 }
 
 func newCmdDemo(f *Factory, runF func(*demoOptions) error) *cobra.Command {
@@ -30,14 +32,19 @@ func newCmdDemo(f *Factory, runF func(*demoOptions) error) *cobra.Command {
 		Use:   "demo",
 		Short: "Build a small invented register to look around in",
 		Long: `Build a small register of the invented Tallis County (the town of Orrin Bay
-on the Mere River): two datums, eight benchmarks with their descriptions,
-condition reports (one mark disturbed, one not found), and published heights,
-one mark with several versions. Every name, position, height and citation in
-it is invented.
+on the Mere River) and show it with cairn's own commands.
+
+It holds ` + demoContents + ` Every name, position, height
+and citation in it is invented.
 
 The demo lives in its own database, ` + demoDatabase + `, on the server cairn would
 use (with none named, cairn's private PostgreSQL). It is dropped and built
-anew on each run; your own register is not touched.`,
+anew on each run; your own register is not touched. To look around in it
+with any command, name it: --url prints its URL, for --db or
+CAIRN_DATABASE_URL:
+
+  export CAIRN_DATABASE_URL="$(cairn demo --url)"
+  cairn mark show TC-0412`,
 		Args: exactArgs(0, "no arguments"),
 		RunE: func(cmd *cobra.Command, args []string) error {
 			opts.ctx = cmd.Context()
@@ -47,6 +54,7 @@ anew on each run; your own register is not touched.`,
 			return dispatch(opts, runF, demoRun)
 		},
 	}
+	cmd.Flags().BoolVar(&opts.url, "url", false, "print the demo register's URL (for --db or CAIRN_DATABASE_URL) and build nothing")
 	cmd.Flags().StringVar(&opts.name, "name", demoDatabase, "name of the demo database (dropped and made anew)")
 	_ = cmd.Flags().MarkHidden("name")
 	return cmd
@@ -69,6 +77,10 @@ func demoRun(opts *demoOptions) error {
 	url, err := store.WithDatabase(server, name)
 	if err != nil {
 		return err
+	}
+	if opts.url {
+		fmt.Fprintln(f.IO.Out, url)
+		return nil
 	}
 	if err := store.DatabaseRecreate(ctx, server, name); err != nil {
 		return fmt.Errorf("demo: %w", err)
@@ -117,8 +129,18 @@ func demoRun(opts *demoOptions) error {
 	fmt.Fprintf(out, "\nAll names, positions, heights and citations above are invented.\n\n%s\n", cautions)
 	fmt.Fprintf(out, "\nLook at it again with, for example:\n  cairn --db '%s' mark show %s\n  cairn --db '%s' history %s\n",
 		redact(url), demo.HistoryMark, redact(url), demo.HistoryMark)
+	fmt.Fprintf(out, "or make it the register every command reads, for this shell:\n  export CAIRN_DATABASE_URL=\"$(cairn demo --url)\"\n")
 	return nil
 }
+
+// demoContents says what the demo register holds; TestDemoHelpSaysWhatItBuilds
+// holds it to what demo.Build makes.
+const demoContents = `two datums; eleven benchmarks with their descriptions,
+one of them created by recording a field book (its condition unverified);
+condition reports, one mark disturbed and one reported not found in 2023
+and recovered in 2024; heights from outside publications, one mark with
+several versions in two units; two field books recorded as runs; and two
+adjustments of them, published.`
 
 // redact hides a password in a URL for printing.
 func redact(url string) string {
