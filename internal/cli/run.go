@@ -219,7 +219,7 @@ func reduceBook(book *levelbook.Book, hold map[string]float64, held []register.H
 // passed, and where each held height came from.
 type runCheckJSON struct {
 	*reduce.Result
-	Passed bool       `json:"passed"`
+	Passed bool          `json:"passed"`
 	Held   []runHeldJSON `json:"held"`
 }
 

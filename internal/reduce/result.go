@@ -275,7 +275,7 @@ func (k CheckKind) Words() string {
 	case CheckThreeWire:
 		return "three-wire"
 	case CheckDistance:
-		return "sight lengths booked"
+		return "distances booked"
 	case CheckSightLength:
 		return "sight lengths"
 	case CheckSetupImbalance:
