@@ -235,7 +235,7 @@ func runCheckRun(opts *runCheckOptions) error {
 	if len(opts.HoldCurrent) > 0 {
 		for _, name := range opts.HoldCurrent {
 			if err := reduce.CheckHold(book, name); err != nil {
-				return badInput("--hold %s: %v", name, err)
+				return badInput("--hold: %v", err)
 			}
 		}
 		reg, err := openRegister(opts.ctx, opts.f)
