@@ -132,6 +132,13 @@ func TestRolesPrivileges(t *testing.T) {
 	mustRun(t, recorder, "mark", "add", "TC-0412")
 	mustRun(t, recorder, "mark", "condition", "BM6", "good", "--note", "found as described")
 	mustRun(t, recorder, "run", "record", book)
+	// A run held from the register keeps its held version (run_held),
+	// which the recorder may write.
+	held := filepath.Join(t.TempDir(), "copy-4.csv")
+	if err := os.WriteFile(held, append([]byte("# copy 4\n"), orig...), 0o644); err != nil {
+		t.Fatal(err)
+	}
+	mustRun(t, recorder, "run", "record", held, "--hold", "BM1")
 	recorderDraft := draft(t, recorder, run2)
 	// A least-squares draft also keeps each section's residual
 	// (adjustment_section), which the recorder may write.
@@ -158,6 +165,7 @@ func TestRolesPrivileges(t *testing.T) {
 		"UPDATE mark SET to_reach = 'moved'", "DELETE FROM mark", "UPDATE datum SET note = 'x'",
 		"UPDATE run SET crew = 'x'", "DELETE FROM sighting", "DELETE FROM mark_condition",
 		"UPDATE adjustment_event SET reason = 'x'", "DELETE FROM adjustment_result", "TRUNCATE run CASCADE",
+		"UPDATE run_held SET value_in_book_unit = 0", "DELETE FROM run_held",
 		"INSERT INTO goose_db_version (version_id, is_applied) VALUES (99, true)",
 	}
 	for _, who := range []struct{ name, url string }{{"reader", reader}, {"recorder", recorder}, {"publisher", publisher}} {

@@ -2,8 +2,10 @@ package cli
 
 import (
 	"bytes"
+	"context"
 	"fmt"
 	"io"
+	"slices"
 	"strconv"
 	"strings"
 	"text/tabwriter"
@@ -13,18 +15,29 @@ import (
 
 	"cairn/internal/levelbook"
 	"cairn/internal/reduce"
+	"cairn/internal/register"
 	"cairn/internal/standards"
+	"cairn/internal/store"
 	"cairn/internal/units"
 )
 
-// newCmdRun builds the `cairn run` command group: level runs and their
 // runCheckOptions are the inputs of `cairn run check`.
 type runCheckOptions struct {
-	IO *IOStreams
+	IO  *IOStreams
+	f   *Factory
+	ctx context.Context
 
 	BookPath string
-	// Hold gives held heights (--held-height) in the book's unit, by mark.
+	// Hold gives held heights (--held-height MARK=HEIGHT) in the book's
+	// unit, by mark.
 	Hold map[string]float64
+	// HoldCurrent names marks held at their current height in the register
+	// (--hold MARK); only then is the register opened.
+	HoldCurrent []string
+	// AllowCondition and ConditionReason hold marks of HoldCurrent in
+	// doubt (--allow-condition, --condition-reason).
+	AllowCondition  bool
+	ConditionReason string
 	// Class overrides the book's accuracy class ("" keeps it).
 	Class               standards.Class
 	CurvatureRefraction bool
@@ -34,24 +47,36 @@ type runCheckOptions struct {
 // newCmdRunCheck builds `cairn run check`. runF replaces runCheckRun in
 // tests.
 func newCmdRunCheck(f *Factory, runF func(*runCheckOptions) error) *cobra.Command {
-	opts := &runCheckOptions{IO: f.IO}
+	opts := &runCheckOptions{IO: f.IO, f: f}
 	var rf reductionFlags
 	cmd := &cobra.Command{
 		Use:   "check BOOK.csv",
 		Short: "Reduce a level book and check it against its accuracy class",
 		Long: `Reduce a level book and check it: heights of instrument and point heights
-for every sighting, the sections between consecutive marks, the misclosure
-of the loop or between held marks against the allowable of the run's
-accuracy class, and every quality check with its tolerance and source.
-Nothing is written to the register.
+for every sighting, the spot heights the book declares, the sections between
+consecutive marks, the misclosure of the loop or between held marks against
+the allowable of the run's accuracy class, every intermediate sight on a
+held mark against its held height, and every quality check with its
+tolerance and source. Nothing is written to the register.
 
-A loop closes on itself. A line closes only between held marks: give each
-known height with --held-height MARK=HEIGHT, in the book's unit (--hold
-MARK=HEIGHT, its old spelling, still works for this release). A run that
-neither closes on itself nor joins two held marks fails the closure check.
+A loop closes on itself. A line closes only between held marks. Hold a mark
+at its current height in the register with --hold MARK (its published height
+on the book's datum, converted exactly to the book's unit; the register is
+opened only then), or give a known height yourself with --held-height
+MARK=HEIGHT, in the book's unit. --held-height MARK, without a height, is the
+same as --hold MARK; --hold MARK=HEIGHT, the old spelling of --held-height,
+still works for this release. A mark without a current height is refused,
+and so is a mark whose latest condition report says disturbed, destroyed or
+not found, unless --allow-condition is given with --condition-reason. A run
+that neither closes on itself nor joins two held marks fails the closure
+check.
 
-Exit status: 0 when every check passes, 3 when any fails (the report is
-still printed), 2 when the book cannot be read.
+The report ends with how the checks came out: "All checks passed." only when
+every check that applies was made and passed; otherwise it names the checks
+not made and why (no class, no distances, no closure).
+
+Exit status: 0 when every check made passes, 3 when any fails (the report is
+still printed), 2 when the book cannot be read or a held mark is refused.
 
 The report is aligned for reading; -o json gives the whole reduction
 (numbers in metres, keys ending in _m), -o csv the reduced notes.
@@ -60,16 +85,18 @@ Checking a book is not approving it: results need review by a licensed
 surveyor, check into two marks, verify each mark's condition before use,
 and follow the codes and regulations that govern your work.`,
 		Example: `  cairn run check north-loop.csv
+  cairn run check levee-line.csv --hold TC-0420 --hold TC-0427
   cairn run check levee-line.csv --held-height TC-0420=3.512 --held-height TC-0427=5.104
   cairn run check levee-line.csv --class second-II -o json`,
 		Args: exactArgs(1, "one level book"),
 		RunE: func(cmd *cobra.Command, args []string) error {
-			opts.BookPath = args[0]
+			opts.ctx, opts.BookPath = cmd.Context(), args[0]
 			var err error
-			if opts.Hold, opts.Class, err = rf.parse(cmd, opts.IO); err != nil {
+			if opts.Hold, opts.HoldCurrent, opts.Class, err = rf.parse(cmd, opts.IO); err != nil {
 				return err
 			}
 			opts.CurvatureRefraction = rf.curvatureRefraction
+			opts.AllowCondition, opts.ConditionReason = rf.allowCondition, strings.TrimSpace(rf.conditionReason)
 			return dispatch(opts, runF, runCheckRun)
 		},
 	}
@@ -81,80 +108,104 @@ and follow the codes and regulations that govern your work.`,
 // reductionFlags are the flags of run check and run record that say how a
 // book is reduced.
 type reductionFlags struct {
-	heldHeights []string // --held-height MARK=HEIGHT
-	// holds is --hold MARK=HEIGHT, the old spelling of --held-height, kept
-	// for one release: on adjust, --hold holds a mark at its register
-	// height, which is another thing.
+	heldHeights []string // --held-height MARK=HEIGHT, or MARK
+	// holds is --hold MARK: the mark at its current height in the register,
+	// as on adjust; --hold MARK=HEIGHT, the old spelling of --held-height,
+	// is kept for one release.
 	holds               []string
 	class               string
 	curvatureRefraction bool
+	allowCondition      bool
+	conditionReason     string
 }
 
 func (rf *reductionFlags) add(fl *pflag.FlagSet) {
-	fl.StringArrayVar(&rf.heldHeights, "held-height", nil, "known height of a mark to reduce the book from, MARK=HEIGHT in the book's unit (repeatable)")
-	fl.StringArrayVar(&rf.holds, "hold", nil, "deprecated: use --held-height")
+	fl.StringArrayVar(&rf.heldHeights, "held-height", nil, "known height of a mark to reduce the book from, MARK=HEIGHT in the book's unit; MARK alone takes its current height in the register (repeatable)")
+	fl.StringArrayVar(&rf.holds, "hold", nil, "hold MARK at its current height in the register, on the book's datum (repeatable; MARK=HEIGHT is deprecated: use --held-height)")
 	fl.StringVar(&rf.class, "class", "", "accuracy class to check against, overriding the book's: first-I, first-II, second-I, second-II, third")
 	fl.BoolVar(&rf.curvatureRefraction, "curvature-refraction", false, "correct every reading for curvature and refraction (k = 0.14)")
+	fl.BoolVar(&rf.allowCondition, "allow-condition", false, "hold marks from the register whose latest condition report is disturbed, destroyed or not found (needs --condition-reason)")
+	fl.StringVar(&rf.conditionReason, "condition-reason", "", "with --allow-condition: why those marks may be held")
 }
 
-// parse reads the held heights and the class ("" keeps the book's). When
-// the deprecated --hold is given, a one-line notice on ios.ErrOut says so.
-func (rf *reductionFlags) parse(cmd *cobra.Command, ios *IOStreams) (map[string]float64, standards.Class, error) {
-	if len(rf.holds) > 0 {
-		fmt.Fprintf(ios.ErrOut, "%s: --hold is deprecated here and will be removed: use --held-height MARK=HEIGHT\n", cmd.CommandPath())
+// parse reads the held heights (typed, and the marks held at their
+// register heights) and the class ("" keeps the book's). When the
+// deprecated --hold MARK=HEIGHT is given, a one-line notice on ios.ErrOut
+// says so.
+func (rf *reductionFlags) parse(cmd *cobra.Command, ios *IOStreams) (map[string]float64, []string, standards.Class, error) {
+	for _, h := range rf.holds {
+		if strings.Contains(h, "=") {
+			fmt.Fprintf(ios.ErrOut, "%s: --hold MARK=HEIGHT is deprecated here and will be removed: use --held-height MARK=HEIGHT (--hold MARK, without a height, holds the mark at its height in the register)\n", cmd.CommandPath())
+			break
+		}
 	}
-	hold, err := parseHeldHeights(map[string][]string{"held-height": rf.heldHeights, "hold": rf.holds})
+	hold, current, err := parseHeldHeights(map[string][]string{"held-height": rf.heldHeights, "hold": rf.holds})
 	if err != nil {
-		return nil, "", err
+		return nil, nil, "", err
+	}
+	reason := strings.TrimSpace(rf.conditionReason)
+	switch {
+	case rf.allowCondition && reason == "":
+		return nil, nil, "", badInput("--allow-condition needs --condition-reason saying why marks in doubt may be held")
+	case !rf.allowCondition && reason != "":
+		return nil, nil, "", badInput("--condition-reason goes with --allow-condition")
+	case rf.allowCondition && len(current) == 0:
+		return nil, nil, "", badInput("--allow-condition goes with --hold MARK: only marks held at their register height have their condition checked")
 	}
 	var class standards.Class
 	if rf.class != "" {
 		if class, err = standards.ParseClass(rf.class); err != nil {
-			return nil, "", badInput("--class: %v", err)
+			return nil, nil, "", badInput("--class: %v", err)
 		}
 	}
-	return hold, class, nil
+	return hold, current, class, nil
 }
 
-// parseHeldHeights reads MARK=HEIGHT values, given by flag name; a mark
-// may be held once in all.
-func parseHeldHeights(byFlag map[string][]string) (map[string]float64, error) {
-	var m map[string]float64
+// parseHeldHeights reads MARK=HEIGHT values and MARK alone, given by flag
+// name: hold has the typed heights, current the marks to hold at their
+// register height, in the order given. A mark may be held once in all.
+func parseHeldHeights(byFlag map[string][]string) (hold map[string]float64, current []string, err error) {
+	seen := map[string]bool{}
 	for _, name := range []string{"held-height", "hold"} {
 		for _, h := range byFlag[name] {
 			mark, value, ok := strings.Cut(h, "=")
 			mark, value = strings.TrimSpace(mark), strings.TrimSpace(value)
-			if !ok || mark == "" || value == "" {
-				return nil, badInput("--%s %q: want MARK=HEIGHT", name, h)
+			if mark == "" || ok && value == "" {
+				return nil, nil, badInput("--%s %q: want MARK=HEIGHT, or MARK for its height in the register", name, h)
+			}
+			if seen[mark] {
+				return nil, nil, badInput("--%s %q: %s is held twice", name, h, mark)
+			}
+			seen[mark] = true
+			if !ok {
+				current = append(current, mark)
+				continue
 			}
 			v, err := strconv.ParseFloat(value, 64)
 			if err != nil || v != v || v > 1e6 || v < -1e6 {
-				return nil, badInput("--%s %q: height %q is not a number", name, h, value)
+				return nil, nil, badInput("--%s %q: height %q is not a number", name, h, value)
 			}
-			if _, dup := m[mark]; dup {
-				return nil, badInput("--%s %q: %s is held twice", name, h, mark)
+			if hold == nil {
+				hold = map[string]float64{}
 			}
-			if m == nil {
-				m = map[string]float64{}
-			}
-			m[mark] = v
+			hold[mark] = v
 		}
 	}
-	return m, nil
+	return hold, current, nil
 }
 
-// reduceBook reads and reduces a level book with held heights given in the
-// book's unit. Every error is bad input (exit status 2).
-func reduceBook(path string, hold map[string]float64, class standards.Class, cr bool) (*reduce.Result, error) {
-	book, err := levelbook.ReadFile(path)
-	if err != nil {
-		return nil, err // a *levelbook.Error: exit status 2
-	}
+// reduceBook reduces a level book with held heights typed in the book's
+// unit and held from the register. Every error is bad input (exit status
+// 2).
+func reduceBook(book *levelbook.Book, hold map[string]float64, held []register.HeldHeight, class standards.Class, cr bool) (*reduce.Result, error) {
 	var holdM map[string]float64
-	if len(hold) > 0 {
-		holdM = make(map[string]float64, len(hold))
+	if len(hold)+len(held) > 0 {
+		holdM = make(map[string]float64, len(hold)+len(held))
 		for k, v := range hold {
 			holdM[k] = book.Meta.Unit.ToMetres(v)
+		}
+		for _, h := range held {
+			holdM[h.Designation] = h.ValueM
 		}
 	}
 	r, err := reduce.Reduce(book, reduce.Options{Hold: holdM, Class: class, CurvatureRefraction: cr})
@@ -164,19 +215,46 @@ func reduceBook(path string, hold map[string]float64, class standards.Class, cr 
 	return r, nil
 }
 
+// runCheckJSON is `run check -o json`: the whole reduction, whether it
+// passed, and where each held height came from.
+type runCheckJSON struct {
+	*reduce.Result
+	Passed bool          `json:"passed"`
+	Held   []runHeldJSON `json:"held"`
+}
+
 // runCheckRun reduces the book, prints the report and reports failed
-// checks through the exit status.
+// checks through the exit status. The register is opened only to hold
+// marks at their register heights.
 func runCheckRun(opts *runCheckOptions) error {
-	r, err := reduceBook(opts.BookPath, opts.Hold, opts.Class, opts.CurvatureRefraction)
+	book, err := levelbook.ReadFile(opts.BookPath)
+	if err != nil {
+		return err // a *levelbook.Error: exit status 2
+	}
+	var held []register.HeldHeight
+	if len(opts.HoldCurrent) > 0 {
+		for _, name := range opts.HoldCurrent {
+			if err := reduce.CheckHold(book, name); err != nil {
+				return badInput("--hold: %v", err)
+			}
+		}
+		reg, err := openRegister(opts.ctx, opts.f)
+		if err != nil {
+			return err
+		}
+		if held, err = reg.HeldHeights(opts.ctx, register.HeldHeightsParams{Book: book, Marks: opts.HoldCurrent,
+			AllowCondition: opts.AllowCondition, ConditionReason: opts.ConditionReason}); err != nil {
+			return err
+		}
+	}
+	r, err := reduceBook(book, opts.Hold, held, opts.Class, opts.CurvatureRefraction)
 	if err != nil {
 		return err
 	}
+	hj := checkHeldJSON(r, opts.Hold, held)
 	switch opts.Format {
 	case FormatJSON:
-		err = writeJSON(opts.IO.Out, struct {
-			*reduce.Result
-			Passed bool `json:"passed"`
-		}{r, r.Passed()})
+		err = writeJSON(opts.IO.Out, runCheckJSON{r, r.Passed(), hj})
 	case FormatCSV:
 		t := notesTable(r)
 		for i, h := range t.Headers {
@@ -184,7 +262,12 @@ func runCheckRun(opts *runCheckOptions) error {
 		}
 		err = writeTable(opts.IO, FormatCSV, t)
 	default:
-		err = writeReport(opts.IO.Out, r)
+		for _, h := range held {
+			if h.InDoubt {
+				warnLoudly(opts.IO, register.Warning(store.Mark{Designation: h.Designation, Latest: h.Condition}))
+			}
+		}
+		err = writeReport(opts.IO.Out, r, heldNotes(hj))
 	}
 	if err != nil {
 		return err
@@ -302,9 +385,47 @@ func misclosureTable(r *reduce.Result) Table {
 	return t
 }
 
+// spotTable lists the spot heights.
+func spotTable(r *reduce.Result) Table {
+	n := numbersFor(r)
+	t := Table{Headers: []string{"LINE", "POINT", "SETUP", "HEIGHT (" + string(r.Unit) + ")", "NOTE"}}
+	for _, s := range r.SpotHeights {
+		t.AddRow(strconv.Itoa(s.Line), s.Point, strconv.Itoa(s.Setup), n.h(s.HeightM), s.Note)
+	}
+	return t
+}
+
+// heldSightsTable lists the intermediate sights on held marks with their
+// comparison.
+func heldSightsTable(r *reduce.Result) Table {
+	n := numbersFor(r)
+	u := string(r.Unit)
+	t := Table{Headers: []string{"LINE", "MARK", "HEIGHT (" + u + ")", "HELD (" + u + ")", "DIFFERENCE (" + u + ")", "LENGTH (" + u + ")", "ALLOWABLE (" + u + ")", "RESULT"}}
+	for _, h := range r.HeldSights {
+		length, allow, result := "-", "-", "not judged (no class)"
+		if h.HasLength {
+			length = n.d(h.LengthM)
+		} else {
+			result = "not judged (no length)"
+		}
+		if h.HasAllowable {
+			allow, result = n.h(h.AllowableM), "FAIL"
+			if h.Pass {
+				result = "pass"
+			}
+		}
+		t.AddRow(strconv.Itoa(h.Line), h.Point, n.h(h.HeightM), n.h(h.HeldM), n.signed(h.DifferenceM), length, allow, result)
+	}
+	return t
+}
+
 func checksTable(r *reduce.Result) Table {
 	t := Table{Headers: []string{"CHECK", "CHECKED", "FAILED", "TOLERANCE", "SOURCE"}}
 	for _, c := range r.Checks {
+		if c.NotApplicable {
+			t.AddRow(string(c.Kind), "-", "-", "not applicable: "+c.NotMade, c.Source)
+			continue
+		}
 		if c.NotMade != "" {
 			t.AddRow(string(c.Kind), "-", "-", "not made: "+c.NotMade, c.Source)
 			continue
@@ -323,9 +444,11 @@ func failuresTable(r *reduce.Result) Table {
 }
 
 // writeReport writes the reduction for reading: a heading, the reduced
-// notes, sections, misclosures, checks and failures, each aligned under its
-// headers, and the caution.
-func writeReport(w io.Writer, r *reduce.Result) error {
+// notes, spot heights, sections, misclosures, intermediate sights on held
+// marks, checks and failures, each aligned under its headers, the summary
+// of the checks and the caution. heldFrom says where held heights came
+// from, by mark (none for typed heights).
+func writeReport(w io.Writer, r *reduce.Result, heldFrom map[string]string) error {
 	m := r.Meta
 	n := numbersFor(r)
 	fmt.Fprintf(w, "Level book %s", r.Name)
@@ -366,7 +489,11 @@ func writeReport(w io.Writer, r *reduce.Result) error {
 		for _, row := range r.Rows {
 			if v, ok := r.Held[row.Point]; ok && !seen[row.Point] {
 				seen[row.Point] = true
-				held = append(held, fmt.Sprintf("%s = %s", row.Point, n.h(v)))
+				h := fmt.Sprintf("%s = %s", row.Point, n.h(v))
+				if from := heldFrom[row.Point]; from != "" {
+					h += " (" + from + ")"
+				}
+				held = append(held, h)
 			}
 		}
 		fmt.Fprintf(w, "Held (%s): %s\n", r.Unit, strings.Join(held, ", "))
@@ -382,6 +509,18 @@ func writeReport(w io.Writer, r *reduce.Result) error {
 	}
 	if len(r.Misclosures) == 0 {
 		parts[2].title = "Misclosure: none (the run does not close)"
+	}
+	if len(r.SpotHeights) > 0 {
+		parts = slices.Insert(parts, 1, struct {
+			title string
+			t     Table
+		}{"Spot heights (not marks)", spotTable(r)})
+	}
+	if len(r.HeldSights) > 0 {
+		parts = slices.Insert(parts, len(parts)-1, struct {
+			title string
+			t     Table
+		}{"Intermediate sights on held marks", heldSightsTable(r)})
 	}
 	if len(r.Failures) > 0 {
 		parts = append(parts, struct {
@@ -408,11 +547,7 @@ func writeReport(w io.Writer, r *reduce.Result) error {
 		}
 	}
 	fmt.Fprintln(w)
-	if r.Passed() {
-		fmt.Fprintln(w, "All checks passed.")
-	} else {
-		fmt.Fprintf(w, "%d check(s) failed.\n", len(r.Failures))
-	}
+	fmt.Fprintln(w, r.Summary)
 	_, err := fmt.Fprintln(w, "Caution: review by a licensed surveyor is needed before these heights are used; check into two marks, verify each mark's condition, and follow local codes and regulations.")
 	return err
 }

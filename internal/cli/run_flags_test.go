@@ -1,6 +1,7 @@
 package cli
 
 import (
+	"slices"
 	"testing"
 
 	"cairn/internal/standards"
@@ -36,6 +37,16 @@ func TestRunRecordListShowFlags(t *testing.T) {
 		!rec.NewMarks || !rec.AcceptFailedChecks || rec.Reason != "sights long by design" {
 		t.Errorf("record options %+v", rec)
 	}
+	// --hold MARK (no height) holds the mark at its register height, and
+	// so does --held-height MARK.
+	if err := exec("record", "b.csv", "--hold", "TC-0420", "--held-height", "TC-0427", "--held-height", "TC-0423=1.5",
+		"--allow-condition", "--condition-reason", " post reset, checked by tape "); err != nil {
+		t.Fatal(err)
+	}
+	if !slices.Equal(rec.HoldCurrent, []string{"TC-0427", "TC-0420"}) || len(rec.Hold) != 1 || rec.Hold["TC-0423"] != 1.5 ||
+		!rec.AllowCondition || rec.ConditionReason != "post reset, checked by tape" {
+		t.Errorf("record options %+v", rec)
+	}
 	if err := exec("list", "--mark", "TC-0412", "--since", "2024-05-01", "-o", "csv"); err != nil {
 		t.Fatal(err)
 	}
@@ -57,7 +68,10 @@ func TestRunRecordListShowFlags(t *testing.T) {
 		{[]string{"record", "b.csv", "--reason", "x"}, "--reason goes with --accept-failed-checks"},
 		{[]string{"record", "b.csv", "--by", " "}, "--by: say who records the run"},
 		{[]string{"record", "b.csv", "-o", "csv"}, "--output: run record prints a report or json, not csv"},
-		{[]string{"record", "b.csv", "--hold", "TC-0420"}, `--hold "TC-0420": want MARK=HEIGHT`},
+		{[]string{"record", "b.csv", "--hold", "TC-0420="}, `--hold "TC-0420=": want MARK=HEIGHT, or MARK for its height in the register`},
+		{[]string{"record", "b.csv", "--allow-condition"}, "--allow-condition needs --condition-reason saying why marks in doubt may be held"},
+		{[]string{"record", "b.csv", "--condition-reason", "x", "--hold", "TC-0420"}, "--condition-reason goes with --allow-condition"},
+		{[]string{"record", "b.csv", "--allow-condition", "--condition-reason", "x", "--held-height", "TC-0420=1"}, "--allow-condition goes with --hold MARK: only marks held at their register height have their condition checked"},
 		{[]string{"record"}, "record wants one level book (got 0 argument(s))"},
 		{[]string{"list", "--since", "May 2024"}, `--since "May 2024": want a date, YYYY-MM-DD`},
 		{[]string{"show", "twelve"}, `"twelve" is not a run number (see cairn run list)`},

@@ -20,9 +20,10 @@ type runRecordOptions struct {
 
 	BookPath string
 	// RecordParams are what the flags give the register: held heights
-	// (--held-height) in the book's unit by mark, class, corrections, who,
-	// new marks, acceptance and its reason. Path and Book are filled when
-	// the book is read.
+	// (--held-height) in the book's unit by mark, marks held at their
+	// register height (--hold MARK) and the allowance of their condition,
+	// class, corrections, who, new marks, acceptance and its reason. Path
+	// and Book are filled when the book is read.
 	register.RecordParams
 	Format Format
 }
@@ -47,30 +48,41 @@ The book is refused, and nothing is written, when:
   - the same file is already recorded (the run holding it is named);
   - it names marks the register lacks (all are listed): add them with
     cairn mark add, or give --new-marks to create them, unverified and
-    without heights;
+    without heights (spot heights, declared in the book, are never marks);
+  - a mark held with --hold MARK has no current height on the book's datum,
+    or its latest condition report says disturbed, destroyed or not found:
+    give --allow-condition with --condition-reason to hold it anyway; the
+    reason is kept with the run;
   - a check fails: give --accept-failed-checks with --reason to record it
     anyway; the reason is kept with the run.
+
+Held heights are as for cairn run check: --hold MARK takes the mark's current
+height in the register (the run keeps the version held), --held-height
+MARK=HEIGHT a height you give in the book's unit (kept too).
 
 Prints the run's number and the same report as cairn run check, and warns
 about any mark last reported disturbed, destroyed or not found.
 
-Exit status: 0 when recorded, 2 when refused.
+Exit status: 0 when recorded, 2 when refused, 4 when a held height or a
+held mark's condition changed while the run was being recorded.
 
 A recorded run is field evidence, not a published height: results need
 review by a licensed surveyor, check into two marks, verify each mark's
 condition before use, and follow the codes and regulations that govern your
 work.`,
 		Example: `  cairn run record north-loop.csv --by "R. Okafor"
+  cairn run record levee-line.csv --hold TC-0420 --hold TC-0427
   cairn run record levee-line.csv --held-height TC-0420=3.512 --held-height TC-0427=5.104 --new-marks
   cairn run record old-line.csv --accept-failed-checks --reason "rerun impossible: marks destroyed in 2024"`,
 		Args: exactArgs(1, "one level book"),
 		RunE: func(cmd *cobra.Command, args []string) error {
 			opts.ctx, opts.BookPath = cmd.Context(), args[0]
 			var err error
-			if opts.Hold, opts.Class, err = rf.parse(cmd, f.IO); err != nil {
+			if opts.Hold, opts.HoldCurrent, opts.Class, err = rf.parse(cmd, f.IO); err != nil {
 				return err
 			}
 			opts.CurvatureRefraction = rf.curvatureRefraction
+			opts.AllowCondition, opts.ConditionReason = rf.allowCondition, strings.TrimSpace(rf.conditionReason)
 			opts.Reason = strings.TrimSpace(opts.Reason)
 			if opts.AcceptFailedChecks && opts.Reason == "" {
 				return badInput("--accept-failed-checks needs --reason saying why the run is recorded anyway")
@@ -101,6 +113,7 @@ work.`,
 type recordedJSON struct {
 	Run          runJSON        `json:"run"`
 	CreatedMarks []string       `json:"created_marks"`
+	Held         []runHeldJSON  `json:"held"`
 	Cautions     []string       `json:"cautions"`
 	Reduction    *reduce.Result `json:"reduction"`
 }
@@ -132,7 +145,8 @@ func runRecordRun(opts *runRecordOptions) error {
 		warnLoudly(ios, c)
 	}
 	if opts.Format == FormatJSON {
-		return writeJSON(ios.Out, recordedJSON{Run: toRunJSON(rec.Run), CreatedMarks: created, Cautions: nonNil(rec.Cautions), Reduction: rec.Result})
+		return writeJSON(ios.Out, recordedJSON{Run: toRunJSON(rec.Run), CreatedMarks: created, Cautions: nonNil(rec.Cautions), Reduction: rec.Result,
+			Held: toHeldJSON(rec.Run.Unit, rec.Held)})
 	}
 	w := ios.Out
 	run := rec.Run
@@ -147,7 +161,7 @@ func runRecordRun(opts *runRecordOptions) error {
 		fmt.Fprintln(w, c)
 	}
 	fmt.Fprintln(w)
-	return writeReport(w, rec.Result)
+	return writeReport(w, rec.Result, heldNotes(toHeldJSON(rec.Run.Unit, rec.Held)))
 }
 
 func nonNil(s []string) []string {

@@ -7,6 +7,8 @@ import (
 	"encoding/json"
 	"fmt"
 	"io"
+	"maps"
+	"slices"
 	"strconv"
 	"strings"
 	"text/tabwriter"
@@ -15,6 +17,7 @@ import (
 	"github.com/spf13/cobra"
 
 	"cairn/internal/reduce"
+	"cairn/internal/register"
 	"cairn/internal/store"
 	"cairn/internal/units"
 )
@@ -151,9 +154,11 @@ func runShowRun(opts *runShowOptions) error {
 			runJSON
 			Sections []sectionJSON   `json:"sections"`
 			Marks    []runMarkJSON   `json:"marks"`
+			Held     []runHeldJSON   `json:"held"`
 			Checks   json.RawMessage `json:"checks"`
 			Cautions []string        `json:"cautions"`
-		}{runJSON: toRunJSON(v.Run), Sections: []sectionJSON{}, Marks: []runMarkJSON{}, Checks: v.Run.Checks, Cautions: nonNil(v.Cautions)}
+		}{runJSON: toRunJSON(v.Run), Sections: []sectionJSON{}, Marks: []runMarkJSON{}, Held: toHeldJSON(v.Run.Unit, v.Held),
+			Checks: v.Run.Checks, Cautions: nonNil(v.Cautions)}
 		for _, s := range v.Sections {
 			j.Sections = append(j.Sections, sectionJSON{s.Seq, s.From, s.To, s.FirstLine, s.LastLine, s.Setups, s.DifferenceM, s.LengthM})
 		}
@@ -170,12 +175,12 @@ func runShowRun(opts *runShowOptions) error {
 	for _, c := range v.Cautions {
 		warnLoudly(ios, c)
 	}
-	return writeRunReport(ios.Out, v.Run, v.Summary.Misclosures, v.Summary.Checks, v.Summary.Failures, v.Sections, v.Marks)
+	return writeRunReport(ios.Out, v.Run, v.Summary, v.Sections, v.Marks, v.Held)
 }
 
 // writeRunReport writes a recorded run for reading.
-func writeRunReport(w io.Writer, run store.Run, mis []reduce.Misclosure, checks []reduce.Check, failures []reduce.Failure,
-	sections []store.Section, marks []store.RunMark) error {
+func writeRunReport(w io.Writer, run store.Run, sum register.CheckSummary, sections []store.Section, marks []store.RunMark, held []store.RunHeld) error {
+	mis, checks, failures := sum.Misclosures, sum.Checks, sum.Failures
 	u := units.Unit(run.Unit)
 	n := numbers{u, reduce.Decimals(u)}
 	j := toRunJSON(run)
@@ -192,6 +197,8 @@ func writeRunReport(w io.Writer, run store.Run, mis []reduce.Misclosure, checks 
 	}
 	if run.ChecksFailed > 0 {
 		head.AddRow("checks", fmt.Sprintf("%d failed, accepted: %s", run.ChecksFailed, run.AcceptedReason))
+	} else if sum.Summary != "" && sum.Summary != "All checks passed." {
+		head.AddRow("checks", strings.TrimSuffix(sum.Summary, "."))
 	} else {
 		head.AddRow("checks", "all passed")
 	}
@@ -223,11 +230,23 @@ func writeRunReport(w io.Writer, run store.Run, mis []reduce.Misclosure, checks 
 	}{
 		{"", head},
 		{"Sections", secs},
+		{"Held heights", heldTable(run.Unit, toHeldJSON(run.Unit, held))},
 		{"Misclosure", misclosureTable(res)},
 		{"Checks when recorded", checksTable(res)},
 	}
+	if len(held) == 0 && len(sum.HeldM) > 0 {
+		// Recorded before the held heights were kept on their own: the
+		// check summary has them, in metres.
+		for _, name := range slices.Sorted(maps.Keys(sum.HeldM)) {
+			held = append(held, store.RunHeld{Designation: name, Value: strconv.FormatFloat(u.FromMetres(sum.HeldM[name]), 'f', -1, 64)})
+		}
+		parts[2].t = heldTable(run.Unit, toHeldJSON(run.Unit, held))
+	}
+	if len(held) == 0 {
+		parts[2].title = "Held heights: none (heights relative to the first mark)"
+	}
 	if len(mis) == 0 {
-		parts[2].title = "Misclosure: none (the run does not close)"
+		parts[3].title = "Misclosure: none (the run does not close)"
 	}
 	if len(failures) > 0 {
 		parts = append(parts, struct {

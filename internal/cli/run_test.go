@@ -3,6 +3,7 @@ package cli
 import (
 	"context"
 	"encoding/json"
+	"slices"
 	"strings"
 	"testing"
 
@@ -29,7 +30,9 @@ func TestRunCheckFlags(t *testing.T) {
 		{args: []string{"b.csv"}, want: runCheckOptions{BookPath: "b.csv", Format: FormatTable}},
 		{args: []string{"b.csv", "--hold", "TC-0420=3.512", "--hold", " TC-0427 = 5.104 ", "--class", "SECOND-ii", "--curvature-refraction", "-o", "json"},
 			want: runCheckOptions{BookPath: "b.csv", Hold: map[string]float64{"TC-0420": 3.512, "TC-0427": 5.104}, Class: standards.SecondII, CurvatureRefraction: true, Format: FormatJSON}},
-		{args: []string{"b.csv", "--hold", "TC-0420"}, error: `--hold "TC-0420": want MARK=HEIGHT`},
+		{args: []string{"b.csv", "--hold", "TC-0420"}, want: runCheckOptions{BookPath: "b.csv", HoldCurrent: []string{"TC-0420"}, Format: FormatTable}},
+		{args: []string{"b.csv", "--hold", "TC-0420="}, error: `--hold "TC-0420=": want MARK=HEIGHT, or MARK for its height in the register`},
+		{args: []string{"b.csv", "--hold", "A", "--held-height", "A=2"}, error: `--hold "A": A is held twice`},
 		{args: []string{"b.csv", "--hold", "TC-0420=3.5x"}, error: `--hold "TC-0420=3.5x": height "3.5x" is not a number`},
 		{args: []string{"b.csv", "--hold", "A=1", "--hold", "A=2"}, error: `--hold "A=2": A is held twice`},
 		{args: []string{"b.csv", "--class", "fourth"}, error: `--class: unknown accuracy class "fourth" (want first-I, first-II, second-I, second-II, third)`},
@@ -53,7 +56,8 @@ func TestRunCheckFlags(t *testing.T) {
 			t.Fatalf("%v: %v", tt.args, err)
 		}
 		w := tt.want
-		if got.BookPath != w.BookPath || got.Class != w.Class || got.CurvatureRefraction != w.CurvatureRefraction || got.Format != w.Format || len(got.Hold) != len(w.Hold) {
+		if got.BookPath != w.BookPath || got.Class != w.Class || got.CurvatureRefraction != w.CurvatureRefraction || got.Format != w.Format || len(got.Hold) != len(w.Hold) ||
+			!slices.Equal(got.HoldCurrent, w.HoldCurrent) {
 			t.Errorf("%v: options %+v, want %+v", tt.args, got, w)
 		}
 		for k, v := range w.Hold {

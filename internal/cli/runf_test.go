@@ -175,14 +175,14 @@ func TestHeldHeightFlag(t *testing.T) {
 		}
 		hold, notice, err = parse("--hold", "TC-0420=3.512", "--held-height", "TC-0427=5.104")
 		if err != nil || len(hold) != 2 || hold["TC-0420"] != 3.512 || hold["TC-0427"] != 5.104 ||
-			notice != name+": --hold is deprecated here and will be removed: use --held-height MARK=HEIGHT\n" {
+			notice != name+": --hold MARK=HEIGHT is deprecated here and will be removed: use --held-height MARK=HEIGHT (--hold MARK, without a height, holds the mark at its height in the register)\n" {
 			t.Errorf("run %s --hold: %v, %v, notice %q", name, hold, err, notice)
 		}
 		for _, c := range []struct {
 			args []string
 			want string
 		}{
-			{[]string{"--held-height", "TC-0420"}, `--held-height "TC-0420": want MARK=HEIGHT`},
+			{[]string{"--held-height", "TC-0420="}, `--held-height "TC-0420=": want MARK=HEIGHT, or MARK for its height in the register`},
 			{[]string{"--held-height", "TC-0420=3.5x"}, `--held-height "TC-0420=3.5x": height "3.5x" is not a number`},
 			{[]string{"--held-height", "A=1", "--held-height", "A=2"}, `--held-height "A=2": A is held twice`},
 			{[]string{"--held-height", "A=1", "--hold", "A=2"}, `--hold "A=2": A is held twice`},
@@ -200,7 +200,7 @@ func TestHeldHeightFlag(t *testing.T) {
 		t.Fatalf("--held-height: exit %d, stderr %q", code, errNew)
 	}
 	viaOld, errOld, code := execRun(t, append(args, "--hold", "OBM1=29.23", "--hold", "OBM2=29.66")...)
-	if code != ExitOK || errOld != "cairn run check: --hold is deprecated here and will be removed: use --held-height MARK=HEIGHT\n" {
+	if code != ExitOK || errOld != "cairn run check: --hold MARK=HEIGHT is deprecated here and will be removed: use --held-height MARK=HEIGHT (--hold MARK, without a height, holds the mark at its height in the register)\n" {
 		t.Fatalf("--hold: exit %d, stderr %q", code, errOld)
 	}
 	if viaNew != viaOld || !strings.Contains(viaNew, `"OBM2"`) {

@@ -6,7 +6,9 @@
 // number, the order of the wires, the stadia distance against a measured
 // one, and the shape of the run (a setup is one backsight, any number of
 // intermediate sights and one foresight; each backsight is taken on the
-// point of the foresight before it; the run starts and ends on a mark). A
+// point of the foresight before it; the run starts and ends on a mark; a
+// spot height, declared by the `kind` column, takes intermediate sights
+// only). A
 // book that parses is a valid sequence of setups; reducing it is the work of
 // package reduce. Readings and distances stay in the book's unit.
 package levelbook
@@ -112,6 +114,10 @@ type Sighting struct {
 	// TurningPoint says whether Point matches the turning-point pattern;
 	// every other point is a mark.
 	TurningPoint bool `json:"turning_point"`
+	// Spot says the row's `kind` cell declares Point a spot height: not a
+	// mark, not a turning point, sighted by intermediate sights only, given
+	// a height and never looked up in the register.
+	Spot bool `json:"spot"`
 	// Upper, Middle and Lower are the wire readings. Upper and Lower are
 	// meaningful only when ThreeWire is set.
 	Upper     float64 `json:"upper"`

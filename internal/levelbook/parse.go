@@ -22,7 +22,12 @@ import (
 
 // Columns are the column names the header row may use, in the order the
 // format describes them.
-var Columns = []string{"point", "sight", "upper", "middle", "lower", "distance", "note"}
+var Columns = []string{"point", "kind", "sight", "upper", "middle", "lower", "distance", "note"}
+
+// KindSpot is the value of the `kind` cell that declares a spot height: a
+// point that is neither a mark nor a turning point (a floor level, an
+// invert, a ground shot), sighted by intermediate sights only.
+const KindSpot = "spot"
 
 // required columns.
 var requiredColumns = []string{"point", "sight", "middle"}
@@ -410,6 +415,16 @@ func (p *parser) parseRow(line int, rec []string, cols map[string]int) (Sighting
 		return s, p.errorf(line, "point", "no point name")
 	}
 	s.TurningPoint = matchAny(p.tp, s.Point)
+	switch kind := strings.ToLower(cell("kind")); kind {
+	case "":
+	case KindSpot:
+		if s.TurningPoint {
+			return s, p.errorf(line, "kind", "%q is declared a spot height but its name matches the turning-point pattern %q: rename the point or leave the kind empty", s.Point, p.book.Meta.TurningPoints)
+		}
+		s.Spot = true
+	default:
+		return s, p.errorf(line, "kind", "unknown kind %q (want %s for a spot height, or leave it empty)", cell("kind"), KindSpot)
+	}
 	switch sight := Sight(strings.ToUpper(cell("sight"))); sight {
 	case Backsight, Intermediate, Foresight:
 		s.Sight = sight
@@ -417,6 +432,9 @@ func (p *parser) parseRow(line int, rec []string, cols map[string]int) (Sighting
 		return s, p.errorf(line, "sight", "no sight kind (want BS, IS or FS)")
 	default:
 		return s, p.errorf(line, "sight", "unknown sight %q (want BS, IS or FS)", cell("sight"))
+	}
+	if s.Spot && s.Sight != Intermediate {
+		return s, p.errorf(line, "sight", "%s on spot height %q: a spot height takes intermediate sights only (the line is carried on marks and turning points)", s.Sight, s.Point)
 	}
 	s.Note = cell("note")
 
@@ -521,7 +539,21 @@ func (p *parser) checkShape() error {
 	}
 	open := -1   // index of the backsight of the open setup
 	lastFS := -1 // index of the last foresight
+	// A point is a spot height on every row that sights it, or on none.
+	type firstRow struct {
+		line int
+		spot bool
+	}
+	firstOf := map[string]firstRow{}
 	for i, s := range ss {
+		if f, seen := firstOf[s.Point]; !seen {
+			firstOf[s.Point] = firstRow{s.Line, s.Spot}
+		} else if s.Spot != f.spot {
+			if s.Spot {
+				return p.errorf(s.Line, "kind", "%q is declared a spot height here but not on line %d (declare it %s on every row that sights it, or on none)", s.Point, f.line, KindSpot)
+			}
+			return p.errorf(s.Line, "kind", "%q is declared a spot height on line %d but not here (declare it %s on every row that sights it, or on none)", s.Point, f.line, KindSpot)
+		}
 		switch s.Sight {
 		case Backsight:
 			if open >= 0 {

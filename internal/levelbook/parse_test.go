@@ -184,3 +184,60 @@ func TestDemoBooksParse(t *testing.T) {
 		}
 	}
 }
+
+// A spot height is declared by the kind column, in any case: a point that
+// is neither a mark nor a turning point. Books without the column read as
+// before.
+func TestSpotHeights(t *testing.T) {
+	data, err := os.ReadFile(filepath.Join(books, "orrin-bay-spot-heights.csv"))
+	if err != nil {
+		t.Fatal(err)
+	}
+	b, err := Parse("spot.csv", data)
+	if err != nil {
+		t.Fatal(err)
+	}
+	var spots []string
+	for _, s := range b.Sightings {
+		if s.Spot {
+			spots = append(spots, s.Point)
+			if s.TurningPoint || s.Sight != Intermediate {
+				t.Errorf("spot %s: %+v", s.Point, s)
+			}
+		}
+	}
+	if strings.Join(spots, ",") != "FL-1,INV-3" {
+		t.Errorf("spot heights %v, want FL-1 and INV-3", spots)
+	}
+	old, err := os.ReadFile(filepath.Join(books, "usm-ukur-aras.csv"))
+	if err != nil {
+		t.Fatal(err)
+	}
+	ob, err := Parse("old.csv", old)
+	if err != nil {
+		t.Fatal(err)
+	}
+	for _, s := range ob.Sightings {
+		if s.Spot {
+			t.Errorf("a book without the kind column has spot %s", s.Point)
+		}
+	}
+
+	const h = "# units: m\npoint,kind,sight,middle\n"
+	for _, tt := range []struct{ name, book, want string }{
+		{"spot on a backsight", h + "A,,BS,1.0\nFL1,spot,FS,1.2\n",
+			`b.csv:4: field "sight": FS on spot height "FL1": a spot height takes intermediate sights only (the line is carried on marks and turning points)`},
+		{"unknown kind", h + "A,,BS,1.0\nFL1,floor,IS,1.2\nB,,FS,1.1\n",
+			`b.csv:4: field "kind": unknown kind "floor" (want spot for a spot height, or leave it empty)`},
+		{"spot named like a turning point", h + "A,,BS,1.0\nTP9,spot,IS,1.2\nB,,FS,1.1\n",
+			`b.csv:4: field "kind": "TP9" is declared a spot height but its name matches the turning-point pattern "TP*": rename the point or leave the kind empty`},
+		{"spot, then a mark", h + "A,,BS,1.0\nFL1,spot,IS,1.2\nFL1,,IS,1.3\nB,,FS,1.1\n",
+			`b.csv:5: field "kind": "FL1" is declared a spot height on line 4 but not here (declare it spot on every row that sights it, or on none)`},
+		{"a mark, then a spot", h + "A,,BS,1.0\nB,,IS,1.2\nB,spot,IS,1.3\nB,,FS,1.1\n",
+			`b.csv:5: field "kind": "B" is declared a spot height here but not on line 4 (declare it spot on every row that sights it, or on none)`},
+	} {
+		if _, err := Parse("b.csv", []byte(tt.book)); err == nil || err.Error() != tt.want {
+			t.Errorf("%s: error\n got %v\nwant %s", tt.name, err, tt.want)
+		}
+	}
+}

@@ -85,6 +85,7 @@ func Reduce(book *levelbook.Book, opts Options) (*Result, error) {
 	r.buildSections()
 	r.anchor()
 	r.buildMisclosures()
+	r.spotHeights()
 	r.check()
 	return r, nil
 }
@@ -94,27 +95,39 @@ func (r *Result) setHeld(book *levelbook.Book, hold map[string]float64) error {
 	if len(hold) == 0 {
 		return nil
 	}
-	onLine := map[string]bool{}
-	for _, s := range book.Sightings {
-		if s.Sight != levelbook.Intermediate && !s.TurningPoint {
-			onLine[s.Point] = true
-		}
-	}
 	r.Held = map[string]float64{}
 	for _, name := range slices.Sorted(maps.Keys(hold)) {
 		h := hold[name]
 		if math.IsNaN(h) || math.IsInf(h, 0) {
 			return fmt.Errorf("held height of %s is not a number", name)
 		}
-		if book.IsTurningPoint(name) {
-			return fmt.Errorf("cannot hold %s: it is a turning point", name)
-		}
-		if !onLine[name] {
-			return fmt.Errorf("cannot hold %s: no backsight or foresight on it in %s", name, book.Name)
+		if err := CheckHold(book, name); err != nil {
+			return err
 		}
 		r.Held[name] = h
 	}
 	return nil
+}
+
+// CheckHold says whether the point name may be held in book: it must be a
+// mark with a backsight or foresight on it, not a turning point nor a spot
+// height. Callers that look the held height up elsewhere check it first,
+// so that a point that cannot be held is refused for what it is.
+func CheckHold(book *levelbook.Book, name string) error {
+	if book.IsTurningPoint(name) {
+		return fmt.Errorf("cannot hold %s: it is a turning point", name)
+	}
+	for _, s := range book.Sightings {
+		if s.Point == name && s.Spot {
+			return fmt.Errorf("cannot hold %s: it is a spot height (line %d), not a mark", name, s.Line)
+		}
+	}
+	for _, s := range book.Sightings {
+		if s.Point == name && s.Sight != levelbook.Intermediate {
+			return nil
+		}
+	}
+	return fmt.Errorf("cannot hold %s: no backsight or foresight on it in %s", name, book.Name)
 }
 
 // reduceRows computes readings, heights of instrument and point heights
@@ -130,6 +143,7 @@ func (r *Result) reduceRows(book *levelbook.Book) error {
 			Point:        s.Point,
 			Sight:        s.Sight,
 			TurningPoint: s.TurningPoint,
+			Spot:         s.Spot,
 			ReadingM:     u.ToMetres(s.Reading(book.Meta.Reading)),
 			HasDistance:  s.HasDistance(),
 			Note:         s.Note,
@@ -227,9 +241,11 @@ func (r *Result) buildSections() {
 // start at 0.
 func (r *Result) anchor() {
 	shift, found := 0.0, false
-	for _, row := range r.Rows {
+	r.anchorRow = -1
+	for i, row := range r.Rows {
 		if hv, ok := r.Held[row.Point]; ok && row.Sight != levelbook.Intermediate {
 			shift, found = hv-row.HeightM, true
+			r.anchorRow = i
 			break
 		}
 	}
@@ -316,7 +332,7 @@ func (r *Result) check() {
 	f := func(m float64) string { return units.Format(u.FromMetres(m), dec) + " " + string(u) }
 	fd := func(m float64) string { return units.Format(u.FromMetres(m), DistanceDecimals) + " " + string(u) }
 	checks := map[CheckKind]*Check{}
-	order := []CheckKind{CheckThreeWire, CheckDistance, CheckSightLength, CheckSetupImbalance, CheckSectionImbalance, CheckMisclosure, CheckClosure}
+	order := []CheckKind{CheckThreeWire, CheckDistance, CheckSightLength, CheckSetupImbalance, CheckSectionImbalance, CheckMisclosure, CheckHeldSight, CheckClosure}
 	for _, k := range order {
 		checks[k] = &Check{Kind: k}
 	}
@@ -348,13 +364,13 @@ func (r *Result) check() {
 		}
 	}
 	if c.Checked == 0 {
-		c.NotMade = "no sighting has all three wires"
+		c.NotMade, c.Why, c.NotApplicable = "no sighting has all three wires", "no three-wire sightings", true
 	}
 
 	// Class checks: distances, sight length, imbalances.
 	for _, k := range []CheckKind{CheckDistance, CheckSightLength, CheckSetupImbalance, CheckSectionImbalance, CheckMisclosure} {
 		if t == nil {
-			checks[k].NotMade = noClass
+			checks[k].NotMade, checks[k].Why = noClass, "no class"
 		} else {
 			checks[k].Source = t.Source
 		}
@@ -412,9 +428,19 @@ func (r *Result) check() {
 			}
 		}
 		if checks[CheckMisclosure].Checked == 0 {
-			checks[CheckMisclosure].NotMade = "the run has no closure"
+			checks[CheckMisclosure].NotMade, checks[CheckMisclosure].Why = "the run has no closure", "no closure"
+		}
+		for k, why := range map[CheckKind]string{
+			CheckSightLength:      "no backsight or foresight has a length",
+			CheckSetupImbalance:   "no setup has both its sight lengths",
+			CheckSectionImbalance: "no section has every sight length",
+		} {
+			if checks[k].Checked == 0 {
+				checks[k].NotMade, checks[k].Why = why, "no distances"
+			}
 		}
 	}
+	r.checkHeldSights(checks[CheckHeldSight], fail, f, fd)
 
 	// Closure: the run must be checked by something.
 	c = checks[CheckClosure]
@@ -434,4 +460,58 @@ func (r *Result) check() {
 	for _, k := range order {
 		r.Checks = append(r.Checks, *checks[k])
 	}
+	r.summarize()
+}
+
+// summarize sets Summary and AllChecksMade from the checks:
+//
+//	All checks passed.
+//	2 checks made and passed; not made: sight lengths, misclosure (no class).
+//	2 check(s) failed. Not made: sight lengths (no distances).
+//
+// A check not made for want of something (a class, sight lengths, a
+// closure) is named with the reason; one that does not apply to the book
+// (NotApplicable) is not.
+func (r *Result) summarize() {
+	made := 0
+	var reasons []string
+	byReason := map[string][]string{}
+	for _, c := range r.Checks {
+		switch {
+		case c.NotMade == "":
+			made++
+		case !c.NotApplicable:
+			why := c.Why
+			if why == "" {
+				why = c.NotMade
+			}
+			if _, seen := byReason[why]; !seen {
+				reasons = append(reasons, why)
+			}
+			byReason[why] = append(byReason[why], c.Kind.Words())
+		}
+	}
+	r.AllChecksMade = len(reasons) == 0
+	var notMade []string
+	for _, why := range reasons {
+		notMade = append(notMade, strings.Join(byReason[why], ", ")+" ("+why+")")
+	}
+	switch {
+	case !r.Passed():
+		r.Summary = fmt.Sprintf("%d check(s) failed.", len(r.Failures))
+		if len(notMade) > 0 {
+			r.Summary += " Not made: " + strings.Join(notMade, "; ") + "."
+		}
+	case len(notMade) == 0:
+		r.Summary = "All checks passed."
+	default:
+		r.Summary = fmt.Sprintf("%d %s made and passed; not made: %s.", made, plural(made, "check", "checks"), strings.Join(notMade, "; "))
+	}
+}
+
+func plural(n int, one, many string) string {
+	if n == 1 {
+		return one
+	}
+	return many
 }

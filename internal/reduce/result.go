@@ -74,12 +74,28 @@ type Result struct {
 	// Misclosures are the closures of the run: the loop on itself, and
 	// each stretch between consecutive held marks.
 	Misclosures []Misclosure `json:"misclosures"`
+	// SpotHeights are the reduced spot heights (points declared `spot` in
+	// the book), in field order.
+	SpotHeights []SpotHeight `json:"spot_heights"`
+	// HeldSights are the intermediate sights on held marks, in field
+	// order, each compared with the mark's held height.
+	HeldSights []HeldSight `json:"held_sights"`
 	// Checks summarise each kind of quality check; Failures list every
 	// failed check with its line.
 	Checks   []Check   `json:"checks"`
 	Failures []Failure `json:"failures"`
+	// Summary says in one sentence how the checks came out: which failed,
+	// or how many were made and passed, and which were not made and why
+	// (see Result.summarize). "All checks passed." only when every check
+	// that applies to the book was made and passed.
+	Summary string `json:"summary"`
+	// AllChecksMade reports that every check that applies to the book was
+	// made (a class, sight lengths and a closure were there to check).
+	AllChecksMade bool `json:"all_checks_made"`
 	// Book is the book reduced.
 	Book *levelbook.Book `json:"-"`
+
+	anchorRow int // index in Rows of the row the heights are computed from; -1 if none
 }
 
 // Passed reports whether every check passed.
@@ -96,6 +112,8 @@ type Row struct {
 	Point        string          `json:"point"`
 	Sight        levelbook.Sight `json:"sight"`
 	TurningPoint bool            `json:"turning_point"`
+	// Spot says the point is a spot height (levelbook.Sighting.Spot).
+	Spot bool `json:"spot"`
 	// ReadingM is the rod reading used, after any curvature-and-refraction
 	// correction; CorrectionM is the correction subtracted (0 without it).
 	ReadingM    float64 `json:"reading_m"`
@@ -226,6 +244,7 @@ const (
 	CheckSetupImbalance   CheckKind = "setup_imbalance"   // backsight and foresight lengths of a setup agree
 	CheckSectionImbalance CheckKind = "section_imbalance" // accumulated imbalance over a section
 	CheckMisclosure       CheckKind = "misclosure"        // each closure within the allowable
+	CheckHeldSight        CheckKind = "held_sight"        // each intermediate sight on a held mark agrees with its held height
 	CheckClosure          CheckKind = "closure"           // the run closes at all: a loop, or two held marks
 )
 
@@ -239,8 +258,38 @@ type Check struct {
 	// Checked and Failed count the items checked and those that failed.
 	Checked int `json:"checked"`
 	Failed  int `json:"failed"`
-	// NotMade says why the check was not made (empty when it was).
+	// NotMade says why the check was not made (empty when it was); Why
+	// says it in a few words for a summary ("no class").
 	NotMade string `json:"not_made,omitempty"`
+	Why     string `json:"why_not_made,omitempty"`
+	// NotApplicable is set on a check not made because the book has
+	// nothing it applies to (no three-wire sighting, no intermediate sight
+	// on a held mark): nothing is missing, and the run can still pass all
+	// its checks.
+	NotApplicable bool `json:"not_applicable,omitempty"`
+}
+
+// Words names the kind of check in the words of a summary.
+func (k CheckKind) Words() string {
+	switch k {
+	case CheckThreeWire:
+		return "three-wire"
+	case CheckDistance:
+		return "distances booked"
+	case CheckSightLength:
+		return "sight lengths"
+	case CheckSetupImbalance:
+		return "setup imbalance"
+	case CheckSectionImbalance:
+		return "section imbalance"
+	case CheckMisclosure:
+		return "misclosure"
+	case CheckHeldSight:
+		return "held-mark sights"
+	case CheckClosure:
+		return "closure"
+	}
+	return string(k)
 }
 
 // Failure is one failed check.

@@ -6,7 +6,10 @@ import (
 	"encoding/json"
 	"errors"
 	"fmt"
+	"maps"
 	"path/filepath"
+	"slices"
+	"strconv"
 	"strings"
 	"time"
 
@@ -30,6 +33,15 @@ type RecordParams struct {
 	Hold                map[string]float64
 	Class               standards.Class
 	CurvatureRefraction bool
+	// HoldCurrent names marks held at their current published height on
+	// the book's datum, in the book's unit (see HeldHeights); the run
+	// keeps the versions held. A mark is held once, here or in Hold.
+	// AllowCondition holds those whose latest condition report is
+	// disturbed, destroyed or not found; ConditionReason, required with
+	// it, says why and is kept with the run.
+	HoldCurrent     []string
+	AllowCondition  bool
+	ConditionReason string
 	// By says who records the run.
 	By string
 	// NewMarks creates the marks the register lacks, each with a first
@@ -57,6 +69,8 @@ type Recorded struct {
 	// Cautions name the touched marks whose latest condition report says
 	// they are disturbed, destroyed or not found.
 	Cautions []string
+	// Held are the marks the book was reduced from, by designation.
+	Held []store.RunHeld
 }
 
 // CheckSummary is what a run keeps of its reduction's checks, as they
@@ -73,13 +87,16 @@ type CheckSummary struct {
 	Misclosures         []reduce.Misclosure `json:"misclosures"`
 	Checks              []reduce.Check      `json:"checks"`
 	Failures            []reduce.Failure    `json:"failures"`
+	// Summary is the reduction's one-sentence summary of its checks
+	// (empty for runs recorded before it was kept).
+	Summary string `json:"summary,omitempty"`
 }
 
 func summaryOf(res *reduce.Result) CheckSummary {
 	return CheckSummary{
 		Class: res.Class, HeldM: res.Held, CurvatureRefraction: res.CurvatureRefraction,
 		Start: res.Start, End: res.End, Loop: res.Loop,
-		Misclosures: res.Misclosures, Checks: res.Checks, Failures: res.Failures,
+		Misclosures: res.Misclosures, Checks: res.Checks, Failures: res.Failures, Summary: res.Summary,
 	}
 }
 
@@ -177,11 +194,28 @@ func (r *Register) Record(ctx context.Context, p RecordParams) (*Recorded, error
 		return nil, err
 	}
 	opts := reduce.Options{Class: p.Class, CurvatureRefraction: p.CurvatureRefraction}
-	if len(p.Hold) > 0 {
-		opts.Hold = make(map[string]float64, len(p.Hold))
+	if len(p.Hold) > 0 || len(p.HoldCurrent) > 0 {
+		opts.Hold = make(map[string]float64, len(p.Hold)+len(p.HoldCurrent))
 		for k, v := range p.Hold {
 			opts.Hold[k] = book.Meta.Unit.ToMetres(v)
 		}
+	}
+	var held []HeldHeight
+	if len(p.HoldCurrent) > 0 {
+		for _, name := range p.HoldCurrent {
+			if _, typed := p.Hold[strings.TrimSpace(name)]; typed {
+				return nil, inputErr("hold", "%s is held twice", strings.TrimSpace(name))
+			}
+		}
+		if held, err = r.HeldHeights(ctx, HeldHeightsParams{Book: book, Marks: p.HoldCurrent,
+			AllowCondition: p.AllowCondition, ConditionReason: p.ConditionReason}); err != nil {
+			return nil, err
+		}
+		for _, h := range held {
+			opts.Hold[h.Designation] = h.ValueM
+		}
+	} else if p.AllowCondition || strings.TrimSpace(p.ConditionReason) != "" {
+		return nil, inputErr("allow-condition", "only marks held at their register height have their condition checked: there are none")
 	}
 	res, err := reduce.Reduce(book, opts)
 	if err != nil {
@@ -203,7 +237,7 @@ func (r *Register) Record(ctx context.Context, p RecordParams) (*Recorded, error
 	var names []string
 	firstLine := map[string]int{}
 	for _, s := range book.Sightings {
-		if _, seen := firstLine[s.Point]; !s.TurningPoint && !seen {
+		if _, seen := firstLine[s.Point]; !s.TurningPoint && !s.Spot && !seen {
 			firstLine[s.Point] = s.Line
 			names = append(names, s.Point)
 		}
@@ -220,6 +254,11 @@ func (r *Register) Record(ctx context.Context, p RecordParams) (*Recorded, error
 		}
 		byName, missing, err := findMarks(ctx, tx, p, names, firstLine)
 		if err != nil {
+			return err
+		}
+		// The heights held from the register are still current, and
+		// their marks' conditions are those that were judged.
+		if err := checkHeldCurrent(ctx, tx, held, byName); err != nil {
 			return err
 		}
 		id, err := store.RunInsert(ctx, tx, run)
@@ -258,6 +297,14 @@ func (r *Register) Record(ctx context.Context, p RecordParams) (*Recorded, error
 		}
 		if _, err := store.RunMarkCopy(ctx, tx, store.RunMarkCopyParams{RunID: id, Marks: marks}); err != nil {
 			return err
+		}
+		if rh := runHeldOf(p, held, ids); len(rh) > 0 {
+			if _, err := store.RunHeldCopy(ctx, tx, store.RunHeldCopyParams{RunID: id, Held: rh}); err != nil {
+				return err
+			}
+			if out.Held, err = store.RunHeldListByRun(ctx, tx, id); err != nil {
+				return err
+			}
 		}
 		if out.Run, err = store.RunGet(ctx, tx, id); err != nil {
 			return err
@@ -390,13 +437,30 @@ func createMarks(ctx context.Context, tx pgx.Tx, p RecordParams, book *levelbook
 	return marks, nil
 }
 
+// runHeldOf gives the rows of run_held: the typed heights as given and
+// the heights held from the register with their versions, by mark.
+func runHeldOf(p RecordParams, held []HeldHeight, ids map[string]int64) []store.RunHeld {
+	var out []store.RunHeld
+	for _, name := range slices.Sorted(maps.Keys(p.Hold)) {
+		out = append(out, store.RunHeld{MarkID: ids[name], Designation: name, Value: strconv.FormatFloat(p.Hold[name], 'f', -1, 64)})
+	}
+	for _, h := range held {
+		rh := store.RunHeld{MarkID: h.MarkID, Designation: h.Designation, HeightID: &h.Version.ID, Value: h.Value}
+		if h.InDoubt {
+			rh.ConditionReason = strings.TrimSpace(p.ConditionReason)
+		}
+		out = append(out, rh)
+	}
+	return out
+}
+
 // sightingsOf turns the book's rows into stored sightings.
 func sightingsOf(book *levelbook.Book) []store.Sighting {
 	out := make([]store.Sighting, len(book.Sightings))
 	for i := range book.Sightings {
 		s := &book.Sightings[i]
 		g := store.Sighting{
-			Seq: i + 1, Line: s.Line, Point: s.Point, Sight: string(s.Sight), TurningPoint: s.TurningPoint,
+			Seq: i + 1, Line: s.Line, Point: s.Point, Sight: string(s.Sight), TurningPoint: s.TurningPoint, Spot: s.Spot,
 			Middle: s.Middle, DistanceFrom: string(levelbook.DistanceNone), Note: s.Note,
 		}
 		if s.ThreeWire {
@@ -429,6 +493,8 @@ type RunView struct {
 	Sections []store.Section
 	Marks    []store.RunMark
 	Cautions []string
+	// Held are the marks the run was reduced from, by designation.
+	Held []store.RunHeld
 }
 
 // Run returns the run with identifier id, or an InputError if there is
@@ -446,7 +512,10 @@ func (r *Register) Run(ctx context.Context, id int64) (*RunView, error) {
 		if v.Sections, err = store.SectionList(ctx, tx, store.SectionListParams{RunIDs: []int64{id}}); err != nil {
 			return err
 		}
-		v.Marks, err = store.RunMarkListByRun(ctx, tx, id)
+		if v.Marks, err = store.RunMarkListByRun(ctx, tx, id); err != nil {
+			return err
+		}
+		v.Held, err = store.RunHeldListByRun(ctx, tx, id)
 		return err
 	})
 	if err != nil {

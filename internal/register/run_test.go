@@ -477,3 +477,34 @@ func TestRunConstraints(t *testing.T) {
 		t.Errorf("a consistent run: %v", err)
 	}
 }
+
+// The heights a run was reduced from are kept, the version held from the
+// register with them, and cannot be changed or removed.
+func TestRunHeldIsKeptAndAppendOnly(t *testing.T) {
+	t.Parallel()
+	b := runSetup(t, loopMarks...)
+	h := b.Height(t, registertest.HeightOpts{Designation: "TC-0412", Value: "10.250", Unit: "m"})
+	p := params("harbour.csv", []byte(loopBook))
+	p.HoldCurrent = []string{"TC-0412"}
+	p.Hold = map[string]float64{"TC-0415": 11.5}
+	p.AcceptFailedChecks, p.Reason = true, "the typed height is invented; only what is kept is tested"
+	rec, err := b.Reg.Record(b.Ctx, p)
+	if err != nil {
+		t.Fatal(err)
+	}
+	if len(rec.Held) != 2 || rec.Held[0].Designation != "TC-0412" || rec.Held[0].HeightID == nil || *rec.Held[0].HeightID != h.ID ||
+		rec.Held[0].Value != "10.250000000" || rec.Held[1].Designation != "TC-0415" || rec.Held[1].HeightID != nil || rec.Held[1].Value != "11.5" {
+		t.Errorf("held %+v", rec.Held)
+	}
+	v, err := b.Reg.Run(b.Ctx, rec.Run.ID)
+	if err != nil || len(v.Held) != 2 || *v.Held[0].Version != h.Version || *v.Held[0].DatumCode != "NAVD88" {
+		t.Fatalf("run view held %+v, %v", v, err)
+	}
+	before := b.Counts(t)
+	for _, q := range []string{"UPDATE run_held SET value_in_book_unit = 0", "DELETE FROM run_held", "TRUNCATE run_held"} {
+		if _, err := b.DB.Pool.Exec(b.Ctx, q); err == nil || !strings.Contains(err.Error(), "append-only") {
+			t.Errorf("%s: %v, want refused", q, err)
+		}
+	}
+	b.AssertNothingWritten(t, before)
+}

@@ -66,7 +66,9 @@ func TestRolesConcurrentMigrations(t *testing.T) {
 	}
 	for i, p := range pools {
 		var granted bool
-		if err := p.QueryRow(ctx, "SELECT has_table_privilege('cairn_publisher', 'height', 'INSERT') AND has_table_privilege('cairn_reader', 'height', 'SELECT') AND NOT has_table_privilege('cairn_recorder', 'height', 'INSERT')").Scan(&granted); err != nil {
+		if err := p.QueryRow(ctx, "SELECT has_table_privilege('cairn_publisher', 'height', 'INSERT') AND has_table_privilege('cairn_reader', 'height', 'SELECT') AND NOT has_table_privilege('cairn_recorder', 'height', 'INSERT')"+
+			" AND has_table_privilege('cairn_recorder', 'run_held', 'INSERT') AND has_table_privilege('cairn_reader', 'run_held', 'SELECT')"+
+			" AND NOT has_table_privilege('cairn_reader', 'run_held', 'INSERT') AND NOT has_table_privilege('cairn_publisher', 'run_held', 'UPDATE')").Scan(&granted); err != nil {
 			t.Fatal(err)
 		}
 		if !granted {

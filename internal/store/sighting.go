@@ -16,6 +16,9 @@ type Sighting struct {
 	Point        string
 	Sight        string
 	TurningPoint bool
+	// Spot says the point is a spot height, not a mark (schema v6; false
+	// for rows recorded before).
+	Spot bool
 	// Upper and Lower are the stadia wires (nil when not booked), Middle
 	// the middle wire, Distance the sight length (nil when the book gives
 	// none), all in the run's unit; DistanceFrom is none, stadia or
@@ -27,7 +30,7 @@ type Sighting struct {
 	Note         string
 }
 
-var sightingColumns = []string{"run_id", "seq", "line", "point", "sight", "turning_point", "upper", "middle", "lower", "distance", "distance_from", "note"}
+var sightingColumns = []string{"run_id", "seq", "line", "point", "sight", "turning_point", "spot", "upper", "middle", "lower", "distance", "distance_from", "note"}
 
 // SightingCopyParams are a run's sightings to store.
 type SightingCopyParams struct {
@@ -38,20 +41,20 @@ type SightingCopyParams struct {
 // SightingCopy stores sightings with COPY and returns how many.
 func SightingCopy(ctx context.Context, db Copier, p SightingCopyParams) (int64, error) {
 	return copyRows(ctx, db, "sighting", sightingColumns, p.Sightings, "sightings", func(s *Sighting) []any {
-		return []any{p.RunID, s.Seq, s.Line, s.Point, s.Sight, s.TurningPoint, s.Upper, s.Middle, s.Lower, s.Distance, s.DistanceFrom, s.Note}
+		return []any{p.RunID, s.Seq, s.Line, s.Point, s.Sight, s.TurningPoint, s.Spot, s.Upper, s.Middle, s.Lower, s.Distance, s.DistanceFrom, s.Note}
 	})
 }
 
 // SightingListByRun returns a run's sightings in field order.
 func SightingListByRun(ctx context.Context, db DBTX, runID int64) ([]Sighting, error) {
-	rows, err := db.Query(ctx, `SELECT seq, line, point, sight, turning_point, upper, middle, lower, distance, distance_from, note
+	rows, err := db.Query(ctx, `SELECT seq, line, point, sight, turning_point, spot, upper, middle, lower, distance, distance_from, note
 		FROM sighting WHERE run_id = $1 ORDER BY seq`, runID)
 	if err != nil {
 		return nil, translate(err)
 	}
 	return collect(rows, func(r pgx.Row) (Sighting, error) {
 		var s Sighting
-		err := r.Scan(&s.Seq, &s.Line, &s.Point, &s.Sight, &s.TurningPoint, &s.Upper, &s.Middle, &s.Lower, &s.Distance, &s.DistanceFrom, &s.Note)
+		err := r.Scan(&s.Seq, &s.Line, &s.Point, &s.Sight, &s.TurningPoint, &s.Spot, &s.Upper, &s.Middle, &s.Lower, &s.Distance, &s.DistanceFrom, &s.Note)
 		return s, translate(err)
 	})
 }
