@@ -314,7 +314,7 @@ func newCmdHeightList(f *Factory, runF func(*heightListOptions) error) *cobra.Co
 		Use:   "list [--datum CODE]",
 		Short: "List the current height of every benchmark",
 		Args:  exactArgs(0, "no arguments"),
-		RunE: runE(&opts.ctx, opts, runF, heightListRun),
+		RunE:  runE(&opts.ctx, opts, runF, heightListRun),
 	}
 	addOutputFlag(cmd, &opts.format)
 	cmd.Flags().StringVar(&opts.datum, "datum", "", "only this datum")
