@@ -227,7 +227,7 @@ func TestServerRestartMidWrite(t *testing.T) {
 		t.Fatal(err)
 	}
 	runs, books := seedWorked(t, db, 1)
-	book := writeBook(t, "copy-2.csv", append([]byte("# copy 2\n"), books[0]...))
+	book := writeBook(t, "copy-2.csv", registertest.SideShot(t, append([]byte("# copy 2\n"), books[0]...), "copy 2"))
 	draft := adjustForTest(t, url, fmt.Sprint(runs[0]))
 
 	cases := []struct {

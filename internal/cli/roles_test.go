@@ -105,7 +105,7 @@ func TestRolesPrivileges(t *testing.T) {
 	if err != nil {
 		t.Fatal(err)
 	}
-	if err := os.WriteFile(book, append([]byte("# copy 3\n"), orig...), 0o644); err != nil {
+	if err := os.WriteFile(book, registertest.SideShot(t, append([]byte("# copy 3\n"), orig...), "copy 3"), 0o644); err != nil {
 		t.Fatal(err)
 	}
 

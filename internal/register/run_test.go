@@ -443,7 +443,7 @@ func BenchmarkRecord20kSetups(b *testing.B) {
 	i := 0
 	for b.Loop() {
 		i++
-		p := register.RecordParams{Path: "loop-20k.csv", Book: append([]byte(fmt.Sprintf("# x-copy: %d\n", i)), book...), By: "bench"}
+		p := register.RecordParams{Path: "loop-20k.csv", Book: registertest.SideShot(b, append([]byte(fmt.Sprintf("# x-copy: %d\n", i)), book...), fmt.Sprint(i)), By: "bench"}
 		if _, err := reg.Record(ctx, p); err != nil {
 			b.Fatal(err)
 		}
