@@ -74,7 +74,7 @@ func runListRun(opts *runListOptions) error {
 			if j.ChecksFailed > 0 {
 				checks = fmt.Sprintf("%d failed, accepted", j.ChecksFailed)
 			}
-			voided := ""
+			voided := "no"
 			if j.Voided != nil {
 				voided = fmt.Sprintf("voided %s by %s: %s", timeText(j.Voided.VoidedAt), j.Voided.VoidedBy, j.Voided.Reason)
 			}

@@ -198,9 +198,17 @@ func TestRecordTwiceIsRefused(t *testing.T) {
 	}
 	b.AssertCounts(t, map[string]int64{"run": 1, "sighting": 8})
 	b.AssertNothingWritten(t, before)
-	// One byte more is another book.
-	if _, err := b.Reg.Record(b.Ctx, params("harbour.csv", []byte(loopBook+"\n"))); err != nil {
-		t.Errorf("a different file: %v", err)
+	// One byte more is another file but the same observations: refused
+	// too, naming the run (issue 11: a run is its observations).
+	_, err = b.Reg.Record(b.Ctx, params("harbour.csv", []byte(loopBook+"\n")))
+	var soe *register.SameObservationsError
+	if !errors.As(err, &soe) || soe.Run.ID != first.Run.ID {
+		t.Errorf("a different file of the same observations: %v", err)
+	}
+	b.AssertNothingWritten(t, before)
+	// One reading more is another book.
+	if _, err := b.Reg.Record(b.Ctx, params("harbour.csv", []byte(strings.Replace(loopBook, "TC-0417,FS,1.250,1.100,0.950", "TC-0417,FS,1.250,1.101,0.950", 1)))); err != nil {
+		t.Errorf("a different book: %v", err)
 	}
 }
 
