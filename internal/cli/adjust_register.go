@@ -455,6 +455,9 @@ func renderAdjustment(ios *IOStreams, format Format, v *register.AdjustmentView,
 	}
 	for _, r := range j.Runs {
 		say("  run %d %q: book %s, sha256 %s\n", r.RunID, r.Name, r.FileName, r.BookSHA256)
+		if v := r.Voided; v != nil {
+			say("    VOIDED since %s by %s: %s\n", timeText(v.VoidedAt), v.VoidedBy, v.Reason)
+		}
 	}
 	for _, h := range j.Held {
 		say("  held %s on %s, version %d: %s %s\n", h.Mark, h.Datum, h.Version, deref(h.Value), deref(h.Unit))

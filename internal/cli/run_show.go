@@ -200,7 +200,7 @@ func writeRunReport(w io.Writer, run store.Run, mis []reduce.Misclosure, checks 
 		head.AddRow(kv[0], kv[1])
 	}
 	if j.ObservationsSHA256 != "" {
-		head.AddRow("observations", j.ObservationsSHA256)
+		head.AddRow("observations sha256", j.ObservationsSHA256)
 	}
 	if run.Voided != nil {
 		head.AddRow("VOIDED", voidText(run.Voided)+" (left out of adjustments)")
