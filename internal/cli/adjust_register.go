@@ -298,11 +298,14 @@ type adjustmentJSON struct {
 	CreatedBy    string              `json:"created_by,omitempty"`
 	CreatedAt    *time.Time          `json:"created_at,omitempty"`
 	// ConditionReason says why marks in doubt were held.
-	ConditionReason string            `json:"condition_reason,omitempty"`
-	Runs            []runRefJSON      `json:"runs"`
-	Held            []heldJSON        `json:"held"`
-	Results         []resultJSON      `json:"results"`
-	Statistics      adjust.Statistics `json:"statistics"`
+	ConditionReason string       `json:"condition_reason,omitempty"`
+	Runs            []runRefJSON `json:"runs"`
+	// RunsLeftOut are the voided runs --marks or --area chose, left out
+	// (given when the draft is made).
+	RunsLeftOut []runRefJSON      `json:"runs_left_out"`
+	Held        []heldJSON        `json:"held"`
+	Results     []resultJSON      `json:"results"`
+	Statistics  adjust.Statistics `json:"statistics"`
 	// Sections are a least-squares adjustment's sections, flagged or not.
 	Sections []adjSectionJSON `json:"sections,omitempty"`
 	// MarksInDoubt are adjusted marks whose latest condition report is
@@ -339,6 +342,9 @@ type runRefJSON struct {
 	BookSHA256 string     `json:"book_sha256"`
 	ObservedOn *time.Time `json:"observed_on"`
 	Class      string     `json:"class"`
+	// Voided is the run's void, null while it stands (a run voided after
+	// the adjustment was made, or left out of it).
+	Voided *voidJSON `json:"voided"`
 }
 
 type heldJSON struct {
@@ -368,14 +374,14 @@ type resultJSON struct {
 
 func toRunRef(r store.Run) runRefJSON {
 	return runRefJSON{RunID: r.ID, Name: r.Name, FileName: r.FileName, BookSHA256: hex.EncodeToString(r.BookSHA256),
-		ObservedOn: r.ObservedOn, Class: r.Class}
+		ObservedOn: r.ObservedOn, Class: r.Class, Voided: toVoidJSON(r.Voided)}
 }
 
 func toAdjustmentJSON(v *register.AdjustmentView, dryRun bool) adjustmentJSON {
 	a := v.Adjustment
 	j := adjustmentJSON{DryRun: dryRun, Status: a.Status, StatusReason: a.StatusReason, StatusBy: a.StatusBy, StatusAt: a.StatusAt,
 		Method: a.Method, Datum: a.DatumCode, Parameters: v.Parameters, CreatedBy: a.CreatedBy, ConditionReason: a.ConditionReason,
-		Runs: []runRefJSON{}, Held: []heldJSON{}, Results: []resultJSON{}, Statistics: v.Statistics, MarksInDoubt: []markInDoubtJSON{},
+		Runs: []runRefJSON{}, RunsLeftOut: []runRefJSON{}, Held: []heldJSON{}, Results: []resultJSON{}, Statistics: v.Statistics, MarksInDoubt: []markInDoubtJSON{},
 		ChecksFailed: v.Failed(), Cautions: adjustCautions}
 	if !dryRun {
 		id, at := a.ID, a.CreatedAt
@@ -385,6 +391,9 @@ func toAdjustmentJSON(v *register.AdjustmentView, dryRun bool) adjustmentJSON {
 	}
 	for _, r := range v.Runs {
 		j.Runs = append(j.Runs, toRunRef(r))
+	}
+	for _, r := range v.RunsLeftOut {
+		j.RunsLeftOut = append(j.RunsLeftOut, toRunRef(r))
 	}
 	for _, h := range v.Held {
 		j.Held = append(j.Held, heldJSON{Mark: h.Designation, Datum: h.DatumCode, Version: h.Version, Value: h.Value,
@@ -411,6 +420,9 @@ func toAdjustmentJSON(v *register.AdjustmentView, dryRun bool) adjustmentJSON {
 // else on ErrOut so that Out carries only the rows).
 func renderAdjustment(ios *IOStreams, format Format, v *register.AdjustmentView, dryRun bool) error {
 	j := toAdjustmentJSON(v, dryRun)
+	for _, r := range v.RunsLeftOut {
+		fmt.Fprintf(ios.ErrOut, "warning: run %d %q is left out of the adjustment: voided %s\n", r.ID, r.Name, voidText(r.Voided))
+	}
 	if format == FormatJSON {
 		return writeJSON(ios.Out, j)
 	}
@@ -443,6 +455,9 @@ func renderAdjustment(ios *IOStreams, format Format, v *register.AdjustmentView,
 	}
 	for _, r := range j.Runs {
 		say("  run %d %q: book %s, sha256 %s\n", r.RunID, r.Name, r.FileName, r.BookSHA256)
+		if v := r.Voided; v != nil {
+			say("    VOIDED since %s by %s: %s\n", timeText(v.VoidedAt), v.VoidedBy, v.Reason)
+		}
 	}
 	for _, h := range j.Held {
 		say("  held %s on %s, version %d: %s %s\n", h.Mark, h.Datum, h.Version, deref(h.Value), deref(h.Unit))

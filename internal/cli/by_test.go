@@ -10,6 +10,7 @@ import (
 	"testing"
 
 	"cairn/internal/pgtest"
+	"cairn/internal/registertest"
 )
 
 // Every command that writes stores who did it: --by, or the operating
@@ -49,7 +50,7 @@ func TestEveryWriteStoresBy(t *testing.T) {
 		} else {
 			// The marks are there: a new one, and the book again as a new file.
 			mustRun(t, db.URL, "mark", "add", "TC-0499")
-			if err := os.WriteFile(path, append([]byte("# copy 2\n"), book...), 0o644); err != nil {
+			if err := os.WriteFile(path, registertest.SideShot(t, append([]byte("# copy 2\n"), book...), "copy 2"), 0o644); err != nil {
 				t.Fatal(err)
 			}
 		}

@@ -48,6 +48,8 @@ func exitCode(err error) int {
 		le  *levelbook.Error
 		ume *register.UnknownMarksError
 		are *register.AlreadyRecordedError
+		soe *register.SameObservationsError
+		rve *register.RunVoidedError
 		cfe *register.ChecksFailedError
 		cf  checksFailed
 		ce  *register.ConflictError
@@ -56,9 +58,12 @@ func exitCode(err error) int {
 	case err == nil:
 		return ExitOK
 	case errors.As(err, &fe), errors.As(err, &ie), errors.As(err, &le),
-		errors.As(err, &ume), errors.As(err, &are), errors.As(err, &cfe):
-		// A refused book (unknown marks, already recorded, failed checks
-		// without --accept-failed-checks) is bad input: nothing was written.
+		errors.As(err, &ume), errors.As(err, &are), errors.As(err, &soe), errors.As(err, &cfe),
+		errors.As(err, &rve):
+		// A refused book (unknown marks, already recorded, the same
+		// observations as a run, failed checks without
+		// --accept-failed-checks) and a voided run named are bad input:
+		// nothing was written.
 		return ExitBadInput
 	case errors.As(err, &cf):
 		return ExitChecks
@@ -103,7 +108,9 @@ var fieldFlags = map[string]map[string]string{
 //     argument, say);
 //   - a register.UnknownMarksError advises `cairn mark add` or --new-marks;
 //   - a register.ChecksFailedError advises --accept-failed-checks with
-//     --reason.
+//     --reason;
+//   - a register.SameObservationsError advises `cairn run void` when the
+//     run holding the observations is wrong.
 //
 // The rest of the message is err's own.
 func errorMessage(cmd *cobra.Command, err error) string {
@@ -121,6 +128,11 @@ func errorMessage(cmd *cobra.Command, err error) string {
 		msg = strings.Replace(msg, ume.Error(), ume.Problem()+
 			"; add them with `cairn mark add`, or record with "+flagOr(cmd, "new-marks", "new marks")+
 			" to create them; nothing was written", 1)
+	}
+	var soe *register.SameObservationsError
+	if errors.As(err, &soe) {
+		msg = strings.Replace(msg, soe.Error(), fmt.Sprintf("%s: the same field work is recorded once, whatever the file looks like; "+
+			"if run %d is wrong, void it first (cairn run void %d --reason ...); nothing was written", soe.Problem(), soe.Run.ID, soe.Run.ID), 1)
 	}
 	var cfe *register.ChecksFailedError
 	if errors.As(err, &cfe) {

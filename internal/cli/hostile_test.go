@@ -91,7 +91,9 @@ func TestHostileText(t *testing.T) {
 		t.Fatal(err)
 	}
 	meta := "Robert'); DROP TABLE run; -- \x1b[31m\u202e"
-	hostileBook := append([]byte("# rod: "+meta+"\n# instrument: "+meta+"\n"), book...)
+	// A side shot of its own makes it other observations than the runs
+	// recorded already (registertest.SideShot).
+	hostileBook := registertest.SideShot(t, append([]byte("# rod: "+meta+"\n# instrument: "+meta+"\n"), book...), "hostile")
 	path := filepath.Join(t.TempDir(), "o'brien; DROP TABLE run; --.csv")
 	if err := os.WriteFile(path, hostileBook, 0o644); err != nil {
 		t.Fatal(err)

@@ -149,8 +149,8 @@ func TestRunListOnATerminalAndPiped(t *testing.T) {
 	if !strings.HasPrefix(out, "Recorded run 1 from tallis-north-loop.csv") {
 		t.Fatalf("run record: %q", out)
 	}
-	headers := []string{"RUN", "OBSERVED", "NAME", "FILE", "UNIT", "CLASS", "SECTIONS", "LENGTH (km)", "CHECKS", "RECORDED", "BY"}
-	rows := [][]string{{"1", "2024-05-14", "Orrin Bay north loop", "tallis-north-loop.csv", "usft", "second-II", anyCell, anyCell, "passed", anyCell, "tester"}}
+	headers := []string{"RUN", "OBSERVED", "NAME", "FILE", "UNIT", "CLASS", "SECTIONS", "LENGTH (km)", "CHECKS", "RECORDED", "BY", "VOIDED"}
+	rows := [][]string{{"1", "2024-05-14", "Orrin Bay north loop", "tallis-north-loop.csv", "usft", "second-II", anyCell, anyCell, "passed", anyCell, "tester", "no"}}
 	out, errOut := onStreams(t, db, true, "run", "list")
 	assertAligned(t, "run list on a terminal", out, headers, rows)
 	if errOut != "" {

@@ -216,6 +216,20 @@ var (
 	buildErr  error
 )
 
+// binRun runs the built binary on the database at url: what it wrote and
+// its exit status.
+func binRun(t *testing.T, url string, args ...string) (stdout, stderr string, status int) {
+	t.Helper()
+	cmd := exec.Command(cairnBinary(t), append([]string{"--db", url}, args...)...)
+	var out, errOut bytes.Buffer
+	cmd.Stdout, cmd.Stderr = &out, &errOut
+	err := cmd.Run()
+	if err != nil && cmd.ProcessState == nil {
+		t.Fatalf("cairn %s: %v", strings.Join(args, " "), err)
+	}
+	return out.String(), errOut.String(), cmd.ProcessState.ExitCode()
+}
+
 // cairnBinary builds cmd/cairn once for the tests that run it as a process.
 func cairnBinary(t *testing.T) string {
 	t.Helper()

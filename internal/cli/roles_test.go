@@ -105,7 +105,7 @@ func TestRolesPrivileges(t *testing.T) {
 	if err != nil {
 		t.Fatal(err)
 	}
-	if err := os.WriteFile(book, append([]byte("# copy 3\n"), orig...), 0o644); err != nil {
+	if err := os.WriteFile(book, registertest.SideShot(t, append([]byte("# copy 3\n"), orig...), "copy 3"), 0o644); err != nil {
 		t.Fatal(err)
 	}
 
@@ -127,6 +127,7 @@ func TestRolesPrivileges(t *testing.T) {
 	refused(t, db, reader, store.RolePublisher, "publish", ownerDraft, "--reason", "reviewed", "--yes")
 	refused(t, db, reader, store.RolePublisher, "discard", ownerDraft, "--reason", "not wanted", "--yes")
 	refused(t, db, reader, store.RolePublisher, "datum", "add", "OBLD61", "--name", "Orrin Bay Local Datum 1961")
+	refused(t, db, reader, store.RolePublisher, "run", "void", run1, "--reason", "wrong rod", "--yes")
 
 	// The recorder records, reports conditions, adds marks and makes drafts.
 	mustRun(t, recorder, "mark", "add", "TC-0412")
@@ -135,7 +136,7 @@ func TestRolesPrivileges(t *testing.T) {
 	// A run held from the register keeps its held version (run_held),
 	// which the recorder may write.
 	held := filepath.Join(t.TempDir(), "copy-4.csv")
-	if err := os.WriteFile(held, append([]byte("# copy 4\n"), orig...), 0o644); err != nil {
+	if err := os.WriteFile(held, registertest.SideShot(t, append([]byte("# copy 4\n"), orig...), "copy 4"), 0o644); err != nil {
 		t.Fatal(err)
 	}
 	mustRun(t, recorder, "run", "record", held, "--hold", "BM1")
@@ -149,6 +150,8 @@ func TestRolesPrivileges(t *testing.T) {
 	refused(t, db, recorder, store.RolePublisher, "height", "set", "BM2", "783.250", "--unit", "m", "--datum", "NAVD88",
 		"--source", "Outside check (invented citation)", "--reason", "outside check")
 	refused(t, db, recorder, store.RolePublisher, "datum", "add", "OBLD61", "--name", "Orrin Bay Local Datum 1961")
+	// Voiding evidence is a publisher's decision.
+	refused(t, db, recorder, store.RolePublisher, "run", "void", run1, "--reason", "wrong rod", "--yes")
 
 	// The publisher publishes and discards.
 	mustRun(t, publisher, "discard", ownerDraft, "--reason", "superseded by the recorder's draft", "--yes")
@@ -156,6 +159,7 @@ func TestRolesPrivileges(t *testing.T) {
 	mustRun(t, publisher, "height", "set", "BM2", "783.250", "--unit", "m", "--datum", "NAVD88",
 		"--source", "Outside check (invented citation)", "--reason", "outside check")
 	mustRun(t, publisher, "datum", "add", "OBLD61", "--name", "Orrin Bay Local Datum 1961")
+	mustRun(t, publisher, "run", "void", run1, "--reason", "wrong rod", "--yes")
 	mustRun(t, reader, "audit", "verify")
 
 	// No role alters anything with SQL of its own: every statement is
@@ -167,6 +171,7 @@ func TestRolesPrivileges(t *testing.T) {
 		"UPDATE adjustment_event SET reason = 'x'", "DELETE FROM adjustment_result", "TRUNCATE run CASCADE",
 		"UPDATE run_held SET value_in_book_unit = 0", "DELETE FROM run_held",
 		"INSERT INTO goose_db_version (version_id, is_applied) VALUES (99, true)",
+		"UPDATE run_event SET reason = 'x'", "DELETE FROM run_event", "TRUNCATE run_event",
 	}
 	for _, who := range []struct{ name, url string }{{"reader", reader}, {"recorder", recorder}, {"publisher", publisher}} {
 		conn, err := pgx.Connect(context.Background(), who.url)

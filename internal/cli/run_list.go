@@ -29,7 +29,8 @@ func newCmdRunList(f *Factory, runF func(*runListOptions) error) *cobra.Command 
 		Short: "List recorded runs",
 		Long: `List the recorded runs, oldest first: by the date in their book (or the day
 they were recorded, for a book without one). --mark keeps the runs that
-touched a mark; --since keeps those observed on or after a date.`,
+touched a mark; --since keeps those observed on or after a date. A voided
+run is listed with its void (when, by whom, why) in the last column.`,
 		Example: `  cairn run list
   cairn run list --mark TC-0412 --since 2024-01-01
   cairn run list -o csv`,
@@ -67,14 +68,18 @@ func runListRun(opts *runListOptions) error {
 		js = append(js, toRunJSON(run))
 	}
 	return render(opts.f.IO, opts.Format, js, func() Table {
-		t := Table{Headers: []string{"RUN", "OBSERVED", "NAME", "FILE", "UNIT", "CLASS", "SECTIONS", "LENGTH (km)", "CHECKS", "RECORDED", "BY"}}
+		t := Table{Headers: []string{"RUN", "OBSERVED", "NAME", "FILE", "UNIT", "CLASS", "SECTIONS", "LENGTH (km)", "CHECKS", "RECORDED", "BY", "VOIDED"}}
 		for _, j := range js {
 			checks := "passed"
 			if j.ChecksFailed > 0 {
 				checks = fmt.Sprintf("%d failed, accepted", j.ChecksFailed)
 			}
+			voided := "no"
+			if j.Voided != nil {
+				voided = fmt.Sprintf("voided %s by %s: %s", timeText(j.Voided.VoidedAt), j.Voided.VoidedBy, j.Voided.Reason)
+			}
 			t.AddRow(strconv.FormatInt(j.ID, 10), j.ObservedOn, j.Name, j.FileName, j.Unit, j.Class, strconv.Itoa(j.SectionCount),
-				strconv.FormatFloat(j.LengthM/1000, 'f', 3, 64), checks, timeText(j.RecordedAt), j.RecordedBy)
+				strconv.FormatFloat(j.LengthM/1000, 'f', 3, 64), checks, timeText(j.RecordedAt), j.RecordedBy, voided)
 		}
 		return t
 	})

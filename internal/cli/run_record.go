@@ -46,6 +46,11 @@ of each mark the run touched. A run is never changed afterwards.
 The book is refused, and nothing is written, when:
   - it cannot be read (its file, line and field are named);
   - the same file is already recorded (the run holding it is named);
+  - the same observations are already recorded, in a file that differs
+    only in its line ends, comments, column order, spacing or the way its
+    numbers are written (the run holding them is named): the same field
+    work is recorded once; if that run is wrong, void it first with
+    cairn run void;
   - it names marks the register lacks (all are listed): add them with
     cairn mark add, or give --new-marks to create them, unverified and
     without heights (spot heights, declared in the book, are never marks);

@@ -369,3 +369,65 @@ func TestRunRecordTwoProcessesOneWins(t *testing.T) {
 		t.FailNow()
 	}
 }
+
+// Two processes record the same observations from two different files at
+// once (one with CRLF line ends): one wins, the other waits for it on the
+// fingerprint's unique key, is refused naming the winner's run, exit 2,
+// and writes nothing.
+func TestRunRecordTwoProcessesSameObservations(t *testing.T) {
+	t.Parallel()
+	bin := cairnBinary(t)
+	db := pgtest.New(t)
+	loop := booktest.Loop{Setups: 200, MarkEvery: 20, Seed: 5}
+	addMarks(t, db, loop.Marks()...)
+	paths := []string{
+		writeBook(t, "loop.csv", loop.Book()),
+		writeBook(t, "loop-crlf.csv", bytes.ReplaceAll(loop.Book(), []byte("\n"), []byte("\r\n"))),
+	}
+	release := holdSections(t, db)
+
+	type result struct {
+		out, err bytes.Buffer
+		status   int
+	}
+	res := make([]*result, 2)
+	done := make(chan struct{}, 2)
+	for i := range res {
+		r := &result{}
+		res[i] = r
+		cmd := exec.Command(bin, "--db", db.URL, "run", "record", paths[i], "--by", "test")
+		cmd.Stdout, cmd.Stderr = &r.out, &r.err
+		if err := cmd.Start(); err != nil {
+			t.Fatal(err)
+		}
+		go func() {
+			_ = cmd.Wait()
+			r.status = cmd.ProcessState.ExitCode()
+			done <- struct{}{}
+		}()
+	}
+	waitFor(t, "both recordings to wait", func() bool { return len(waiting(t, db)) == 2 })
+	release()
+	<-done
+	<-done
+
+	var won, lost *result
+	for _, r := range res {
+		switch r.status {
+		case 0:
+			won = r
+		case ExitBadInput:
+			lost = r
+		}
+	}
+	if won == nil || lost == nil {
+		t.Fatalf("exit statuses %d and %d, want 0 and 2:\n%s\n%s", res[0].status, res[1].status, res[0].err.String(), res[1].err.String())
+	}
+	m := recordedRun.FindStringSubmatch(won.out.String())
+	if m == nil || !strings.Contains(lost.err.String(), " holds the same observations as run "+m[1]+" ") {
+		t.Fatalf("winner:\n%s\nloser:\n%s", won.out.String(), lost.err.String())
+	}
+	if !registertest.AssertCounts(t, db.Pool, map[string]int64{"run": 1, "sighting": 400}) {
+		t.FailNow()
+	}
+}

@@ -43,13 +43,19 @@ type runJSON struct {
 	SightingCount  int       `json:"sighting_count"`
 	SectionCount   int       `json:"section_count"`
 	LengthM        float64   `json:"length_m"`
+	// ObservationsSHA256 is the fingerprint of the book's observations
+	// (docs/runs.md); "" for a run recorded before fingerprints were kept.
+	ObservationsSHA256 string `json:"observations_sha256"`
+	// Voided is the run's void, null while it stands.
+	Voided *voidJSON `json:"voided"`
 }
 
 func toRunJSON(r store.Run) runJSON {
 	j := runJSON{ID: r.ID, Name: r.Name, Crew: r.Crew, Instrument: r.Instrument, Rod: r.Rod, Datum: r.Datum,
 		Class: r.Class, Unit: r.Unit, FileName: r.FileName, BookSHA256: hex.EncodeToString(r.BookSHA256),
 		BookBytes: r.BookSize, RecordedBy: r.RecordedBy, RecordedAt: r.RecordedAt, ChecksFailed: r.ChecksFailed,
-		AcceptedReason: r.AcceptedReason, SightingCount: r.Sightings, SectionCount: r.Sections, LengthM: r.LengthM}
+		AcceptedReason: r.AcceptedReason, SightingCount: r.Sightings, SectionCount: r.Sections, LengthM: r.LengthM,
+		ObservationsSHA256: hex.EncodeToString(r.ObservationsSHA256), Voided: toVoidJSON(r.Voided)}
 	if r.ObservedOn != nil {
 		j.ObservedOn = r.ObservedOn.Format("2006-01-02")
 	}
@@ -175,6 +181,9 @@ func runShowRun(opts *runShowOptions) error {
 	for _, c := range v.Cautions {
 		warnLoudly(ios, c)
 	}
+	if v.Run.Voided != nil {
+		warnLoudly(ios, fmt.Sprintf("Run %d is VOIDED (%s): it is left out of adjustments", v.Run.ID, voidText(v.Run.Voided)))
+	}
 	return writeRunReport(ios.Out, v.Run, v.Summary, v.Sections, v.Marks, v.Held)
 }
 
@@ -194,6 +203,14 @@ func writeRunReport(w io.Writer, run store.Run, sum register.CheckSummary, secti
 		{"sightings", strconv.Itoa(run.Sightings)},
 	} {
 		head.AddRow(kv[0], kv[1])
+	}
+	if j.ObservationsSHA256 != "" {
+		head.AddRow("observations sha256", j.ObservationsSHA256)
+	}
+	if run.Voided != nil {
+		head.AddRow("VOIDED", voidText(run.Voided)+" (left out of adjustments)")
+	} else {
+		head.AddRow("voided", "no")
 	}
 	if run.ChecksFailed > 0 {
 		head.AddRow("checks", fmt.Sprintf("%d failed, accepted: %s", run.ChecksFailed, run.AcceptedReason))

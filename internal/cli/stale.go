@@ -17,6 +17,8 @@ type staleJSON struct {
 type staleReasonJSON struct {
 	Kind string `json:"kind"`
 	Mark string `json:"mark"`
+	// Run is the voided run of a voided-run reason, else 0.
+	Run  int64  `json:"run,omitempty"`
 	Text string `json:"text"`
 }
 
@@ -39,6 +41,7 @@ control, with each reason:
   mark-condition   a run of the adjustment touched a mark reported disturbed or
                    destroyed after the run (recorded after it, observed on or
                    after the day it was run)
+  voided-run       a run of the adjustment has been voided (cairn run void)
   held-stale       the adjustment held a height that is itself stale
 
 These are the heights to adjust again; publishing a new adjustment of them
@@ -65,7 +68,7 @@ func staleRun(opts *staleOptions) error {
 	for _, h := range hs {
 		j := staleJSON{heightJSON: toHeightJSON(h.Height, ""), AdjustmentID: deref(h.AdjustmentID), Reasons: []staleReasonJSON{}}
 		for _, r := range h.Reasons {
-			j.Reasons = append(j.Reasons, staleReasonJSON{r.Kind, r.Mark, r.Text})
+			j.Reasons = append(j.Reasons, staleReasonJSON{r.Kind, r.Mark, r.Run, r.Text})
 		}
 		out = append(out, j)
 	}

@@ -73,7 +73,8 @@ func newCmdTrace(f *Factory, runF func(*traceOptions) error) *cobra.Command {
 		Short: "Show where a benchmark's height came from, down to outside sources",
 		Long: `Show the derivation of a benchmark's height as a tree: the version in force
 (now, or at --as-of), the adjustment it came from, that adjustment's runs
-with the SHA-256 of their field books as recorded, and the versions it held,
+with the SHA-256 of their field books as recorded (and, for a run since
+voided, when, by whom and why), and the versions it held,
 each traced in turn, down to the outside publications they cite.
 
 -o json gives the same tree; -o csv gives one row per node with its depth.`,
@@ -146,6 +147,9 @@ func writeTrace(w io.Writer, v traceVersionJSON, indent string) {
 		fmt.Fprintf(w, "%sfrom adjustment %d (%s), %s\n", in, a.AdjustmentID, a.Method, status)
 		for _, r := range a.Runs {
 			fmt.Fprintf(w, "%s    run %d %q: book %s, sha256 %s\n", in, r.RunID, r.Name, r.FileName, r.BookSHA256)
+			if v := r.Voided; v != nil {
+				fmt.Fprintf(w, "%s        VOIDED %s by %s: %s\n", in, timeText(v.VoidedAt), v.VoidedBy, v.Reason)
+			}
 		}
 		for _, h := range a.Held {
 			fmt.Fprintf(w, "%s    held:\n", in)

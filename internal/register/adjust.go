@@ -100,6 +100,9 @@ type Parameters struct {
 	// How the runs were chosen, besides by number.
 	Marks []string `json:"marks,omitempty"`
 	Area  string   `json:"area,omitempty"`
+	// RunsLeftOut are the runs chosen by marks or area that were left out
+	// because they were voided.
+	RunsLeftOut []int64 `json:"runs_left_out,omitempty"`
 }
 
 // HeldAs says how the adjustment held a mark (adjust.HoldKind over the
@@ -119,8 +122,12 @@ type AdjustmentView struct {
 	Parameters Parameters
 	Statistics adjust.Statistics
 	Runs       []store.Run
-	Held       []store.Held
-	Results    []store.AdjustmentResult
+	// RunsLeftOut are the voided runs that the marks or area chose, left
+	// out of the adjustment (each with its void); set when the draft is
+	// made (a stored adjustment keeps their numbers in Parameters).
+	RunsLeftOut []store.Run
+	Held        []store.Held
+	Results     []store.AdjustmentResult
 	// Sections are a least-squares adjustment's section outcomes.
 	Sections []store.AdjustmentSection
 	// InDoubt are the adjusted (not held) marks whose latest condition

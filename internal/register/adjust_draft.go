@@ -17,7 +17,7 @@ import (
 // parameters, results, sections and statistics, the versions publishing
 // would replace and the adjusted marks in doubt.
 func (r *Register) draftView(ctx context.Context, tx pgx.Tx, p AdjustParams, g *gathered, d *adjust.Draft, v *AdjustmentView) error {
-	v.Runs, v.Held = g.runs, g.held
+	v.Runs, v.Held, v.RunsLeftOut = g.runs, g.held, g.leftOut
 	v.Adjustment = store.Adjustment{Method: string(p.Method), DatumID: g.datum.ID, DatumCode: g.datum.Code,
 		Status: store.StatusDraft, CreatedBy: strings.TrimSpace(p.By)}
 	for _, run := range g.runs {
@@ -68,6 +68,9 @@ func parametersOf(p AdjustParams, g *gathered, d *adjust.Draft) Parameters {
 	pm := Parameters{Unit: d.Unit.String(), Decimals: d.Decimals, Class: string(d.Class)}
 	for _, m := range g.holds {
 		pm.Hold = append(pm.Hold, m.Designation)
+	}
+	for _, run := range g.leftOut {
+		pm.RunsLeftOut = append(pm.RunsLeftOut, run.ID)
 	}
 	if p.Method != MethodLeastSquares {
 		pm.Distribution = p.Distribution.String()

@@ -30,6 +30,8 @@ type gathered struct {
 	inDoubt bool
 	// markIDs are the marks of the runs' sections by designation.
 	markIDs map[string]int64
+	// leftOut are the voided runs that p.Marks or p.Near chose, left out.
+	leftOut []store.Run
 }
 
 // gather reads, in tx, everything the adjustment p asks for is computed
@@ -40,12 +42,34 @@ func (r *Register) gather(ctx context.Context, tx pgx.Tx, p AdjustParams) (*gath
 	if err != nil {
 		return nil, err
 	}
+	named := map[int64]bool{}
+	for _, id := range p.RunIDs {
+		named[id] = true
+	}
 	for _, id := range runIDs {
 		run, err := r.run(ctx, tx, id)
 		if err != nil {
 			return nil, err
 		}
-		g.runs = append(g.runs, run)
+		switch {
+		case run.Voided != nil && named[id]:
+			return nil, &RunVoidedError{Run: run}
+		case run.Voided != nil:
+			g.leftOut = append(g.leftOut, run)
+		default:
+			g.runs = append(g.runs, run)
+		}
+	}
+	if len(g.runs) == 0 {
+		field := "marks"
+		if len(p.Marks) == 0 {
+			field = "area"
+		}
+		ids := make([]int64, len(g.leftOut))
+		for i, run := range g.leftOut {
+			ids[i] = run.ID
+		}
+		return nil, inputErr(field, "every run chosen is voided (runs %s): nothing is left to adjust", joinIDs(ids))
 	}
 	held := map[string]bool{}
 	for _, h := range p.Hold {

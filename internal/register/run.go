@@ -1,6 +1,7 @@
 package register
 
 import (
+	"bytes"
 	"context"
 	"crypto/sha256"
 	"encoding/json"
@@ -19,6 +20,7 @@ import (
 	"cairn/internal/reduce"
 	"cairn/internal/standards"
 	"cairn/internal/store"
+	"cairn/internal/units"
 )
 
 // RecordParams describe a field book to record as a run.
@@ -143,8 +145,35 @@ type AlreadyRecordedError struct {
 }
 
 func (e *AlreadyRecordedError) Error() string {
-	return fmt.Sprintf("%s is already recorded as run %d (from %s, recorded %s by %s); nothing was written",
+	s := fmt.Sprintf("%s is already recorded as run %d (from %s, recorded %s by %s)",
 		e.File, e.Run.ID, e.Run.FileName, e.Run.RecordedAt.UTC().Format("2006-01-02 15:04:05Z"), e.Run.RecordedBy)
+	if e.Run.Voided != nil {
+		s += fmt.Sprintf("; run %d is voided, and the register keeps each file once: to record its observations again, add a comment to the book saying why", e.Run.ID)
+	}
+	return s + "; nothing was written"
+}
+
+// SameObservationsError refuses a book whose observations are those of a
+// run already recorded and not voided, whatever its bytes (the same
+// sightings with other line ends, comments, column order or spacing): an
+// adjustment would count the same field work twice. Run is the run that
+// holds them. The book can be recorded only once that run is voided (the
+// caller words that advice in its own terms, after Problem).
+type SameObservationsError struct {
+	File string
+	Run  store.Run
+}
+
+// Problem says which run holds the observations, without advice:
+//
+//	north-loop-2.csv holds the same observations as run 3 (from north-loop.csv, recorded 2024-05-14 16:02:11Z by R. Okafor)
+func (e *SameObservationsError) Problem() string {
+	return fmt.Sprintf("%s holds the same observations as run %d (from %s, recorded %s by %s)",
+		e.File, e.Run.ID, e.Run.FileName, e.Run.RecordedAt.UTC().Format("2006-01-02 15:04:05Z"), e.Run.RecordedBy)
+}
+
+func (e *SameObservationsError) Error() string {
+	return fmt.Sprintf("%s: the same field work is recorded once; if run %d is wrong, void it first; nothing was written", e.Problem(), e.Run.ID)
 }
 
 // ChecksFailedError refuses a book whose checks fail; Result holds the
@@ -179,8 +208,10 @@ var errAlreadyRecorded = errors.New("book already recorded")
 // as a run: its metadata and bytes with their SHA-256, every sighting in
 // field order, the sections between consecutive marks, and the condition
 // of each mark it touched. Every mark the book names must exist (or
-// p.NewMarks creates them); a book already recorded, or whose checks fail
-// without p.AcceptFailedChecks, is refused. A refused book, or a failure
+// p.NewMarks creates them); a book already recorded (the same bytes:
+// AlreadyRecordedError), a book of the observations of a run not voided
+// (SameObservationsError), or a book whose checks fail without
+// p.AcceptFailedChecks, is refused. A refused book, or a failure
 // part way, writes nothing.
 func (r *Register) Record(ctx context.Context, p RecordParams) (*Recorded, error) {
 	if strings.TrimSpace(p.By) == "" {
@@ -252,6 +283,16 @@ func (r *Register) Record(ctx context.Context, p RecordParams) (*Recorded, error
 		} else if !errors.Is(err, store.ErrNotFound) {
 			return err
 		}
+		// And a book of the same observations; the unique fingerprint and
+		// count settle a race.
+		holder, seq, err := sameObservations(ctx, tx, book, run.ObservationsSHA256)
+		if err != nil {
+			return err
+		}
+		if holder != nil {
+			return &SameObservationsError{File: p.Path, Run: *holder}
+		}
+		run.ObservationsSeq = seq
 		byName, missing, err := findMarks(ctx, tx, p, names, firstLine)
 		if err != nil {
 			return err
@@ -314,6 +355,11 @@ func (r *Register) Record(ctx context.Context, p RecordParams) (*Recorded, error
 	})
 	if errors.Is(err, errAlreadyRecorded) {
 		holder, err := store.RunGetBySHA256(ctx, r.pool, run.BookSHA256)
+		if errors.Is(err, store.ErrNotFound) {
+			// The other recorder's book had other bytes and the same
+			// observations.
+			return nil, r.sameObservationsAfterRace(ctx, p.Path, run.ObservationsSHA256)
+		}
 		if err != nil {
 			return nil, fmt.Errorf("look up the run that holds %s: %w", p.Path, err)
 		}
@@ -329,6 +375,85 @@ func (r *Register) Record(ctx context.Context, p RecordParams) (*Recorded, error
 	return out, nil
 }
 
+// sameObservations finds the run, not voided, that holds the observations
+// of book (fingerprint sum): among the runs with that fingerprint stored,
+// and among the runs recorded before schema v7, whose fingerprints are
+// recomputed from their stored sightings (the same function over the same
+// parsed values, so exact). With none, seq is the number of voided runs
+// with the fingerprint stored: the new run's observations_seq.
+func sameObservations(ctx context.Context, tx pgx.Tx, book *levelbook.Book, sum []byte) (holder *store.Run, seq int, err error) {
+	runs, err := store.RunListByObservations(ctx, tx, sum)
+	if err != nil {
+		return nil, 0, fmt.Errorf("look up runs of the same observations: %w", err)
+	}
+	for i := range runs {
+		if runs[i].Voided == nil {
+			return &runs[i], 0, nil
+		}
+	}
+	seq = len(runs)
+	old, err := store.RunListUnfingerprinted(ctx, tx, store.RunListUnfingerprintedParams{Unit: string(book.Meta.Unit), Sightings: len(book.Sightings)})
+	if err != nil {
+		return nil, 0, fmt.Errorf("look up runs recorded before observations were fingerprinted: %w", err)
+	}
+	for i := range old {
+		if old[i].Voided != nil {
+			continue
+		}
+		fp, err := storedObservations(ctx, tx, old[i])
+		if err != nil {
+			return nil, 0, err
+		}
+		if bytes.Equal(fp[:], sum) {
+			return &old[i], 0, nil
+		}
+	}
+	return nil, seq, nil
+}
+
+// storedObservations recomputes the observations fingerprint of a stored
+// run from its sightings and metadata, as levelbook parsed them when it was
+// recorded.
+func storedObservations(ctx context.Context, db store.DBTX, run store.Run) ([sha256.Size]byte, error) {
+	var meta levelbook.Meta
+	if err := json.Unmarshal(run.Meta, &meta); err != nil {
+		return [sha256.Size]byte{}, fmt.Errorf("decode metadata of run %d: %w", run.ID, err)
+	}
+	meta.Unit = units.Unit(run.Unit)
+	gs, err := store.SightingListByRun(ctx, db, run.ID)
+	if err != nil {
+		return [sha256.Size]byte{}, fmt.Errorf("read the sightings of run %d: %w", run.ID, err)
+	}
+	book := &levelbook.Book{Meta: meta, Sightings: make([]levelbook.Sighting, len(gs))}
+	for i, g := range gs {
+		s := levelbook.Sighting{Line: g.Line, Point: g.Point, Sight: levelbook.Sight(g.Sight), TurningPoint: g.TurningPoint,
+			Middle: g.Middle, DistanceFrom: levelbook.DistanceFrom(g.DistanceFrom), Note: g.Note}
+		if g.Upper != nil && g.Lower != nil {
+			s.Upper, s.Lower, s.ThreeWire = *g.Upper, *g.Lower, true
+		}
+		if g.Distance != nil {
+			s.Distance = *g.Distance
+		}
+		book.Sightings[i] = s
+	}
+	return book.ObservationsSHA256(), nil
+}
+
+// sameObservationsAfterRace is the refusal of a book that lost the race to
+// record its observations: the standing run that holds them now.
+func (r *Register) sameObservationsAfterRace(ctx context.Context, path string, sum []byte) error {
+	runs, err := store.RunListByObservations(ctx, r.pool, sum)
+	if err != nil {
+		return fmt.Errorf("look up the run that holds the observations of %s: %w", path, err)
+	}
+	for _, run := range runs {
+		if run.Voided == nil {
+			return &SameObservationsError{File: path, Run: run}
+		}
+	}
+	return &ConflictError{Err: fmt.Errorf("record %s: another run of the same observations was recorded meanwhile", path)}
+}
+
 // isRefusal says whether err is one of the typed refusals of Record (bad
 // input, a bad book, unknown marks, a book already recorded, failed checks,
 // a conflict), which name the book or the field at fault already.
@@ -338,11 +463,12 @@ func isRefusal(err error) bool {
 		le  *levelbook.Error
 		ume *UnknownMarksError
 		are *AlreadyRecordedError
+		soe *SameObservationsError
 		cfe *ChecksFailedError
 		ce  *ConflictError
 	)
 	return errors.As(err, &ie) || errors.As(err, &le) || errors.As(err, &ume) ||
-		errors.As(err, &are) || errors.As(err, &cfe) || errors.As(err, &ce)
+		errors.As(err, &are) || errors.As(err, &soe) || errors.As(err, &cfe) || errors.As(err, &ce)
 }
 
 // runInsertParams gathers the run's row from the book and its reduction.
@@ -365,7 +491,8 @@ func runInsertParams(p RecordParams, book *levelbook.Book, res *reduce.Result, r
 		observed = &d
 	}
 	sum := sha256.Sum256(p.Book)
-	return store.RunInsertParams{
+	obs := book.ObservationsSHA256()
+	return store.RunInsertParams{ObservationsSHA256: obs[:],
 		Name: m.Run, ObservedOn: observed, Crew: m.Crew, Instrument: m.Instrument, Rod: m.Rod, Datum: m.Datum,
 		Class: string(res.Class), Unit: string(m.Unit), Meta: meta,
 		FileName: filepath.Base(p.Path), Book: p.Book, BookSHA256: sum[:],

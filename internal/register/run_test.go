@@ -198,9 +198,17 @@ func TestRecordTwiceIsRefused(t *testing.T) {
 	}
 	b.AssertCounts(t, map[string]int64{"run": 1, "sighting": 8})
 	b.AssertNothingWritten(t, before)
-	// One byte more is another book.
-	if _, err := b.Reg.Record(b.Ctx, params("harbour.csv", []byte(loopBook+"\n"))); err != nil {
-		t.Errorf("a different file: %v", err)
+	// One byte more is another file but the same observations: refused
+	// too, naming the run (issue 11: a run is its observations).
+	_, err = b.Reg.Record(b.Ctx, params("harbour.csv", []byte(loopBook+"\n")))
+	var soe *register.SameObservationsError
+	if !errors.As(err, &soe) || soe.Run.ID != first.Run.ID {
+		t.Errorf("a different file of the same observations: %v", err)
+	}
+	b.AssertNothingWritten(t, before)
+	// One reading more is another book.
+	if _, err := b.Reg.Record(b.Ctx, params("harbour.csv", []byte(strings.Replace(loopBook, "TC-0417,FS,1.250,1.100,0.950", "TC-0417,FS,1.250,1.101,0.950", 1)))); err != nil {
+		t.Errorf("a different book: %v", err)
 	}
 }
 
@@ -443,7 +451,7 @@ func BenchmarkRecord20kSetups(b *testing.B) {
 	i := 0
 	for b.Loop() {
 		i++
-		p := register.RecordParams{Path: "loop-20k.csv", Book: append([]byte(fmt.Sprintf("# x-copy: %d\n", i)), book...), By: "bench"}
+		p := register.RecordParams{Path: "loop-20k.csv", Book: registertest.SideShot(b, append([]byte(fmt.Sprintf("# x-copy: %d\n", i)), book...), fmt.Sprint(i)), By: "bench"}
 		if _, err := reg.Record(ctx, p); err != nil {
 			b.Fatal(err)
 		}

@@ -19,11 +19,13 @@ type StaleHeight struct {
 
 // StaleReason says why a height is stale.
 type StaleReason struct {
-	// Kind is store.CauseHeldSuperseded, store.CauseMarkCondition, or
-	// CauseHeldStale.
+	// Kind is store.CauseHeldSuperseded, store.CauseMarkCondition,
+	// store.CauseVoidedRun, or CauseHeldStale.
 	Kind string
-	// Mark is the mark the reason concerns.
+	// Mark is the mark the reason concerns ("" for a voided run).
 	Mark string
+	// Run is the voided run, for store.CauseVoidedRun (else 0).
+	Run int64
 	// Text says it in words.
 	Text string
 }
@@ -34,7 +36,7 @@ const CauseHeldStale = "held-stale"
 
 // Stale returns every current height from an adjustment that held a
 // version since superseded, or used a run that touched a mark later reported
-// disturbed or destroyed, and, following those, every current height whose
+// disturbed or destroyed, or used a run since voided, and, following those, every current height whose
 // adjustment held such a stale height. These are the heights to adjust
 // again; publishing a new adjustment of them clears them.
 func (r *Register) Stale(ctx context.Context) ([]StaleHeight, error) {
@@ -118,6 +120,9 @@ func reasonOf(c store.StaleCause) StaleReason {
 	case store.CauseHeldSuperseded:
 		return StaleReason{Kind: c.Kind, Mark: c.Mark, Text: fmt.Sprintf("adjustment %d held %s version %d, superseded by version %d on %s",
 			c.AdjustmentID, c.Mark, c.HeldVersion, c.SuccessorVersion, c.SuccessorAt.UTC().Format("2006-01-02 15:04:05Z"))}
+	case store.CauseVoidedRun:
+		return StaleReason{Kind: c.Kind, Run: c.RunID, Text: fmt.Sprintf("run %d of adjustment %d was voided %s by %s: %s",
+			c.RunID, c.AdjustmentID, c.VoidedAt.UTC().Format("2006-01-02 15:04:05Z"), c.VoidedBy, c.VoidReason)}
 	default:
 		return StaleReason{Kind: c.Kind, Mark: c.Mark, Text: fmt.Sprintf("run %d of adjustment %d touched %s, reported %s on %s, after the run",
 			c.RunID, c.AdjustmentID, c.Mark, c.Condition, c.ObservedOn.Format("2006-01-02"))}

@@ -36,11 +36,13 @@ package registertest
 
 import (
 	"context"
+	"errors"
 	"fmt"
 	"os"
 	"path/filepath"
 	"runtime"
 	"slices"
+	"strings"
 	"testing"
 	"time"
 
@@ -393,14 +395,68 @@ func (b *Bundle) WorkedCopy(tb testing.TB, c int, by string) int64 {
 
 // WorkedBook returns testdata/adjust/worked-circuit.csv, worked example 1
 // of REFERENCES.md as a level book; copies after the first get a comment
-// line of their own ("# copy 2"), so that they are different files.
+// line of their own ("# copy 2") and a side shot of their own
+// (SideShot(b, "copy 2")), so that they are different files of different
+// observations, with the same sections.
 func WorkedBook(tb testing.TB, copy int) []byte {
 	tb.Helper()
 	b := Testdata(tb, "adjust/worked-circuit.csv")
 	if copy > 1 {
-		b = append([]byte(fmt.Sprintf("# copy %d\n", copy)), b...)
+		b = append([]byte(fmt.Sprintf("# copy %d\n", copy)), SideShot(tb, b, fmt.Sprintf("copy %d", copy))...)
 	}
 	return b
+}
+
+// SideShot returns book with one more sighting after its first row: an
+// intermediate sight of 1.000 on a turning point of its own, named "TP "
+// and label (with the note label). A side shot changes none of the book's
+// sections, so the copy adjusts exactly as the book does, but it is other
+// observations: a book recorded already can be recorded again as a run of
+// its own. The book must name turning points "TP*" (the default) and have
+// its header and rows one to a line.
+func SideShot(tb testing.TB, book []byte, label string) []byte {
+	tb.Helper()
+	b, err := SideShotOf(book, label)
+	if err != nil {
+		tb.Fatal(err)
+	}
+	return b
+}
+
+// SideShotOf is SideShot for a goroutine of a test: it returns an error
+// where SideShot stops the test.
+func SideShotOf(book []byte, label string) ([]byte, error) {
+	lines := strings.SplitAfter(string(book), "\n")
+	for i, l := range lines {
+		t := strings.TrimSpace(l)
+		if t == "" || strings.HasPrefix(t, "#") {
+			continue
+		}
+		if i+1 >= len(lines) {
+			break
+		}
+		cols := strings.Split(t, ",")
+		cells := make([]string, len(cols))
+		for k, c := range cols {
+			switch strings.ToLower(strings.TrimSpace(c)) {
+			case "point":
+				cells[k] = "TP " + label
+			case "sight":
+				cells[k] = "IS"
+			case "middle":
+				cells[k] = "1.000"
+			case "note":
+				cells[k] = label
+			}
+		}
+		end := "\n"
+		if strings.HasSuffix(l, "\r\n") {
+			end = "\r\n"
+		}
+		row := strings.Join(cells, ",") + end
+		return []byte(strings.Join(lines[:i+2], "") + row + strings.Join(lines[i+2:], "")), nil
+	}
+	return nil, errors.New("registertest: no header and first row in the book for a side shot")
 }
 
 // Testdata returns the bytes of a file under the module's testdata

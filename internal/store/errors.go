@@ -41,7 +41,7 @@ var roleToWrite = map[string]string{
 	"mark": RoleRecorder, "mark_condition": RoleRecorder, "run": RoleRecorder, "sighting": RoleRecorder,
 	"section": RoleRecorder, "run_mark": RoleRecorder, "adjustment": RoleRecorder, "adjustment_run": RoleRecorder,
 	"adjustment_held": RoleRecorder, "adjustment_result": RoleRecorder,
-	"height": RolePublisher, "adjustment_event": RolePublisher, "datum": RolePublisher,
+	"height": RolePublisher, "adjustment_event": RolePublisher, "datum": RolePublisher, "run_event": RolePublisher,
 }
 
 // deniedTable finds the table of "permission denied for table height".

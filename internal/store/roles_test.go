@@ -74,6 +74,18 @@ func TestRolesConcurrentMigrations(t *testing.T) {
 		if !granted {
 			t.Errorf("register_%d: privileges not as granted", i)
 		}
+		// Voiding a run is the publisher's (migrations/00006).
+		if err := p.QueryRow(ctx, `SELECT has_table_privilege('cairn_publisher', 'run_event', 'INSERT')
+			AND has_sequence_privilege('cairn_publisher', 'run_event_id_seq', 'USAGE')
+			AND has_table_privilege('cairn_reader', 'run_event', 'SELECT')
+			AND NOT has_table_privilege('cairn_recorder', 'run_event', 'INSERT')
+			AND NOT has_table_privilege('cairn_publisher', 'run_event', 'UPDATE')
+			AND NOT has_table_privilege('cairn_publisher', 'run_event', 'DELETE')`).Scan(&granted); err != nil {
+			t.Fatal(err)
+		}
+		if !granted {
+			t.Errorf("register_%d: privileges on run_event not as granted", i)
+		}
 	}
 	roles, err := store.RoleList(ctx, pools[0])
 	if err != nil {

@@ -69,6 +69,13 @@ type Run struct {
 	Sightings int
 	Sections  int
 	LengthM   float64
+	// ObservationsSHA256 is the fingerprint of the book's observations
+	// (levelbook.Book.ObservationsSHA256); nil for a run recorded before
+	// schema v7, whose fingerprint is recomputed from its sightings when
+	// needed.
+	ObservationsSHA256 []byte
+	// Voided is the run's void, nil while it stands.
+	Voided *RunVoid
 }
 
 const runColumns = `r.id, r.name, r.observed_on, r.crew, r.instrument, r.rod, r.datum, r.class, r.unit, r.meta,
@@ -76,13 +83,25 @@ const runColumns = `r.id, r.name, r.observed_on, r.crew, r.instrument, r.rod, r.
 	coalesce(r.accepted_reason, ''),
 	(SELECT count(*) FROM sighting g WHERE g.run_id = r.id),
 	(SELECT count(*) FROM section s WHERE s.run_id = r.id),
-	(SELECT coalesce(sum(s.length_m), 0) FROM section s WHERE s.run_id = r.id)`
+	(SELECT coalesce(sum(s.length_m), 0) FROM section s WHERE s.run_id = r.id),
+	r.observations_sha256,
+	(SELECT e.id FROM run_event e WHERE e.run_id = r.id AND e.kind = 'voided'),
+	(SELECT e.reason FROM run_event e WHERE e.run_id = r.id AND e.kind = 'voided'),
+	(SELECT e.recorded_by FROM run_event e WHERE e.run_id = r.id AND e.kind = 'voided'),
+	(SELECT e.recorded_at FROM run_event e WHERE e.run_id = r.id AND e.kind = 'voided')`
 
 func scanRun(row pgx.Row) (Run, error) {
 	var r Run
+	var voidID *int64
+	var voidReason, voidBy *string
+	var voidAt *time.Time
 	err := row.Scan(&r.ID, &r.Name, &r.ObservedOn, &r.Crew, &r.Instrument, &r.Rod, &r.Datum, &r.Class, &r.Unit, &r.Meta,
 		&r.FileName, &r.BookSHA256, &r.BookSize, &r.RecordedBy, &r.RecordedAt, &r.ChecksFailed, &r.Checks,
-		&r.AcceptedReason, &r.Sightings, &r.Sections, &r.LengthM)
+		&r.AcceptedReason, &r.Sightings, &r.Sections, &r.LengthM, &r.ObservationsSHA256,
+		&voidID, &voidReason, &voidBy, &voidAt)
+	if err == nil && voidID != nil {
+		r.Voided = &RunVoid{ID: *voidID, RunID: r.ID, Reason: *voidReason, RecordedBy: *voidBy, RecordedAt: *voidAt}
+	}
 	return r, translate(err)
 }
 
@@ -102,7 +121,12 @@ type RunInsertParams struct {
 	// (the database checks it).
 	Book       []byte
 	BookSHA256 []byte
-	RecordedBy string
+	// ObservationsSHA256 is the fingerprint of the book's observations;
+	// ObservationsSeq the number of runs of the same observations
+	// recorded before (all voided). The pair is unique.
+	ObservationsSHA256 []byte
+	ObservationsSeq    int
+	RecordedBy         string
 	// ChecksFailed, Checks and AcceptedReason: see Run. AcceptedReason
 	// must be given exactly when ChecksFailed > 0.
 	ChecksFailed   int
@@ -111,8 +135,8 @@ type RunInsertParams struct {
 }
 
 // RunInsert adds a run and returns its identifier; ErrAlreadyExists when a
-// run with the same book is recorded (or being recorded: the insert waits
-// for that transaction to end).
+// run with the same book, or the same observations, is recorded (or being
+// recorded: the insert waits for that transaction to end).
 func RunInsert(ctx context.Context, db DBTX, p RunInsertParams) (int64, error) {
 	var observed *string
 	if p.ObservedOn != nil {
@@ -130,12 +154,18 @@ func RunInsert(ctx context.Context, db DBTX, p RunInsertParams) (int64, error) {
 	if checks == nil {
 		checks = json.RawMessage("{}")
 	}
+	var seq *int
+	if p.ObservationsSHA256 != nil {
+		seq = &p.ObservationsSeq
+	}
 	var id int64
 	err := db.QueryRow(ctx, `INSERT INTO run (name, observed_on, crew, instrument, rod, datum, class, unit, meta,
-		file_name, book, book_sha256, recorded_by, checks_failed, checks, accepted_reason)
-		VALUES ($1, $2, $3, $4, $5, $6, $7, $8, $9, $10, $11, $12, $13, $14, $15, $16) RETURNING id`,
+		file_name, book, book_sha256, recorded_by, checks_failed, checks, accepted_reason,
+		observations_sha256, observations_seq)
+		VALUES ($1, $2, $3, $4, $5, $6, $7, $8, $9, $10, $11, $12, $13, $14, $15, $16, $17, $18) RETURNING id`,
 		p.Name, observed, p.Crew, p.Instrument, p.Rod, p.Datum, p.Class, p.Unit, string(meta),
-		p.FileName, p.Book, p.BookSHA256, p.RecordedBy, p.ChecksFailed, string(checks), reason).Scan(&id)
+		p.FileName, p.Book, p.BookSHA256, p.RecordedBy, p.ChecksFailed, string(checks), reason,
+		p.ObservationsSHA256, seq).Scan(&id)
 	if err != nil {
 		return 0, fmt.Errorf("insert run: %w", translate(err))
 	}
@@ -151,6 +181,40 @@ func RunGet(ctx context.Context, db DBTX, id int64) (Run, error) {
 // none.
 func RunGetBySHA256(ctx context.Context, db DBTX, sum []byte) (Run, error) {
 	return scanRun(db.QueryRow(ctx, "SELECT "+runColumns+" FROM run r WHERE r.book_sha256 = $1", sum))
+}
+
+// RunListByObservations returns the runs whose observations have the
+// fingerprint sum, oldest first (every one but the newest voided; runs
+// recorded before schema v7 have no stored fingerprint: see
+// RunListUnfingerprinted).
+func RunListByObservations(ctx context.Context, db DBTX, sum []byte) ([]Run, error) {
+	rows, err := db.Query(ctx, "SELECT "+runColumns+" FROM run r WHERE r.observations_sha256 = $1 ORDER BY r.id", sum)
+	if err != nil {
+		return nil, translate(err)
+	}
+	return collect(rows, scanRun)
+}
+
+// RunListUnfingerprintedParams choose the runs without a stored
+// fingerprint that could hold the same observations as a book: those of
+// its unit with as many sightings.
+type RunListUnfingerprintedParams struct {
+	Unit      string
+	Sightings int
+}
+
+// RunListUnfingerprinted lists, oldest first, the runs recorded before
+// schema v7 (no stored observations fingerprint) of p.Unit with
+// p.Sightings sightings.
+func RunListUnfingerprinted(ctx context.Context, db DBTX, p RunListUnfingerprintedParams) ([]Run, error) {
+	rows, err := db.Query(ctx, "SELECT "+runColumns+` FROM run r
+		WHERE r.observations_sha256 IS NULL AND r.unit = $1
+		AND (SELECT count(*) FROM sighting g WHERE g.run_id = r.id) = $2
+		ORDER BY r.id`, p.Unit, p.Sightings)
+	if err != nil {
+		return nil, translate(err)
+	}
+	return collect(rows, scanRun)
 }
 
 // RunGetBook returns the stored bytes of run id's book; ErrNotFound if
