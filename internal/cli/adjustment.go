@@ -37,7 +37,7 @@ func newCmdAdjustmentList(f *Factory, runF func(*adjustmentListOptions) error) *
 		Use:   "list [--status draft|published|discarded]",
 		Short: "List adjustments, oldest first",
 		Args:  exactArgs(0, "no arguments"),
-		RunE: runE(&opts.ctx, opts, runF, adjustmentListRun),
+		RunE:  runE(&opts.ctx, opts, runF, adjustmentListRun),
 	}
 	addOutputFlag(cmd, &opts.format)
 	cmd.Flags().StringVar(&opts.status, "status", "", "only adjustments with this status: draft, published or discarded")

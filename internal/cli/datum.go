@@ -69,7 +69,7 @@ func newCmdDatumList(f *Factory, runF func(*datumListOptions) error) *cobra.Comm
 		Use:   "list",
 		Short: "List the datums",
 		Args:  exactArgs(0, "no arguments"),
-		RunE: runE(&opts.ctx, opts, runF, datumListRun),
+		RunE:  runE(&opts.ctx, opts, runF, datumListRun),
 	}
 	addOutputFlag(cmd, &opts.format)
 	return cmd

@@ -49,6 +49,8 @@ func exitCode(err error) int {
 		ume *register.UnknownMarksError
 		are *register.AlreadyRecordedError
 		cfe *register.ChecksFailedError
+		pce *register.PublishChecksError
+		nde *register.NotDraftError
 		cf  checksFailed
 		ce  *register.ConflictError
 	)
@@ -56,9 +58,13 @@ func exitCode(err error) int {
 	case err == nil:
 		return ExitOK
 	case errors.As(err, &fe), errors.As(err, &ie), errors.As(err, &le),
-		errors.As(err, &ume), errors.As(err, &are), errors.As(err, &cfe):
+		errors.As(err, &ume), errors.As(err, &are), errors.As(err, &cfe),
+		errors.As(err, &pce), errors.As(err, &nde):
 		// A refused book (unknown marks, already recorded, failed checks
 		// without --accept-failed-checks) is bad input: nothing was written.
+		// So is a refused publication (failed checks not accepted), and
+		// publishing or discarding an adjustment no longer a draft: a
+		// request that can never succeed.
 		return ExitBadInput
 	case errors.As(err, &cf):
 		return ExitChecks
@@ -103,7 +109,9 @@ var fieldFlags = map[string]map[string]string{
 //     argument, say);
 //   - a register.UnknownMarksError advises `cairn mark add` or --new-marks;
 //   - a register.ChecksFailedError advises --accept-failed-checks with
-//     --reason.
+//     --reason;
+//   - a register.PublishChecksError advises --accept-failed-checks with
+//     --accept-reason.
 //
 // The rest of the message is err's own.
 func errorMessage(cmd *cobra.Command, err error) string {
@@ -127,6 +135,12 @@ func errorMessage(cmd *cobra.Command, err error) string {
 		msg = strings.Replace(msg, cfe.Error(), cfe.Error()+"\nto record it anyway, give "+
 			flagOr(cmd, "accept-failed-checks", "acceptance of failed checks")+" with "+
 			flagOr(cmd, "reason", "a reason")+" saying why", 1)
+	}
+	var pce *register.PublishChecksError
+	if errors.As(err, &pce) {
+		msg = strings.Replace(msg, pce.Error(), pce.Error()+"\nto publish it anyway, give "+
+			flagOr(cmd, "accept-failed-checks", "acceptance of failed checks")+" with "+
+			flagOr(cmd, "accept-reason", "a reason")+" saying why the failed checks are accepted", 1)
 	}
 	return msg
 }
