@@ -122,6 +122,9 @@ func TestPublishRefusesFailedChecks(t *testing.T) {
 	loud := "PUBLISHED WITH FAILED CHECKS ACCEPTED by reviewer on "
 	check := "accepted misclosure: run 1, TC-0420 to TC-0427: misclosure -1.1072 m over 0.189 km exceeds the allowable 0.0026 m (second-I)"
 	out, _ = mustBin(t, db, 0, "trace", "TC-0423")
+	if !strings.Contains(out, `run 1 "Mere River levee line" (observed 2024-06-03, class second-I): book levee-line.csv`) {
+		t.Errorf("trace does not give the run's date and class:\n%s", out)
+	}
 	if !strings.Contains(out, loud) || !strings.Contains(out, ": "+why) || !strings.Contains(out, check) {
 		t.Errorf("trace does not show the acceptance:\n%s", out)
 	}
@@ -327,5 +330,75 @@ func TestPublishShowsChanges(t *testing.T) {
 		bm4.UnitChange || deref(bm4.CurrentVersion) != 3 ||
 		deref(bm2.CurrentUnit) != "m" || bm2.UnitChange || bm2.LargeChange || deref(bm2.Change) != "+0.000" {
 		t.Errorf("publish -o json: %s", out)
+	}
+}
+
+// trace gives each run's date and class, and how each held mark was held
+// (register.Parameters.HeldAs): fixed, weighted with its standard
+// deviation, or a check mark of a minimally constrained adjustment.
+func TestTraceShowsHowMarksWereHeld(t *testing.T) {
+	t.Parallel()
+	db := pgtest.New(t)
+	seedWorked(t, db, 1)
+	// BM2 gets a height of its own, to be held next.
+	mustRun(t, db.URL, "publish", adjustmentID(t, mustRun(t, db.URL, "adjust", "1", "--hold", "BM1", "-o", "json")),
+		"--reason", "worked circuit", "--yes")
+	publish := func(args ...string) {
+		t.Helper()
+		out, _, _ := run(t, db.URL, append([]string{"adjust", "1", "--method", "least-squares", "-o", "json"}, args...)...)
+		// A loop misclosing by 0.244 m over 30.5 km fails its tests at the
+		// default σ₀; accepted here, as the test is of the trace.
+		mustRun(t, db.URL, "publish", adjustmentID(t, out), "--reason", "least squares", "--yes",
+			"--accept-failed-checks", "--accept-reason", "a test of the trace")
+	}
+	traced := func() (string, traceJSON) {
+		t.Helper()
+		var tr traceJSON
+		if err := json.Unmarshal([]byte(mustRun(t, db.URL, "trace", "BM4", "-o", "json")), &tr); err != nil {
+			t.Fatal(err)
+		}
+		return mustRun(t, db.URL, "trace", "BM4"), tr
+	}
+
+	publish("--hold", "BM1", "--hold-weighted", "BM2=5")
+	text, tr := traced()
+	held := tr.Versions[0].Adjustment.Held
+	if len(held) != 2 || held[0].Mark != "BM1" || held[0].HeldAs != "fixed" || held[1].Mark != "BM2" || held[1].HeldAs != "weighted" ||
+		deref(held[1].HeldSDMM) != 5 {
+		t.Fatalf("trace -o json: held %+v", held)
+	}
+	for _, want := range []string{"held fixed:\n", "held weighted, sd 5 mm:\n", `run 1 "Worked circuit" (observed 2024-05-14, class not booked): book worked-circuit.csv`} {
+		if !strings.Contains(text, want) {
+			t.Errorf("trace lacks %q:\n%s", want, text)
+		}
+	}
+
+	publish("--hold", "BM1", "--hold", "BM2", "--minimal")
+	text, tr = traced()
+	if held := tr.Versions[0].Adjustment.Held; len(held) != 2 || held[0].HeldAs != "fixed" || held[1].HeldAs != "check" || held[1].HeldSDMM != nil {
+		t.Fatalf("trace -o json, minimal: held %+v", held)
+	}
+	if want := "check mark (minimally constrained: adjusted from the first held mark, not held):\n"; !strings.Contains(text, want) {
+		t.Errorf("trace lacks %q:\n%s", want, text)
+	}
+}
+
+// No message carries its program's name twice: cairn's own ("cairn:
+// cairn publish wants ...") or pg_restore's ("pg_restore: pg_restore:").
+func TestNoDoubledPrefixes(t *testing.T) {
+	t.Parallel()
+	db := pgtest.New(t)
+	if _, errOut, st := runBin(t, db, "publish"); st != ExitBadInput || errOut != "cairn: publish wants an ADJUSTMENT number (got 0 argument(s))\n" {
+		t.Errorf("publish without its argument: exit %d, %q", st, errOut)
+	}
+	if _, errOut, st := runBin(t, db, "run", "record"); st != ExitBadInput || errOut != "cairn: run record wants one level book (got 0 argument(s))\n" {
+		t.Errorf("run record without its argument: exit %d, %q", st, errOut)
+	}
+	junk := writeBook(t, "junk.dump", []byte("PGDMP but not really"))
+	other := &pgtest.DB{URL: freshDatabase(t, db)}
+	_, errOut, st := runBin(t, other, "restore", junk)
+	if st != ExitBadInput || !strings.Contains(errOut, "is not a backup cairn can read: pg_restore: ") ||
+		strings.Contains(errOut, "pg_restore: pg_restore") || strings.Contains(errOut, "cairn: cairn") {
+		t.Errorf("restore of junk: exit %d, %q", st, errOut)
 	}
 }
