@@ -85,18 +85,27 @@ func withDB(url string, args ...string) []string {
 }
 
 // runTool runs a PostgreSQL program; its error carries the program's own
-// message.
+// message, named once by the program (its own lines start with its name
+// already: "pg_restore: error: ...").
 func runTool(ctx context.Context, prog string, args ...string) error {
 	var stderr bytes.Buffer
 	cmd := exec.CommandContext(ctx, prog, args...)
 	cmd.Stderr = &stderr
 	if err := cmd.Run(); err != nil {
-		msg := strings.TrimSpace(stderr.String())
-		var ee *exec.ExitError
-		if errors.As(err, &ee) && msg != "" {
-			return fmt.Errorf("%s: %s", filepath.Base(prog), msg)
-		}
-		return fmt.Errorf("%s: %w", filepath.Base(prog), err)
+		return toolError(filepath.Base(prog), strings.TrimSpace(stderr.String()), err)
 	}
 	return nil
+}
+
+// toolError is the error of program name that failed with err, having
+// written msg on its error stream.
+func toolError(name, msg string, err error) error {
+	var ee *exec.ExitError
+	switch {
+	case !errors.As(err, &ee) || msg == "":
+		return fmt.Errorf("%s: %w", name, err)
+	case strings.HasPrefix(msg, name+":"):
+		return errors.New(msg)
+	}
+	return fmt.Errorf("%s: %s", name, msg)
 }

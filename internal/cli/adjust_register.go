@@ -312,7 +312,10 @@ type adjustmentJSON struct {
 	// disturbed, destroyed or not found.
 	MarksInDoubt []markInDoubtJSON `json:"marks_in_doubt"`
 	ChecksFailed int               `json:"checks_failed"`
-	Cautions     string            `json:"cautions"`
+	// AcceptedFailedChecks is the acceptance of failed checks the
+	// adjustment was published with; null when none.
+	AcceptedFailedChecks *acceptanceJSON `json:"accepted_failed_checks"`
+	Cautions             string          `json:"cautions"`
 }
 
 type markInDoubtJSON struct {
@@ -382,7 +385,7 @@ func toAdjustmentJSON(v *register.AdjustmentView, dryRun bool) adjustmentJSON {
 	j := adjustmentJSON{DryRun: dryRun, Status: a.Status, StatusReason: a.StatusReason, StatusBy: a.StatusBy, StatusAt: a.StatusAt,
 		Method: a.Method, Datum: a.DatumCode, Parameters: v.Parameters, CreatedBy: a.CreatedBy, ConditionReason: a.ConditionReason,
 		Runs: []runRefJSON{}, RunsLeftOut: []runRefJSON{}, Held: []heldJSON{}, Results: []resultJSON{}, Statistics: v.Statistics, MarksInDoubt: []markInDoubtJSON{},
-		ChecksFailed: v.Failed(), Cautions: adjustCautions}
+		ChecksFailed: v.Failed(), AcceptedFailedChecks: toAcceptanceJSON(v.Accepted), Cautions: adjustCautions}
 	if !dryRun {
 		id, at := a.ID, a.CreatedAt
 		j.AdjustmentID, j.CreatedAt = &id, &at
@@ -453,6 +456,9 @@ func renderAdjustment(ios *IOStreams, format Format, v *register.AdjustmentView,
 	if a.Status != store.StatusDraft && a.StatusAt != nil {
 		say("  %s %s by %s: %s\n", a.Status, timeText(*a.StatusAt), a.StatusBy, a.StatusReason)
 	}
+	if acc := j.AcceptedFailedChecks; acc != nil {
+		warnLoudly(ios, acceptanceText(acc, ""))
+	}
 	for _, r := range j.Runs {
 		say("  run %d %q: book %s, sha256 %s\n", r.RunID, r.Name, r.FileName, r.BookSHA256)
 		if v := r.Voided; v != nil {
@@ -509,6 +515,9 @@ func renderAdjustment(ios *IOStreams, format Format, v *register.AdjustmentView,
 	say("\n%s\n", adjustCautions)
 	if !dryRun && a.Status == store.StatusDraft {
 		say("\nReview it, then: cairn publish %d --reason \"...\"   or   cairn discard %d --reason \"...\"\n", a.ID, a.ID)
+		if n := v.Failed(); n > 0 {
+			say("%d check(s) failed: publishing refuses it unless they are accepted on purpose, with --accept-failed-checks --accept-reason \"...\"\n", n)
+		}
 	}
 	return nil
 }

@@ -51,6 +51,8 @@ func exitCode(err error) int {
 		soe *register.SameObservationsError
 		rve *register.RunVoidedError
 		cfe *register.ChecksFailedError
+		pce *register.PublishChecksError
+		nde *register.NotDraftError
 		cf  checksFailed
 		ce  *register.ConflictError
 	)
@@ -59,11 +61,13 @@ func exitCode(err error) int {
 		return ExitOK
 	case errors.As(err, &fe), errors.As(err, &ie), errors.As(err, &le),
 		errors.As(err, &ume), errors.As(err, &are), errors.As(err, &soe), errors.As(err, &cfe),
-		errors.As(err, &rve):
+		errors.As(err, &rve), errors.As(err, &pce), errors.As(err, &nde):
 		// A refused book (unknown marks, already recorded, the same
 		// observations as a run, failed checks without
 		// --accept-failed-checks) and a voided run named are bad input:
-		// nothing was written.
+		// nothing was written. So is a refused publication (failed checks
+		// not accepted), and publishing or discarding an adjustment no
+		// longer a draft: a request that can never succeed.
 		return ExitBadInput
 	case errors.As(err, &cf):
 		return ExitChecks
@@ -110,7 +114,9 @@ var fieldFlags = map[string]map[string]string{
 //   - a register.ChecksFailedError advises --accept-failed-checks with
 //     --reason;
 //   - a register.SameObservationsError advises `cairn run void` when the
-//     run holding the observations is wrong.
+//     run holding the observations is wrong;
+//   - a register.PublishChecksError advises --accept-failed-checks with
+//     --accept-reason.
 //
 // The rest of the message is err's own.
 func errorMessage(cmd *cobra.Command, err error) string {
@@ -139,6 +145,12 @@ func errorMessage(cmd *cobra.Command, err error) string {
 		msg = strings.Replace(msg, cfe.Error(), cfe.Error()+"\nto record it anyway, give "+
 			flagOr(cmd, "accept-failed-checks", "acceptance of failed checks")+" with "+
 			flagOr(cmd, "reason", "a reason")+" saying why", 1)
+	}
+	var pce *register.PublishChecksError
+	if errors.As(err, &pce) {
+		msg = strings.Replace(msg, pce.Error(), pce.Error()+"\nto publish it anyway, give "+
+			flagOr(cmd, "accept-failed-checks", "acceptance of failed checks")+" with "+
+			flagOr(cmd, "accept-reason", "a reason")+" saying why the failed checks are accepted", 1)
 	}
 	return msg
 }

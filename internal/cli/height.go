@@ -3,6 +3,7 @@ package cli
 import (
 	"context"
 	"encoding/hex"
+	"fmt"
 	"strconv"
 	"time"
 
@@ -389,11 +390,20 @@ func historyRun(opts *historyOptions) error {
 		return err
 	}
 	warnCondition(ios, m)
-	out := []heightJSON{}
+	// A version from a publication that accepted failed checks carries the
+	// acceptance.
+	type historyJSON struct {
+		heightJSON
+		AcceptedFailedChecks *acceptanceJSON `json:"accepted_failed_checks,omitempty"`
+	}
+	out := []historyJSON{}
 	for _, h := range hs {
-		j := toHeightJSON(h.Height, "")
+		j := historyJSON{heightJSON: toHeightJSON(h.Height, ""), AcceptedFailedChecks: toAcceptanceJSON(h.Accepted)}
 		j.Change = h.Change
 		out = append(out, j)
+		if j.AcceptedFailedChecks != nil && opts.format != FormatJSON {
+			warnLoudly(ios, fmt.Sprintf("%s on %s, version %d: %s", j.Mark, j.Datum, j.Version, acceptanceText(j.AcceptedFailedChecks, "")))
+		}
 	}
 	defer reportCautions(ios, opts.format)
 	return render(ios, opts.format, out, func() Table {

@@ -3,8 +3,10 @@ package cli
 import (
 	"context"
 	"fmt"
+	"math"
 	"strconv"
 	"strings"
+	"time"
 
 	"github.com/spf13/cobra"
 
@@ -20,6 +22,11 @@ type publishOptions struct {
 	reason string
 	by     string
 	yes    bool
+	// Publish only: acceptance of failed checks, its reason, and the
+	// threshold of a large change in metres.
+	accept       bool
+	acceptReason string
+	largeChangeM float64
 }
 
 func (o *publishOptions) parse(args []string) error {
@@ -34,10 +41,24 @@ func (o *publishOptions) parse(args []string) error {
 	return nil
 }
 
+// parseAcceptance checks publish's own flags.
+func (o *publishOptions) parseAcceptance() error {
+	o.acceptReason = strings.TrimSpace(o.acceptReason)
+	switch {
+	case o.accept && o.acceptReason == "":
+		return badInput("--accept-failed-checks needs --accept-reason saying why the failed checks are accepted")
+	case !o.accept && o.acceptReason != "":
+		return badInput("--accept-reason goes with --accept-failed-checks")
+	case !(o.largeChangeM > 0) || math.IsInf(o.largeChangeM, 0):
+		return badInput("--large-change-m: give a positive number of metres, not %v", o.largeChangeM)
+	}
+	return nil
+}
+
 func newCmdPublish(f *Factory, runF func(*publishOptions) error) *cobra.Command {
 	opts := &publishOptions{f: f}
 	cmd := &cobra.Command{
-		Use:   "publish ADJUSTMENT --reason TEXT [--by NAME] [--yes]",
+		Use:   "publish ADJUSTMENT --reason TEXT [--by NAME] [--yes] [--accept-failed-checks --accept-reason TEXT]",
 		Short: "Publish a draft adjustment's heights as new versions",
 		Long: `Publish a draft adjustment: each mark it adjusted gets a new height version,
 with the reason given, citing the adjustment. It happens in one transaction:
@@ -49,73 +70,302 @@ of those marks since the draft was made, it stops with a conflict naming the
 mark (exit status 4) and writes nothing: adjust again against the current
 heights.
 
-On a terminal it asks for confirmation; otherwise --yes is required.
+It then refuses (exit status 2, nothing written) a draft whose checks
+failed, listing each:
+  - a stretch whose misclosure exceeds the allowable of its class;
+  - a failed chi-square test of the variance factor (least squares);
+  - each section, or mark held weighted, flagged by data snooping;
+  - a held mark whose latest condition report, read now, says disturbed,
+    destroyed or not found (a report made after the draft counts).
+To publish such a draft on purpose, give --accept-failed-checks with
+--accept-reason saying why the failed checks are accepted (--reason says why
+the heights are published). The acceptance, its reason, who gave it and the
+checks are kept with the publication and shown by trace, history and
+adjustment show.
+
+An adjustment already published or discarded cannot be published: exit
+status 2.
+
+Before publishing it lists every mark: the height in force (converted
+exactly to the unit it will be published in) and the new one, the change,
+the unit and the class. A change over --large-change-m metres, and a mark
+whose published unit changes (m, ft, usft), are called out. On a terminal it
+asks for confirmation; otherwise --yes is required. -o json gives the same
+list under "changes".
 
 ` + adjustCautions,
-		Example: `  cairn publish 3 --reason "north loop of May 2024, reviewed by J. Ames, PLS"`,
-		Args:    exactArgs(1, "an ADJUSTMENT number"),
+		Example: `  cairn publish 3 --reason "north loop of May 2024, reviewed by J. Ames, PLS"
+  cairn publish 4 --reason "levee line of June 2024" \
+    --accept-failed-checks --accept-reason "misclosure explained: TC-0423 re-set, see field note 17"`,
+		Args: exactArgs(1, "an ADJUSTMENT number"),
 		RunE: func(cmd *cobra.Command, args []string) error {
 			opts.ctx = cmd.Context()
 			if err := opts.parse(args); err != nil {
+				return err
+			}
+			if err := opts.parseAcceptance(); err != nil {
 				return err
 			}
 			return dispatch(opts, runF, publishRun)
 		},
 	}
 	addOutputFlag(cmd, &opts.format)
-	cmd.Flags().StringVar(&opts.reason, "reason", "", "why these heights are published (required; kept with every version)")
-	cmd.Flags().StringVar(&opts.by, "by", osUser(), "who publishes")
-	cmd.Flags().BoolVar(&opts.yes, "yes", false, "publish without asking (required when not on a terminal)")
+	fl := cmd.Flags()
+	fl.StringVar(&opts.reason, "reason", "", "why these heights are published (required; kept with every version)")
+	fl.StringVar(&opts.by, "by", osUser(), "who publishes")
+	fl.BoolVar(&opts.yes, "yes", false, "publish without asking (required when not on a terminal)")
+	fl.BoolVar(&opts.accept, "accept-failed-checks", false, "publish even though checks failed (needs --accept-reason; kept with the publication)")
+	fl.StringVar(&opts.acceptReason, "accept-reason", "", "with --accept-failed-checks: why the failed checks are accepted")
+	fl.Float64Var(&opts.largeChangeM, "large-change-m", register.DefaultLargeChangeM, "call out a change of a height larger than this, in metres")
 	return cmd
 }
 
-// publishRun publishes the draft once confirmed.
+// markChangeJSON is what a publication changes for one mark.
+type markChangeJSON struct {
+	Mark string `json:"mark"`
+	// CurrentVersion, CurrentPublished and CurrentUnit are the version in
+	// force before, as published (null for a first height).
+	CurrentVersion   *int    `json:"current_version"`
+	CurrentPublished *string `json:"current_published"`
+	CurrentUnit      *string `json:"current_unit"`
+	CurrentClass     *string `json:"current_class"`
+	// CurrentValue is the current value converted exactly to Unit.
+	CurrentValue *string  `json:"current_value"`
+	NewValue     string   `json:"new_value"`
+	Unit         string   `json:"unit"`
+	Decimals     int      `json:"decimals"`
+	Class        string   `json:"class"`
+	Change       *string  `json:"change"`
+	ChangeM      *float64 `json:"change_m"`
+	LargeChange  bool     `json:"large_change"`
+	UnitChange   bool     `json:"unit_change"`
+}
+
+func toMarkChangeJSON(c register.MarkChange) markChangeJSON {
+	j := markChangeJSON{Mark: c.Designation, NewValue: c.Value, Unit: c.Unit, Decimals: c.Decimals, Class: c.Class,
+		ChangeM: c.ChangeM, LargeChange: c.Large, UnitChange: c.UnitChanged}
+	if cur := c.Current; cur != nil {
+		v, class := cur.Version, cur.Class
+		j.CurrentVersion, j.CurrentPublished, j.CurrentUnit, j.CurrentClass = &v, cur.Value, cur.Unit, &class
+	}
+	if c.CurrentValue != "" {
+		v := c.CurrentValue
+		j.CurrentValue = &v
+	}
+	if c.Change != "" {
+		d := c.Change
+		j.Change = &d
+	}
+	return j
+}
+
+// failedCheckJSON is a failed check in machine output.
+type failedCheckJSON struct {
+	Kind    string `json:"kind"`
+	Message string `json:"message"`
+	RunID   *int64 `json:"run_id"`
+	Mark    string `json:"mark,omitempty"`
+}
+
+// acceptanceJSON is a publication's acceptance of failed checks.
+type acceptanceJSON struct {
+	Reason string            `json:"reason"`
+	By     string            `json:"by"`
+	At     time.Time         `json:"at"`
+	Checks []failedCheckJSON `json:"checks"`
+}
+
+func toFailedChecksJSON(cs []register.FailedCheck) []failedCheckJSON {
+	out := []failedCheckJSON{}
+	for _, c := range cs {
+		j := failedCheckJSON{Kind: c.Kind, Message: c.Message, Mark: c.Mark}
+		if c.RunID != 0 {
+			id := c.RunID
+			j.RunID = &id
+		}
+		out = append(out, j)
+	}
+	return out
+}
+
+// toAcceptanceJSON is nil for no acceptance.
+func toAcceptanceJSON(a *register.Acceptance) *acceptanceJSON {
+	if a == nil {
+		return nil
+	}
+	return &acceptanceJSON{Reason: a.Reason, By: a.By, At: a.At, Checks: toFailedChecksJSON(a.Checks)}
+}
+
+// acceptanceText is the loud statement of an acceptance of failed checks,
+// a line for each check after the first, indented by indent.
+func acceptanceText(a *acceptanceJSON, indent string) string {
+	var b strings.Builder
+	fmt.Fprintf(&b, "PUBLISHED WITH FAILED CHECKS ACCEPTED by %s on %s: %s", a.By, timeText(a.At), a.Reason)
+	for _, c := range a.Checks {
+		fmt.Fprintf(&b, "\n%s  accepted %s: %s", indent, c.Kind, c.Message)
+	}
+	return b.String()
+}
+
+// publishJSON is `publish -o json`.
+type publishJSON struct {
+	AdjustmentID int64            `json:"adjustment_id"`
+	Datum        string           `json:"datum"`
+	Reason       string           `json:"reason"`
+	PublishedBy  string           `json:"published_by"`
+	PublishedAt  *time.Time       `json:"published_at"`
+	LargeChangeM float64          `json:"large_change_m"`
+	Changes      []markChangeJSON `json:"changes"`
+	Versions     []heightJSON     `json:"versions"`
+	// AcceptedFailedChecks is null when every check passed.
+	AcceptedFailedChecks *acceptanceJSON `json:"accepted_failed_checks"`
+	Cautions             string          `json:"cautions"`
+}
+
+// changesTable is the list of what a publication changes, mark by mark,
+// with the new versions' numbers when they are known (versions, by
+// designation; nil before publishing).
+func changesTable(changes []register.MarkChange, versions map[string]int) Table {
+	t := Table{Headers: []string{"MARK", "CURRENT", "NEW", "CHANGE", "UNIT", "CLASS", "NOTE"}}
+	if versions != nil {
+		t.Headers = append([]string{"MARK", "VERSION"}, t.Headers[1:]...)
+	}
+	for _, c := range changes {
+		cur, class := "(first)", c.Class
+		if c.Current != nil {
+			cur = c.CurrentValue
+			if c.Current.Value == nil {
+				cur = "(withdrawn)"
+			}
+			if c.Current.Class != c.Class {
+				class = orNone(c.Current.Class) + " -> " + orNone(c.Class)
+			}
+		}
+		row := []string{c.Designation, cur, c.Value, c.Change, c.Unit, class, strings.Join(changeNotes(c), "; ")}
+		if versions != nil {
+			row = append([]string{c.Designation, strconv.Itoa(versions[c.Designation])}, row[1:]...)
+		}
+		t.AddRow(row...)
+	}
+	return t
+}
+
+func orNone(s string) string {
+	if s == "" {
+		return "(none)"
+	}
+	return s
+}
+
+// changeNotes call out a large change and a change of unit.
+func changeNotes(c register.MarkChange) []string {
+	var notes []string
+	if c.Large {
+		notes = append(notes, "LARGE CHANGE")
+	}
+	if c.UnitChanged {
+		notes = append(notes, fmt.Sprintf("UNIT CHANGES: was %s %s", *c.Current.Value, *c.Current.Unit))
+	}
+	return notes
+}
+
+// callOutChanges warns loudly, on ErrOut, of each large change and each
+// change of unit.
+func callOutChanges(ios *IOStreams, changes []register.MarkChange, largeM float64) {
+	var lines []string
+	for _, c := range changes {
+		if c.Large {
+			inM := ""
+			if c.Unit != "m" {
+				inM = fmt.Sprintf(" (%+.4f m)", *c.ChangeM)
+			}
+			lines = append(lines, fmt.Sprintf("LARGE CHANGE: %s changes by %s %s%s, more than %g m: from %s %s to %s %s",
+				c.Designation, c.Change, c.Unit, inM, largeM, c.CurrentValue, c.Unit, c.Value, c.Unit))
+		}
+		if c.UnitChanged {
+			lines = append(lines, fmt.Sprintf("UNIT CHANGES: %s was published in %s (%s %s, exactly %s %s) and will be published in %s",
+				c.Designation, *c.Current.Unit, *c.Current.Value, *c.Current.Unit, c.CurrentValue, c.Unit, c.Unit))
+		}
+	}
+	if len(lines) > 0 {
+		warnLoudly(ios, strings.Join(lines, "\n"))
+	}
+}
+
+// publishRun shows what the publication changes, refuses failed checks
+// not accepted, and publishes once confirmed.
 func publishRun(opts *publishOptions) error {
-	ctx := opts.ctx
+	ctx, ios := opts.ctx, opts.f.IO
 	r, err := openRegister(ctx, opts.f)
 	if err != nil {
 		return err
 	}
-	v, err := r.Adjustment(ctx, opts.id)
+	pv, err := r.PublishPreview(ctx, opts.id, opts.largeChangeM)
 	if err != nil {
 		return err
 	}
-	if !opts.yes {
-		n := 0
-		for _, res := range v.Results {
-			if !res.Held {
-				n++
-			}
+	if !opts.accept {
+		if err := pv.Refusal(); err != nil {
+			return err
 		}
-		if err := confirm(opts.f.IO, fmt.Sprintf("Publish %d new height(s) on %s from adjustment %d?", n, v.Adjustment.DatumCode, opts.id)); err != nil {
+	} else if len(pv.Failed) == 0 {
+		ios.printf("--accept-failed-checks: every check of adjustment %d passed; there is nothing to accept, and no acceptance is recorded\n", opts.id)
+	}
+	if !opts.yes {
+		ios.printf("Adjustment %d would publish %d new height(s) on %s:\n", opts.id, len(pv.Changes), pv.View.Adjustment.DatumCode)
+		if err := writeTable(&IOStreams{Out: ios.ErrOut, IsTerminal: true}, FormatTable, changesTable(pv.Changes, nil)); err != nil {
+			return err
+		}
+		callOutChanges(ios, pv.Changes, pv.LargeChangeM)
+		if opts.accept && len(pv.Failed) > 0 {
+			warnLoudly(ios, fmt.Sprintf("PUBLISHING WITH FAILED CHECKS ACCEPTED by %s: %s%s", opts.by, opts.acceptReason,
+				checkLines(pv.Failed)))
+		}
+		if err := confirm(ios, fmt.Sprintf("Publish %d new height(s) on %s from adjustment %d?", len(pv.Changes), pv.View.Adjustment.DatumCode, opts.id)); err != nil {
 			return err
 		}
 	}
-	pub, err := r.Publish(ctx, register.PublishParams{AdjustmentID: opts.id, Reason: opts.reason, By: opts.by})
+	pub, err := r.Publish(ctx, register.PublishParams{AdjustmentID: opts.id, Reason: opts.reason, By: opts.by,
+		AcceptFailedChecks: opts.accept, AcceptReason: opts.acceptReason, LargeChangeM: opts.largeChangeM})
 	if err != nil {
 		return err
 	}
-	out := []heightJSON{}
+	a := pub.Adjustment
+	out := publishJSON{AdjustmentID: a.ID, Datum: a.DatumCode, Reason: a.StatusReason, PublishedBy: a.StatusBy, PublishedAt: a.StatusAt,
+		LargeChangeM: pub.LargeChangeM, Changes: []markChangeJSON{}, Versions: []heightJSON{},
+		AcceptedFailedChecks: toAcceptanceJSON(pub.Accepted), Cautions: adjustCautions}
+	for _, c := range pub.Changes {
+		out.Changes = append(out.Changes, toMarkChangeJSON(c))
+	}
 	for _, h := range pub.Versions {
-		out = append(out, toHeightJSON(h, ""))
+		out.Versions = append(out.Versions, toHeightJSON(h, ""))
 	}
-	if opts.format != FormatJSON {
-		opts.f.IO.printf("Published adjustment %d: %d new height version(s).\n", opts.id, len(out))
+	if opts.format == FormatJSON {
+		return writeJSON(ios.Out, out)
 	}
-	err = render(opts.f.IO, opts.format, out, func() Table {
-		t := Table{Headers: []string{"MARK", "DATUM", "VERSION", "HEIGHT", "UNIT", "CLASS"}}
-		for _, h := range out {
-			t.AddRow(h.Mark, h.Datum, strconv.Itoa(h.Version), deref(h.Value), deref(h.Unit), h.Class)
-		}
-		return t
-	})
-	if err != nil {
+	ios.printf("Published adjustment %d: %d new height version(s) on %s.\n", opts.id, len(out.Versions), a.DatumCode)
+	versions := map[string]int{}
+	for _, h := range pub.Versions {
+		versions[h.Designation] = h.Version
+	}
+	if err := writeTable(ios, opts.format, changesTable(pub.Changes, versions)); err != nil {
 		return err
 	}
-	if opts.format != FormatJSON {
-		opts.f.IO.printf("\n%s\n", adjustCautions)
+	callOutChanges(ios, pub.Changes, pub.LargeChangeM)
+	if out.AcceptedFailedChecks != nil {
+		warnLoudly(ios, acceptanceText(out.AcceptedFailedChecks, ""))
 	}
+	ios.printf("\n%s\n", adjustCautions)
 	return nil
+}
+
+// checkLines are the failed checks, a line each.
+func checkLines(cs []register.FailedCheck) string {
+	var b strings.Builder
+	for _, c := range cs {
+		fmt.Fprintf(&b, "\n  %s: %s", c.Kind, c.Message)
+	}
+	return b.String()
 }
 
 func newCmdDiscard(f *Factory, runF func(*publishOptions) error) *cobra.Command {
@@ -124,7 +374,8 @@ func newCmdDiscard(f *Factory, runF func(*publishOptions) error) *cobra.Command 
 		Use:   "discard ADJUSTMENT --reason TEXT [--by NAME] [--yes]",
 		Short: "Set a draft adjustment aside for good",
 		Long: `Set a draft adjustment aside: it stays in the register, with the reason,
-but can no longer be published.
+but can no longer be published. An adjustment already published or
+discarded cannot be discarded: exit status 2.
 
 On a terminal it asks for confirmation; otherwise --yes is required.`,
 		Args: exactArgs(1, "an ADJUSTMENT number"),

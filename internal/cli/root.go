@@ -131,7 +131,7 @@ level book (see docs/levelbook.md).`
 func exactArgs(n int, names string) cobra.PositionalArgs {
 	return func(cmd *cobra.Command, args []string) error {
 		if len(args) != n {
-			return badInput("%s wants %s (got %d argument(s))", cmd.CommandPath(), names, len(args))
+			return badInput("%s wants %s (got %d argument(s))", commandName(cmd), names, len(args))
 		}
 		return nil
 	}
@@ -141,10 +141,16 @@ func exactArgs(n int, names string) cobra.PositionalArgs {
 func minArgs(n int, names string) cobra.PositionalArgs {
 	return func(cmd *cobra.Command, args []string) error {
 		if len(args) < n {
-			return badInput("%s wants %s", cmd.CommandPath(), names)
+			return badInput("%s wants %s", commandName(cmd), names)
 		}
 		return nil
 	}
+}
+
+// commandName is cmd's path without the root's name ("run record"): every
+// error is printed after "cairn: " already.
+func commandName(cmd *cobra.Command) string {
+	return strings.TrimPrefix(cmd.CommandPath(), cmd.Root().Name()+" ")
 }
 
 // reportPeakMemory writes the process's peak resident memory (VmHWM of

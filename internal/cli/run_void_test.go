@@ -232,7 +232,7 @@ func TestRunVoid(t *testing.T) {
 
 	// Trace shows the void on the run.
 	tr := binMustRun(t, db.URL, "trace", "BM3")
-	if want := fmt.Sprintf("run %d \"Worked circuit\": book worked-circuit.csv", r1); !strings.Contains(tr, want) ||
+	if want := fmt.Sprintf("run %d \"Worked circuit\" (observed 2024-05-14, class not booked): book worked-circuit.csv", r1); !strings.Contains(tr, want) ||
 		!strings.Contains(tr, "VOIDED "+voided+"\n") {
 		t.Errorf("trace BM3 lacks the void:\n%s", tr)
 	}

@@ -10,6 +10,7 @@ import (
 
 	"github.com/spf13/cobra"
 
+	"cairn/internal/adjust"
 	"cairn/internal/register"
 )
 
@@ -26,7 +27,13 @@ type traceVersionJSON struct {
 	heightJSON
 	HeightID int64 `json:"height_id"`
 	// Repeated: the derivation is given earlier in the same trace.
-	Repeated   bool                 `json:"repeated"`
+	Repeated bool `json:"repeated"`
+	// HeldAs, for a version an adjustment held, is how it held it: fixed,
+	// weighted (with HeldSDMM, the standard deviation in millimetres) or
+	// check (a check mark of a minimally constrained adjustment: adjusted
+	// from the first held mark, not held).
+	HeldAs     string               `json:"held_as,omitempty"`
+	HeldSDMM   *float64             `json:"held_sd_mm,omitempty"`
 	Adjustment *traceAdjustmentJSON `json:"adjustment,omitempty"`
 }
 
@@ -39,18 +46,24 @@ type traceAdjustmentJSON struct {
 	StatusReason string             `json:"status_reason"`
 	Runs         []runRefJSON       `json:"runs"`
 	Held         []traceVersionJSON `json:"held"`
+	// AcceptedFailedChecks is the acceptance of failed checks the
+	// adjustment was published with; null when none.
+	AcceptedFailedChecks *acceptanceJSON `json:"accepted_failed_checks"`
 }
 
 func toTraceVersionJSON(n *register.TraceVersion) traceVersionJSON {
 	j := traceVersionJSON{heightJSON: toHeightJSON(n.Height, ""), HeightID: n.ID, Repeated: n.Repeated}
 	if a := n.Adjustment; a != nil {
 		ja := &traceAdjustmentJSON{AdjustmentID: a.ID, Method: a.Method, Status: a.Status, StatusBy: a.StatusBy,
-			StatusAt: a.StatusAt, StatusReason: a.StatusReason, Runs: []runRefJSON{}, Held: []traceVersionJSON{}}
+			StatusAt: a.StatusAt, StatusReason: a.StatusReason, Runs: []runRefJSON{}, Held: []traceVersionJSON{},
+			AcceptedFailedChecks: toAcceptanceJSON(a.Accepted)}
 		for _, r := range a.Runs {
 			ja.Runs = append(ja.Runs, toRunRef(r))
 		}
 		for _, h := range a.Held {
-			ja.Held = append(ja.Held, toTraceVersionJSON(h))
+			jh := toTraceVersionJSON(h)
+			jh.HeldAs, jh.HeldSDMM = heldAs(a.Parameters, h.Designation)
+			ja.Held = append(ja.Held, jh)
 		}
 		j.Adjustment = ja
 	}
@@ -114,7 +127,8 @@ func traceRun(opts *traceOptions) error {
 	case FormatJSON:
 		return writeJSON(ios.Out, out)
 	case FormatCSV:
-		t := Table{Headers: []string{"depth", "node", "mark", "datum", "version", "value", "unit", "source_kind", "source", "adjustment_id", "run_id", "book_sha256"}}
+		t := Table{Headers: []string{"depth", "node", "mark", "datum", "version", "value", "unit", "source_kind", "source", "adjustment_id", "run_id", "book_sha256",
+			"held_as", "accepted_failed_checks"}}
 		for _, v := range out.Versions {
 			traceRows(&t, v, 0)
 		}
@@ -127,6 +141,48 @@ func traceRun(opts *traceOptions) error {
 		writeTrace(ios.Out, v, "")
 	}
 	return nil
+}
+
+// heldAs names how an adjustment with settings pm held mark
+// (register.Parameters.HeldAs, the one rule), with the standard deviation
+// in millimetres of a mark held weighted.
+func heldAs(pm register.Parameters, mark string) (string, *float64) {
+	switch pm.HeldAs(mark) {
+	case adjust.HeldWeighted:
+		sd := pm.HoldSDMM[mark]
+		return "weighted", &sd
+	case adjust.HeldCheck:
+		return "check", nil
+	case adjust.HeldFixed:
+		return "fixed", nil
+	}
+	return "", nil
+}
+
+// heldText is how a held version was held, as the trace says it.
+func heldText(v traceVersionJSON) string {
+	switch v.HeldAs {
+	case "weighted":
+		return fmt.Sprintf("held weighted, sd %g mm:", deref(v.HeldSDMM))
+	case "check":
+		return "check mark (minimally constrained: adjusted from the first held mark, not held):"
+	case "fixed":
+		return "held fixed:"
+	}
+	return "held:"
+}
+
+// runText is a run's date and class as the trace says them.
+func runText(r runRefJSON) string {
+	date := "date not booked"
+	if r.ObservedOn != nil {
+		date = "observed " + r.ObservedOn.Format("2006-01-02")
+	}
+	class := "class not booked"
+	if r.Class != "" {
+		class = "class " + r.Class
+	}
+	return date + ", " + class
 }
 
 // writeTrace writes the tree under v, indented.
@@ -145,14 +201,17 @@ func writeTrace(w io.Writer, v traceVersionJSON, indent string) {
 			status += fmt.Sprintf(" %s by %s: %s", timeText(*a.StatusAt), a.StatusBy, a.StatusReason)
 		}
 		fmt.Fprintf(w, "%sfrom adjustment %d (%s), %s\n", in, a.AdjustmentID, a.Method, status)
+		if acc := a.AcceptedFailedChecks; acc != nil {
+			fmt.Fprintf(w, "%s%s\n", in, acceptanceText(acc, in))
+		}
 		for _, r := range a.Runs {
-			fmt.Fprintf(w, "%s    run %d %q: book %s, sha256 %s\n", in, r.RunID, r.Name, r.FileName, r.BookSHA256)
+			fmt.Fprintf(w, "%s    run %d %q (%s): book %s, sha256 %s\n", in, r.RunID, r.Name, runText(r), r.FileName, r.BookSHA256)
 			if v := r.Voided; v != nil {
 				fmt.Fprintf(w, "%s        VOIDED %s by %s: %s\n", in, timeText(v.VoidedAt), v.VoidedBy, v.Reason)
 			}
 		}
 		for _, h := range a.Held {
-			fmt.Fprintf(w, "%s    held:\n", in)
+			fmt.Fprintf(w, "%s    %s\n", in, heldText(h))
 			writeTrace(w, h, in+"        ")
 		}
 	default:
@@ -165,12 +224,17 @@ func traceRows(t *Table, v traceVersionJSON, depth int) {
 	if v.Adjustment != nil {
 		adj = strconv.FormatInt(v.Adjustment.AdjustmentID, 10)
 	}
-	t.AddRow(strconv.Itoa(depth), "version", v.Mark, v.Datum, strconv.Itoa(v.Version), deref(v.Value), deref(v.Unit), v.SourceKind, v.Source, adj, "", "")
+	accepted := ""
+	if v.Adjustment != nil && v.Adjustment.AcceptedFailedChecks != nil {
+		accepted = acceptanceText(v.Adjustment.AcceptedFailedChecks, "")
+	}
+	t.AddRow(strconv.Itoa(depth), "version", v.Mark, v.Datum, strconv.Itoa(v.Version), deref(v.Value), deref(v.Unit), v.SourceKind, v.Source, adj, "", "",
+		v.HeldAs, accepted)
 	if v.Adjustment == nil || v.Repeated {
 		return
 	}
 	for _, r := range v.Adjustment.Runs {
-		t.AddRow(strconv.Itoa(depth+1), "run", "", "", "", "", "", "", r.FileName, adj, strconv.FormatInt(r.RunID, 10), r.BookSHA256)
+		t.AddRow(strconv.Itoa(depth+1), "run", "", "", "", "", "", "", r.FileName, adj, strconv.FormatInt(r.RunID, 10), r.BookSHA256, "", "")
 	}
 	for _, h := range v.Adjustment.Held {
 		traceRows(t, h, depth+1)

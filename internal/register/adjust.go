@@ -135,6 +135,9 @@ type AdjustmentView struct {
 	// made: a height published for them describes a mark that may have
 	// moved or be gone.
 	InDoubt []MarkInDoubt
+	// Accepted is the acceptance of failed checks the adjustment was
+	// published with; nil for none (and for a draft).
+	Accepted *Acceptance
 }
 
 // MarkInDoubt is an adjusted mark whose latest condition report puts it in

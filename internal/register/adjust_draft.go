@@ -181,6 +181,9 @@ func (r *Register) adjustmentView(ctx context.Context, db store.DBTX, id int64, 
 	if err := json.Unmarshal(v.Adjustment.Statistics, &v.Statistics); err != nil {
 		return fmt.Errorf("decode statistics of adjustment %d: %w", id, err)
 	}
+	if v.Accepted, err = AcceptanceOf(v.Adjustment); err != nil {
+		return err
+	}
 	if v.Runs, err = store.AdjustmentRunList(ctx, db, id); err != nil {
 		return err
 	}

@@ -218,6 +218,9 @@ type HistoryEntry struct {
 	// unit and decimals (the previous one converted exactly if its unit
 	// differs); nil for a first version and when either has no value.
 	Change *string
+	// Accepted is, for a version from an adjustment published with failed
+	// checks accepted, that acceptance; nil otherwise.
+	Accepted *Acceptance
 }
 
 // History returns every version of a mark's heights, newest first within
@@ -225,6 +228,7 @@ type HistoryEntry struct {
 func (r *Register) History(ctx context.Context, designation, datum string) (store.Mark, []HistoryEntry, error) {
 	var m store.Mark
 	var hs []store.Height
+	var accepted map[int64]*Acceptance
 	err := r.withTx(ctx, readTx, func(tx pgx.Tx) error {
 		var err error
 		if m, err = r.mark(ctx, tx, "designation", designation, false); err != nil {
@@ -238,7 +242,10 @@ func (r *Register) History(ctx context.Context, designation, datum string) (stor
 			}
 			q.DatumID = d.ID
 		}
-		hs, err = store.HeightHistory(ctx, tx, q)
+		if hs, err = store.HeightHistory(ctx, tx, q); err != nil {
+			return err
+		}
+		accepted, err = acceptances(ctx, tx, hs)
 		return err
 	})
 	if err != nil {
@@ -247,6 +254,9 @@ func (r *Register) History(ctx context.Context, designation, datum string) (stor
 	out := make([]HistoryEntry, len(hs))
 	for i, h := range hs {
 		out[i].Height = h
+		if h.AdjustmentID != nil {
+			out[i].Accepted = accepted[*h.AdjustmentID]
+		}
 		if i+1 < len(hs) && hs[i+1].DatumID == h.DatumID {
 			c, err := change(h, hs[i+1])
 			if err != nil {
@@ -256,6 +266,31 @@ func (r *Register) History(ctx context.Context, designation, datum string) (stor
 		}
 	}
 	return m, out, nil
+}
+
+// acceptances returns, by adjustment, the acceptances of failed checks of
+// the adjustments the versions hs came from (those that accepted any).
+func acceptances(ctx context.Context, db store.DBTX, hs []store.Height) (map[int64]*Acceptance, error) {
+	out := map[int64]*Acceptance{}
+	seen := map[int64]bool{}
+	for _, h := range hs {
+		if h.AdjustmentID == nil || seen[*h.AdjustmentID] {
+			continue
+		}
+		seen[*h.AdjustmentID] = true
+		a, err := store.AdjustmentGet(ctx, db, store.AdjustmentGetParams{ID: *h.AdjustmentID})
+		if err != nil {
+			return nil, fmt.Errorf("look up adjustment %d of %s version %d: %w", *h.AdjustmentID, h.Designation, h.Version, err)
+		}
+		acc, err := AcceptanceOf(a)
+		if err != nil {
+			return nil, err
+		}
+		if acc != nil {
+			out[a.ID] = acc
+		}
+	}
+	return out, nil
 }
 
 // change returns cur − prev in cur's unit, with exact arithmetic (prev

@@ -2,6 +2,8 @@ package register
 
 import (
 	"context"
+	"encoding/json"
+	"errors"
 	"fmt"
 	"sort"
 	"strings"
@@ -17,49 +19,138 @@ type PublishParams struct {
 	// Reason is kept with the publication and with every new version.
 	Reason string
 	By     string
+	// AcceptFailedChecks publishes a draft whose checks failed (see
+	// FailedCheck); AcceptReason, required with it, says why they are
+	// accepted. Both are kept with the publication, with the checks.
+	AcceptFailedChecks bool
+	AcceptReason       string
+	// LargeChangeM is the change, in metres, over which a new height is
+	// called out (Published.Changes); 0 means DefaultLargeChangeM.
+	LargeChangeM float64
 }
 
-// Published is a publication: the adjustment as it now stands and the
-// versions it wrote, by designation.
+// check trims p and refuses what is missing.
+func (p *PublishParams) check() error {
+	p.Reason, p.By, p.AcceptReason = strings.TrimSpace(p.Reason), strings.TrimSpace(p.By), strings.TrimSpace(p.AcceptReason)
+	switch {
+	case p.Reason == "":
+		return inputErr("reason", "say why these heights are published")
+	case p.By == "":
+		return inputErr("by", "say who publishes")
+	case p.AcceptFailedChecks && p.AcceptReason == "":
+		return inputErr("accept-reason", "say why the failed checks are accepted")
+	case !p.AcceptFailedChecks && p.AcceptReason != "":
+		return inputErr("accept-reason", "a reason for accepting failed checks goes with accepting them")
+	}
+	var err error
+	p.LargeChangeM, err = checkLargeChange(p.LargeChangeM)
+	return err
+}
+
+// Published is a publication: the adjustment as it now stands, the
+// versions it wrote, by designation, what they changed, and the failed
+// checks it accepted (nil when none failed).
 type Published struct {
 	Adjustment store.Adjustment
 	Versions   []store.Height
+	Changes    []MarkChange
+	Accepted   *Acceptance
+	// LargeChangeM is the threshold the changes were called out over.
+	LargeChangeM float64
+}
+
+// PublishPreview is what publishing a draft would do, as the register
+// stands now: the draft, its failed checks and the changes of its marks'
+// heights. Publish checks it all again in its own transaction.
+type PublishPreview struct {
+	View         *AdjustmentView
+	Failed       []FailedCheck
+	Changes      []MarkChange
+	LargeChangeM float64
+}
+
+// Refusal is the error Publish would give for the failed checks unless
+// they are accepted; nil when none failed.
+func (pv *PublishPreview) Refusal() error {
+	if len(pv.Failed) == 0 {
+		return nil
+	}
+	return &PublishChecksError{AdjustmentID: pv.View.Adjustment.ID, Checks: pv.Failed}
+}
+
+// PublishPreview shows what publishing draft adjustment id would do
+// (changes over largeChangeM metres, 0 for DefaultLargeChangeM, called
+// out), for its confirmation. An adjustment no longer a draft is refused
+// with a NotDraftError.
+func (r *Register) PublishPreview(ctx context.Context, id int64, largeChangeM float64) (*PublishPreview, error) {
+	largeChangeM, err := checkLargeChange(largeChangeM)
+	if err != nil {
+		return nil, err
+	}
+	pv := &PublishPreview{View: &AdjustmentView{}, LargeChangeM: largeChangeM}
+	err = r.withTx(ctx, readTx, func(tx pgx.Tx) error {
+		v := pv.View
+		if err := r.adjustmentView(ctx, tx, id, v); err != nil {
+			return err
+		}
+		if err := notDraft(v.Adjustment, store.StatusPublished); err != nil {
+			return err
+		}
+		latest, err := store.HeightLatestMany(ctx, tx, store.HeightLatestManyParams{MarkIDs: resultMarks(v), DatumID: v.Adjustment.DatumID})
+		if err != nil {
+			return err
+		}
+		if pv.Changes, err = markChanges(v, latest, largeChangeM); err != nil {
+			return err
+		}
+		pv.Failed, err = failedChecks(ctx, tx, v)
+		return err
+	})
+	if err != nil {
+		return nil, err
+	}
+	return pv, nil
+}
+
+// resultMarks are the marks of v's results.
+func resultMarks(v *AdjustmentView) []int64 {
+	ids := make([]int64, len(v.Results))
+	for i, res := range v.Results {
+		ids[i] = res.MarkID
+	}
+	return ids
 }
 
 // Publish turns a draft adjustment into new height versions, in one
 // transaction. It locks every mark involved (in order of identifier), then
 // checks that every held version and every version to be replaced is still
 // current; if any is not, someone published in between and it returns a
-// ConflictError naming the mark, having written nothing.
+// ConflictError naming the mark, having written nothing. It then runs the
+// gates of publication (failedChecks: the draft's own checks, and the held
+// marks' conditions as reported now); if any failed and they are not
+// accepted, it returns a PublishChecksError listing them, having written
+// nothing. An adjustment published or discarded before the request is a
+// NotDraftError.
 func (r *Register) Publish(ctx context.Context, p PublishParams) (*Published, error) {
-	p.Reason, p.By = strings.TrimSpace(p.Reason), strings.TrimSpace(p.By)
-	if p.Reason == "" {
-		return nil, inputErr("reason", "say why these heights are published")
+	if err := p.check(); err != nil {
+		return nil, err
 	}
-	if p.By == "" {
-		return nil, inputErr("by", "say who publishes")
-	}
-	out := &Published{}
+	out := &Published{LargeChangeM: p.LargeChangeM}
 	err := r.withTx(ctx, pgx.TxOptions{}, func(tx pgx.Tx) error {
-		a, err := r.lockDraft(ctx, tx, p.AdjustmentID)
+		a, err := r.lockDraft(ctx, tx, p.AdjustmentID, store.StatusPublished)
 		if err != nil {
 			return err
 		}
-		held, err := store.AdjustmentHeldList(ctx, tx, a.ID)
-		if err != nil {
+		v := &AdjustmentView{}
+		if err := r.adjustmentView(ctx, tx, a.ID, v); err != nil {
 			return err
 		}
-		results, err := store.AdjustmentResultList(ctx, tx, a.ID)
-		if err != nil {
-			return err
-		}
+		held, results := v.Held, v.Results
 		var ids []int64
 		for _, h := range held {
 			ids = append(ids, h.MarkID)
 		}
-		for _, res := range results {
-			ids = append(ids, res.MarkID)
-		}
+		ids = append(ids, resultMarks(v)...)
 		sort.Slice(ids, func(i, j int) bool { return ids[i] < ids[j] })
 		if err := store.MarkLock(ctx, tx, ids); err != nil {
 			return fmt.Errorf("lock marks: %w", err)
@@ -85,8 +176,24 @@ func (r *Register) Publish(ctx context.Context, p PublishParams) (*Published, er
 				return changed(a, res.Designation, "to be replaced", &store.Height{ID: *res.Replaces, Version: *res.ReplacesVersion}, cur)
 			}
 		}
-		if err := store.AdjustmentEventInsert(ctx, tx, store.AdjustmentEventInsertParams{AdjustmentID: a.ID,
-			Status: store.StatusPublished, Reason: p.Reason, RecordedBy: p.By}); err != nil {
+		failed, err := failedChecks(ctx, tx, v)
+		if err != nil {
+			return err
+		}
+		ev := store.AdjustmentEventInsertParams{AdjustmentID: a.ID, Status: store.StatusPublished, Reason: p.Reason, RecordedBy: p.By}
+		if len(failed) > 0 {
+			if !p.AcceptFailedChecks {
+				return &PublishChecksError{AdjustmentID: a.ID, Checks: failed}
+			}
+			if ev.AcceptedChecks, err = json.Marshal(failed); err != nil {
+				return err
+			}
+			ev.AcceptedReason = p.AcceptReason
+		}
+		if out.Changes, err = markChanges(v, latest, p.LargeChangeM); err != nil {
+			return err
+		}
+		if err := store.AdjustmentEventInsert(ctx, tx, ev); err != nil {
 			return asConflict(err)
 		}
 		var publish []store.AdjustmentResult
@@ -101,13 +208,28 @@ func (r *Register) Publish(ctx context.Context, p PublishParams) (*Published, er
 		if err != nil {
 			return asConflict(err)
 		}
-		out.Adjustment, err = store.AdjustmentGet(ctx, tx, store.AdjustmentGetParams{ID: a.ID})
+		if out.Adjustment, err = store.AdjustmentGet(ctx, tx, store.AdjustmentGetParams{ID: a.ID}); err != nil {
+			return err
+		}
+		out.Accepted, err = AcceptanceOf(out.Adjustment)
 		return err
 	})
 	if err != nil {
-		return nil, fmt.Errorf("publish adjustment %d: %w", p.AdjustmentID, err)
+		return nil, publishErr("publish", p.AdjustmentID, err)
 	}
 	return out, nil
+}
+
+// publishErr wraps err of a publication or discard with its context; a
+// refusal that says it all already (a NotDraftError, a
+// PublishChecksError) is returned as it is.
+func publishErr(what string, id int64, err error) error {
+	var nd *NotDraftError
+	var pc *PublishChecksError
+	if errors.As(err, &nd) || errors.As(err, &pc) {
+		return err
+	}
+	return fmt.Errorf("%s adjustment %d: %w", what, id, err)
 }
 
 // changed is the conflict of a version that is no longer current.
@@ -121,23 +243,63 @@ func changed(a store.Adjustment, designation, role string, was *store.Height, no
 		designation, a.DatumCode, a.ID, role, wasText, nowText)}
 }
 
-// stillDraft refuses an adjustment that has been published or discarded.
-func stillDraft(a store.Adjustment) error {
+// NotDraftError refuses to publish or discard an adjustment that was
+// already published or discarded when asked: a request that can never
+// succeed. Nothing was written.
+type NotDraftError struct {
+	Adjustment store.Adjustment
+	// Asked is what was asked: store.StatusPublished or StatusDiscarded.
+	Asked string
+}
+
+func (e *NotDraftError) Error() string {
+	a := e.Adjustment
+	verb := map[string]string{store.StatusPublished: "published", store.StatusDiscarded: "discarded"}[e.Asked]
+	if a.Status == e.Asked {
+		verb += " again"
+	}
+	return fmt.Sprintf("adjustment %d was %s on %s by %s (%s): it cannot be %s", a.ID, a.Status, statusTime(a), a.StatusBy, a.StatusReason, verb)
+}
+
+// statusTime is when a's status changed, in UTC.
+func statusTime(a store.Adjustment) string {
+	if a.StatusAt == nil {
+		return "an unknown date"
+	}
+	return a.StatusAt.UTC().Format("2006-01-02 15:04:05Z")
+}
+
+// notDraft refuses, with a NotDraftError, to do asked (publish or
+// discard) to an adjustment that is no longer a draft.
+func notDraft(a store.Adjustment, asked string) error {
 	if a.Status == store.StatusDraft {
 		return nil
 	}
-	return &ConflictError{Err: fmt.Errorf("adjustment %d was %s %s by %s (%s)", a.ID, a.Status,
-		a.StatusAt.UTC().Format("2006-01-02 15:04:05Z"), a.StatusBy, a.StatusReason)}
+	return &NotDraftError{Adjustment: a, Asked: asked}
 }
 
-// lockDraft locks adjustment id in tx for its publication or discard, and
-// refuses one that is no longer a draft.
-func (r *Register) lockDraft(ctx context.Context, tx pgx.Tx, id int64) (store.Adjustment, error) {
+// lockDraft locks adjustment id in tx for its publication or discard
+// (asked). An adjustment that was no longer a draft when asked is a
+// NotDraftError; one that stopped being a draft while this transaction
+// waited for its lock (another publisher or discarder won the race) is a
+// ConflictError.
+func (r *Register) lockDraft(ctx context.Context, tx pgx.Tx, id int64, asked string) (store.Adjustment, error) {
+	before, err := r.adjustment(ctx, tx, id, false)
+	if err != nil {
+		return before, err
+	}
+	if err := notDraft(before, asked); err != nil {
+		return before, err
+	}
 	a, err := r.adjustment(ctx, tx, id, true)
 	if err != nil {
 		return a, err
 	}
-	return a, stillDraft(a)
+	if a.Status != store.StatusDraft {
+		return a, &ConflictError{Err: fmt.Errorf("adjustment %d was %s meanwhile, on %s by %s (%s)", a.ID, a.Status,
+			statusTime(a), a.StatusBy, a.StatusReason)}
+	}
+	return a, nil
 }
 
 // DiscardParams ask for a draft adjustment to be set aside.
@@ -159,7 +321,7 @@ func (r *Register) Discard(ctx context.Context, p DiscardParams) (store.Adjustme
 	}
 	var out store.Adjustment
 	err := r.withTx(ctx, pgx.TxOptions{}, func(tx pgx.Tx) error {
-		a, err := r.lockDraft(ctx, tx, p.AdjustmentID)
+		a, err := r.lockDraft(ctx, tx, p.AdjustmentID, store.StatusDiscarded)
 		if err != nil {
 			return err
 		}
@@ -171,7 +333,7 @@ func (r *Register) Discard(ctx context.Context, p DiscardParams) (store.Adjustme
 		return err
 	})
 	if err != nil {
-		return store.Adjustment{}, fmt.Errorf("discard adjustment %d: %w", p.AdjustmentID, err)
+		return store.Adjustment{}, publishErr("discard", p.AdjustmentID, err)
 	}
 	return out, nil
 }

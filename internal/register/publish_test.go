@@ -129,11 +129,13 @@ func TestAdjustPublishTrace(t *testing.T) {
 		t.Fatalf("BM4 now %s (%s, adjustment %v), want 843.337 from adjustment %d", *h.Value, h.SourceKind, h.AdjustmentID, v.Adjustment.ID)
 	}
 
-	// A second publication of the same draft is refused.
+	// A second publication of the same draft is refused: not as a
+	// conflict (it can never succeed, trying again is no use) but as a
+	// request that cannot be met.
 	_, err = b.Reg.Publish(b.Ctx, PublishParams{AdjustmentID: v.Adjustment.ID, Reason: "again", By: "reviewer"})
-	var ce *ConflictError
-	if !errors.As(err, &ce) {
-		t.Fatalf("publishing twice: %v, want a conflict", err)
+	var nd *NotDraftError
+	if !errors.As(err, &nd) || !strings.Contains(err.Error(), "it cannot be published again") {
+		t.Fatalf("publishing twice: %v, want a refusal of an adjustment already published", err)
 	}
 
 	// History: a new adjustment of BM2 over an outside first version keeps

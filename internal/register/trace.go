@@ -2,6 +2,7 @@ package register
 
 import (
 	"context"
+	"encoding/json"
 	"errors"
 	"fmt"
 	"time"
@@ -40,11 +41,15 @@ type TraceVersion struct {
 }
 
 // TraceAdjustment is the adjustment a version came from: its runs (with
-// their books' SHA-256) and the derivations of the versions it held.
+// their books' SHA-256), the derivations of the versions it held, its
+// settings (Parameters.HeldAs says how each was held) and the failed
+// checks its publication accepted (nil for none).
 type TraceAdjustment struct {
 	store.Adjustment
-	Runs []store.Run
-	Held []*TraceVersion
+	Parameters Parameters
+	Runs       []store.Run
+	Held       []*TraceVersion
+	Accepted   *Acceptance
 }
 
 // Trace returns the derivation of a mark's heights as trees: each version
@@ -113,6 +118,12 @@ func traceVersion(ctx context.Context, db store.DBTX, h store.Height, seen map[i
 		return nil, err
 	}
 	ta := &TraceAdjustment{Adjustment: a}
+	if err := json.Unmarshal(a.Parameters, &ta.Parameters); err != nil {
+		return nil, fmt.Errorf("decode parameters of adjustment %d: %w", a.ID, err)
+	}
+	if ta.Accepted, err = AcceptanceOf(a); err != nil {
+		return nil, err
+	}
 	if ta.Runs, err = store.AdjustmentRunList(ctx, db, a.ID); err != nil {
 		return nil, err
 	}

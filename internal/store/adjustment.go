@@ -37,6 +37,11 @@ type Adjustment struct {
 	StatusReason string
 	StatusBy     string
 	StatusAt     *time.Time
+	// AcceptedReason says why a publication accepted failed checks ("" when
+	// none was accepted); AcceptedChecks are those checks as a JSON array
+	// (nil when none). StatusBy accepted them.
+	AcceptedReason string
+	AcceptedChecks json.RawMessage
 	// RunIDs are the runs used, in order; Results counts the marks reached.
 	RunIDs  []int64
 	Results int
@@ -44,6 +49,7 @@ type Adjustment struct {
 
 const adjustmentColumns = `a.id, a.method, a.datum_id, d.code, a.parameters, a.statistics, coalesce(a.condition_reason, ''),
 	a.created_by, a.created_at, coalesce(e.status, 'draft'), coalesce(e.reason, ''), coalesce(e.recorded_by, ''), e.recorded_at,
+	coalesce(e.accepted_reason, ''), e.accepted_checks,
 	coalesce((SELECT array_agg(ar.run_id ORDER BY ar.run_id) FROM adjustment_run ar WHERE ar.adjustment_id = a.id), '{}'),
 	(SELECT count(*) FROM adjustment_result r WHERE r.adjustment_id = a.id)`
 
@@ -53,7 +59,8 @@ const adjustmentFrom = ` FROM adjustment a JOIN datum d ON d.id = a.datum_id
 func scanAdjustment(row pgx.Row) (Adjustment, error) {
 	var a Adjustment
 	err := row.Scan(&a.ID, &a.Method, &a.DatumID, &a.DatumCode, &a.Parameters, &a.Statistics, &a.ConditionReason,
-		&a.CreatedBy, &a.CreatedAt, &a.Status, &a.StatusReason, &a.StatusBy, &a.StatusAt, &a.RunIDs, &a.Results)
+		&a.CreatedBy, &a.CreatedAt, &a.Status, &a.StatusReason, &a.StatusBy, &a.StatusAt,
+		&a.AcceptedReason, &a.AcceptedChecks, &a.RunIDs, &a.Results)
 	return a, translate(err)
 }
 
@@ -276,13 +283,23 @@ type AdjustmentEventInsertParams struct {
 	Status       string // published or discarded
 	Reason       string
 	RecordedBy   string
+	// AcceptedReason and AcceptedChecks (a JSON array) are a publication's
+	// acceptance of failed checks: both set, or both empty for none.
+	AcceptedReason string
+	AcceptedChecks json.RawMessage
 }
 
 // AdjustmentEventInsert records a change of status; ErrConflict if the
 // adjustment's status has already changed.
 func AdjustmentEventInsert(ctx context.Context, db DBTX, p AdjustmentEventInsertParams) error {
-	_, err := db.Exec(ctx, `INSERT INTO adjustment_event (adjustment_id, status, reason, recorded_by) VALUES ($1, $2, $3, $4)`,
-		p.AdjustmentID, p.Status, p.Reason, p.RecordedBy)
+	var reason, checks *string
+	if p.AcceptedReason != "" || len(p.AcceptedChecks) > 0 {
+		r, c := p.AcceptedReason, string(p.AcceptedChecks)
+		reason, checks = &r, &c
+	}
+	_, err := db.Exec(ctx, `INSERT INTO adjustment_event (adjustment_id, status, reason, recorded_by, accepted_reason, accepted_checks)
+		VALUES ($1, $2, $3, $4, $5, $6::jsonb)`,
+		p.AdjustmentID, p.Status, p.Reason, p.RecordedBy, reason, checks)
 	if err != nil {
 		err = translate(err)
 		if errors.Is(err, ErrAlreadyExists) {
