@@ -232,40 +232,17 @@ func (r *Register) adjustDatum(ctx context.Context, tx pgx.Tx, code string, runs
 		named = run.Datum
 	}
 	if looseKey(named) != "" {
-		all, err := store.DatumList(ctx, tx)
-		if err != nil {
-			return store.Datum{}, err
-		}
-		for _, d := range all {
-			if looseKey(d.Code) == looseKey(named) || looseKey(d.Name) == looseKey(named) {
-				return d, nil
-			}
+		if d, ok, err := datumNamed(ctx, tx, named); err != nil || ok {
+			return d, err
 		}
 	}
-	common := map[string]int{}
-	for _, m := range holds {
-		hs, err := store.HeightAsOf(ctx, tx, store.HeightAsOfParams{MarkID: m.ID})
-		if err != nil {
-			return store.Datum{}, err
-		}
-		n := 0
-		for _, h := range hs {
-			if h.Value != nil {
-				common[h.DatumCode]++
-				n++
-			}
-		}
-		if n == 0 {
-			return store.Datum{}, inputErr("hold", "%s has no current height to hold", m.Designation)
-		}
+	codes, bare, err := commonDatums(ctx, tx, holds)
+	if err != nil {
+		return store.Datum{}, err
 	}
-	var codes []string
-	for c, n := range common {
-		if n == len(holds) {
-			codes = append(codes, c)
-		}
+	if bare != "" {
+		return store.Datum{}, inputErr("hold", "%s has no current height to hold", bare)
 	}
-	sort.Strings(codes)
 	switch len(codes) {
 	case 1:
 		return r.datum(ctx, tx, "datum", codes[0])
@@ -306,4 +283,49 @@ func joinIDs(ids []int64) string {
 		s[i] = fmt.Sprint(id)
 	}
 	return strings.Join(s, ", ")
+}
+
+// datumNamed finds the datum whose code or name is name, ignoring case,
+// spaces and punctuation (looseKey), as a book or a user names it.
+func datumNamed(ctx context.Context, db store.DBTX, name string) (store.Datum, bool, error) {
+	all, err := store.DatumList(ctx, db)
+	if err != nil {
+		return store.Datum{}, false, err
+	}
+	for _, d := range all {
+		if looseKey(d.Code) == looseKey(name) || looseKey(d.Name) == looseKey(name) {
+			return d, true, nil
+		}
+	}
+	return store.Datum{}, false, nil
+}
+
+// commonDatums returns, sorted, the codes of the datums on which every
+// mark has a current height; bare names the first mark with no current
+// height on any datum (codes are then not computed).
+func commonDatums(ctx context.Context, db store.DBTX, marks []store.Mark) (codes []string, bare string, err error) {
+	common := map[string]int{}
+	for _, m := range marks {
+		hs, err := store.HeightAsOf(ctx, db, store.HeightAsOfParams{MarkID: m.ID})
+		if err != nil {
+			return nil, "", err
+		}
+		n := 0
+		for _, h := range hs {
+			if h.Value != nil {
+				common[h.DatumCode]++
+				n++
+			}
+		}
+		if n == 0 {
+			return nil, m.Designation, nil
+		}
+	}
+	for c, n := range common {
+		if n == len(marks) {
+			codes = append(codes, c)
+		}
+	}
+	sort.Strings(codes)
+	return codes, "", nil
 }

@@ -4,7 +4,6 @@ import (
 	"context"
 	"errors"
 	"fmt"
-	"sort"
 	"strings"
 
 	"github.com/jackc/pgx/v5"
@@ -151,42 +150,20 @@ func (r *Register) heldHeights(ctx context.Context, db store.DBTX, p HeldHeights
 // current height.
 func (r *Register) bookDatum(ctx context.Context, db store.DBTX, book *levelbook.Book, marks []store.Mark) (store.Datum, error) {
 	if named := book.Meta.Datum; looseKey(named) != "" {
-		all, err := store.DatumList(ctx, db)
-		if err != nil {
-			return store.Datum{}, err
-		}
-		for _, d := range all {
-			if looseKey(d.Code) == looseKey(named) || looseKey(d.Name) == looseKey(named) {
-				return d, nil
-			}
+		d, ok, err := datumNamed(ctx, db, named)
+		if err != nil || ok {
+			return d, err
 		}
 		return store.Datum{}, inputErr("hold", "the book's datum %q (line %d) is not in the register by code or name (see cairn datum list): correct the book's datum key, or give the heights with their values (MARK=HEIGHT)",
 			named, book.Meta.Lines["datum"])
 	}
-	common := map[string]int{}
-	for _, m := range marks {
-		hs, err := store.HeightAsOf(ctx, db, store.HeightAsOfParams{MarkID: m.ID})
-		if err != nil {
-			return store.Datum{}, err
-		}
-		n := 0
-		for _, h := range hs {
-			if h.Value != nil {
-				common[h.DatumCode]++
-				n++
-			}
-		}
-		if n == 0 {
-			return store.Datum{}, inputErr("hold", "%s has no current height to hold: give its height with its value (MARK=HEIGHT)", m.Designation)
-		}
+	codes, bare, err := commonDatums(ctx, db, marks)
+	if err != nil {
+		return store.Datum{}, err
 	}
-	var codes []string
-	for c, n := range common {
-		if n == len(marks) {
-			codes = append(codes, c)
-		}
+	if bare != "" {
+		return store.Datum{}, inputErr("hold", "%s has no current height to hold: give its height with its value (MARK=HEIGHT)", bare)
 	}
-	sort.Strings(codes)
 	switch len(codes) {
 	case 1:
 		return r.datum(ctx, db, "datum", codes[0])
