@@ -177,7 +177,7 @@ type progress struct {
 }
 
 func startProgress(ios *IOStreams) *progress {
-	p := &progress{w: ios.ErrOut, start: time.Now(), stop: make(chan struct{}), done: make(chan struct{})}
+	p := &progress{w: ios.progressOut(), start: time.Now(), stop: make(chan struct{}), done: make(chan struct{})}
 	if !ios.ErrIsTerminal {
 		close(p.done)
 		return p

@@ -359,6 +359,9 @@ type heldJSON struct {
 	Current  bool    `json:"current"`
 	Source   string  `json:"source"`
 	HeightID int64   `json:"height_id"`
+	// Doubts are the doubts about the held mark and the version held, as
+	// of the report (register.Doubt); always present, empty for none.
+	Doubts register.Doubts `json:"doubts"`
 }
 
 type resultJSON struct {
@@ -400,7 +403,7 @@ func toAdjustmentJSON(v *register.AdjustmentView, dryRun bool) adjustmentJSON {
 	}
 	for _, h := range v.Held {
 		j.Held = append(j.Held, heldJSON{Mark: h.Designation, Datum: h.DatumCode, Version: h.Version, Value: h.Value,
-			Unit: h.Unit, Current: h.Current, Source: h.Source, HeightID: h.ID})
+			Unit: h.Unit, Current: h.Current, Source: h.Source, HeightID: h.ID, Doubts: doubtsJSON(v.HeldDoubts[h.Designation])})
 	}
 	for _, d := range v.InDoubt {
 		j.MarksInDoubt = append(j.MarksInDoubt, markInDoubtJSON{Mark: d.Designation, Condition: d.Condition.Condition,
@@ -465,9 +468,17 @@ func renderAdjustment(ios *IOStreams, format Format, v *register.AdjustmentView,
 			say("    VOIDED since %s by %s: %s\n", timeText(v.VoidedAt), v.VoidedBy, v.Reason)
 		}
 	}
+	var heldDoubts register.Doubts
 	for _, h := range j.Held {
 		say("  held %s on %s, version %d: %s %s\n", h.Mark, h.Datum, h.Version, deref(h.Value), deref(h.Unit))
+		for _, d := range h.Doubts {
+			say("    !! DOUBT: %s\n", d.Text)
+			if d.Kind != register.DoubtCondition { // a held mark's condition is warned of below
+				heldDoubts = append(heldDoubts, d)
+			}
+		}
 	}
+	warnDoubts(ios, heldDoubts)
 	if a.ConditionReason != "" {
 		say("  marks in doubt held because: %s\n", a.ConditionReason)
 	}

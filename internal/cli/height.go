@@ -3,7 +3,7 @@ package cli
 import (
 	"context"
 	"encoding/hex"
-	"fmt"
+	"slices"
 	"strconv"
 	"time"
 
@@ -169,6 +169,9 @@ type heightJSON struct {
 	Hash       string         `json:"hash"`
 	Converted  *convertedJSON `json:"converted,omitempty"`
 	Change     *string        `json:"change,omitempty"`
+	// Doubts are the doubts that concern the version (register.Doubt);
+	// always present, empty for none.
+	Doubts register.Doubts `json:"doubts"`
 }
 
 type convertedJSON struct {
@@ -259,16 +262,19 @@ func heightShowRun(opts *heightShowOptions) error {
 	if err != nil {
 		return err
 	}
-	warning := warnCondition(opts.f.IO, v.Mark)
+	warnDoubts(opts.f.IO, v.Doubts)
 	out := struct {
-		Mark      string       `json:"mark"`
-		Condition string       `json:"condition"`
-		Warning   string       `json:"warning,omitempty"`
-		AsOf      *time.Time   `json:"as_of"`
-		Heights   []heightJSON `json:"heights"`
-	}{v.Mark.Designation, condition(v.Mark), warning, opts.params.AsOf, []heightJSON{}}
+		Mark      string          `json:"mark"`
+		Condition string          `json:"condition"`
+		Warning   string          `json:"warning,omitempty"`
+		Doubts    register.Doubts `json:"doubts"`
+		AsOf      *time.Time      `json:"as_of"`
+		Heights   []heightJSON    `json:"heights"`
+	}{v.Mark.Designation, condition(v.Mark), register.Warning(v.Mark), doubtsJSON(v.Doubts), opts.params.AsOf, []heightJSON{}}
 	for _, h := range v.Heights {
-		out.Heights = append(out.Heights, toHeightJSON(h, in))
+		j := toHeightJSON(h, in)
+		j.Doubts = doubtsJSON(v.Doubts.Of(h.DatumCode, h.Version))
+		out.Heights = append(out.Heights, j)
 	}
 	if len(v.Heights) == 0 {
 		when := "now"
@@ -279,12 +285,12 @@ func heightShowRun(opts *heightShowOptions) error {
 	}
 	defer reportCautions(opts.f.IO, opts.format)
 	return render(opts.f.IO, opts.format, out, func() Table {
-		t := Table{Headers: []string{"DATUM", "VERSION", "HEIGHT", "UNIT", "CLASS", "RECORDED (UTC)", "SOURCE"}}
+		t := Table{Headers: []string{"DATUM", "VERSION", "HEIGHT", "UNIT", "CLASS", "RECORDED (UTC)", "SOURCE", "DOUBT"}}
 		if in != "" {
 			t.Headers = append(t.Headers, "HEIGHT ("+string(in)+")")
 		}
 		for _, h := range out.Heights {
-			row := []string{h.Datum, strconv.Itoa(h.Version), deref(h.Value), deref(h.Unit), h.Class, timeText(h.RecordedAt), h.Source}
+			row := []string{h.Datum, strconv.Itoa(h.Version), deref(h.Value), deref(h.Unit), h.Class, timeText(h.RecordedAt), h.Source, doubtCell(opts.f.IO, h.Doubts)}
 			if h.Value == nil {
 				row[2] = "withdrawn"
 			}
@@ -333,17 +339,24 @@ func heightListRun(opts *heightListOptions) error {
 		return err
 	}
 	out := []heightJSON{}
+	inDoubt := 0
 	for _, h := range hs {
-		out = append(out, toHeightJSON(h, ""))
+		j := toHeightJSON(h.Height, "")
+		j.Doubts = doubtsJSON(h.Doubts)
+		if len(h.Doubts) > 0 {
+			inDoubt++
+		}
+		out = append(out, j)
 	}
+	defer warnListed(opts.f.IO, opts.format, inDoubt, len(out), "heights")
 	return render(opts.f.IO, opts.format, out, func() Table {
-		t := Table{Headers: []string{"MARK", "DATUM", "VERSION", "HEIGHT", "UNIT", "CLASS", "SOURCE"}}
+		t := Table{Headers: []string{"MARK", "DATUM", "VERSION", "HEIGHT", "UNIT", "CLASS", "SOURCE", "DOUBT"}}
 		for _, h := range out {
 			val := deref(h.Value)
 			if h.Value == nil {
 				val = "withdrawn"
 			}
-			t.AddRow(h.Mark, h.Datum, strconv.Itoa(h.Version), val, deref(h.Unit), h.Class, h.Source)
+			t.AddRow(h.Mark, h.Datum, strconv.Itoa(h.Version), val, deref(h.Unit), h.Class, h.Source, doubtCell(opts.f.IO, h.Doubts))
 		}
 		return t
 	})
@@ -385,11 +398,22 @@ func historyRun(opts *historyOptions) error {
 	if err != nil {
 		return err
 	}
-	m, hs, err := r.History(opts.ctx, opts.designation, opts.datum)
+	v, err := r.History(opts.ctx, opts.designation, opts.datum)
 	if err != nil {
 		return err
 	}
-	warnCondition(ios, m)
+	hs := v.Versions
+	// The loud warning: the doubts of the mark and its current versions
+	// (the superseded versions' are in their rows).
+	var now register.Doubts
+	for _, d := range v.Doubts {
+		if d.Datum == "" || slices.ContainsFunc(hs, func(e register.HistoryEntry) bool {
+			return e.Current && e.DatumCode == d.Datum && e.Version == d.Version
+		}) {
+			now = append(now, d)
+		}
+	}
+	warnDoubts(ios, now)
 	// A version from a publication that accepted failed checks carries the
 	// acceptance.
 	type historyJSON struct {
@@ -399,22 +423,19 @@ func historyRun(opts *historyOptions) error {
 	out := []historyJSON{}
 	for _, h := range hs {
 		j := historyJSON{heightJSON: toHeightJSON(h.Height, ""), AcceptedFailedChecks: toAcceptanceJSON(h.Accepted)}
-		j.Change = h.Change
+		j.Change, j.Doubts = h.Change, doubtsJSON(h.Doubts)
 		out = append(out, j)
-		if j.AcceptedFailedChecks != nil && opts.format != FormatJSON {
-			warnLoudly(ios, fmt.Sprintf("%s on %s, version %d: %s", j.Mark, j.Datum, j.Version, acceptanceText(j.AcceptedFailedChecks, "")))
-		}
 	}
 	defer reportCautions(ios, opts.format)
 	return render(ios, opts.format, out, func() Table {
-		t := Table{Headers: []string{"DATUM", "VERSION", "RECORDED (UTC)", "HEIGHT", "UNIT", "CHANGE", "KIND", "REASON", "SOURCE", "BY"}}
+		t := Table{Headers: []string{"DATUM", "VERSION", "RECORDED (UTC)", "HEIGHT", "UNIT", "CHANGE", "KIND", "REASON", "SOURCE", "BY", "DOUBT"}}
 		for _, h := range out {
 			val := deref(h.Value)
 			if h.Value == nil {
 				val = "withdrawn"
 			}
 			t.AddRow(h.Datum, strconv.Itoa(h.Version), timeText(h.RecordedAt), val, deref(h.Unit),
-				deref(h.Change), h.SourceKind, h.Reason, h.Source, h.RecordedBy)
+				deref(h.Change), h.SourceKind, h.Reason, h.Source, h.RecordedBy, doubtCell(opts.f.IO, h.Doubts))
 		}
 		return t
 	})

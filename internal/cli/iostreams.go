@@ -27,25 +27,42 @@ type IOStreams struct {
 
 	// canPrompt, when set, overrides the terminal test of CanPrompt.
 	canPrompt *bool
+	// rawErr is ErrOut before hidden characters are made visible, for the
+	// progress line's own cursor movements (nil: ErrOut).
+	rawErr io.Writer
+}
+
+// newStreams makes the streams of a command: on a terminal, and always on
+// the error stream, hidden characters are made visible (visible.go).
+func newStreams(in io.Reader, out, errOut io.Writer, terminal bool) *IOStreams {
+	s := &IOStreams{In: in, Out: out, ErrOut: &visibleWriter{w: errOut}, IsTerminal: terminal, rawErr: errOut}
+	if terminal {
+		s.Out = &visibleWriter{w: out}
+	}
+	return s
+}
+
+// progressOut is the raw error stream, for a progress line.
+func (s *IOStreams) progressOut() io.Writer {
+	if s.rawErr != nil {
+		return s.rawErr
+	}
+	return s.ErrOut
 }
 
 // SystemStreams returns the process's standard streams.
 func SystemStreams() *IOStreams {
-	return &IOStreams{
-		In:            os.Stdin,
-		Out:           os.Stdout,
-		ErrOut:        os.Stderr,
-		IsTerminal:    term.IsTerminal(int(os.Stdout.Fd())),
-		ErrIsTerminal: term.IsTerminal(int(os.Stderr.Fd())),
-		InIsTerminal:  term.IsTerminal(int(os.Stdin.Fd())),
-	}
+	s := newStreams(os.Stdin, os.Stdout, os.Stderr, term.IsTerminal(int(os.Stdout.Fd())))
+	s.ErrIsTerminal = term.IsTerminal(int(os.Stderr.Fd()))
+	s.InIsTerminal = term.IsTerminal(int(os.Stdin.Fd()))
+	return s
 }
 
 // TestStreams returns streams backed by buffers, for tests. terminal sets
 // IsTerminal only; tests set the other terminal flags as they need.
 func TestStreams(terminal bool) (ios *IOStreams, in, out, errOut *bytes.Buffer) {
 	in, out, errOut = &bytes.Buffer{}, &bytes.Buffer{}, &bytes.Buffer{}
-	return &IOStreams{In: in, Out: out, ErrOut: errOut, IsTerminal: terminal}, in, out, errOut
+	return newStreams(in, out, errOut, terminal), in, out, errOut
 }
 
 // CanPrompt says whether a question can be asked and answered: In and

@@ -71,19 +71,22 @@ func markAddRun(opts *markAddOptions) error {
 
 // markJSON is a mark in machine output.
 type markJSON struct {
-	Designation string          `json:"designation"`
-	Type        string          `json:"type"`
-	Setting     string          `json:"setting"`
-	Stamping    string          `json:"stamping"`
-	ToReach     string          `json:"to_reach"`
-	Lat         *float64        `json:"lat"`
-	Lon         *float64        `json:"lon"`
-	Condition   string          `json:"condition"`
-	Warning     string          `json:"warning,omitempty"`
-	DistanceKm  *float64        `json:"distance_km,omitempty"`
-	Conditions  []conditionJSON `json:"conditions,omitempty"`
-	Heights     []heightJSON    `json:"heights,omitempty"`
-	Runs        []runJSON       `json:"runs,omitempty"`
+	Designation string   `json:"designation"`
+	Type        string   `json:"type"`
+	Setting     string   `json:"setting"`
+	Stamping    string   `json:"stamping"`
+	ToReach     string   `json:"to_reach"`
+	Lat         *float64 `json:"lat"`
+	Lon         *float64 `json:"lon"`
+	Condition   string   `json:"condition"`
+	Warning     string   `json:"warning,omitempty"`
+	// Doubts are the doubts about the mark and its current heights
+	// (register.Doubt); always present, empty for none.
+	Doubts     register.Doubts `json:"doubts"`
+	DistanceKm *float64        `json:"distance_km,omitempty"`
+	Conditions []conditionJSON `json:"conditions,omitempty"`
+	Heights    []heightJSON    `json:"heights,omitempty"`
+	Runs       []runJSON       `json:"runs,omitempty"`
 }
 
 type conditionJSON struct {
@@ -94,9 +97,9 @@ type conditionJSON struct {
 	RecordedAt time.Time `json:"recorded_at"`
 }
 
-func toMarkJSON(m store.Mark) markJSON {
+func toMarkJSON(m store.Mark, ds register.Doubts) markJSON {
 	j := markJSON{Designation: m.Designation, Type: m.Type, Setting: m.Setting, Stamping: m.Stamping,
-		ToReach: m.ToReach, Lat: m.Lat, Lon: m.Lon, Condition: condition(m), Warning: register.Warning(m)}
+		ToReach: m.ToReach, Lat: m.Lat, Lon: m.Lon, Condition: condition(m), Warning: register.Warning(m), Doubts: doubtsJSON(ds)}
 	if m.DistanceM != nil {
 		km := *m.DistanceM / 1000
 		j.DistanceKm = &km
@@ -149,14 +152,16 @@ func markShowRun(opts *markShowOptions) error {
 	if err != nil {
 		return err
 	}
-	warnCondition(ios, v.Mark)
-	j := toMarkJSON(v.Mark)
+	warnDoubts(ios, v.Doubts)
+	j := toMarkJSON(v.Mark, v.Doubts)
 	j.Conditions, j.Heights = []conditionJSON{}, []heightJSON{}
 	for _, c := range v.Conditions {
 		j.Conditions = append(j.Conditions, toConditionJSON(c))
 	}
 	for _, h := range v.Heights {
-		j.Heights = append(j.Heights, toHeightJSON(h, ""))
+		hj := toHeightJSON(h, "")
+		hj.Doubts = doubtsJSON(v.Doubts.Of(h.DatumCode, h.Version))
+		j.Heights = append(j.Heights, hj)
 	}
 	j.Runs = []runJSON{}
 	for _, run := range v.Runs {
@@ -174,6 +179,9 @@ func markShowRun(opts *markShowOptions) error {
 	t.AddRow("to reach", j.ToReach)
 	t.AddRow("lat, lon (deg)", strings.Trim(lat+", "+lon, ", "))
 	t.AddRow("condition", j.Condition)
+	for _, d := range v.Doubts {
+		t.AddRow("DOUBT", d.Text)
+	}
 	for _, c := range v.Conditions {
 		t.AddRow("reported", fmt.Sprintf("%s %s by %s: %s", c.ObservedOn.Format("2006-01-02"), c.Condition, c.RecordedBy, c.Note))
 	}
@@ -240,22 +248,27 @@ func markListRun(opts *markListOptions) error {
 		return err
 	}
 	out := []markJSON{}
+	inDoubt := 0
 	for _, m := range ms {
-		warnCondition(opts.f.IO, m)
-		out = append(out, toMarkJSON(m))
+		warnCondition(opts.f.IO, m.Mark)
+		out = append(out, toMarkJSON(m.Mark, m.Doubts))
+		if len(m.Doubts) > 0 {
+			inDoubt++
+		}
 	}
+	defer warnListed(opts.f.IO, opts.format, inDoubt, len(out), "marks")
 	return render(opts.f.IO, opts.format, out, func() Table {
-		t := Table{Headers: []string{"DESIGNATION", "TYPE", "CONDITION", "LAT (deg)", "LON (deg)"}}
+		t := Table{Headers: []string{"DESIGNATION", "TYPE", "CONDITION", "LAT (deg)", "LON (deg)", "DOUBT"}}
 		if p.Near != nil {
 			t.Headers = append(t.Headers, "DISTANCE (km)")
 		}
 		for i, m := range ms {
-			lat, lon := position(m)
+			lat, lon := position(m.Mark)
 			cond := out[i].Condition
 			if out[i].Warning != "" {
 				cond = "!! " + strings.ToUpper(cond)
 			}
-			row := []string{m.Designation, m.Type, cond, lat, lon}
+			row := []string{m.Designation, m.Type, cond, lat, lon, doubtCell(opts.f.IO, m.Doubts)}
 			if p.Near != nil {
 				row = append(row, strconv.FormatFloat(*out[i].DistanceKm, 'f', 3, 64))
 			}

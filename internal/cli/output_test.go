@@ -107,16 +107,16 @@ func TestTablesOnATerminalAndPiped(t *testing.T) {
 		warns    bool // the disturbed mark is warned of on stderr
 		cautions bool // the cautions follow on a terminal
 	}{
-		{[]string{"mark", "list"}, []string{"DESIGNATION", "TYPE", "CONDITION", "LAT (deg)", "LON (deg)"}, [][]string{
-			{"TC-0412", "bronze disk", "!! DISTURBED", "41.62050", "-97.95860"},
-			{"TC-0413", "brass rod", "unknown", "", ""},
+		{[]string{"mark", "list"}, []string{"DESIGNATION", "TYPE", "CONDITION", "LAT (deg)", "LON (deg)", "DOUBT"}, [][]string{
+			{"TC-0412", "bronze disk", "!! DISTURBED", "41.62050", "-97.95860", anyCell},
+			{"TC-0413", "brass rod", "unknown", "", "", ""},
 		}, true, false},
-		{[]string{"height", "list"}, []string{"MARK", "DATUM", "VERSION", "HEIGHT", "UNIT", "CLASS", "SOURCE"}, [][]string{
-			{"TC-0412", "NAVD88", "2", "769.88", "usft", "", "errata sheet 3 (invented)"},
+		{[]string{"height", "list"}, []string{"MARK", "DATUM", "VERSION", "HEIGHT", "UNIT", "CLASS", "SOURCE", "DOUBT"}, [][]string{
+			{"TC-0412", "NAVD88", "2", "769.88", "usft", "", "errata sheet 3 (invented)", anyCell},
 		}, false, false},
-		{[]string{"history", "TC-0412"}, []string{"DATUM", "VERSION", "RECORDED (UTC)", "HEIGHT", "UNIT", "CHANGE", "KIND", "REASON", "SOURCE", "BY"}, [][]string{
-			{"NAVD88", "2", anyCell, "769.88", "usft", anyCell, "correction", "769.83 was a transcription error", "errata sheet 3 (invented)", "tester"},
-			{"NAVD88", "1", anyCell, "769.83", "usft", "", "authority", "entered from the book", "Tallis County Benchmark Book (invented)", "tester"},
+		{[]string{"history", "TC-0412"}, []string{"DATUM", "VERSION", "RECORDED (UTC)", "HEIGHT", "UNIT", "CHANGE", "KIND", "REASON", "SOURCE", "BY", "DOUBT"}, [][]string{
+			{"NAVD88", "2", anyCell, "769.88", "usft", anyCell, "correction", "769.83 was a transcription error", "errata sheet 3 (invented)", "tester", anyCell},
+			{"NAVD88", "1", anyCell, "769.83", "usft", "", "authority", "entered from the book", "Tallis County Benchmark Book (invented)", "tester", anyCell},
 		}, true, true},
 	} {
 		what := strings.Join(c.args, " ")

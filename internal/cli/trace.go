@@ -16,8 +16,11 @@ import (
 
 // traceJSON is the derivation of a mark's heights in machine output.
 type traceJSON struct {
-	Mark     string             `json:"mark"`
-	AsOf     *time.Time         `json:"as_of"`
+	Mark string     `json:"mark"`
+	AsOf *time.Time `json:"as_of"`
+	// Doubts are the doubts about the mark and the versions traced (each
+	// node carries its own in its doubts).
+	Doubts   register.Doubts    `json:"doubts"`
 	Versions []traceVersionJSON `json:"versions"`
 }
 
@@ -53,6 +56,7 @@ type traceAdjustmentJSON struct {
 
 func toTraceVersionJSON(n *register.TraceVersion) traceVersionJSON {
 	j := traceVersionJSON{heightJSON: toHeightJSON(n.Height, ""), HeightID: n.ID, Repeated: n.Repeated}
+	j.Doubts = doubtsJSON(n.Doubts)
 	if a := n.Adjustment; a != nil {
 		ja := &traceAdjustmentJSON{AdjustmentID: a.ID, Method: a.Method, Status: a.Status, StatusBy: a.StatusBy,
 			StatusAt: a.StatusAt, StatusReason: a.StatusReason, Runs: []runRefJSON{}, Held: []traceVersionJSON{},
@@ -118,8 +122,8 @@ func traceRun(opts *traceOptions) error {
 	if err != nil {
 		return err
 	}
-	warnCondition(ios, tr.Mark)
-	out := traceJSON{Mark: tr.Mark.Designation, AsOf: tr.AsOf, Versions: []traceVersionJSON{}}
+	warnDoubts(ios, tr.Doubts)
+	out := traceJSON{Mark: tr.Mark.Designation, AsOf: tr.AsOf, Doubts: doubtsJSON(tr.Doubts), Versions: []traceVersionJSON{}}
 	for _, v := range tr.Versions {
 		out.Versions = append(out.Versions, toTraceVersionJSON(v))
 	}
@@ -128,7 +132,7 @@ func traceRun(opts *traceOptions) error {
 		return writeJSON(ios.Out, out)
 	case FormatCSV:
 		t := Table{Headers: []string{"depth", "node", "mark", "datum", "version", "value", "unit", "source_kind", "source", "adjustment_id", "run_id", "book_sha256",
-			"held_as", "accepted_failed_checks"}}
+			"held_as", "accepted_failed_checks", "doubt"}}
 		for _, v := range out.Versions {
 			traceRows(&t, v, 0)
 		}
@@ -190,6 +194,9 @@ func writeTrace(w io.Writer, v traceVersionJSON, indent string) {
 	fmt.Fprintf(w, "%s%s on %s, version %d: %s (%s), recorded %s by %s\n", indent, v.Mark, v.Datum, v.Version,
 		valueOrWithdrawn(v.heightJSON), v.SourceKind, timeText(v.RecordedAt), v.RecordedBy)
 	in := indent + "    "
+	for _, d := range v.Doubts {
+		fmt.Fprintf(w, "%s!! DOUBT: %s\n", in, d.Text)
+	}
 	fmt.Fprintf(w, "%sreason: %s\n", in, v.Reason)
 	switch {
 	case v.Repeated:
@@ -229,12 +236,12 @@ func traceRows(t *Table, v traceVersionJSON, depth int) {
 		accepted = acceptanceText(v.Adjustment.AcceptedFailedChecks, "")
 	}
 	t.AddRow(strconv.Itoa(depth), "version", v.Mark, v.Datum, strconv.Itoa(v.Version), deref(v.Value), deref(v.Unit), v.SourceKind, v.Source, adj, "", "",
-		v.HeldAs, accepted)
+		v.HeldAs, accepted, v.Doubts.Words())
 	if v.Adjustment == nil || v.Repeated {
 		return
 	}
 	for _, r := range v.Adjustment.Runs {
-		t.AddRow(strconv.Itoa(depth+1), "run", "", "", "", "", "", "", r.FileName, adj, strconv.FormatInt(r.RunID, 10), r.BookSHA256, "", "")
+		t.AddRow(strconv.Itoa(depth+1), "run", "", "", "", "", "", "", r.FileName, adj, strconv.FormatInt(r.RunID, 10), r.BookSHA256, "", "", "")
 	}
 	for _, h := range v.Adjustment.Held {
 		traceRows(t, h, depth+1)

@@ -18,6 +18,48 @@ func warnCondition(ios *IOStreams, m store.Mark) string {
 	return w
 }
 
+// warnDoubts prints the loud warning for a mark's doubts on stderr, one
+// line for each, and returns the lines (nil for none).
+func warnDoubts(ios *IOStreams, ds register.Doubts) []string {
+	var lines []string
+	for _, d := range ds {
+		lines = append(lines, d.Warning())
+	}
+	if len(lines) > 0 {
+		warnLoudly(ios, strings.Join(lines, "\n"))
+	}
+	return lines
+}
+
+// doubtsJSON is ds for machine output: always a list, empty for none.
+func doubtsJSON(ds register.Doubts) register.Doubts {
+	if ds == nil {
+		return register.Doubts{}
+	}
+	return ds
+}
+
+// doubtCell is ds for a table's DOUBT column: the doubts' words, after
+// "!! " on a terminal, or "" for none.
+func doubtCell(ios *IOStreams, ds register.Doubts) string {
+	switch {
+	case len(ds) == 0:
+		return ""
+	case ios.IsTerminal:
+		return "!! " + ds.Words()
+	}
+	return ds.Words()
+}
+
+// warnListed says on stderr, below a listing on a terminal, how many of
+// the rows listed are in doubt.
+func warnListed(ios *IOStreams, format Format, n, of int, what string) {
+	if n == 0 || format == FormatJSON {
+		return
+	}
+	warnLoudly(ios, fmt.Sprintf("WARNING: %d of the %d %s listed are in doubt (the DOUBT column): do not rely on them until the doubt is resolved; cairn trace tells why", n, of, what))
+}
+
 // warnLoudly writes a warning about a mark's condition on stderr between
 // two rules, so that it cannot be missed among the rows.
 func warnLoudly(ios *IOStreams, text string) {

@@ -135,6 +135,9 @@ type AdjustmentView struct {
 	// made: a height published for them describes a mark that may have
 	// moved or be gone.
 	InDoubt []MarkInDoubt
+	// HeldDoubts are the doubts about the held marks and the versions
+	// held, as of when the view was made, by designation (doubtsOf).
+	HeldDoubts map[string]Doubts
 	// Accepted is the acceptance of failed checks the adjustment was
 	// published with; nil for none (and for a draft).
 	Accepted *Acceptance

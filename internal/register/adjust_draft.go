@@ -136,8 +136,11 @@ func (r *Register) storeDraft(ctx context.Context, tx pgx.Tx, v *AdjustmentView)
 }
 
 // markDoubts fills v.InDoubt from the latest condition reports of the
-// marks v adjusts.
+// marks v adjusts, and v.HeldDoubts with the doubts of the held marks.
 func markDoubts(ctx context.Context, db store.DBTX, v *AdjustmentView) error {
+	if err := heldDoubts(ctx, db, v); err != nil {
+		return err
+	}
 	var ids []int64
 	for _, res := range v.Results {
 		if !res.Held {
@@ -226,4 +229,31 @@ func (r *Register) AdjustmentList(ctx context.Context, p AdjustmentListParams) (
 		return nil, inputErr("status", "unknown status %q (want draft, published or discarded)", p.Status)
 	}
 	return store.AdjustmentList(ctx, r.pool, store.AdjustmentListParams{Status: p.Status})
+}
+
+// heldDoubts fills v.HeldDoubts.
+func heldDoubts(ctx context.Context, db store.DBTX, v *AdjustmentView) error {
+	v.HeldDoubts = map[string]Doubts{}
+	if len(v.Held) == 0 {
+		return nil
+	}
+	designations := make([]string, len(v.Held))
+	hs := make([]store.Height, len(v.Held))
+	for i, h := range v.Held {
+		designations[i], hs[i] = h.Designation, h.Height
+	}
+	marks, err := store.MarkListByDesignations(ctx, db, designations)
+	if err != nil {
+		return fmt.Errorf("read the held marks: %w", err)
+	}
+	ds, err := doubtsOf(ctx, db, marks, hs)
+	if err != nil {
+		return fmt.Errorf("find the doubts of the held marks: %w", err)
+	}
+	for _, h := range v.Held {
+		if d := ds[h.MarkID].Of(h.DatumCode, h.Version); len(d) > 0 {
+			v.HeldDoubts[h.Designation] = d
+		}
+	}
+	return nil
 }

@@ -191,24 +191,68 @@ func (r *Register) HeightShow(ctx context.Context, p HeightShowParams) (MarkView
 			}
 			q.DatumID = d.ID
 		}
-		v.Heights, err = store.HeightAsOf(ctx, tx, q)
+		if v.Heights, err = store.HeightAsOf(ctx, tx, q); err != nil {
+			return err
+		}
+		ds, err := doubtsOf(ctx, tx, []store.Mark{v.Mark}, v.Heights)
+		v.Doubts = ds[v.Mark.ID]
 		return err
 	})
 	return v, err
 }
 
+// CurrentHeight is a current version with the doubts that concern it
+// (its mark's and its own).
+type CurrentHeight struct {
+	store.Height
+	Doubts Doubts
+}
+
 // HeightsCurrent returns the current version of every mark on datum (""
-// for every datum), by designation and datum code.
-func (r *Register) HeightsCurrent(ctx context.Context, datum string) ([]store.Height, error) {
-	var id int64
-	if datum != "" {
-		d, err := r.datum(ctx, r.pool, "datum", datum)
-		if err != nil {
-			return nil, err
+// for every datum), by designation and datum code, each with its doubts.
+func (r *Register) HeightsCurrent(ctx context.Context, datum string) ([]CurrentHeight, error) {
+	var out []CurrentHeight
+	err := r.withTx(ctx, readTx, func(tx pgx.Tx) error {
+		var id int64
+		if datum != "" {
+			d, err := r.datum(ctx, tx, "datum", datum)
+			if err != nil {
+				return err
+			}
+			id = d.ID
 		}
-		id = d.ID
-	}
-	return store.HeightCurrentAll(ctx, r.pool, id)
+		hs, err := store.HeightCurrentAll(ctx, tx, id)
+		if err != nil {
+			return err
+		}
+		var ids []int64
+		for _, h := range hs {
+			if len(ids) == 0 || ids[len(ids)-1] != h.MarkID {
+				ids = append(ids, h.MarkID)
+			}
+		}
+		latest, err := store.ConditionLatestMany(ctx, tx, ids)
+		if err != nil {
+			return err
+		}
+		marks := make([]store.Mark, 0, len(latest))
+		for _, h := range hs {
+			if c, ok := latest[h.MarkID]; ok {
+				marks = append(marks, store.Mark{ID: h.MarkID, Designation: h.Designation, Latest: &c})
+				delete(latest, h.MarkID)
+			}
+		}
+		ds, err := doubtsOf(ctx, tx, marks, hs)
+		if err != nil {
+			return err
+		}
+		out = make([]CurrentHeight, len(hs))
+		for i, h := range hs {
+			out[i] = CurrentHeight{Height: h, Doubts: ds[h.MarkID].Of(h.DatumCode, h.Version)}
+		}
+		return nil
+	})
+	return out, err
 }
 
 // HistoryEntry is one version with its change from the version before.
@@ -221,20 +265,31 @@ type HistoryEntry struct {
 	// Accepted is, for a version from an adjustment published with failed
 	// checks accepted, that acceptance; nil otherwise.
 	Accepted *Acceptance
+	// Doubts concern this version: its mark's and its own.
+	Doubts Doubts
+}
+
+// HistoryView is a mark's history: the mark, its doubts (its own and its
+// versions') and every version.
+type HistoryView struct {
+	Mark     store.Mark
+	Doubts   Doubts
+	Versions []HistoryEntry
 }
 
 // History returns every version of a mark's heights, newest first within
-// each datum (datums by code), each with its change from the one before.
-func (r *Register) History(ctx context.Context, designation, datum string) (store.Mark, []HistoryEntry, error) {
-	var m store.Mark
+// each datum (datums by code), each with its change from the one before,
+// and the doubts about the mark and its versions.
+func (r *Register) History(ctx context.Context, designation, datum string) (HistoryView, error) {
+	var v HistoryView
 	var hs []store.Height
 	var accepted map[int64]*Acceptance
 	err := r.withTx(ctx, readTx, func(tx pgx.Tx) error {
 		var err error
-		if m, err = r.mark(ctx, tx, "designation", designation, false); err != nil {
+		if v.Mark, err = r.mark(ctx, tx, "designation", designation, false); err != nil {
 			return err
 		}
-		q := store.HeightHistoryParams{MarkID: m.ID}
+		q := store.HeightHistoryParams{MarkID: v.Mark.ID}
 		if datum != "" {
 			d, err := r.datum(ctx, tx, "datum", datum)
 			if err != nil {
@@ -245,27 +300,33 @@ func (r *Register) History(ctx context.Context, designation, datum string) (stor
 		if hs, err = store.HeightHistory(ctx, tx, q); err != nil {
 			return err
 		}
-		accepted, err = acceptances(ctx, tx, hs)
+		if accepted, err = acceptances(ctx, tx, hs); err != nil {
+			return err
+		}
+		ds, err := doubtsOf(ctx, tx, []store.Mark{v.Mark}, hs)
+		v.Doubts = ds[v.Mark.ID]
 		return err
 	})
 	if err != nil {
-		return m, nil, err
+		return v, err
 	}
-	out := make([]HistoryEntry, len(hs))
+	v.Versions = make([]HistoryEntry, len(hs))
 	for i, h := range hs {
-		out[i].Height = h
+		e := &v.Versions[i]
+		e.Height = h
+		e.Doubts = v.Doubts.Of(h.DatumCode, h.Version)
 		if h.AdjustmentID != nil {
-			out[i].Accepted = accepted[*h.AdjustmentID]
+			e.Accepted = accepted[*h.AdjustmentID]
 		}
 		if i+1 < len(hs) && hs[i+1].DatumID == h.DatumID {
 			c, err := change(h, hs[i+1])
 			if err != nil {
-				return m, nil, err
+				return v, err
 			}
-			out[i].Change = c
+			e.Change = c
 		}
 	}
-	return m, out, nil
+	return v, nil
 }
 
 // acceptances returns, by adjustment, the acceptances of failed checks of

@@ -110,7 +110,7 @@ func TestLoadSixteenWorkers(t *testing.T) {
 					case 0:
 						_, err = reg.HeightShow(ctx, HeightShowParams{Designation: mark})
 					case 1:
-						_, _, err = reg.History(ctx, mark, "NAVD88")
+						_, err = reg.History(ctx, mark, "NAVD88")
 					default:
 						_, err = reg.MarkShow(ctx, mark)
 					}

@@ -3,7 +3,6 @@ package register
 import (
 	"context"
 	"errors"
-	"fmt"
 	"math"
 	"regexp"
 	"slices"
@@ -82,6 +81,9 @@ type MarkView struct {
 	Heights    []store.Height
 	// Runs are the recorded runs that touched the mark, oldest first.
 	Runs []store.Run
+	// Doubts are the mark's doubts and those of the heights shown
+	// (doubtsOf).
+	Doubts Doubts
 }
 
 // MarkShow returns a mark, its condition history and its current heights.
@@ -98,7 +100,11 @@ func (r *Register) MarkShow(ctx context.Context, designation string) (MarkView, 
 		if v.Heights, err = store.HeightAsOf(ctx, tx, store.HeightAsOfParams{MarkID: v.Mark.ID}); err != nil {
 			return err
 		}
-		v.Runs, err = store.RunList(ctx, tx, store.RunListParams{MarkID: &v.Mark.ID})
+		if v.Runs, err = store.RunList(ctx, tx, store.RunListParams{MarkID: &v.Mark.ID}); err != nil {
+			return err
+		}
+		ds, err := doubtsOf(ctx, tx, []store.Mark{v.Mark}, v.Heights)
+		v.Doubts = ds[v.Mark.ID]
 		return err
 	})
 	return v, err
@@ -113,8 +119,15 @@ type MarkListParams struct {
 	Conditions []string
 }
 
-// MarkList lists marks with their latest condition.
-func (r *Register) MarkList(ctx context.Context, p MarkListParams) ([]store.Mark, error) {
+// ListedMark is a mark in a listing, with its doubts and those of its
+// current heights.
+type ListedMark struct {
+	store.Mark
+	Doubts Doubts
+}
+
+// MarkList lists marks with their latest condition and their doubts.
+func (r *Register) MarkList(ctx context.Context, p MarkListParams) ([]ListedMark, error) {
 	if p.Near != nil {
 		if p.Near.Lat < -90 || p.Near.Lat > 90 {
 			return nil, inputErr("near", "latitude %v is outside -90 to 90 degrees", p.Near.Lat)
@@ -131,7 +144,23 @@ func (r *Register) MarkList(ctx context.Context, p MarkListParams) ([]store.Mark
 			return nil, inputErr("condition", "unknown condition %q (want %s or unknown)", c, strings.Join(Conditions, ", "))
 		}
 	}
-	return store.MarkList(ctx, r.pool, store.MarkListParams{Near: p.Near, RadiusM: p.RadiusM, Conditions: p.Conditions})
+	var out []ListedMark
+	err := r.withTx(ctx, readTx, func(tx pgx.Tx) error {
+		ms, err := store.MarkList(ctx, tx, store.MarkListParams{Near: p.Near, RadiusM: p.RadiusM, Conditions: p.Conditions})
+		if err != nil {
+			return err
+		}
+		ds, err := markDoubtsCurrent(ctx, tx, ms)
+		if err != nil {
+			return err
+		}
+		out = make([]ListedMark, len(ms))
+		for i, m := range ms {
+			out[i] = ListedMark{Mark: m, Doubts: ds[m.ID]}
+		}
+		return nil
+	})
+	return out, err
 }
 
 // MarkConditionParams are the fields of a condition report.
@@ -173,24 +202,9 @@ func (r *Register) MarkCondition(ctx context.Context, p MarkConditionParams) (st
 // Warning returns the loud warning for a mark whose latest condition report
 // says it is disturbed, destroyed or not found, or "" if there is none.
 func Warning(m store.Mark) string {
-	c := m.Latest
-	if c == nil {
+	d, ok := conditionDoubt(m)
+	if !ok {
 		return ""
 	}
-	var what string
-	switch c.Condition {
-	case "disturbed":
-		what = "was reported DISTURBED"
-	case "destroyed":
-		what = "was reported DESTROYED"
-	case "not-found":
-		what = "was NOT FOUND when searched for"
-	default:
-		return ""
-	}
-	s := fmt.Sprintf("WARNING: mark %s %s on %s", m.Designation, what, c.ObservedOn.Format("2006-01-02"))
-	if c.Note != "" {
-		s += " (" + c.Note + ")"
-	}
-	return s + "; do not rely on its height until it has been checked in the field"
+	return d.Warning()
 }

@@ -145,7 +145,8 @@ func TestAdjustPublishTrace(t *testing.T) {
 	if _, err := b.Reg.Publish(b.Ctx, PublishParams{AdjustmentID: v2.Adjustment.ID, Reason: "re-adjusted after review", By: "reviewer"}); err != nil {
 		t.Fatal(err)
 	}
-	_, hist, err := b.Reg.History(b.Ctx, "BM2", "")
+	hv, err := b.Reg.History(b.Ctx, "BM2", "")
+	hist := hv.Versions
 	if err != nil {
 		t.Fatal(err)
 	}
@@ -361,7 +362,8 @@ func TestAsOfTimeline(t *testing.T) {
 	// 891.764 computed + 0.010 held change + 0.090168 correction (derived).
 	steps = append(steps, step{now(), "891.864"})
 
-	_, hist, err := b.Reg.History(b.Ctx, "BM3", "")
+	hv, err := b.Reg.History(b.Ctx, "BM3", "")
+	hist := hv.Versions
 	if err != nil {
 		t.Fatal(err)
 	}

@@ -175,7 +175,8 @@ func TestHistoryChanges(t *testing.T) {
 	set(t, b, "769.88", "usft")
 	// 769.88 usft = 769.88 × 1200/3937 m = 234.65989... m; 234.662 − 234.65989 = +0.00211 → +0.002 m.
 	set(t, b, "234.662", "m")
-	_, hs, err := b.Reg.History(b.Ctx, "TC-0412", "")
+	hv, err := b.Reg.History(b.Ctx, "TC-0412", "")
+	hs := hv.Versions
 	if err != nil {
 		t.Fatal(err)
 	}

@@ -5,6 +5,7 @@ import (
 	"encoding/json"
 	"errors"
 	"fmt"
+	"slices"
 	"time"
 
 	"github.com/jackc/pgx/v5"
@@ -25,6 +26,9 @@ type TraceParams struct {
 type Trace struct {
 	Mark store.Mark
 	AsOf *time.Time
+	// Doubts are the doubts about the mark and the versions traced (not
+	// those held).
+	Doubts Doubts
 	// Versions holds one tree per datum.
 	Versions []*TraceVersion
 }
@@ -38,6 +42,8 @@ type TraceVersion struct {
 	// Repeated says the version's derivation is shown earlier in the same
 	// trace.
 	Repeated bool
+	// Doubts are the doubts about this version: its mark's and its own.
+	Doubts Doubts
 }
 
 // TraceAdjustment is the adjustment a version came from: its runs (with
@@ -89,7 +95,7 @@ func (r *Register) Trace(ctx context.Context, p TraceParams) (*Trace, error) {
 			}
 			t.Versions = append(t.Versions, n)
 		}
-		return nil
+		return traceDoubts(ctx, tx, t)
 	})
 	if err != nil {
 		return nil, fmt.Errorf("trace %s: %w", p.Designation, err)
@@ -140,4 +146,50 @@ func traceVersion(ctx context.Context, db store.DBTX, h store.Height, seen map[i
 	}
 	n.Adjustment = ta
 	return n, nil
+}
+
+// traceDoubts finds the doubts of every version in the trace, held ones
+// included, each with its mark's condition.
+func traceDoubts(ctx context.Context, db store.DBTX, t *Trace) error {
+	var nodes []*TraceVersion
+	var walk func(n *TraceVersion)
+	walk = func(n *TraceVersion) {
+		nodes = append(nodes, n)
+		if n.Adjustment != nil {
+			for _, c := range n.Adjustment.Held {
+				walk(c)
+			}
+		}
+	}
+	for _, n := range t.Versions {
+		walk(n)
+	}
+	var designations []string
+	hs := make([]store.Height, len(nodes))
+	for i, n := range nodes {
+		hs[i] = n.Height
+		if !slices.Contains(designations, n.Designation) {
+			designations = append(designations, n.Designation)
+		}
+	}
+	marks, err := store.MarkListByDesignations(ctx, db, designations)
+	if err != nil {
+		return err
+	}
+	ds, err := doubtsOf(ctx, db, marks, hs)
+	if err != nil {
+		return err
+	}
+	for _, n := range nodes {
+		n.Doubts = ds[n.MarkID].Of(n.DatumCode, n.Version)
+	}
+	t.Doubts = nil
+	for _, n := range t.Versions {
+		for _, d := range n.Doubts {
+			if !slices.Contains(t.Doubts, d) {
+				t.Doubts = append(t.Doubts, d)
+			}
+		}
+	}
+	return nil
 }

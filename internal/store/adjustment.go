@@ -132,6 +132,16 @@ func AdjustmentList(ctx context.Context, db DBTX, p AdjustmentListParams) ([]Adj
 	return collect(rows, scanAdjustment)
 }
 
+// AdjustmentListByIDs returns the adjustments of ids that exist, by
+// identifier.
+func AdjustmentListByIDs(ctx context.Context, db DBTX, ids []int64) ([]Adjustment, error) {
+	rows, err := db.Query(ctx, "SELECT "+adjustmentColumns+adjustmentFrom+" WHERE a.id = ANY($1) ORDER BY a.id", ids)
+	if err != nil {
+		return nil, translate(err)
+	}
+	return collect(rows, scanAdjustment)
+}
+
 // AdjustmentRunInsertParams are the runs an adjustment used.
 type AdjustmentRunInsertParams struct {
 	AdjustmentID int64

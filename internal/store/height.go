@@ -133,6 +133,14 @@ func HeightCurrentAll(ctx context.Context, db DBTX, datumID int64) ([]Height, er
 		ORDER BY m.designation, d.code`, datumID)
 }
 
+// HeightCurrentByMarks returns the current versions of the marks
+// markIDs on every datum, by designation and datum code.
+func HeightCurrentByMarks(ctx context.Context, db DBTX, markIDs []int64) ([]Height, error) {
+	return heightQuery(ctx, db, "SELECT "+heightColumns+heightFrom+
+		` WHERE h.mark_id = ANY($1) AND NOT EXISTS (SELECT 1 FROM height s WHERE s.supersedes = h.id)
+		ORDER BY m.designation, d.code`, markIDs)
+}
+
 // HeightHistoryParams names the versions to list.
 type HeightHistoryParams struct {
 	MarkID int64

@@ -1,0 +1,109 @@
+package cli
+
+import (
+	"fmt"
+	"io"
+	"strings"
+	"unicode/utf8"
+)
+
+// Text from the register (notes, descriptions, reasons, a book's header) is
+// kept exactly as given, control characters included. Printed raw to a
+// terminal, such text could move the cursor, erase the line before it (a
+// loud warning, say) or reverse the order of what follows, so cairn shows
+// it made visible instead:
+//
+//   - on a terminal, everything cairn writes passes through a
+//     visibleWriter;
+//   - the error stream, read by people, always does;
+//   - in a pipe, data is exact (JSON, CSV, a book's bytes), except that a
+//     tab-separated table escapes the cells' own tabs and line breaks, so
+//     that each row stays one line.
+//
+// A character made visible is written as \uXXXX, which a JSON string also
+// reads back as the same character, or as \xNN for a byte that is not
+// UTF-8.
+
+// hidden says whether r is made visible wherever it is printed: the C0
+// controls but tab and line feed, DEL, the C1 controls, and the characters
+// that reorder or break text without showing (bidirectional embeddings,
+// overrides, isolates and marks; the line and paragraph separators).
+func hidden(r rune) bool {
+	switch {
+	case r == '\t' || r == '\n':
+		return false
+	case r < 0x20, r >= 0x7f && r <= 0x9f:
+		return true
+	case r == 0x061c, r == 0x200e, r == 0x200f, r >= 0x202a && r <= 0x202e, r >= 0x2066 && r <= 0x2069,
+		r == 0x2028, r == 0x2029:
+		return true
+	}
+	return false
+}
+
+// visible returns s with every hidden character, and tab and line feed
+// too, written as \uXXXX, and any byte that is not UTF-8 as \xNN: one
+// line of plain text, fit for a table's cell.
+func visible(s string) string {
+	if !strings.ContainsFunc(s, func(r rune) bool { return r == '\t' || r == '\n' || r == utf8.RuneError || hidden(r) }) {
+		return s
+	}
+	var b strings.Builder
+	for i := 0; i < len(s); {
+		r, n := utf8.DecodeRuneInString(s[i:])
+		switch {
+		case r == utf8.RuneError && n == 1:
+			fmt.Fprintf(&b, `\x%02x`, s[i])
+		case r == '\t' || r == '\n' || hidden(r):
+			fmt.Fprintf(&b, `\u%04x`, r)
+		default:
+			b.WriteString(s[i : i+n])
+		}
+		i += n
+	}
+	return b.String()
+}
+
+// visibleWriter writes to w with every hidden character made visible
+// (tabs and line feeds pass as they are). A character split across two
+// writes is held until its last byte comes.
+type visibleWriter struct {
+	w       io.Writer
+	pending []byte
+}
+
+func (v *visibleWriter) Write(p []byte) (int, error) {
+	buf := p
+	if len(v.pending) > 0 {
+		buf = append(v.pending, p...)
+		v.pending = nil
+	}
+	var out []byte
+	start := 0 // buf[start:i] passes unchanged
+	for i := 0; i < len(buf); {
+		r, n := utf8.DecodeRune(buf[i:])
+		if r == utf8.RuneError && n <= 1 && !utf8.FullRune(buf[i:]) {
+			// The rest may be the start of a character still to come.
+			out = append(out, buf[start:i]...)
+			v.pending = append([]byte(nil), buf[i:]...)
+			start = len(buf)
+			break
+		}
+		switch {
+		case r == utf8.RuneError && n == 1:
+			out = append(append(out, buf[start:i]...), fmt.Sprintf(`\x%02x`, buf[i])...)
+			start = i + n
+		case hidden(r):
+			out = append(append(out, buf[start:i]...), fmt.Sprintf(`\u%04x`, r)...)
+			start = i + n
+		}
+		i += n
+	}
+	if start < len(buf) {
+		out = append(out, buf[start:]...)
+	}
+	if _, err := v.w.Write(out); err != nil {
+		return 0, err
+	}
+	return len(p), nil
+}

@@ -1,0 +1,207 @@
+package register
+
+import (
+	"context"
+	"fmt"
+	"slices"
+	"strings"
+
+	"cairn/internal/store"
+)
+
+// Kinds of doubt about a mark's height. Every command that shows a height
+// shows its doubts, found here and nowhere else.
+const (
+	// DoubtCondition: the mark's latest condition report says it is
+	// disturbed, destroyed or not found. Only a later report (good or
+	// reset) clears it; a new height does not.
+	DoubtCondition = "condition"
+	// DoubtStale: the version is current but no longer stands on current
+	// control (Stale): a version its adjustment held was superseded or is
+	// itself stale, or a mark its runs touched was reported disturbed or
+	// destroyed after them.
+	DoubtStale = "stale"
+	// DoubtVoidedRun: the version's adjustment used a run since voided.
+	DoubtVoidedRun = "voided-run"
+	// DoubtAcceptedFailures: the version's adjustment was published with
+	// its failed checks accepted.
+	DoubtAcceptedFailures = "accepted-failed-checks"
+)
+
+// Doubt is one reason not to rely on a mark's height.
+type Doubt struct {
+	Kind string `json:"kind"`
+	// Word is the doubt in one word, for a table's column: the condition
+	// (disturbed, destroyed, not-found), stale, voided-run or
+	// accepted-failures.
+	Word string `json:"word"`
+	// Datum and Version name the height version the doubt concerns; empty
+	// and 0 for a doubt about the mark itself (its condition).
+	Datum   string `json:"datum,omitempty"`
+	Version int    `json:"version,omitempty"`
+	// Text says it in words, with dates and who.
+	Text string `json:"text"`
+}
+
+// Warning is the doubt as a loud warning, with what to do about it.
+func (d Doubt) Warning() string {
+	switch d.Kind {
+	case DoubtCondition:
+		return "WARNING: mark " + d.Text + "; do not rely on its height until it has been checked in the field"
+	case DoubtStale:
+		return "WARNING: " + d.Text + "; adjust it again before relying on it"
+	case DoubtVoidedRun:
+		return "WARNING: " + d.Text + "; adjust it again without that run before relying on it"
+	default:
+		return "WARNING: " + d.Text + "; read the checks accepted (cairn trace) before relying on it"
+	}
+}
+
+// Doubts are a mark's doubts: its own first, then those of its versions by
+// datum and version.
+type Doubts []Doubt
+
+// Words is the doubts' words, each once, in order ("" for none).
+func (ds Doubts) Words() string {
+	var w []string
+	for _, d := range ds {
+		if !slices.Contains(w, d.Word) {
+			w = append(w, d.Word)
+		}
+	}
+	return strings.Join(w, ",")
+}
+
+// Of returns the doubts that concern one version: the mark's own, and the
+// version's.
+func (ds Doubts) Of(datum string, version int) Doubts {
+	var out Doubts
+	for _, d := range ds {
+		if d.Datum == "" || (d.Datum == datum && d.Version == version) {
+			out = append(out, d)
+		}
+	}
+	return out
+}
+
+// conditionWords are the words of the conditions in doubt.
+var conditionWords = map[string]string{"disturbed": "was reported DISTURBED", "destroyed": "was reported DESTROYED",
+	"not-found": "was NOT FOUND when searched for"}
+
+// conditionDoubt is the doubt a mark's latest condition report casts, if
+// any.
+func conditionDoubt(m store.Mark) (Doubt, bool) {
+	c := m.Latest
+	if c == nil || !conditionsInDoubt[c.Condition] {
+		return Doubt{}, false
+	}
+	s := fmt.Sprintf("%s %s on %s", m.Designation, conditionWords[c.Condition], c.ObservedOn.Format("2006-01-02"))
+	if c.Note != "" {
+		s += " (" + c.Note + ")"
+	}
+	return Doubt{Kind: DoubtCondition, Word: c.Condition, Text: s}, true
+}
+
+// doubtsOf finds the doubts of marks and of the height versions hs (of
+// those marks, any versions), by mark identifier: a mark without doubt is
+// absent. Marks need their latest condition report (store.Mark.Latest).
+// It reads in db, which should be one read-only transaction so that every
+// doubt describes the same moment.
+func doubtsOf(ctx context.Context, db store.DBTX, marks []store.Mark, hs []store.Height) (map[int64]Doubts, error) {
+	out := map[int64]Doubts{}
+	for _, m := range marks {
+		if d, ok := conditionDoubt(m); ok {
+			out[m.ID] = append(out[m.ID], d)
+		}
+	}
+	var adjIDs []int64
+	stale := false
+	for _, h := range hs {
+		if h.AdjustmentID != nil && !slices.Contains(adjIDs, *h.AdjustmentID) {
+			adjIDs = append(adjIDs, *h.AdjustmentID)
+		}
+		stale = stale || (h.Current && h.AdjustmentID != nil)
+	}
+	if len(adjIDs) == 0 {
+		return out, nil
+	}
+	adjs, err := store.AdjustmentListByIDs(ctx, db, adjIDs)
+	if err != nil {
+		return nil, fmt.Errorf("look up the adjustments of the heights: %w", err)
+	}
+	byAdj := map[int64]store.Adjustment{}
+	var runIDs []int64
+	for _, a := range adjs {
+		byAdj[a.ID] = a
+		runIDs = append(runIDs, a.RunIDs...)
+	}
+	voids, err := store.RunVoidedList(ctx, db, runIDs)
+	if err != nil {
+		return nil, fmt.Errorf("look up voided runs: %w", err)
+	}
+	staleReasons := map[int64][]StaleReason{}
+	if stale {
+		shs, err := staleHeights(ctx, db)
+		if err != nil {
+			return nil, err
+		}
+		for _, sh := range shs {
+			staleReasons[sh.ID] = sh.Reasons
+		}
+	}
+	for _, h := range hs {
+		if h.AdjustmentID == nil {
+			continue
+		}
+		a := byAdj[*h.AdjustmentID]
+		add := func(kind, word, text string) {
+			out[h.MarkID] = append(out[h.MarkID], Doubt{Kind: kind, Word: word, Datum: h.DatumCode, Version: h.Version,
+				Text: fmt.Sprintf("%s on %s, version %d: %s", h.Designation, h.DatumCode, h.Version, text)})
+		}
+		acc, err := AcceptanceOf(a)
+		if err != nil {
+			return nil, err
+		}
+		if acc != nil {
+			var checks []string
+			for _, c := range acc.Checks {
+				checks = append(checks, c.Kind+": "+c.Message)
+			}
+			add(DoubtAcceptedFailures, "accepted-failures", fmt.Sprintf("adjustment %d was PUBLISHED WITH FAILED CHECKS ACCEPTED by %s on %s (%s); accepted %s",
+				a.ID, acc.By, acc.At.UTC().Format("2006-01-02"), acc.Reason, strings.Join(checks, "; ")))
+		}
+		for _, id := range a.RunIDs {
+			if v, ok := voids[id]; ok {
+				add(DoubtVoidedRun, "voided-run", fmt.Sprintf("adjustment %d used run %d, voided %s by %s: %s",
+					a.ID, id, v.RecordedAt.UTC().Format("2006-01-02"), v.RecordedBy, v.Reason))
+			}
+		}
+		if !h.Current {
+			continue
+		}
+		var why []string
+		for _, r := range staleReasons[h.ID] {
+			if r.Kind != store.CauseVoidedRun {
+				why = append(why, r.Text)
+			}
+		}
+		if len(why) > 0 {
+			add(DoubtStale, "stale", "stale: "+strings.Join(why, "; "))
+		}
+	}
+	return out, nil
+}
+
+// markDoubtsCurrent finds the doubts of marks and their current heights
+// on every datum.
+func markDoubtsCurrent(ctx context.Context, db store.DBTX, marks []store.Mark) (map[int64]Doubts, error) {
+	ids := make([]int64, len(marks))
+	for i, m := range marks {
+		ids[i] = m.ID
+	}
+	hs, err := store.HeightCurrentByMarks(ctx, db, ids)
+	if err != nil {
+		return nil, err
+	}
+	return doubtsOf(ctx, db, marks, hs)
+}
