@@ -42,6 +42,16 @@ func newStreams(in io.Reader, out, errOut io.Writer, terminal bool) *IOStreams {
 	return s
 }
 
+// Flush writes what the streams hold back: the start of a character split
+// across writes whose end never came (visibleWriter).
+func (s *IOStreams) Flush() {
+	for _, w := range []io.Writer{s.Out, s.ErrOut} {
+		if v, ok := w.(*visibleWriter); ok {
+			_ = v.Flush()
+		}
+	}
+}
+
 // progressOut is the raw error stream, for a progress line.
 func (s *IOStreams) progressOut() io.Writer {
 	if s.rawErr != nil {

@@ -319,12 +319,15 @@ type markConditionOptions struct {
 func newCmdMarkCondition(f *Factory, runF func(*markConditionOptions) error) *cobra.Command {
 	opts := &markConditionOptions{f: f}
 	cmd := &cobra.Command{
-		Use:   "condition DESIGNATION good|disturbed|destroyed|not-found",
+		Use:   "condition DESIGNATION good|disturbed|destroyed|not-found|reset",
 		Short: "Report the condition a benchmark was found in",
-		Long: `Add a condition report on a benchmark: good, disturbed, destroyed, or
-not-found (searched for and not found). Reports are kept for good; the latest
-one (by the date observed) is the mark's condition, and 'height show' and
-'mark list' warn loudly when it is disturbed, destroyed or not found.`,
+		Long: `Add a condition report on a benchmark: good, disturbed, destroyed,
+not-found (searched for and not found), or reset (set again, or
+re-established, and levelled since). Reports are kept for good; the latest
+one (by the date observed) is the mark's condition. While it is disturbed,
+destroyed or not found the mark is in doubt: every command that shows its
+height warns loudly, new heights included, until a later report says good or
+reset.`,
 		Example: `  cairn mark condition TC-0415 disturbed --note "post tilted, struck by mower" --on 2024-05-14`,
 		Args:    exactArgs(2, "a DESIGNATION and a condition"),
 		ValidArgsFunction: func(cmd *cobra.Command, args []string, _ string) ([]string, cobra.ShellCompDirective) {

@@ -69,6 +69,13 @@ func writeTable(ios *IOStreams, format Format, t Table) error {
 	case FormatJSON:
 		return fmt.Errorf("cli: writeTable called with json")
 	}
+	// A cell is one line of plain text, whatever the register holds
+	// (visible.go).
+	for _, r := range t.Rows {
+		for i, c := range r {
+			r[i] = visible(c)
+		}
+	}
 	if !ios.IsTerminal {
 		for _, r := range t.Rows {
 			if _, err := fmt.Fprintln(ios.Out, strings.Join(r, "\t")); err != nil {

@@ -27,6 +27,10 @@ type publishOptions struct {
 	accept       bool
 	acceptReason string
 	largeChangeM float64
+	// Publish only: the condition report to write on the re-levelled marks
+	// in doubt, and its note.
+	reportCondition string
+	conditionNote   string
 }
 
 func (o *publishOptions) parse(args []string) error {
@@ -49,6 +53,10 @@ func (o *publishOptions) parseAcceptance() error {
 		return badInput("--accept-failed-checks needs --accept-reason saying why the failed checks are accepted")
 	case !o.accept && o.acceptReason != "":
 		return badInput("--accept-reason goes with --accept-failed-checks")
+	case o.reportCondition != "" && strings.TrimSpace(o.conditionNote) == "":
+		return badInput("--report-condition needs --condition-note saying what the crew found at the marks")
+	case o.reportCondition == "" && strings.TrimSpace(o.conditionNote) != "":
+		return badInput("--condition-note goes with --report-condition")
 	case !(o.largeChangeM > 0) || math.IsInf(o.largeChangeM, 0):
 		return badInput("--large-change-m: give a positive number of metres, not %v", o.largeChangeM)
 	}
@@ -86,6 +94,16 @@ adjustment show.
 An adjustment already published or discarded cannot be published: exit
 status 2.
 
+A new height does not clear the doubt a condition report cast on a mark: a
+mark last reported disturbed, destroyed or not found stays in doubt, new
+height and all, until a later report says otherwise. When the crew that
+levelled such marks found them sound, or set them again, give
+--report-condition good (or reset) with --condition-note saying what was
+found: the publication then writes that report on each of them, observed on
+the date of the last run that levelled it, in the same transaction. A mark
+reported in doubt after that run is refused (exit status 2): the run cannot
+speak for it.
+
 Before publishing it lists every mark: the height in force (converted
 exactly to the unit it will be published in) and the new one, the change,
 the unit and the class. A change over --large-change-m metres, and a mark
@@ -117,6 +135,8 @@ list under "changes".
 	fl.BoolVar(&opts.accept, "accept-failed-checks", false, "publish even though checks failed (needs --accept-reason; kept with the publication)")
 	fl.StringVar(&opts.acceptReason, "accept-reason", "", "with --accept-failed-checks: why the failed checks are accepted")
 	fl.Float64Var(&opts.largeChangeM, "large-change-m", register.DefaultLargeChangeM, "call out a change of a height larger than this, in metres")
+	fl.StringVar(&opts.reportCondition, "report-condition", "", "good or reset: report this condition on the re-levelled marks in doubt (needs --condition-note)")
+	fl.StringVar(&opts.conditionNote, "condition-note", "", "with --report-condition: what the crew found at the marks")
 	return cmd
 }
 
@@ -219,7 +239,18 @@ type publishJSON struct {
 	Versions     []heightJSON     `json:"versions"`
 	// AcceptedFailedChecks is null when every check passed.
 	AcceptedFailedChecks *acceptanceJSON `json:"accepted_failed_checks"`
-	Cautions             string          `json:"cautions"`
+	// ConditionsReported are the condition reports written with the
+	// publication (--report-condition); StillInDoubt the re-levelled marks
+	// whose latest report still casts doubt on their new heights.
+	ConditionsReported []reportedJSON    `json:"conditions_reported"`
+	StillInDoubt       []markInDoubtJSON `json:"still_in_doubt"`
+	Cautions           string            `json:"cautions"`
+}
+
+// reportedJSON is a condition report a publication wrote.
+type reportedJSON struct {
+	Mark string `json:"mark"`
+	conditionJSON
 }
 
 // changesTable is the list of what a publication changes, mark by mark,
@@ -317,6 +348,15 @@ func publishRun(opts *publishOptions) error {
 			return err
 		}
 		callOutChanges(ios, pv.Changes, pv.LargeChangeM)
+		for _, d := range pv.View.InDoubt {
+			if opts.reportCondition != "" {
+				ios.printf("It will report %s %s (last reported %s on %s).\n", d.Designation, strings.ToLower(opts.reportCondition),
+					d.Condition.Condition, d.Condition.ObservedOn.Format("2006-01-02"))
+			} else {
+				ios.printf("%s stays in doubt (reported %s on %s) until a condition report says otherwise.\n", d.Designation,
+					strings.ToUpper(d.Condition.Condition), d.Condition.ObservedOn.Format("2006-01-02"))
+			}
+		}
 		if opts.accept && len(pv.Failed) > 0 {
 			warnLoudly(ios, fmt.Sprintf("PUBLISHING WITH FAILED CHECKS ACCEPTED by %s: %s%s", opts.by, opts.acceptReason,
 				checkLines(pv.Failed)))
@@ -326,14 +366,23 @@ func publishRun(opts *publishOptions) error {
 		}
 	}
 	pub, err := r.Publish(ctx, register.PublishParams{AdjustmentID: opts.id, Reason: opts.reason, By: opts.by,
-		AcceptFailedChecks: opts.accept, AcceptReason: opts.acceptReason, LargeChangeM: opts.largeChangeM})
+		AcceptFailedChecks: opts.accept, AcceptReason: opts.acceptReason, LargeChangeM: opts.largeChangeM,
+		ReportCondition: opts.reportCondition, ConditionNote: opts.conditionNote})
 	if err != nil {
 		return err
 	}
 	a := pub.Adjustment
 	out := publishJSON{AdjustmentID: a.ID, Datum: a.DatumCode, Reason: a.StatusReason, PublishedBy: a.StatusBy, PublishedAt: a.StatusAt,
 		LargeChangeM: pub.LargeChangeM, Changes: []markChangeJSON{}, Versions: []heightJSON{},
-		AcceptedFailedChecks: toAcceptanceJSON(pub.Accepted), Cautions: adjustCautions}
+		AcceptedFailedChecks: toAcceptanceJSON(pub.Accepted), Cautions: adjustCautions,
+		ConditionsReported: []reportedJSON{}, StillInDoubt: []markInDoubtJSON{}}
+	for _, c := range pub.Reported {
+		out.ConditionsReported = append(out.ConditionsReported, reportedJSON{Mark: c.Designation, conditionJSON: toConditionJSON(c.Condition)})
+	}
+	for _, d := range pub.StillInDoubt {
+		out.StillInDoubt = append(out.StillInDoubt, markInDoubtJSON{Mark: d.Designation, Condition: d.Condition.Condition,
+			ObservedOn: d.Condition.ObservedOn, Note: d.Condition.Note})
+	}
 	for _, c := range pub.Changes {
 		out.Changes = append(out.Changes, toMarkChangeJSON(c))
 	}
@@ -354,6 +403,17 @@ func publishRun(opts *publishOptions) error {
 	callOutChanges(ios, pub.Changes, pub.LargeChangeM)
 	if out.AcceptedFailedChecks != nil {
 		warnLoudly(ios, acceptanceText(out.AcceptedFailedChecks, ""))
+	}
+	for _, c := range out.ConditionsReported {
+		ios.printf("Reported %s %s, observed %s: %s\n", c.Mark, c.Condition, c.ObservedOn, c.Note)
+	}
+	var still []string
+	for _, d := range out.StillInDoubt {
+		still = append(still, fmt.Sprintf("WARNING: %s is still reported %s (%s, %s): its new height stays in doubt until a condition report says otherwise (cairn mark condition, or publish --report-condition)",
+			d.Mark, strings.ToUpper(d.Condition), d.ObservedOn.Format("2006-01-02"), d.Note))
+	}
+	if len(still) > 0 {
+		warnLoudly(ios, strings.Join(still, "\n"))
 	}
 	ios.printf("\n%s\n", adjustCautions)
 	return nil

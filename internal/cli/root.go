@@ -29,7 +29,9 @@ func Main(args []string) int {
 	if os.Getenv("CAIRN_REPORT_PEAK_MEMORY") != "" {
 		reportPeakMemory(ios.ErrOut)
 	}
-	return finish(ios, err)
+	st := finish(ios, err)
+	ios.Flush()
+	return st
 }
 
 // Execute runs the root command over f with args; tests call it directly.
@@ -37,6 +39,7 @@ func Main(args []string) int {
 // message names that command's flags (see errorMessage); errors.As and
 // exitCode see through the wrapping.
 func Execute(ctx context.Context, f *Factory, args []string) error {
+	defer f.IO.Flush()
 	root := NewRootCmd(f)
 	root.SetArgs(args)
 	root.SetIn(f.IO.In)

@@ -72,6 +72,20 @@ type visibleWriter struct {
 	pending []byte
 }
 
+// Flush writes the bytes held for a character that never came, as \xNN.
+func (v *visibleWriter) Flush() error {
+	if len(v.pending) == 0 {
+		return nil
+	}
+	var out []byte
+	for _, c := range v.pending {
+		out = fmt.Appendf(out, `\x%02x`, c)
+	}
+	v.pending = nil
+	_, err := v.w.Write(out)
+	return err
+}
+
 func (v *visibleWriter) Write(p []byte) (int, error) {
 	buf := p
 	if len(v.pending) > 0 {

@@ -19,7 +19,7 @@ var designationPattern = regexp.MustCompile(`^[A-Za-z0-9][A-Za-z0-9._/-]{0,63}$`
 
 // Conditions are the states a condition report may give, in the order
 // help texts list them.
-var Conditions = []string{"good", "disturbed", "destroyed", "not-found"}
+var Conditions = []string{"good", "disturbed", "destroyed", "not-found", "reset"}
 
 // MarkAddParams are the fields of a new mark.
 type MarkAddParams struct {

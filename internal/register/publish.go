@@ -7,6 +7,7 @@ import (
 	"fmt"
 	"sort"
 	"strings"
+	"time"
 
 	"github.com/jackc/pgx/v5"
 
@@ -27,12 +28,26 @@ type PublishParams struct {
 	// LargeChangeM is the change, in metres, over which a new height is
 	// called out (Published.Changes); 0 means DefaultLargeChangeM.
 	LargeChangeM float64
+	// ReportCondition, "good" or "reset", writes with the publication a
+	// condition report on each adjusted mark whose latest report casts
+	// doubt on it (AdjustmentView.InDoubt), observed on the date of the
+	// last run that levelled it, with ConditionNote (required with it).
+	// A new height never clears that doubt by itself.
+	ReportCondition string
+	ConditionNote   string
 }
 
 // check trims p and refuses what is missing.
 func (p *PublishParams) check() error {
 	p.Reason, p.By, p.AcceptReason = strings.TrimSpace(p.Reason), strings.TrimSpace(p.By), strings.TrimSpace(p.AcceptReason)
+	p.ReportCondition, p.ConditionNote = strings.ToLower(strings.TrimSpace(p.ReportCondition)), strings.TrimSpace(p.ConditionNote)
 	switch {
+	case p.ReportCondition != "" && p.ReportCondition != "good" && p.ReportCondition != "reset":
+		return inputErr("report-condition", "%q is not a condition that clears a doubt (want good or reset)", p.ReportCondition)
+	case p.ReportCondition != "" && p.ConditionNote == "":
+		return inputErr("condition-note", "say what the crew found at the marks (a note goes with the condition report)")
+	case p.ReportCondition == "" && p.ConditionNote != "":
+		return inputErr("condition-note", "a condition note goes with a condition report to write (report-condition)")
 	case p.Reason == "":
 		return inputErr("reason", "say why these heights are published")
 	case p.By == "":
@@ -57,6 +72,18 @@ type Published struct {
 	Accepted   *Acceptance
 	// LargeChangeM is the threshold the changes were called out over.
 	LargeChangeM float64
+	// Reported are the condition reports written with the publication
+	// (PublishParams.ReportCondition), by designation.
+	Reported []ReportedCondition
+	// StillInDoubt are the adjusted marks whose latest condition report
+	// still casts doubt on their new heights.
+	StillInDoubt []MarkInDoubt
+}
+
+// ReportedCondition is a condition report a publication wrote.
+type ReportedCondition struct {
+	Designation string
+	Condition   store.Condition
 }
 
 // PublishPreview is what publishing a draft would do, as the register
@@ -211,8 +238,10 @@ func (r *Register) Publish(ctx context.Context, p PublishParams) (*Published, er
 		if out.Adjustment, err = store.AdjustmentGet(ctx, tx, store.AdjustmentGetParams{ID: a.ID}); err != nil {
 			return err
 		}
-		out.Accepted, err = AcceptanceOf(out.Adjustment)
-		return err
+		if out.Accepted, err = AcceptanceOf(out.Adjustment); err != nil {
+			return err
+		}
+		return reportConditions(ctx, tx, p, v, out)
 	})
 	if err != nil {
 		return nil, publishErr("publish", p.AdjustmentID, err)
@@ -336,4 +365,55 @@ func (r *Register) Discard(ctx context.Context, p DiscardParams) (store.Adjustme
 		return store.Adjustment{}, publishErr("discard", p.AdjustmentID, err)
 	}
 	return out, nil
+}
+
+// reportConditions writes, when p asks, a condition report on each of v's
+// adjusted marks in doubt, observed on the date of the last of v's runs
+// that levelled it; it refuses a mark whose doubtful report came after
+// that run, which cannot speak for the mark since. Without p asking, the
+// marks stay in doubt (out.StillInDoubt).
+func reportConditions(ctx context.Context, tx pgx.Tx, p PublishParams, v *AdjustmentView, out *Published) error {
+	if len(v.InDoubt) == 0 {
+		return nil
+	}
+	if p.ReportCondition == "" {
+		out.StillInDoubt = v.InDoubt
+		return nil
+	}
+	levelled := map[int64]time.Time{} // mark: date of the last run over it
+	for _, run := range v.Runs {
+		on := run.RecordedAt.UTC()
+		if run.ObservedOn != nil {
+			on = *run.ObservedOn
+		}
+		on = time.Date(on.Year(), on.Month(), on.Day(), 0, 0, 0, 0, time.UTC)
+		marks, err := store.RunMarkListByRun(ctx, tx, run.ID)
+		if err != nil {
+			return err
+		}
+		for _, m := range marks {
+			if on.After(levelled[m.MarkID]) {
+				levelled[m.MarkID] = on
+			}
+		}
+	}
+	ids := map[string]int64{}
+	for _, res := range v.Results {
+		ids[res.Designation] = res.MarkID
+	}
+	for _, d := range v.InDoubt {
+		on, ok := levelled[ids[d.Designation]]
+		if !ok || on.Before(d.Condition.ObservedOn) {
+			return inputErr("report-condition", "%s was reported %s on %s, after the last run of adjustment %d that levelled it (%s): that run cannot speak for the mark since; report its condition on its own (cairn mark condition)",
+				d.Designation, d.Condition.Condition, d.Condition.ObservedOn.Format("2006-01-02"), v.Adjustment.ID, on.Format("2006-01-02"))
+		}
+		c, err := store.ConditionInsert(ctx, tx, store.ConditionInsertParams{MarkID: ids[d.Designation], Condition: p.ReportCondition,
+			Note:       fmt.Sprintf("%s (reported with the publication of adjustment %d, which levelled the mark)", p.ConditionNote, v.Adjustment.ID),
+			ObservedOn: on, RecordedBy: p.By})
+		if err != nil {
+			return err
+		}
+		out.Reported = append(out.Reported, ReportedCondition{Designation: d.Designation, Condition: c})
+	}
+	return nil
 }
