@@ -207,13 +207,15 @@ func acceptanceText(a *acceptanceJSON, indent string) string {
 	return b.String()
 }
 
-// publishJSON is `publish -o json`.
+// publishJSON is `publish -o json`: the adjustment's status, its reason,
+// who published it and when under the keys of adjustment show.
 type publishJSON struct {
 	AdjustmentID int64            `json:"adjustment_id"`
 	Datum        string           `json:"datum"`
-	Reason       string           `json:"reason"`
-	PublishedBy  string           `json:"published_by"`
-	PublishedAt  *time.Time       `json:"published_at"`
+	Status       string           `json:"status"`
+	StatusReason string           `json:"status_reason"`
+	StatusBy     string           `json:"status_by"`
+	StatusAt     *time.Time       `json:"status_at"`
 	LargeChangeM float64          `json:"large_change_m"`
 	Changes      []markChangeJSON `json:"changes"`
 	Versions     []heightJSON     `json:"versions"`
@@ -226,7 +228,7 @@ type publishJSON struct {
 // with the new versions' numbers when they are known (versions, by
 // designation; nil before publishing).
 func changesTable(changes []register.MarkChange, versions map[string]int) Table {
-	t := Table{Headers: []string{"MARK", "CURRENT", "NEW", "CHANGE", "UNIT", "CLASS", "NOTE"}}
+	t := Table{Headers: []string{"MARK", "CURRENT" + perRowUnit, "NEW" + perRowUnit, "CHANGE" + perRowUnit, "UNIT", "CLASS", "NOTE"}}
 	if versions != nil {
 		t.Headers = append([]string{"MARK", "VERSION"}, t.Headers[1:]...)
 	}
@@ -269,9 +271,9 @@ func changeNotes(c register.MarkChange) []string {
 	return notes
 }
 
-// callOutChanges warns loudly, on ErrOut, of each large change and each
+// callOutChanges warns loudly, with warn, of each large change and each
 // change of unit.
-func callOutChanges(ios *IOStreams, changes []register.MarkChange, largeM float64) {
+func callOutChanges(ios *IOStreams, warn func(*IOStreams, string), changes []register.MarkChange, largeM float64) {
 	var lines []string
 	for _, c := range changes {
 		if c.Large {
@@ -288,7 +290,7 @@ func callOutChanges(ios *IOStreams, changes []register.MarkChange, largeM float6
 		}
 	}
 	if len(lines) > 0 {
-		warnLoudly(ios, strings.Join(lines, "\n"))
+		warn(ios, strings.Join(lines, "\n"))
 	}
 }
 
@@ -316,7 +318,7 @@ func publishRun(opts *publishOptions) error {
 		if err := writeTable(&IOStreams{Out: ios.ErrOut, IsTerminal: true}, FormatTable, changesTable(pv.Changes, nil)); err != nil {
 			return err
 		}
-		callOutChanges(ios, pv.Changes, pv.LargeChangeM)
+		callOutChanges(ios, warnLoudly, pv.Changes, pv.LargeChangeM)
 		if opts.accept && len(pv.Failed) > 0 {
 			warnLoudly(ios, fmt.Sprintf("PUBLISHING WITH FAILED CHECKS ACCEPTED by %s: %s%s", opts.by, opts.acceptReason,
 				checkLines(pv.Failed)))
@@ -331,7 +333,7 @@ func publishRun(opts *publishOptions) error {
 		return err
 	}
 	a := pub.Adjustment
-	out := publishJSON{AdjustmentID: a.ID, Datum: a.DatumCode, Reason: a.StatusReason, PublishedBy: a.StatusBy, PublishedAt: a.StatusAt,
+	out := publishJSON{AdjustmentID: a.ID, Datum: a.DatumCode, Status: a.Status, StatusReason: a.StatusReason, StatusBy: a.StatusBy, StatusAt: a.StatusAt,
 		LargeChangeM: pub.LargeChangeM, Changes: []markChangeJSON{}, Versions: []heightJSON{},
 		AcceptedFailedChecks: toAcceptanceJSON(pub.Accepted), Cautions: adjustCautions}
 	for _, c := range pub.Changes {
@@ -343,19 +345,27 @@ func publishRun(opts *publishOptions) error {
 	if opts.format == FormatJSON {
 		return writeJSON(ios.Out, out)
 	}
-	ios.printf("Published adjustment %d: %d new height version(s) on %s.\n", opts.id, len(out.Versions), a.DatumCode)
 	versions := map[string]int{}
 	for _, h := range pub.Versions {
 		versions[h.Designation] = h.Version
 	}
-	if err := writeTable(ios, opts.format, changesTable(pub.Changes, versions)); err != nil {
+	// CSV is the table alone, the rest on ErrOut; otherwise the whole
+	// report goes to Out, terminal or not (docs/register.md#tables).
+	say, warn := ios.printf, warnLoudly
+	write := func(t Table) error { return writeTable(ios, opts.format, t) }
+	if opts.format == FormatTable {
+		say, warn = func(f string, a ...any) { fmt.Fprintf(ios.Out, f, a...) }, warnInReport
+		write = func(t Table) error { return writeAligned(ios.Out, t) }
+	}
+	say("Published adjustment %d: %d new height version(s) on %s, by %s: %s\n", opts.id, len(out.Versions), a.DatumCode, a.StatusBy, a.StatusReason)
+	if err := write(changesTable(pub.Changes, versions)); err != nil {
 		return err
 	}
-	callOutChanges(ios, pub.Changes, pub.LargeChangeM)
+	callOutChanges(ios, warn, pub.Changes, pub.LargeChangeM)
 	if out.AcceptedFailedChecks != nil {
-		warnLoudly(ios, acceptanceText(out.AcceptedFailedChecks, ""))
+		warn(ios, acceptanceText(out.AcceptedFailedChecks, ""))
 	}
-	ios.printf("\n%s\n", adjustCautions)
+	say("\n%s\n", adjustCautions)
 	return nil
 }
 
