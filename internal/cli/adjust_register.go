@@ -319,8 +319,8 @@ type adjustmentJSON struct {
 }
 
 type markInDoubtJSON struct {
-	Mark       string    `json:"mark"`
-	Condition  string    `json:"condition"`
+	Mark       string `json:"mark"`
+	Condition  string `json:"condition"`
 	ObservedOn string `json:"observed_on"`
 	Note       string `json:"note"`
 }
@@ -339,10 +339,10 @@ type adjSectionJSON struct {
 }
 
 type runRefJSON struct {
-	RunID      int64      `json:"run_id"`
-	Name       string     `json:"name"`
-	FileName   string     `json:"file_name"`
-	BookSHA256 string     `json:"book_sha256"`
+	RunID      int64  `json:"run_id"`
+	Name       string `json:"name"`
+	FileName   string `json:"file_name"`
+	BookSHA256 string `json:"book_sha256"`
 	// ObservedOn is the date in the book, YYYY-MM-DD; null when none.
 	ObservedOn *string `json:"observed_on"`
 	Class      string  `json:"class"`
