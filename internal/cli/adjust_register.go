@@ -426,7 +426,7 @@ func toAdjustmentJSON(v *register.AdjustmentView, dryRun bool) adjustmentJSON {
 
 // renderAdjustment prints an adjustment's report: as JSON; as CSV, the
 // table of its marks alone on Out with the report's context on ErrOut; or
-// the whole report on Out, terminal or not (docs/register.md#tables): its
+// the whole report on Out, terminal or not (docs/output.md): its
 // heading, runs, held versions, marks, misclosures, warnings and cautions.
 // A warning of the report is repeated on ErrOut when Out is not a terminal.
 func renderAdjustment(ios *IOStreams, format Format, v *register.AdjustmentView, dryRun bool) error {

@@ -23,7 +23,7 @@ const (
 
 // Table is tabular data: headers and rows of already formatted cells.
 //
-// The convention of headers, on every command (docs/register.md#tables):
+// The convention of headers, on every command (docs/output.md):
 // a column holding a length or a height names its unit in parentheses,
 // "HEIGHT (m)", "LENGTH (km)"; a column whose unit differs from row to row
 // says "(in UNIT)" and is followed by its UNIT column: "HEIGHT (in UNIT)".

@@ -350,7 +350,7 @@ func publishRun(opts *publishOptions) error {
 		versions[h.Designation] = h.Version
 	}
 	// CSV is the table alone, the rest on ErrOut; otherwise the whole
-	// report goes to Out, terminal or not (docs/register.md#tables).
+	// report goes to Out, terminal or not (docs/output.md).
 	say, warn := ios.printf, warnLoudly
 	write := func(t Table) error { return writeTable(ios, opts.format, t) }
 	if opts.format == FormatTable {
