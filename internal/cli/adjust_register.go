@@ -319,10 +319,10 @@ type adjustmentJSON struct {
 }
 
 type markInDoubtJSON struct {
-	Mark       string    `json:"mark"`
-	Condition  string    `json:"condition"`
-	ObservedOn time.Time `json:"observed_on"`
-	Note       string    `json:"note"`
+	Mark       string `json:"mark"`
+	Condition  string `json:"condition"`
+	ObservedOn string `json:"observed_on"`
+	Note       string `json:"note"`
 }
 
 type adjSectionJSON struct {
@@ -330,8 +330,8 @@ type adjSectionJSON struct {
 	Seq         int      `json:"section"`
 	From        string   `json:"from"`
 	To          string   `json:"to"`
-	FirstLine   int      `json:"first_line"`
-	LastLine    int      `json:"last_line"`
+	FromLine    int      `json:"from_line"`
+	ToLine      int      `json:"to_line"`
 	ResidualM   float64  `json:"residual_m"`
 	ResidualSDM float64  `json:"residual_sd_m"`
 	W           *float64 `json:"w"`
@@ -339,12 +339,13 @@ type adjSectionJSON struct {
 }
 
 type runRefJSON struct {
-	RunID      int64      `json:"run_id"`
-	Name       string     `json:"name"`
-	FileName   string     `json:"file_name"`
-	BookSHA256 string     `json:"book_sha256"`
-	ObservedOn *time.Time `json:"observed_on"`
-	Class      string     `json:"class"`
+	RunID      int64  `json:"run_id"`
+	Name       string `json:"name"`
+	FileName   string `json:"file_name"`
+	BookSHA256 string `json:"book_sha256"`
+	// ObservedOn is the date in the book, YYYY-MM-DD; null when none.
+	ObservedOn *string `json:"observed_on"`
+	Class      string  `json:"class"`
 	// Voided is the run's void, null while it stands (a run voided after
 	// the adjustment was made, or left out of it).
 	Voided *voidJSON `json:"voided"`
@@ -379,8 +380,13 @@ type resultJSON struct {
 }
 
 func toRunRef(r store.Run) runRefJSON {
-	return runRefJSON{RunID: r.ID, Name: r.Name, FileName: r.FileName, BookSHA256: hex.EncodeToString(r.BookSHA256),
-		ObservedOn: r.ObservedOn, Class: r.Class, Voided: toVoidJSON(r.Voided)}
+	j := runRefJSON{RunID: r.ID, Name: r.Name, FileName: r.FileName, BookSHA256: hex.EncodeToString(r.BookSHA256),
+		Class: r.Class, Voided: toVoidJSON(r.Voided)}
+	if r.ObservedOn != nil {
+		d := r.ObservedOn.Format("2006-01-02")
+		j.ObservedOn = &d
+	}
+	return j
 }
 
 func toAdjustmentJSON(v *register.AdjustmentView, dryRun bool) adjustmentJSON {
@@ -407,11 +413,11 @@ func toAdjustmentJSON(v *register.AdjustmentView, dryRun bool) adjustmentJSON {
 	}
 	for _, d := range v.InDoubt {
 		j.MarksInDoubt = append(j.MarksInDoubt, markInDoubtJSON{Mark: d.Designation, Condition: d.Condition.Condition,
-			ObservedOn: d.Condition.ObservedOn, Note: d.Condition.Note})
+			ObservedOn: d.Condition.ObservedOn.Format("2006-01-02"), Note: d.Condition.Note})
 	}
 	for _, s := range v.Sections {
-		j.Sections = append(j.Sections, adjSectionJSON{RunID: s.RunID, Seq: s.Seq, From: s.From, To: s.To, FirstLine: s.FirstLine,
-			LastLine: s.LastLine, ResidualM: s.ResidualM, ResidualSDM: s.ResidualSDM, W: s.W, Flagged: s.Flagged})
+		j.Sections = append(j.Sections, adjSectionJSON{RunID: s.RunID, Seq: s.Seq, From: s.From, To: s.To, FromLine: s.FirstLine,
+			ToLine: s.LastLine, ResidualM: s.ResidualM, ResidualSDM: s.ResidualSDM, W: s.W, Flagged: s.Flagged})
 	}
 	for _, r := range v.Results {
 		j.Results = append(j.Results, resultJSON{Mark: r.Designation, Held: r.Held, ComputedM: r.ComputedM, CorrectionM: r.CorrectionM,
@@ -421,20 +427,24 @@ func toAdjustmentJSON(v *register.AdjustmentView, dryRun bool) adjustmentJSON {
 	return j
 }
 
-// renderAdjustment prints an adjustment's report: as JSON, or as a table
-// of its marks with the report's context around it (on Out on a terminal,
-// else on ErrOut so that Out carries only the rows).
+// renderAdjustment prints an adjustment's report: as JSON; as CSV, the
+// table of its marks alone on Out with the report's context on ErrOut; or
+// the whole report on Out, terminal or not (docs/output.md): its
+// heading, runs, held versions, marks, misclosures, warnings and cautions.
+// A warning of the report is repeated on ErrOut when Out is not a terminal.
 func renderAdjustment(ios *IOStreams, format Format, v *register.AdjustmentView, dryRun bool) error {
 	j := toAdjustmentJSON(v, dryRun)
-	for _, r := range v.RunsLeftOut {
-		fmt.Fprintf(ios.ErrOut, "warning: run %d %q is left out of the adjustment: voided %s\n", r.ID, r.Name, voidText(r.Voided))
+	if format != FormatTable || !ios.IsTerminal {
+		for _, r := range v.RunsLeftOut {
+			fmt.Fprintf(ios.ErrOut, "warning: run %d %q is left out of the adjustment: voided %s\n", r.ID, r.Name, voidText(r.Voided))
+		}
 	}
 	if format == FormatJSON {
 		return writeJSON(ios.Out, j)
 	}
-	say := ios.printf
-	if ios.IsTerminal && format == FormatTable {
-		say = func(f string, a ...any) { fmt.Fprintf(ios.Out, f, a...) }
+	say, warn := ios.printf, warnLoudly
+	if format == FormatTable {
+		say, warn = func(f string, a ...any) { fmt.Fprintf(ios.Out, f, a...) }, warnInReport
 	}
 	a := v.Adjustment
 	title := fmt.Sprintf("Adjustment %d (%s)", a.ID, a.Status)
@@ -460,7 +470,10 @@ func renderAdjustment(ios *IOStreams, format Format, v *register.AdjustmentView,
 		say("  %s %s by %s: %s\n", a.Status, timeText(*a.StatusAt), a.StatusBy, a.StatusReason)
 	}
 	if acc := j.AcceptedFailedChecks; acc != nil {
-		warnLoudly(ios, acceptanceText(acc, ""))
+		warn(ios, acceptanceText(acc, ""))
+	}
+	for _, r := range v.RunsLeftOut {
+		say("  run %d %q is left out of the adjustment: voided %s\n", r.ID, r.Name, voidText(r.Voided))
 	}
 	for _, r := range j.Runs {
 		say("  run %d %q: book %s, sha256 %s\n", r.RunID, r.Name, r.FileName, r.BookSHA256)
@@ -483,11 +496,11 @@ func renderAdjustment(ios *IOStreams, format Format, v *register.AdjustmentView,
 		say("  marks in doubt held because: %s\n", a.ConditionReason)
 	}
 	for _, d := range j.MarksInDoubt {
-		warnLoudly(ios, fmt.Sprintf("WARNING: %s was last reported %s on %s (%s); verify it in the field before publishing a height for it",
-			d.Mark, strings.ToUpper(d.Condition), d.ObservedOn.Format("2006-01-02"), d.Note))
+		warn(ios, fmt.Sprintf("WARNING: %s was last reported %s on %s (%s); verify it in the field before publishing a height for it",
+			d.Mark, strings.ToUpper(d.Condition), d.ObservedOn, d.Note))
 	}
 	say("\n")
-	t := Table{Headers: []string{"MARK", "HELD", "COMPUTED (m)", "CORRECTION (m)", "ADJUSTED (m)", "SIGMA (m)", "PUBLISH", "UNIT", "REPLACES"}}
+	t := Table{Headers: []string{"MARK", "HELD", "COMPUTED (m)", "CORRECTION (m)", "ADJUSTED (m)", "SIGMA (m)", "PUBLISH" + perRowUnit, "UNIT", "REPLACES"}}
 	for _, r := range j.Results {
 		held, pub, rep := "", deref(r.Value), ""
 		if r.Held {
@@ -503,7 +516,11 @@ func renderAdjustment(ios *IOStreams, format Format, v *register.AdjustmentView,
 		}
 		t.AddRow(r.Mark, held, metres(r.ComputedM), corr, metres(&r.AdjustedM), metres(r.SigmaM), pub, deref(r.Unit), rep)
 	}
-	if err := writeTable(ios, format, t); err != nil {
+	write := func() error { return writeTable(ios, format, t) }
+	if format == FormatTable {
+		write = func() error { return writeAligned(ios.Out, t) }
+	}
+	if err := write(); err != nil {
 		return err
 	}
 	say("\n")

@@ -4,6 +4,7 @@ import (
 	"context"
 	"strconv"
 	"strings"
+	"time"
 
 	"github.com/spf13/cobra"
 
@@ -12,15 +13,15 @@ import (
 
 // adjustmentRowJSON is one adjustment in a listing.
 type adjustmentRowJSON struct {
-	AdjustmentID int64   `json:"adjustment_id"`
-	Status       string  `json:"status"`
-	Method       string  `json:"method"`
-	Datum        string  `json:"datum"`
-	RunIDs       []int64 `json:"run_ids"`
-	Marks        int     `json:"marks"`
-	CreatedBy    string  `json:"created_by"`
-	CreatedAt    string  `json:"created_at"`
-	StatusReason string  `json:"status_reason,omitempty"`
+	AdjustmentID int64     `json:"adjustment_id"`
+	Status       string    `json:"status"`
+	Method       string    `json:"method"`
+	Datum        string    `json:"datum"`
+	RunIDs       []int64   `json:"run_ids"`
+	Marks        int       `json:"marks"`
+	CreatedBy    string    `json:"created_by"`
+	CreatedAt    time.Time `json:"created_at"`
+	StatusReason string    `json:"status_reason,omitempty"`
 }
 
 // adjustmentListOptions are the inputs of `cairn adjustment list`.
@@ -57,7 +58,7 @@ func adjustmentListRun(opts *adjustmentListOptions) error {
 	out := []adjustmentRowJSON{}
 	for _, a := range as {
 		out = append(out, adjustmentRowJSON{AdjustmentID: a.ID, Status: a.Status, Method: a.Method, Datum: a.DatumCode,
-			RunIDs: a.RunIDs, Marks: a.Results, CreatedBy: a.CreatedBy, CreatedAt: timeText(a.CreatedAt), StatusReason: a.StatusReason})
+			RunIDs: a.RunIDs, Marks: a.Results, CreatedBy: a.CreatedBy, CreatedAt: a.CreatedAt, StatusReason: a.StatusReason})
 	}
 	return render(opts.f.IO, opts.format, out, func() Table {
 		t := Table{Headers: []string{"ADJUSTMENT", "STATUS", "METHOD", "DATUM", "RUNS", "MARKS", "MADE (UTC)", "BY", "REASON"}}
@@ -67,7 +68,7 @@ func adjustmentListRun(opts *adjustmentListOptions) error {
 				runs[i] = strconv.FormatInt(id, 10)
 			}
 			t.AddRow(strconv.FormatInt(a.AdjustmentID, 10), a.Status, a.Method, a.Datum, strings.Join(runs, ","),
-				strconv.Itoa(a.Marks), a.CreatedAt, a.CreatedBy, a.StatusReason)
+				strconv.Itoa(a.Marks), timeText(a.CreatedAt), a.CreatedBy, a.StatusReason)
 		}
 		return t
 	})

@@ -279,7 +279,7 @@ func TestPublishShowsChanges(t *testing.T) {
 		}
 	}
 	for mark, want := range map[string]string{
-		"MARK": "MARK CURRENT NEW CHANGE UNIT CLASS NOTE",
+		"MARK": "MARK CURRENT (in UNIT) NEW (in UNIT) CHANGE (in UNIT) UNIT CLASS NOTE",
 		"BM2":  "BM2 783.255 783.255 +0.000 m second-I -> (none) UNIT CHANGES: was 2569.730 usft",
 		"BM3":  "BM3 (first) 891.854 m",
 		"BM4":  "BM4 843.237 843.337 +0.100 m LARGE CHANGE",
@@ -303,12 +303,21 @@ func TestPublishShowsChanges(t *testing.T) {
 
 	// A threshold over the change calls out only the unit.
 	out, errText := mustBin(t, db, 0, "publish", first, "--reason", "r", "--by", "reviewer", "--yes", "--large-change-m", "0.2")
-	if strings.Contains(out+errText, "LARGE CHANGE") || !strings.Contains(errText, "UNIT CHANGES: BM2") {
+	// The call-out is in the report on stdout, and repeated on stderr
+	// since stdout is piped.
+	if strings.Contains(out+errText, "LARGE CHANGE") || !strings.Contains(errText, "UNIT CHANGES: BM2") || !strings.Contains(out, "UNIT CHANGES: BM2") {
 		t.Errorf("with --large-change-m 0.2: stdout\n%s\nstderr\n%s", out, errText)
 	}
-	// Piped, the report's rows are tab-separated, the new version numbered.
-	if !strings.Contains(out, "BM4\t2\t843.237\t843.337\t+0.100\tm\t\t\n") ||
-		!strings.Contains(out, "BM2\t2\t783.255\t783.255\t+0.000\tm\tsecond-I -> (none)\tUNIT CHANGES: was 2569.730 usft\n") {
+	// Piped, the whole report is on stdout, aligned, the new version
+	// numbered, with the cautions.
+	rows = map[string]string{}
+	for _, line := range strings.Split(out, "\n") {
+		if w := strings.Fields(line); len(w) > 0 {
+			rows[w[0]] = strings.Join(w, " ")
+		}
+	}
+	if rows["BM4"] != "BM4 2 843.237 843.337 +0.100 m" || rows["BM2"] != "BM2 2 783.255 783.255 +0.000 m second-I -> (none) UNIT CHANGES: was 2569.730 usft" ||
+		!strings.HasPrefix(out, "Published adjustment 1: 5 new height version(s) on NAVD88, by reviewer: r\n") || !strings.Contains(out, "licensed surveyor") {
 		t.Errorf("publish report piped:\n%s", out)
 	}
 

@@ -67,7 +67,7 @@ register for good (see 'cairn history').
 	fl.StringVar(&opts.params.Unit, "unit", "", "unit of the value: m, ft (international foot) or usft (US survey foot)")
 	fl.StringVar(&opts.params.Datum, "datum", "", "datum code (see cairn datum list)")
 	fl.IntVar(&opts.decimals, "decimals", 0, "number of decimals published (default: as written)")
-	fl.StringVar(&opts.params.Class, "class", "", "accuracy class, e.g. 1st-II, 2nd-I, 3rd")
+	fl.StringVar(&opts.params.Class, "class", "", "accuracy class: "+classNames()+" (in any case)")
 	fl.StringVar(&opts.params.Source, "source", "", "citation of the publication the height comes from")
 	fl.StringVar(&opts.params.Reason, "reason", "", "why this height is being recorded (required)")
 	fl.StringVar(&opts.params.RecordedBy, "by", osUser(), "who records it")
@@ -285,7 +285,7 @@ func heightShowRun(opts *heightShowOptions) error {
 	}
 	defer reportCautions(opts.f.IO, opts.format)
 	return render(opts.f.IO, opts.format, out, func() Table {
-		t := Table{Headers: []string{"DATUM", "VERSION", "HEIGHT", "UNIT", "CLASS", "RECORDED (UTC)", "SOURCE", "DOUBT"}}
+		t := Table{Headers: []string{"DATUM", "VERSION", "HEIGHT" + perRowUnit, "UNIT", "CLASS", "RECORDED (UTC)", "SOURCE", "DOUBT"}}
 		if in != "" {
 			t.Headers = append(t.Headers, "HEIGHT ("+string(in)+")")
 		}
@@ -350,7 +350,7 @@ func heightListRun(opts *heightListOptions) error {
 	}
 	defer warnListed(opts.f.IO, opts.format, inDoubt, len(out), "heights")
 	return render(opts.f.IO, opts.format, out, func() Table {
-		t := Table{Headers: []string{"MARK", "DATUM", "VERSION", "HEIGHT", "UNIT", "CLASS", "SOURCE", "DOUBT"}}
+		t := Table{Headers: []string{"MARK", "DATUM", "VERSION", "HEIGHT" + perRowUnit, "UNIT", "CLASS", "SOURCE", "DOUBT"}}
 		for _, h := range out {
 			val := deref(h.Value)
 			if h.Value == nil {
@@ -428,7 +428,7 @@ func historyRun(opts *historyOptions) error {
 	}
 	defer reportCautions(ios, opts.format)
 	return render(ios, opts.format, out, func() Table {
-		t := Table{Headers: []string{"DATUM", "VERSION", "RECORDED (UTC)", "HEIGHT", "UNIT", "CHANGE", "KIND", "REASON", "SOURCE", "BY", "DOUBT"}}
+		t := Table{Headers: []string{"DATUM", "VERSION", "RECORDED (UTC)", "HEIGHT" + perRowUnit, "UNIT", "CHANGE" + perRowUnit, "KIND", "REASON", "SOURCE", "BY", "DOUBT"}}
 		for _, h := range out {
 			val := deref(h.Value)
 			if h.Value == nil {

@@ -71,7 +71,7 @@ func markAddRun(opts *markAddOptions) error {
 
 // markJSON is a mark in machine output.
 type markJSON struct {
-	Designation string   `json:"designation"`
+	Designation string   `json:"mark"`
 	Type        string   `json:"type"`
 	Setting     string   `json:"setting"`
 	Stamping    string   `json:"stamping"`
@@ -211,6 +211,11 @@ func newCmdMarkList(f *Factory, runF func(*markListOptions) error) *cobra.Comman
 		Short: "List benchmarks, optionally those near a point, nearest first",
 		Long: `List the benchmarks of the register with their latest condition.
 
+--condition keeps the marks whose condition, as the list shows it, is one
+of those given (in any case): good, disturbed, destroyed, not-found,
+unverified (created by recording a book, no report yet) or unknown (no
+report at all).
+
 With --near, only marks within --within of the point (great-circle distance
 on a sphere of the mean Earth radius) are listed, nearest first. Marks last
 reported disturbed, destroyed or not found are flagged with a warning.`,
@@ -222,7 +227,7 @@ reported disturbed, destroyed or not found are flagged with a warning.`,
 	addOutputFlag(cmd, &opts.format)
 	cmd.Flags().StringVar(&opts.near, "near", "", "LAT,LON in decimal degrees: list marks near this point")
 	cmd.Flags().StringVar(&opts.within, "within", "2km", "search radius with --near, in km or m (e.g. 2km, 500m)")
-	cmd.Flags().StringSliceVar(&opts.conditions, "condition", nil, "keep marks whose latest condition is one of these: "+strings.Join(register.Conditions, ", ")+", unknown")
+	cmd.Flags().StringSliceVar(&opts.conditions, "condition", nil, "keep marks whose latest condition is one of these, in any case: "+strings.Join(register.ShownConditions, ", ")+" (no report yet)")
 	return cmd
 }
 
@@ -322,7 +327,7 @@ func newCmdMarkCondition(f *Factory, runF func(*markConditionOptions) error) *co
 		Use:   "condition DESIGNATION good|disturbed|destroyed|not-found|reset",
 		Short: "Report the condition a benchmark was found in",
 		Long: `Add a condition report on a benchmark: good, disturbed, destroyed,
-not-found (searched for and not found), or reset (set again, or
+not-found (searched for and not found), or reset, in any case (set again, or
 re-established, and levelled since). Reports are kept for good; the latest
 one (by the date observed) is the mark's condition. While it is disturbed,
 destroyed or not found the mark is in doubt: every command that shows its

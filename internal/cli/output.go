@@ -21,8 +21,15 @@ const (
 	FormatCSV   Format = "csv"
 )
 
-// Table is tabular data: headers (with units, e.g. "HEIGHT (m)") and rows of
-// already formatted cells.
+// Table is tabular data: headers and rows of already formatted cells.
+//
+// The convention of headers, on every command (docs/output.md):
+// a column holding a length or a height names its unit in parentheses,
+// "HEIGHT (m)", "LENGTH (km)"; a column whose unit differs from row to row
+// says "(in UNIT)" and is followed by its UNIT column: "HEIGHT (in UNIT)".
+// On a terminal the headers are printed as written; piped and in CSV they
+// are machineHeader's snake_case with the unit last: "height_m",
+// "length_km", "height_in_unit".
 type Table struct {
 	Headers []string
 	Rows    [][]string
@@ -53,13 +60,39 @@ func (v *formatValue) Set(s string) error {
 	return fmt.Errorf("unknown output format %q (want table, json or csv)", s)
 }
 
-// writeTable writes t: aligned with headers on a terminal, tab-separated
-// rows without headers when piped, or CSV with a header row.
+// perRowUnit ends the header of a column whose unit is given, row by row,
+// in the table's UNIT column.
+const perRowUnit = " (in UNIT)"
+
+// machineHeader turns a display header into a snake_case header with its
+// unit last, for piped tables and CSV: "HEIGHT (m)" becomes "height_m",
+// "HEIGHT (in UNIT)" "height_in_unit", "C&R (usft)" "c_and_r_usft".
+func machineHeader(h string) string {
+	h = strings.ToLower(strings.TrimSpace(h))
+	return strings.NewReplacer("&", "_and_", " (", "_", "(", "", ")", "", " ", "_").Replace(h)
+}
+
+func machineHeaders(hs []string) []string {
+	out := make([]string, len(hs))
+	for i, h := range hs {
+		out[i] = machineHeader(h)
+	}
+	return out
+}
+
+// tsvCell keeps a cell on its line and in its column when piped: a tab, a
+// line end and a backslash are written as \t, \n, \r and \\ (the
+// escapes of PostgreSQL's text COPY format).
+var tsvCell = strings.NewReplacer("\\", "\\\\", "\t", "\\t", "\n", "\\n", "\r", "\\r")
+
+// writeTable writes t: aligned under its headers on a terminal; piped, one
+// line of machine headers and then one tab-separated line per row; or CSV
+// with a header row of machine headers.
 func writeTable(ios *IOStreams, format Format, t Table) error {
 	switch format {
 	case FormatCSV:
 		w := csv.NewWriter(ios.Out)
-		if err := w.Write(t.Headers); err != nil {
+		if err := w.Write(machineHeaders(t.Headers)); err != nil {
 			return err
 		}
 		if err := w.WriteAll(t.Rows); err != nil {
@@ -69,14 +102,22 @@ func writeTable(ios *IOStreams, format Format, t Table) error {
 	case FormatJSON:
 		return fmt.Errorf("cli: writeTable called with json")
 	}
-	// A cell is one line of plain text, whatever the register holds
-	// (visible.go).
+	// A cell is one line of plain text, whatever the register holds: piped,
+	// its tabs, line ends and backslashes escaped as COPY does, then the
+	// other hidden characters made visible (visible.go); on a terminal, all
+	// of them made visible.
 	for _, r := range t.Rows {
 		for i, c := range r {
+			if !ios.IsTerminal {
+				c = tsvCell.Replace(c)
+			}
 			r[i] = visible(c)
 		}
 	}
 	if !ios.IsTerminal {
+		if _, err := fmt.Fprintln(ios.Out, strings.Join(machineHeaders(t.Headers), "\t")); err != nil {
+			return err
+		}
 		for _, r := range t.Rows {
 			if _, err := fmt.Fprintln(ios.Out, strings.Join(r, "\t")); err != nil {
 				return err

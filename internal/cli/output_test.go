@@ -60,14 +60,34 @@ func assertAligned(t *testing.T, what, out string, headers []string, rows [][]st
 	}
 }
 
-// assertTabSeparated checks table output when piped: no header, one line
-// per row, cells separated by tabs.
-func assertTabSeparated(t *testing.T, what, out string, rows [][]string) {
+// pipedRows checks that piped table output starts with one line of
+// machine headers (snake_case, no spaces) and returns the lines after it.
+func pipedRows(t *testing.T, out string) []string {
+	t.Helper()
+	if !strings.HasSuffix(out, "\n") {
+		t.Fatalf("piped table does not end its last line: %q", out)
+	}
+	lines := strings.Split(strings.TrimSuffix(out, "\n"), "\n")
+	for _, h := range strings.Split(lines[0], "\t") {
+		if h == "" || h != machineHeader(h) {
+			t.Fatalf("piped table: the first line %q is not a line of headers", lines[0])
+		}
+	}
+	return lines[1:]
+}
+
+// assertTabSeparated checks table output when piped: one header line (the
+// machine forms of headers), one line per row, cells separated by tabs.
+func assertTabSeparated(t *testing.T, what, out string, headers []string, rows [][]string) {
 	t.Helper()
 	lines := strings.Split(strings.TrimSuffix(out, "\n"), "\n")
-	if len(lines) != len(rows) {
-		t.Fatalf("%s: %d lines, want %d rows and no header:\n%s", what, len(lines), len(rows), out)
+	if len(lines) != len(rows)+1 {
+		t.Fatalf("%s: %d lines, want a header line and %d rows:\n%s", what, len(lines), len(rows), out)
 	}
+	if want := strings.Join(machineHeaders(headers), "\t"); lines[0] != want {
+		t.Errorf("%s: header line %q, want %q", what, lines[0], want)
+	}
+	lines = lines[1:]
 	for r, row := range rows {
 		cells := strings.Split(lines[r], "\t")
 		if len(cells) != len(row) {
@@ -111,10 +131,10 @@ func TestTablesOnATerminalAndPiped(t *testing.T) {
 			{"TC-0412", "bronze disk", "!! DISTURBED", "41.62050", "-97.95860", anyCell},
 			{"TC-0413", "brass rod", "unknown", "", "", ""},
 		}, true, false},
-		{[]string{"height", "list"}, []string{"MARK", "DATUM", "VERSION", "HEIGHT", "UNIT", "CLASS", "SOURCE", "DOUBT"}, [][]string{
+		{[]string{"height", "list"}, []string{"MARK", "DATUM", "VERSION", "HEIGHT (in UNIT)", "UNIT", "CLASS", "SOURCE", "DOUBT"}, [][]string{
 			{"TC-0412", "NAVD88", "2", "769.88", "usft", "", "errata sheet 3 (invented)", anyCell},
 		}, false, false},
-		{[]string{"history", "TC-0412"}, []string{"DATUM", "VERSION", "RECORDED (UTC)", "HEIGHT", "UNIT", "CHANGE", "KIND", "REASON", "SOURCE", "BY", "DOUBT"}, [][]string{
+		{[]string{"history", "TC-0412"}, []string{"DATUM", "VERSION", "RECORDED (UTC)", "HEIGHT (in UNIT)", "UNIT", "CHANGE (in UNIT)", "KIND", "REASON", "SOURCE", "BY", "DOUBT"}, [][]string{
 			{"NAVD88", "2", anyCell, "769.88", "usft", anyCell, "correction", "769.83 was a transcription error", "errata sheet 3 (invented)", "tester", anyCell},
 			{"NAVD88", "1", anyCell, "769.83", "usft", "", "authority", "entered from the book", "Tallis County Benchmark Book (invented)", "tester", anyCell},
 		}, true, true},
@@ -130,7 +150,7 @@ func TestTablesOnATerminalAndPiped(t *testing.T) {
 		}
 
 		out, errOut = onStreams(t, db, false, c.args...)
-		assertTabSeparated(t, what+" piped", out, c.rows)
+		assertTabSeparated(t, what+" piped", out, c.headers, c.rows)
 		if strings.Contains(errOut, warning) != c.warns || strings.Contains(out, "WARNING") {
 			t.Errorf("%s piped: warning on stderr %v (want %v), stdout %q", what, strings.Contains(errOut, warning), c.warns, out)
 		}
@@ -157,14 +177,14 @@ func TestRunListOnATerminalAndPiped(t *testing.T) {
 		t.Errorf("run list on a terminal: stderr %q", errOut)
 	}
 	out, errOut = onStreams(t, db, false, "run", "list")
-	assertTabSeparated(t, "run list piped", out, rows)
+	assertTabSeparated(t, "run list piped", out, headers, rows)
 	if errOut != "" {
 		t.Errorf("run list piped: stderr %q", errOut)
 	}
 	// CSV has its header row whether or not on a terminal.
 	for _, terminal := range []bool{true, false} {
 		out, _ := onStreams(t, db, terminal, "run", "list", "-o", "csv")
-		if !strings.HasPrefix(out, "RUN,OBSERVED,NAME,FILE,") || strings.Count(out, "\n") != 2 {
+		if !strings.HasPrefix(out, "run,observed,name,file,") || strings.Count(out, "\n") != 2 {
 			t.Errorf("run list -o csv (terminal %v): %q", terminal, out)
 		}
 	}

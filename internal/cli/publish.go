@@ -227,13 +227,15 @@ func acceptanceText(a *acceptanceJSON, indent string) string {
 	return b.String()
 }
 
-// publishJSON is `publish -o json`.
+// publishJSON is `publish -o json`: the adjustment's status, its reason,
+// who published it and when under the keys of adjustment show.
 type publishJSON struct {
 	AdjustmentID int64            `json:"adjustment_id"`
 	Datum        string           `json:"datum"`
-	Reason       string           `json:"reason"`
-	PublishedBy  string           `json:"published_by"`
-	PublishedAt  *time.Time       `json:"published_at"`
+	Status       string           `json:"status"`
+	StatusReason string           `json:"status_reason"`
+	StatusBy     string           `json:"status_by"`
+	StatusAt     *time.Time       `json:"status_at"`
 	LargeChangeM float64          `json:"large_change_m"`
 	Changes      []markChangeJSON `json:"changes"`
 	Versions     []heightJSON     `json:"versions"`
@@ -257,7 +259,7 @@ type reportedJSON struct {
 // with the new versions' numbers when they are known (versions, by
 // designation; nil before publishing).
 func changesTable(changes []register.MarkChange, versions map[string]int) Table {
-	t := Table{Headers: []string{"MARK", "CURRENT", "NEW", "CHANGE", "UNIT", "CLASS", "NOTE"}}
+	t := Table{Headers: []string{"MARK", "CURRENT" + perRowUnit, "NEW" + perRowUnit, "CHANGE" + perRowUnit, "UNIT", "CLASS", "NOTE"}}
 	if versions != nil {
 		t.Headers = append([]string{"MARK", "VERSION"}, t.Headers[1:]...)
 	}
@@ -300,9 +302,9 @@ func changeNotes(c register.MarkChange) []string {
 	return notes
 }
 
-// callOutChanges warns loudly, on ErrOut, of each large change and each
+// callOutChanges warns loudly, with warn, of each large change and each
 // change of unit.
-func callOutChanges(ios *IOStreams, changes []register.MarkChange, largeM float64) {
+func callOutChanges(ios *IOStreams, warn func(*IOStreams, string), changes []register.MarkChange, largeM float64) {
 	var lines []string
 	for _, c := range changes {
 		if c.Large {
@@ -319,7 +321,7 @@ func callOutChanges(ios *IOStreams, changes []register.MarkChange, largeM float6
 		}
 	}
 	if len(lines) > 0 {
-		warnLoudly(ios, strings.Join(lines, "\n"))
+		warn(ios, strings.Join(lines, "\n"))
 	}
 }
 
@@ -347,7 +349,7 @@ func publishRun(opts *publishOptions) error {
 		if err := writeTable(&IOStreams{Out: ios.ErrOut, IsTerminal: true}, FormatTable, changesTable(pv.Changes, nil)); err != nil {
 			return err
 		}
-		callOutChanges(ios, pv.Changes, pv.LargeChangeM)
+		callOutChanges(ios, warnLoudly, pv.Changes, pv.LargeChangeM)
 		for _, d := range pv.View.InDoubt {
 			if opts.reportCondition != "" {
 				ios.printf("It will report %s %s (last reported %s on %s).\n", d.Designation, strings.ToLower(opts.reportCondition),
@@ -372,7 +374,7 @@ func publishRun(opts *publishOptions) error {
 		return err
 	}
 	a := pub.Adjustment
-	out := publishJSON{AdjustmentID: a.ID, Datum: a.DatumCode, Reason: a.StatusReason, PublishedBy: a.StatusBy, PublishedAt: a.StatusAt,
+	out := publishJSON{AdjustmentID: a.ID, Datum: a.DatumCode, Status: a.Status, StatusReason: a.StatusReason, StatusBy: a.StatusBy, StatusAt: a.StatusAt,
 		LargeChangeM: pub.LargeChangeM, Changes: []markChangeJSON{}, Versions: []heightJSON{},
 		AcceptedFailedChecks: toAcceptanceJSON(pub.Accepted), Cautions: adjustCautions,
 		ConditionsReported: []reportedJSON{}, StillInDoubt: []markInDoubtJSON{}}
@@ -381,7 +383,7 @@ func publishRun(opts *publishOptions) error {
 	}
 	for _, d := range pub.StillInDoubt {
 		out.StillInDoubt = append(out.StillInDoubt, markInDoubtJSON{Mark: d.Designation, Condition: d.Condition.Condition,
-			ObservedOn: d.Condition.ObservedOn, Note: d.Condition.Note})
+			ObservedOn: d.Condition.ObservedOn.Format("2006-01-02"), Note: d.Condition.Note})
 	}
 	for _, c := range pub.Changes {
 		out.Changes = append(out.Changes, toMarkChangeJSON(c))
@@ -392,30 +394,38 @@ func publishRun(opts *publishOptions) error {
 	if opts.format == FormatJSON {
 		return writeJSON(ios.Out, out)
 	}
-	ios.printf("Published adjustment %d: %d new height version(s) on %s.\n", opts.id, len(out.Versions), a.DatumCode)
 	versions := map[string]int{}
 	for _, h := range pub.Versions {
 		versions[h.Designation] = h.Version
 	}
-	if err := writeTable(ios, opts.format, changesTable(pub.Changes, versions)); err != nil {
+	// CSV is the table alone, the rest on ErrOut; otherwise the whole
+	// report goes to Out, terminal or not (docs/output.md).
+	say, warn := ios.printf, warnLoudly
+	write := func(t Table) error { return writeTable(ios, opts.format, t) }
+	if opts.format == FormatTable {
+		say, warn = func(f string, a ...any) { fmt.Fprintf(ios.Out, f, a...) }, warnInReport
+		write = func(t Table) error { return writeAligned(ios.Out, t) }
+	}
+	say("Published adjustment %d: %d new height version(s) on %s, by %s: %s\n", opts.id, len(out.Versions), a.DatumCode, a.StatusBy, a.StatusReason)
+	if err := write(changesTable(pub.Changes, versions)); err != nil {
 		return err
 	}
-	callOutChanges(ios, pub.Changes, pub.LargeChangeM)
+	callOutChanges(ios, warn, pub.Changes, pub.LargeChangeM)
 	if out.AcceptedFailedChecks != nil {
-		warnLoudly(ios, acceptanceText(out.AcceptedFailedChecks, ""))
+		warn(ios, acceptanceText(out.AcceptedFailedChecks, ""))
 	}
 	for _, c := range out.ConditionsReported {
-		ios.printf("Reported %s %s, observed %s: %s\n", c.Mark, c.Condition, c.ObservedOn, c.Note)
+		say("Reported %s %s, observed %s: %s\n", c.Mark, c.Condition, c.ObservedOn, c.Note)
 	}
 	var still []string
 	for _, d := range out.StillInDoubt {
 		still = append(still, fmt.Sprintf("WARNING: %s is still reported %s (%s, %s): its new height stays in doubt until a condition report says otherwise (cairn mark condition, or publish --report-condition)",
-			d.Mark, strings.ToUpper(d.Condition), d.ObservedOn.Format("2006-01-02"), d.Note))
+			d.Mark, strings.ToUpper(d.Condition), d.ObservedOn, d.Note))
 	}
 	if len(still) > 0 {
-		warnLoudly(ios, strings.Join(still, "\n"))
+		warn(ios, strings.Join(still, "\n"))
 	}
-	ios.printf("\n%s\n", adjustCautions)
+	say("\n%s\n", adjustCautions)
 	return nil
 }
 

@@ -122,7 +122,7 @@ type reductionFlags struct {
 func (rf *reductionFlags) add(fl *pflag.FlagSet) {
 	fl.StringArrayVar(&rf.heldHeights, "held-height", nil, "known height of a mark to reduce the book from, MARK=HEIGHT in the book's unit; MARK alone takes its current height in the register (repeatable)")
 	fl.StringArrayVar(&rf.holds, "hold", nil, "hold MARK at its current height in the register, on the book's datum (repeatable; MARK=HEIGHT is deprecated: use --held-height)")
-	fl.StringVar(&rf.class, "class", "", "accuracy class to check against, overriding the book's: first-I, first-II, second-I, second-II, third")
+	fl.StringVar(&rf.class, "class", "", "accuracy class to check against, overriding the book's: "+classNames()+" (in any case)")
 	fl.BoolVar(&rf.curvatureRefraction, "curvature-refraction", false, "correct every reading for curvature and refraction (k = 0.14)")
 	fl.BoolVar(&rf.allowCondition, "allow-condition", false, "hold marks from the register whose latest condition report is disturbed, destroyed or not found (needs --condition-reason)")
 	fl.StringVar(&rf.conditionReason, "condition-reason", "", "with --allow-condition: why those marks may be held")
@@ -251,21 +251,24 @@ func runCheckRun(opts *runCheckOptions) error {
 	if err != nil {
 		return err
 	}
-	hj := checkHeldJSON(r, opts.Hold, held)
+	hj := checkHeldJSON(r, opts.Hold, held, opts.ConditionReason)
 	switch opts.Format {
 	case FormatJSON:
 		err = writeJSON(opts.IO.Out, runCheckJSON{r, r.Passed(), hj})
 	case FormatCSV:
-		t := notesTable(r)
-		for i, h := range t.Headers {
-			t.Headers[i] = csvHeader(h)
-		}
-		err = writeTable(opts.IO, FormatCSV, t)
+		err = writeTable(opts.IO, FormatCSV, notesTable(r))
 	default:
+		// The report's warnings are in it, repeated on ErrOut when Out is
+		// not a terminal.
+		doubt := false
 		for _, h := range held {
 			if h.InDoubt {
-				warnLoudly(opts.IO, register.Warning(store.Mark{Designation: h.Designation, Latest: h.Condition}))
+				warnInReport(opts.IO, register.Warning(store.Mark{Designation: h.Designation, Latest: h.Condition}))
+				doubt = true
 			}
+		}
+		if doubt {
+			fmt.Fprintln(opts.IO.Out)
 		}
 		err = writeReport(opts.IO.Out, r, heldNotes(hj))
 	}
@@ -276,14 +279,6 @@ func runCheckRun(opts *runCheckOptions) error {
 		return checksFailed{len(r.Failures)}
 	}
 	return nil
-}
-
-// csvHeader turns a display header into a snake_case CSV header with its
-// unit: "ACC IMBAL (usft)" becomes "acc_imbal_usft".
-func csvHeader(h string) string {
-	h = strings.ToLower(h)
-	h = strings.NewReplacer("&", "_and_", " (", "_", "(", "", ")", "", " ", "_").Replace(h)
-	return h
 }
 
 // numbers formats values of a reduction in its unit.
@@ -550,4 +545,14 @@ func writeReport(w io.Writer, r *reduce.Result, heldFrom map[string]string) erro
 	fmt.Fprintln(w, r.Summary)
 	_, err := fmt.Fprintln(w, "Caution: review by a licensed surveyor is needed before these heights are used; check into two marks, verify each mark's condition, and follow local codes and regulations.")
 	return err
+}
+
+// classNames lists the accuracy classes as the register prints them, for
+// help texts.
+func classNames() string {
+	names := make([]string, len(standards.Classes))
+	for i, c := range standards.Classes {
+		names[i] = c.String()
+	}
+	return strings.Join(names, ", ")
 }

@@ -43,15 +43,20 @@ const (
 // checkHeldJSON describes the held heights of a check: typed ones in the
 // book's unit, and those held from the register with their versions, by
 // mark.
-func checkHeldJSON(r *reduce.Result, hold map[string]float64, held []register.HeldHeight) []runHeldJSON {
+// A mark held in doubt carries reason, why it was allowed.
+func checkHeldJSON(r *reduce.Result, hold map[string]float64, held []register.HeldHeight, reason string) []runHeldJSON {
 	out := []runHeldJSON{}
 	for _, name := range slices.Sorted(maps.Keys(hold)) {
 		out = append(out, runHeldJSON{Mark: name, Height: strconv.FormatFloat(hold[name], 'f', -1, 64), Unit: string(r.Unit), From: heldTyped})
 	}
 	for _, h := range held {
 		v := h.Version
-		out = append(out, runHeldJSON{Mark: h.Designation, Height: h.Value, Unit: string(h.Unit), From: heldRegister,
-			HeightID: &v.ID, Version: &v.Version, Datum: &v.DatumCode, PublishedValue: v.Value, PublishedUnit: v.Unit})
+		j := runHeldJSON{Mark: h.Designation, Height: h.Value, Unit: string(h.Unit), From: heldRegister,
+			HeightID: &v.ID, Version: &v.Version, Datum: &v.DatumCode, PublishedValue: v.Value, PublishedUnit: v.Unit}
+		if h.InDoubt {
+			j.ConditionReason = reason
+		}
+		out = append(out, j)
 	}
 	slices.SortFunc(out, func(a, b runHeldJSON) int { return strings.Compare(a.Mark, b.Mark) })
 	return out

@@ -115,7 +115,7 @@ func TestRunHoldFromRegister(t *testing.T) {
 	}
 	var rec struct {
 		Run struct {
-			ID int64 `json:"id"`
+			ID int64 `json:"run_id"`
 		} `json:"run"`
 		Held []struct {
 			Mark     string `json:"mark"`

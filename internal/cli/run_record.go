@@ -146,10 +146,10 @@ func runRecordRun(opts *runRecordOptions) error {
 			created = append(created, m.Designation)
 		}
 	}
-	for _, c := range rec.Cautions {
-		warnLoudly(ios, c)
-	}
 	if opts.Format == FormatJSON {
+		for _, c := range rec.Cautions {
+			warnLoudly(ios, c)
+		}
 		return writeJSON(ios.Out, recordedJSON{Run: toRunJSON(rec.Run), CreatedMarks: created, Cautions: nonNil(rec.Cautions), Reduction: rec.Result,
 			Held: toHeldJSON(rec.Run.Unit, rec.Held)})
 	}
@@ -162,8 +162,10 @@ func runRecordRun(opts *runRecordOptions) error {
 	if len(created) > 0 {
 		fmt.Fprintf(w, "Created marks (unverified, no height): %s\n", strings.Join(created, ", "))
 	}
+	// The report's warnings are in it, repeated on ErrOut when Out is not
+	// a terminal.
 	for _, c := range rec.Cautions {
-		fmt.Fprintln(w, c)
+		warnInReport(ios, c)
 	}
 	fmt.Fprintln(w)
 	return writeReport(w, rec.Result, heldNotes(toHeldJSON(rec.Run.Unit, rec.Held)))

@@ -91,13 +91,13 @@ func TestRunRecordShowBookRoundTrip(t *testing.T) {
 		}
 	}
 	var j struct {
-		ID       int64 `json:"id"`
+		ID       int64 `json:"run_id"`
 		Sections []struct {
 			From        string  `json:"from"`
 			DifferenceM float64 `json:"difference_m"`
 		} `json:"sections"`
 		Marks []struct {
-			Designation string `json:"designation"`
+			Designation string `json:"mark"`
 		} `json:"marks"`
 	}
 	if err := json.Unmarshal([]byte(mustRun(t, db.URL, "run", "show", id, "-o", "json")), &j); err != nil {
@@ -107,10 +107,10 @@ func TestRunRecordShowBookRoundTrip(t *testing.T) {
 		t.Errorf("json %+v", j)
 	}
 
-	if list := mustRun(t, db.URL, "run", "list", "--mark", "TC-0413"); !strings.HasPrefix(list, id+"\t2024-05-14\tOrrin Bay north loop\tnorth-loop.csv") {
+	if list := pipedRows(t, mustRun(t, db.URL, "run", "list", "--mark", "TC-0413")); len(list) != 1 || !strings.HasPrefix(list[0], id+"\t2024-05-14\tOrrin Bay north loop\tnorth-loop.csv") {
 		t.Errorf("run list --mark TC-0413:\n%s", list)
 	}
-	if list := mustRun(t, db.URL, "run", "list", "--since", "2024-05-15"); list != "" {
+	if list := pipedRows(t, mustRun(t, db.URL, "run", "list", "--since", "2024-05-15")); len(list) != 0 {
 		t.Errorf("run list --since 2024-05-15:\n%s", list)
 	}
 	if ms := mustRun(t, db.URL, "mark", "show", "TC-0415"); !strings.Contains(ms, "run\t"+id+" 2024-05-14 Orrin Bay north loop (north-loop.csv)") {

@@ -24,7 +24,7 @@ import (
 
 // runJSON is a run in machine output.
 type runJSON struct {
-	ID             int64     `json:"id"`
+	ID             int64     `json:"run_id"`
 	Name           string    `json:"name"`
 	ObservedOn     string    `json:"observed_on"`
 	Crew           string    `json:"crew"`
@@ -118,11 +118,11 @@ nothing else: cairn run show 12 --book > copy.csv gives back the file.`,
 
 // sectionJSON is a section in machine output.
 type sectionJSON struct {
-	Seq         int      `json:"seq"`
+	Seq         int      `json:"section"`
 	From        string   `json:"from"`
 	To          string   `json:"to"`
-	FirstLine   int      `json:"first_line"`
-	LastLine    int      `json:"last_line"`
+	FromLine    int      `json:"from_line"`
+	ToLine      int      `json:"to_line"`
 	Setups      int      `json:"setups"`
 	DifferenceM float64  `json:"difference_m"`
 	LengthM     *float64 `json:"length_m"`
@@ -130,7 +130,7 @@ type sectionJSON struct {
 
 // runMarkJSON is a mark a run touched, in machine output.
 type runMarkJSON struct {
-	Designation string         `json:"designation"`
+	Designation string         `json:"mark"`
 	Created     bool           `json:"created"`
 	Condition   *conditionJSON `json:"condition"`
 }
@@ -178,13 +178,22 @@ func runShowRun(opts *runShowOptions) error {
 		}
 		return writeJSON(ios.Out, j)
 	}
+	// The whole report goes to Out, its warnings too (repeated on ErrOut
+	// when Out is not a terminal), and ends with the cautions.
 	for _, c := range v.Cautions {
-		warnLoudly(ios, c)
+		warnInReport(ios, c)
 	}
 	if v.Run.Voided != nil {
-		warnLoudly(ios, fmt.Sprintf("Run %d is VOIDED (%s): it is left out of adjustments", v.Run.ID, voidText(v.Run.Voided)))
+		warnInReport(ios, fmt.Sprintf("Run %d is VOIDED (%s): it is left out of adjustments", v.Run.ID, voidText(v.Run.Voided)))
 	}
-	return writeRunReport(ios.Out, v.Run, v.Summary, v.Sections, v.Marks, v.Held)
+	if len(v.Cautions) > 0 || v.Run.Voided != nil {
+		fmt.Fprintln(ios.Out)
+	}
+	if err := writeRunReport(ios.Out, v.Run, v.Summary, v.Sections, v.Marks, v.Held); err != nil {
+		return err
+	}
+	_, err = fmt.Fprintf(ios.Out, "\n%s\n", cautions)
+	return err
 }
 
 // writeRunReport writes a recorded run for reading.

@@ -26,7 +26,7 @@ func binMustRun(t *testing.T, url string, args ...string) string {
 
 // runShown is the part of `run show -o json` these tests read.
 type runShown struct {
-	ID                 int64     `json:"id"`
+	ID                 int64     `json:"run_id"`
 	FileName           string    `json:"file_name"`
 	RecordedBy         string    `json:"recorded_by"`
 	RecordedAt         time.Time `json:"recorded_at"`
@@ -239,7 +239,7 @@ func TestRunVoid(t *testing.T) {
 
 	// run list: a column; run show: a field and a warning.
 	list := binMustRun(t, db.URL, "run", "list")
-	rows := strings.Split(strings.TrimSuffix(list, "\n"), "\n")
+	rows := pipedRows(t, list)
 	if len(rows) != 2 || !strings.HasPrefix(rows[0], run1+"\t") || !strings.HasSuffix(rows[0], "\tvoided "+voided) ||
 		!strings.HasSuffix(rows[1], "\tno") {
 		t.Errorf("run list:\n%s", list)

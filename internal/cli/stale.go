@@ -18,7 +18,7 @@ type staleReasonJSON struct {
 	Kind string `json:"kind"`
 	Mark string `json:"mark"`
 	// Run is the voided run of a voided-run reason, else 0.
-	Run  int64  `json:"run,omitempty"`
+	Run  int64  `json:"run_id,omitempty"`
 	Text string `json:"text"`
 }
 
@@ -77,7 +77,7 @@ func staleRun(opts *staleOptions) error {
 		return nil
 	}
 	return render(ios, opts.format, out, func() Table {
-		t := Table{Headers: []string{"MARK", "DATUM", "VERSION", "HEIGHT", "UNIT", "ADJUSTMENT", "KIND", "REASON"}}
+		t := Table{Headers: []string{"MARK", "DATUM", "VERSION", "HEIGHT" + perRowUnit, "UNIT", "ADJUSTMENT", "KIND", "REASON"}}
 		for _, h := range out {
 			for _, r := range h.Reasons {
 				t.AddRow(h.Mark, h.Datum, strconv.Itoa(h.Version), deref(h.Value), deref(h.Unit),

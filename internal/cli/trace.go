@@ -131,7 +131,7 @@ func traceRun(opts *traceOptions) error {
 	case FormatJSON:
 		return writeJSON(ios.Out, out)
 	case FormatCSV:
-		t := Table{Headers: []string{"depth", "node", "mark", "datum", "version", "value", "unit", "source_kind", "source", "adjustment_id", "run_id", "book_sha256",
+		t := Table{Headers: []string{"depth", "node", "mark", "datum", "version", "height" + perRowUnit, "unit", "source_kind", "source", "adjustment_id", "run_id", "book_sha256",
 			"held_as", "accepted_failed_checks", "doubt"}}
 		for _, v := range out.Versions {
 			traceRows(&t, v, 0)
@@ -180,7 +180,7 @@ func heldText(v traceVersionJSON) string {
 func runText(r runRefJSON) string {
 	date := "date not booked"
 	if r.ObservedOn != nil {
-		date = "observed " + r.ObservedOn.Format("2006-01-02")
+		date = "observed " + *r.ObservedOn
 	}
 	class := "class not booked"
 	if r.Class != "" {

@@ -133,7 +133,7 @@ type Row struct {
 // foresight.
 type Setup struct {
 	// Number is the setup's 1-based number in the run.
-	Number int `json:"number"`
+	Number int `json:"setup"`
 	// Back, Fore and Intermediate index Rows.
 	Back         int   `json:"back"`
 	Fore         int   `json:"fore"`
@@ -169,7 +169,7 @@ type Setup struct {
 // Section is the observation between two consecutive marks of the line.
 type Section struct {
 	// Number is the section's 1-based number in the run.
-	Number int    `json:"number"`
+	Number int    `json:"section"`
 	From   string `json:"from"`
 	To     string `json:"to"`
 	// FromLine is the line of the backsight on From; ToLine the line of the

@@ -77,7 +77,7 @@ type Break struct {
 	Designation string `json:"mark"`
 	Datum       string `json:"datum"`
 	Version     int    `json:"version"`
-	ID          int64  `json:"id"`
+	ID          int64  `json:"height_id"`
 	Problem     string `json:"problem"`
 	Expected    string `json:"expected,omitempty"` // hash recomputed, hex
 	Stored      string `json:"stored,omitempty"`   // hash in the database, hex

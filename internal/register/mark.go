@@ -21,6 +21,30 @@ var designationPattern = regexp.MustCompile(`^[A-Za-z0-9][A-Za-z0-9._/-]{0,63}$`
 // help texts list them.
 var Conditions = []string{"good", "disturbed", "destroyed", "not-found", "reset"}
 
+// Unverified is the condition of a mark created by recording a book that
+// named it (run record --new-marks): no one has reported on it yet.
+// Unknown is what the register shows for a mark with no report at all.
+const (
+	Unverified = "unverified"
+	Unknown    = "unknown"
+)
+
+// ShownConditions are the conditions the register shows for a mark, every
+// one of which a listing can be filtered by: Conditions, Unverified and
+// Unknown.
+var ShownConditions = append(slices.Clip(Conditions), Unverified, Unknown)
+
+// ParseCondition reads a condition word in any case, with spaces or
+// underscores for hyphens ("Not Found", "NOT_FOUND"), as one of allowed;
+// ok is false when it is none of them.
+func ParseCondition(s string, allowed []string) (string, bool) {
+	k := strings.NewReplacer(" ", "-", "_", "-").Replace(strings.ToLower(strings.TrimSpace(s)))
+	if slices.Contains(allowed, k) {
+		return k, true
+	}
+	return s, false
+}
+
 // MarkAddParams are the fields of a new mark.
 type MarkAddParams struct {
 	Designation string
@@ -114,8 +138,8 @@ func (r *Register) MarkShow(ctx context.Context, designation string) (MarkView, 
 type MarkListParams struct {
 	Near    *store.LatLon // with RadiusM: marks within that distance, nearest first
 	RadiusM float64
-	// Conditions keeps marks whose latest report is one of these
-	// ("unknown": no report yet).
+	// Conditions keeps marks whose latest report is one of these, in any
+	// case (ShownConditions: "unknown" for no report yet).
 	Conditions []string
 }
 
@@ -139,14 +163,17 @@ func (r *Register) MarkList(ctx context.Context, p MarkListParams) ([]ListedMark
 			return nil, inputErr("within", "the search radius must be more than zero")
 		}
 	}
+	var conds []string
 	for _, c := range p.Conditions {
-		if c != "unknown" && !slices.Contains(Conditions, c) {
-			return nil, inputErr("condition", "unknown condition %q (want %s or unknown)", c, strings.Join(Conditions, ", "))
+		k, ok := ParseCondition(c, ShownConditions)
+		if !ok {
+			return nil, inputErr("condition", "unknown condition %q (want one of %s)", c, strings.Join(ShownConditions, ", "))
 		}
+		conds = append(conds, k)
 	}
 	var out []ListedMark
 	err := r.withTx(ctx, readTx, func(tx pgx.Tx) error {
-		ms, err := store.MarkList(ctx, tx, store.MarkListParams{Near: p.Near, RadiusM: p.RadiusM, Conditions: p.Conditions})
+		ms, err := store.MarkList(ctx, tx, store.MarkListParams{Near: p.Near, RadiusM: p.RadiusM, Conditions: conds})
 		if err != nil {
 			return err
 		}
@@ -166,7 +193,7 @@ func (r *Register) MarkList(ctx context.Context, p MarkListParams) ([]ListedMark
 // MarkConditionParams are the fields of a condition report.
 type MarkConditionParams struct {
 	Designation string
-	Condition   string // one of Conditions
+	Condition   string // one of Conditions, in any case
 	Note        string
 	ObservedOn  time.Time // the date the mark was seen (or searched for)
 	RecordedBy  string
@@ -176,9 +203,11 @@ type MarkConditionParams struct {
 
 // MarkCondition appends a condition report on a mark.
 func (r *Register) MarkCondition(ctx context.Context, p MarkConditionParams) (store.Condition, error) {
-	if !slices.Contains(Conditions, p.Condition) {
+	cond, ok := ParseCondition(p.Condition, Conditions)
+	if !ok {
 		return store.Condition{}, inputErr("condition", "unknown condition %q (want %s)", p.Condition, strings.Join(Conditions, ", "))
 	}
+	p.Condition = cond
 	if !p.Today.IsZero() && p.ObservedOn.After(p.Today) {
 		return store.Condition{}, inputErr("on", "%s is in the future", p.ObservedOn.Format("2006-01-02"))
 	}

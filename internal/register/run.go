@@ -547,7 +547,7 @@ func createMarks(ctx context.Context, tx pgx.Tx, p RecordParams, book *levelbook
 			return nil, err
 		}
 		c, err := store.ConditionInsert(ctx, tx, store.ConditionInsertParams{
-			MarkID: id, Condition: "unverified", ObservedOn: observed, RecordedBy: p.By,
+			MarkID: id, Condition: Unverified, ObservedOn: observed, RecordedBy: p.By,
 			Note: fmt.Sprintf("created when %s was recorded", filepath.Base(p.Path)),
 		})
 		if err != nil {
