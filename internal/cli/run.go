@@ -9,6 +9,7 @@ import (
 	"strconv"
 	"strings"
 	"text/tabwriter"
+	"time"
 
 	"github.com/spf13/cobra"
 	"github.com/spf13/pflag"
@@ -221,6 +222,8 @@ type runCheckJSON struct {
 	*reduce.Result
 	Passed bool          `json:"passed"`
 	Held   []runHeldJSON `json:"held"`
+	// Warnings are the register's warnings about the book (BookWarnings).
+	Warnings []string `json:"warnings"`
 }
 
 // runCheckRun reduces the book, prints the report and reports failed
@@ -231,7 +234,11 @@ func runCheckRun(opts *runCheckOptions) error {
 	if err != nil {
 		return err // a *levelbook.Error: exit status 2
 	}
+	if err := register.CheckBookDate(book, time.Time{}); err != nil {
+		return err
+	}
 	var held []register.HeldHeight
+	var warnings []string
 	if len(opts.HoldCurrent) > 0 {
 		for _, name := range opts.HoldCurrent {
 			if err := reduce.CheckHold(book, name); err != nil {
@@ -242,8 +249,20 @@ func runCheckRun(opts *runCheckOptions) error {
 		if err != nil {
 			return err
 		}
+		if warnings, err = reg.BookWarnings(opts.ctx, book); err != nil {
+			return err
+		}
 		if held, err = reg.HeldHeights(opts.ctx, register.HeldHeightsParams{Book: book, Marks: opts.HoldCurrent,
 			AllowCondition: opts.AllowCondition, ConditionReason: opts.ConditionReason}); err != nil {
+			return err
+		}
+	} else if src := opts.f.Source(); !src.Embedded {
+		// A register named (--db, CAIRN_DATABASE_URL, PG* variables) is
+		// consulted for what it knows of the book's marks; one that
+		// cannot be reached is said, and the check goes on without it.
+		if reg, err := openRegister(opts.ctx, opts.f); err != nil {
+			warnings = append(warnings, fmt.Sprintf("NOTE: the register (%s) was not consulted (%v): marks the book takes as turning points, and a date before a mark's earliest record, are not looked for", src.From, err))
+		} else if warnings, err = reg.BookWarnings(opts.ctx, book); err != nil {
 			return err
 		}
 	}
@@ -253,8 +272,14 @@ func runCheckRun(opts *runCheckOptions) error {
 	}
 	hj := checkHeldJSON(r, opts.Hold, held, opts.ConditionReason)
 	switch opts.Format {
+	case FormatJSON, FormatCSV:
+		for _, w := range warnings {
+			warnLoudly(opts.IO, w)
+		}
+	}
+	switch opts.Format {
 	case FormatJSON:
-		err = writeJSON(opts.IO.Out, runCheckJSON{r, r.Passed(), hj})
+		err = writeJSON(opts.IO.Out, runCheckJSON{r, r.Passed(), hj, nonNil(warnings)})
 	case FormatCSV:
 		err = writeTable(opts.IO, FormatCSV, notesTable(r))
 	default:
@@ -266,6 +291,10 @@ func runCheckRun(opts *runCheckOptions) error {
 				warnInReport(opts.IO, register.Warning(store.Mark{Designation: h.Designation, Latest: h.Condition}))
 				doubt = true
 			}
+		}
+		for _, w := range warnings {
+			warnInReport(opts.IO, w)
+			doubt = true
 		}
 		if doubt {
 			fmt.Fprintln(opts.IO.Out)

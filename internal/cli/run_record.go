@@ -4,6 +4,7 @@ import (
 	"context"
 	"encoding/hex"
 	"fmt"
+	"slices"
 	"strings"
 
 	"github.com/spf13/cobra"
@@ -120,6 +121,7 @@ type recordedJSON struct {
 	CreatedMarks []string       `json:"created_marks"`
 	Held         []runHeldJSON  `json:"held"`
 	Cautions     []string       `json:"cautions"`
+	Warnings     []string       `json:"warnings"`
 	Reduction    *reduce.Result `json:"reduction"`
 }
 
@@ -147,10 +149,11 @@ func runRecordRun(opts *runRecordOptions) error {
 		}
 	}
 	if opts.Format == FormatJSON {
-		for _, c := range rec.Cautions {
+		for _, c := range append(slices.Clip(rec.Cautions), rec.Warnings...) {
 			warnLoudly(ios, c)
 		}
-		return writeJSON(ios.Out, recordedJSON{Run: toRunJSON(rec.Run), CreatedMarks: created, Cautions: nonNil(rec.Cautions), Reduction: rec.Result,
+		return writeJSON(ios.Out, recordedJSON{Run: toRunJSON(rec.Run), CreatedMarks: created, Cautions: nonNil(rec.Cautions),
+			Warnings: nonNil(rec.Warnings), Reduction: rec.Result,
 			Held: toHeldJSON(rec.Run.Unit, rec.Held)})
 	}
 	w := ios.Out
@@ -164,7 +167,7 @@ func runRecordRun(opts *runRecordOptions) error {
 	}
 	// The report's warnings are in it, repeated on ErrOut when Out is not
 	// a terminal.
-	for _, c := range rec.Cautions {
+	for _, c := range append(slices.Clip(rec.Cautions), rec.Warnings...) {
 		warnInReport(ios, c)
 	}
 	fmt.Fprintln(w)

@@ -3,11 +3,13 @@ package register
 import (
 	"context"
 	"errors"
+	"fmt"
 	"regexp"
 	"strings"
 
 	"github.com/jackc/pgx/v5"
 
+	"cairn/internal/names"
 	"cairn/internal/store"
 )
 
@@ -24,7 +26,10 @@ type DatumAddParams struct {
 // DatumAdd adds a datum to the register.
 func (r *Register) DatumAdd(ctx context.Context, p DatumAddParams) (store.Datum, error) {
 	p.Code, p.Name = strings.TrimSpace(p.Code), strings.TrimSpace(p.Name)
-	if !codePattern.MatchString(p.Code) {
+	if err := nameProblem("code", "datum code", p.Code); err != nil {
+		return store.Datum{}, err
+	}
+	if names.Normal(p.Code) == p.Code && !codePattern.MatchString(p.Code) {
 		return store.Datum{}, inputErr("code", "%q is not a datum code: use at most 32 letters, digits and . _ -, starting with a letter or digit", p.Code)
 	}
 	if p.Name == "" {
@@ -39,7 +44,18 @@ func (r *Register) DatumAdd(ctx context.Context, p DatumAddParams) (store.Datum,
 	// asked to.
 	var d store.Datum
 	err := r.withTx(ctx, pgx.TxOptions{}, func(tx pgx.Tx) error {
-		var err error
+		// The same code written another way is refused naming the datum
+		// that has it; the unique index on the folded form settles a race.
+		existing, err := store.DatumGetFolded(ctx, tx, names.Fold(p.Code))
+		if err != nil && !errors.Is(err, store.ErrNotFound) {
+			return fmt.Errorf("look up datums named like %s: %w", p.Code, err)
+		}
+		if err := sameNameProblem("code", "datum", p.Code, existing.Code); err != nil {
+			return err
+		}
+		if !codePattern.MatchString(p.Code) {
+			return inputErr("code", "%q is not a datum code: use at most 32 letters, digits and . _ -, starting with a letter or digit", p.Code)
+		}
 		d, err = store.DatumInsert(ctx, tx, store.DatumInsertParams{Code: p.Code, Name: p.Name, Note: p.Note, CreatedBy: p.By})
 		if errors.Is(err, store.ErrAlreadyExists) {
 			return inputErr("code", "datum %s is already in the register", p.Code)

@@ -13,4 +13,11 @@ func TestDidYouMeanRanksTranspositionFirst(t *testing.T) {
 	if got := didYouMean("tc0412", []string{"TC-0412"}); got != " (did you mean TC-0412?)" {
 		t.Fatalf("case and punctuation: %q", got)
 	}
+	// The folded form (names.Fold): fullwidth letters are their ASCII
+	// letters (UnicodeData.txt: U+FF34 <wide> 0054, U+FF23 <wide> 0043).
+	for _, typed := range []string{"tc-0412", "\uFF34\uFF23-0412", "\uFF54\uFF43\uFF10\uFF14\uFF11\uFF12"} {
+		if got := didYouMean(typed, []string{"TC-0412", "XY-9999"}); got != " (did you mean TC-0412?)" {
+			t.Errorf("%q: %q", typed, got)
+		}
+	}
 }

@@ -8,7 +8,6 @@ import (
 	"slices"
 	"strings"
 	"time"
-	"unicode"
 
 	"github.com/jackc/pgx/v5"
 
@@ -58,12 +57,8 @@ type MarkAddParams struct {
 
 // MarkAdd adds a mark to the register.
 func (r *Register) MarkAdd(ctx context.Context, p MarkAddParams) (store.Mark, error) {
-	if strings.ContainsFunc(p.Designation, unicode.IsControl) {
-		return store.Mark{}, inputErr("designation", "%q is not a designation: it holds a control character", p.Designation)
-	}
-	p.Designation = strings.TrimSpace(p.Designation)
-	if !designationPattern.MatchString(p.Designation) {
-		return store.Mark{}, inputErr("designation", "%q is not a designation: use at most 64 letters, digits and . _ / -, starting with a letter or digit", p.Designation)
+	if err := nameProblem("designation", "designation", p.Designation); err != nil {
+		return store.Mark{}, err
 	}
 	if (p.Lat == nil) != (p.Lon == nil) {
 		return store.Mark{}, inputErr("lat", "give both a latitude and a longitude, or neither")
@@ -81,7 +76,19 @@ func (r *Register) MarkAdd(ctx context.Context, p MarkAddParams) (store.Mark, er
 	}
 	var m store.Mark
 	err := r.withTx(ctx, pgx.TxOptions{}, func(tx pgx.Tx) error {
-		_, err := store.MarkInsert(ctx, tx, store.MarkInsertParams{
+		// The same name written another way is refused naming the mark
+		// that has it; the unique index on the folded form settles a race.
+		existing, err := markFolded(ctx, tx, p.Designation)
+		if err != nil {
+			return err
+		}
+		if err := sameNameProblem("designation", "mark", p.Designation, existing); err != nil {
+			return err
+		}
+		if !designationPattern.MatchString(p.Designation) {
+			return inputErr("designation", "%q is not a designation: use at most 64 letters, digits and . _ / -, starting with a letter or digit", p.Designation)
+		}
+		_, err = store.MarkInsert(ctx, tx, store.MarkInsertParams{
 			Designation: p.Designation, Type: p.Type, Setting: p.Setting, Stamping: p.Stamping,
 			ToReach: p.ToReach, Lat: p.Lat, Lon: p.Lon, CreatedBy: p.CreatedBy,
 		})
@@ -208,8 +215,12 @@ func (r *Register) MarkCondition(ctx context.Context, p MarkConditionParams) (st
 		return store.Condition{}, inputErr("condition", "unknown condition %q (want %s)", p.Condition, strings.Join(Conditions, ", "))
 	}
 	p.Condition = cond
-	if !p.Today.IsZero() && p.ObservedOn.After(p.Today) {
-		return store.Condition{}, inputErr("on", "%s is in the future", p.ObservedOn.Format("2006-01-02"))
+	if p.Today.IsZero() {
+		p.Today = Today()
+	}
+	if p.ObservedOn.After(p.Today) {
+		return store.Condition{}, inputErr("on", "%s is after today (%s): a condition report is dated the day the mark was seen; nothing was written",
+			p.ObservedOn.Format(time.DateOnly), p.Today.Format(time.DateOnly))
 	}
 	if strings.TrimSpace(p.RecordedBy) == "" {
 		return store.Condition{}, inputErr("by", "say who made the report")

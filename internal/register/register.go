@@ -16,6 +16,7 @@ import (
 	"github.com/jackc/pgx/v5"
 	"github.com/jackc/pgx/v5/pgxpool"
 
+	"cairn/internal/names"
 	"cairn/internal/store"
 	"cairn/internal/suggest"
 )
@@ -112,7 +113,7 @@ func (r *Register) mark(ctx context.Context, db store.DBTX, field, designation s
 	}
 	m, err := store.MarkGet(ctx, db, store.MarkGetParams{Designation: designation, ForUpdate: forUpdate})
 	if errors.Is(err, store.ErrNotFound) {
-		cands, err := store.MarkDesignationsLike(ctx, db, designation, 10000)
+		cands, err := store.MarkDesignationsLike(ctx, db, names.Fold(designation), 10000)
 		if err != nil {
 			return store.Mark{}, err
 		}
@@ -149,8 +150,9 @@ func (r *Register) datum(ctx context.Context, db store.DBTX, field, code string)
 }
 
 // didYouMean returns " (did you mean X?)" naming the candidates nearest to
-// s, or "" if none is close. Near means an edit distance, ignoring case and
-// punctuation, of at most a third of the length (at least 1).
+// s, or "" if none is close. Near means an edit distance between the
+// folded forms (names.Fold: case and character forms), punctuation left
+// out, of at most a third of the length (at least 1).
 func didYouMean(s string, cands []string) string {
 	key := func(x string) string {
 		return strings.Map(func(r rune) rune {
@@ -158,7 +160,7 @@ func didYouMean(s string, cands []string) string {
 				return -1
 			}
 			return r
-		}, strings.ToUpper(x))
+		}, names.Fold(x))
 	}
 	k := key(s)
 	limit := max(1, len(k)/3)

@@ -54,6 +54,9 @@ type RecordParams struct {
 	// with it, says why and is kept with the run.
 	AcceptFailedChecks bool
 	Reason             string
+	// Today is the recorder's calendar date (Today when zero): a book
+	// dated after it is refused.
+	Today time.Time
 
 	// beforeSections, if set, sees the sections just before they are
 	// stored (tests use it to make the write fail part way).
@@ -73,6 +76,10 @@ type Recorded struct {
 	Cautions []string
 	// Held are the marks the book was reduced from, by designation.
 	Held []store.RunHeld
+	// Warnings are what the register says of the book without refusing
+	// it (BookWarnings): marks taken as turning points, a date before a
+	// mark's earliest record.
+	Warnings []string
 }
 
 // CheckSummary is what a run keeps of its reduction's checks, as they
@@ -224,6 +231,9 @@ func (r *Register) Record(ctx context.Context, p RecordParams) (*Recorded, error
 	if err != nil {
 		return nil, err
 	}
+	if err := CheckBookDate(book, p.Today); err != nil {
+		return nil, err
+	}
 	opts := reduce.Options{Class: p.Class, CurvatureRefraction: p.CurvatureRefraction}
 	if len(p.Hold) > 0 || len(p.HoldCurrent) > 0 {
 		opts.Hold = make(map[string]float64, len(p.Hold)+len(p.HoldCurrent))
@@ -300,6 +310,10 @@ func (r *Register) Record(ctx context.Context, p RecordParams) (*Recorded, error
 		// The heights held from the register are still current, and
 		// their marks' conditions are those that were judged.
 		if err := checkHeldCurrent(ctx, tx, held, byName); err != nil {
+			return err
+		}
+		// Said before the run's own records count among the marks'.
+		if out.Warnings, err = bookWarnings(ctx, tx, book); err != nil {
 			return err
 		}
 		id, err := store.RunInsert(ctx, tx, run)
@@ -517,6 +531,18 @@ func findMarks(ctx context.Context, tx pgx.Tx, p RecordParams, names []string, f
 			missing = append(missing, UnknownMark{Designation: n, Line: firstLine[n]})
 		}
 	}
+	// A name the register holds written another way (tc-0412 for
+	// TC-0412) is that mark misspelt, never a new one.
+	for _, u := range missing {
+		existing, err := markFolded(ctx, tx, u.Designation)
+		if err != nil {
+			return nil, nil, err
+		}
+		if existing != "" {
+			return nil, nil, &levelbook.Error{File: p.Path, Line: u.Line, Field: "point",
+				Msg: fmt.Sprintf("%q is not in the register, but mark %s is the same name written another way (case or character forms): write %s", u.Designation, existing, existing)}
+		}
+	}
 	if len(missing) > 0 && !p.NewMarks {
 		return nil, nil, &UnknownMarksError{File: p.Path, Marks: missing}
 	}
@@ -527,7 +553,7 @@ func findMarks(ctx context.Context, tx pgx.Tx, p RecordParams, names []string, f
 // report "unverified", adds them to byName, and returns every mark the
 // book names in its order.
 func createMarks(ctx context.Context, tx pgx.Tx, p RecordParams, book *levelbook.Book, names []string, byName map[string]store.Mark, missing []UnknownMark) ([]store.RunMark, error) {
-	observed := time.Now().UTC()
+	observed := Today()
 	if book.Meta.Date != "" {
 		if d, err := time.Parse("2006-01-02", book.Meta.Date); err == nil {
 			observed = d
@@ -535,6 +561,9 @@ func createMarks(ctx context.Context, tx pgx.Tx, p RecordParams, book *levelbook
 	}
 	created := map[string]bool{}
 	for _, u := range missing {
+		if err := nameProblem("point", "designation", u.Designation); err != nil {
+			return nil, &levelbook.Error{File: p.Path, Line: u.Line, Field: "point", Msg: err.(*InputError).Msg}
+		}
 		if !designationPattern.MatchString(u.Designation) {
 			return nil, &levelbook.Error{File: p.Path, Line: u.Line, Field: "point",
 				Msg: fmt.Sprintf("%q cannot be a mark's designation (use at most 64 letters, digits and . _ / -, starting with a letter or digit), or name it as a turning point", u.Designation)}

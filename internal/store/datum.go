@@ -48,6 +48,12 @@ func DatumGetByCode(ctx context.Context, db DBTX, code string) (Datum, error) {
 	return scanDatum(db.QueryRow(ctx, "SELECT "+datumColumns+" FROM datum WHERE code = $1", code))
 }
 
+// DatumGetFolded returns the datum whose code has the folded form folded
+// (see MarkGetFolded); ErrNotFound if none.
+func DatumGetFolded(ctx context.Context, db DBTX, folded string) (Datum, error) {
+	return scanDatum(db.QueryRow(ctx, "SELECT "+datumColumns+" FROM datum WHERE lower(normalize(code, NFKC)) = $1", folded))
+}
+
 // DatumList returns every datum by code.
 func DatumList(ctx context.Context, db DBTX) ([]Datum, error) {
 	rows, err := db.Query(ctx, "SELECT "+datumColumns+" FROM datum ORDER BY code")

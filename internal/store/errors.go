@@ -25,6 +25,9 @@ var (
 	// ErrPermission: the role connected lacks a privilege; the message
 	// names the role of the register that has it.
 	ErrPermission = errors.New("permission denied")
+	// ErrFutureDate: the database refused a record dated after today
+	// (migrations/00009).
+	ErrFutureDate = errors.New("dated in the future")
 )
 
 // Roles of the register (migrations/00005_roles.sql); each includes the
@@ -77,10 +80,13 @@ func translateAs(err error, role string) error {
 	return translate(err)
 }
 
-// SQLSTATE codes raised by the register's triggers (migrations/00001).
+// SQLSTATE codes raised by the register's triggers (migrations/00001,
+// 00009). CA008 is raised by migration 00009 alone, when names collide
+// once folded; it reaches the user through the migration's error.
 const (
 	codeAppendOnly = "CA001" // UPDATE, DELETE or TRUNCATE of append-only history
 	codeStale      = "CA002" // a new version does not supersede the latest
+	codeFutureDate = "CA009" // a condition report or run dated after today
 	codeDenied     = "42501" // insufficient_privilege
 )
 
@@ -109,6 +115,8 @@ func translate(err error) error {
 	switch {
 	case pe.Code == codeAppendOnly:
 		return fmt.Errorf("%w: %s", ErrAppendOnly, pe.Message)
+	case pe.Code == codeFutureDate:
+		return fmt.Errorf("%w: %s", ErrFutureDate, pe.Message)
 	case pe.Code == codeStale, pe.Code == "40001", pe.Code == "40P01",
 		pe.Code == "23505" && constraintsOfChains[pe.ConstraintName]:
 		return fmt.Errorf("%w: %s", ErrConflict, pe.Message)

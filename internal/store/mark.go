@@ -93,13 +93,22 @@ func MarkGet(ctx context.Context, db DBTX, p MarkGetParams) (Mark, error) {
 	return scanMark(db.QueryRow(ctx, "SELECT "+markColumns+markFrom+" WHERE m.designation = $1", p.Designation))
 }
 
-// MarkDesignationsLike returns up to limit designations that start with
-// the same first character as s (any case), as candidates for "did you mean".
-func MarkDesignationsLike(ctx context.Context, db DBTX, s string, limit int) ([]string, error) {
-	if s == "" {
+// MarkGetFolded returns the mark whose designation has the folded form
+// folded (names.Fold: lower(normalize(designation, NFKC)) here, the
+// expression of the unique index mark_designation_folded, which agrees
+// with it on the designations the schema allows); ErrNotFound if none.
+func MarkGetFolded(ctx context.Context, db DBTX, folded string) (Mark, error) {
+	return scanMark(db.QueryRow(ctx, "SELECT "+markColumns+markFrom+" WHERE lower(normalize(m.designation, NFKC)) = $1", folded))
+}
+
+// MarkDesignationsLike returns up to limit designations whose folded form
+// starts with the same first character as folded (a folded name, see
+// MarkGetFolded), as candidates for "did you mean".
+func MarkDesignationsLike(ctx context.Context, db DBTX, folded string, limit int) ([]string, error) {
+	if folded == "" {
 		return nil, nil
 	}
-	rows, err := db.Query(ctx, "SELECT designation FROM mark WHERE upper(left(designation, 1)) = upper(left($1, 1)) ORDER BY designation LIMIT $2", s, limit)
+	rows, err := db.Query(ctx, "SELECT designation FROM mark WHERE lower(normalize(left(designation, 1), NFKC)) = left($1, 1) ORDER BY designation LIMIT $2", folded, limit)
 	if err != nil {
 		return nil, translate(err)
 	}
@@ -230,4 +239,46 @@ func MarkListByDesignations(ctx context.Context, db DBTX, designations []string)
 func MarkLock(ctx context.Context, db DBTX, markIDs []int64) error {
 	_, err := db.Exec(ctx, "SELECT 1 FROM mark WHERE id = ANY($1) ORDER BY id FOR NO KEY UPDATE", markIDs)
 	return translateAs(err, RolePublisher)
+}
+
+// MarkListByFolded returns the marks whose folded designations are among
+// folded (see MarkGetFolded), each with its latest condition report.
+func MarkListByFolded(ctx context.Context, db DBTX, folded []string) ([]Mark, error) {
+	rows, err := db.Query(ctx, "SELECT "+markColumns+markFrom+" WHERE lower(normalize(m.designation, NFKC)) = ANY($1) ORDER BY m.designation", folded)
+	if err != nil {
+		return nil, translate(err)
+	}
+	return collect(rows, func(r pgx.Row) (Mark, error) { return scanMark(r) })
+}
+
+// MarkEarliestRecord returns, for each of the marks that has one, the
+// earliest date the register has a record of it in the field: the earliest
+// of its condition reports' dates observed and of the dates of the runs
+// that touched it (voided ones too: the mark was there).
+func MarkEarliestRecord(ctx context.Context, db DBTX, markIDs []int64) (map[int64]time.Time, error) {
+	rows, err := db.Query(ctx, `SELECT mark_id, min(d) FROM (
+		SELECT mark_id, observed_on AS d FROM mark_condition WHERE mark_id = ANY($1)
+		UNION ALL
+		SELECT rm.mark_id, r.observed_on FROM run_mark rm JOIN run r ON r.id = rm.run_id
+		WHERE rm.mark_id = ANY($1) AND r.observed_on IS NOT NULL
+	) AS records GROUP BY mark_id`, markIDs)
+	if err != nil {
+		return nil, translate(err)
+	}
+	type first struct {
+		id int64
+		on time.Time
+	}
+	list, err := collect(rows, func(r pgx.Row) (first, error) {
+		var f first
+		return f, translate(r.Scan(&f.id, &f.on))
+	})
+	if err != nil {
+		return nil, err
+	}
+	out := make(map[int64]time.Time, len(list))
+	for _, f := range list {
+		out[f.id] = f.on
+	}
+	return out, nil
 }

@@ -39,13 +39,15 @@ func describe(cfg *pgxpool.Config) string {
 }
 
 // provider builds a goose provider over the embedded migrations, with a
-// session lock so concurrent migrators take turns.
+// session lock so concurrent migrators take turns. A migration numbered
+// below one already applied is applied too (out of order): 00009 came
+// after 00010, and a register migrated to 00010 gets it.
 func provider(db *sql.DB) (*goose.Provider, error) {
 	locker, err := lock.NewPostgresSessionLocker()
 	if err != nil {
 		return nil, err
 	}
-	return goose.NewProvider(goose.DialectPostgres, db, migrations.FS, goose.WithSessionLocker(locker))
+	return goose.NewProvider(goose.DialectPostgres, db, migrations.FS, goose.WithSessionLocker(locker), goose.WithAllowOutofOrder(true))
 }
 
 // Migrate applies every pending migration.
@@ -72,6 +74,41 @@ func MigrateDown(ctx context.Context, pool *pgxpool.Pool) error {
 	return err
 }
 
+// MigrateTo applies, or rolls back, migrations until version is the
+// newest applied (the migration tests start from an older register).
+func MigrateTo(ctx context.Context, pool *pgxpool.Pool, version int64) error {
+	db := stdlib.OpenDBFromPool(pool)
+	defer db.Close()
+	p, err := provider(db)
+	if err != nil {
+		return err
+	}
+	cur, err := p.GetDBVersion(ctx)
+	if err != nil {
+		return err
+	}
+	if cur > version {
+		_, err = p.DownTo(ctx, version)
+	} else {
+		_, err = p.UpTo(ctx, version)
+	}
+	return err
+}
+
+// MigrateOne applies the migration of version alone, whatever is pending
+// before it (the migration tests make a register that got a migration
+// before an older one).
+func MigrateOne(ctx context.Context, pool *pgxpool.Pool, version int64) error {
+	db := stdlib.OpenDBFromPool(pool)
+	defer db.Close()
+	p, err := provider(db)
+	if err != nil {
+		return err
+	}
+	_, err = p.ApplyVersion(ctx, version, true)
+	return err
+}
+
 // SchemaVersion returns the applied schema version (0 for a database
 // never migrated, which it leaves untouched) and the newest known.
 func SchemaVersion(ctx context.Context, pool *pgxpool.Pool) (current, latest int64, err error) {
@@ -91,8 +128,18 @@ func SchemaVersion(ctx context.Context, pool *pgxpool.Pool) (current, latest int
 	if !migrated {
 		return 0, latest, nil
 	}
-	if current, err = p.GetDBVersion(ctx); err != nil {
+	// The version is the last of the unbroken run of applied migrations
+	// from the first: a database with 00010 applied and 00009 not is at
+	// version 8, and migrating brings it up to date.
+	st, err := p.Status(ctx)
+	if err != nil {
 		return 0, 0, err
+	}
+	for _, m := range st {
+		if m.State != goose.StateApplied {
+			break
+		}
+		current = m.Source.Version
 	}
 	return current, latest, nil
 }
