@@ -211,6 +211,14 @@ type CurrentHeight struct {
 // HeightsCurrent returns the current version of every mark on datum (""
 // for every datum), by designation and datum code, each with its doubts.
 func (r *Register) HeightsCurrent(ctx context.Context, datum string) ([]CurrentHeight, error) {
+	return r.HeightsAsOf(ctx, datum, nil)
+}
+
+// HeightsAsOf returns the version of every mark on datum ("" for every
+// datum) in force at asOf (nil: now), as HeightsCurrent: the latest
+// version whose writing transaction had committed by asOf. A version
+// listed may be a withdrawal.
+func (r *Register) HeightsAsOf(ctx context.Context, datum string, asOf *time.Time) ([]CurrentHeight, error) {
 	var out []CurrentHeight
 	err := r.withTx(ctx, readTx, func(tx pgx.Tx) error {
 		var id int64
@@ -221,7 +229,7 @@ func (r *Register) HeightsCurrent(ctx context.Context, datum string) ([]CurrentH
 			}
 			id = d.ID
 		}
-		hs, err := store.HeightCurrentAll(ctx, tx, id)
+		hs, err := store.HeightAsOfAll(ctx, tx, store.HeightAsOfAllParams{DatumID: id, AsOf: asOf})
 		if err != nil {
 			return err
 		}

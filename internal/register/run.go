@@ -488,6 +488,10 @@ func runInsertParams(p RecordParams, book *levelbook.Book, res *reduce.Result, r
 		if err != nil {
 			return store.RunInsertParams{}, &levelbook.Error{File: p.Path, Line: m.Lines["date"], Field: "date", Msg: "not a date (want YYYY-MM-DD)"}
 		}
+		if today := LatestToday(time.Now()); d.After(today) {
+			return store.RunInsertParams{}, &levelbook.Error{File: p.Path, Line: m.Lines["date"], Field: "date",
+				Msg: fmt.Sprintf("%s is after today (%s at the latest, anywhere): a run cannot be observed in the future", m.Date, today.Format("2006-01-02"))}
+		}
 		observed = &d
 	}
 	sum := sha256.Sum256(p.Book)

@@ -25,6 +25,11 @@ var (
 	// ErrPermission: the role connected lacks a privilege; the message
 	// names the role of the register that has it.
 	ErrPermission = errors.New("permission denied")
+	// ErrClock: the database server's clock is behind the register's
+	// latest time (migrations/00012); nothing was written.
+	ErrClock = errors.New("clock refused")
+	// ErrObservedFuture: a run or a condition report observed after today.
+	ErrObservedFuture = errors.New("observed after today")
 )
 
 // Roles of the register (migrations/00005_roles.sql); each includes the
@@ -81,6 +86,8 @@ func translateAs(err error, role string) error {
 const (
 	codeAppendOnly = "CA001" // UPDATE, DELETE or TRUNCATE of append-only history
 	codeStale      = "CA002" // a new version does not supersede the latest
+	codeClock      = "CA012" // the server's clock is behind the register's latest time (00012)
+	codeFuture     = "CA013" // observed after today (00012)
 	codeDenied     = "42501" // insufficient_privilege
 )
 
@@ -116,6 +123,10 @@ func translate(err error) error {
 		return fmt.Errorf("%w: %s", ErrAlreadyExists, pe.Message)
 	case pe.Code == codeDenied:
 		return permission(pe, "")
+	case pe.Code == codeClock:
+		return fmt.Errorf("%w: %s", ErrClock, pe.Message)
+	case pe.Code == codeFuture:
+		return fmt.Errorf("%w: %s", ErrObservedFuture, pe.Message)
 	}
 	return err
 }
