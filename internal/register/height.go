@@ -65,6 +65,7 @@ func (r *Register) HeightSet(ctx context.Context, p HeightSetParams) (HeightSetR
 		return HeightSetResult{}, err
 	}
 	var res HeightSetResult
+	var xid uint64
 	err = r.withTx(ctx, pgx.TxOptions{}, func(tx pgx.Tx) error {
 		m, err := r.mark(ctx, tx, "designation", p.Designation, true)
 		if err != nil {
@@ -85,9 +86,15 @@ func (r *Register) HeightSet(ctx context.Context, p HeightSetParams) (HeightSetR
 		if p.Kind == KindWithdrawal && (res.Previous == nil || res.Previous.Value == nil) {
 			return inputErr("datum", "mark %s has no height on %s to withdraw", m.Designation, d.Code)
 		}
-		res.Version, err = store.HeightInsert(ctx, tx, ins)
-		return asConflict(err)
+		if res.Version, err = store.HeightInsert(ctx, tx, ins); err != nil {
+			return asConflict(err)
+		}
+		xid, err = store.TxID(ctx, tx)
+		return err
 	})
+	if err == nil {
+		res.Version.InForceFrom, err = store.CommitTime(ctx, r.pool, xid)
+	}
 	if err != nil {
 		return HeightSetResult{}, fmt.Errorf("set height of %s: %w", p.Designation, err)
 	}

@@ -40,3 +40,23 @@ func CommitLatest(ctx context.Context, db DBTX) (CommitRow, error) {
 	err := db.QueryRow(ctx, "SELECT committed_at, login FROM register_commit ORDER BY committed_at DESC LIMIT 1").Scan(&c.CommittedAt, &c.Login)
 	return c, translate(err)
 }
+
+// TxID returns the id of transaction tx, assigning one if it has none.
+func TxID(ctx context.Context, tx pgx.Tx) (uint64, error) {
+	var id uint64
+	if err := tx.QueryRow(ctx, "SELECT pg_current_xact_id()::text::bigint").Scan(&id); err != nil {
+		return 0, fmt.Errorf("read the transaction's id: %w", translate(err))
+	}
+	return id, nil
+}
+
+// CommitTime returns when transaction xid committed (its register_commit
+// row); ErrNotFound when it has none.
+func CommitTime(ctx context.Context, db DBTX, xid uint64) (time.Time, error) {
+	var t time.Time
+	err := db.QueryRow(ctx, "SELECT committed_at FROM register_commit WHERE xid = $1::bigint::text::xid8", int64(xid)).Scan(&t)
+	if err != nil {
+		return time.Time{}, fmt.Errorf("read the commit of transaction %d: %w", xid, translate(err))
+	}
+	return t, nil
+}
