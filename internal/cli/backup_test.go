@@ -123,7 +123,7 @@ func TestBackupRestore(t *testing.T) {
 		t.Fatalf("delete after restore: %v", err)
 	}
 	var granted bool
-	if err := conn.QueryRow(context.Background(), "SELECT has_table_privilege('cairn_publisher', 'height', 'INSERT')").Scan(&granted); err != nil || !granted {
+	if err := conn.QueryRow(context.Background(), "SELECT has_any_column_privilege('cairn_publisher', 'height', 'INSERT')").Scan(&granted); err != nil || !granted {
 		t.Fatalf("publisher's privileges after restore: %v %v", granted, err)
 	}
 

@@ -104,7 +104,7 @@ func TestPublishRefusesFailedChecks(t *testing.T) {
 	const why = "book known to be in metres; published for the record, to be re-run"
 	out, errOut = mustBin(t, db, 0, "publish", id, "--reason", "levee line", "--by", "reviewer", "--yes",
 		"--accept-failed-checks", "--accept-reason", why, "-o", "json")
-	registertest.AssertWrote(t, db.Pool, before, map[string]int64{"adjustment_event": 1, "height": 1})
+	registertest.AssertWrote(t, db.Pool, before, map[string]int64{"adjustment_event": 1, "height": 1, "register_commit": 1})
 	var pub publishJSON
 	if err := json.Unmarshal([]byte(out), &pub); err != nil {
 		t.Fatal(err)
@@ -190,7 +190,7 @@ func TestPublishRechecksHeldCondition(t *testing.T) {
 	const why = "BM1 re-set and levelled from BM0 before the culvert works (field note 17)"
 	mustBin(t, db, 0, "publish", id, "--reason", "worked circuit", "--by", "reviewer", "--yes",
 		"--accept-failed-checks", "--accept-reason", why)
-	registertest.AssertWrote(t, db.Pool, before, map[string]int64{"adjustment_event": 1, "height": 5})
+	registertest.AssertWrote(t, db.Pool, before, map[string]int64{"adjustment_event": 1, "height": 5, "register_commit": 1})
 	var show adjustmentJSON
 	out, _ = mustBin(t, db, 0, "adjustment", "show", id, "-o", "json")
 	if err := json.Unmarshal([]byte(out), &show); err != nil {

@@ -153,22 +153,28 @@ func mustMark(ctx context.Context, f *Factory, designation string) store.Mark {
 
 // heightJSON is a height version in machine output.
 type heightJSON struct {
-	Mark       string         `json:"mark"`
-	Datum      string         `json:"datum"`
-	Version    int            `json:"version"`
-	Value      *string        `json:"value"`
-	Unit       *string        `json:"unit"`
-	Decimals   *int           `json:"decimals"`
-	Class      string         `json:"class"`
-	SourceKind string         `json:"source_kind"`
-	Source     string         `json:"source"`
-	Reason     string         `json:"reason"`
-	RecordedBy string         `json:"recorded_by"`
-	RecordedAt time.Time      `json:"recorded_at"`
-	Current    bool           `json:"current"`
-	Hash       string         `json:"hash"`
-	Converted  *convertedJSON `json:"converted,omitempty"`
-	Change     *string        `json:"change,omitempty"`
+	Mark       string  `json:"mark"`
+	Datum      string  `json:"datum"`
+	Version    int     `json:"version"`
+	Value      *string `json:"value"`
+	Unit       *string `json:"unit"`
+	Decimals   *int    `json:"decimals"`
+	Class      string  `json:"class"`
+	SourceKind string  `json:"source_kind"`
+	Source     string  `json:"source"`
+	Reason     string  `json:"reason"`
+	RecordedBy string  `json:"recorded_by"`
+	// RecordedRole is the database login role that wrote the version;
+	// null for versions written before schema v12.
+	RecordedRole *string   `json:"recorded_role"`
+	RecordedAt   time.Time `json:"recorded_at"`
+	// InForceFrom is when the version came in force (its transaction's
+	// commit), the instant --as-of compares with.
+	InForceFrom time.Time      `json:"in_force_from"`
+	Current     bool           `json:"current"`
+	Hash        string         `json:"hash"`
+	Converted   *convertedJSON `json:"converted,omitempty"`
+	Change      *string        `json:"change,omitempty"`
 	// Doubts are the doubts that concern the version (register.Doubt);
 	// always present, empty for none.
 	Doubts register.Doubts `json:"doubts"`
@@ -184,7 +190,8 @@ type convertedJSON struct {
 func toHeightJSON(h store.Height, in units.Unit) heightJSON {
 	j := heightJSON{Mark: h.Designation, Datum: h.DatumCode, Version: h.Version, Value: h.Value, Unit: h.Unit,
 		Decimals: h.Decimals, Class: h.Class, SourceKind: h.SourceKind, Source: h.Source, Reason: h.Reason,
-		RecordedBy: h.RecordedBy, RecordedAt: h.RecordedAt, Current: h.Current, Hash: hex.EncodeToString(h.Hash)}
+		RecordedBy: h.RecordedBy, RecordedRole: h.RecordedRole, RecordedAt: h.RecordedAt, InForceFrom: h.InForceFrom,
+		Current: h.Current, Hash: hex.EncodeToString(h.Hash)}
 	if in != "" && h.Value != nil {
 		from := units.Unit(*h.Unit)
 		d := units.ConvertedDecimals(from, in, *h.Decimals)
@@ -193,6 +200,15 @@ func toHeightJSON(h store.Height, in units.Unit) heightJSON {
 		}
 	}
 	return j
+}
+
+// byText is who recorded a version: the name given (--by) and the
+// database login role that wrote it.
+func byText(h heightJSON) string {
+	if h.RecordedRole == nil {
+		return h.RecordedBy + " (login not recorded)"
+	}
+	return h.RecordedBy + " (login " + *h.RecordedRole + ")"
 }
 
 // valueText is "769.83 usft", or "withdrawn".
@@ -223,7 +239,9 @@ past time (--as-of): one per datum, exactly as published, with the version,
 class and source. --in adds the value converted exactly to another unit.
 
 --as-of takes 2024-03-01T14:00:00Z, a local time 2024-03-01 14:00, or a
-date, meaning the end of that day.
+date, meaning the end of that day. A version is in force from the commit of
+the transaction that wrote it (a publication comes in force whole, at one
+instant), the time shown as RECORDED.
 
 A loud warning goes to the error stream when the mark's latest condition
 report says it is disturbed, destroyed or not found.`,
@@ -239,7 +257,7 @@ report says it is disturbed, destroyed or not found.`,
 	}
 	addOutputFlag(cmd, &opts.format)
 	cmd.Flags().StringVar(&opts.params.Datum, "datum", "", "only this datum")
-	cmd.Flags().StringVar(&opts.asOf, "as-of", "", "show the heights in force at this time")
+	cmd.Flags().StringVar(&opts.asOf, "as-of", "", asOfUsage("show the heights"))
 	cmd.Flags().StringVar(&opts.in, "in", "", "also show the value converted to this unit: m, ft or usft")
 	return cmd
 }
@@ -290,7 +308,7 @@ func heightShowRun(opts *heightShowOptions) error {
 			t.Headers = append(t.Headers, "HEIGHT ("+string(in)+")")
 		}
 		for _, h := range out.Heights {
-			row := []string{h.Datum, strconv.Itoa(h.Version), deref(h.Value), deref(h.Unit), h.Class, timeText(h.RecordedAt), h.Source, doubtCell(opts.f.IO, h.Doubts)}
+			row := []string{h.Datum, strconv.Itoa(h.Version), deref(h.Value), deref(h.Unit), h.Class, timeText(h.InForceFrom), h.Source, doubtCell(opts.f.IO, h.Doubts)}
 			if h.Value == nil {
 				row[2] = "withdrawn"
 			}
@@ -313,18 +331,32 @@ type heightListOptions struct {
 	ctx    context.Context
 	format Format
 	datum  string
+	asOf   string
+	at     *time.Time
 }
 
 func newCmdHeightList(f *Factory, runF func(*heightListOptions) error) *cobra.Command {
 	opts := &heightListOptions{f: f}
 	cmd := &cobra.Command{
-		Use:   "list [--datum CODE]",
-		Short: "List the current height of every benchmark",
-		Args:  exactArgs(0, "no arguments"),
-		RunE:  runE(&opts.ctx, opts, runF, heightListRun),
+		Use:   "list [--datum CODE] [--as-of TIME]",
+		Short: "List the height of every benchmark in force, now or at a past time",
+		Long: `List the height of every benchmark in force now, or as the register stood at
+a past time (--as-of, as for height show: the versions whose transaction had
+committed by then; a version in force then and withdrawn is listed as
+withdrawn).`,
+		Args: exactArgs(0, "no arguments"),
+		RunE: func(cmd *cobra.Command, args []string) error {
+			opts.ctx = cmd.Context()
+			var err error
+			if opts.at, err = parseAsOf(opts.asOf); err != nil {
+				return err
+			}
+			return dispatch(opts, runF, heightListRun)
+		},
 	}
 	addOutputFlag(cmd, &opts.format)
 	cmd.Flags().StringVar(&opts.datum, "datum", "", "only this datum")
+	cmd.Flags().StringVar(&opts.asOf, "as-of", "", asOfUsage("list the heights"))
 	return cmd
 }
 
@@ -334,7 +366,7 @@ func heightListRun(opts *heightListOptions) error {
 	if err != nil {
 		return err
 	}
-	hs, err := r.HeightsCurrent(opts.ctx, opts.datum)
+	hs, err := r.HeightsAsOf(opts.ctx, opts.datum, opts.at)
 	if err != nil {
 		return err
 	}
@@ -379,7 +411,10 @@ func newCmdHistory(f *Factory, runF func(*historyOptions) error) *cobra.Command 
 		Long: `List every version of a benchmark's heights ever recorded, newest first
 (per datum), with the change from the version before (in the version's unit;
 an earlier version in another unit is converted exactly), its reason, its
-source and who recorded it.`,
+source and who recorded it: the name given with --by and the database login
+role that wrote it ("login not recorded" for versions from before schema
+v12). RECORDED is when the version came in force: the commit of the
+transaction that wrote it, the instant --as-of compares with.`,
 		Args: exactArgs(1, "a DESIGNATION"),
 		RunE: func(cmd *cobra.Command, args []string) error {
 			opts.ctx, opts.designation = cmd.Context(), args[0]
@@ -434,8 +469,8 @@ func historyRun(opts *historyOptions) error {
 			if h.Value == nil {
 				val = "withdrawn"
 			}
-			t.AddRow(h.Datum, strconv.Itoa(h.Version), timeText(h.RecordedAt), val, deref(h.Unit),
-				deref(h.Change), h.SourceKind, h.Reason, h.Source, h.RecordedBy, doubtCell(opts.f.IO, h.Doubts))
+			t.AddRow(h.Datum, strconv.Itoa(h.Version), timeText(h.InForceFrom), val, deref(h.Unit),
+				deref(h.Change), h.SourceKind, h.Reason, h.Source, byText(h.heightJSON), doubtCell(opts.f.IO, h.Doubts))
 		}
 		return t
 	})

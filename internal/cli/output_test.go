@@ -119,6 +119,7 @@ func TestTablesOnATerminalAndPiped(t *testing.T) {
 	set("769.83", "authority", "Tallis County Benchmark Book (invented)", "entered from the book")
 	set("769.88", "correction", "errata sheet 3 (invented)", "769.83 was a transcription error")
 	const warning = "WARNING: mark TC-0412 was reported DISTURBED on 2024-05-14"
+	by := "tester (login " + loginOf(t, db) + ")"
 
 	for _, c := range []struct {
 		args     []string
@@ -135,8 +136,8 @@ func TestTablesOnATerminalAndPiped(t *testing.T) {
 			{"TC-0412", "NAVD88", "2", "769.88", "usft", "", "errata sheet 3 (invented)", anyCell},
 		}, false, false},
 		{[]string{"history", "TC-0412"}, []string{"DATUM", "VERSION", "RECORDED (UTC)", "HEIGHT (in UNIT)", "UNIT", "CHANGE (in UNIT)", "KIND", "REASON", "SOURCE", "BY", "DOUBT"}, [][]string{
-			{"NAVD88", "2", anyCell, "769.88", "usft", anyCell, "correction", "769.83 was a transcription error", "errata sheet 3 (invented)", "tester", anyCell},
-			{"NAVD88", "1", anyCell, "769.83", "usft", "", "authority", "entered from the book", "Tallis County Benchmark Book (invented)", "tester", anyCell},
+			{"NAVD88", "2", anyCell, "769.88", "usft", anyCell, "correction", "769.83 was a transcription error", "errata sheet 3 (invented)", by, anyCell},
+			{"NAVD88", "1", anyCell, "769.83", "usft", "", "authority", "entered from the book", "Tallis County Benchmark Book (invented)", by, anyCell},
 		}, true, true},
 	} {
 		what := strings.Join(c.args, " ")

@@ -177,7 +177,7 @@ func TestPublishRaceProcesses(t *testing.T) {
 		t.Fatalf("%d versions from adjustments, want the winner's 5", n)
 	}
 	// The winner wrote its event and its versions; the loser nothing.
-	registertest.AssertWrote(t, db.Pool, before, map[string]int64{"adjustment_event": 1, "height": 5})
+	registertest.AssertWrote(t, db.Pool, before, map[string]int64{"adjustment_event": 1, "height": 5, "register_commit": 1})
 	var list []adjustmentRowJSON
 	if err := json.Unmarshal([]byte(mustRun(t, db.URL, "adjustment", "list", "--status", "draft", "-o", "json")), &list); err != nil {
 		t.Fatal(err)

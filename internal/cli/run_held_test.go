@@ -129,7 +129,7 @@ func TestRunHoldFromRegister(t *testing.T) {
 	if len(rec.Held) != 2 || rec.Held[0].Height != want20 || *rec.Held[0].HeightID != h20.ID {
 		t.Errorf("recorded held %+v", rec.Held)
 	}
-	b.AssertWrote(t, before, map[string]int64{"run": 1, "sighting": 4, "section": 1, "run_mark": 2, "run_held": 2})
+	b.AssertWrote(t, before, map[string]int64{"run": 1, "sighting": 4, "section": 1, "run_mark": 2, "run_held": 2, "register_commit": 1})
 	id := jsonID(rec.Run.ID)
 	show, _, _ := binRun(t, db.URL, "run", "show", id)
 	for _, want := range []string{
@@ -272,7 +272,7 @@ func TestRunSpotHeights(t *testing.T) {
 	if st != ExitOK || !strings.Contains(out, "Created marks (unverified, no height): TC-0420\n") {
 		t.Fatalf("record: exit %d: %s\n%s", st, errOut, out)
 	}
-	b.AssertWrote(t, before, map[string]int64{"run": 1, "sighting": 7, "section": 1, "run_mark": 1, "run_held": 1, "mark": 1, "mark_condition": 1})
+	b.AssertWrote(t, before, map[string]int64{"run": 1, "sighting": 7, "section": 1, "run_mark": 1, "run_held": 1, "mark": 1, "mark_condition": 1, "register_commit": 1})
 	if _, _, st := binRun(t, db.URL, "mark", "show", "FL-1"); st != ExitBadInput {
 		t.Errorf("mark show FL-1: exit %d, want 2 (no such mark)", st)
 	}

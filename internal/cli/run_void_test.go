@@ -149,7 +149,7 @@ func TestRunVoid(t *testing.T) {
 	if st != 0 {
 		t.Fatalf("run void: exit %d: %s", st, errOut)
 	}
-	registertest.AssertWrote(t, db.Pool, before, map[string]int64{"run_event": 1})
+	registertest.AssertWrote(t, db.Pool, before, map[string]int64{"run_event": 1, "register_commit": 1})
 	v := showRun(t, db.URL, r1).Voided
 	if v == nil || v.VoidedBy != "P. Senior" || v.Reason != why {
 		t.Fatalf("run show -o json: voided %+v", v)

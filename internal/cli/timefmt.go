@@ -39,3 +39,8 @@ func parseAsOf(s string) (*time.Time, error) {
 
 // timeText is an instant as tables show it, in UTC to the second.
 func timeText(t time.Time) string { return t.UTC().Format("2006-01-02 15:04:05Z") }
+
+// asOfUsage is the usage of an --as-of flag whose command does what.
+func asOfUsage(what string) string {
+	return what + " in force at this time: those whose writing transaction had committed by then"
+}

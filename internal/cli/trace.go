@@ -92,7 +92,10 @@ func newCmdTrace(f *Factory, runF func(*traceOptions) error) *cobra.Command {
 (now, or at --as-of), the adjustment it came from, that adjustment's runs
 with the SHA-256 of their field books as recorded (and, for a run since
 voided, when, by whom and why), and the versions it held,
-each traced in turn, down to the outside publications they cite.
+each traced in turn, down to the outside publications they cite. Each
+version says who recorded it: the name given with --by and the database
+login role that wrote it. A version is in force from the commit of the
+transaction that wrote it; --as-of traces the versions committed by then.
 
 -o json gives the same tree; -o csv gives one row per node with its depth.`,
 		Args: exactArgs(1, "a DESIGNATION"),
@@ -107,7 +110,7 @@ each traced in turn, down to the outside publications they cite.
 	}
 	addOutputFlag(cmd, &opts.format)
 	cmd.Flags().StringVar(&opts.params.Datum, "datum", "", "only this datum")
-	cmd.Flags().StringVar(&opts.asOf, "as-of", "", "trace the version in force at this time")
+	cmd.Flags().StringVar(&opts.asOf, "as-of", "", asOfUsage("trace the version"))
 	return cmd
 }
 
@@ -192,7 +195,7 @@ func runText(r runRefJSON) string {
 // writeTrace writes the tree under v, indented.
 func writeTrace(w io.Writer, v traceVersionJSON, indent string) {
 	fmt.Fprintf(w, "%s%s on %s, version %d: %s (%s), recorded %s by %s\n", indent, v.Mark, v.Datum, v.Version,
-		valueOrWithdrawn(v.heightJSON), v.SourceKind, timeText(v.RecordedAt), v.RecordedBy)
+		valueOrWithdrawn(v.heightJSON), v.SourceKind, timeText(v.InForceFrom), byText(v.heightJSON))
 	in := indent + "    "
 	for _, d := range v.Doubts {
 		fmt.Fprintf(w, "%s!! DOUBT: %s\n", in, d.Text)

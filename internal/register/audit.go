@@ -34,6 +34,12 @@ import (
 //	reason
 //	recorded_by
 //	recorded_at   UTC, microseconds: 2006-01-02T15:04:05.000000Z
+//
+// A version written from schema v12 on, which has its login role, uses
+// layout 2 (height_canonical_v2): "cairn-height" is 2 and one more line
+// follows the others:
+//
+//	recorded_role the login role (session_user) that wrote it
 func Canonical(prevHash []byte, h store.Height) string {
 	opt := func(s *string) string {
 		if s == nil {
@@ -48,8 +54,12 @@ func Canonical(prevHash []byte, h store.Height) string {
 	if h.AdjustmentID != nil {
 		adj = strconv.FormatInt(*h.AdjustmentID, 10)
 	}
+	layout := "1"
+	if h.RecordedRole != nil {
+		layout = "2"
+	}
 	fields := [][2]string{
-		{"cairn-height", "1"},
+		{"cairn-height", layout},
 		{"prev", hex.EncodeToString(prevHash)},
 		{"mark", h.Designation},
 		{"datum", h.DatumCode},
@@ -64,6 +74,9 @@ func Canonical(prevHash []byte, h store.Height) string {
 		{"reason", h.Reason},
 		{"recorded_by", h.RecordedBy},
 		{"recorded_at", h.RecordedAt.UTC().Format("2006-01-02T15:04:05.000000Z")},
+	}
+	if h.RecordedRole != nil {
+		fields = append(fields, [2]string{"recorded_role", *h.RecordedRole})
 	}
 	var b strings.Builder
 	for _, f := range fields {

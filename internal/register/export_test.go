@@ -1,7 +1,15 @@
 package register
 
-import "cairn/internal/store"
+import (
+	"time"
+
+	"cairn/internal/store"
+)
 
 // SetBeforeSections makes Record call f on the sections just before it
 // stores them.
 func SetBeforeSections(p *RecordParams, f func([]store.Section)) { p.beforeSections = f }
+
+// SetClock makes r compare the server's clock with now instead of this
+// computer's clock, before its first write.
+func SetClock(r *Register, now func() time.Time) { r.now = now }

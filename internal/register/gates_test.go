@@ -70,7 +70,7 @@ func TestPublishSameDraftRace(t *testing.T) {
 	if wins != 1 || conflicts != 1 {
 		t.Fatalf("%d won and %d conflicted, want one of each: %v", wins, conflicts, errs)
 	}
-	b.AssertWrote(t, before, map[string]int64{"adjustment_event": 1, "height": 5})
+	b.AssertWrote(t, before, map[string]int64{"adjustment_event": 1, "height": 5, "register_commit": 1})
 }
 
 // A run voided between the draft and its publication stops the

@@ -65,6 +65,7 @@ func (r *Register) HeightSet(ctx context.Context, p HeightSetParams) (HeightSetR
 		return HeightSetResult{}, err
 	}
 	var res HeightSetResult
+	var xid uint64
 	err = r.withTx(ctx, pgx.TxOptions{}, func(tx pgx.Tx) error {
 		m, err := r.mark(ctx, tx, "designation", p.Designation, true)
 		if err != nil {
@@ -85,9 +86,15 @@ func (r *Register) HeightSet(ctx context.Context, p HeightSetParams) (HeightSetR
 		if p.Kind == KindWithdrawal && (res.Previous == nil || res.Previous.Value == nil) {
 			return inputErr("datum", "mark %s has no height on %s to withdraw", m.Designation, d.Code)
 		}
-		res.Version, err = store.HeightInsert(ctx, tx, ins)
-		return asConflict(err)
+		if res.Version, err = store.HeightInsert(ctx, tx, ins); err != nil {
+			return asConflict(err)
+		}
+		xid, err = store.TxID(ctx, tx)
+		return err
 	})
+	if err == nil {
+		res.Version.InForceFrom, err = store.CommitTime(ctx, r.pool, xid)
+	}
 	if err != nil {
 		return HeightSetResult{}, fmt.Errorf("set height of %s: %w", p.Designation, err)
 	}
@@ -211,6 +218,14 @@ type CurrentHeight struct {
 // HeightsCurrent returns the current version of every mark on datum (""
 // for every datum), by designation and datum code, each with its doubts.
 func (r *Register) HeightsCurrent(ctx context.Context, datum string) ([]CurrentHeight, error) {
+	return r.HeightsAsOf(ctx, datum, nil)
+}
+
+// HeightsAsOf returns the version of every mark on datum ("" for every
+// datum) in force at asOf (nil: now), as HeightsCurrent: the latest
+// version whose writing transaction had committed by asOf. A version
+// listed may be a withdrawal.
+func (r *Register) HeightsAsOf(ctx context.Context, datum string, asOf *time.Time) ([]CurrentHeight, error) {
 	var out []CurrentHeight
 	err := r.withTx(ctx, readTx, func(tx pgx.Tx) error {
 		var id int64
@@ -221,7 +236,7 @@ func (r *Register) HeightsCurrent(ctx context.Context, datum string) ([]CurrentH
 			}
 			id = d.ID
 		}
-		hs, err := store.HeightCurrentAll(ctx, tx, id)
+		hs, err := store.HeightAsOfAll(ctx, tx, store.HeightAsOfAllParams{DatumID: id, AsOf: asOf})
 		if err != nil {
 			return err
 		}

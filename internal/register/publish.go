@@ -163,6 +163,7 @@ func (r *Register) Publish(ctx context.Context, p PublishParams) (*Published, er
 		return nil, err
 	}
 	out := &Published{LargeChangeM: p.LargeChangeM}
+	var xid uint64
 	err := r.withTx(ctx, pgx.TxOptions{}, func(tx pgx.Tx) error {
 		a, err := r.lockDraft(ctx, tx, p.AdjustmentID, store.StatusPublished)
 		if err != nil {
@@ -241,8 +242,21 @@ func (r *Register) Publish(ctx context.Context, p PublishParams) (*Published, er
 		if out.Accepted, err = AcceptanceOf(out.Adjustment); err != nil {
 			return err
 		}
-		return reportConditions(ctx, tx, p, v, out)
+		if err := reportConditions(ctx, tx, p, v, out); err != nil {
+			return err
+		}
+		xid, err = store.TxID(ctx, tx)
+		return err
 	})
+	if err == nil {
+		// The versions came in force together, at the commit.
+		var at time.Time
+		if at, err = store.CommitTime(ctx, r.pool, xid); err == nil {
+			for i := range out.Versions {
+				out.Versions[i].InForceFrom = at
+			}
+		}
+	}
 	if err != nil {
 		return nil, publishErr("publish", p.AdjustmentID, err)
 	}

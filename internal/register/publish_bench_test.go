@@ -68,3 +68,24 @@ func BenchmarkAdjust(b *testing.B) {
 		fx.Adjustment(b, registertest.AdjustmentOpts{Runs: []int64{run}, Hold: []string{"TC-1001"}, By: "bench"})
 	}
 }
+
+// BenchmarkPublish20k: a loop of 20 001 marks (one at every setup), held
+// at TC-1001, adjusted once per iteration (not timed) and published as
+// 20 000 new versions (timed).
+func BenchmarkPublish20k(b *testing.B) {
+	fx := registertest.Setup(b)
+	fx.Datum(b, registertest.DatumOpts{})
+	loop := booktest.Loop{Setups: 20001, MarkEvery: 1, Seed: 1}
+	rec := fx.Run(b, registertest.RunOpts{Path: "large.csv", Book: loop.Book(), By: "bench", NewMarks: true})
+	fx.Height(b, registertest.HeightOpts{Designation: "TC-1001", Value: "100.000", Unit: "m", Source: "invented", Reason: "bench", By: "bench"})
+	b.ResetTimer()
+	for i := 0; i < b.N; i++ {
+		b.StopTimer()
+		v := fx.Adjustment(b, registertest.AdjustmentOpts{Runs: []int64{rec.Run.ID}, Hold: []string{"TC-1001"}, By: "bench"})
+		b.StartTimer()
+		pub := fx.Publication(b, v.Adjustment.ID, registertest.PublicationOpts{Reason: "bench", By: "bench"})
+		if len(pub.Versions) != 20000 {
+			b.Fatalf("%d versions published, want 20000", len(pub.Versions))
+		}
+	}
+}

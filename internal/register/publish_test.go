@@ -241,7 +241,7 @@ func TestPublishRace(t *testing.T) {
 		t.Fatalf("%d won and %d conflicted, want one of each: %v", wins, conflicts, errs)
 	}
 	// The winner wrote its event and 5 versions; the loser nothing.
-	if !b.AssertWrote(t, before, map[string]int64{"adjustment_event": 1, "height": 5}) {
+	if !b.AssertWrote(t, before, map[string]int64{"adjustment_event": 1, "height": 5, "register_commit": 1}) {
 		t.Fatal("after the race: the winner's event and 5 versions, and nothing else, were wanted")
 	}
 	list, err := b.Reg.AdjustmentList(b.Ctx, AdjustmentListParams{Status: store.StatusDraft})
@@ -367,9 +367,10 @@ func TestAsOfTimeline(t *testing.T) {
 	if err != nil {
 		t.Fatal(err)
 	}
-	// Each version's own instant, and the microsecond before it.
+	// Each version's own instant of coming in force (its commit), and the
+	// microsecond before it.
 	for _, h := range hist {
-		steps = append(steps, step{h.RecordedAt, *h.Value})
+		steps = append(steps, step{h.InForceFrom, *h.Value})
 		prev := ""
 		if h.Supersedes != nil {
 			p, err := store.HeightGet(b.Ctx, b.DB.Pool, *h.Supersedes)
@@ -378,7 +379,7 @@ func TestAsOfTimeline(t *testing.T) {
 			}
 			prev = *p.Value
 		}
-		steps = append(steps, step{h.RecordedAt.Add(-time.Microsecond), prev})
+		steps = append(steps, step{h.InForceFrom.Add(-time.Microsecond), prev})
 	}
 	for _, s := range steps {
 		at := s.at

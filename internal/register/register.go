@@ -12,6 +12,8 @@ import (
 	"slices"
 	"sort"
 	"strings"
+	"sync"
+	"time"
 
 	"github.com/jackc/pgx/v5"
 	"github.com/jackc/pgx/v5/pgxpool"
@@ -24,10 +26,64 @@ import (
 // Register is the register in one PostgreSQL database.
 type Register struct {
 	pool *pgxpool.Pool
+	// now is this computer's clock, which the server's is compared with
+	// before the first write (checkClock).
+	now func() time.Time
+	// clockChecked is set once the server's clock was found within
+	// ClockTolerance of now.
+	clockMu      sync.Mutex
+	clockChecked bool
 }
 
 // New returns the register over pool (migrated by the caller).
-func New(pool *pgxpool.Pool) *Register { return &Register{pool: pool} }
+func New(pool *pgxpool.Pool) *Register { return &Register{pool: pool, now: time.Now} }
+
+// ClockTolerance is how far the database server's clock may be from the
+// clock of the computer running cairn before cairn refuses to write.
+// Every time the register keeps comes from the server's clock; one far
+// ahead would stamp the record with a wrong time and then make every
+// later write refused (a write may not be stamped before the register's
+// latest), one far behind stamps it wrong too.
+const ClockTolerance = 5 * time.Minute
+
+// ClockError refuses a write because the database server's clock is
+// wrong: too far from this computer's (checked before the first write),
+// or behind the register's latest time (refused by the database).
+// Nothing was written.
+type ClockError struct{ Err error }
+
+func (e *ClockError) Error() string { return e.Err.Error() }
+func (e *ClockError) Unwrap() error { return e.Err }
+
+// checkClock compares the server's clock with this computer's, once per
+// Register, and refuses when they differ by more than ClockTolerance.
+func (r *Register) checkClock(ctx context.Context) error {
+	r.clockMu.Lock()
+	defer r.clockMu.Unlock()
+	if r.clockChecked {
+		return nil
+	}
+	before := r.now()
+	server, err := store.ServerClock(ctx, r.pool)
+	if err != nil {
+		return err
+	}
+	after := r.now()
+	// This computer's time when the server read its clock: the middle of
+	// the round trip.
+	local := before.Add(after.Sub(before) / 2)
+	diff := server.Sub(local)
+	if diff > ClockTolerance || diff < -ClockTolerance {
+		dir, by := "ahead of", diff
+		if diff < 0 {
+			dir, by = "behind", -diff
+		}
+		return &ClockError{Err: fmt.Errorf("the database server's clock reads %s, %s %s this computer's (%s): cairn refuses to write when the two differ by more than %s, since every time the register keeps comes from the server's clock; nothing was written (set the wrong clock right, then try again)",
+			server.UTC().Format("2006-01-02 15:04:05.000Z"), by.Round(time.Second), dir, local.UTC().Format("2006-01-02 15:04:05.000Z"), ClockTolerance)}
+	}
+	r.clockChecked = true
+	return nil
+}
 
 // InputError is bad input: it names the field at fault. Nothing was
 // written. Msg names no flag of the command line: the caller names the
@@ -62,7 +118,36 @@ func asConflict(err error) error {
 
 // withTx runs fn in one transaction, committing if fn returns nil. The
 // deferred rollback runs even when ctx has been cancelled.
+//
+// Before the first writing transaction it checks the server's clock
+// (checkClock). A refusal of the server's clock by the database (a write
+// time or a commit not after the register's latest) is a ClockError.
 func (r *Register) withTx(ctx context.Context, opts pgx.TxOptions, fn func(tx pgx.Tx) error) error {
+	if opts.AccessMode != pgx.ReadOnly {
+		if err := r.checkClock(ctx); err != nil {
+			return err
+		}
+	}
+	err := r.runTx(ctx, opts, fn)
+	switch {
+	case errors.Is(err, store.ErrClock) && !errors.As(err, new(*ClockError)):
+		return &ClockError{Err: err}
+	case errors.Is(err, store.ErrFutureDate) && !errors.As(err, new(*InputError)):
+		return inputErr("date", "%v", err)
+	}
+	return err
+}
+
+// LatestToday is the latest calendar date anywhere on Earth at instant t
+// (the date at UTC+14), as a date at midnight UTC: no observation may be
+// dated after it (the database refuses it too, migrations/00012).
+func LatestToday(t time.Time) time.Time {
+	d := t.UTC().Add(14 * time.Hour)
+	return time.Date(d.Year(), d.Month(), d.Day(), 0, 0, 0, 0, time.UTC)
+}
+
+// runTx is withTx without the clock.
+func (r *Register) runTx(ctx context.Context, opts pgx.TxOptions, fn func(tx pgx.Tx) error) error {
 	tx, err := r.pool.BeginTx(ctx, opts)
 	if err != nil {
 		return fmt.Errorf("begin transaction: %w", err)
@@ -74,7 +159,7 @@ func (r *Register) withTx(ctx context.Context, opts pgx.TxOptions, fn func(tx pg
 		}
 		return err
 	}
-	if err := tx.Commit(ctx); err != nil {
+	if err := store.Commit(ctx, tx); err != nil {
 		if tx.Conn().IsClosed() {
 			return &ConnectionLostError{Err: fmt.Errorf("commit: %w", err), Committing: true}
 		}

@@ -32,8 +32,8 @@ func TestHeightAsOf(t *testing.T) {
 	t.Parallel()
 	b := setup(t)
 	v1, v2, v3 := set(t, b, "769.83", "usft"), set(t, b, "769.88", "usft"), set(t, b, "234.662", "m")
-	if !(v1.RecordedAt.Before(v2.RecordedAt) && v2.RecordedAt.Before(v3.RecordedAt)) {
-		t.Fatalf("recorded times not increasing: %v %v %v", v1.RecordedAt, v2.RecordedAt, v3.RecordedAt)
+	if !(v1.InForceFrom.Before(v2.InForceFrom) && v2.InForceFrom.Before(v3.InForceFrom)) {
+		t.Fatalf("times in force not increasing: %v %v %v", v1.InForceFrom, v2.InForceFrom, v3.InForceFrom)
 	}
 	mid := func(a, b time.Time) time.Time { return a.Add(b.Sub(a) / 2) }
 	for _, c := range []struct {
@@ -41,11 +41,13 @@ func TestHeightAsOf(t *testing.T) {
 		at   time.Time
 		want int // version, 0 for none
 	}{
-		{"before t1", v1.RecordedAt.Add(-time.Microsecond), 0},
-		{"at t1", v1.RecordedAt, 1},
-		{"between t1 and t2", mid(v1.RecordedAt, v2.RecordedAt), 1},
-		{"between t2 and t3", mid(v2.RecordedAt, v3.RecordedAt), 2},
-		{"after t3", v3.RecordedAt.Add(time.Hour), 3},
+		{"before t1", v1.InForceFrom.Add(-time.Microsecond), 0},
+		{"at t1", v1.InForceFrom, 1},
+		// Written (recorded_at) but not yet committed: not in force.
+		{"at t1's write time", v1.RecordedAt, 0},
+		{"between t1 and t2", mid(v1.InForceFrom, v2.InForceFrom), 1},
+		{"between t2 and t3", mid(v2.InForceFrom, v3.InForceFrom), 2},
+		{"after t3", v3.InForceFrom.Add(time.Hour), 3},
 	} {
 		at := c.at
 		v, err := b.Reg.HeightShow(b.Ctx, register.HeightShowParams{Designation: "TC-0412", Datum: "NAVD88", AsOf: &at})

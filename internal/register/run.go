@@ -502,6 +502,7 @@ func runInsertParams(p RecordParams, book *levelbook.Book, res *reduce.Result, r
 		if err != nil {
 			return store.RunInsertParams{}, &levelbook.Error{File: p.Path, Line: m.Lines["date"], Field: "date", Msg: "not a date (want YYYY-MM-DD)"}
 		}
+		// A date after today was refused already (CheckBookDate).
 		observed = &d
 	}
 	sum := sha256.Sum256(p.Book)

@@ -129,7 +129,7 @@ func TestVoidRun(t *testing.T) {
 	if err != nil || run.Voided == nil || run.Voided.Reason != "wrong rod" || run.Voided.RecordedBy != "P. Senior" {
 		t.Fatalf("void: %+v, %v", run.Voided, err)
 	}
-	b.AssertWrote(t, before, map[string]int64{"run_event": 1})
+	b.AssertWrote(t, before, map[string]int64{"run_event": 1, "register_commit": 1})
 	before = b.Counts(t)
 	var ie *register.InputError
 	if _, err := b.Reg.VoidRun(b.Ctx, register.VoidRunParams{RunID: id, Reason: "again", By: "P. Senior"}); !errors.As(err, &ie) ||

@@ -57,7 +57,7 @@ func TestWorkedCircuitAdjustPublish(t *testing.T) {
 		t.Fatalf("%d versions published, want 5", len(pub.Versions))
 	}
 	b.AssertWrote(t, before, map[string]int64{"adjustment": 1, "adjustment_run": 1, "adjustment_held": 1,
-		"adjustment_result": 6, "adjustment_event": 1, "height": 5})
+		"adjustment_result": 6, "adjustment_event": 1, "height": 5, "register_commit": 2})
 }
 
 // The assertions fail when they should, naming the table.
@@ -79,7 +79,7 @@ func TestAssertionsFail(t *testing.T) {
 		t.Errorf("AssertCounts of 2 marks after 1: %q", r.failures)
 	}
 	r = &recorder{TB: t}
-	if !b.AssertWrote(r, before, map[string]int64{"mark": 1}) || !b.AssertCounts(r, map[string]int64{"mark": 1}) || len(r.failures) != 0 {
+	if !b.AssertWrote(r, before, map[string]int64{"mark": 1, "register_commit": 1}) || !b.AssertCounts(r, map[string]int64{"mark": 1}) || len(r.failures) != 0 {
 		t.Errorf("assertions that hold failed: %q", r.failures)
 	}
 }

@@ -26,8 +26,11 @@ var (
 	// names the role of the register that has it.
 	ErrPermission = errors.New("permission denied")
 	// ErrFutureDate: the database refused a record dated after today
-	// (migrations/00009).
+	// (the triggers of migrations 00009 and 00012).
 	ErrFutureDate = errors.New("dated in the future")
+	// ErrClock: the database server's clock is behind the register's
+	// latest time (migrations/00012); nothing was written.
+	ErrClock = errors.New("clock refused")
 )
 
 // Roles of the register (migrations/00005_roles.sql); each includes the
@@ -86,7 +89,8 @@ func translateAs(err error, role string) error {
 const (
 	codeAppendOnly = "CA001" // UPDATE, DELETE or TRUNCATE of append-only history
 	codeStale      = "CA002" // a new version does not supersede the latest
-	codeFutureDate = "CA009" // a condition report or run dated after today
+	codeFutureDate = "CA009" // a condition report or run dated after today (00009)
+	codeClock      = "CA012" // the server's clock is behind the register's latest time (00012)
 	codeDenied     = "42501" // insufficient_privilege
 )
 
@@ -124,6 +128,8 @@ func translate(err error) error {
 		return fmt.Errorf("%w: %s", ErrAlreadyExists, pe.Message)
 	case pe.Code == codeDenied:
 		return permission(pe, "")
+	case pe.Code == codeClock:
+		return fmt.Errorf("%w: %s", ErrClock, pe.Message)
 	}
 	return err
 }

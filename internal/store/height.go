@@ -26,25 +26,40 @@ type Height struct {
 	AdjustmentID *int64
 	Reason       string
 	RecordedBy   string
-	RecordedAt   time.Time
-	Hash         []byte
+	// RecordedRole is the database login role (session_user) that wrote
+	// the version; nil for versions written before schema v12.
+	RecordedRole *string
+	// RecordedAt is the time of the writing transaction's writes, as the
+	// hash covers it.
+	RecordedAt time.Time
+	// InForceFrom is when the version came in force: the commit of its
+	// transaction (register_commit), or RecordedAt for a version written
+	// before schema v12.
+	InForceFrom time.Time
+	Hash        []byte
 	// Current is true when no version supersedes this one.
 	Current bool
 }
 
 const heightColumns = `h.id, h.mark_id, m.designation, h.datum_id, d.code, h.version, h.supersedes,
 	h.value::text, h.unit, h.decimals, h.class, h.source_kind, h.source, h.adjustment_id,
-	h.reason, h.recorded_by, h.recorded_at, h.hash,
+	h.reason, h.recorded_by, h.recorded_role, h.recorded_at, ` + heightInForce + `, h.hash,
 	NOT EXISTS (SELECT 1 FROM height s WHERE s.supersedes = h.id)`
 
-const heightFrom = " FROM height h JOIN mark m ON m.id = h.mark_id JOIN datum d ON d.id = h.datum_id"
+// heightInForce is when version h came in force: its transaction's commit,
+// or, for a version written before schema v12 (no created_xid), its
+// recorded_at.
+const heightInForce = "coalesce(rc.committed_at, h.recorded_at)"
+
+const heightFrom = " FROM height h JOIN mark m ON m.id = h.mark_id JOIN datum d ON d.id = h.datum_id" +
+	" LEFT JOIN register_commit rc ON rc.xid = h.created_xid"
 
 func scanHeight(row pgx.Row) (Height, error) {
 	var h Height
 	var dec *int16
 	err := row.Scan(&h.ID, &h.MarkID, &h.Designation, &h.DatumID, &h.DatumCode, &h.Version, &h.Supersedes,
 		&h.Value, &h.Unit, &dec, &h.Class, &h.SourceKind, &h.Source, &h.AdjustmentID,
-		&h.Reason, &h.RecordedBy, &h.RecordedAt, &h.Hash, &h.Current)
+		&h.Reason, &h.RecordedBy, &h.RecordedRole, &h.RecordedAt, &h.InForceFrom, &h.Hash, &h.Current)
 	if dec != nil {
 		d := int(*dec)
 		h.Decimals = &d
@@ -117,12 +132,35 @@ type HeightAsOfParams struct {
 	AsOf *time.Time
 }
 
-// HeightAsOf returns, for each datum, the version of the mark with the
-// greatest recorded_at not after AsOf (a withdrawal included), by datum code.
+// HeightAsOf returns, for each datum, the version of the mark in force at
+// AsOf (a withdrawal included), by datum code: the latest version whose
+// writing transaction had committed by AsOf (InForceFrom not after it).
+// Versions come in force in version order, so this is the one answer.
 func HeightAsOf(ctx context.Context, db DBTX, p HeightAsOfParams) ([]Height, error) {
 	return heightQuery(ctx, db, "SELECT * FROM (SELECT DISTINCT ON (h.datum_id) "+heightColumns+heightFrom+
-		` WHERE h.mark_id = $1 AND ($2::bigint = 0 OR h.datum_id = $2) AND ($3::timestamptz IS NULL OR h.recorded_at <= $3)
-		ORDER BY h.datum_id, h.recorded_at DESC) v ORDER BY v.code`, p.MarkID, p.DatumID, p.AsOf)
+		` WHERE h.mark_id = $1 AND ($2::bigint = 0 OR h.datum_id = $2) AND ($3::timestamptz IS NULL OR `+heightInForce+` <= $3)
+		ORDER BY h.datum_id, h.version DESC) v ORDER BY v.code`, p.MarkID, p.DatumID, p.AsOf)
+}
+
+// HeightAsOfAllParams ask for the version of every mark in force at an
+// instant.
+type HeightAsOfAllParams struct {
+	// DatumID 0 means every datum.
+	DatumID int64
+	// AsOf nil means now (the current versions).
+	AsOf *time.Time
+}
+
+// HeightAsOfAll returns the version of every mark in force at AsOf on the
+// datum (a withdrawal included), as HeightAsOf, by designation and datum
+// code.
+func HeightAsOfAll(ctx context.Context, db DBTX, p HeightAsOfAllParams) ([]Height, error) {
+	if p.AsOf == nil {
+		return HeightCurrentAll(ctx, db, p.DatumID)
+	}
+	return heightQuery(ctx, db, "SELECT * FROM (SELECT DISTINCT ON (h.mark_id, h.datum_id) "+heightColumns+heightFrom+
+		` WHERE ($1::bigint = 0 OR h.datum_id = $1) AND `+heightInForce+` <= $2
+		ORDER BY h.mark_id, h.datum_id, h.version DESC) v ORDER BY v.designation, v.code`, p.DatumID, p.AsOf)
 }
 
 // HeightCurrentAll returns the current version of every mark on datumID

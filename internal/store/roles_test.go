@@ -66,19 +66,19 @@ func TestRolesConcurrentMigrations(t *testing.T) {
 	}
 	for i, p := range pools {
 		var granted bool
-		if err := p.QueryRow(ctx, "SELECT has_table_privilege('cairn_publisher', 'height', 'INSERT') AND has_table_privilege('cairn_reader', 'height', 'SELECT') AND NOT has_table_privilege('cairn_recorder', 'height', 'INSERT')"+
-			" AND has_table_privilege('cairn_recorder', 'run_held', 'INSERT') AND has_table_privilege('cairn_reader', 'run_held', 'SELECT')"+
-			" AND NOT has_table_privilege('cairn_reader', 'run_held', 'INSERT') AND NOT has_table_privilege('cairn_publisher', 'run_held', 'UPDATE')").Scan(&granted); err != nil {
+		if err := p.QueryRow(ctx, "SELECT has_any_column_privilege('cairn_publisher', 'height', 'INSERT') AND has_table_privilege('cairn_reader', 'height', 'SELECT') AND NOT has_any_column_privilege('cairn_recorder', 'height', 'INSERT')"+
+			" AND has_any_column_privilege('cairn_recorder', 'run_held', 'INSERT') AND has_table_privilege('cairn_reader', 'run_held', 'SELECT')"+
+			" AND NOT has_any_column_privilege('cairn_reader', 'run_held', 'INSERT') AND NOT has_table_privilege('cairn_publisher', 'run_held', 'UPDATE')").Scan(&granted); err != nil {
 			t.Fatal(err)
 		}
 		if !granted {
 			t.Errorf("register_%d: privileges not as granted", i)
 		}
 		// Voiding a run is the publisher's (migrations/00006).
-		if err := p.QueryRow(ctx, `SELECT has_table_privilege('cairn_publisher', 'run_event', 'INSERT')
+		if err := p.QueryRow(ctx, `SELECT has_any_column_privilege('cairn_publisher', 'run_event', 'INSERT')
 			AND has_sequence_privilege('cairn_publisher', 'run_event_id_seq', 'USAGE')
 			AND has_table_privilege('cairn_reader', 'run_event', 'SELECT')
-			AND NOT has_table_privilege('cairn_recorder', 'run_event', 'INSERT')
+			AND NOT has_any_column_privilege('cairn_recorder', 'run_event', 'INSERT')
 			AND NOT has_table_privilege('cairn_publisher', 'run_event', 'UPDATE')
 			AND NOT has_table_privilege('cairn_publisher', 'run_event', 'DELETE')`).Scan(&granted); err != nil {
 			t.Fatal(err)
