@@ -253,7 +253,7 @@ DECLARE
                                         'adjustment', 'adjustment_run', 'adjustment_held', 'adjustment_result',
                                         'adjustment_section', 'run_held'];
     published  constant text[] := ARRAY['height', 'adjustment_event', 'datum', 'run_event'];
-    stamped    constant text[] := ARRAY['created_xid', 'recorded_role', 'recorded_at', 'created_at'];
+    stamped    constant text[] := ARRAY['created_xid', 'created_server_start', 'recorded_role', 'recorded_at', 'created_at'];
     may_create boolean;
     missing    text[] := '{}';
     owner      text;
@@ -263,6 +263,8 @@ DECLARE
     r          text;
     t          text;
 BEGIN
+    -- No TEMP, no CREATE on the database or in schema public (00011).
+    PERFORM cairn_database_apply();
     SELECT rolsuper OR rolcreaterole INTO may_create FROM pg_roles WHERE rolname = current_user;
     FOREACH r IN ARRAY roles LOOP
         IF NOT EXISTS (SELECT 1 FROM pg_roles WHERE rolname = r) THEN
@@ -337,6 +339,7 @@ BEGIN
         register_commit_stamp() FROM PUBLIC;
     REVOKE ALL ON FUNCTION cairn_write_time(), cairn_commit_first() FROM PUBLIC;
     GRANT EXECUTE ON FUNCTION cairn_write_time(), cairn_commit_first() TO cairn_recorder;
+    REVOKE ALL ON FUNCTION cairn_database_apply(), seal_stamp(), run_child_sealed(), adjustment_child_sealed() FROM PUBLIC;
     REVOKE ALL ON FUNCTION cairn_roles_apply() FROM PUBLIC;
     RETURN missing;
 END
@@ -372,7 +375,7 @@ BEGIN
     -- others go.
     FOREACH t IN ARRAY ARRAY['datum', 'mark', 'mark_condition', 'height', 'sighting', 'section', 'run_mark',
                              'adjustment_run', 'adjustment_held', 'adjustment_result',
-                             'adjustment_event', 'adjustment_section', 'run_held', 'run_event'] LOOP
+                             'adjustment_section', 'run_held', 'run_event'] LOOP
         EXECUTE format('ALTER TABLE %I DROP COLUMN IF EXISTS created_xid', t);
     END LOOP;
 END
@@ -382,8 +385,9 @@ DROP TABLE register_commit;
 DROP FUNCTION register_commit_stamp();
 DROP FUNCTION cairn_commit_first();
 -- +goose StatementBegin
--- height_before_insert as 00001 made it.
-CREATE OR REPLACE FUNCTION height_before_insert() RETURNS trigger LANGUAGE plpgsql AS $$
+-- height_before_insert as 00001 made it, with 00011's fixed search path.
+CREATE OR REPLACE FUNCTION height_before_insert() RETURNS trigger LANGUAGE plpgsql
+SET search_path = pg_catalog, public, pg_temp AS $$
 DECLARE
     prev   height;
     latest bigint;
@@ -420,7 +424,8 @@ DROP FUNCTION cairn_write_time();
 -- INSERT (and its sequence) for cairn_publisher. It creates the roles when absent and the caller may, and
 -- grants this database's privileges to them. It returns the roles that are
 -- still missing (none when all went well). Idempotent.
-CREATE OR REPLACE FUNCTION cairn_roles_apply() RETURNS text[] LANGUAGE plpgsql AS $$
+CREATE OR REPLACE FUNCTION cairn_roles_apply() RETURNS text[] LANGUAGE plpgsql
+SET search_path = pg_catalog, public, pg_temp AS $$
 DECLARE
     roles      constant text[] := ARRAY['cairn_reader', 'cairn_recorder', 'cairn_publisher'];
     history    constant text[] := ARRAY['height', 'mark_condition', 'run', 'sighting', 'section', 'run_mark',
@@ -437,6 +442,8 @@ DECLARE
     r          text;
     t          text;
 BEGIN
+    -- No TEMP, no CREATE on the database or in schema public (00011).
+    PERFORM cairn_database_apply();
     SELECT rolsuper OR rolcreaterole INTO may_create FROM pg_roles WHERE rolname = current_user;
     FOREACH r IN ARRAY roles LOOP
         IF NOT EXISTS (SELECT 1 FROM pg_roles WHERE rolname = r) THEN
@@ -472,7 +479,7 @@ BEGIN
         END;
     END IF;
 
-    SELECT tableowner INTO owner FROM pg_tables WHERE schemaname = current_schema() AND tablename = 'height';
+    SELECT tableowner INTO owner FROM pg_tables WHERE schemaname = 'public' AND tablename = 'height';
     FOREACH t IN ARRAY everything LOOP
         EXECUTE format('REVOKE ALL ON TABLE %I FROM PUBLIC, cairn_reader, cairn_recorder, cairn_publisher', t);
         EXECUTE format('GRANT SELECT ON TABLE %I TO cairn_reader', t);
@@ -504,6 +511,7 @@ BEGIN
     GRANT EXECUTE ON FUNCTION height_canonical(bytea, text, text, height) TO cairn_reader;
     REVOKE ALL ON FUNCTION height_before_insert(), height_from_adjustment(), refuse_change(), refuse_key_change() FROM PUBLIC;
     REVOKE ALL ON FUNCTION cairn_roles_apply() FROM PUBLIC;
+    REVOKE ALL ON FUNCTION cairn_database_apply(), seal_stamp(), run_child_sealed(), adjustment_child_sealed() FROM PUBLIC;
     RETURN missing;
 END
 $$;

@@ -53,6 +53,7 @@ func exitCode(err error) int {
 		cfe *register.ChecksFailedError
 		pce *register.PublishChecksError
 		nde *register.NotDraftError
+		dme *register.DraftMismatchError
 		cf  checksFailed
 		ce  *register.ConflictError
 	)
@@ -61,13 +62,14 @@ func exitCode(err error) int {
 		return ExitOK
 	case errors.As(err, &fe), errors.As(err, &ie), errors.As(err, &le),
 		errors.As(err, &ume), errors.As(err, &are), errors.As(err, &soe), errors.As(err, &cfe),
-		errors.As(err, &rve), errors.As(err, &pce), errors.As(err, &nde):
+		errors.As(err, &rve), errors.As(err, &pce), errors.As(err, &nde), errors.As(err, &dme):
 		// A refused book (unknown marks, already recorded, the same
 		// observations as a run, failed checks without
 		// --accept-failed-checks) and a voided run named are bad input:
 		// nothing was written. So is a refused publication (failed checks
 		// not accepted), and publishing or discarding an adjustment no
-		// longer a draft: a request that can never succeed.
+		// longer a draft, or a draft that does not follow from its stored
+		// inputs: a request that can never succeed.
 		return ExitBadInput
 	case errors.As(err, &cf):
 		return ExitChecks

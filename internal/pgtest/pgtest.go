@@ -166,6 +166,11 @@ func New(t testing.TB) *DB {
 			t.Logf("pgtest: %v", err)
 		}
 	})
+	// A database's own privileges (TEMPORARY, CREATE) are not copied
+	// from its template: revoke them as the migration did.
+	if err := store.DatabaseApply(ctx, pool); err != nil {
+		t.Fatalf("pgtest: %v", err)
+	}
 	return &DB{Pool: pool, URL: url}
 }
 

@@ -108,7 +108,8 @@ func (pv *PublishPreview) Refusal() error {
 // PublishPreview shows what publishing draft adjustment id would do
 // (changes over largeChangeM metres, 0 for DefaultLargeChangeM, called
 // out), for its confirmation. An adjustment no longer a draft is refused
-// with a NotDraftError.
+// with a NotDraftError, one that does not follow from its stored inputs
+// (reproduce) with a DraftMismatchError.
 func (r *Register) PublishPreview(ctx context.Context, id int64, largeChangeM float64) (*PublishPreview, error) {
 	largeChangeM, err := checkLargeChange(largeChangeM)
 	if err != nil {
@@ -121,6 +122,9 @@ func (r *Register) PublishPreview(ctx context.Context, id int64, largeChangeM fl
 			return err
 		}
 		if err := notDraft(v.Adjustment, store.StatusPublished); err != nil {
+			return err
+		}
+		if err := reproduce(ctx, tx, v); err != nil {
 			return err
 		}
 		latest, err := store.HeightLatestMany(ctx, tx, store.HeightLatestManyParams{MarkIDs: resultMarks(v), DatumID: v.Adjustment.DatumID})
@@ -156,8 +160,9 @@ func resultMarks(v *AdjustmentView) []int64 {
 // gates of publication (failedChecks: the draft's own checks, and the held
 // marks' conditions as reported now); if any failed and they are not
 // accepted, it returns a PublishChecksError listing them, having written
-// nothing. An adjustment published or discarded before the request is a
-// NotDraftError.
+// nothing. A draft whose stored results are not those its stored inputs
+// give (reproduce) is a DraftMismatchError. An adjustment published or
+// discarded before the request is a NotDraftError.
 func (r *Register) Publish(ctx context.Context, p PublishParams) (*Published, error) {
 	if err := p.check(); err != nil {
 		return nil, err
@@ -203,6 +208,11 @@ func (r *Register) Publish(ctx context.Context, p PublishParams) (*Published, er
 			case res.Replaces != nil && cur.ID != *res.Replaces:
 				return changed(a, res.Designation, "to be replaced", &store.Height{ID: *res.Replaces, Version: *res.ReplacesVersion}, cur)
 			}
+		}
+		// The draft must follow from its stored inputs (a draft whose
+		// rows were written or altered outside cairn does not).
+		if err := reproduce(ctx, tx, v); err != nil {
+			return err
 		}
 		failed, err := failedChecks(ctx, tx, v)
 		if err != nil {
@@ -269,7 +279,8 @@ func (r *Register) Publish(ctx context.Context, p PublishParams) (*Published, er
 func publishErr(what string, id int64, err error) error {
 	var nd *NotDraftError
 	var pc *PublishChecksError
-	if errors.As(err, &nd) || errors.As(err, &pc) {
+	var dm *DraftMismatchError
+	if errors.As(err, &nd) || errors.As(err, &pc) || errors.As(err, &dm) {
 		return err
 	}
 	return fmt.Errorf("%s adjustment %d: %w", what, id, err)

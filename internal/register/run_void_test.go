@@ -7,16 +7,24 @@ import (
 	"strings"
 	"testing"
 
+	"github.com/jackc/pgx/v5/pgxpool"
+
 	"cairn/internal/levelbook"
 	"cairn/internal/register"
 	"cairn/internal/store"
 )
 
 // storeAsBeforeFingerprints stores book as a run was stored before schema
-// v6: its row without an observations fingerprint, and its sightings.
-func storeAsBeforeFingerprints(t *testing.T, db store.Copier, name string, data []byte) int64 {
+// v6: its row without an observations fingerprint, and its sightings, in
+// one transaction (a run is sealed once its transaction ends).
+func storeAsBeforeFingerprints(t *testing.T, pool *pgxpool.Pool, name string, data []byte) int64 {
 	t.Helper()
 	ctx := t.Context()
+	db, err := pool.Begin(ctx)
+	if err != nil {
+		t.Fatal(err)
+	}
+	defer func() { _ = db.Rollback(ctx) }()
 	book, err := levelbook.Parse(name, data)
 	if err != nil {
 		t.Fatal(err)
@@ -46,6 +54,9 @@ func storeAsBeforeFingerprints(t *testing.T, db store.Copier, name string, data 
 		gs[i] = g
 	}
 	if _, err := store.SightingCopy(ctx, db, store.SightingCopyParams{RunID: id, Sightings: gs}); err != nil {
+		t.Fatal(err)
+	}
+	if err := db.Commit(ctx); err != nil {
 		t.Fatal(err)
 	}
 	return id

@@ -22,6 +22,10 @@ var (
 	ErrConflict = errors.New("changed by another writer")
 	// ErrAppendOnly: the database refused to change or remove history.
 	ErrAppendOnly = errors.New("history is append-only")
+	// ErrSealed: the database refused to add a row to a run, an
+	// adjustment or a publication made in another transaction
+	// (migrations/00011): each is written once, whole.
+	ErrSealed = errors.New("the record is sealed")
 	// ErrPermission: the role connected lacks a privilege; the message
 	// names the role of the register that has it.
 	ErrPermission = errors.New("permission denied")
@@ -91,6 +95,7 @@ const (
 	codeStale      = "CA002" // a new version does not supersede the latest
 	codeFutureDate = "CA009" // a condition report or run dated after today (00009)
 	codeClock      = "CA012" // the server's clock is behind the register's latest time (00012)
+	codeSealed     = "CA004" // a row added to a parent made in another transaction (00011)
 	codeDenied     = "42501" // insufficient_privilege
 )
 
@@ -121,6 +126,8 @@ func translate(err error) error {
 		return fmt.Errorf("%w: %s", ErrAppendOnly, pe.Message)
 	case pe.Code == codeFutureDate:
 		return fmt.Errorf("%w: %s", ErrFutureDate, pe.Message)
+	case pe.Code == codeSealed:
+		return fmt.Errorf("%w: %s", ErrSealed, pe.Message)
 	case pe.Code == codeStale, pe.Code == "40001", pe.Code == "40P01",
 		pe.Code == "23505" && constraintsOfChains[pe.ConstraintName]:
 		return fmt.Errorf("%w: %s", ErrConflict, pe.Message)

@@ -33,8 +33,22 @@ func TestMigrateDownAndUp(t *testing.T) {
 	if c, err := store.TableCount(ctx, db.Pool); err != nil || len(c) != 0 {
 		t.Fatalf("tables left after migrating down: %v (%v)", c, err)
 	}
+	tempOK := func() bool {
+		t.Helper()
+		var ok bool
+		if err := db.Pool.QueryRow(ctx, "SELECT has_database_privilege('public', current_database(), 'TEMPORARY')").Scan(&ok); err != nil {
+			t.Fatal(err)
+		}
+		return ok
+	}
+	if !tempOK() {
+		t.Error("after migrating down, PUBLIC may not make TEMP tables (as PostgreSQL makes every database)")
+	}
 	if err := store.Migrate(ctx, db.Pool); err != nil {
 		t.Fatalf("up again: %v", err)
+	}
+	if tempOK() {
+		t.Error("after migrating up, PUBLIC may make TEMP tables (migrations/00011 revokes it)")
 	}
 	cur, latest, err := store.SchemaVersion(ctx, db.Pool)
 	if err != nil {

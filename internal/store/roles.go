@@ -16,6 +16,19 @@ func RolesApply(ctx context.Context, db DBTX) (missing []string, err error) {
 	return missing, nil
 }
 
+// DatabaseApply revokes, on the connected database, what none of the
+// register's roles needs (the function cairn_database_apply of
+// migrations/00011): TEMPORARY and CREATE on the database, from PUBLIC and
+// the roles, and CREATE on schema public. RolesApply does it too; a
+// database's own privileges are lost when it is copied from a template,
+// which is why the test harness calls it for each database it makes.
+func DatabaseApply(ctx context.Context, db DBTX) error {
+	if _, err := db.Exec(ctx, "SELECT cairn_database_apply()"); err != nil {
+		return fmt.Errorf("revoke TEMPORARY and CREATE: %w", translate(err))
+	}
+	return nil
+}
+
 // Role is one role of the register as the server has it.
 type Role struct {
 	Name    string
