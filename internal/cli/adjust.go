@@ -266,6 +266,10 @@ func adjustFilesRun(opts *adjustOptions) error {
 	timings = append(timings, [2]any{"reduce", tm.Reduce}, [2]any{"order", tm.Order}, [2]any{"factor", tm.Factor},
 		[2]any{"solve", tm.Solve}, [2]any{"inverse", tm.Inverse}, [2]any{"back substitution", tm.Back})
 
+	if err := adjust.CheckPoints(sol.Points); err != nil {
+		return badInput("%s: %v; nothing was written (check the sections and the held heights)", opts.SectionsPath, err)
+	}
+
 	prog.set("writing")
 	t0 = time.Now()
 	if opts.OutPath != "" {

@@ -101,7 +101,7 @@ func (o *adjustRegisterOptions) flags(cmd *cobra.Command) {
 	fl.StringSliceVar(&o.weighted, "hold-weighted", nil, "least squares: MARK=SD_MM holds a mark weighted, its current height an observation with that standard deviation in millimetres")
 	fl.StringSliceVar(&o.params.Marks, "marks", nil, "also adjust every run with a section from or to these marks")
 	fl.StringVar(&o.area, "area", "", "LAT,LON: also adjust every run with a section from or to a mark within --within of this point")
-	fl.StringVar(&o.within, "within", "", "radius of --area, in km or m (e.g. 5km)")
+	fl.StringVar(&o.within, "within", "", "radius of --area, in m, km, ft, usft or mi (e.g. 5km, 3mi)")
 	fl.StringVar(&o.weight, "weight", "length", "least squares: weigh sections by length or by setups")
 	fl.StringVar(&o.params.Datum, "datum", "", "datum code (default: the one the runs' books name, else the one on which every held mark has a height)")
 	fl.StringVar(&o.method, "method", string(adjust.MethodProportional), "method of adjustment: proportional or least-squares")

@@ -25,7 +25,7 @@ func TestHeightSetFlags(t *testing.T) {
 		t.Fatalf("options %+v", p)
 	}
 	cmd = newCmdHeightSet(f, func(o *heightSetOptions) error { got = o; return nil })
-	cmd.SetArgs([]string{"TC-0412", "769.83"})
+	cmd.SetArgs([]string{"TC-0412", "769.83", "--unit", "m"})
 	if err := cmd.ExecuteContext(context.Background()); err != nil {
 		t.Fatal(err)
 	}

@@ -5,6 +5,7 @@ import (
 	"encoding/hex"
 	"slices"
 	"strconv"
+	"strings"
 	"time"
 
 	"github.com/spf13/cobra"
@@ -60,11 +61,14 @@ register for good (see 'cairn history').
 			if cmd.Flags().Changed("decimals") {
 				opts.params.Decimals = &opts.decimals
 			}
+			if strings.TrimSpace(opts.params.Unit) == "" {
+				return badInput("--unit is required: say which unit the value is published in: m, ft (international foot, 0.3048 m) or usft (US survey foot, 1200/3937 m)")
+			}
 			return dispatch(opts, runF, heightSetRun)
 		},
 	}
 	fl := cmd.Flags()
-	fl.StringVar(&opts.params.Unit, "unit", "", "unit of the value: m, ft (international foot) or usft (US survey foot)")
+	fl.StringVar(&opts.params.Unit, "unit", "", "unit of the value (required): m, ft (international foot, 0.3048 m) or usft (US survey foot, 1200/3937 m); feet is refused as ambiguous")
 	fl.StringVar(&opts.params.Datum, "datum", "", "datum code (see cairn datum list)")
 	fl.IntVar(&opts.decimals, "decimals", 0, "number of decimals published (default: as written)")
 	fl.StringVar(&opts.params.Class, "class", "", "accuracy class: "+classNames()+" (in any case)")

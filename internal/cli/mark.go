@@ -11,6 +11,7 @@ import (
 
 	"cairn/internal/register"
 	"cairn/internal/store"
+	"cairn/internal/units"
 )
 
 // markAddOptions are the inputs of `cairn mark add`.
@@ -226,7 +227,7 @@ reported disturbed, destroyed or not found are flagged with a warning.`,
 	}
 	addOutputFlag(cmd, &opts.format)
 	cmd.Flags().StringVar(&opts.near, "near", "", "LAT,LON in decimal degrees: list marks near this point")
-	cmd.Flags().StringVar(&opts.within, "within", "2km", "search radius with --near, in km or m (e.g. 2km, 500m)")
+	cmd.Flags().StringVar(&opts.within, "within", "2km", "search radius with --near, in m, km, ft, usft or mi (e.g. 2km, 500m, 2mi)")
 	cmd.Flags().StringSliceVar(&opts.conditions, "condition", nil, "keep marks whose latest condition is one of these, in any case: "+strings.Join(register.ShownConditions, ", ")+" (no report yet)")
 	return cmd
 }
@@ -294,23 +295,14 @@ func parseLatLon(s string) (store.LatLon, error) {
 	return store.LatLon{Lat: lat, Lon: lon}, nil
 }
 
-// parseDistance reads a distance such as 2km, 500m or 1.5 km, in metres.
+// parseDistance reads the --within distance with its unit (m, km, ft,
+// usft or mi, with or without a space: units.ParseLength), in metres.
 func parseDistance(s string) (float64, error) {
-	t := strings.ToLower(strings.ReplaceAll(s, " ", ""))
-	scale := 1.0
-	switch {
-	case strings.HasSuffix(t, "km"):
-		t, scale = strings.TrimSuffix(t, "km"), 1000
-	case strings.HasSuffix(t, "m"):
-		t = strings.TrimSuffix(t, "m")
-	default:
-		return 0, badInput("within: %q needs a unit, km or m (e.g. 2km)", s)
+	m, err := units.ParseLength(s)
+	if err != nil {
+		return 0, badInput("within: %v", err)
 	}
-	v, err := strconv.ParseFloat(t, 64)
-	if err != nil || !(v > 0) {
-		return 0, badInput("within: %q is not a distance more than zero (e.g. 2km)", s)
-	}
-	return v * scale, nil
+	return m, nil
 }
 
 // markConditionOptions are the inputs of `cairn mark condition`.

@@ -182,6 +182,9 @@ func parseHeldHeights(byFlag map[string][]string) (hold map[string]float64, curr
 				current = append(current, mark)
 				continue
 			}
+			if err := units.CheckDigits(value); err != nil {
+				return nil, nil, badInput("--%s %q: %v", name, units.Brief(h), err)
+			}
 			v, err := strconv.ParseFloat(value, 64)
 			if err != nil || v != v || v > 1e6 || v < -1e6 {
 				return nil, nil, badInput("--%s %q: height %q is not a number", name, h, value)
@@ -201,9 +204,9 @@ func parseHeldHeights(byFlag map[string][]string) (hold map[string]float64, curr
 func reduceBook(book *levelbook.Book, hold map[string]float64, held []register.HeldHeight, class standards.Class, cr bool) (*reduce.Result, error) {
 	var holdM map[string]float64
 	if len(hold)+len(held) > 0 {
-		holdM = make(map[string]float64, len(hold)+len(held))
-		for k, v := range hold {
-			holdM[k] = book.Meta.Unit.ToMetres(v)
+		var err error
+		if holdM, err = register.TypedHoldM(book.Meta.Unit, hold, len(held)); err != nil {
+			return nil, err
 		}
 		for _, h := range held {
 			holdM[h.Designation] = h.ValueM

@@ -267,12 +267,11 @@ func (p *parser) setMeta(line int, key, value string) error {
 	case "datum":
 		m.Datum = value
 	case "units":
-		switch u := units.Unit(strings.ToLower(value)); u {
-		case units.Metre, units.Foot, units.USSurveyFoot:
-			m.Unit = u
-		default:
-			return bad("unknown unit %q (want m, ft or usft)", value)
+		u, err := units.Parse(value)
+		if err != nil {
+			return bad("%v", err)
 		}
+		m.Unit = u
 	case "stadia-factor":
 		v, err := parseNumber(value)
 		if err != nil {

@@ -6,7 +6,10 @@
 //	heights:  point,height_m,sd_m
 //
 // dh_m is height(to) − height(from) in metres; columns are found by their
-// header names, in any order; other columns are ignored.
+// header names, in any order; other columns are ignored. Every number is
+// bounded (units.CheckHeightM, CheckDifferenceM, CheckLengthM): a height
+// within -500 m to 9,000 m, a difference within ±9,500 m, a length or
+// standard deviation positive and at most 1,000 km.
 package netfile
 
 import (
@@ -20,6 +23,7 @@ import (
 	"strings"
 
 	"cairn/internal/adjust"
+	"cairn/internal/units"
 )
 
 // Error is bad input at one place in a file.
@@ -141,12 +145,29 @@ func (t *table) number(i int, c string) (float64, error) {
 	if err != nil {
 		return 0, err
 	}
+	if err := units.CheckDigits(s); err != nil {
+		return 0, t.errorf(c, "%v", err)
+	}
 	v, err := strconv.ParseFloat(s, 64)
-	if err != nil {
+	if err != nil && !errors.Is(err, strconv.ErrRange) {
 		return 0, t.errorf(c, "%q is not a number", s)
 	}
 	if math.IsNaN(v) || math.IsInf(v, 0) {
 		return 0, t.errorf(c, "%q is not a finite number", s)
+	}
+	return v, nil
+}
+
+// bounded reads column i (named c) as a number and checks it with check
+// (units.CheckHeightM, CheckDifferenceM or CheckLengthM) after scale
+// converts it to metres.
+func (t *table) bounded(i int, c string, scale float64, check func(float64) error) (float64, error) {
+	v, err := t.number(i, c)
+	if err != nil {
+		return 0, err
+	}
+	if err := check(v * scale); err != nil {
+		return 0, t.errorf(c, "%v", err)
 	}
 	return v, nil
 }
@@ -239,7 +260,7 @@ func (t *table) section(c sectionCols) (s adjust.Section, ok bool, err error) {
 	if s.From == s.To {
 		return s, false, t.errorf("to", "the section begins and ends at %s", s.From)
 	}
-	if s.DhM, err = t.number(c.dh, "dh_m"); err != nil {
+	if s.DhM, err = t.bounded(c.dh, "dh_m", 1, units.CheckDifferenceM); err != nil {
 		return s, false, err
 	}
 	if s.LengthKm, err = t.number(c.km, "length_km"); err != nil {
@@ -247,6 +268,9 @@ func (t *table) section(c sectionCols) (s adjust.Section, ok bool, err error) {
 	}
 	if !(s.LengthKm > 0) {
 		return s, false, t.errorf("length_km", "length %s km must be positive", strings.TrimSpace(t.rec[c.km]))
+	}
+	if err := units.CheckLengthM(s.LengthKm * 1000); err != nil {
+		return s, false, t.errorf("length_km", "%v", err)
 	}
 	if f, err := t.fieldAt(c.setups, "setups"); err != nil {
 		return s, false, err
@@ -295,7 +319,7 @@ func ReadHeld(r io.Reader, name string) ([]HeldRow, error) {
 			return nil, t.errorf("point", "%s is held twice (first on line %d)", h.Point, first)
 		}
 		seen[h.Point] = h.Line
-		if h.HeightM, err = t.number(t.col["height_m"], "height_m"); err != nil {
+		if h.HeightM, err = t.bounded(t.col["height_m"], "height_m", 1, units.CheckHeightM); err != nil {
 			return nil, err
 		}
 		if f, err := t.field("sd_m"); err != nil {
@@ -306,6 +330,11 @@ func ReadHeld(r io.Reader, name string) ([]HeldRow, error) {
 			}
 			if h.SigmaM < 0 {
 				return nil, t.errorf("sd_m", "standard deviation %s must not be negative", f)
+			}
+			if h.SigmaM > 0 {
+				if err := units.CheckLengthM(h.SigmaM); err != nil {
+					return nil, t.errorf("sd_m", "%v", err)
+				}
 			}
 		}
 		rows = append(rows, h)

@@ -51,6 +51,11 @@ func TestBadSections(t *testing.T) {
 		{"empty name", head + ",B,1,1\n", "s.csv:2: from: empty point name"},
 		{"short line", head + "A,B,1\n", "s.csv:2: length_km: missing"},
 		{"bad quote", head + "A,\"B,1,1\n", "s.csv:2"},
+		{"dh 1e308", head + "A,B,1e308,1\n", "s.csv:2: dh_m: a height difference of 1e+308 m is implausible: it must lie within ±9500 m"},
+		{"dh 1e400", head + "A,B,1e400,1\n", `s.csv:2: dh_m: "1e400" is not a finite number`},
+		{"dh 9500.5", head + "A,B,9500.5,1\n", "s.csv:2: dh_m: a height difference of 9500.5 m is implausible"},
+		{"1001 km", head + "A,B,1,1001\n", "s.csv:2: length_km: a length must be more than 0 and at most 1000000 m (1000 km), not 1001000 m"},
+		{"400 digits", head + "A,B," + strings.Repeat("1", 400) + ",1\n", `s.csv:2: dh_m: "11111111111111111111"… has 400 digits, too many`},
 		{"bad setups", "from,to,dh_m,length_km,setups\nA,B,1,1,0\n", `s.csv:2: setups: "0" is not a positive whole number`},
 	} {
 		t.Run(c.name, func(t *testing.T) {
@@ -74,6 +79,9 @@ func TestReadHeld(t *testing.T) {
 	for _, c := range []struct{ in, want string }{
 		{"point,height_m\nA,1\nA,2\n", "h.csv:3: point: A is held twice (first on line 2)"},
 		{"point,height_m\nA,inf\n", `h.csv:2: height_m: "inf" is not a finite number`},
+		{"point,height_m\nA,9500\n", "h.csv:2: height_m: a height of 9500 m is implausible: cairn accepts -500 m to 9000 m"},
+		{"point,height_m\nA,-500.5\n", "h.csv:2: height_m: a height of -500.5 m is implausible: cairn accepts -500 m to 9000 m"},
+		{"point,height_m,sd_m\nA,1,1e308\n", "h.csv:2: sd_m: a length must be more than 0 and at most 1000000 m (1000 km), not 1e+308 m"},
 		{"point,height_m,sd_m\nA,1,-1\n", "h.csv:2: sd_m: standard deviation -1 must not be negative"},
 		{"point,height_m\n", "h.csv: no held marks"},
 	} {

@@ -192,6 +192,9 @@ func (r *Register) Adjust(ctx context.Context, p AdjustParams) (*AdjustmentView,
 		if err := r.draftView(ctx, tx, p, g, d, v); err != nil {
 			return err
 		}
+		if err := checkResults(v.Results, v.Sections); err != nil {
+			return err
+		}
 		if p.DryRun {
 			return nil
 		}

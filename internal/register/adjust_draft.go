@@ -5,12 +5,14 @@ import (
 	"encoding/json"
 	"errors"
 	"fmt"
+	"math"
 	"strings"
 
 	"github.com/jackc/pgx/v5"
 
 	"cairn/internal/adjust"
 	"cairn/internal/store"
+	"cairn/internal/units"
 )
 
 // draftView fills v with the draft d computed from g: the adjustment, its
@@ -253,6 +255,61 @@ func heldDoubts(ctx context.Context, db store.DBTX, v *AdjustmentView) error {
 	for _, h := range v.Held {
 		if d := ds[h.MarkID].Of(h.DatumCode, h.Version); len(d) > 0 {
 			v.HeldDoubts[h.Designation] = d
+		}
+	}
+	return nil
+}
+
+// checkResults is the last gate before an adjustment's numbers are kept
+// or published: every number finite, every adjusted height and every
+// value to publish within the plausible range (units.CheckHeightM). A
+// result that fails it is refused as an input error on field "result",
+// naming the mark or section, and nothing is written. Inputs are bounded
+// where they are read, so this refuses only what a computation made of
+// them.
+func checkResults(results []store.AdjustmentResult, sections []store.AdjustmentSection) error {
+	refuse := func(what string, err error) error {
+		return inputErr("result", "%s: %v; nothing was stored (check the runs' sections and the held heights)", what, err)
+	}
+	finite := func(what string, v *float64) error {
+		if v != nil && (math.IsNaN(*v) || math.IsInf(*v, 0)) {
+			return refuse(what, fmt.Errorf("not a finite number (%v)", *v))
+		}
+		return nil
+	}
+	for _, res := range results {
+		name := res.Designation
+		if err := units.CheckHeightM(res.AdjustedM); err != nil {
+			return refuse("the adjusted height of "+name, err)
+		}
+		for _, f := range []struct {
+			what string
+			v    *float64
+		}{{"computed height", res.ComputedM}, {"correction", res.CorrectionM}, {"standard deviation", res.SigmaM}} {
+			if err := finite("the "+f.what+" of "+name, f.v); err != nil {
+				return err
+			}
+		}
+		if res.Value != nil {
+			unit := ""
+			if res.Unit != nil {
+				unit = *res.Unit
+			}
+			u, err := units.Parse(unit)
+			if err != nil {
+				return refuse("the unit of "+name, err)
+			}
+			if err := checkValueRange(*res.Value, u); err != nil {
+				return refuse(fmt.Sprintf("the height of %s to publish (%s %s)", name, *res.Value, u), err)
+			}
+		}
+	}
+	for _, s := range sections {
+		what := fmt.Sprintf("run %d, section %d (%s to %s)", s.RunID, s.Seq, s.From, s.To)
+		for _, v := range []*float64{&s.ResidualM, &s.ResidualSDM, s.W} {
+			if err := finite("the residual of "+what, v); err != nil {
+				return err
+			}
 		}
 	}
 	return nil

@@ -13,3 +13,7 @@ func SetBeforeSections(p *RecordParams, f func([]store.Section)) { p.beforeSecti
 // SetClock makes r compare the server's clock with now instead of this
 // computer's clock, before its first write.
 func SetClock(r *Register, now func() time.Time) { r.now = now }
+
+// CheckResults is checkResults, the last gate before an adjustment's
+// numbers are stored or published.
+var CheckResults = checkResults

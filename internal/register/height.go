@@ -121,12 +121,18 @@ func checkHeight(p *HeightSetParams) (store.HeightInsertParams, error) {
 	switch p.Kind {
 	case KindAuthority, KindDatumChange, KindCorrection, KindAdjustment:
 		value := strings.TrimPrefix(strings.TrimSpace(p.Value), "+")
+		if err := units.CheckDigits(value); err != nil {
+			return ins, inputErr("value", "%v", err)
+		}
 		if !decimalPattern.MatchString(value) {
 			return ins, inputErr("value", "%q is not a height: write a decimal number such as 769.83", p.Value)
 		}
 		u, err := units.Parse(p.Unit)
 		if err != nil {
 			return ins, inputErr("unit", "%v", err)
+		}
+		if err := checkValueRange(value, u); err != nil {
+			return ins, inputErr("value", "%s %s: %v", value, u, err)
 		}
 		written := 0
 		if i := strings.IndexByte(value, '.'); i >= 0 {
@@ -170,6 +176,17 @@ func checkHeight(p *HeightSetParams) (store.HeightInsertParams, error) {
 		return ins, inputErr("by", "say who is recording the height")
 	}
 	return ins, nil
+}
+
+// checkValueRange refuses a decimal value in unit u outside the plausible
+// range of heights (units.CheckHeightM), converted exactly.
+func checkValueRange(value string, u units.Unit) error {
+	r, err := units.ParseRat(value)
+	if err != nil {
+		return err
+	}
+	m, _ := r.Mul(r, u.Rat()).Float64()
+	return units.CheckHeightM(m)
 }
 
 // HeightShowParams ask for a mark's heights.

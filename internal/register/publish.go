@@ -240,6 +240,9 @@ func (r *Register) Publish(ctx context.Context, p PublishParams) (*Published, er
 				publish = append(publish, res)
 			}
 		}
+		if err := checkResults(publish, nil); err != nil {
+			return err
+		}
 		out.Versions, err = store.HeightInsertMany(ctx, tx, store.HeightInsertManyParams{DatumID: a.DatumID, AdjustmentID: a.ID,
 			Source: fmt.Sprintf("adjustment %d (%s, run %s)", a.ID, a.Method, joinIDs(a.RunIDs)),
 			Reason: p.Reason, RecordedBy: p.By, Results: publish})

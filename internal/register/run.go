@@ -236,9 +236,8 @@ func (r *Register) Record(ctx context.Context, p RecordParams) (*Recorded, error
 	}
 	opts := reduce.Options{Class: p.Class, CurvatureRefraction: p.CurvatureRefraction}
 	if len(p.Hold) > 0 || len(p.HoldCurrent) > 0 {
-		opts.Hold = make(map[string]float64, len(p.Hold)+len(p.HoldCurrent))
-		for k, v := range p.Hold {
-			opts.Hold[k] = book.Meta.Unit.ToMetres(v)
+		if opts.Hold, err = TypedHoldM(book.Meta.Unit, p.Hold, len(p.HoldCurrent)); err != nil {
+			return nil, err
 		}
 	}
 	var held []HeldHeight

@@ -4,6 +4,9 @@ import (
 	"context"
 	"errors"
 	"fmt"
+	"maps"
+	"slices"
+	"strconv"
 	"strings"
 
 	"github.com/jackc/pgx/v5"
@@ -193,4 +196,20 @@ func checkHeldCurrent(ctx context.Context, tx pgx.Tx, held []HeldHeight, byName 
 		}
 	}
 	return nil
+}
+
+// TypedHoldM converts heights typed for a book (--held-height MARK=HEIGHT,
+// in the book's unit u) to metres, in a map with room for extra more,
+// refusing one outside the plausible range (units.CheckHeightM) as an
+// input error on field "held-height".
+func TypedHoldM(u units.Unit, hold map[string]float64, extra int) (map[string]float64, error) {
+	out := make(map[string]float64, len(hold)+extra)
+	for _, k := range slices.Sorted(maps.Keys(hold)) {
+		v := hold[k]
+		out[k] = u.ToMetres(v)
+		if err := units.CheckHeightM(out[k]); err != nil {
+			return nil, inputErr("held-height", "%s=%s %s: %v", k, strconv.FormatFloat(v, 'f', -1, 64), u, err)
+		}
+	}
+	return out, nil
 }

@@ -12,6 +12,7 @@
 package units
 
 import (
+	"errors"
 	"fmt"
 	"math"
 	"math/big"
@@ -31,18 +32,36 @@ const (
 // All lists the units in a stable order, for help texts and errors.
 var All = []Unit{Metre, Foot, USSurveyFoot}
 
-// Parse reads a unit code. It accepts the canonical codes and a few common
-// spellings ("metre", "meter", "foot", "us-ft", "ussft"), case-insensitively.
+// Parse reads a unit code. It accepts the canonical codes and a few
+// unambiguous spellings ("metre", "meter", "us-ft", "ussft"),
+// case-insensitively. It is the one place a unit is read: "feet" and
+// "foot" are refused as ambiguous (an *AmbiguousError), since a height in
+// feet may be in either foot and the two part by 2 ppm, 3 mm in 1,500 m;
+// an empty unit is ErrNoUnit.
 func Parse(s string) (Unit, error) {
-	switch strings.ToLower(strings.TrimSpace(s)) {
+	switch t := strings.ToLower(strings.TrimSpace(s)); t {
+	case "":
+		return "", ErrNoUnit
 	case "m", "metre", "metres", "meter", "meters":
 		return Metre, nil
-	case "ft", "foot", "feet", "ift", "intl-ft":
+	case "ft", "ift", "intl-ft":
 		return Foot, nil
 	case "usft", "us-ft", "ussft", "survey-ft", "us survey foot":
 		return USSurveyFoot, nil
+	case "feet", "foot", "f", "'":
+		return "", &AmbiguousError{Given: s}
 	}
 	return "", fmt.Errorf("unknown unit %q (want m, ft or usft)", s)
+}
+
+// ErrNoUnit is an empty unit.
+var ErrNoUnit = errors.New("no unit given (want m, ft or usft)")
+
+// AmbiguousError is a unit that could be either foot.
+type AmbiguousError struct{ Given string }
+
+func (e *AmbiguousError) Error() string {
+	return fmt.Sprintf("%q is ambiguous: write ft for the international foot (0.3048 m) or usft for the US survey foot (1200/3937 m)", e.Given)
 }
 
 // String returns the canonical code.
