@@ -38,13 +38,16 @@ func Throwaway(ctx context.Context) (*Cluster, string, error) {
 	}
 	c := New(dir)
 	c.scratch = true
+	// A throwaway cluster is asked for by tests and by developers: as
+	// root, it makes the server's user when missing.
+	c.MakeServerUser = true
 	fail := func(err error) (*Cluster, string, error) {
 		_ = c.Stop(context.WithoutCancel(ctx))
 		os.RemoveAll(c.Dir)
 		os.RemoveAll(c.SocketDir())
 		return nil, "", err
 	}
-	run, err := runAs()
+	run, err := runAs(c.MakeServerUser)
 	if err != nil {
 		return fail(err)
 	}
