@@ -79,7 +79,9 @@ func (f *Factory) Cluster() (*localpg.Cluster, error) {
 	}
 	c := localpg.New(dir)
 	c.MakeServerUser = f.Getenv(localpg.MakeServerUserEnv) == "1"
-	c.Notify = f.IO.ErrOut
+	if f.IO != nil {
+		c.Notify = f.IO.ErrOut
+	}
 	return c, nil
 }
 

@@ -50,11 +50,18 @@ func runAs(mayMake bool) (*account, error) {
 	if os.Geteuid() != 0 {
 		return nil, nil
 	}
-	a, err := lookupAccount(ServerUser)
+	return serverAccount(ServerUser, mayMake)
+}
+
+// serverAccount returns the account of the server's user name, made when
+// missing if mayMake.
+func serverAccount(name string, mayMake bool) (*account, error) {
+	a, err := lookupAccount(name)
 	if err == nil || !mayMake {
-		if err != nil {
-			return nil, fmt.Errorf("cairn runs as root, and PostgreSQL refuses to run as root: cairn runs its private server as the system user %s, made for it alone, which does not exist here; make it with\n  %s\nor let cairn make it (%s=1), or run cairn as an ordinary user (see docs/database.md)",
-				ServerUser, MakeServerUserCommand, MakeServerUserEnv)
+		var unknown user.UnknownUserError
+		if errors.As(err, &unknown) {
+			return nil, fmt.Errorf("cairn runs as root, and PostgreSQL refuses to run as root: cairn runs its private server as the system user %s, made for it alone, which does not exist here; make it with\n  useradd %s\nor let cairn make it (%s=1), or run cairn as an ordinary user (see docs/database.md)",
+				name, strings.Join(append(useraddArgs[:len(useraddArgs)-1:len(useraddArgs)-1], name), " "), MakeServerUserEnv)
 		}
 		return a, err
 	}
