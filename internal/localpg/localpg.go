@@ -296,6 +296,13 @@ func (c *Cluster) Start(ctx context.Context) (string, error) {
 	if err != nil {
 		return "", err
 	}
+	// Before anything changes: an earlier cairn's server still running as
+	// another user is refused.
+	if pid, running, _, err := c.postmaster(); err != nil {
+		return "", err
+	} else if err := c.adopt(run, running, pid); err != nil {
+		return "", err
+	}
 	if err := c.prepareDir(run); err != nil {
 		return "", err
 	}
@@ -315,14 +322,14 @@ func (c *Cluster) Start(ctx context.Context) (string, error) {
 	if err := c.initIfMissing(ctx, bin, run, pw[Superuser]); err != nil {
 		return "", err
 	}
-	_, running, stale, err := c.postmaster()
+	pid, running, stale, err := c.postmaster()
 	if err != nil {
 		return "", err
 	}
+	if err := c.adopt(run, running, pid); err != nil {
+		return "", err
+	}
 	if !running {
-		if err := c.adopt(run); err != nil {
-			return "", err
-		}
 		if stale != "" {
 			if err := c.clearStale(stale); err != nil {
 				return "", err
@@ -598,17 +605,26 @@ func (c *Cluster) initIfMissing(ctx context.Context, bin string, run *account, o
 }
 
 // adopt gives a stopped cluster made by an earlier cairn as root (whose
-// server ran as the system's "postgres" user) to the server's user now.
-func (c *Cluster) adopt(run *account) error {
+// server ran as the system's "postgres" user) to the server's user now. A
+// running one (server pid) is refused: its server must be stopped first.
+func (c *Cluster) adopt(run *account, running bool, pid int) error {
 	if run == nil {
 		return nil
 	}
 	fi, err := os.Stat(c.dataDir())
+	if errors.Is(err, os.ErrNotExist) {
+		return nil
+	}
 	if err != nil {
 		return fmt.Errorf("read cluster %s: %w", c.Dir, err)
 	}
-	if uid := int(fi.Sys().(*syscall.Stat_t).Uid); uid == run.uid {
+	uid := int(fi.Sys().(*syscall.Stat_t).Uid)
+	if uid == run.uid {
 		return nil
+	}
+	if running {
+		return fmt.Errorf("the embedded default in %s was made by an earlier cairn and its server (pid %d) runs as uid %d; cairn now runs it as %s: stop that server (as root: kill -INT %d) and run cairn again, which gives the cluster to %s",
+			c.Dir, pid, uid, run.name, pid, run.name)
 	}
 	err = filepath.WalkDir(c.Dir, func(path string, d os.DirEntry, err error) error {
 		if err != nil || path == c.passFile() {
@@ -662,6 +678,11 @@ func (c *Cluster) secure(ctx context.Context, run *account, pw map[string]string
 		if err := store.DatabaseCreate(ctx, conn, store.DatabaseCreateParams{Name: Database}); err != nil {
 			return err
 		}
+	}
+	if c.scratch {
+		// A throwaway cluster is a bare server for tests, which make their
+		// own roles (and test what a server without them does).
+		return nil
 	}
 	return store.RoleLogin(ctx, conn, store.RoleLoginParams{Name: EverydayUser, Password: pw[EverydayUser], MemberOf: EverydayRole, SetPassword: fresh})
 }
