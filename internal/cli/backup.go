@@ -53,7 +53,7 @@ func backupRun(opts *backupOptions) error {
 	if err != nil {
 		return err
 	}
-	url, err := opts.f.ConnURL(opts.ctx)
+	url, err := opts.f.AdminURL(opts.ctx)
 	if err != nil {
 		return err
 	}
@@ -90,7 +90,7 @@ verify" does; the exit status is 3 if any chain does not verify.`,
 
 func restoreRun(opts *backupOptions) error {
 	f, ctx := opts.f, opts.ctx
-	pool, err := f.Conn(ctx)
+	pool, err := f.Admin(ctx)
 	if err != nil {
 		return err
 	}
@@ -106,7 +106,7 @@ func restoreRun(opts *backupOptions) error {
 	if err != nil {
 		return err
 	}
-	url, err := f.ConnURL(ctx)
+	url, err := f.AdminURL(ctx)
 	if err != nil {
 		return err
 	}

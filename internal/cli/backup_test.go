@@ -3,6 +3,7 @@ package cli
 import (
 	"context"
 	"fmt"
+	"os"
 	"path/filepath"
 	"strings"
 	"testing"
@@ -89,6 +90,14 @@ func TestBackupRestore(t *testing.T) {
 	_, out, _ := run(t, db.URL, "backup", file)
 	if !strings.Contains(out, "backed up 6 mark(s) and 7 height version(s)") {
 		t.Fatalf("backup: %s", out)
+	}
+	// The backup is the invoking user's alone, and the temporary file it
+	// was written to (of a unique name, beside it) is gone.
+	if fi, err := os.Stat(file); err != nil || fi.Mode().Perm() != 0o600 {
+		t.Fatalf("backup file: %v, %v; want mode 0600", fi.Mode().Perm(), err)
+	}
+	if left, _ := filepath.Glob(filepath.Join(filepath.Dir(file), ".*partial*")); len(left) > 0 {
+		t.Errorf("temporary files left beside the backup: %v", left)
 	}
 	if _, errOut, st := run(t, db.URL, "backup", file); st != ExitBadInput || !strings.Contains(errOut, "exists") {
 		t.Fatalf("backup over an existing file: exit %d, %s", st, errOut)

@@ -50,7 +50,10 @@ type roleJSON struct {
 }
 
 func dbRolesRun(opts *dbOptions) error {
-	pool, err := opts.f.Pool(opts.ctx)
+	if _, err := opts.f.Pool(opts.ctx); err != nil {
+		return err
+	}
+	pool, err := opts.f.Admin(opts.ctx)
 	if err != nil {
 		return err
 	}

@@ -8,6 +8,7 @@ import (
 	"strings"
 	"testing"
 
+	"cairn/internal/localpg"
 	"cairn/internal/pgtest"
 	"cairn/internal/store"
 )
@@ -102,6 +103,47 @@ func TestDBStartStopNeedEmbeddedDefault(t *testing.T) {
 	}
 }
 
+// embeddedRoles checks the two connections of an embedded default: the
+// everyday one logs in as a member of cairn_publisher that is neither the
+// owner nor a superuser, and cannot set session_replication_role; the
+// migrations ran as the owner, which owns the tables.
+func embeddedRoles(t *testing.T, f *Factory) {
+	t.Helper()
+	defer f.Close()
+	ctx := context.Background()
+	pool, err := f.Conn(ctx)
+	if err != nil {
+		t.Fatal(err)
+	}
+	admin, err := f.Admin(ctx)
+	if err != nil {
+		t.Fatal(err)
+	}
+	var session, current, owner, migrator string
+	var super, publisher bool
+	if err := pool.QueryRow(ctx, `SELECT session_user, current_user, r.rolsuper, pg_has_role(current_user, 'cairn_publisher', 'USAGE'),
+		(SELECT tableowner FROM pg_tables WHERE tablename = 'height') FROM pg_roles r WHERE r.rolname = current_user`).
+		Scan(&session, &current, &super, &publisher, &owner); err != nil {
+		t.Fatal(err)
+	}
+	if err := admin.QueryRow(ctx, "SELECT session_user").Scan(&migrator); err != nil {
+		t.Fatal(err)
+	}
+	if session != localpg.EverydayUser || current != session || super || !publisher || session == owner {
+		t.Errorf("everyday connection: session_user %s, current_user %s, superuser %v, publisher %v, owner %s; want %s, a publisher, not the owner",
+			session, current, super, publisher, owner, localpg.EverydayUser)
+	}
+	if migrator != localpg.Superuser || owner != migrator {
+		t.Errorf("migrations by %s, tables owned by %s; want both %s", migrator, owner, localpg.Superuser)
+	}
+	if _, err := pool.Exec(ctx, "SET session_replication_role = replica"); err == nil || !strings.Contains(err.Error(), "permission denied") {
+		t.Errorf("everyday connection set session_replication_role: %v", err)
+	}
+	if _, err := pool.Exec(ctx, "ALTER TABLE height DISABLE TRIGGER ALL"); err == nil || !strings.Contains(err.Error(), "must be owner") {
+		t.Errorf("everyday connection disabled triggers: %v", err)
+	}
+}
+
 // TestDBEmbeddedDefault makes, starts, inspects and stops an embedded
 // default in a data folder of the test's own.
 func TestDBEmbeddedDefault(t *testing.T) {
@@ -114,7 +156,7 @@ func TestDBEmbeddedDefault(t *testing.T) {
 			}
 		}
 	}
-	env := map[string]string{"XDG_DATA_HOME": data}
+	env := map[string]string{"XDG_DATA_HOME": data, localpg.MakeServerUserEnv: "1"}
 	folder := filepath.Join(data, "cairn")
 	t.Cleanup(func() { runDB(t, testFactory(env), "db", "stop") })
 
@@ -132,6 +174,7 @@ func TestDBEmbeddedDefault(t *testing.T) {
 	if st.SchemaVersion == nil || *st.SchemaVersion != st.SchemaLatest {
 		t.Errorf("after start: schema %v of %d", st.SchemaVersion, st.SchemaLatest)
 	}
+	embeddedRoles(t, testFactory(env))
 	if _, errOut, err := runDB(t, testFactory(env), "db", "stop"); err != nil || !strings.Contains(errOut, "stopped") {
 		t.Fatalf("db stop: %v\n%s", err, errOut)
 	}

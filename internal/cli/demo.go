@@ -65,16 +65,34 @@ func demoRun(opts *demoOptions) error {
 	ctx, f, name := opts.ctx, opts.f, opts.name
 	src := f.Source()
 	server := src.URL
+	var url string
 	if src.Embedded {
-		c, err := localpg.Default()
+		c, err := f.Cluster()
 		if err != nil {
 			return err
+		}
+		// The demo is the first command of the README: as root, on a
+		// machine new to cairn, it makes the system user of cairn's
+		// private server, and says so.
+		if made, err := localpg.EnsureServerUser(); err != nil {
+			return err
+		} else if made {
+			fmt.Fprintf(f.IO.ErrOut, "cairn runs as root: made the system user %s, which runs cairn's private PostgreSQL (%s)\n",
+				localpg.ServerUser, localpg.MakeServerUserCommand)
 		}
 		if server, err = c.Start(ctx); err != nil {
 			return err
 		}
+		// The demo's tables are made by the owner; it is looked at, as
+		// any register of the embedded default, by the everyday role.
+		url = c.UserURL(name)
+	} else {
+		var err error
+		if url, err = store.WithDatabase(server, name); err != nil {
+			return err
+		}
 	}
-	url, err := store.WithDatabase(server, name)
+	admin, err := store.WithDatabase(server, name)
 	if err != nil {
 		return err
 	}
@@ -85,7 +103,7 @@ func demoRun(opts *demoOptions) error {
 	if err := store.DatabaseRecreate(ctx, server, name); err != nil {
 		return fmt.Errorf("demo: %w", err)
 	}
-	pool, err := store.Open(ctx, url)
+	pool, err := store.Open(ctx, admin)
 	if err != nil {
 		return fmt.Errorf("demo: %w", err)
 	}

@@ -27,10 +27,16 @@ type Factory struct {
 
 	connOnce    sync.Once
 	migrateOnce sync.Once
+	adminOnce   sync.Once
 	pool        *pgxpool.Pool
 	connURL     string
 	connErr     error
 	migrateErr  error
+	// The owner's connection: the embedded default's owner role, or the
+	// everyday connection itself on a server named by the user.
+	adminPool *pgxpool.Pool
+	adminURL  string
+	adminErr  error
 }
 
 // NewFactory returns a factory over the given streams.
@@ -71,55 +77,95 @@ func (f *Factory) Cluster() (*localpg.Cluster, error) {
 	if err != nil {
 		return nil, err
 	}
-	return localpg.New(dir), nil
+	c := localpg.New(dir)
+	c.MakeServerUser = f.Getenv(localpg.MakeServerUserEnv) == "1"
+	if f.IO != nil {
+		c.Notify = f.IO.ErrOut
+	}
+	return c, nil
 }
+
+// The register is reached by two connections, made here and nowhere else:
+//
+//   - Conn, the everyday one, which every command uses for its work. On
+//     the embedded default it logs in as localpg.EverydayUser, a member of
+//     cairn_publisher: neither the owner nor a superuser, so it can neither
+//     disable triggers nor set session_replication_role.
+//   - Admin, the owner's, for migrations and the administration of the
+//     register (db roles, backup, restore, the demo's database). On the
+//     embedded default it logs in as the owner, localpg.Superuser.
+//
+// On a server the user names (--db, CAIRN_DATABASE_URL, PG* variables) the
+// two are one: cairn connects as the user says, and that role migrates.
 
 // Conn connects to the register (starting the embedded default when it is
 // the one chosen) without touching its schema. It connects once.
 func (f *Factory) Conn(ctx context.Context) (*pgxpool.Pool, error) {
 	f.connOnce.Do(func() {
 		src := f.Source()
-		url := src.URL
+		url, admin := src.URL, src.URL
 		if src.Embedded {
 			c, err := f.Cluster()
 			if err != nil {
 				f.connErr = err
 				return
 			}
-			if url, err = c.Start(ctx); err != nil {
+			if admin, err = c.Start(ctx); err != nil {
 				f.connErr = fmt.Errorf("start the embedded default: %w", err)
 				return
 			}
+			url = c.UserURL(localpg.Database)
 		}
 		pool, err := store.Open(ctx, url)
 		if err != nil {
 			f.connErr = fmt.Errorf("open register (%s): %w", src.From, err)
 			return
 		}
-		f.pool, f.connURL = pool, url
+		f.pool, f.connURL, f.adminURL = pool, url, admin
 	})
 	return f.pool, f.connErr
 }
 
-// ConnURL returns the connection string Conn uses ("" for the PG*
-// variables), starting the embedded default when it is the one chosen.
-func (f *Factory) ConnURL(ctx context.Context) (string, error) {
+// Admin connects to the register as its owner (see Conn), without
+// touching its schema. It connects once.
+func (f *Factory) Admin(ctx context.Context) (*pgxpool.Pool, error) {
+	f.adminOnce.Do(func() {
+		if _, f.adminErr = f.Conn(ctx); f.adminErr != nil {
+			return
+		}
+		if f.adminURL == f.connURL {
+			f.adminPool = f.pool
+			return
+		}
+		pool, err := store.Open(ctx, f.adminURL)
+		if err != nil {
+			f.adminErr = fmt.Errorf("open register as its owner (%s): %w", f.Source().From, err)
+			return
+		}
+		f.adminPool = pool
+	})
+	return f.adminPool, f.adminErr
+}
+
+// AdminURL returns the connection string Admin uses ("" for the PG*
+// variables).
+func (f *Factory) AdminURL(ctx context.Context) (string, error) {
 	if _, err := f.Conn(ctx); err != nil {
 		return "", err
 	}
-	return f.connURL, nil
+	return f.adminURL, nil
 }
 
 // Pool connects to the register like Conn and brings its schema up to
-// date, once.
+// date, once, through the owner's connection (Admin).
 func (f *Factory) Pool(ctx context.Context) (*pgxpool.Pool, error) {
 	f.migrateOnce.Do(func() {
-		pool, err := f.Conn(ctx)
+		admin, err := f.Admin(ctx)
 		if err != nil {
 			f.migrateErr = err
 			return
 		}
-		if err := store.Migrate(ctx, pool); err != nil {
+		if err := store.Migrate(ctx, admin); err != nil {
 			f.migrateErr = fmt.Errorf("bring register schema up to date: %w", err)
 		}
 	})
@@ -131,6 +177,9 @@ func (f *Factory) Pool(ctx context.Context) (*pgxpool.Pool, error) {
 
 // Close releases the database connection, if one was made.
 func (f *Factory) Close() {
+	if f.adminPool != nil && f.adminPool != f.pool {
+		f.adminPool.Close()
+	}
 	if f.pool != nil {
 		f.pool.Close()
 	}

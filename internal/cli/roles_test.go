@@ -19,14 +19,16 @@ import (
 	"cairn/internal/store"
 )
 
-// loginAs makes a login role with a unique name, a member of role, and
-// returns db's URL for it; the role is dropped when the test ends.
+// loginAs makes a login role with a unique name and password, a member of
+// role, and returns db's URL for it; the role is dropped when the test
+// ends. (A throwaway cluster asks every role for its password.)
 func loginAs(t *testing.T, db *pgtest.DB, role string) string {
 	t.Helper()
 	name := uniqueName(t, "cairn_t_"+strings.TrimPrefix(role, "cairn_")+"_")
+	password := uniqueName(t, "pw")
 	ident := pgx.Identifier{name}.Sanitize()
 	ctx := context.Background()
-	if _, err := db.Pool.Exec(ctx, "CREATE ROLE "+ident+" LOGIN IN ROLE "+pgx.Identifier{role}.Sanitize()); err != nil {
+	if _, err := db.Pool.Exec(ctx, "CREATE ROLE "+ident+" LOGIN PASSWORD '"+password+"' IN ROLE "+pgx.Identifier{role}.Sanitize()); err != nil {
 		t.Fatal(err)
 	}
 	t.Cleanup(func() {
@@ -40,9 +42,10 @@ func loginAs(t *testing.T, db *pgtest.DB, role string) string {
 	}
 	if q := u.Query(); q.Has("user") {
 		q.Set("user", name)
+		q.Set("password", password)
 		u.RawQuery = q.Encode()
 	} else {
-		u.User = url.User(name)
+		u.User = url.UserPassword(name, password)
 	}
 	return u.String()
 }

@@ -1,19 +1,38 @@
 package localpg
 
 import (
+	"errors"
 	"fmt"
 	"os"
+	"os/exec"
 	"os/user"
 	"path/filepath"
 	"slices"
 	"strconv"
 	"strings"
 	"syscall"
+	"time"
 )
 
-// ServerUser is the unprivileged system user that runs the cluster when
-// cairn runs as root.
-const ServerUser = "postgres"
+// ServerUser is the system user, made for cairn alone, that runs the
+// cluster when cairn runs as root. It is not the "postgres" user of the
+// system's own server: any process of that account (a COPY ... TO PROGRAM
+// of the system server's superuser, say) could read and change a cluster
+// it owned.
+const ServerUser = "cairn-pg"
+
+// MakeServerUserEnv names the variable that, set to 1, lets cairn (as
+// root) make ServerUser when it is missing; otherwise it refuses and says
+// how to make it.
+const MakeServerUserEnv = "CAIRN_MAKE_SERVER_USER"
+
+// useraddArgs are the arguments of useradd that make ServerUser: a system
+// account with a group of its own, no home folder and no login shell.
+var useraddArgs = []string{"--system", "--user-group", "--no-create-home", "--home-dir", "/nonexistent", "--shell", "/usr/sbin/nologin", ServerUser}
+
+// MakeServerUserCommand is the command an administrator runs to make
+// ServerUser.
+var MakeServerUserCommand = "useradd " + strings.Join(useraddArgs, " ")
 
 // account is the unprivileged user the server runs as.
 type account struct {
@@ -24,25 +43,88 @@ type account struct {
 }
 
 // runAs returns the user to run initdb and pg_ctl as: nil (this process's
-// own user) unless this process is root, which PostgreSQL refuses.
-func runAs() (*account, error) {
+// own user) unless this process is root, which PostgreSQL refuses. As
+// root, ServerUser is made when it is missing and make is true; otherwise
+// its absence is an error saying how to make it.
+func runAs(mayMake bool) (*account, error) {
 	if os.Geteuid() != 0 {
 		return nil, nil
 	}
-	u, err := user.Lookup(ServerUser)
+	return serverAccount(ServerUser, mayMake)
+}
+
+// serverAccount returns the account of the server's user name, made when
+// missing if mayMake.
+func serverAccount(name string, mayMake bool) (*account, error) {
+	a, err := lookupAccount(name)
+	if err == nil || !mayMake {
+		var unknown user.UnknownUserError
+		if errors.As(err, &unknown) {
+			return nil, fmt.Errorf("cairn runs as root, and PostgreSQL refuses to run as root: cairn runs its private server as the system user %s, made for it alone, which does not exist here; make it with\n  useradd %s\nor let cairn make it (%s=1), or run cairn as an ordinary user (see docs/database.md)",
+				name, strings.Join(append(useraddArgs[:len(useraddArgs)-1:len(useraddArgs)-1], name), " "), MakeServerUserEnv)
+		}
+		return a, err
+	}
+	if err := MakeServerUser(); err != nil {
+		return nil, err
+	}
+	return lookupAccount(ServerUser)
+}
+
+// EnsureServerUser makes ServerUser when this process is root and the user
+// is missing; made says it did.
+func EnsureServerUser() (made bool, err error) {
+	if os.Geteuid() != 0 {
+		return false, nil
+	}
+	if _, err := user.Lookup(ServerUser); err == nil {
+		return false, nil
+	}
+	return true, MakeServerUser()
+}
+
+// MakeServerUser makes ServerUser with useradd unless it exists. Several
+// processes may do so at once: useradd's own lock makes them take turns,
+// and one that finds the user made by another succeeds.
+func MakeServerUser() error {
+	var last error
+	for range 50 {
+		if _, err := user.Lookup(ServerUser); err == nil {
+			return nil
+		}
+		out, err := exec.Command("useradd", useraddArgs...).CombinedOutput()
+		if err == nil {
+			return nil
+		}
+		var ee *exec.ExitError
+		if errors.As(err, &ee) && ee.ExitCode() == 9 { // name in use: made meanwhile
+			return nil
+		}
+		last = fmt.Errorf("%w: %s", err, strings.TrimSpace(string(out)))
+		if !errors.As(err, &ee) {
+			break // no useradd at all
+		}
+		time.Sleep(100 * time.Millisecond) // another useradd holds the lock
+	}
+	return fmt.Errorf("make system user %s (%s): %v", ServerUser, MakeServerUserCommand, last)
+}
+
+// lookupAccount returns the account of the user named name.
+func lookupAccount(name string) (*account, error) {
+	u, err := user.Lookup(name)
 	if err != nil {
-		return nil, fmt.Errorf("cairn runs as root, and PostgreSQL refuses to run as root; it runs its private server as the unprivileged user %q, which does not exist here (installing PostgreSQL makes it), or run cairn as an ordinary user: %w", ServerUser, err)
+		return nil, err
 	}
 	a := &account{name: u.Username, home: u.HomeDir}
 	if a.uid, err = strconv.Atoi(u.Uid); err != nil {
-		return nil, fmt.Errorf("user %s: uid %q: %w", ServerUser, u.Uid, err)
+		return nil, fmt.Errorf("user %s: uid %q: %w", name, u.Uid, err)
 	}
 	if a.gid, err = strconv.Atoi(u.Gid); err != nil {
-		return nil, fmt.Errorf("user %s: gid %q: %w", ServerUser, u.Gid, err)
+		return nil, fmt.Errorf("user %s: gid %q: %w", name, u.Gid, err)
 	}
 	ids, err := u.GroupIds()
 	if err != nil {
-		return nil, fmt.Errorf("user %s: groups: %w", ServerUser, err)
+		return nil, fmt.Errorf("user %s: groups: %w", name, err)
 	}
 	for _, s := range ids {
 		if g, err := strconv.Atoi(s); err == nil {
@@ -50,7 +132,7 @@ func runAs() (*account, error) {
 		}
 	}
 	if a.uid == 0 {
-		return nil, fmt.Errorf("user %s is root; PostgreSQL needs an unprivileged user", ServerUser)
+		return nil, fmt.Errorf("user %s is root; PostgreSQL needs an unprivileged user", name)
 	}
 	return a, nil
 }

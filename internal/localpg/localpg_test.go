@@ -33,6 +33,14 @@ func clusterDir(t *testing.T, name string) string {
 	return filepath.Join(base, name)
 }
 
+// testCluster returns the cluster in dir, which, as root, makes the
+// server's user when it is missing.
+func testCluster(dir string) *Cluster {
+	c := New(dir)
+	c.MakeServerUser = true
+	return c
+}
+
 // stopAtEnd stops c when the test ends.
 func stopAtEnd(t *testing.T, c *Cluster) {
 	t.Cleanup(func() {
@@ -70,7 +78,7 @@ func alive(pid int) bool {
 func TestStartStopRestart(t *testing.T) {
 	t.Parallel()
 	ctx := context.Background()
-	c := New(clusterDir(t, "cairn"))
+	c := testCluster(clusterDir(t, "cairn"))
 	stopAtEnd(t, c)
 
 	if st, err := c.Status(ctx); err != nil || st.Exists || st.Running {
@@ -94,7 +102,7 @@ func TestStartStopRestart(t *testing.T) {
 	// unprivileged user; otherwise as this process's own user.
 	wantUID := os.Geteuid()
 	if wantUID == 0 {
-		run, err := runAs()
+		run, err := runAs(true)
 		if err != nil {
 			t.Fatal(err)
 		}
@@ -208,7 +216,7 @@ func mustExec(t *testing.T, url, sql string) {
 func TestConcurrentStart(t *testing.T) {
 	t.Parallel()
 	dir := clusterDir(t, strings.Repeat("long-folder-name-", 6))
-	c := New(dir)
+	c := testCluster(dir)
 	stopAtEnd(t, c)
 	if c.SocketDir() == c.Dir || len(c.SocketDir()+"/.s.PGSQL.5432") > maxSocketPath {
 		t.Fatalf("socket folder %q for a %d-byte cluster path", c.SocketDir(), len(c.Dir))
@@ -250,7 +258,7 @@ func TestHelperProcess(t *testing.T) {
 	case "":
 		return
 	case "start":
-		url, err := New(os.Getenv("LOCALPG_HELPER_DIR")).Start(ctx)
+		url, err := testCluster(os.Getenv("LOCALPG_HELPER_DIR")).Start(ctx)
 		if err != nil {
 			fmt.Println("error:", err)
 			os.Exit(1)

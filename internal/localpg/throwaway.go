@@ -25,7 +25,8 @@ var (
 )
 
 // Throwaway makes a new cluster in a fresh temporary folder, starts it and
-// returns it with a URL for its cairn database. It is made for speed, not
+// returns it with the owner's URL for its cairn database. It has the
+// owner alone: no EverydayUser, no register roles. It is made for speed, not
 // durability: nothing is flushed to disk. The cluster lives as long
 // as this process: a watchdog, in a session of its own so that a Ctrl-C
 // does not reach it, reads a pipe whose other end only this process holds;
@@ -38,13 +39,16 @@ func Throwaway(ctx context.Context) (*Cluster, string, error) {
 	}
 	c := New(dir)
 	c.scratch = true
+	// A throwaway cluster is asked for by tests and by developers: as
+	// root, it makes the server's user when missing.
+	c.MakeServerUser = true
 	fail := func(err error) (*Cluster, string, error) {
 		_ = c.Stop(context.WithoutCancel(ctx))
 		os.RemoveAll(c.Dir)
 		os.RemoveAll(c.SocketDir())
 		return nil, "", err
 	}
-	run, err := runAs()
+	run, err := runAs(c.MakeServerUser)
 	if err != nil {
 		return fail(err)
 	}

@@ -3,6 +3,8 @@ package store
 import (
 	"context"
 	"fmt"
+
+	"github.com/jackc/pgx/v5"
 )
 
 // RolesApply creates the register's roles when they are absent and the
@@ -66,4 +68,67 @@ func CurrentRoles(ctx context.Context, db DBTX) (user string, has []string, err 
 		EXISTS (SELECT 1 FROM pg_roles WHERE rolname = n) AND pg_has_role(current_user, n, 'USAGE')), '{}')
 		FROM unnest($1::text[]) AS n`, []string{RoleReader, RoleRecorder, RolePublisher}).Scan(&user, &has)
 	return user, has, translate(err)
+}
+
+// RoleLoginParams describe a login role that acts with a register role's
+// privileges.
+type RoleLoginParams struct {
+	Name     string
+	Password string
+	// MemberOf is the register role it is a member of; it is made (NOLOGIN,
+	// with no privileges until the register's migrations grant them) when
+	// missing.
+	MemberOf string
+	// SetPassword sets the password of a role that exists already.
+	SetPassword bool
+}
+
+// RoleLogin makes the login role p.Name when it is missing (neither
+// superuser nor able to create roles or databases), a member of
+// p.MemberOf. Running it again changes nothing.
+func RoleLogin(ctx context.Context, conn *pgx.Conn, p RoleLoginParams) error {
+	member := pgx.Identifier{p.MemberOf}.Sanitize()
+	name := pgx.Identifier{p.Name}.Sanitize()
+	var hasGroup, hasLogin, isMember bool
+	err := conn.QueryRow(ctx, `SELECT EXISTS (SELECT 1 FROM pg_roles WHERE rolname = $1), EXISTS (SELECT 1 FROM pg_roles WHERE rolname = $2),
+		EXISTS (SELECT 1 FROM pg_auth_members am JOIN pg_roles g ON g.oid = am.roleid JOIN pg_roles m ON m.oid = am.member
+		        WHERE g.rolname = $1 AND m.rolname = $2)`, p.MemberOf, p.Name).Scan(&hasGroup, &hasLogin, &isMember)
+	if err != nil {
+		return fmt.Errorf("look for role %s: %w", p.Name, translate(err))
+	}
+	var stmts []string
+	if !hasGroup {
+		stmts = append(stmts, "CREATE ROLE "+member+" NOLOGIN")
+	}
+	pw := "PASSWORD " + quoteLiteral(p.Password)
+	if !hasLogin {
+		stmts = append(stmts, "CREATE ROLE "+name+" LOGIN NOSUPERUSER NOCREATEDB NOCREATEROLE INHERIT NOREPLICATION NOBYPASSRLS "+pw)
+	} else if p.SetPassword {
+		stmts = append(stmts, "ALTER ROLE "+name+" "+pw)
+	}
+	if !isMember {
+		stmts = append(stmts, "GRANT "+member+" TO "+name)
+	}
+	for _, sql := range stmts {
+		if _, err := conn.Exec(ctx, sql); err != nil {
+			return fmt.Errorf("make role %s: %w", p.Name, translate(err))
+		}
+	}
+	return nil
+}
+
+// RolePassword sets a role's password.
+func RolePassword(ctx context.Context, conn *pgx.Conn, role, password string) error {
+	if _, err := conn.Exec(ctx, "ALTER ROLE "+pgx.Identifier{role}.Sanitize()+" PASSWORD "+quoteLiteral(password)); err != nil {
+		return fmt.Errorf("set password of role %s: %w", role, translate(err))
+	}
+	return nil
+}
+
+// ReloadConfig has the server read its configuration files again.
+func ReloadConfig(ctx context.Context, conn *pgx.Conn) error {
+	if _, err := conn.Exec(ctx, "SELECT pg_reload_conf()"); err != nil {
+		return fmt.Errorf("reload server configuration: %w", translate(err))
+	}
+	return nil
 }

@@ -98,7 +98,7 @@ func TestRolesConcurrentMigrations(t *testing.T) {
 
 	// An owner without CREATEROLE, on a server where the roles are gone.
 	for _, q := range []string{
-		"CREATE ROLE plain_owner LOGIN", "CREATE DATABASE register_plain OWNER plain_owner",
+		"CREATE ROLE plain_owner LOGIN PASSWORD 'plain-owner-pw'", "CREATE DATABASE register_plain OWNER plain_owner",
 	} {
 		if _, err := admin.Exec(ctx, q); err != nil {
 			t.Fatal(err)
@@ -119,6 +119,7 @@ func TestRolesConcurrentMigrations(t *testing.T) {
 	}
 	q := u.Query()
 	q.Set("user", "plain_owner")
+	q.Set("password", "plain-owner-pw") // a throwaway cluster asks every role for one
 	u.RawQuery = q.Encode()
 	p, err := store.Open(ctx, u.String())
 	if err != nil {

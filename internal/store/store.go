@@ -16,12 +16,16 @@ import (
 )
 
 // Open connects a pool to url ("" uses libpq defaults and PG* variables) and
-// checks that the server answers.
+// checks that the server answers. Its sessions speak UTF-8 whatever the URL
+// says: pgx sends Go's strings, which are UTF-8, as they are, so a session
+// in another client_encoding would have the server misread them ("Größe"
+// stored as "GrÃ¶Ãe").
 func Open(ctx context.Context, url string) (*pgxpool.Pool, error) {
 	cfg, err := pgxpool.ParseConfig(url)
 	if err != nil {
 		return nil, fmt.Errorf("parse database URL: %w", err)
 	}
+	cfg.ConnConfig.RuntimeParams["client_encoding"] = "UTF8"
 	pool, err := pgxpool.NewWithConfig(ctx, cfg)
 	if err != nil {
 		return nil, err
