@@ -6,6 +6,7 @@ import (
 	"fmt"
 	"sort"
 	"strings"
+	"sync"
 
 	"cairn/internal/store"
 )
@@ -25,12 +26,25 @@ func (r *Register) auditSchema(ctx context.Context, rep *AuditReport) error {
 	if err != nil {
 		return err
 	}
-	var fresh []store.SchemaEntry
-	err = store.WithScratchRegister(ctx, r.pool, func(db store.DBTX) error {
-		var err error
-		fresh, err = store.SchemaFingerprint(ctx, db)
+	key, err := store.SchemaServerKey(ctx, r.pool)
+	if err != nil {
 		return err
-	})
+	}
+	freshMu.Lock()
+	fresh, ok := freshSchemas[key]
+	freshMu.Unlock()
+	if !ok {
+		err = store.WithScratchRegister(ctx, r.pool, func(db store.DBTX) error {
+			var err error
+			fresh, err = store.SchemaFingerprint(ctx, db)
+			return err
+		})
+		if err == nil {
+			freshMu.Lock()
+			freshSchemas[key] = fresh
+			freshMu.Unlock()
+		}
+	}
 	if errors.Is(err, store.ErrScratchRefused) {
 		rep.SchemaUnchecked = fmt.Sprintf("the schema was not compared with its migrations: %v (run the audit as a role that may create databases)", err)
 		return nil
@@ -46,6 +60,15 @@ func (r *Register) auditSchema(ctx context.Context, rep *AuditReport) error {
 	rep.Findings = append(rep.Findings, schemaDiff(live, fresh, since)...)
 	return nil
 }
+
+// freshSchemas keeps, for this process, the fingerprint of a database
+// freshly migrated by this binary, by server and roles
+// (store.SchemaServerKey): it depends on nothing else, and making one
+// costs seconds.
+var (
+	freshMu      sync.Mutex
+	freshSchemas = map[string][]store.SchemaEntry{}
+)
 
 // schemaDiff lists what differs between the live schema and the fresh
 // one, by object.

@@ -256,3 +256,18 @@ func RestoreRevokes(ctx context.Context, db DBTX) error {
 	}
 	return nil
 }
+
+// SchemaServerKey names what a freshly migrated database's schema depends
+// on besides the migrations: the server (address and version) and the
+// register's roles present on it, so that a fingerprint of a scratch
+// database can be reused for the same key within one process.
+func SchemaServerKey(ctx context.Context, pool *pgxpool.Pool) (string, error) {
+	var k string
+	err := pool.QueryRow(ctx, `SELECT current_setting('server_version_num') || ' ' ||
+		coalesce((SELECT string_agg(rolname, ',' ORDER BY rolname) FROM pg_roles WHERE rolname LIKE 'cairn\_%'), '')`).Scan(&k)
+	if err != nil {
+		return "", translate(err)
+	}
+	c := pool.Config().ConnConfig
+	return fmt.Sprintf("%s:%d %s %s", c.Host, c.Port, c.User, k), nil
+}
