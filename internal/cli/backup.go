@@ -76,8 +76,12 @@ func newCmdRestore(f *Factory, runF func(*backupOptions) error) *cobra.Command {
 embedded default), which must be empty: create a new database for it. The
 load is one transaction, so it arrives whole or not at all. The register's
 roles get their privileges again (cairn db roles), the schema is brought up
-to date, and every chain of height versions is audited as "cairn audit
-verify" does; the exit status is 3 if any chain does not verify.`,
+to date, and the whole register is audited as "cairn audit verify" does:
+every chain of height versions, every book parsed and reduced again, every
+published adjustment computed again, and the schema compared with its
+migrations. If anything does not verify, the restore is refused with the
+breaks listed and exit status 3; the restored database is kept, for
+inspection, and is not fit for use.`,
 		Example: `  createdb register_restored
   cairn --db postgres://localhost/register_restored restore register-2024-05-14.dump`,
 		Args: exactArgs(1, "a backup FILE"),
@@ -123,6 +127,9 @@ func restoreRun(opts *backupOptions) error {
 	if err != nil {
 		return err
 	}
+	if err := store.RestoreRevokes(ctx, pool); err != nil {
+		return err
+	}
 	if len(missing) > 0 {
 		fmt.Fprintf(f.IO.ErrOut, "roles %s are missing on this server: run cairn db roles as a role that may create them\n", strings.Join(missing, ", "))
 	}
@@ -133,12 +140,12 @@ func restoreRun(opts *backupOptions) error {
 	f.IO.printf("restored %d mark(s) and %d height version(s) from %s\n", n.Marks, n.HeightVersions, opts.file)
 	rep, err := register.New(pool).AuditVerify(ctx)
 	if err != nil {
+		return fmt.Errorf("audit the restored register: %w", err)
+	}
+	if err := renderAudit(f.IO, FormatTable, rep); err != nil {
+		f.IO.printf("cairn: the restore of %s is refused: the restored register does not verify (%d break(s) above); database %q is kept as restored, for inspection: drop it once examined, and restore an earlier backup\n",
+			opts.file, rep.Count(), srv.Database)
 		return err
 	}
-	if len(rep.Breaks) > 0 {
-		f.IO.printf("audit: %d break(s) in %d chain(s) of %d version(s)\n", len(rep.Breaks), rep.Chains, rep.Versions)
-		return checksFailed{len(rep.Breaks)}
-	}
-	f.IO.printf("audit: %d chain(s) of %d version(s) verify\n", rep.Chains, rep.Versions)
 	return nil
 }
