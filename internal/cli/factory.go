@@ -194,3 +194,17 @@ func openRegister(ctx context.Context, f *Factory) (*register.Register, error) {
 	}
 	return register.New(pool), nil
 }
+
+// openAdminRegister is openRegister over the owner's connection (Admin),
+// for the audit, whose comparison of the schema makes and drops a scratch
+// database. On a server named by --db the two are the same connection.
+func openAdminRegister(ctx context.Context, f *Factory) (*register.Register, error) {
+	if _, err := f.Pool(ctx); err != nil {
+		return nil, err
+	}
+	admin, err := f.Admin(ctx)
+	if err != nil {
+		return nil, err
+	}
+	return register.New(admin), nil
+}

@@ -520,7 +520,7 @@ Exit status 0 when everything verifies, 3 when any break is found.`,
 // auditVerifyRun recomputes the hash chains and reports their breaks.
 func auditVerifyRun(opts *auditVerifyOptions) error {
 	ios := opts.f.IO
-	r, err := openRegister(opts.ctx, opts.f)
+	r, err := openAdminRegister(opts.ctx, opts.f)
 	if err != nil {
 		return err
 	}
