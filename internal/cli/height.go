@@ -482,9 +482,11 @@ func historyRun(opts *historyOptions) error {
 
 // auditVerifyOptions are the inputs of `cairn audit verify`.
 type auditVerifyOptions struct {
-	f      *Factory
-	ctx    context.Context
-	format Format
+	f         *Factory
+	ctx       context.Context
+	format    Format
+	against   string
+	publicKey string
 }
 
 func newCmdAuditVerify(f *Factory, runF func(*auditVerifyOptions) error) *cobra.Command {
@@ -497,11 +499,21 @@ from its contents and its predecessor's hash, from the first version of each
 mark and datum to the last, and report every break: a version changed behind
 cairn's back, a broken link between versions, a gap in the numbering.
 
+Then recompute, from the rows themselves, the commit chain of every table in
+the evidence (docs/reliability.md, "The evidence") and report each commit
+whose rows changed, naming the table, each broken link (a commit removed or
+reordered) and rows no commit covers. With --against STATEMENT (made by
+"cairn audit head"), also prove that the chain up to the statement is the one
+it names, and that the register only grew since; a signed statement's
+signature is checked, with --public-key when given.
+
 Exit status 0 when every chain verifies, 3 when any break is found.`,
 		Args: exactArgs(0, "no arguments"),
 		RunE: runE(&opts.ctx, opts, runF, auditVerifyRun),
 	}
 	addOutputFlag(cmd, &opts.format)
+	cmd.Flags().StringVar(&opts.against, "against", "", "a statement FILE made by cairn audit head")
+	cmd.Flags().StringVar(&opts.publicKey, "public-key", "", "the Ed25519 public key (hex) the statement must be signed with")
 	return cmd
 }
 
@@ -527,8 +539,12 @@ func auditVerifyRun(opts *auditVerifyOptions) error {
 	}
 	if len(rep.Breaks) > 0 {
 		ios.printf("audit: %d break(s) in %d chain(s) of %d version(s)\n", len(rep.Breaks), rep.Chains, rep.Versions)
+	} else {
+		ios.printf("audit: %d chain(s) of %d version(s) verify\n", rep.Chains, rep.Versions)
+	}
+	_, everr := verifyAgainst(opts.ctx, opts.f, r, opts.against, opts.publicKey)
+	if len(rep.Breaks) > 0 {
 		return checksFailed{len(rep.Breaks)}
 	}
-	ios.printf("audit: %d chain(s) of %d version(s) verify\n", rep.Chains, rep.Versions)
-	return nil
+	return everr
 }
