@@ -124,9 +124,17 @@ BEGIN
             USING ERRCODE = 'CA012';
     END IF;
     SELECT c.seq, c.hash INTO prev FROM register_commit c WHERE c.seq IS NOT NULL ORDER BY c.seq DESC LIMIT 1;
-    INSERT INTO register_commit (xid, committed_at, login, seq, manifest, digest, hash)
-    VALUES (me, at, session_user, coalesce(prev.seq, 0) + 1, man, dig,
-            sha256(convert_to(cairn_commit_text(prev.hash, coalesce(prev.seq, 0) + 1, me, at, session_user, dig), 'UTF8')));
+    -- A REPEATABLE READ transaction sees the commits made before its
+    -- snapshot only: when a later one holds the next seq, the unique index
+    -- says so, and the transaction is a conflict to try again.
+    BEGIN
+        INSERT INTO register_commit (xid, committed_at, login, seq, manifest, digest, hash)
+        VALUES (me, at, session_user, coalesce(prev.seq, 0) + 1, man, dig,
+                sha256(convert_to(cairn_commit_text(prev.hash, coalesce(prev.seq, 0) + 1, me, at, session_user, dig), 'UTF8')));
+    EXCEPTION WHEN unique_violation THEN
+        RAISE EXCEPTION 'another commit was stamped after this transaction''s snapshot: nothing was written; try again'
+            USING ERRCODE = '40001';
+    END;
     RETURN NULL;
 END
 $$;
