@@ -3,6 +3,7 @@ package register_test
 import (
 	"testing"
 
+	"cairn/internal/booktest"
 	"cairn/internal/register"
 	"cairn/internal/registertest"
 	"cairn/internal/store"
@@ -111,6 +112,25 @@ func TestEvidenceEveryTableTampered(t *testing.T) {
 			// Each case on a fresh copy: start again.
 			b = evidenceFixture(t)
 			ctx, pool = b.Ctx, b.DB.Pool
+		}
+	}
+}
+
+// BenchmarkEvidenceVerify20k verifies the commit chain of the largest
+// register the benchmarks build: a run of 20 001 setups and 20 001 new
+// marks, adjusted and published (20 000 versions).
+func BenchmarkEvidenceVerify20k(b *testing.B) {
+	fx := registertest.Setup(b)
+	fx.Datum(b, registertest.DatumOpts{})
+	loop := booktest.Loop{Setups: 20001, MarkEvery: 1, Seed: 1}
+	rec := fx.Run(b, registertest.RunOpts{Path: "large.csv", Book: loop.Book(), By: "bench", NewMarks: true})
+	fx.Height(b, registertest.HeightOpts{Designation: "TC-1001", Value: "100.000", Unit: "m", Source: "invented", Reason: "bench", By: "bench"})
+	v := fx.Adjustment(b, registertest.AdjustmentOpts{Runs: []int64{rec.Run.ID}, Hold: []string{"TC-1001"}, By: "bench"})
+	fx.Publication(b, v.Adjustment.ID, registertest.PublicationOpts{Reason: "bench", By: "bench"})
+	for b.Loop() {
+		rep, err := fx.Reg.EvidenceVerify(fx.Ctx, nil)
+		if err != nil || len(rep.Breaks) != 0 {
+			b.Fatal(err, rep.Breaks)
 		}
 	}
 }
