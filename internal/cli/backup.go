@@ -3,6 +3,7 @@ package cli
 import (
 	"context"
 	"fmt"
+	"os"
 	"strings"
 
 	"github.com/spf13/cobra"
@@ -17,17 +18,27 @@ type backupOptions struct {
 	f    *Factory
 	ctx  context.Context
 	file string
+	key  string
 }
+
+// statementFile is where backup writes the statement of a dump, and
+// restore looks for it.
+func statementFile(dump string) string { return dump + ".statement.json" }
 
 func newCmdBackup(f *Factory, runF func(*backupOptions) error) *cobra.Command {
 	opts := &backupOptions{f: f}
-	return &cobra.Command{
+	cmd := &cobra.Command{
 		Use:   "backup FILE",
 		Short: "Copy the whole register into one file",
 		Long: `Copy the whole register, every table and every version of its history, into
 FILE, with PostgreSQL's pg_dump (custom format) of the server's version. The
 copy is one consistent snapshot; others may go on working meanwhile. FILE
 must not exist; it appears only once the copy is complete and readable.
+
+Beside it, FILE.statement.json is a statement of the register's head taken
+just before the copy ("cairn audit head"; signed with --key FILE or the file
+CAIRN_AUDIT_KEY names), which restore checks. A register whose chain does not
+verify is not backed up (exit 3): audit it first.
 
 Keep the copies somewhere other than the server. "cairn restore FILE" loads
 one into an empty database.`,
@@ -38,6 +49,8 @@ one into an empty database.`,
 			return dispatch(opts, runF, backupRun)
 		},
 	}
+	cmd.Flags().StringVar(&opts.key, "key", "", "sign the statement with the Ed25519 key in FILE (default: the file CAIRN_AUDIT_KEY names)")
+	return cmd
 }
 
 func backupRun(opts *backupOptions) error {
@@ -57,13 +70,25 @@ func backupRun(opts *backupOptions) error {
 	if err != nil {
 		return err
 	}
+	sf := statementFile(opts.file)
+	if _, err := os.Lstat(sf); err == nil {
+		return badInput("%s exists: name a new file", sf)
+	}
+	stmt, err := makeStatement(opts.ctx, register.New(pool), opts.key, opts.f)
+	if err != nil {
+		return err
+	}
 	if err := backup.Dump(opts.ctx, url, srv.Version, opts.file); err != nil {
 		if strings.Contains(err.Error(), "exists: name a new file") {
 			return badInput("%v", err)
 		}
 		return fmt.Errorf("back up register: %w", err)
 	}
+	if err := writeNewFile(sf, stmt.Encode()); err != nil {
+		return fmt.Errorf("write the statement of %s: %w", opts.file, err)
+	}
 	opts.f.IO.printf("backed up %d mark(s) and %d height version(s) to %s\n", n.Marks, n.HeightVersions, opts.file)
+	opts.f.IO.printf("statement of commit %d (%s) in %s\n", stmt.Seq, stmt.Head, sf)
 	return nil
 }
 
@@ -77,11 +102,13 @@ embedded default), which must be empty: create a new database for it. The
 load is one transaction, so it arrives whole or not at all. The register's
 roles get their privileges again (cairn db roles), the schema is brought up
 to date, and the whole register is audited as "cairn audit verify" does:
-every chain of height versions, every book parsed and reduced again, every
-published adjustment computed again, and the schema compared with its
-migrations. If anything does not verify, the restore is refused with the
-breaks listed and exit status 3; the restored database is kept, for
-inspection, and is not fit for use.`,
+every chain of height versions, the commit chain of every table, every book
+parsed and reduced again, every published adjustment computed again, and the
+schema compared with its migrations; when FILE.statement.json (written by
+backup) is beside FILE, the restored register is verified against it. If
+anything does not verify, the restore is refused with the breaks listed and
+exit status 3; the restored database is kept, for inspection, and is not fit
+for use.`,
 		Example: `  createdb register_restored
   cairn --db postgres://localhost/register_restored restore register-2024-05-14.dump`,
 		Args: exactArgs(1, "a backup FILE"),
@@ -147,5 +174,29 @@ func restoreRun(opts *backupOptions) error {
 			opts.file, rep.Count(), srv.Database)
 		return err
 	}
+	sf := statementFile(opts.file)
+	if _, err := os.Stat(sf); err != nil {
+		f.IO.printf("no statement %s beside the backup: the commit chain is checked on its own\n", sf)
+		sf = ""
+	}
+	if _, err := verifyAgainst(ctx, f, register.New(pool), sf, ""); err != nil {
+		f.IO.printf("cairn: the restore of %s is refused: the restored register does not hold against its statement or its commit chain; database %q is kept as restored, for inspection: do not use it\n",
+			opts.file, srv.Database)
+		return err
+	}
 	return nil
+}
+
+// writeNewFile writes data to file, which must not exist.
+func writeNewFile(file string, data []byte) error {
+	fh, err := os.OpenFile(file, os.O_WRONLY|os.O_CREATE|os.O_EXCL, 0o644)
+	if err != nil {
+		return err
+	}
+	if _, err := fh.Write(data); err != nil {
+		fh.Close()
+		os.Remove(file)
+		return err
+	}
+	return fh.Close()
 }

@@ -221,7 +221,8 @@ func TestClockBehindTheRegisterRefused(t *testing.T) {
 
 	// The register's latest commit an hour ahead: any write is refused at
 	// its commit.
-	if _, err := db.Pool.Exec(ctx, "INSERT INTO register_commit (xid, committed_at, login) VALUES ('1', $1, 'clock')", ahead); err != nil {
+	if _, err := db.Pool.Exec(ctx, "INSERT INTO register_commit (xid, committed_at, login, seq, manifest, digest, hash)"+
+		" VALUES ('1', $1, 'clock', (SELECT coalesce(max(seq), 0) + 1 FROM register_commit), '', sha256(''), sha256(''))", ahead); err != nil {
 		t.Fatal(err)
 	}
 	before = registertest.Counts(t, db.Pool)

@@ -482,9 +482,11 @@ func historyRun(opts *historyOptions) error {
 
 // auditVerifyOptions are the inputs of `cairn audit verify`.
 type auditVerifyOptions struct {
-	f      *Factory
-	ctx    context.Context
-	format Format
+	f         *Factory
+	ctx       context.Context
+	format    Format
+	against   string
+	publicKey string
 }
 
 func newCmdAuditVerify(f *Factory, runF func(*auditVerifyOptions) error) *cobra.Command {
@@ -509,11 +511,21 @@ must be allowed to create databases; otherwise the comparison is skipped with
 a warning). Each such break is listed with its kind, where it is, since when
 it can date, and what differs.
 
+Then recompute, from the rows themselves, the commit chain of every table in
+the evidence (docs/reliability.md, "The evidence") and report each commit
+whose rows changed, naming the table, each broken link (a commit removed or
+reordered) and rows no commit covers. With --against STATEMENT (made by
+"cairn audit head"), also prove that the chain up to the statement is the one
+it names, and that the register only grew since; a signed statement's
+signature is checked, with --public-key when given.
+
 Exit status 0 when everything verifies, 3 when any break is found.`,
 		Args: exactArgs(0, "no arguments"),
 		RunE: runE(&opts.ctx, opts, runF, auditVerifyRun),
 	}
 	addOutputFlag(cmd, &opts.format)
+	cmd.Flags().StringVar(&opts.against, "against", "", "a statement FILE made by cairn audit head")
+	cmd.Flags().StringVar(&opts.publicKey, "public-key", "", "the Ed25519 public key (hex) the statement must be signed with")
 	return cmd
 }
 
@@ -528,5 +540,10 @@ func auditVerifyRun(opts *auditVerifyOptions) error {
 	if err != nil {
 		return err
 	}
-	return renderAudit(ios, opts.format, rep)
+	aerr := renderAudit(ios, opts.format, rep)
+	_, everr := verifyAgainst(opts.ctx, opts.f, r, opts.against, opts.publicKey)
+	if aerr != nil {
+		return aerr
+	}
+	return everr
 }

@@ -34,10 +34,11 @@ type CommitRow struct {
 }
 
 // CommitLatest returns the register's latest commit; ErrNotFound when
-// nothing was written since schema v12.
+// nothing was written since schema v12 (the genesis entry of schema v13,
+// seq 0, which stands for the rows written before, is no commit).
 func CommitLatest(ctx context.Context, db DBTX) (CommitRow, error) {
 	var c CommitRow
-	err := db.QueryRow(ctx, "SELECT committed_at, login FROM register_commit ORDER BY committed_at DESC LIMIT 1").Scan(&c.CommittedAt, &c.Login)
+	err := db.QueryRow(ctx, "SELECT committed_at, login FROM register_commit WHERE seq > 0 ORDER BY committed_at DESC LIMIT 1").Scan(&c.CommittedAt, &c.Login)
 	return c, translate(err)
 }
 

@@ -1,0 +1,127 @@
+package cli
+
+import (
+	"bytes"
+	"context"
+	"fmt"
+	"os"
+	"path/filepath"
+	"strings"
+	"testing"
+
+	"cairn/internal/pgtest"
+)
+
+// A signed statement verifies; one byte changed, or another key, fails.
+// A wholesale rewrite (a row changed and every manifest, digest and hash
+// recomputed in SQL) passes plain verify but not verify --against the
+// statement made before it.
+func TestStatementSignedAndRewriteCaught(t *testing.T) {
+	t.Parallel()
+	db := pgtest.New(t)
+	ctx := context.Background()
+	runs, _ := seedWorked(t, db, 1)
+	id := adjustForTest(t, db.URL, fmt.Sprint(runs[0]))
+	mustRun(t, db.URL, "publish", id, "--reason", "worked circuit, reviewed", "--yes")
+
+	dir := t.TempDir()
+	key := filepath.Join(dir, "office.key")
+	_, out, st := run(t, db.URL, "audit", "key", "new", key)
+	if st != ExitOK || !strings.Contains(out, "public key ") {
+		t.Fatalf("audit key new: exit %d, %s", st, out)
+	}
+	if fi, err := os.Stat(key); err != nil || fi.Mode().Perm() != 0o600 {
+		t.Fatalf("key file: %v %v", fi, err)
+	}
+	stmt, errOut, st := run(t, db.URL, "audit", "head", "--key", key)
+	if st != ExitOK || !strings.Contains(stmt, `"signature"`) {
+		t.Fatalf("audit head: exit %d, %s %s", st, stmt, errOut)
+	}
+	sfile := filepath.Join(dir, "s1.json")
+	os.WriteFile(sfile, []byte(stmt), 0o644)
+	if _, errOut, st := run(t, db.URL, "audit", "verify", "--against", sfile); st != ExitOK || !strings.Contains(errOut, "signature verifies") {
+		t.Fatalf("verify against a signed statement: exit %d, %s", st, errOut)
+	}
+	// One byte changed: a digit of the head hash.
+	i := strings.Index(stmt, `"head": "`) + len(`"head": "`)
+	bad := []byte(stmt)
+	if bad[i] == '0' {
+		bad[i] = '1'
+	} else {
+		bad[i] = '0'
+	}
+	tampered := filepath.Join(dir, "tampered.json")
+	os.WriteFile(tampered, bad, 0o644)
+	if _, errOut, st := run(t, db.URL, "audit", "verify", "--against", tampered); st != ExitChecks || !strings.Contains(errOut, "signature does not verify") {
+		t.Errorf("verify against a statement with one byte changed: exit %d, %s", st, errOut)
+	}
+	other := filepath.Join(dir, "other.key")
+	_, out, _ = run(t, db.URL, "audit", "key", "new", other)
+	otherPub := strings.TrimSpace(strings.TrimPrefix(strings.TrimSpace(out), "public key"))
+	if _, errOut, st := run(t, db.URL, "audit", "verify", "--against", sfile, "--public-key", otherPub); st != ExitChecks || !strings.Contains(errOut, "not the key given") {
+		t.Errorf("verify with another public key: exit %d, %s", st, errOut)
+	}
+
+	// The register grows; the statement still holds.
+	mustRun(t, db.URL, "mark", "add", "TC-0900", "--by", "tester")
+	if _, errOut, st := run(t, db.URL, "audit", "verify", "--against", sfile); st != ExitOK || !strings.Contains(errOut, "only grew") {
+		t.Fatalf("verify after growth: exit %d, %s", st, errOut)
+	}
+
+	// The wholesale rewrite, by the superuser.
+	conn, err := db.Pool.Acquire(ctx)
+	if err != nil {
+		t.Fatal(err)
+	}
+	for _, q := range []string{
+		"SET session_replication_role = replica",
+		"UPDATE mark SET stamping = 'REWRITTEN' WHERE id = (SELECT min(id) FROM mark)",
+		`DO $$
+		DECLARE c record; h bytea; man text; dig bytea;
+		BEGIN
+			FOR c IN SELECT * FROM register_commit ORDER BY seq LOOP
+				man := cairn_commit_manifest(CASE WHEN c.seq = 0 THEN NULL ELSE c.xid END);
+				dig := sha256(convert_to(man, 'UTF8'));
+				h := sha256(convert_to(cairn_commit_text(h, c.seq, c.xid, c.committed_at, c.login, dig), 'UTF8'));
+				UPDATE register_commit SET manifest = man, digest = dig, hash = h WHERE seq = c.seq;
+			END LOOP;
+		END $$`,
+		"SET session_replication_role = origin",
+	} {
+		if _, err := conn.Exec(ctx, q); err != nil {
+			t.Fatalf("%s: %v", q, err)
+		}
+	}
+	conn.Release()
+	if _, errOut, st := run(t, db.URL, "audit", "verify"); st != ExitOK {
+		t.Errorf("plain verify after a wholesale rewrite: exit %d, %s (it cannot see it; want 0)", st, errOut)
+	}
+	if _, errOut, st := run(t, db.URL, "audit", "verify", "--against", sfile); st != ExitChecks || !strings.Contains(errOut, "changed, removed or reordered") {
+		t.Errorf("verify --against after a wholesale rewrite: exit %d, %s", st, errOut)
+	}
+}
+
+// backup writes a statement beside the dump; restore checks it, and fails
+// when it does not hold.
+func TestBackupStatementRestoreChecks(t *testing.T) {
+	t.Parallel()
+	db := pgtest.New(t)
+	seedWorked(t, db, 1)
+	file := filepath.Join(t.TempDir(), "register.dump")
+	if _, errOut, st := run(t, db.URL, "backup", file); st != ExitOK || !strings.Contains(errOut, "statement of commit") {
+		t.Fatalf("backup: exit %d, %s", st, errOut)
+	}
+	data, err := os.ReadFile(file + ".statement.json")
+	if err != nil || !bytes.Contains(data, []byte(`"head"`)) {
+		t.Fatalf("statement beside the dump: %v %s", err, data)
+	}
+	if _, errOut, st := run(t, freshDatabase(t, db), "restore", file); st != ExitOK || !strings.Contains(errOut, "only grew") {
+		t.Fatalf("restore: exit %d, %s", st, errOut)
+	}
+	// A statement naming a later commit than the dump holds.
+	bad := bytes.Replace(data, []byte(`"seq": `), []byte(`"seq": 9`), 1)
+	os.WriteFile(file+".statement.json", bad, 0o644)
+	if _, errOut, st := run(t, freshDatabase(t, db), "restore", file); st != ExitChecks || !strings.Contains(errOut, "does not hold") {
+		t.Errorf("restore against a statement that does not hold: exit %d, %s", st, errOut)
+	}
+}

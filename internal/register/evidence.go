@@ -1,0 +1,380 @@
+package register
+
+import (
+	"bytes"
+	"context"
+	"crypto/ed25519"
+	"crypto/sha256"
+	"crypto/x509"
+	"encoding/hex"
+	"encoding/json"
+	"encoding/pem"
+	"errors"
+	"fmt"
+	"hash"
+	"os"
+	"sort"
+	"strconv"
+	"strings"
+	"time"
+
+	"github.com/jackc/pgx/v5"
+
+	"cairn/internal/store"
+)
+
+// CommitText is the canonical text whose SHA-256 is a commit's hash
+// (docs/reliability.md, "The evidence"), as the database's
+// cairn_commit_text builds it (migrations/00013), written again here.
+func CommitText(prev []byte, seq int64, xid uint64, at time.Time, login string, digest []byte) string {
+	return "cairn-commit:1\n" +
+		"prev:" + hex.EncodeToString(prev) + "\n" +
+		"seq:" + strconv.FormatInt(seq, 10) + "\n" +
+		"xid:" + strconv.FormatUint(xid, 10) + "\n" +
+		"committed_at:" + at.UTC().Format("2006-01-02T15:04:05.000000Z") + "\n" +
+		"login:" + strconv.Itoa(len(login)) + ":" + login + "\n" +
+		"digest:" + hex.EncodeToString(digest) + "\n"
+}
+
+// EvidenceBreak is one fault found in the commit chain.
+type EvidenceBreak struct {
+	Seq         int64     `json:"seq"`
+	Xid         uint64    `json:"xid"`
+	CommittedAt time.Time `json:"committed_at,omitzero"`
+	Table       string    `json:"table,omitempty"`
+	Problem     string    `json:"problem"`
+}
+
+// EvidenceReport is the result of EvidenceVerify.
+type EvidenceReport struct {
+	Commits      int64            `json:"commits"`
+	Rows         map[string]int64 `json:"rows"`
+	Seq          int64            `json:"seq"`
+	Head         string           `json:"head"`
+	LatestCommit time.Time        `json:"latest_commit,omitzero"`
+	Against      *int64           `json:"against_seq,omitempty"`
+	Breaks       []EvidenceBreak  `json:"breaks"`
+}
+
+type tableSum struct {
+	rows int64
+	h    hash.Hash
+}
+
+// EvidenceVerify recomputes, from the rows by plain SELECTs in one
+// snapshot, the manifest and digest of every commit, seq by seq, and the
+// chain of hashes, and reports: a commit whose rows no longer match its
+// manifest (naming the table), a manifest that does not match its digest,
+// a broken link (a commit removed, reordered or rewritten), a time out of
+// order, and rows no commit covers. With against, it also proves that the
+// chain recomputed up to the statement's seq ends at the statement's
+// head, with the statement's counts. Linear in rows and commits; one page
+// of commits and one row at a time in memory.
+func (r *Register) EvidenceVerify(ctx context.Context, against *Statement) (EvidenceReport, error) {
+	rep := EvidenceReport{Rows: map[string]int64{}, Breaks: []EvidenceBreak{}}
+	tx, err := r.pool.BeginTx(ctx, pgx.TxOptions{IsoLevel: pgx.RepeatableRead, AccessMode: pgx.ReadOnly})
+	if err != nil {
+		return rep, fmt.Errorf("begin the audit: %w", err)
+	}
+	defer tx.Rollback(ctx)
+	if err := store.EvidenceSession(ctx, tx); err != nil {
+		return rep, err
+	}
+	var (
+		storedPrev []byte // the stored hash of the previous commit
+		recPrev    []byte // the recomputed hash of the previous commit
+		prevSeq    int64  = -1
+		prevAt     time.Time
+		seen       bool
+		atStmt     bool
+	)
+	var stmtRows map[string]int64
+	after := int64(-1)
+	for {
+		page, err := store.EvidenceCommitPage(ctx, tx, after, 1000)
+		if err != nil {
+			return rep, err
+		}
+		if len(page) == 0 {
+			break
+		}
+		for _, c := range page {
+			after = c.Seq
+			rep.Commits++
+			brk := func(table, problem string) {
+				rep.Breaks = append(rep.Breaks, EvidenceBreak{Seq: c.Seq, Xid: c.Xid, CommittedAt: c.CommittedAt, Table: table, Problem: problem})
+			}
+			// The link.
+			switch {
+			case !seen && c.Seq != 0 && c.Seq != 1:
+				brk("", fmt.Sprintf("broken link: the first commit is seq %d, not 0 or 1: commits before it were removed", c.Seq))
+			case seen && c.Seq != prevSeq+1:
+				brk("", fmt.Sprintf("broken link: seq %d follows seq %d: %d commit(s) removed", c.Seq, prevSeq, c.Seq-prevSeq-1))
+			}
+			if seen && !c.CommittedAt.After(prevAt) {
+				brk("", "committed at or before the commit before it: commits reordered")
+			}
+			if want := sha256.Sum256([]byte(CommitText(storedPrev, c.Seq, c.Xid, c.CommittedAt, c.Login, c.Digest))); !bytes.Equal(want[:], c.Hash) {
+				brk("", "broken link: the stored hash does not follow from the commit before it and this commit's digest (a commit removed, reordered or rewritten)")
+			}
+			if d := sha256.Sum256([]byte(c.Manifest)); !bytes.Equal(d[:], c.Digest) {
+				brk("", "the manifest does not match the digest")
+			}
+			// The rows.
+			sums := map[string]*tableSum{}
+			var order []string
+			err := store.EvidenceRows(ctx, tx, c.Xid, c.Seq == 0 && c.Xid == 0, func(table string, text []byte) error {
+				if text == nil {
+					return nil
+				}
+				s := sums[table]
+				if s == nil {
+					s = &tableSum{h: sha256.New()}
+					sums[table] = s
+					order = append(order, table)
+				}
+				s.rows++
+				s.h.Write(text)
+				s.h.Write([]byte{'\n'})
+				return nil
+			})
+			if err != nil {
+				return rep, err
+			}
+			var man strings.Builder
+			got := map[string]string{}
+			for _, t := range order {
+				line := fmt.Sprintf("%d %s", sums[t].rows, hex.EncodeToString(sums[t].h.Sum(nil)))
+				got[t] = line
+				fmt.Fprintf(&man, "%s %s\n", t, line)
+				rep.Rows[t] += sums[t].rows
+			}
+			stored := map[string]string{}
+			for _, l := range strings.Split(strings.TrimSuffix(c.Manifest, "\n"), "\n") {
+				if t, rest, ok := strings.Cut(l, " "); ok {
+					stored[t] = rest
+				}
+			}
+			for _, t := range store.EvidenceTables {
+				g, s := got[t.Name], stored[t.Name]
+				switch {
+				case g == s:
+				case s == "":
+					brk(t.Name, fmt.Sprintf("%s row(s) that the commit did not write (added since)", strings.Fields(g)[0]))
+				case g == "":
+					brk(t.Name, fmt.Sprintf("the commit wrote %s row(s); none is left (removed since)", strings.Fields(s)[0]))
+				default:
+					brk(t.Name, fmt.Sprintf("the rows changed since the commit: it wrote %s row(s), there are %s, and they no longer hash to what it recorded",
+						strings.Fields(s)[0], strings.Fields(g)[0]))
+				}
+			}
+			recDigest := sha256.Sum256([]byte(man.String()))
+			rec := sha256.Sum256([]byte(CommitText(recPrev, c.Seq, c.Xid, c.CommittedAt, c.Login, recDigest[:])))
+			recPrev, storedPrev = rec[:], c.Hash
+			prevSeq, prevAt, seen = c.Seq, c.CommittedAt, true
+			rep.Seq, rep.Head, rep.LatestCommit = c.Seq, hex.EncodeToString(rec[:]), c.CommittedAt
+			if against != nil && c.Seq == against.Seq {
+				atStmt = true
+				stmtRows = map[string]int64{}
+				for k, v := range rep.Rows {
+					stmtRows[k] = v
+				}
+				if rep.Head != against.Head {
+					brk("", fmt.Sprintf("the register recomputed up to the statement's seq %d (made %s) ends at hash %s, not the statement's %s: something recorded before the statement was changed, removed or reordered",
+						against.Seq, against.MadeAt.UTC().Format(time.RFC3339), rep.Head, against.Head))
+				}
+			}
+		}
+	}
+	if against != nil {
+		n := against.Seq
+		rep.Against = &n
+		switch {
+		case !atStmt && against.Seq == 0 && rep.Commits == 0 && against.Head == "":
+			// An empty register's statement, and still empty.
+		case !atStmt:
+			rep.Breaks = append(rep.Breaks, EvidenceBreak{Seq: against.Seq, Problem: fmt.Sprintf("the register's chain has no commit seq %d, which the statement (made %s) names: the register did not only grow since",
+				against.Seq, against.MadeAt.UTC().Format(time.RFC3339))})
+		default:
+			var diff []string
+			for _, t := range store.EvidenceTables {
+				if stmtRows[t.Name] != against.Rows[t.Name] {
+					diff = append(diff, fmt.Sprintf("%s %d, statement %d", t.Name, stmtRows[t.Name], against.Rows[t.Name]))
+				}
+			}
+			if len(diff) > 0 {
+				rep.Breaks = append(rep.Breaks, EvidenceBreak{Seq: against.Seq, Problem: "rows up to the statement's seq: " + strings.Join(diff, "; ")})
+			}
+		}
+	}
+	unc, err := store.EvidenceUncoveredRows(ctx, tx)
+	if err != nil {
+		return rep, err
+	}
+	for _, u := range unc {
+		b := EvidenceBreak{Table: u.Table, Seq: -1}
+		if u.Xid == nil {
+			b.Problem = fmt.Sprintf("%d row(s) with no transaction, and no genesis entry covers them (added behind the register's back)", u.Rows)
+		} else {
+			b.Xid = *u.Xid
+			b.Problem = fmt.Sprintf("%d row(s) of transaction %d, which no commit covers (added behind the register's back, or its commit removed)", u.Rows, *u.Xid)
+		}
+		rep.Breaks = append(rep.Breaks, b)
+	}
+	return rep, nil
+}
+
+// Statement is a small, signed account of the register's state: what an
+// office keeps outside the database (docs/reliability.md, "Statements").
+type Statement struct {
+	Format       string           `json:"format"` // "cairn-statement 1"
+	Database     string           `json:"database"`
+	SystemID     string           `json:"system_identifier"`
+	Seq          int64            `json:"seq"`
+	Head         string           `json:"head"`
+	Rows         map[string]int64 `json:"rows"`
+	LatestCommit time.Time        `json:"latest_commit"`
+	MadeAt       time.Time        `json:"made_at"`
+	Cairn        string           `json:"cairn_version"`
+	PublicKey    string           `json:"public_key,omitempty"` // Ed25519, hex
+	Signature    string           `json:"signature,omitempty"`  // Ed25519 over SignedBytes, hex
+}
+
+const statementFormat = "cairn-statement 1"
+
+// SignedBytes is what the signature covers: the statement's canonical
+// JSON without its signature.
+func (s Statement) SignedBytes() []byte {
+	s.Signature = ""
+	b, _ := json.Marshal(s)
+	return b
+}
+
+// Encode is the statement's file: its canonical JSON, indented, and a
+// newline. A file that is not exactly this for what it says is refused
+// by ParseStatement, so no byte of it may change unnoticed.
+func (s Statement) Encode() []byte {
+	b, _ := json.MarshalIndent(s, "", "  ")
+	return append(b, '\n')
+}
+
+// ParseStatement reads a statement's file and checks its signature, with
+// pub when given (hex), else with the key it carries. signed says whether
+// it was signed.
+func ParseStatement(data []byte, pub string) (s Statement, signed bool, err error) {
+	dec := json.NewDecoder(bytes.NewReader(data))
+	dec.DisallowUnknownFields()
+	if err := dec.Decode(&s); err != nil {
+		return s, false, fmt.Errorf("not a cairn statement: %v", err)
+	}
+	if s.Format != statementFormat {
+		return s, false, fmt.Errorf("format %q, not %q", s.Format, statementFormat)
+	}
+	if !bytes.Equal(s.Encode(), data) {
+		return s, false, errors.New("not in the form cairn writes (changed since it was made?)")
+	}
+	if pub == "" {
+		pub = s.PublicKey
+	} else if s.PublicKey != "" && !strings.EqualFold(pub, s.PublicKey) {
+		return s, false, fmt.Errorf("signed with key %s, not the key given %s", s.PublicKey, pub)
+	}
+	if s.Signature == "" {
+		if pub != "" {
+			return s, false, errors.New("not signed, though a public key was given")
+		}
+		return s, false, nil
+	}
+	key, err := hex.DecodeString(pub)
+	if err != nil || len(key) != ed25519.PublicKeySize {
+		return s, false, fmt.Errorf("public key %q is not %d bytes of hex", pub, ed25519.PublicKeySize)
+	}
+	sig, err := hex.DecodeString(s.Signature)
+	if err != nil || !ed25519.Verify(ed25519.PublicKey(key), s.SignedBytes(), sig) {
+		return s, false, errors.New("the signature does not verify: the statement was changed, or signed with another key")
+	}
+	return s, true, nil
+}
+
+// MakeStatement verifies the whole chain and, when it holds, returns a
+// statement of its head, signed with key when not nil. A register whose
+// chain does not verify gets no statement.
+func (r *Register) MakeStatement(ctx context.Context, version string, key ed25519.PrivateKey) (Statement, EvidenceReport, error) {
+	rep, err := r.EvidenceVerify(ctx, nil)
+	if err != nil {
+		return Statement{}, rep, err
+	}
+	if len(rep.Breaks) > 0 {
+		return Statement{}, rep, nil
+	}
+	db, sys, err := store.RegisterIdentity(ctx, r.pool)
+	if err != nil {
+		return Statement{}, rep, err
+	}
+	now, err := store.ServerClock(ctx, r.pool)
+	if err != nil {
+		return Statement{}, rep, err
+	}
+	s := Statement{Format: statementFormat, Database: db, SystemID: sys, Seq: rep.Seq, Head: rep.Head, Rows: map[string]int64{},
+		LatestCommit: rep.LatestCommit.UTC(), MadeAt: now.UTC().Truncate(time.Microsecond), Cairn: version}
+	keys := make([]string, 0, len(rep.Rows))
+	for k := range rep.Rows {
+		keys = append(keys, k)
+	}
+	sort.Strings(keys)
+	for _, k := range keys {
+		s.Rows[k] = rep.Rows[k]
+	}
+	if key != nil {
+		s.PublicKey = hex.EncodeToString(key.Public().(ed25519.PublicKey))
+		s.Signature = hex.EncodeToString(ed25519.Sign(key, s.SignedBytes()))
+	}
+	return s, rep, nil
+}
+
+// NewStatementKey writes a new Ed25519 private key to file (PEM, PKCS #8,
+// mode 0600; the file must not exist) and returns its public key in hex.
+func NewStatementKey(file string) (string, error) {
+	pub, priv, err := ed25519.GenerateKey(nil)
+	if err != nil {
+		return "", err
+	}
+	der, err := x509.MarshalPKCS8PrivateKey(priv)
+	if err != nil {
+		return "", err
+	}
+	f, err := os.OpenFile(file, os.O_WRONLY|os.O_CREATE|os.O_EXCL, 0o600)
+	if err != nil {
+		return "", err
+	}
+	if err := pem.Encode(f, &pem.Block{Type: "PRIVATE KEY", Bytes: der}); err != nil {
+		f.Close()
+		os.Remove(file)
+		return "", err
+	}
+	if err := f.Close(); err != nil {
+		os.Remove(file)
+		return "", err
+	}
+	return hex.EncodeToString(pub), nil
+}
+
+// ReadStatementKey reads a key file NewStatementKey wrote.
+func ReadStatementKey(file string) (ed25519.PrivateKey, error) {
+	data, err := os.ReadFile(file)
+	if err != nil {
+		return nil, err
+	}
+	blk, _ := pem.Decode(data)
+	if blk == nil || blk.Type != "PRIVATE KEY" {
+		return nil, fmt.Errorf("%s: not a PEM \"PRIVATE KEY\" block", file)
+	}
+	k, err := x509.ParsePKCS8PrivateKey(blk.Bytes)
+	if err != nil {
+		return nil, fmt.Errorf("%s: %v", file, err)
+	}
+	priv, ok := k.(ed25519.PrivateKey)
+	if !ok {
+		return nil, fmt.Errorf("%s: not an Ed25519 key", file)
+	}
+	return priv, nil
+}
