@@ -175,6 +175,30 @@ func (r *Register) Adjust(ctx context.Context, p AdjustParams) (*AdjustmentView,
 	if err := p.check(); err != nil {
 		return nil, err
 	}
+	// A draft reads one snapshot (repeatable read) and stamps its commit
+	// after every commit before it (migrations/00013): a commit stamped by
+	// another writer since the snapshot makes it a conflict. The draft is
+	// then made again from the register as it now stands, a few times.
+	var v *AdjustmentView
+	var err error
+	for attempt := 1; ; attempt++ {
+		v, err = r.adjustOnce(ctx, p)
+		if err == nil || attempt == adjustAttempts || !errors.Is(err, store.ErrConflict) {
+			break
+		}
+	}
+	if err != nil {
+		return nil, fmt.Errorf("adjust: %w", err)
+	}
+	return v, nil
+}
+
+// adjustAttempts is how many times Adjust makes a draft whose commit
+// conflicts with another writer's.
+const adjustAttempts = 3
+
+// adjustOnce makes and stores the draft in one transaction.
+func (r *Register) adjustOnce(ctx context.Context, p AdjustParams) (*AdjustmentView, error) {
 	v := &AdjustmentView{}
 	err := r.withTx(ctx, pgx.TxOptions{IsoLevel: pgx.RepeatableRead}, func(tx pgx.Tx) error {
 		g, err := r.gather(ctx, tx, p)
@@ -201,7 +225,7 @@ func (r *Register) Adjust(ctx context.Context, p AdjustParams) (*AdjustmentView,
 		return r.storeDraft(ctx, tx, v)
 	})
 	if err != nil {
-		return nil, fmt.Errorf("adjust: %w", err)
+		return nil, err
 	}
 	return v, nil
 }
