@@ -325,6 +325,11 @@ type markInDoubtJSON struct {
 	Note       string `json:"note"`
 }
 
+func toMarkInDoubtJSON(d register.MarkInDoubt) markInDoubtJSON {
+	return markInDoubtJSON{Mark: d.Designation, Condition: d.Condition.Condition,
+		ObservedOn: d.Condition.ObservedOn.Format("2006-01-02"), Note: d.Condition.Note}
+}
+
 type adjSectionJSON struct {
 	RunID       int64    `json:"run_id"`
 	Seq         int      `json:"section"`
@@ -412,8 +417,7 @@ func toAdjustmentJSON(v *register.AdjustmentView, dryRun bool) adjustmentJSON {
 			Unit: h.Unit, Current: h.Current, Source: h.Source, HeightID: h.ID, Doubts: doubtsJSON(v.HeldDoubts[h.Designation])})
 	}
 	for _, d := range v.InDoubt {
-		j.MarksInDoubt = append(j.MarksInDoubt, markInDoubtJSON{Mark: d.Designation, Condition: d.Condition.Condition,
-			ObservedOn: d.Condition.ObservedOn.Format("2006-01-02"), Note: d.Condition.Note})
+		j.MarksInDoubt = append(j.MarksInDoubt, toMarkInDoubtJSON(d))
 	}
 	for _, s := range v.Sections {
 		j.Sections = append(j.Sections, adjSectionJSON{RunID: s.RunID, Seq: s.Seq, From: s.From, To: s.To, FromLine: s.FirstLine,

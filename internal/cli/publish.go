@@ -382,8 +382,7 @@ func publishRun(opts *publishOptions) error {
 		out.ConditionsReported = append(out.ConditionsReported, reportedJSON{Mark: c.Designation, conditionJSON: toConditionJSON(c.Condition)})
 	}
 	for _, d := range pub.StillInDoubt {
-		out.StillInDoubt = append(out.StillInDoubt, markInDoubtJSON{Mark: d.Designation, Condition: d.Condition.Condition,
-			ObservedOn: d.Condition.ObservedOn.Format("2006-01-02"), Note: d.Condition.Note})
+		out.StillInDoubt = append(out.StillInDoubt, toMarkInDoubtJSON(d))
 	}
 	for _, c := range pub.Changes {
 		out.Changes = append(out.Changes, toMarkChangeJSON(c))
