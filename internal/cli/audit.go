@@ -6,13 +6,20 @@ import (
 	"cairn/internal/register"
 )
 
-// renderAudit prints an audit's report: the breaks of the hash chains (the
-// table `audit verify` always printed), then, when there are any, the
-// breaks found by deriving the register again (KIND, WHERE, SINCE, WHAT),
-// and on stderr a summary of what was checked. In JSON the whole report
-// is one document (breaks and findings). It returns checksFailed when
-// anything broke.
+// renderAudit prints an audit's report (writeAuditTables), then its
+// summary (summarizeAudit).
 func renderAudit(ios *IOStreams, format Format, rep register.AuditReport) error {
+	if err := writeAuditTables(ios, format, rep); err != nil {
+		return err
+	}
+	return summarizeAudit(ios, rep)
+}
+
+// writeAuditTables prints the breaks of the hash chains (the table `audit
+// verify` always printed), then, when there are any, the breaks found by
+// deriving the register again (KIND, WHERE, SINCE, WHAT). In JSON the whole
+// report is one document (breaks and findings).
+func writeAuditTables(ios *IOStreams, format Format, rep register.AuditReport) error {
 	if err := render(ios, format, rep, func() Table {
 		t := Table{Headers: []string{"MARK", "DATUM", "VERSION", "PROBLEM", "EXPECTED HASH", "STORED HASH"}}
 		for _, b := range rep.Breaks {
@@ -34,6 +41,12 @@ func renderAudit(ios *IOStreams, format Format, rep register.AuditReport) error 
 			return err
 		}
 	}
+	return nil
+}
+
+// summarizeAudit says on stderr what the audit checked, and returns
+// checksFailed when anything broke.
+func summarizeAudit(ios *IOStreams, rep register.AuditReport) error {
 	if rep.SchemaUnchecked != "" {
 		warnLoudly(ios, "audit: "+rep.SchemaUnchecked)
 	}

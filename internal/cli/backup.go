@@ -154,9 +154,6 @@ func restoreRun(opts *backupOptions) error {
 	if err != nil {
 		return err
 	}
-	if err := store.RestoreRevokes(ctx, pool); err != nil {
-		return err
-	}
 	if len(missing) > 0 {
 		fmt.Fprintf(f.IO.ErrOut, "roles %s are missing on this server: run cairn db roles as a role that may create them\n", strings.Join(missing, ", "))
 	}
@@ -179,7 +176,7 @@ func restoreRun(opts *backupOptions) error {
 		f.IO.printf("no statement %s beside the backup: the commit chain is checked on its own\n", sf)
 		sf = ""
 	}
-	if _, err := verifyAgainst(ctx, f, register.New(pool), sf, ""); err != nil {
+	if _, _, err := verifyAgainst(ctx, f, register.New(pool), sf, ""); err != nil {
 		f.IO.printf("cairn: the restore of %s is refused: the restored register does not hold against its statement or its commit chain; database %q is kept as restored, for inspection: do not use it\n",
 			opts.file, srv.Database)
 		return err

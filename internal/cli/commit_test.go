@@ -71,6 +71,11 @@ func TestEveryRowCarriesItsLogin(t *testing.T) {
 		t.Fatal(err)
 	}
 	for table, n := range counts {
+		if table == "register_cluster" {
+			// The clusters the register met, written by its owner's
+			// migrations (migrations/00014), not by a command.
+			continue
+		}
 		if n == 0 {
 			t.Errorf("%s: no rows written; the test should write every table", table)
 			continue

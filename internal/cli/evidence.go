@@ -130,23 +130,36 @@ func auditKeyNewRun(opts *auditKeyOptions) error {
 	return nil
 }
 
+// statementCheck is what became of the statement audit verify was given:
+// its file, whether it was signed and by which key, or why it was refused.
+type statementCheck struct {
+	File      string `json:"file"`
+	Signed    bool   `json:"signed"`
+	PublicKey string `json:"public_key,omitempty"`
+	Refused   string `json:"refused,omitempty"`
+}
+
 // verifyAgainst checks the evidence chain, and against the statement in
 // file when not empty; it prints what it found and returns checksFailed
-// when anything does not hold.
-func verifyAgainst(ctx context.Context, f *Factory, r *register.Register, file, pub string) (register.EvidenceReport, error) {
+// when anything does not hold. The statement's check is nil without one.
+func verifyAgainst(ctx context.Context, f *Factory, r *register.Register, file, pub string) (register.EvidenceReport, *statementCheck, error) {
 	var stmt *register.Statement
+	var check *statementCheck
 	if file != "" {
 		data, err := os.ReadFile(file)
 		if err != nil {
-			return register.EvidenceReport{}, badInput("statement: %v", err)
+			return register.EvidenceReport{}, nil, badInput("statement: %v", err)
 		}
+		check = &statementCheck{File: file}
 		s, signed, err := register.ParseStatement(data, pub)
 		if err != nil {
 			f.IO.printf("statement %s: %v\n", file, err)
-			return register.EvidenceReport{}, checksFailed{1}
+			check.Refused = err.Error()
+			return register.EvidenceReport{Rows: map[string]int64{}, Breaks: []register.EvidenceBreak{}}, check, checksFailed{1}
 		}
 		if signed {
 			f.IO.printf("statement %s: signed by %s, signature verifies\n", file, s.PublicKey)
+			check.Signed, check.PublicKey = true, s.PublicKey
 		} else {
 			f.IO.printf("statement %s: not signed\n", file)
 		}
@@ -154,17 +167,17 @@ func verifyAgainst(ctx context.Context, f *Factory, r *register.Register, file, 
 	}
 	rep, err := r.EvidenceVerify(ctx, stmt)
 	if err != nil {
-		return rep, err
+		return rep, check, err
 	}
 	if len(rep.Breaks) > 0 {
 		printEvidenceBreaks(f, rep)
 		f.IO.printf("evidence: %d break(s) in %d commit(s)\n", len(rep.Breaks), rep.Commits)
-		return rep, checksFailed{len(rep.Breaks)}
+		return rep, check, checksFailed{len(rep.Breaks)}
 	}
 	f.IO.printf("evidence: %d commit(s) verify, head seq %d %s\n", rep.Commits, rep.Seq, rep.Head)
 	if stmt != nil {
 		f.IO.printf("evidence: everything up to the statement's seq %d (made %s) is unchanged, and the register only grew since\n",
 			stmt.Seq, stmt.MadeAt.UTC().Format("2006-01-02 15:04:05Z"))
 	}
-	return rep, nil
+	return rep, check, nil
 }

@@ -3,6 +3,7 @@ package cli
 import (
 	"bytes"
 	"context"
+	"encoding/json"
 	"fmt"
 	"os"
 	"path/filepath"
@@ -41,6 +42,13 @@ func TestStatementSignedAndRewriteCaught(t *testing.T) {
 	os.WriteFile(sfile, []byte(stmt), 0o644)
 	if _, errOut, st := run(t, db.URL, "audit", "verify", "--against", sfile); st != ExitOK || !strings.Contains(errOut, "signature verifies") {
 		t.Fatalf("verify against a signed statement: exit %d, %s", st, errOut)
+	}
+	// The same in JSON: one document with the evidence and the statement.
+	out, errOut, st = run(t, db.URL, "audit", "verify", "--against", sfile, "-o", "json")
+	doc := auditDoc(t, out)
+	if st != ExitOK || !doc.Verified || doc.Evidence.Commits == 0 || len(doc.Evidence.Head) != 64 ||
+		doc.Statement == nil || !doc.Statement.Signed || doc.Statement.PublicKey == "" || doc.Evidence.Against == nil {
+		t.Fatalf("verify -o json against a signed statement: exit %d, %+v, %s", st, doc, errOut)
 	}
 	// One byte changed: a digit of the head hash.
 	i := strings.Index(stmt, `"head": "`) + len(`"head": "`)
@@ -96,6 +104,10 @@ func TestStatementSignedAndRewriteCaught(t *testing.T) {
 	if _, errOut, st := run(t, db.URL, "audit", "verify"); st != ExitOK {
 		t.Errorf("plain verify after a wholesale rewrite: exit %d, %s (it cannot see it; want 0)", st, errOut)
 	}
+	out, _, st = run(t, db.URL, "audit", "verify", "--against", sfile, "-o", "json")
+	if doc := auditDoc(t, out); st != ExitChecks || doc.Verified || len(doc.Evidence.Breaks) == 0 || doc.Statement == nil {
+		t.Errorf("verify -o json --against after a wholesale rewrite: exit %d, %+v", st, doc)
+	}
 	if _, errOut, st := run(t, db.URL, "audit", "verify", "--against", sfile); st != ExitChecks || !strings.Contains(errOut, "changed, removed or reordered") {
 		t.Errorf("verify --against after a wholesale rewrite: exit %d, %s", st, errOut)
 	}
@@ -124,4 +136,30 @@ func TestBackupStatementRestoreChecks(t *testing.T) {
 	if _, errOut, st := run(t, freshDatabase(t, db), "restore", file); st != ExitChecks || !strings.Contains(errOut, "does not hold") {
 		t.Errorf("restore against a statement that does not hold: exit %d, %s", st, errOut)
 	}
+}
+
+// auditDocJSON is the part of audit verify's JSON the tests read.
+type auditDocJSON struct {
+	Verified bool `json:"verified"`
+	Evidence struct {
+		Commits int64  `json:"commits"`
+		Head    string `json:"head"`
+		Against *int64 `json:"against_seq"`
+		Breaks  []struct {
+			Problem string `json:"problem"`
+		} `json:"breaks"`
+	} `json:"evidence"`
+	Statement *struct {
+		Signed    bool   `json:"signed"`
+		PublicKey string `json:"public_key"`
+	} `json:"statement"`
+}
+
+func auditDoc(t *testing.T, out string) auditDocJSON {
+	t.Helper()
+	var d auditDocJSON
+	if err := json.Unmarshal([]byte(out), &d); err != nil {
+		t.Fatalf("audit verify -o json: %v\n%s", err, out)
+	}
+	return d
 }

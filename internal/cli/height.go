@@ -3,6 +3,7 @@ package cli
 import (
 	"context"
 	"encoding/hex"
+	"errors"
 	"slices"
 	"strconv"
 	"strings"
@@ -540,10 +541,36 @@ func auditVerifyRun(opts *auditVerifyOptions) error {
 	if err != nil {
 		return err
 	}
-	aerr := renderAudit(ios, opts.format, rep)
-	_, everr := verifyAgainst(opts.ctx, opts.f, r, opts.against, opts.publicKey)
+	if opts.format != FormatJSON {
+		aerr := renderAudit(ios, opts.format, rep)
+		_, _, everr := verifyAgainst(opts.ctx, opts.f, r, opts.against, opts.publicKey)
+		if aerr != nil {
+			return aerr
+		}
+		return everr
+	}
+	// One JSON document: the chains, what was derived again, the
+	// evidence, the statement; the summary lines on stderr as in a table.
+	ev, stmt, everr := verifyAgainst(opts.ctx, opts.f, r, opts.against, opts.publicKey)
+	var failed checksFailed
+	if everr != nil && !errors.As(everr, &failed) {
+		return everr
+	}
+	aerr := summarizeAudit(ios, rep)
+	if err := writeJSON(ios.Out, auditVerifyDoc{AuditReport: rep, Evidence: ev, Statement: stmt, Verified: aerr == nil && everr == nil}); err != nil {
+		return err
+	}
 	if aerr != nil {
 		return aerr
 	}
 	return everr
+}
+
+// auditVerifyDoc is audit verify's JSON: the audit's report with the
+// evidence's and the statement's, and whether everything verified.
+type auditVerifyDoc struct {
+	register.AuditReport
+	Evidence  register.EvidenceReport `json:"evidence"`
+	Statement *statementCheck         `json:"statement"`
+	Verified  bool                    `json:"verified"`
 }

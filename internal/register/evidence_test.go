@@ -28,7 +28,10 @@ func evidenceFixture(t *testing.T) *registertest.Bundle {
 // table not in the evidence fails here) is in the evidence, and a row of
 // each deleted, edited, or moved to another commit, by the superuser with
 // the triggers off, is reported by the audit, naming the table and the
-// commit that wrote it.
+// commit that wrote it. The register's own ledgers are not rows of a
+// commit: register_commit is the chain itself, and register_cluster
+// (migrations/00014) only the base of its numbers in each cluster, whose
+// lowering makes numbers meet again, which the chain reports.
 func TestEvidenceEveryTableTampered(t *testing.T) {
 	t.Parallel()
 	b := evidenceFixture(t)
@@ -41,7 +44,7 @@ func TestEvidenceEveryTableTampered(t *testing.T) {
 	for _, e := range store.EvidenceTables {
 		inEvidence[e.Name] = true
 	}
-	rows, err := pool.Query(ctx, "SELECT tablename FROM pg_tables WHERE schemaname = 'public' AND tablename NOT IN ('goose_db_version', 'register_commit') ORDER BY 1")
+	rows, err := pool.Query(ctx, "SELECT tablename FROM pg_tables WHERE schemaname = 'public' AND tablename NOT IN ('goose_db_version', 'register_commit', 'register_cluster') ORDER BY 1")
 	if err != nil {
 		t.Fatal(err)
 	}

@@ -245,20 +245,6 @@ func WithScratchRegister(ctx context.Context, pool *pgxpool.Pool, fn func(DBTX) 
 	return fn(scratch)
 }
 
-// RestoreRevokes makes again, on a database just restored, the revokes the
-// migrations make outside cairn_roles_apply, which a restore with
-// --no-privileges loses: EXECUTE from PUBLIC on not_after_today()
-// (migrations/00009) and on the evidence's functions (00013). A migration
-// that revokes outside cairn_roles_apply adds its functions here. (audit verify found it: without this a restored register's
-// grants are not its migrations'.)
-func RestoreRevokes(ctx context.Context, db DBTX) error {
-	if _, err := db.Exec(ctx, `REVOKE ALL ON FUNCTION not_after_today(), cairn_evidence_tables(), cairn_commit_manifest(xid8),
-		cairn_commit_text(bytea, bigint, xid8, timestamptz, text, bytea) FROM PUBLIC`); err != nil {
-		return fmt.Errorf("revoke what the migrations revoked: %w", translate(err))
-	}
-	return nil
-}
-
 // SchemaServerKey names what a freshly migrated database's schema depends
 // on besides the migrations: the server (address and version) and the
 // register's roles present on it, so that a fingerprint of a scratch

@@ -42,10 +42,13 @@ func CommitLatest(ctx context.Context, db DBTX) (CommitRow, error) {
 	return c, translate(err)
 }
 
-// TxID returns the id of transaction tx, assigning one if it has none.
+// TxID returns the register's number of transaction tx (cairn_xact(),
+// migrations/00014: the server's id, assigned if it has none, plus the
+// register's base in this cluster), the number its rows and its commit
+// carry.
 func TxID(ctx context.Context, tx pgx.Tx) (uint64, error) {
 	var id uint64
-	if err := tx.QueryRow(ctx, "SELECT pg_current_xact_id()::text::bigint").Scan(&id); err != nil {
+	if err := tx.QueryRow(ctx, "SELECT cairn_xact()::text::bigint").Scan(&id); err != nil {
 		return 0, fmt.Errorf("read the transaction's id: %w", translate(err))
 	}
 	return id, nil

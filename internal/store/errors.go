@@ -35,6 +35,11 @@ var (
 	// ErrClock: the database server's clock is behind the register's
 	// latest time (migrations/00012); nothing was written.
 	ErrClock = errors.New("clock refused")
+	// ErrUncarried: the register was copied into a database cluster it has
+	// not met, and its transaction numbers were not carried on
+	// (migrations/00014); nothing was written until the owner runs
+	// cairn db migrate.
+	ErrUncarried = errors.New("transaction numbers not carried into this cluster")
 )
 
 // Roles of the register (migrations/00005_roles.sql); each includes the
@@ -96,6 +101,7 @@ const (
 	codeFutureDate = "CA009" // a condition report or run dated after today (00009)
 	codeClock      = "CA012" // the server's clock is behind the register's latest time (00012)
 	codeSealed     = "CA004" // a row added to a parent made in another transaction (00011)
+	codeUncarried  = "CA013" // a write in a cluster the register has not met (00014)
 	codeDenied     = "42501" // insufficient_privilege
 )
 
@@ -137,6 +143,8 @@ func translate(err error) error {
 		return permission(pe, "")
 	case pe.Code == codeClock:
 		return fmt.Errorf("%w: %s", ErrClock, pe.Message)
+	case pe.Code == codeUncarried:
+		return fmt.Errorf("%w: %s (%s)", ErrUncarried, pe.Message, pe.Hint)
 	}
 	return err
 }

@@ -4,6 +4,7 @@ package store
 
 import (
 	"context"
+	"errors"
 	"database/sql"
 	"fmt"
 
@@ -54,7 +55,9 @@ func provider(db *sql.DB) (*goose.Provider, error) {
 	return goose.NewProvider(goose.DialectPostgres, db, migrations.FS, goose.WithSessionLocker(locker), goose.WithAllowOutofOrder(true))
 }
 
-// Migrate applies every pending migration.
+// Migrate applies every pending migration, and carries the register's
+// transaction numbers into this cluster when it has not met it before
+// (CarryTransactionNumbers).
 func Migrate(ctx context.Context, pool *pgxpool.Pool) error {
 	db := stdlib.OpenDBFromPool(pool)
 	defer db.Close()
@@ -62,8 +65,37 @@ func Migrate(ctx context.Context, pool *pgxpool.Pool) error {
 	if err != nil {
 		return err
 	}
-	_, err = p.Up(ctx)
+	if _, err = p.Up(ctx); err != nil {
+		return err
+	}
+	_, err = CarryTransactionNumbers(ctx, pool)
 	return err
+}
+
+// CarryTransactionNumbers makes the register at home in the database
+// cluster it is in (cairn_cluster_carry, migrations/00014): when it was
+// copied here from another cluster, by a restore or otherwise, the
+// register's base is raised so that every new transaction's number comes
+// after every number it recorded. It reports whether it did; it is the
+// owner's to run, and does nothing on a register already at home.
+func CarryTransactionNumbers(ctx context.Context, db DBTX) (bool, error) {
+	var home bool
+	if err := db.QueryRow(ctx, `SELECT (SELECT system_identifier FROM register_cluster ORDER BY id DESC LIMIT 1)
+		IS NOT DISTINCT FROM (SELECT system_identifier FROM pg_control_system())`).Scan(&home); err != nil {
+		return false, fmt.Errorf("look up the cluster the register last met: %w", translate(err))
+	}
+	if home {
+		return false, nil
+	}
+	var carried bool
+	if err := db.QueryRow(ctx, "SELECT cairn_cluster_carry()").Scan(&carried); errors.Is(translate(err), ErrPermission) {
+		// Not the owner: reading goes on, and a write is refused at its
+		// commit with the advice to have the owner migrate (CA013).
+		return false, nil
+	} else if err != nil {
+		return false, fmt.Errorf("carry the register's transaction numbers into this cluster: %w", translate(err))
+	}
+	return carried, nil
 }
 
 // MigrateDown rolls back every migration (used by the migration test).
