@@ -38,7 +38,7 @@ func CommitText(prev []byte, seq int64, xid uint64, at time.Time, login string, 
 
 // EvidenceBreak is one fault found in the commit chain.
 type EvidenceBreak struct {
-	Seq         int64     `json:"seq"`
+	Seq         int64     `json:"commit_seq"`
 	Xid         uint64    `json:"xid"`
 	CommittedAt time.Time `json:"committed_at,omitzero"`
 	Table       string    `json:"table,omitempty"`
@@ -49,7 +49,7 @@ type EvidenceBreak struct {
 type EvidenceReport struct {
 	Commits      int64            `json:"commits"`
 	Rows         map[string]int64 `json:"rows"`
-	Seq          int64            `json:"seq"`
+	Seq          int64            `json:"head_seq"`
 	Head         string           `json:"head"`
 	LatestCommit time.Time        `json:"latest_commit,omitzero"`
 	Against      *int64           `json:"against_seq,omitempty"`
