@@ -61,10 +61,15 @@ type solver struct {
 	q []float64 // cofactor qᵢ of section i
 
 	// classifyHeld, per point
-	held   []HeldKind
-	heldH  []float64 // the held height Hₕ
-	heldQ  []float64 // weighted: qₕ = σₕ²/σ₀²
-	heldAt []int32   // the point of each held mark, in the order added
+	held []HeldKind
+	// ref is the reference height H₀: the held height of the first mark
+	// that controls the adjustment (fixed or weighted). Every height inside
+	// the solver is relative to it (see classifyHeld).
+	ref     float64
+	heldH   []float64 // the held height relative to the reference, Hₕ − H₀
+	heldAt0 []float64 // the held height Hₕ as given, for marks held fixed
+	heldQ   []float64 // weighted: qₕ = σₕ²/σ₀²
+	heldAt  []int32   // the point of each held mark, in the order added
 	// marks held fixed and weighted
 	nfixed, nweighted int
 
@@ -151,11 +156,21 @@ func sectionError(net *Network, i int, field, format string, a ...any) error {
 // (σₕ = 0, or the first mark under Minimal), weighted with qₕ = σₕ²/σ₀², or
 // checked (any other mark under Minimal). A network without a fixed or
 // weighted mark is uncontrolled.
+//
+// It also chooses the reference height H₀, the held height of the first
+// mark that controls the adjustment, and keeps every held height as
+// Hₕ − H₀. The normal equations then carry heights relative to the datum's
+// level, not absolute ones: the solution's rounding error, which grows with
+// the size of the right-hand side times the condition of N (large when
+// weights differ widely), no longer grows with the height of the datum.
+// H₀ is added back to every adjusted height at the end (addReference); a
+// mark held fixed keeps the height it was given, unchanged.
 func (s *solver) classifyHeld() error {
 	net, opt := s.net, s.opt
 	np := len(net.pts.list)
 	s.held = make([]HeldKind, np)
 	s.heldH = make([]float64, np)
+	s.heldAt0 = make([]float64, np)
 	s.heldQ = make([]float64, np)
 	s.heldAt = make([]int32, len(net.held))
 	for k, h := range net.held {
@@ -186,6 +201,16 @@ func (s *solver) classifyHeld() error {
 	}
 	if s.nfixed+s.nweighted == 0 {
 		return &UncontrolledError{Points: net.pts.list, Parts: 1}
+	}
+	for _, id := range s.heldAt {
+		if s.held[id].controls() {
+			s.ref = s.heldH[id]
+			break
+		}
+	}
+	for _, id := range s.heldAt {
+		s.heldAt0[id] = s.heldH[id]
+		s.heldH[id] -= s.ref
 	}
 	return nil
 }
@@ -380,6 +405,22 @@ func (s *solver) backSubstitute() {
 	s.junctionResults()
 	s.chainResults()
 	s.heldResults()
+	s.addReference()
+}
+
+// addReference turns the relative heights back into heights: H₀ is added
+// to every adjusted point, and a mark held fixed gets its held height as
+// given (so it is exactly what was held, whatever the rounding of Hₕ − H₀).
+// Residuals and standard deviations do not depend on H₀.
+func (s *solver) addReference() {
+	for i := range s.sol.Points {
+		p := &s.sol.Points[i]
+		if s.jx[i] == fixedMark {
+			p.HeightM = s.heldAt0[i]
+		} else {
+			p.HeightM += s.ref
+		}
+	}
 }
 
 // junctionResults sets every point's name and held flag, and the height and
