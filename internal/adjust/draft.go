@@ -335,7 +335,7 @@ func (d *Draft) leastSquares(in DraftInput) error {
 			corr := pt.HeightM - heldM[pt.Point]
 			m.CorrectionM = &corr
 		} else {
-			m.Value = units.Format(d.Unit.FromMetres(pt.HeightM), d.Decimals)
+			m.Value = units.FormatIn(pt.HeightM, d.Unit, d.Decimals)
 		}
 		d.Marks[i] = m
 	}

@@ -7,7 +7,6 @@ import (
 	"io"
 	"math"
 	"os"
-	"strconv"
 	"sync"
 	"time"
 
@@ -15,6 +14,7 @@ import (
 
 	"cairn/internal/adjust"
 	"cairn/internal/netfile"
+	"cairn/internal/units"
 )
 
 type adjustOptions struct {
@@ -392,7 +392,7 @@ func writeAdjustment(ios *IOStreams, opts *adjustOptions, sol *adjust.NetworkSol
 	return render(ios, opts.Format, nil, func() Table {
 		t := Table{Headers: []string{"POINT", "HEIGHT (m)", "SD (m)"}}
 		for _, p := range sol.Points {
-			t.AddRow(p.Point, strconv.FormatFloat(p.HeightM, 'f', 4, 64), strconv.FormatFloat(p.SDM, 'f', 4, 64))
+			t.AddRow(p.Point, units.Format(p.HeightM, 4), units.Format(p.SDM, 4))
 		}
 		return t
 	})

@@ -14,6 +14,7 @@ import (
 	"cairn/internal/adjust"
 	"cairn/internal/register"
 	"cairn/internal/store"
+	"cairn/internal/units"
 )
 
 // adjustRegisterOptions are the options of `cairn adjust RUN... --hold`:
@@ -554,12 +555,13 @@ func renderAdjustment(ios *IOStreams, format Format, v *register.AdjustmentView,
 	return nil
 }
 
-// metres formats a value in metres to 0.1 mm, or "" for none.
+// metres formats a value in metres to 0.1 mm (units.Format's exact
+// rounding), or "" for none.
 func metres(v *float64) string {
 	if v == nil {
 		return ""
 	}
-	return strconv.FormatFloat(*v, 'f', 4, 64)
+	return units.Format(*v, 4)
 }
 
 // heldKind says how an adjustment held a mark: fixed ("held"), weighted

@@ -322,10 +322,10 @@ type numbers struct {
 func numbersFor(r *reduce.Result) numbers { return numbers{r.Unit, reduce.Decimals(r.Unit)} }
 
 // h formats a reading, height or difference (metres in) in the run's unit.
-func (n numbers) h(m float64) string { return units.Format(n.u.FromMetres(m), n.dec) }
+func (n numbers) h(m float64) string { return units.FormatIn(m, n.u, n.dec) }
 
 // d formats a distance.
-func (n numbers) d(m float64) string { return units.Format(n.u.FromMetres(m), reduce.DistanceDecimals) }
+func (n numbers) d(m float64) string { return units.FormatIn(m, n.u, reduce.DistanceDecimals) }
 
 // signed formats a difference with its sign.
 func (n numbers) signed(m float64) string {

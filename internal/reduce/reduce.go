@@ -329,8 +329,8 @@ func (r *Result) buildMisclosures() {
 func (r *Result) check() {
 	u := r.Unit
 	dec := Decimals(u)
-	f := func(m float64) string { return units.Format(u.FromMetres(m), dec) + " " + string(u) }
-	fd := func(m float64) string { return units.Format(u.FromMetres(m), DistanceDecimals) + " " + string(u) }
+	f := func(m float64) string { return units.FormatIn(m, u, dec) + " " + string(u) }
+	fd := func(m float64) string { return units.FormatIn(m, u, DistanceDecimals) + " " + string(u) }
 	checks := map[CheckKind]*Check{}
 	order := []CheckKind{CheckThreeWire, CheckDistance, CheckSightLength, CheckSetupImbalance, CheckSectionImbalance, CheckMisclosure, CheckHeldSight, CheckClosure}
 	for _, k := range order {
@@ -347,7 +347,7 @@ func (r *Result) check() {
 	c := checks[CheckThreeWire]
 	threeWireLimit := "0.003 m"
 	if u != units.Metre {
-		threeWireLimit += " (" + units.Format(u.FromMetres(standards.ThreeWireM), 4) + " " + string(u) + ")"
+		threeWireLimit += " (" + units.FormatIn(standards.ThreeWireM, u, 4) + " " + string(u) + ")"
 	}
 	c.Tolerance = "half-intervals agree within " + threeWireLimit
 	c.Source = standards.ThreeWireSource
