@@ -3,7 +3,6 @@ package adjust
 import (
 	"errors"
 	"fmt"
-	"math"
 	"slices"
 	"strings"
 
@@ -242,7 +241,7 @@ func (d *Draft) proportional(in DraftInput) error {
 			s := StretchStat{RunID: run.ID, From: st.From, To: st.To, LengthM: st.LengthM, Setups: st.Setups, MisclosureM: st.MisclosureM}
 			if hasClass && st.LengthM > 0 {
 				a := tol.AllowableLoopM(st.LengthM)
-				pass := math.Abs(st.MisclosureM) <= a
+				pass := standards.Within(st.MisclosureM, a)
 				s.Class, s.AllowableM, s.Pass = string(tol.Class), &a, &pass
 			}
 			d.Stats.Stretches = append(d.Stats.Stretches, s)
