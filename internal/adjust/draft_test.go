@@ -323,7 +323,7 @@ func TestNetworkOptionsDefaultsAndValidate(t *testing.T) {
 // two held marks in third order, allowable 12 mm·√1 km = 0.0120 m (FGCC
 // 1984 §3.5 loop column, from memory), passes with a misclosure of exactly
 // 0.0120 m and fails with 0.0121 m (one unit of the last place of a reading
-// over). The decimals sum in float64 to 0.012000000000000011, over the
+// over). The decimals sum in float64 to 0.012000000000000455, over the
 // limit by float noise only; without the rule's slack it would fail.
 func TestStretchMisclosureAtTheLimit(t *testing.T) {
 	for m, pass := range map[float64]bool{0.0120: true, -0.0120: true, 0.0119: true, 0.0121: false, -0.0121: false} {
