@@ -239,10 +239,13 @@ func (d *Draft) proportional(in DraftInput) error {
 		tol, hasClass := TolerancesOf(run.Class)
 		for _, st := range sol.Stretches {
 			s := StretchStat{RunID: run.ID, From: st.From, To: st.To, LengthM: st.LengthM, Setups: st.Setups, MisclosureM: st.MisclosureM}
+			if hasClass {
+				s.Class = string(tol.Class)
+			}
 			if hasClass && st.LengthM > 0 {
 				a := tol.AllowableLoopM(st.LengthM)
 				pass := standards.Within(st.MisclosureM, a)
-				s.Class, s.AllowableM, s.Pass = string(tol.Class), &a, &pass
+				s.AllowableM, s.Pass = &a, &pass
 			}
 			d.Stats.Stretches = append(d.Stats.Stretches, s)
 		}

@@ -37,8 +37,8 @@ type StretchStat struct {
 	// MisclosureM is computed minus held at To: positive when the run came
 	// in high.
 	MisclosureM float64 `json:"misclosure_m"`
-	// Class, AllowableM and Pass are set when the run's class is known and
-	// the stretch has a length.
+	// Class is set when the run's class is known; AllowableM and Pass when
+	// it is and the stretch has a length as well.
 	Class      string   `json:"class,omitempty"`
 	AllowableM *float64 `json:"allowable_m,omitempty"`
 	Pass       *bool    `json:"pass,omitempty"`

@@ -403,16 +403,13 @@ func round6(v float64) float64 { return math.Round(v*1e6) / 1e6 }
 // writeAdjustReport prints the statistics and the flagged sections.
 func writeAdjustReport(w io.Writer, sol *adjust.NetworkSolution, opts *adjustOptions, lines []int32) {
 	st := sol.Stats
-	fmt.Fprintf(w, "%d points, %d observations, %d unknowns, redundancy %d\n", len(sol.Points), st.Observations, st.Unknowns, st.Redundancy)
+	fmt.Fprintf(w, "%d points, %d observations, %d unknowns, redundancy %d (sigma %.3g mm/sqrt(km))\n",
+		len(sol.Points), st.Observations, st.Unknowns, st.Redundancy, opts.SigmaMMPerSqrtKm)
 	if st.Redundancy > 0 {
-		verdict := "passes"
-		if !st.ChiSquare.Pass {
-			verdict = "FAILS"
-		}
-		fmt.Fprintf(w, "variance factor %.3f (sigma %.3g mm/sqrt(km)); chi-square %.2f %s the %.0f%% test, bounds %.2f to %.2f\n",
-			st.VarianceFactor, opts.SigmaMMPerSqrtKm, st.ChiSquare.Statistic, verdict, 100*(1-st.ChiSquare.Alpha), st.ChiSquare.Lower, st.ChiSquare.Upper)
+		c := st.ChiSquare
+		fmt.Fprintln(w, chiSquareLine(c.Statistic, st.VarianceFactor, st.Redundancy, c.Alpha, c.Lower, c.Upper, c.Pass))
 	} else {
-		fmt.Fprintln(w, "no redundancy: the observations cannot be checked")
+		fmt.Fprintln(w, noRedundancyLine)
 	}
 	idx := flagged(sol)
 	fmt.Fprintf(w, "%d section(s) flagged by data snooping (|w| > %.2f)\n", len(idx), st.SnoopCritical)

@@ -530,14 +530,19 @@ func renderAdjustment(ios *IOStreams, format Format, v *register.AdjustmentView,
 	}
 	say("\n")
 	for _, s := range v.Statistics.Stretches {
-		verdict := "no allowable (the run names no accuracy class cairn knows, or has no length)"
-		if s.AllowableM != nil {
+		verdict := "not judged (no class)"
+		switch {
+		case s.AllowableM != nil:
 			verdict = fmt.Sprintf("allowable %.4f m (%s): ", *s.AllowableM, s.Class)
 			if *s.Pass {
 				verdict += "within"
 			} else {
 				verdict += "EXCEEDS THE ALLOWABLE"
 			}
+		case s.Class != "":
+			verdict = "not judged (no lengths)"
+		case s.LengthM == 0:
+			verdict = "not judged (no class, no lengths)"
 		}
 		say("Misclosure, run %d, %s to %s: %+.4f m over %.3f km (%g setups); %s\n",
 			s.RunID, s.From, s.To, s.MisclosureM, s.LengthM/1000, s.Setups, verdict)
@@ -582,14 +587,9 @@ func renderNetworkStats(say func(string, ...any), v *register.AdjustmentView, st
 	say("Least squares: %d marks, %d sections, %d observations, %d unknowns, redundancy %d\n",
 		st.Points, st.Sections, st.Observations, st.Unknowns, st.Redundancy)
 	if st.Redundancy > 0 && st.VarianceFactor != nil && st.ChiSquareLower != nil && st.ChiSquareUpper != nil {
-		verdict := "passes"
-		if !st.ChiSquarePass {
-			verdict = "FAILS"
-		}
-		say("  vTPv %.3f, variance factor %.3f; chi-square test at alpha %g (bounds %.3f to %.3f): %s\n",
-			st.VTPV, *st.VarianceFactor, st.Alpha, *st.ChiSquareLower, *st.ChiSquareUpper, verdict)
+		say("  %s\n", chiSquareLine(st.VTPV, *st.VarianceFactor, st.Redundancy, st.Alpha, *st.ChiSquareLower, *st.ChiSquareUpper, st.ChiSquarePass))
 	} else {
-		say("  no redundancy: the observations cannot be checked against each other\n")
+		say("  %s\n", noRedundancyLine)
 	}
 	for _, h := range st.Held {
 		w := "untested"
