@@ -88,9 +88,14 @@ type solver struct {
 	qjj  []float64 // diagonal of N⁻¹
 
 	// backSubstitute
-	sol     *NetworkSolution
-	vtpv    float64 // Σ v²/q; vᵀΣ⁻¹v = vtpv/σ₀²
-	flagged int
+	sol      *NetworkSolution
+	vtpv     float64 // Σ v²/q; vᵀΣ⁻¹v = vtpv/σ₀²
+	testable int     // observations with redundancy (a finite w)
+	tests    int     // distinct tests: chains and weighted marks with redundancy
+
+	// flag
+	critical, level float64 // the critical value of each test, and its level
+	flagged         int
 }
 
 // newSolver returns a solver of net with opt (defaulted and valid).
@@ -406,6 +411,7 @@ func (s *solver) backSubstitute() {
 	s.chainResults()
 	s.heldResults()
 	s.addReference()
+	s.flag()
 }
 
 // addReference turns the relative heights back into heights: H₀ is added
@@ -441,19 +447,43 @@ func (s *solver) junctionResults() {
 }
 
 // snoop sets the residual v, its standard deviation σ₀·√q_vv and Baarda's w
-// of one observation; q_vv up to 10⁻⁸·scale is taken as no redundancy.
-func (s *solver) snoop(r *Residual, v, qvv, scale float64) {
+// of one observation; q_vv up to 10⁻⁸·scale is taken as no redundancy. It
+// reports whether the observation can be tested; flag judges w later, once
+// the number of tests is known.
+func (s *solver) snoop(r *Residual, v, qvv, scale float64) bool {
 	r.ResidualM = v
 	if qvv > 1e-8*scale { // else no redundancy, up to rounding
 		r.SDM = s.opt.SigmaM * math.Sqrt(qvv)
 		r.W = v / r.SDM
-		if math.Abs(r.W) > s.opt.SnoopCritical {
-			r.Flagged = true
-			s.flagged++
-		}
-	} else {
-		r.W = math.NaN()
+		s.testable++
+		return true
 	}
+	r.W = math.NaN()
+	return false
+}
+
+// flag sets the critical value of data snooping and flags every
+// observation whose |w| exceeds it. Per observation the critical value is
+// SnoopCritical; for the family of the network's distinct tests it is that
+// of Šidák's level for each (options.go, SnoopFamily), the family's level
+// being that of SnoopCritical for one test.
+func (s *solver) flag() {
+	s.critical = s.opt.SnoopCritical
+	s.level = SnoopLevel(s.critical)
+	if s.opt.Snooping == SnoopFamily && s.tests > 0 {
+		s.level = SidakLevel(s.level, s.tests)
+		s.critical = snoopCritical(s.level)
+	}
+	mark := func(rs []Residual) {
+		for i := range rs {
+			if r := &rs[i]; math.Abs(r.W) > s.critical { // false for NaN
+				r.Flagged = true
+				s.flagged++
+			}
+		}
+	}
+	mark(s.sol.Sections)
+	mark(s.sol.Held)
 }
 
 // chainResults interpolates the chain points between their junctions and
@@ -490,6 +520,9 @@ func (s *solver) chainResults() {
 		veq := hb - ha - ch.d
 		vtpv += veq * veq / ch.c
 		qvvEq := ch.c - (qaa + qbb - 2*qab)
+		if qvvEq > 1e-8*ch.c { // the chain's sections share one w: one test
+			s.tests++
+		}
 		var cum, d1 float64
 		for _, k := range ord[ch.first:end] {
 			sec := &secs[k]
@@ -529,7 +562,9 @@ func (s *solver) heldResults() {
 			j, hq := s.jx[id], s.heldQ[id]
 			v := s.x[j] - s.heldH[id]
 			s.vtpv += v * v / hq
-			s.snoop(&res[k], v, hq-s.qjj[j], hq)
+			if s.snoop(&res[k], v, hq-s.qjj[j], hq) {
+				s.tests++
+			}
 		}
 	}
 }
@@ -549,7 +584,12 @@ func (s *solver) statistics() *NetworkSolution {
 		st.VarianceFactor = st.VTPV / float64(st.Redundancy)
 	}
 	st.ChiSquare = TestVarianceFactor(st.VTPV, st.Redundancy, s.opt.Alpha)
-	st.SnoopCritical = s.opt.SnoopCritical
+	st.Snooping = s.opt.Snooping
+	st.SnoopCritical = s.critical
+	st.SnoopLevel = s.level
+	st.SnoopTests = s.tests
+	st.SnoopTestable = s.testable
+	st.SnoopExpected = float64(s.testable) * s.level
 	st.Flagged = s.flagged
 	st.Junctions = s.nj
 	st.FactorNNZ = s.chol.NNZ()

@@ -80,9 +80,14 @@ with a section from or to the marks named or the marks in the area.
 The least-squares report gives each mark's adjusted height and standard
 deviation, the redundancy, the variance factor with its chi-square test at
 --alpha, and the sections flagged by data snooping (|w| over
---snoop-critical), with their runs and book lines. A failed test or a
-flagged section gives exit status 3; the draft is still kept. Marks with no
-path to a held mark are an error naming them.
+--snoop-critical), with their runs and book lines, and how many sections
+chance alone would flag with no blunder. --snooping per-observation (the
+default) tests each section at the level of --snoop-critical (3.29: 0.001),
+so a clean network of 100,000 sections has about a hundred flagged;
+--snooping family tests the network as a whole at that level (Šidák: each
+of its n tests at 1 - (1 - 0.001)^(1/n)). A failed test or a section
+flagged under the --snooping asked for gives exit status 3; the draft is
+still kept. Marks with no path to a held mark are an error naming them.
 
 A held mark whose latest condition report says disturbed, destroyed or not
 found is refused, unless --allow-condition is given with --reason.
@@ -148,7 +153,7 @@ func (o *adjustRegisterOptions) parse(cmd *cobra.Command, args []string) error {
 	if lsq && o.distribFlag != "" {
 		return badInput("%s: --%s spreads a proportional misclosure; least squares weighs sections with --weight", o.distribFlag, o.distribFlag)
 	}
-	for _, name := range []string{"weight", "sigma-mm-per-sqrt-km", "alpha", "snoop-critical", "minimal", "hold-weighted"} {
+	for _, name := range []string{"weight", "sigma-mm-per-sqrt-km", "alpha", "snoop-critical", "snooping", "minimal", "hold-weighted"} {
 		if !lsq && cmd.Flags().Changed(name) {
 			return badInput("%s: --%s goes with --method least-squares", name, name)
 		}
@@ -603,7 +608,7 @@ func renderNetworkStats(say func(string, ...any), v *register.AdjustmentView, st
 		say("  held %s weighted: adjusted minus held %+.4f m (sd %.4f), %s%s\n", h.Mark, h.ResidualM, h.SDM, w, flag)
 	}
 	idx := v.FlaggedSections()
-	say("  data snooping, critical value %.2f: %d section(s) flagged\n", st.SnoopCritical, len(idx))
+	say("  %s\n", snoopingLine(st, len(idx)))
 	names := map[int64]string{}
 	for _, r := range v.Runs {
 		names[r.ID] = r.FileName

@@ -4,10 +4,12 @@ import (
 	"bytes"
 	"context"
 	"fmt"
+	"path/filepath"
 	"strings"
 	"testing"
 
 	"cairn/internal/adjust"
+	"cairn/internal/netgen"
 	"cairn/internal/register"
 )
 
@@ -61,5 +63,40 @@ func TestNotJudgedSaysWhy(t *testing.T) {
 		if got := regexpLine(out.String(), "loop  TC-1"); !strings.HasSuffix(strings.TrimSpace(got), want) {
 			t.Errorf("class %q: misclosure row %q, want it to end %q; output:\n%s", class, got, want, out.String())
 		}
+	}
+}
+
+// TestSnoopingFlagSetsTheExitStatus: a clean generated network (netgen: noise
+// of 1 mm·√L, no blunder) of about 12,000 sections adjusted offline. Per
+// observation (the default) chance flags about n·0.001 sections: the report
+// says how many were expected and points to --snooping family, and the exit
+// status is 3 as asked. Family-wise the same network flags none, the report
+// says which level was used, and the exit status is 0.
+func TestSnoopingFlagSetsTheExitStatus(t *testing.T) {
+	dir := t.TempDir()
+	g := netgen.Generate(netgen.Options{Points: 7000, PerLine: -1, HeldEvery: 1000, Seed: 5})
+	if err := g.WriteFiles(dir); err != nil {
+		t.Fatal(err)
+	}
+	s, h := filepath.Join(dir, "sections.csv"), filepath.Join(dir, "held.csv")
+	adjustWith := func(args ...string) (string, error) {
+		ios, _, _, errOut := TestStreams(false)
+		err := Execute(context.Background(), NewFactory(ios, "test"), append([]string{"adjust", "--sections", s, "--held", h, "--out", filepath.Join(dir, "out.csv")}, args...))
+		return errOut.String(), err
+	}
+	report, err := adjustWith()
+	line := regexpLine(report, "flagged by data snooping")
+	if exitCode(err) != ExitChecks || !strings.Contains(line, "per observation: alpha 0.001 for each of") ||
+		!strings.Contains(line, "expected by chance with no blunder") || !strings.Contains(line, "--snooping family") {
+		t.Errorf("per observation: exit %d (%v): %s", exitCode(err), err, line)
+	}
+	report, err = adjustWith("--snooping", "family")
+	line = regexpLine(report, "flagged by data snooping")
+	if exitCode(err) != ExitOK || !strings.HasPrefix(line, "0 section(s) flagged") || !strings.Contains(line, "family-wise: alpha 0.001 for the whole network, Šidák's") {
+		t.Errorf("family-wise: exit %d (%v): %s", exitCode(err), err, line)
+	}
+	t.Log(line)
+	if _, err := adjustWith("--snooping", "each"); exitCode(err) != ExitBadInput || !strings.Contains(err.Error(), "per-observation or family") {
+		t.Errorf("--snooping each: %v", err)
 	}
 }
