@@ -3,7 +3,6 @@ package adjust
 import (
 	"errors"
 	"fmt"
-	"math"
 	"slices"
 	"strings"
 
@@ -240,10 +239,13 @@ func (d *Draft) proportional(in DraftInput) error {
 		tol, hasClass := TolerancesOf(run.Class)
 		for _, st := range sol.Stretches {
 			s := StretchStat{RunID: run.ID, From: st.From, To: st.To, LengthM: st.LengthM, Setups: st.Setups, MisclosureM: st.MisclosureM}
+			if hasClass {
+				s.Class = string(tol.Class)
+			}
 			if hasClass && st.LengthM > 0 {
 				a := tol.AllowableLoopM(st.LengthM)
-				pass := math.Abs(st.MisclosureM) <= a
-				s.Class, s.AllowableM, s.Pass = string(tol.Class), &a, &pass
+				pass := standards.Within(st.MisclosureM, a)
+				s.AllowableM, s.Pass = &a, &pass
 			}
 			d.Stats.Stretches = append(d.Stats.Stretches, s)
 		}
@@ -335,7 +337,7 @@ func (d *Draft) leastSquares(in DraftInput) error {
 			corr := pt.HeightM - heldM[pt.Point]
 			m.CorrectionM = &corr
 		} else {
-			m.Value = units.Format(d.Unit.FromMetres(pt.HeightM), d.Decimals)
+			m.Value = units.FormatIn(pt.HeightM, d.Unit, d.Decimals)
 		}
 		d.Marks[i] = m
 	}

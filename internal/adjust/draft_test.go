@@ -317,3 +317,32 @@ func TestNetworkOptionsDefaultsAndValidate(t *testing.T) {
 		}
 	}
 }
+
+// TestStretchMisclosureAtTheLimit: adjust judges a stretch with the same
+// rule as run check (standards.Within): a line A → B → C of 1.000 km between
+// two held marks in third order, allowable 12 mm·√1 km = 0.0120 m (FGCC
+// 1984 §3.5 loop column, from memory), passes with a misclosure of exactly
+// 0.0120 m and fails with 0.0121 m (one unit of the last place of a reading
+// over). The decimals sum in float64 to 0.012000000000000455, over the
+// limit by float noise only; without the rule's slack it would fail.
+func TestStretchMisclosureAtTheLimit(t *testing.T) {
+	for m, pass := range map[float64]bool{0.0120: true, -0.0120: true, 0.0119: true, 0.0121: false, -0.0121: false} {
+		run := adjust.DraftRun{ID: 1, Class: "third", Sections: []adjust.DraftSection{
+			{Seq: 1, From: "A", To: "B", DhM: 1.2345, LengthM: ptr(400.0), Setups: 4},
+			{Seq: 2, From: "B", To: "C", DhM: 0.1 + m, LengthM: ptr(600.0), Setups: 6},
+		}}
+		d, err := adjust.ComputeDraft(adjust.DraftInput{Method: adjust.MethodProportional, Runs: []adjust.DraftRun{run},
+			Held: []adjust.DraftHeld{{Point: "A", HeightM: 10, Unit: units.Metre}, {Point: "C", HeightM: 11.3345, Unit: units.Metre}}})
+		if err != nil {
+			t.Fatal(err)
+		}
+		st := d.Stats.Stretches
+		if len(st) != 1 || st[0].Pass == nil || *st[0].AllowableM != 0.012 {
+			t.Fatalf("misclosure %v: stretches %+v", m, st)
+		}
+		if *st[0].Pass != pass || (d.Stats.Failed() == 0) != pass {
+			t.Errorf("misclosure %v m (computed %.17g m) against 0.012 m: pass %v, failed checks %d; want pass %v",
+				m, st[0].MisclosureM, *st[0].Pass, d.Stats.Failed(), pass)
+		}
+	}
+}

@@ -37,8 +37,8 @@ type StretchStat struct {
 	// MisclosureM is computed minus held at To: positive when the run came
 	// in high.
 	MisclosureM float64 `json:"misclosure_m"`
-	// Class, AllowableM and Pass are set when the run's class is known and
-	// the stretch has a length.
+	// Class is set when the run's class is known; AllowableM and Pass when
+	// it is and the stretch has a length as well.
 	Class      string   `json:"class,omitempty"`
 	AllowableM *float64 `json:"allowable_m,omitempty"`
 	Pass       *bool    `json:"pass,omitempty"`
@@ -61,6 +61,18 @@ type NetworkStat struct {
 	// ChiSquarePass is false as well when there is no redundancy.
 	ChiSquarePass bool    `json:"chi_square_pass"`
 	SnoopCritical float64 `json:"snoop_critical"`
+	// Snooping is what the level of data snooping applied to:
+	// "per-observation" or "family" ("" in adjustments stored before it
+	// could be chosen: per observation). SnoopLevel is the level of each
+	// test; SnoopTestable the observations that could be tested and
+	// SnoopTests the distinct tests among them; SnoopExpected the number
+	// expected to be flagged by chance with no blunder. Zero in
+	// adjustments stored before they were kept.
+	Snooping      string  `json:"snooping,omitempty"`
+	SnoopLevel    float64 `json:"snoop_level,omitempty"`
+	SnoopTestable int     `json:"snoop_testable,omitempty"`
+	SnoopTests    int     `json:"snoop_tests,omitempty"`
+	SnoopExpected float64 `json:"snoop_expected,omitempty"`
 	// Flagged counts the observations (sections and weighted held marks)
 	// with |w| over SnoopCritical.
 	Flagged int `json:"flagged"`
@@ -98,7 +110,9 @@ func NetworkStatOf(sol *NetworkSolution) *NetworkStat {
 	return &NetworkStat{Points: len(sol.Points), Sections: len(sol.Sections), Observations: st.Observations,
 		Unknowns: st.Unknowns, Redundancy: st.Redundancy, VTPV: st.VTPV, VarianceFactor: Finite(st.VarianceFactor),
 		Alpha: st.ChiSquare.Alpha, ChiSquareLower: Finite(st.ChiSquare.Lower), ChiSquareUpper: Finite(st.ChiSquare.Upper),
-		ChiSquarePass: st.ChiSquare.Pass, SnoopCritical: st.SnoopCritical, Flagged: st.Flagged}
+		ChiSquarePass: st.ChiSquare.Pass, SnoopCritical: st.SnoopCritical, Snooping: st.Snooping.String(),
+		SnoopLevel: st.SnoopLevel, SnoopTestable: st.SnoopTestable, SnoopTests: st.SnoopTests, SnoopExpected: st.SnoopExpected,
+		Flagged: st.Flagged}
 }
 
 // LargestWFirst returns the indices i < n of the flagged observations,

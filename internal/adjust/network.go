@@ -137,11 +137,22 @@ type NetworkStats struct {
 	// vᵀΣ⁻¹v / (n − u); NaN without redundancy.
 	VarianceFactor float64
 	ChiSquare      ChiSquareTest
-	SnoopCritical  float64
-	Flagged        int // observations with |W| above the critical value
-	Junctions      int // unknowns of the reduced (junction) system
-	FactorNNZ      int // entries of its Cholesky factor below the diagonal
-	Timings        NetworkTimings
+	// Snooping is what the level of data snooping applied to (options).
+	Snooping Snooping
+	// SnoopCritical is the critical value each w was tested against, and
+	// SnoopLevel the level of each test, 2·(1 − Φ(SnoopCritical)).
+	SnoopCritical, SnoopLevel float64
+	// SnoopTestable counts the observations with redundancy (a finite w);
+	// SnoopTests the distinct tests among them (sections in series share
+	// one w).
+	SnoopTestable, SnoopTests int
+	// SnoopExpected is the number of observations expected to be flagged
+	// by chance alone with no blunder, SnoopTestable·SnoopLevel.
+	SnoopExpected float64
+	Flagged       int // observations with |W| above the critical value
+	Junctions     int // unknowns of the reduced (junction) system
+	FactorNNZ     int // entries of its Cholesky factor below the diagonal
+	Timings       NetworkTimings
 }
 
 // NetworkTimings are the wall times of the phases of SolveNetwork.

@@ -262,10 +262,12 @@ func TestSolveNetworkAgainstGonumDense(t *testing.T) {
 
 // TestPublishedLevelNet adjusts the weighted level net of C. D. Ghilani and
 // P. R. Wolf, Adjustment Computations: Spatial Data Analysis, 4th ed., Wiley,
-// 2006, ch. 12, Example 12.1 (from memory: data and answers recalled, not
-// seen; the same net, with A = 500.00 m, is set in UiTM's SUG533 examination
-// paper APR10 Q4, whose standard deviations 5, 3, 4, 3, 6 and 12 mm agree).
-// A = 437.596 m is held; the weights are 1/σ².
+// 2006, ch. 12, Example 12.1 (docs/references.md, "Least squares": the data
+// and the published answers as quoted in a public test file, read; the same
+// net, with A = 500.00 m, is set in UiTM's SUG533 examination paper APR10
+// Q4). A = 437.596 m is held; the weights are 1/σ². The published adjusted
+// heights are B = 448.1087, C = 453.4685 and D = 444.9436 m, to 0.1 mm; we
+// assert each to 0.05 mm, half the last published place.
 func TestPublishedLevelNet(t *testing.T) {
 	obs := []struct {
 		from, to string
@@ -288,15 +290,18 @@ func TestPublishedLevelNet(t *testing.T) {
 	if err != nil {
 		t.Fatal(err)
 	}
-	// Published to the mm, as recalled: C = 453.468, D = 444.944. B was
-	// recalled as 448.105, which is A + 10.509 unadjusted, so that memory is
-	// not trusted; we get 448.109, and B is checked by the dense cross-check
-	// (TestSolveNetworkAgainstGonumDense) only.
-	want := map[string]float64{"C": 453.468, "D": 444.944}
+	want := map[string]float64{"B": 448.1087, "C": 453.4685, "D": 444.9436}
+	got := 0
 	for _, p := range sol.Points {
-		if w, ok := want[p.Point]; ok && math.Abs(p.HeightM-w) > 0.0005 {
-			t.Errorf("%s = %.4f m, published %.3f m", p.Point, p.HeightM, w)
+		if w, ok := want[p.Point]; ok {
+			got++
+			if math.Abs(p.HeightM-w) > 0.00005 {
+				t.Errorf("%s = %.5f m, published %.4f m", p.Point, p.HeightM, w)
+			}
 		}
+	}
+	if got != 3 {
+		t.Errorf("%d of B, C, D adjusted", got)
 	}
 	if sol.Stats.Redundancy != 3 {
 		t.Errorf("redundancy %d, want 6 − 3 = 3", sol.Stats.Redundancy)
@@ -481,18 +486,20 @@ func TestBadInput(t *testing.T) {
 // The page publishes the residuals (MPV minus each single-path elevation):
 // Q −0.015, +0.015, −0.035, +0.035; R +0.007, −0.033, +0.027; Σv² =
 // 0.004767 with m − n = 7 − 2 (read). The benchmarks' heights are in the
-// figure, which we have not seen; the residuals fix them up to one common
-// constant (derived below: BM = MPV − v − dh, with MPV_R = MPV_Q − 12.448),
-// and nothing checked here depends on that constant.
+// figure, which we have not seen, so the fixture must be built from some of
+// the published residuals (BM = MPV − v − dh), and a residual used to build
+// it cannot test the adjustment. What the data pin regardless of the
+// benchmarks: a benchmark observed to both Q and R (A, C, D) gives
+// v_xQ − v_xR = (Q − R) − (dh_xQ − dh_xR), so the three must agree on one
+// Q − R; BMB is observed once, so its residual is not pinned by the data at
+// all and is not tested. The test therefore builds the benchmarks every way
+// the data allow: Q − R from one shared benchmark s (both its residuals),
+// BMB from its residual, and each other shared benchmark from its Q residual
+// or its R residual. In each build the residuals not used, the heights of Q
+// and R (each the mean of its single-path elevations) and Σv² are checked
+// against the page; over the builds, every residual but BMB-Q is checked by
+// a build that did not use it.
 func TestMahunStarNetwork(t *testing.T) {
-	const q = 100.0 // the unknown common constant (any value)
-	r := q - 12.448 // derived from the residuals of BMA-Q and BMA-R
-	held := []adjust.HeldMark{
-		{Point: "BMA", HeightM: q + 0.015 - 8.91},
-		{Point: "BMB", HeightM: q - 0.015 + 2.92},
-		{Point: "BMC", HeightM: r + 0.033 + 17.12},
-		{Point: "BMD", HeightM: r - 0.027 + 21.10},
-	}
 	secs := []adjust.Section{
 		{From: "BMA", To: "Q", DhM: 8.91, LengthKm: 1},
 		{From: "BMB", To: "Q", DhM: -2.92, LengthKm: 1},
@@ -502,36 +509,77 @@ func TestMahunStarNetwork(t *testing.T) {
 		{From: "BMC", To: "R", DhM: -17.12, LengthKm: 1},
 		{From: "BMD", To: "R", DhM: -21.10, LengthKm: 1},
 	}
-	// The BMC-Q and BMD-Q residuals follow from BMC and BMD as derived from
-	// R; that they come out as published shows the page's data agree.
-	sol, err := adjust.SolveNetwork(build(secs, held), adjust.NetworkOptions{SigmaM: 0.001})
-	if err != nil {
-		t.Fatal(err)
-	}
-	got := map[string]float64{}
-	for _, p := range sol.Points {
-		got[p.Point] = p.HeightM
-	}
-	// The page rounds to the millimetre (its R residuals sum to +0.001, not
-	// 0 as a mean's must), so the derived benchmarks, and what follows from
-	// them, agree to within the rounding.
-	if math.Abs(got["Q"]-q) > 0.0005 || math.Abs(got["R"]-r) > 0.0005 {
-		t.Fatalf("Q = %.6f, R = %.6f; want %.6f, %.6f", got["Q"], got["R"], q, r)
-	}
-	// Our residual is v = adjusted dh − observed dh = MPV − single-path
-	// elevation, the page's sign.
-	want := []float64{-0.015, +0.015, -0.035, +0.035, +0.007, -0.033, +0.027}
-	for i, w := range want {
-		if v := sol.Sections[i].ResidualM; math.Abs(v-w) > 0.0007 {
-			t.Errorf("section %d (%s): residual %+.4f m, published %+.3f m", i+1, secs[i].From+"-"+secs[i].To, v, w)
+	published := []float64{-0.015, +0.015, -0.035, +0.035, +0.007, -0.033, +0.027}
+	// The sections of each shared benchmark: to Q, to R.
+	shared := map[string][2]int{"BMA": {0, 4}, "BMC": {2, 5}, "BMD": {3, 6}}
+	checked := make([]bool, len(secs))
+	const q = 100.0 // Q's height: the one constant nothing fixes
+	for s, ss := range shared {
+		qr := published[ss[0]] - published[ss[1]] + secs[ss[0]].DhM - secs[ss[1]].DhM // Q − R
+		r := q - qr
+		bm := map[string]float64{s: q - published[ss[0]] - secs[ss[0]].DhM, "BMB": q - published[1] - secs[1].DhM}
+		used := map[int]bool{ss[0]: true, ss[1]: true, 1: true}
+		var others []string
+		for x := range shared {
+			if x != s {
+				others = append(others, x)
+			}
+		}
+		for side := 0; side < 4; side++ { // each other benchmark from its Q (0) or R (1) residual
+			for k, x := range others {
+				i := shared[x][(side>>k)&1]
+				level := q
+				if (side>>k)&1 == 1 {
+					level = r
+				}
+				bm[x] = level - published[i] - secs[i].DhM
+				used[i] = true
+			}
+			var held []adjust.HeldMark
+			for _, p := range []string{"BMA", "BMB", "BMC", "BMD"} {
+				held = append(held, adjust.HeldMark{Point: p, HeightM: bm[p]})
+			}
+			sol, err := adjust.SolveNetwork(build(secs, held), adjust.NetworkOptions{SigmaM: 0.001})
+			if err != nil {
+				t.Fatal(err)
+			}
+			name := fmt.Sprintf("Q − R from %s, %v from sides %02b", s, others, side)
+			got := map[string]float64{}
+			for _, p := range sol.Points {
+				got[p.Point] = p.HeightM
+			}
+			// The page rounds to the millimetre (its R residuals sum to
+			// +0.001, not 0 as a mean's must): 0.7 mm.
+			if math.Abs(got["Q"]-q) > 0.0007 || math.Abs(got["R"]-r) > 0.0007 {
+				t.Errorf("%s: Q = %.4f, R = %.4f; want %.4f, %.4f", name, got["Q"], got["R"], q, r)
+			}
+			for i, w := range published {
+				if used[i] {
+					continue
+				}
+				checked[i] = true
+				// v = adjusted dh − observed dh = MPV − single-path elevation, the page's sign.
+				if v := sol.Sections[i].ResidualM; math.Abs(v-w) > 0.0007 {
+					t.Errorf("%s: section %d (%s-%s) residual %+.4f m, published %+.3f m", name, i+1, secs[i].From, secs[i].To, v, w)
+				}
+			}
+			for _, x := range others {
+				delete(used, shared[x][0])
+				delete(used, shared[x][1])
+			}
+			if sol.Stats.Redundancy != 5 {
+				t.Errorf("redundancy %d, published 7 − 2 = 5", sol.Stats.Redundancy)
+			}
+			// Σv² with unit weights (weight 1/L, L = 1 km, σ0 = 1 mm: vᵀPv
+			// in m² is Σv²/σ0²).
+			if sum := sol.Stats.VTPV * 0.001 * 0.001; math.Abs(sum-0.004767) > 3e-5 {
+				t.Errorf("%s: Σv² = %.6f m², published 0.004767", name, sum)
+			}
 		}
 	}
-	if sol.Stats.Redundancy != 5 {
-		t.Errorf("redundancy %d, published 7 − 2 = 5", sol.Stats.Redundancy)
-	}
-	// Σv² with unit weights (weight 1/L, L = 1 km, σ0 = 1 mm: vᵀPv in m² is
-	// Σv²/σ0²).
-	if s := sol.Stats.VTPV * 0.001 * 0.001; math.Abs(s-0.004767) > 3e-5 {
-		t.Errorf("Σv² = %.6f m², published 0.004767", s)
+	for i, c := range checked {
+		if !c && i != 1 {
+			t.Errorf("residual of section %d was never checked by a build without it", i+1)
+		}
 	}
 }

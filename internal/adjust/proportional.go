@@ -182,7 +182,7 @@ func Proportional(in ProportionalInput) (*ProportionalSolution, error) {
 	}
 	for k := range sol.Stations {
 		r := &sol.Stations[k]
-		r.Published = units.Format(unit.FromMetres(r.AdjustedM), in.Decimals)
+		r.Published = units.FormatIn(r.AdjustedM, unit, in.Decimals)
 	}
 	return sol, nil
 }

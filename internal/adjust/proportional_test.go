@@ -160,3 +160,33 @@ func TestProportionalRefusesOpenRuns(t *testing.T) {
 		t.Fatalf("a mark beyond the held ones: %v", err)
 	}
 }
+
+// TestPublishedHalfWayRoundsUp: a mark whose adjusted height is exactly
+// 0.5055 m publishes 0.506 m under the half-away-from-zero rule
+// (docs/adjustments.md, "Precision of a published height"), by both
+// methods; the float 0.5055 lies just below the half, so rounding the float
+// itself would publish 0.505 (units.TestRoundHalfAwayExact). The line
+// A → P → B closes exactly, so P's correction is 0 and its adjusted height
+// is its computed one; by least squares P is a spur from A.
+func TestPublishedHalfWayRoundsUp(t *testing.T) {
+	st := []Station{{Point: "A"}, {Point: "P", RiseM: 0.5055, DistanceM: 100, Setups: 1}, {Point: "B", RiseM: 1, DistanceM: 200, Setups: 2}}
+	sol, err := Proportional(ProportionalInput{Stations: st, HeldM: map[string]float64{"A": 0, "B": 1}, Unit: units.Metre, Decimals: 3})
+	if err != nil {
+		t.Fatal(err)
+	}
+	if p := sol.Stations[1]; p.AdjustedM != 0.5055 || p.Published != "0.506" {
+		t.Errorf("proportional: P adjusted %v m, published %s m; want 0.5055 and 0.506", p.AdjustedM, p.Published)
+	}
+	length := 100.0
+	d, err := ComputeDraft(DraftInput{Method: MethodLeastSquares,
+		Runs: []DraftRun{{ID: 1, Class: "third", Sections: []DraftSection{{Seq: 1, From: "A", To: "P", DhM: 0.5055, LengthM: &length, Setups: 1}}}},
+		Held: []DraftHeld{{Point: "A", HeightM: 0, Unit: units.Metre}}, Network: NetworkOptions{}.WithDefaults()})
+	if err != nil {
+		t.Fatal(err)
+	}
+	for _, m := range d.Marks {
+		if m.Point == "P" && (m.AdjustedM != 0.5055 || m.Value != "0.506") {
+			t.Errorf("least squares: P adjusted %v m, published %s m; want 0.5055 and 0.506", m.AdjustedM, m.Value)
+		}
+	}
+}

@@ -61,10 +61,15 @@ type solver struct {
 	q []float64 // cofactor qᵢ of section i
 
 	// classifyHeld, per point
-	held   []HeldKind
-	heldH  []float64 // the held height Hₕ
-	heldQ  []float64 // weighted: qₕ = σₕ²/σ₀²
-	heldAt []int32   // the point of each held mark, in the order added
+	held []HeldKind
+	// ref is the reference height H₀: the held height of the first mark
+	// that controls the adjustment (fixed or weighted). Every height inside
+	// the solver is relative to it (see classifyHeld).
+	ref     float64
+	heldH   []float64 // the held height relative to the reference, Hₕ − H₀
+	heldAt0 []float64 // the held height Hₕ as given, for marks held fixed
+	heldQ   []float64 // weighted: qₕ = σₕ²/σ₀²
+	heldAt  []int32   // the point of each held mark, in the order added
 	// marks held fixed and weighted
 	nfixed, nweighted int
 
@@ -83,9 +88,14 @@ type solver struct {
 	qjj  []float64 // diagonal of N⁻¹
 
 	// backSubstitute
-	sol     *NetworkSolution
-	vtpv    float64 // Σ v²/q; vᵀΣ⁻¹v = vtpv/σ₀²
-	flagged int
+	sol      *NetworkSolution
+	vtpv     float64 // Σ v²/q; vᵀΣ⁻¹v = vtpv/σ₀²
+	testable int     // observations with redundancy (a finite w)
+	tests    int     // distinct tests: chains and weighted marks with redundancy
+
+	// flag
+	critical, level float64 // the critical value of each test, and its level
+	flagged         int
 }
 
 // newSolver returns a solver of net with opt (defaulted and valid).
@@ -151,11 +161,21 @@ func sectionError(net *Network, i int, field, format string, a ...any) error {
 // (σₕ = 0, or the first mark under Minimal), weighted with qₕ = σₕ²/σ₀², or
 // checked (any other mark under Minimal). A network without a fixed or
 // weighted mark is uncontrolled.
+//
+// It also chooses the reference height H₀, the held height of the first
+// mark that controls the adjustment, and keeps every held height as
+// Hₕ − H₀. The normal equations then carry heights relative to the datum's
+// level, not absolute ones: the solution's rounding error, which grows with
+// the size of the right-hand side times the condition of N (large when
+// weights differ widely), no longer grows with the height of the datum.
+// H₀ is added back to every adjusted height at the end (addReference); a
+// mark held fixed keeps the height it was given, unchanged.
 func (s *solver) classifyHeld() error {
 	net, opt := s.net, s.opt
 	np := len(net.pts.list)
 	s.held = make([]HeldKind, np)
 	s.heldH = make([]float64, np)
+	s.heldAt0 = make([]float64, np)
 	s.heldQ = make([]float64, np)
 	s.heldAt = make([]int32, len(net.held))
 	for k, h := range net.held {
@@ -186,6 +206,16 @@ func (s *solver) classifyHeld() error {
 	}
 	if s.nfixed+s.nweighted == 0 {
 		return &UncontrolledError{Points: net.pts.list, Parts: 1}
+	}
+	for _, id := range s.heldAt {
+		if s.held[id].controls() {
+			s.ref = s.heldH[id]
+			break
+		}
+	}
+	for _, id := range s.heldAt {
+		s.heldAt0[id] = s.heldH[id]
+		s.heldH[id] -= s.ref
 	}
 	return nil
 }
@@ -380,6 +410,23 @@ func (s *solver) backSubstitute() {
 	s.junctionResults()
 	s.chainResults()
 	s.heldResults()
+	s.addReference()
+	s.flag()
+}
+
+// addReference turns the relative heights back into heights: H₀ is added
+// to every adjusted point, and a mark held fixed gets its held height as
+// given (so it is exactly what was held, whatever the rounding of Hₕ − H₀).
+// Residuals and standard deviations do not depend on H₀.
+func (s *solver) addReference() {
+	for i := range s.sol.Points {
+		p := &s.sol.Points[i]
+		if s.jx[i] == fixedMark {
+			p.HeightM = s.heldAt0[i]
+		} else {
+			p.HeightM += s.ref
+		}
+	}
 }
 
 // junctionResults sets every point's name and held flag, and the height and
@@ -400,19 +447,43 @@ func (s *solver) junctionResults() {
 }
 
 // snoop sets the residual v, its standard deviation σ₀·√q_vv and Baarda's w
-// of one observation; q_vv up to 10⁻⁸·scale is taken as no redundancy.
-func (s *solver) snoop(r *Residual, v, qvv, scale float64) {
+// of one observation; q_vv up to 10⁻⁸·scale is taken as no redundancy. It
+// reports whether the observation can be tested; flag judges w later, once
+// the number of tests is known.
+func (s *solver) snoop(r *Residual, v, qvv, scale float64) bool {
 	r.ResidualM = v
 	if qvv > 1e-8*scale { // else no redundancy, up to rounding
 		r.SDM = s.opt.SigmaM * math.Sqrt(qvv)
 		r.W = v / r.SDM
-		if math.Abs(r.W) > s.opt.SnoopCritical {
-			r.Flagged = true
-			s.flagged++
-		}
-	} else {
-		r.W = math.NaN()
+		s.testable++
+		return true
 	}
+	r.W = math.NaN()
+	return false
+}
+
+// flag sets the critical value of data snooping and flags every
+// observation whose |w| exceeds it. Per observation the critical value is
+// SnoopCritical; for the family of the network's distinct tests it is that
+// of Šidák's level for each (options.go, SnoopFamily), the family's level
+// being that of SnoopCritical for one test.
+func (s *solver) flag() {
+	s.critical = s.opt.SnoopCritical
+	s.level = SnoopLevel(s.critical)
+	if s.opt.Snooping == SnoopFamily && s.tests > 0 {
+		s.level = SidakLevel(s.level, s.tests)
+		s.critical = snoopCritical(s.level)
+	}
+	mark := func(rs []Residual) {
+		for i := range rs {
+			if r := &rs[i]; math.Abs(r.W) > s.critical { // false for NaN
+				r.Flagged = true
+				s.flagged++
+			}
+		}
+	}
+	mark(s.sol.Sections)
+	mark(s.sol.Held)
 }
 
 // chainResults interpolates the chain points between their junctions and
@@ -449,6 +520,9 @@ func (s *solver) chainResults() {
 		veq := hb - ha - ch.d
 		vtpv += veq * veq / ch.c
 		qvvEq := ch.c - (qaa + qbb - 2*qab)
+		if qvvEq > 1e-8*ch.c { // the chain's sections share one w: one test
+			s.tests++
+		}
 		var cum, d1 float64
 		for _, k := range ord[ch.first:end] {
 			sec := &secs[k]
@@ -488,7 +562,9 @@ func (s *solver) heldResults() {
 			j, hq := s.jx[id], s.heldQ[id]
 			v := s.x[j] - s.heldH[id]
 			s.vtpv += v * v / hq
-			s.snoop(&res[k], v, hq-s.qjj[j], hq)
+			if s.snoop(&res[k], v, hq-s.qjj[j], hq) {
+				s.tests++
+			}
 		}
 	}
 }
@@ -508,7 +584,12 @@ func (s *solver) statistics() *NetworkSolution {
 		st.VarianceFactor = st.VTPV / float64(st.Redundancy)
 	}
 	st.ChiSquare = TestVarianceFactor(st.VTPV, st.Redundancy, s.opt.Alpha)
-	st.SnoopCritical = s.opt.SnoopCritical
+	st.Snooping = s.opt.Snooping
+	st.SnoopCritical = s.critical
+	st.SnoopLevel = s.level
+	st.SnoopTests = s.tests
+	st.SnoopTestable = s.testable
+	st.SnoopExpected = float64(s.testable) * s.level
 	st.Flagged = s.flagged
 	st.Junctions = s.nj
 	st.FactorNNZ = s.chol.NNZ()

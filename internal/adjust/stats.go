@@ -56,3 +56,29 @@ func SnoopCriticalValue(alpha float64) float64 {
 	}
 	return distuv.UnitNormal.Quantile(1 - alpha/2)
 }
+
+// SnoopLevel is the level of one test of data snooping at critical value
+// k, the two-sided standard normal tail
+//
+//	α = 2·Φ(−k),
+//
+// 0.001 for k = 3.2905 (the inverse of SnoopCriticalValue).
+func SnoopLevel(k float64) float64 { return 2 * distuv.UnitNormal.CDF(-k) }
+
+// SidakLevel is the level of each of n tests that gives the family of n
+// independent tests the level alpha (Šidák 1967):
+//
+//	αᵢ = 1 − (1 − α)^(1/n),
+//
+// computed as −expm1(log1p(−α)/n) so that it keeps its digits for large n.
+func SidakLevel(alpha float64, n int) float64 {
+	if !(alpha > 0 && alpha < 1) || n < 1 {
+		panic("adjust: Šidák level of alpha outside (0, 1) or n < 1")
+	}
+	return -math.Expm1(math.Log1p(-alpha) / float64(n))
+}
+
+// snoopCritical is the two-sided critical value of level a, Φ⁻¹(1 − a/2),
+// computed from the lower tail (−Φ⁻¹(a/2)) so that a tiny a keeps its
+// digits.
+func snoopCritical(a float64) float64 { return -distuv.UnitNormal.Quantile(a / 2) }

@@ -7,7 +7,6 @@ import (
 	"io"
 	"math"
 	"os"
-	"strconv"
 	"sync"
 	"time"
 
@@ -15,6 +14,7 @@ import (
 
 	"cairn/internal/adjust"
 	"cairn/internal/netfile"
+	"cairn/internal/units"
 )
 
 type adjustOptions struct {
@@ -33,6 +33,8 @@ type adjustOptions struct {
 	SigmaMMPerSqrtKm float64
 	Alpha            float64
 	SnoopCritical    float64
+	Snooping         string // per-observation or family
+	snooping         adjust.Snooping
 	Minimal          bool
 	Timings          bool
 }
@@ -55,8 +57,9 @@ Each section weighs 1/length; sigma is the a-priori standard deviation of
 one kilometre. The result is one row per point: its adjusted height and its
 standard deviation (from the a-priori sigma), in metres. The variance factor
 with its chi-square test and the sections flagged by data snooping are
-reported on stderr (or in the json output); the exit status is 3 when the
-test fails or a section is flagged.
+reported on stderr (or in the json output), with the number chance alone
+would flag (--snooping, as for recorded runs); the exit status is 3 when the
+test fails or a section is flagged under the --snooping asked for.
 
 ` + adjustCautions,
 		Example: `  cairn adjust 1 --hold TC-0412
@@ -81,6 +84,7 @@ test fails or a section is flagged.
 	fl.Float64Var(&opts.SigmaMMPerSqrtKm, "sigma-mm-per-sqrt-km", adjust.DefaultSigmaM*1000, "a-priori standard deviation of leveling, mm per square root of km")
 	fl.Float64Var(&opts.Alpha, "alpha", adjust.DefaultAlpha, "significance level of the chi-square test of the variance factor")
 	fl.Float64Var(&opts.SnoopCritical, "snoop-critical", adjust.DefaultSnoopCritical, "critical value of data snooping (3.29: alpha = 0.001)")
+	fl.StringVar(&opts.Snooping, "snooping", "per-observation", "what the level of data snooping applies to: per-observation (each section) or family (the whole network, Šidák)")
 	fl.BoolVar(&opts.Minimal, "minimal", false, "least squares: hold only the first held mark (minimally constrained) and report how far the others are")
 	fl.BoolVar(&opts.Timings, "timings", false, "print the time of each phase on stderr")
 	addOutputFlag(cmd, &opts.Format)
@@ -92,6 +96,11 @@ test fails or a section is flagged.
 // args.
 func (opts *adjustOptions) parse(cmd *cobra.Command, args []string) error {
 	opts.Runs = args
+	sn, err := adjust.ParseSnooping(opts.Snooping)
+	if err != nil {
+		return badInput("snooping: %v", err)
+	}
+	opts.snooping = sn
 	if opts.SectionsPath == "" {
 		reg := &opts.Register
 		if len(args) == 0 && opts.HeldPath == "" && !reg.holds() && len(reg.params.Marks) == 0 && reg.area == "" {
@@ -106,7 +115,7 @@ func (opts *adjustOptions) parse(cmd *cobra.Command, args []string) error {
 		}
 		if opts.Register.params.Method == adjust.MethodLeastSquares {
 			o := &opts.Register.params.LeastSquares
-			o.SigmaM, o.Alpha, o.SnoopCritical, o.Minimal = opts.SigmaMMPerSqrtKm/1000, opts.Alpha, opts.SnoopCritical, opts.Minimal
+			o.SigmaM, o.Alpha, o.SnoopCritical, o.Snooping, o.Minimal = opts.SigmaMMPerSqrtKm/1000, opts.Alpha, opts.SnoopCritical, opts.snooping, opts.Minimal
 			if err := checkNetworkOptions(*o); err != nil {
 				return err
 			}
@@ -144,11 +153,11 @@ func adjustRun(opts *adjustOptions) error {
 // networkOptions are the least-squares settings of the offline form.
 func (opts *adjustOptions) networkOptions() adjust.NetworkOptions {
 	return adjust.NetworkOptions{SigmaM: opts.SigmaMMPerSqrtKm / 1000, Alpha: opts.Alpha,
-		SnoopCritical: opts.SnoopCritical, Minimal: opts.Minimal}
+		SnoopCritical: opts.SnoopCritical, Snooping: opts.snooping, Minimal: opts.Minimal}
 }
 
 // networkFlags are the flags of adjust.NetworkOptions' settings.
-var networkFlags = map[string]string{"weighting": "weight", "sigma_m": "sigma-mm-per-sqrt-km", "alpha": "alpha", "snoop_critical": "snoop-critical"}
+var networkFlags = map[string]string{"weighting": "weight", "sigma_m": "sigma-mm-per-sqrt-km", "alpha": "alpha", "snoop_critical": "snoop-critical", "snooping": "snooping"}
 
 // checkNetworkOptions checks least-squares settings (adjust.NetworkOptions.
 // Validate, where they are checked), naming the flag at fault.
@@ -392,7 +401,7 @@ func writeAdjustment(ios *IOStreams, opts *adjustOptions, sol *adjust.NetworkSol
 	return render(ios, opts.Format, nil, func() Table {
 		t := Table{Headers: []string{"POINT", "HEIGHT (m)", "SD (m)"}}
 		for _, p := range sol.Points {
-			t.AddRow(p.Point, strconv.FormatFloat(p.HeightM, 'f', 4, 64), strconv.FormatFloat(p.SDM, 'f', 4, 64))
+			t.AddRow(p.Point, units.Format(p.HeightM, 4), units.Format(p.SDM, 4))
 		}
 		return t
 	})
@@ -403,19 +412,16 @@ func round6(v float64) float64 { return math.Round(v*1e6) / 1e6 }
 // writeAdjustReport prints the statistics and the flagged sections.
 func writeAdjustReport(w io.Writer, sol *adjust.NetworkSolution, opts *adjustOptions, lines []int32) {
 	st := sol.Stats
-	fmt.Fprintf(w, "%d points, %d observations, %d unknowns, redundancy %d\n", len(sol.Points), st.Observations, st.Unknowns, st.Redundancy)
+	fmt.Fprintf(w, "%d points, %d observations, %d unknowns, redundancy %d (sigma %.3g mm/sqrt(km))\n",
+		len(sol.Points), st.Observations, st.Unknowns, st.Redundancy, opts.SigmaMMPerSqrtKm)
 	if st.Redundancy > 0 {
-		verdict := "passes"
-		if !st.ChiSquare.Pass {
-			verdict = "FAILS"
-		}
-		fmt.Fprintf(w, "variance factor %.3f (sigma %.3g mm/sqrt(km)); chi-square %.2f %s the %.0f%% test, bounds %.2f to %.2f\n",
-			st.VarianceFactor, opts.SigmaMMPerSqrtKm, st.ChiSquare.Statistic, verdict, 100*(1-st.ChiSquare.Alpha), st.ChiSquare.Lower, st.ChiSquare.Upper)
+		c := st.ChiSquare
+		fmt.Fprintln(w, chiSquareLine(c.Statistic, st.VarianceFactor, st.Redundancy, c.Alpha, c.Lower, c.Upper, c.Pass))
 	} else {
-		fmt.Fprintln(w, "no redundancy: the observations cannot be checked")
+		fmt.Fprintln(w, noRedundancyLine)
 	}
 	idx := flagged(sol)
-	fmt.Fprintf(w, "%d section(s) flagged by data snooping (|w| > %.2f)\n", len(idx), st.SnoopCritical)
+	fmt.Fprintln(w, snoopingLine(adjust.NetworkStatOf(sol), len(idx)))
 	const show = 20
 	for k, i := range idx {
 		if k == show {

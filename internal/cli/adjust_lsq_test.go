@@ -158,3 +158,33 @@ func TestAdjustLeastSquaresBadInput(t *testing.T) {
 	}
 	registertest.AssertNothingWritten(t, db.Pool, before)
 }
+
+// TestAdjustSnoopingFamilyIsKept: --snooping family is kept with the
+// draft, said in its report and in adjustment show, and followed when the
+// draft is computed again at publication (the draft reproduces: with its
+// failed checks accepted it is published, not refused as altered).
+func TestAdjustSnoopingFamilyIsKept(t *testing.T) {
+	t.Parallel()
+	db := pgtest.New(t)
+	seedTallis(t, db)
+	out, errOut, _ := run(t, db.URL, "adjust", "1", "2", "3", "--method", "least-squares", "--hold", "TC-0412,TC-0415", "--snooping", "family", "--by", "tester")
+	line := regexpLine(out, "flagged by data snooping")
+	if !strings.Contains(line, "family-wise: alpha 0.001 for the whole network") {
+		t.Fatalf("report line %q:\n%s\n%s", line, out, errOut)
+	}
+	shown, _, _ := run(t, db.URL, "adjustment", "show", "1")
+	if regexpLine(shown, "flagged by data snooping") != line {
+		t.Errorf("adjustment show:\n%s", shown)
+	}
+	js, _, _ := run(t, db.URL, "adjustment", "show", "1", "-o", "json")
+	if !strings.Contains(js, `"snooping": "family"`) {
+		t.Errorf("the stored parameters and statistics lack the snooping:\n%s", js)
+	}
+	_, errOut, st := run(t, db.URL, "publish", "1", "--reason", "network", "--by", "reviewer", "--yes", "--accept-failed-checks", "--accept-reason", "tried")
+	if st != ExitOK || strings.Contains(errOut, "does not follow from its stored inputs") {
+		t.Errorf("publish (exit %d) computed the draft again differently:\n%s", st, errOut)
+	}
+	if _, _, st := run(t, db.URL, "adjust", "1", "--hold", "TC-0412", "--snooping", "family"); st != ExitBadInput {
+		t.Errorf("--snooping with a proportional adjustment: exit %d, want 2", st)
+	}
+}

@@ -134,15 +134,27 @@ func TestAdjustFilesBadInput(t *testing.T) {
 	}
 }
 
+// TestAdjustFlaggedExitsChecksFailed: four routes between A and B agree on
+// B − A to a millimetre (3.000, 3.001 and 3.000 m over the 2 km chains
+// through X, Y and Z) but for the direct 1 km section B → A, booked 8 mm
+// off (−3.008 m, line 8). Derived by hand with σ = 1 mm/√km: the weighted
+// mean of B − A is (3.008 + 0.5·9.001)/2.5 = 3.0034 m, so the direct section
+// has v = +4.6 mm with q_vv = 1 − 1/2.5 = 0.6 km, w = 4.6/√0.6 ≈ 5.9, and
+// the chains v ≤ 3.4 mm with q_vv = 2 − 0.4 = 1.6 km, |w| ≤ 2.7, under
+// 3.29: the planted blunder is the one section flagged, the exit status 3.
 func TestAdjustFlaggedExitsChecksFailed(t *testing.T) {
 	dir := t.TempDir()
-	// Two loops sharing A–B; the 50 mm blunder on X→B is found by snooping.
-	s := writeFile(t, dir, "s.csv", "from,to,dh_m,length_km\nA,X,1.000,1\nX,B,2.050,1\nB,A,-3.000,1\nA,Y,0.500,1\nY,B,2.501,1\nB,Z,1,1\nZ,A,-1.001,1\n")
+	s := writeFile(t, dir, "s.csv", "from,to,dh_m,length_km\nA,X,1.000,1\nX,B,2.000,1\nA,Y,0.500,1\nY,B,2.501,1\nB,Z,-1.000,1\nZ,A,-2.000,1\nB,A,-3.008,1\n")
 	h := writeFile(t, dir, "h.csv", "point,height_m\nA,10\n")
 	ios, _, _, errOut := TestStreams(false)
 	err := Execute(context.Background(), NewFactory(ios, "test"), []string{"adjust", "--sections", s, "--held", h, "-o", "csv"})
-	if exitCode(err) != ExitChecks || !strings.Contains(errOut.String(), "s.csv line 2") {
-		t.Errorf("exit %d (%v), report:\n%s", exitCode(err), err, errOut.String())
+	report := errOut.String()
+	if exitCode(err) != ExitChecks || !strings.Contains(report, "1 section(s) flagged") {
+		t.Fatalf("exit %d (%v), report:\n%s", exitCode(err), err, report)
+	}
+	flagged := regexpLine(report, "s.csv line")
+	if !strings.Contains(flagged, "s.csv line 8: residual +0.0046 m, w +5.9") {
+		t.Errorf("flagged %q, want line 8 with v = +0.0046 m and w about 5.9; report:\n%s", flagged, report)
 	}
 }
 

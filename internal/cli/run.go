@@ -322,10 +322,10 @@ type numbers struct {
 func numbersFor(r *reduce.Result) numbers { return numbers{r.Unit, reduce.Decimals(r.Unit)} }
 
 // h formats a reading, height or difference (metres in) in the run's unit.
-func (n numbers) h(m float64) string { return units.Format(n.u.FromMetres(m), n.dec) }
+func (n numbers) h(m float64) string { return units.FormatIn(m, n.u, n.dec) }
 
 // d formats a distance.
-func (n numbers) d(m float64) string { return units.Format(n.u.FromMetres(m), reduce.DistanceDecimals) }
+func (n numbers) d(m float64) string { return units.FormatIn(m, n.u, reduce.DistanceDecimals) }
 
 // signed formats a difference with its sign.
 func (n numbers) signed(m float64) string {
@@ -389,16 +389,26 @@ func sectionsTable(r *reduce.Result) Table {
 	return t
 }
 
+// notJudged says why a closure of r has no allowable: the run names no
+// class, or it does and the closure has no length to judge it over.
+func notJudged(r *reduce.Result, hasLength bool) string {
+	switch {
+	case r.Tolerances != nil:
+		return "not judged (no lengths)"
+	case !hasLength:
+		return "not judged (no class, no lengths)"
+	}
+	return "not judged (no class)"
+}
+
 func misclosureTable(r *reduce.Result) Table {
 	n := numbersFor(r)
 	u := string(r.Unit)
 	t := Table{Headers: []string{"KIND", "FROM", "TO", "LINES", "SETUPS", "LENGTH (" + u + ")", "OBSERVED (" + u + ")", "KNOWN (" + u + ")", "MISCLOSURE (" + u + ")", "ALLOWABLE (" + u + ")", "RESULT"}}
 	for _, m := range r.Misclosures {
-		length, allow, result := "-", "-", "not judged (no class)"
+		length, allow, result := "-", "-", notJudged(r, m.HasLength && m.LengthM > 0)
 		if m.HasLength {
 			length = n.d(m.LengthM)
-		} else {
-			result = "not judged (no length)"
 		}
 		if m.HasAllowable {
 			allow, result = n.h(m.AllowableM), "FAIL"
@@ -429,11 +439,9 @@ func heldSightsTable(r *reduce.Result) Table {
 	u := string(r.Unit)
 	t := Table{Headers: []string{"LINE", "MARK", "HEIGHT (" + u + ")", "HELD (" + u + ")", "DIFFERENCE (" + u + ")", "LENGTH (" + u + ")", "ALLOWABLE (" + u + ")", "RESULT"}}
 	for _, h := range r.HeldSights {
-		length, allow, result := "-", "-", "not judged (no class)"
+		length, allow, result := "-", "-", notJudged(r, h.HasLength && h.LengthM > 0)
 		if h.HasLength {
 			length = n.d(h.LengthM)
-		} else {
-			result = "not judged (no length)"
 		}
 		if h.HasAllowable {
 			allow, result = n.h(h.AllowableM), "FAIL"

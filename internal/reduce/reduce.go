@@ -41,10 +41,6 @@ func CurvatureRefractionM(distanceM float64) float64 {
 	return crCoefficient * distanceM * distanceM
 }
 
-// eps absorbs the rounding of float64 arithmetic in comparisons with a
-// limit, so a value exactly at its limit passes.
-const eps = 1e-9
-
 // Reduce reduces book with opts. It fails only on options that do not fit
 // the book (a held mark not on the line, a turning point held, a correction
 // asked for sights without distances); the checks' outcome is in the
@@ -301,7 +297,7 @@ func (r *Result) buildMisclosures() {
 		if r.Tolerances != nil && ms.HasLength && ms.LengthM > 0 {
 			ms.AllowableM = r.Tolerances.AllowableLoopM(ms.LengthM)
 			ms.HasAllowable = true
-			ms.Pass = math.Abs(ms.MisclosureM) <= ms.AllowableM+eps
+			ms.Pass = standards.Within(ms.MisclosureM, ms.AllowableM)
 		}
 		r.Misclosures = append(r.Misclosures, ms)
 	}
@@ -329,8 +325,8 @@ func (r *Result) buildMisclosures() {
 func (r *Result) check() {
 	u := r.Unit
 	dec := Decimals(u)
-	f := func(m float64) string { return units.Format(u.FromMetres(m), dec) + " " + string(u) }
-	fd := func(m float64) string { return units.Format(u.FromMetres(m), DistanceDecimals) + " " + string(u) }
+	f := func(m float64) string { return units.FormatIn(m, u, dec) + " " + string(u) }
+	fd := func(m float64) string { return units.FormatIn(m, u, DistanceDecimals) + " " + string(u) }
 	checks := map[CheckKind]*Check{}
 	order := []CheckKind{CheckThreeWire, CheckDistance, CheckSightLength, CheckSetupImbalance, CheckSectionImbalance, CheckMisclosure, CheckHeldSight, CheckClosure}
 	for _, k := range order {
@@ -347,7 +343,7 @@ func (r *Result) check() {
 	c := checks[CheckThreeWire]
 	threeWireLimit := "0.003 m"
 	if u != units.Metre {
-		threeWireLimit += " (" + units.Format(u.FromMetres(standards.ThreeWireM), 4) + " " + string(u) + ")"
+		threeWireLimit += " (" + units.FormatIn(standards.ThreeWireM, u, 4) + " " + string(u) + ")"
 	}
 	c.Tolerance = "half-intervals agree within " + threeWireLimit
 	c.Source = standards.ThreeWireSource
@@ -357,7 +353,7 @@ func (r *Result) check() {
 		}
 		c.Checked++
 		d := u.ToMetres(math.Abs((s.Upper - s.Middle) - (s.Middle - s.Lower)))
-		if d > standards.ThreeWireM+eps {
+		if !standards.Within(d, standards.ThreeWireM) {
 			fail(CheckThreeWire, s.Line, s.Point, d, standards.ThreeWireM,
 				"half-intervals %s and %s differ by %s (limit %s): reobserve",
 				units.Format(s.Upper-s.Middle, dec), units.Format(s.Middle-s.Lower, dec), f(d), threeWireLimit)
@@ -391,7 +387,7 @@ func (r *Result) check() {
 				continue
 			}
 			checks[CheckSightLength].Checked++
-			if row.DistanceM > t.MaxSightM+eps {
+			if !standards.Within(row.DistanceM, t.MaxSightM) {
 				fail(CheckSightLength, row.Line, row.Point, row.DistanceM, t.MaxSightM, "sight of %s is longer than %s", fd(row.DistanceM), fd(t.MaxSightM))
 			}
 		}
@@ -400,7 +396,7 @@ func (r *Result) check() {
 				continue
 			}
 			checks[CheckSetupImbalance].Checked++
-			if math.Abs(st.ImbalanceM) > t.MaxSetupImbalanceM+eps {
+			if !standards.Within(st.ImbalanceM, t.MaxSetupImbalanceM) {
 				fail(CheckSetupImbalance, st.ForeLine, fmt.Sprintf("setup %d", st.Number), st.ImbalanceM, t.MaxSetupImbalanceM,
 					"backsight %s, foresight %s: imbalance %s exceeds %s", fd(st.BackDistanceM), fd(st.ForeDistanceM), fd(st.ImbalanceM), fd(t.MaxSetupImbalanceM))
 			}
@@ -410,7 +406,7 @@ func (r *Result) check() {
 				continue
 			}
 			checks[CheckSectionImbalance].Checked++
-			if math.Abs(s.ImbalanceM) > t.MaxSectionImbalanceM+eps {
+			if !standards.Within(s.ImbalanceM, t.MaxSectionImbalanceM) {
 				fail(CheckSectionImbalance, s.ToLine, s.From+" to "+s.To, s.ImbalanceM, t.MaxSectionImbalanceM,
 					"accumulated imbalance %s exceeds %s", fd(s.ImbalanceM), fd(t.MaxSectionImbalanceM))
 			}

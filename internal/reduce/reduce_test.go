@@ -3,6 +3,8 @@ package reduce
 import (
 	"fmt"
 	"math"
+	"math/big"
+	"os"
 	"path/filepath"
 	"strings"
 	"testing"
@@ -167,37 +169,85 @@ func TestLoopBackwards(t *testing.T) {
 	}
 }
 
-// Property: the loop in US survey feet and the same book converted exactly
-// to metres reduce to the same heights.
-func TestFeetAndMetresAgree(t *testing.T) {
-	ft := read(t, "tallis-north-loop.csv")
-	var sb strings.Builder
-	sb.WriteString("# units: m\n# class: second-II\npoint,sight,upper,middle,lower\n")
-	conv := func(raw string) string {
-		s, err := units.ConvertExact(raw, units.USSurveyFoot, units.Metre, 12)
-		if err != nil {
-			t.Fatal(err)
+// TestFootBookUsesTheDefiningFoot: a book in US survey feet reduces with
+// 1 usft = 1200/3937 m and one in international feet with 0.3048 m exactly
+// (Federal Register Vol. 85 No. 193, 2020, read). The expected section
+// differences are worked here with exact fractions from the book's
+// decimals: Σ (mean of the three wires of each backsight − of each
+// foresight) × the foot in metres, so neither the reduction's float
+// arithmetic nor units' own constants stand behind them. The same
+// readings taken as international feet give differences 2 ppm smaller
+// (0.3048 × 3937/1200 = 0.999998, derived).
+func TestFootBookUsesTheDefiningFoot(t *testing.T) {
+	data, err := os.ReadFile(filepath.Join(books, "tallis-north-loop.csv"))
+	if err != nil {
+		t.Fatal(err)
+	}
+	for _, c := range []struct {
+		unit string
+		foot *big.Rat
+	}{{"usft", big.NewRat(1200, 3937)}, {"ft", big.NewRat(3048, 10000)}} {
+		b := parse(t, strings.Replace(string(data), "# units: usft", "# units: "+c.unit, 1))
+		r := reduce(t, b, Options{})
+		// Exact: each section's Σ(BS − FS) over its setups, in feet, × foot.
+		var want []*big.Rat
+		sum := new(big.Rat)
+		for _, s := range b.Sightings {
+			mean := new(big.Rat)
+			for _, w := range []string{s.Raw.Upper, s.Raw.Middle, s.Raw.Lower} {
+				v, ok := new(big.Rat).SetString(w)
+				if !ok {
+					t.Fatalf("line %d: %q", s.Line, w)
+				}
+				mean.Add(mean, v)
+			}
+			mean.Quo(mean, big.NewRat(3, 1))
+			switch s.Sight {
+			case levelbook.Backsight:
+				sum.Add(sum, mean)
+			case levelbook.Foresight:
+				sum.Sub(sum, mean)
+				if !strings.HasPrefix(s.Point, "TP") {
+					want = append(want, new(big.Rat).Mul(sum, c.foot))
+					sum = new(big.Rat)
+				}
+			}
 		}
-		return s
-	}
-	for _, s := range ft.Sightings {
-		fmt.Fprintf(&sb, "%s,%s,%s,%s,%s\n", s.Point, s.Sight, conv(s.Raw.Upper), conv(s.Raw.Middle), conv(s.Raw.Lower))
-	}
-	hold := map[string]float64{"TC-0412": units.USSurveyFoot.ToMetres(412.368)}
-	rf := reduce(t, ft, Options{Hold: hold})
-	rm := reduce(t, parse(t, sb.String()), Options{Hold: hold})
-	for i := range rf.Rows {
-		if d := rf.Rows[i].HeightM - rm.Rows[i].HeightM; math.Abs(d) > 1e-9 {
-			t.Errorf("line %d %s: %.9f m in feet, %.9f m in metres", rf.Rows[i].Line, rf.Rows[i].Point, rf.Rows[i].HeightM, rm.Rows[i].HeightM)
+		if len(r.Sections) != len(want) || len(want) != 3 {
+			t.Fatalf("%s: %d sections, %d worked", c.unit, len(r.Sections), len(want))
+		}
+		for i, w := range want {
+			wf, _ := w.Float64()
+			if d := math.Abs(r.Sections[i].DifferenceM - wf); d > 1e-12 {
+				t.Errorf("%s: section %d %.12f m, exact %s m", c.unit, i+1, r.Sections[i].DifferenceM, w.FloatString(12))
+			}
 		}
 	}
-	for i := range rf.Sections {
-		if d := rf.Sections[i].LengthM - rm.Sections[i].LengthM; math.Abs(d) > 1e-6 {
-			t.Errorf("section %d length differs by %g m", i+1, d)
-		}
+}
+
+// TestArithmeticCheck: the published book of worked example 2
+// (Universiti Sains Malaysia, "Ukur Aras", read; docs/references.md):
+// ΣBS = 1.717 + 2.918 + 0.816 + 1.436 + 1.246 = 8.133 m and
+// ΣFS = 1.716 + 0.953 + 3.005 + 1.391 + 0.628 = 7.693 m (intermediate
+// sights left out), and their difference 0.440 m is the published last
+// reduced level minus the first, 29.670 − 29.230 (sums derived from the
+// published readings). The reduction must take the same sights as
+// backsights and foresights and leave the intermediate ones out; an
+// intermediate sight counted as a foresight, or a column read as another,
+// fails it.
+func TestArithmeticCheck(t *testing.T) {
+	r := reduce(t, read(t, "usm-ukur-aras.csv"), Options{Hold: map[string]float64{"OBM1": 29.23, "OBM2": 29.66}})
+	var bs, fs float64
+	for _, s := range r.Setups {
+		bs += s.BacksightM
+		fs += s.ForesightM
 	}
-	if rf.Passed() != rm.Passed() || len(rf.Failures) != len(rm.Failures) {
-		t.Errorf("checks differ: %+v vs %+v", rf.Failures, rm.Failures)
+	if math.Abs(bs-8.133) > 1e-9 || math.Abs(fs-7.693) > 1e-9 {
+		t.Errorf("ΣBS %.4f m, ΣFS %.4f m; published readings sum to 8.133 and 7.693", bs, fs)
+	}
+	first, last := r.Rows[0], r.Rows[len(r.Rows)-1]
+	if first.Point != "OBM1" || last.Point != "OBM2" || math.Abs((last.HeightM-first.HeightM)-(29.670-29.230)) > 1e-9 {
+		t.Errorf("%s %.4f to %s %.4f, published 29.230 to 29.670", first.Point, first.HeightM, last.Point, last.HeightM)
 	}
 }
 
@@ -221,32 +271,6 @@ func TestDemoBooks(t *testing.T) {
 	open := reduce(t, read(t, "mere-river-line.csv"), Options{Hold: map[string]float64{"TC-0420": 3.512}})
 	if open.Passed() || len(open.Failures) != 1 || open.Failures[0].Kind != CheckClosure || open.Failures[0].Line != 29 {
 		t.Errorf("open line failures = %+v", open.Failures)
-	}
-}
-
-// Arithmetic check of a level book (common practice): ΣBS − ΣFS equals
-// the last height minus the first; and the sections sum to the run.
-func TestArithmeticCheck(t *testing.T) {
-	r := reduce(t, read(t, "mere-river-line.csv"), Options{Hold: map[string]float64{"TC-0420": 3.512, "TC-0427": 5.104}})
-	var sum, secs, length float64
-	for _, s := range r.Setups {
-		sum += s.BacksightM - s.ForesightM
-	}
-	for _, s := range r.Sections {
-		secs += s.DifferenceM
-		length += s.LengthM
-	}
-	d := r.Rows[len(r.Rows)-1].HeightM - r.Rows[0].HeightM
-	if math.Abs(sum-d) > 1e-12 || math.Abs(secs-d) > 1e-12 {
-		t.Errorf("ΣBS−ΣFS %.6f, Σsections %.6f, last−first %.6f", sum, secs, d)
-	}
-	last := r.Sections[len(r.Sections)-1]
-	if math.Abs(last.CumulativeLengthM-length) > 1e-9 || last.CumulativeSetups != len(r.Setups) {
-		t.Errorf("cumulative %v m %d setups, want %v m %d", last.CumulativeLengthM, last.CumulativeSetups, length, len(r.Setups))
-	}
-	ms := r.Misclosures[0]
-	if math.Abs(ms.MisclosureM-(d-(5.104-3.512))) > 1e-12 {
-		t.Errorf("misclosure %v", ms.MisclosureM)
 	}
 }
 

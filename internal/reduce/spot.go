@@ -2,9 +2,9 @@ package reduce
 
 import (
 	"fmt"
-	"math"
 
 	"cairn/internal/levelbook"
+	"cairn/internal/standards"
 )
 
 // SpotHeight is the reduced height of a spot height: a point that is not a
@@ -69,7 +69,7 @@ func (r *Result) spotHeights() {
 		if r.Tolerances != nil && hs.HasLength && hs.LengthM > 0 {
 			hs.AllowableM = r.Tolerances.AllowableLoopM(hs.LengthM)
 			hs.HasAllowable = true
-			hs.Pass = math.Abs(hs.DifferenceM) <= hs.AllowableM+eps
+			hs.Pass = standards.Within(hs.DifferenceM, hs.AllowableM)
 		}
 		r.HeldSights = append(r.HeldSights, hs)
 	}

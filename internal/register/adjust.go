@@ -91,12 +91,15 @@ type Parameters struct {
 	// √km or per √setup, the significance level of the χ² test, the
 	// critical value of data snooping, whether only the first held mark was
 	// held (minimal), and the standard deviations of marks held weighted.
-	Weighting     string             `json:"weighting,omitempty"`
-	SigmaMM       float64            `json:"sigma_mm,omitempty"`
-	Alpha         float64            `json:"alpha,omitempty"`
-	SnoopCritical float64            `json:"snoop_critical,omitempty"`
-	Minimal       bool               `json:"minimal,omitempty"`
-	HoldSDMM      map[string]float64 `json:"hold_sd_mm,omitempty"`
+	Weighting     string  `json:"weighting,omitempty"`
+	SigmaMM       float64 `json:"sigma_mm,omitempty"`
+	Alpha         float64 `json:"alpha,omitempty"`
+	SnoopCritical float64 `json:"snoop_critical,omitempty"`
+	// Snooping is "family" when data snooping tested the network as a
+	// whole (adjust.SnoopFamily); "" per observation.
+	Snooping string             `json:"snooping,omitempty"`
+	Minimal  bool               `json:"minimal,omitempty"`
+	HoldSDMM map[string]float64 `json:"hold_sd_mm,omitempty"`
 	// How the runs were chosen, besides by number.
 	Marks []string `json:"marks,omitempty"`
 	Area  string   `json:"area,omitempty"`
@@ -278,8 +281,8 @@ func (p *AdjustParams) check() error {
 		switch {
 		case o.Weighting != adjust.WeightByLength:
 			return inputErr("weight", "weighting goes with a least-squares adjustment")
-		case o.SigmaM != 0 || o.Alpha != 0 || o.SnoopCritical != 0:
-			return inputErr("method", "sigma, alpha and the critical value of data snooping go with a least-squares adjustment")
+		case o.SigmaM != 0 || o.Alpha != 0 || o.SnoopCritical != 0 || o.Snooping != adjust.SnoopPerObservation:
+			return inputErr("method", "sigma, alpha and data snooping go with a least-squares adjustment")
 		case o.Minimal:
 			return inputErr("minimal", "a minimally constrained adjustment is made by least squares")
 		}
@@ -300,7 +303,7 @@ func (p *AdjustParams) check() error {
 
 // optionField names the settings of adjust.NetworkOptions as AdjustParams'
 // fields are named in errors.
-var optionField = map[string]string{"weighting": "weight", "sigma_m": "sigma", "alpha": "alpha", "snoop_critical": "snoop-critical"}
+var optionField = map[string]string{"weighting": "weight", "sigma_m": "sigma", "alpha": "alpha", "snoop_critical": "snoop-critical", "snooping": "snooping"}
 
 // optionShown is the rejected value as the user gave it (σ₀ in millimetres).
 func optionShown(oe *adjust.OptionError) float64 {

@@ -84,6 +84,9 @@ func parametersOf(p AdjustParams, g *gathered, d *adjust.Draft) Parameters {
 		pm.Weighting = "setups"
 	}
 	pm.SigmaMM, pm.Alpha, pm.SnoopCritical, pm.Minimal = o.SigmaM*1000, o.Alpha, o.SnoopCritical, o.Minimal
+	if o.Snooping == adjust.SnoopFamily {
+		pm.Snooping = o.Snooping.String()
+	}
 	for k, h := range g.input.Held {
 		if h.SigmaM > 0 {
 			if pm.HoldSDMM == nil {

@@ -176,6 +176,9 @@ func storedInput(ctx context.Context, db store.DBTX, v *AdjustmentView) (adjust.
 		if pm.Weighting == "setups" {
 			in.Network.Weighting = adjust.WeightBySetups
 		}
+		if in.Network.Snooping, err = adjust.ParseSnooping(pm.Snooping); err != nil {
+			return in, &DraftMismatchError{AdjustmentID: a.ID, Failed: err.Error()}
+		}
 	} else if in.Distribution, err = adjust.ParseDistribution(pm.Distribution); err != nil {
 		return in, &DraftMismatchError{AdjustmentID: a.ID, Failed: err.Error()}
 	}

@@ -16,6 +16,7 @@ import (
 	"fmt"
 	"math"
 	"math/big"
+	"strconv"
 	"strings"
 )
 
@@ -176,17 +177,41 @@ func RoundRat(r *big.Rat, decimals int) string {
 	return s
 }
 
-// Round rounds v half away from zero to decimals places.
-func Round(v float64, decimals int) float64 {
-	p := math.Pow(10, float64(decimals))
-	return math.Round(v*p) / p
+// Decimal returns the exact value of the shortest decimal that reads back
+// as v (strconv.FormatFloat(v, 'g', -1, 64)): the number a person reads
+// when v is printed in full. It is what cairn rounds for publication, not
+// v's binary value: 1.005 is stored as 1.00499999999999989…, which a person
+// reads, and cairn rounds, as 1.005. v must be finite.
+func Decimal(v float64) *big.Rat {
+	r, ok := new(big.Rat).SetString(strconv.FormatFloat(v, 'g', -1, 64))
+	if !ok {
+		panic(fmt.Sprintf("units: Decimal of %v", v))
+	}
+	return r
 }
 
-// Format writes v with exactly decimals places, never "-0.000".
+// Format writes v with exactly decimals places, rounded half away from
+// zero, and never "-0.000". It is the one rounding of a value to publish or
+// print: the shortest decimal that reads back as v (Decimal) is rounded
+// exactly (RoundRat), so a value half-way between two steps rounds by the
+// rule, not by the noise of its binary form (1.005 to two places is 1.01,
+// 0.5055 to three is 0.506). A NaN or an infinity is written as fmt writes
+// it.
 func Format(v float64, decimals int) string {
-	s := fmt.Sprintf("%.*f", decimals, Round(v, decimals))
-	if strings.Trim(s, "-0.") == "" {
-		s = strings.TrimPrefix(s, "-")
+	if math.IsNaN(v) || math.IsInf(v, 0) {
+		return fmt.Sprintf("%.*f", decimals, v)
 	}
-	return s
+	return RoundRat(Decimal(v), decimals)
+}
+
+// FormatIn writes a length of m metres in unit u with exactly decimals
+// places: the shortest decimal that reads back as m, converted to u exactly
+// (as ConvertExact converts) and rounded half away from zero. In metres it is
+// Format.
+func FormatIn(m float64, u Unit, decimals int) string {
+	if u == Metre || math.IsNaN(m) || math.IsInf(m, 0) {
+		return Format(u.FromMetres(m), decimals)
+	}
+	r := Decimal(m)
+	return RoundRat(r.Quo(r, u.ratio()), decimals)
 }

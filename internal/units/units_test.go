@@ -2,6 +2,7 @@ package units
 
 import (
 	"math"
+	"math/big"
 	"testing"
 )
 
@@ -15,9 +16,61 @@ func TestConvertExactSurveyFoot(t *testing.T) {
 	if got != "234.645" {
 		t.Fatalf("769.83 usft = %s m, want 234.645", got)
 	}
-	back, err := ConvertExact("769.83", USSurveyFoot, USSurveyFoot, 2)
-	if err != nil || back != "769.83" {
-		t.Fatalf("round trip gave %q, %v", back, err)
+}
+
+// TestConvertExactRoundTrip converts between the units with the defining
+// constants and back. Sources: the international foot is 0.3048 m exactly
+// and the US survey foot 1200/3937 m (Federal Register Vol. 85 No. 193,
+// 5 October 2020, pp. 62698-62708, read; both date from the notice
+// "Refinement of values for the yard and the pound", Federal Register 1959,
+// from memory). The expected decimals are derived by hand from those
+// fractions: 1200/3937 = 0.304800609601219202438…, and
+// 1 ft = 0.3048 × 3937/1200 usft = 0.999998 usft exactly.
+func TestConvertExactRoundTrip(t *testing.T) {
+	for _, c := range []struct {
+		value    string
+		from, to Unit
+		decimals int
+		want     string
+	}{
+		{"1", USSurveyFoot, Metre, 12, "0.304800609601"},
+		{"1", Foot, Metre, 4, "0.3048"},
+		{"1", Foot, USSurveyFoot, 6, "0.999998"},
+		{"1", Foot, USSurveyFoot, 12, "0.999998000000"},
+		{"0.999998", USSurveyFoot, Foot, 12, "1.000000000000"},
+		{"1", Metre, Foot, 12, "3.280839895013"},          // 1/0.3048 = 3.28083989501312…
+		{"1", Metre, USSurveyFoot, 12, "3.280833333333"},  // 3937/1200 = 3.2808333…
+		{"3937", Metre, USSurveyFoot, 0, "12917"},         // 3937 × 3937/1200 = 12916.6408…
+		{"1200", USSurveyFoot, Metre, 9, "365.760731521"}, // 1200²/3937 = 365.7607315214…
+	} {
+		got, err := ConvertExact(c.value, c.from, c.to, c.decimals)
+		if err != nil || got != c.want {
+			t.Errorf("%s %s = %s %s (%v), want %s", c.value, c.from, got, c.to, err, c.want)
+		}
+	}
+	// There and back: usft → m to 12 places → usft to 2 places gives the
+	// value back; the metre value is the defining fraction times it.
+	for _, v := range []string{"769.83", "0.01", "29527.50", "-12.35"} {
+		m, err := ConvertExact(v, USSurveyFoot, Metre, 12)
+		if err != nil {
+			t.Fatal(err)
+		}
+		back, err := ConvertExact(m, Metre, USSurveyFoot, 2)
+		if err != nil || back != v {
+			t.Errorf("%s usft → %s m → %s usft (%v)", v, m, back, err)
+		}
+		exact, _ := new(big.Rat).SetString(v)
+		exact.Mul(exact, big.NewRat(1200, 3937))
+		if want := exact.FloatString(12); m != want && !(m == "-"+want[1:]) {
+			t.Errorf("%s usft = %s m, the defining fraction gives %s", v, m, want)
+		}
+	}
+	// The float conversions agree with the fractions to a float's precision.
+	if got := USSurveyFoot.ToMetres(1); math.Abs(got-0.304800609601219202) > 1e-16 {
+		t.Errorf("ToMetres(1 usft) = %.18f", got)
+	}
+	if got := Foot.FromMetres(0.3048 * 0.999998); math.Abs(got-0.999998) > 1e-15 {
+		t.Errorf("FromMetres in ft = %.18f", got)
 	}
 }
 
@@ -60,6 +113,62 @@ func TestRoundRatHalfAwayFromZero(t *testing.T) {
 		got, _ := ConvertExact(c.in, Metre, Metre, c.dec)
 		if got != c.want {
 			t.Errorf("round %s to %d = %s, want %s", c.in, c.dec, got, c.want)
+		}
+	}
+}
+
+// TestRoundHalfAwayExact: the rounding of every published or printed value
+// rounds the decimal a person reads, half away from zero (common practice
+// for published heights; cairn's documented rule, docs/methods.md). The
+// values are exact half-way decimals whose float64 lies just below (or
+// above) the half: 1.005 is 1.00499999999999989…, so fmt's %.2f and
+// math.Round(v·100)/100 give 1.00; 0.5055 is 0.50549999999999995…, which
+// they round to 0.505.
+func TestRoundHalfAwayExact(t *testing.T) {
+	for _, c := range []struct {
+		v    float64
+		dec  int
+		want string
+	}{
+		{1.005, 2, "1.01"},
+		{-1.005, 2, "-1.01"},
+		{0.5055, 3, "0.506"},
+		{-0.5055, 3, "-0.506"},
+		{2.675, 2, "2.68"},
+		{1.0005, 3, "1.001"},
+		{1.2345, 3, "1.235"},
+		{437.5965, 3, "437.597"},
+		{math.Nextafter(0.5055, 0), 3, "0.505"}, // the float below 0.5055 reads as 0.5054999999999999
+		{0.0004, 3, "0.000"},
+		{-0.0004, 3, "0.000"}, // never -0.000
+		{-0.0005, 3, "-0.001"},
+		{12, 0, "12"},
+		{0.5, 0, "1"},
+		{-0.5, 0, "-1"},
+		{1e-20, 3, "0.000"},
+		{123456.78949999999, 4, "123456.7895"},
+	} {
+		if got := Format(c.v, c.dec); got != c.want {
+			t.Errorf("Format(%v, %d) = %s, want %s", c.v, c.dec, got, c.want)
+		}
+	}
+	if got := Format(math.NaN(), 3); got != "NaN" {
+		t.Errorf("Format(NaN) = %s", got)
+	}
+	// In feet: 0.3049524 m is exactly 1.0005 ft (× 1/0.3048), which rounds
+	// up; the float 0.3049524/0.3048 would print 1.000 with %.3f.
+	for _, c := range []struct {
+		m    float64
+		u    Unit
+		dec  int
+		want string
+	}{
+		{0.3049524, Foot, 3, "1.001"},
+		{0.5055, Metre, 3, "0.506"},
+		{-0.1524, Foot, 0, "-1"}, // −0.5 ft exactly
+	} {
+		if got := FormatIn(c.m, c.u, c.dec); got != c.want {
+			t.Errorf("FormatIn(%v m, %s, %d) = %s, want %s", c.m, c.u, c.dec, got, c.want)
 		}
 	}
 }
