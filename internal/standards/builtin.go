@@ -20,7 +20,7 @@ const (
 	srcNGS     = "National Geodetic Survey, Standards & Requirements for Leveling (after FGCC 1984), elevation accuracy standards"
 	srcEN0593  = "US Army Engineer School, subcourse EN0593, §4-3 (second-order leveling, classes I and II)"
 	srcEN05934 = "US Army Engineer School, subcourse EN0593, §4 (three-wire and stadia sight lengths)"
-	srcChoice  = "cairn's choice: a check connection is a line between two published marks, judged by the loop-or-line column"
+	srcChoice  = "a check connection is a line between two published marks, judged by the loop-or-line column"
 )
 
 // fgccRow is one class of the 1984 field-procedure table as cairn holds it.

@@ -290,3 +290,36 @@ func (t Tolerances) FromMemoryFields() []Field {
 	}
 	return out
 }
+
+// Ref is what a run keeps of the profile that judged it.
+type Ref struct {
+	// Name is the profile's name; Version its Profile.Version.
+	Name    string `json:"name"`
+	Version string `json:"version"`
+	// Title and Source describe it; Builtin says whether cairn carries it,
+	// File where a file profile was read from.
+	Title   string `json:"title"`
+	Source  string `json:"source"`
+	Builtin bool   `json:"builtin"`
+	File    string `json:"file,omitempty"`
+}
+
+// Ref returns what a run keeps of p.
+func (p *Profile) Ref() Ref {
+	return Ref{Name: p.Name, Version: p.Version(), Title: p.Title, Source: p.Source, Builtin: p.Builtin, File: p.File}
+}
+
+// Words says in one line which profile judged a run and what kind of
+// profile it is:
+//
+//	fgcc-1984, built in, edition 2
+//	tallis-county, the office's file tallis.std, sha256:3f5a…
+func (r Ref) Words() string {
+	if r.Name == "" {
+		return "not recorded (recorded before cairn kept the standards profile; the built-in 1984 table of the time, from memory)"
+	}
+	if r.Builtin {
+		return fmt.Sprintf("%s, built in, edition %s", r.Name, r.Version)
+	}
+	return fmt.Sprintf("%s, the office's file %s, %s", r.Name, r.File, r.Version)
+}
