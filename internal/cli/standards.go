@@ -11,6 +11,7 @@ import (
 
 	"cairn/internal/reduce"
 	"cairn/internal/standards"
+	"cairn/internal/store"
 )
 
 // standardsLong is the help of `cairn standards`.
@@ -259,4 +260,48 @@ func standardsReport(w io.Writer, r *reduce.Result) {
 		}
 		fmt.Fprintf(w, "  CAUTION: the %s values were recalled, not read in their source: confirm them before relying on this report.\n", strings.Join(names, ", "))
 	}
+}
+
+// runStandardsJSON is what a recorded run keeps of its standards profile
+// (store.RunStandards), with the words the reports use.
+type runStandardsJSON struct {
+	// Profile is "" for a run recorded before the profile was kept.
+	Profile string `json:"profile"`
+	Version string `json:"version"`
+	Source  string `json:"source"`
+	Builtin bool   `json:"builtin"`
+	// Words names the profile and its version in plain words; Values
+	// says how sure cairn is of the values of the run's class.
+	Words  string `json:"words"`
+	Values string `json:"values"`
+}
+
+func toRunStandardsJSON(s store.RunStandards, class string) runStandardsJSON {
+	ref := standards.Ref{Name: s.Profile, Version: s.Version, Source: s.Source, Builtin: s.File == nil && s.Profile != ""}
+	var p *standards.Profile
+	switch {
+	case s.File != nil:
+		if fp, err := standards.Parse(s.Profile, s.File); err == nil {
+			p = fp
+			ref.File = "kept with the run"
+		}
+	case s.Profile != "":
+		p, _ = standards.Builtin(s.Profile)
+	default:
+		p = standards.Default()
+	}
+	j := runStandardsJSON{Profile: s.Profile, Version: s.Version, Source: s.Source, Builtin: ref.Builtin, Words: ref.Words()}
+	c, err := standards.ParseClass(class)
+	if p == nil || err != nil || !p.Has(c) {
+		return j
+	}
+	t, _ := p.For(c)
+	j.Values = t.Summary()
+	if p.Builtin && s.Profile != "" && p.Edition != s.Version {
+		j.Values += fmt.Sprintf(" (as this cairn's edition %s says; the run was judged by edition %s)", p.Edition, s.Version)
+	}
+	if s.Profile == "" {
+		j.Values += " (today's fgcc-1984)"
+	}
+	return j
 }
