@@ -136,7 +136,7 @@ func deriveRun(run store.AuditRun, stored []store.Sighting, secs []store.Section
 		add(runWhere, "its stored check summary is not readable: %v", err)
 		return out
 	}
-	prof, err := runProfile(run.Standards, book)
+	prof, err := runProfile(run.Standards)
 	if err != nil {
 		add(runWhere, "its stored standards profile is not readable: %v", err)
 		return out
@@ -373,7 +373,7 @@ func resultText(value, unit *string, decimals *int, class string) string {
 // runProfile is the profile a stored run was judged by: its stored file,
 // parsed again, or the built-in it names (a built-in of this binary: its
 // edition may be later than the run's); before v15, the default.
-func runProfile(s store.RunStandards, book *levelbook.Book) (*standards.Profile, error) {
+func runProfile(s store.RunStandards) (*standards.Profile, error) {
 	switch {
 	case s.File != nil:
 		return standards.Parse(s.Profile+" (stored with the run)", s.File)
