@@ -64,6 +64,24 @@ type DraftRun struct {
 	// misclosure.
 	Class    string
 	Sections []DraftSection
+	// Standards is the profile that judged the run when it was recorded;
+	// nil for the default (standards.Default). Its tolerances judge the
+	// run's misclosures here too.
+	Standards *standards.Profile
+}
+
+// tolerances returns the tolerances of the run's class in its profile,
+// and false if the class is unknown or the profile does not cover it.
+func (r DraftRun) tolerances() (standards.Tolerances, bool) {
+	if r.Standards == nil {
+		return TolerancesOf(r.Class)
+	}
+	c, err := standards.ParseClass(r.Class)
+	if err != nil {
+		return standards.Tolerances{}, false
+	}
+	t, err := r.Standards.For(c)
+	return t, err == nil
 }
 
 // DraftSection is one section of a run between two marks, in field order.
@@ -236,7 +254,7 @@ func (d *Draft) proportional(in DraftInput) error {
 		if err != nil {
 			return draftErr("hold", "run %d: %v", run.ID, strings.TrimPrefix(err.Error(), "adjust: "))
 		}
-		tol, hasClass := TolerancesOf(run.Class)
+		tol, hasClass := run.tolerances()
 		for _, st := range sol.Stretches {
 			s := StretchStat{RunID: run.ID, From: st.From, To: st.To, LengthM: st.LengthM, Setups: st.Setups, MisclosureM: st.MisclosureM}
 			if hasClass {

@@ -357,6 +357,8 @@ type runRefJSON struct {
 	// ObservedOn is the date in the book, YYYY-MM-DD; null when none.
 	ObservedOn *string `json:"observed_on"`
 	Class      string  `json:"class"`
+	// Standards is the profile that judged the run.
+	Standards runStandardsJSON `json:"standards"`
 	// Voided is the run's void, null while it stands (a run voided after
 	// the adjustment was made, or left out of it).
 	Voided *voidJSON `json:"voided"`
@@ -392,7 +394,7 @@ type resultJSON struct {
 
 func toRunRef(r store.Run) runRefJSON {
 	j := runRefJSON{RunID: r.ID, Name: r.Name, FileName: r.FileName, BookSHA256: hex.EncodeToString(r.BookSHA256),
-		Class: r.Class, Voided: toVoidJSON(r.Voided)}
+		Class: r.Class, Standards: toRunStandardsJSON(r.Standards, r.Class), Voided: toVoidJSON(r.Voided)}
 	if r.ObservedOn != nil {
 		d := r.ObservedOn.Format("2006-01-02")
 		j.ObservedOn = &d

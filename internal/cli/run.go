@@ -5,6 +5,7 @@ import (
 	"context"
 	"fmt"
 	"io"
+	"path/filepath"
 	"slices"
 	"strconv"
 	"strings"
@@ -42,7 +43,10 @@ type runCheckOptions struct {
 	// Class overrides the book's accuracy class ("" keeps it).
 	Class               standards.Class
 	CurvatureRefraction bool
-	Format              Format
+	// Standards names the profile that judges the run (--standards NAME
+	// or FILE), overriding the book's; "" keeps the book's.
+	Standards string
+	Format    Format
 }
 
 // newCmdRunCheck builds `cairn run check`. runF replaces runCheckRun in
@@ -72,6 +76,12 @@ not found, unless --allow-condition is given with --condition-reason. A run
 that neither closes on itself nor joins two held marks fails the closure
 check.
 
+The tolerances come from a standards profile: the book's "# standards:"
+line, or --standards NAME|FILE, else fgcc-1984 (see cairn standards). The
+report names the profile that judged the run, with its source and the
+status of its values in plain words: most of the built-in 1984 table is from
+memory (recalled, not read in the publication), and the report says so.
+
 The report ends with how the checks came out: "All checks passed." only when
 every check that applies was made and passed; otherwise it names the checks
 not made and why (no class, no distances, no closure).
@@ -88,7 +98,9 @@ and follow the codes and regulations that govern your work.`,
 		Example: `  cairn run check north-loop.csv
   cairn run check levee-line.csv --hold TC-0420 --hold TC-0427
   cairn run check levee-line.csv --held-height TC-0420=3.512 --held-height TC-0427=5.104
-  cairn run check levee-line.csv --class second-II -o json`,
+  cairn run check levee-line.csv --class second-II -o json
+  cairn run check levee-line.csv --standards en0593
+  cairn run check levee-line.csv --standards office.std`,
 		Args: exactArgs(1, "one level book"),
 		RunE: func(cmd *cobra.Command, args []string) error {
 			opts.ctx, opts.BookPath = cmd.Context(), args[0]
@@ -96,7 +108,7 @@ and follow the codes and regulations that govern your work.`,
 			if opts.Hold, opts.HoldCurrent, opts.Class, err = rf.parse(cmd, opts.IO); err != nil {
 				return err
 			}
-			opts.CurvatureRefraction = rf.curvatureRefraction
+			opts.CurvatureRefraction, opts.Standards = rf.curvatureRefraction, strings.TrimSpace(rf.standards)
 			opts.AllowCondition, opts.ConditionReason = rf.allowCondition, strings.TrimSpace(rf.conditionReason)
 			return dispatch(opts, runF, runCheckRun)
 		},
@@ -115,6 +127,7 @@ type reductionFlags struct {
 	// is kept for one release.
 	holds               []string
 	class               string
+	standards           string
 	curvatureRefraction bool
 	allowCondition      bool
 	conditionReason     string
@@ -124,6 +137,7 @@ func (rf *reductionFlags) add(fl *pflag.FlagSet) {
 	fl.StringArrayVar(&rf.heldHeights, "held-height", nil, "known height of a mark to reduce the book from, MARK=HEIGHT in the book's unit; MARK alone takes its current height in the register (repeatable)")
 	fl.StringArrayVar(&rf.holds, "hold", nil, "hold MARK at its current height in the register, on the book's datum (repeatable; MARK=HEIGHT is deprecated: use --held-height)")
 	fl.StringVar(&rf.class, "class", "", "accuracy class to check against, overriding the book's: "+classNames()+" (in any case)")
+	fl.StringVar(&rf.standards, "standards", "", standardsFlagHelp)
 	fl.BoolVar(&rf.curvatureRefraction, "curvature-refraction", false, "correct every reading for curvature and refraction (k = 0.14)")
 	fl.BoolVar(&rf.allowCondition, "allow-condition", false, "hold marks from the register whose latest condition report is disturbed, destroyed or not found (needs --condition-reason)")
 	fl.StringVar(&rf.conditionReason, "condition-reason", "", "with --allow-condition: why those marks may be held")
@@ -201,7 +215,7 @@ func parseHeldHeights(byFlag map[string][]string) (hold map[string]float64, curr
 // reduceBook reduces a level book with held heights typed in the book's
 // unit and held from the register. Every error is bad input (exit status
 // 2).
-func reduceBook(book *levelbook.Book, hold map[string]float64, held []register.HeldHeight, class standards.Class, cr bool) (*reduce.Result, error) {
+func reduceBook(book *levelbook.Book, hold map[string]float64, held []register.HeldHeight, class standards.Class, prof *standards.Profile, cr bool) (*reduce.Result, error) {
 	var holdM map[string]float64
 	if len(hold)+len(held) > 0 {
 		var err error
@@ -212,7 +226,7 @@ func reduceBook(book *levelbook.Book, hold map[string]float64, held []register.H
 			holdM[h.Designation] = h.ValueM
 		}
 	}
-	r, err := reduce.Reduce(book, reduce.Options{Hold: holdM, Class: class, CurvatureRefraction: cr})
+	r, err := reduce.Reduce(book, reduce.Options{Hold: holdM, Class: class, Standards: prof, CurvatureRefraction: cr})
 	if err != nil {
 		return nil, badInput("%v", err)
 	}
@@ -269,7 +283,11 @@ func runCheckRun(opts *runCheckOptions) error {
 			return err
 		}
 	}
-	r, err := reduceBook(book, opts.Hold, held, opts.Class, opts.CurvatureRefraction)
+	prof, err := resolveStandards(opts.Standards, book.Meta.Standards, filepath.Dir(opts.BookPath))
+	if err != nil {
+		return err
+	}
+	r, err := reduceBook(book, opts.Hold, held, opts.Class, prof, opts.CurvatureRefraction)
 	if err != nil {
 		return err
 	}
@@ -511,6 +529,7 @@ func writeReport(w io.Writer, r *reduce.Result, heldFrom map[string]string) erro
 		cr = "applied (k = 0.14)"
 	}
 	fmt.Fprintf(w, "Unit %s (%s) · datum %s · class %s · reading %s · curvature and refraction %s\n", r.Unit, r.Unit.Name(), datum, class, reading, cr)
+	standardsReport(w, r)
 	kind := "line"
 	if r.Loop {
 		kind = "loop"

@@ -26,7 +26,9 @@ type runRecordOptions struct {
 	// class, corrections, who, new marks, acceptance and its reason. Path
 	// and Book are filled when the book is read.
 	register.RecordParams
-	Format Format
+	// StandardsName is --standards NAME|FILE ("" keeps the book's).
+	StandardsName string
+	Format        Format
 }
 
 // newCmdRunRecord builds `cairn run record`. runF replaces runRecordRun in
@@ -87,7 +89,7 @@ work.`,
 			if opts.Hold, opts.HoldCurrent, opts.Class, err = rf.parse(cmd, f.IO); err != nil {
 				return err
 			}
-			opts.CurvatureRefraction = rf.curvatureRefraction
+			opts.CurvatureRefraction, opts.StandardsName = rf.curvatureRefraction, strings.TrimSpace(rf.standards)
 			opts.AllowCondition, opts.ConditionReason = rf.allowCondition, strings.TrimSpace(rf.conditionReason)
 			opts.Reason = strings.TrimSpace(opts.Reason)
 			if opts.AcceptFailedChecks && opts.Reason == "" {
@@ -138,6 +140,11 @@ func runRecordRun(opts *runRecordOptions) error {
 	}
 	p := opts.RecordParams
 	p.Path, p.Book = opts.BookPath, data
+	if opts.StandardsName != "" {
+		if p.Standards, err = resolveStandards(opts.StandardsName, "", ""); err != nil {
+			return err
+		}
+	}
 	rec, err := r.Record(opts.ctx, p)
 	if err != nil {
 		return err

@@ -46,6 +46,8 @@ type runJSON struct {
 	// ObservationsSHA256 is the fingerprint of the book's observations
 	// (docs/runs.md); "" for a run recorded before fingerprints were kept.
 	ObservationsSHA256 string `json:"observations_sha256"`
+	// Standards is the profile that judged the run.
+	Standards runStandardsJSON `json:"standards"`
 	// Voided is the run's void, null while it stands.
 	Voided *voidJSON `json:"voided"`
 }
@@ -55,7 +57,8 @@ func toRunJSON(r store.Run) runJSON {
 		Class: r.Class, Unit: r.Unit, FileName: r.FileName, BookSHA256: hex.EncodeToString(r.BookSHA256),
 		BookBytes: r.BookSize, RecordedBy: r.RecordedBy, RecordedAt: r.RecordedAt, ChecksFailed: r.ChecksFailed,
 		AcceptedReason: r.AcceptedReason, SightingCount: r.Sightings, SectionCount: r.Sections, LengthM: r.LengthM,
-		ObservationsSHA256: hex.EncodeToString(r.ObservationsSHA256), Voided: toVoidJSON(r.Voided)}
+		ObservationsSHA256: hex.EncodeToString(r.ObservationsSHA256), Standards: toRunStandardsJSON(r.Standards, r.Class),
+		Voided: toVoidJSON(r.Voided)}
 	if r.ObservedOn != nil {
 		j.ObservedOn = r.ObservedOn.Format("2006-01-02")
 	}
@@ -206,7 +209,8 @@ func writeRunReport(w io.Writer, run store.Run, sum register.CheckSummary, secti
 	for _, kv := range [][2]string{
 		{"run", strconv.FormatInt(run.ID, 10)},
 		{"name", j.Name}, {"observed on", j.ObservedOn}, {"crew", j.Crew}, {"instrument", j.Instrument}, {"rod", j.Rod},
-		{"datum", j.Datum}, {"class", j.Class}, {"unit", j.Unit},
+		{"datum", j.Datum}, {"class", j.Class}, {"standards", j.Standards.Words}, {"standards source", j.Standards.Source},
+		{"standards values", j.Standards.Values}, {"unit", j.Unit},
 		{"file", fmt.Sprintf("%s (%d bytes)", j.FileName, j.BookBytes)}, {"sha256", j.BookSHA256},
 		{"recorded", timeText(run.RecordedAt) + " by " + run.RecordedBy},
 		{"sightings", strconv.Itoa(run.Sightings)},

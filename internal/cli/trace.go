@@ -216,6 +216,7 @@ func writeTrace(w io.Writer, v traceVersionJSON, indent string) {
 		}
 		for _, r := range a.Runs {
 			fmt.Fprintf(w, "%s    run %d %q (%s): book %s, sha256 %s\n", in, r.RunID, r.Name, runText(r), r.FileName, r.BookSHA256)
+			fmt.Fprintf(w, "%s        judged by standards %s\n", in, r.Standards.Words)
 			if v := r.Voided; v != nil {
 				fmt.Fprintf(w, "%s        VOIDED %s by %s: %s\n", in, timeText(v.VoidedAt), v.VoidedBy, v.Reason)
 			}

@@ -90,6 +90,11 @@ type Meta struct {
 	// Class is the accuracy class the run is meant to meet; empty if the
 	// book names none.
 	Class standards.Class `json:"class,omitempty"`
+	// Standards names the standards profile that judges the run: a
+	// built-in profile (standards.Builtins) or a profile file, a relative
+	// path read from the book's directory; empty for the default profile.
+	// The book names it; reading a file is the caller's (standards.Resolve).
+	Standards string `json:"standards,omitempty"`
 	// Reading says which reading is the rod reading; default mean.
 	Reading ReadingMode `json:"reading"`
 	// TurningPoints is the turning-point name pattern as written: one or

@@ -34,7 +34,7 @@ var requiredColumns = []string{"point", "sight", "middle"}
 
 // Keys are the metadata keys a book may set, in the order the format
 // describes them. Keys starting with "x-" are also allowed and kept.
-var Keys = []string{"run", "date", "crew", "instrument", "rod", "units", "stadia-factor", "stadia-constant", "datum", "class", "reading", "turning-points"}
+var Keys = []string{"run", "date", "crew", "instrument", "rod", "units", "stadia-factor", "stadia-constant", "datum", "class", "standards", "reading", "turning-points"}
 
 // metaLine matches a metadata comment: "# key: value".
 var metaLine = regexp.MustCompile(`^#\s*([A-Za-z][A-Za-z0-9_-]*)\s*:(.*)$`)
@@ -293,6 +293,11 @@ func (p *parser) setMeta(line int, key, value string) error {
 			return bad("%v", err)
 		}
 		m.Class = c
+	case "standards":
+		if value == "" {
+			return bad("empty: name a built-in profile (%s) or a profile file", strings.Join(builtinNames(), ", "))
+		}
+		m.Standards = value
 	case "reading":
 		switch r := ReadingMode(strings.ToLower(value)); r {
 		case ReadMean, ReadMiddle:
@@ -587,3 +592,11 @@ func (p *parser) checkShape() error {
 // (suggest.Levenshtein) away, close enough to be a likely typo (common
 // practice).
 const typoLimit = 3
+
+func builtinNames() []string {
+	var out []string
+	for _, p := range standards.Builtins() {
+		out = append(out, p.Name)
+	}
+	return out
+}

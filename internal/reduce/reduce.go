@@ -5,6 +5,7 @@ import (
 	"maps"
 	"math"
 	"slices"
+	"strconv"
 	"strings"
 
 	"cairn/internal/levelbook"
@@ -68,8 +69,19 @@ func Reduce(book *levelbook.Book, opts Options) (*Result, error) {
 	if opts.Class != "" {
 		r.Class = opts.Class
 	}
+	prof := opts.Standards
+	if prof == nil {
+		var err error
+		if prof, err = bookProfile(book); err != nil {
+			return nil, err
+		}
+	}
+	r.Standards = prof.Ref()
 	if r.Class != "" {
-		t := standards.For(r.Class)
+		t, err := prof.For(r.Class)
+		if err != nil {
+			return nil, err
+		}
 		r.Tolerances = &t
 	}
 	if err := r.setHeld(book, opts.Hold); err != nil {
@@ -84,6 +96,21 @@ func Reduce(book *levelbook.Book, opts Options) (*Result, error) {
 	r.spotHeights()
 	r.check()
 	return r, nil
+}
+
+// bookProfile is the profile a book names when the caller gives none: a
+// built-in, or the default when the book names none. A book that names a
+// profile file is refused here: reading the file is the caller's
+// (standards.Resolve), so that a named file is never passed over.
+func bookProfile(book *levelbook.Book) (*standards.Profile, error) {
+	name := book.Meta.Standards
+	if name == "" {
+		return standards.Default(), nil
+	}
+	if p, ok := standards.Builtin(name); ok {
+		return p, nil
+	}
+	return nil, fmt.Errorf("%s names the standards file %q, which was not read (give it with the standards option)", book.Name, name)
 }
 
 // setHeld checks the held marks against the book.
@@ -339,22 +366,27 @@ func (r *Result) check() {
 	t := r.Tolerances
 	noClass := "no accuracy class: the book names none (\"# class:\") and none was given"
 
-	// Three-wire consistency, every class (EN0593 §4).
+	// Three-wire consistency, every class (EN0593 §4): the profile's limit
+	// for the run's class, else the built-in 0.003 m.
 	c := checks[CheckThreeWire]
-	threeWireLimit := "0.003 m"
+	threeWireM, threeWireSource := standards.ThreeWireM, standards.ThreeWireSource
+	if t != nil {
+		threeWireM, threeWireSource = t.ThreeWireM, t.Profile+": "+t.Provenance[standards.FieldThreeWire].Source+" ("+string(t.Provenance[standards.FieldThreeWire].Status)+")"
+	}
+	threeWireLimit := strconv.FormatFloat(threeWireM, 'g', -1, 64) + " m"
 	if u != units.Metre {
-		threeWireLimit += " (" + units.FormatIn(standards.ThreeWireM, u, 4) + " " + string(u) + ")"
+		threeWireLimit += " (" + units.FormatIn(threeWireM, u, 4) + " " + string(u) + ")"
 	}
 	c.Tolerance = "half-intervals agree within " + threeWireLimit
-	c.Source = standards.ThreeWireSource
+	c.Source = threeWireSource
 	for _, s := range r.Book.Sightings {
 		if !s.ThreeWire {
 			continue
 		}
 		c.Checked++
 		d := u.ToMetres(math.Abs((s.Upper - s.Middle) - (s.Middle - s.Lower)))
-		if !standards.Within(d, standards.ThreeWireM) {
-			fail(CheckThreeWire, s.Line, s.Point, d, standards.ThreeWireM,
+		if !standards.Within(d, threeWireM) {
+			fail(CheckThreeWire, s.Line, s.Point, d, threeWireM,
 				"half-intervals %s and %s differ by %s (limit %s): reobserve",
 				units.Format(s.Upper-s.Middle, dec), units.Format(s.Middle-s.Lower, dec), f(d), threeWireLimit)
 		}

@@ -31,6 +31,10 @@ type Options struct {
 	Hold map[string]float64
 	// Class overrides the book's accuracy class; empty keeps the book's.
 	Class standards.Class
+	// Standards is the profile whose tolerances judge the run; nil for the
+	// default profile (standards.Default). The caller resolves the book's
+	// "# standards:" line or its own flag (standards.Resolve).
+	Standards *standards.Profile
 	// CurvatureRefraction corrects every reading for the curvature of the
 	// earth and atmospheric refraction (CurvatureRefractionM); every sight
 	// must then have a distance.
@@ -50,6 +54,8 @@ type Result struct {
 	// and only the class-free checks are made.
 	Class      standards.Class       `json:"class,omitempty"`
 	Tolerances *standards.Tolerances `json:"tolerances,omitempty"`
+	// Standards names the profile that judged the run, with its version.
+	Standards standards.Ref `json:"standards"`
 	// Reading is the reading mode used.
 	Reading levelbook.ReadingMode `json:"reading"`
 	// CurvatureRefraction says whether readings were corrected.

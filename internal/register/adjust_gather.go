@@ -130,7 +130,11 @@ func (r *Register) gather(ctx context.Context, tx pgx.Tx, p AdjustParams) (*gath
 		g.markIDs[s.From], g.markIDs[s.To] = s.FromMarkID, s.ToMarkID
 	}
 	for _, run := range g.runs {
-		g.input.Runs = append(g.input.Runs, adjust.DraftRun{ID: run.ID, Class: run.Class, Sections: byRun[run.ID]})
+		prof, err := runProfile(run.Standards)
+		if err != nil {
+			return nil, fmt.Errorf("run %d: its standards profile: %w", run.ID, err)
+		}
+		g.input.Runs = append(g.input.Runs, adjust.DraftRun{ID: run.ID, Class: run.Class, Sections: byRun[run.ID], Standards: prof})
 	}
 	g.input.Method, g.input.Distribution, g.input.Network = p.Method, p.Distribution, p.LeastSquares
 	g.input.Decimals = p.Decimals

@@ -12,6 +12,7 @@ import (
 
 	"cairn/internal/levelbook"
 	"cairn/internal/reduce"
+	"cairn/internal/standards"
 	"cairn/internal/store"
 )
 
@@ -135,7 +136,12 @@ func deriveRun(run store.AuditRun, stored []store.Sighting, secs []store.Section
 		add(runWhere, "its stored check summary is not readable: %v", err)
 		return out
 	}
-	res, err := reduce.Reduce(book, reduce.Options{Class: sum.Class, Hold: sum.HeldM, CurvatureRefraction: sum.CurvatureRefraction})
+	prof, err := runProfile(run.Standards)
+	if err != nil {
+		add(runWhere, "its stored standards profile is not readable: %v", err)
+		return out
+	}
+	res, err := reduce.Reduce(book, reduce.Options{Class: sum.Class, Hold: sum.HeldM, Standards: prof, CurvatureRefraction: sum.CurvatureRefraction})
 	if err != nil {
 		add(runWhere, "its stored book no longer reduces with its stored options: %v", err)
 		return out
@@ -362,4 +368,20 @@ func resultText(value, unit *string, decimals *int, class string) string {
 		return "no value"
 	}
 	return shownResult(*value, *unit, *decimals, class)
+}
+
+// runProfile is the profile a stored run was judged by: its stored file,
+// parsed again, or the built-in it names (a built-in of this binary: its
+// edition may be later than the run's); before v15, the default.
+func runProfile(s store.RunStandards) (*standards.Profile, error) {
+	switch {
+	case s.File != nil:
+		return standards.Parse(s.Profile+" (stored with the run)", s.File)
+	case s.Profile != "":
+		if p, ok := standards.Builtin(s.Profile); ok {
+			return p, nil
+		}
+		return nil, fmt.Errorf("built-in profile %q is not known to this cairn", s.Profile)
+	}
+	return standards.Default(), nil
 }

@@ -35,6 +35,11 @@ type RecordParams struct {
 	Hold                map[string]float64
 	Class               standards.Class
 	CurvatureRefraction bool
+	// Standards is the profile that judges the run, overriding the book's
+	// "# standards:"; nil keeps the book's (a built-in, or a file read
+	// from the book's directory), else the default. The run keeps its
+	// name, version and source, and a file profile's bytes.
+	Standards *standards.Profile
 	// HoldCurrent names marks held at their current published height on
 	// the book's datum, in the book's unit (see HeldHeights); the run
 	// keeps the versions held. A mark is held once, here or in Hold.
@@ -87,6 +92,9 @@ type Recorded struct {
 type CheckSummary struct {
 	// Class is the accuracy class checked against ("" when none).
 	Class standards.Class `json:"class,omitempty"`
+	// Standards names the profile that judged the run (nil for runs
+	// recorded before it was kept).
+	Standards *standards.Ref `json:"standards,omitempty"`
 	// HeldM are the held heights in metres, by mark.
 	HeldM               map[string]float64  `json:"held_m,omitempty"`
 	CurvatureRefraction bool                `json:"curvature_refraction"`
@@ -102,8 +110,9 @@ type CheckSummary struct {
 }
 
 func summaryOf(res *reduce.Result) CheckSummary {
+	ref := res.Standards
 	return CheckSummary{
-		Class: res.Class, HeldM: res.Held, CurvatureRefraction: res.CurvatureRefraction,
+		Class: res.Class, Standards: &ref, HeldM: res.Held, CurvatureRefraction: res.CurvatureRefraction,
 		Start: res.Start, End: res.End, Loop: res.Loop,
 		Misclosures: res.Misclosures, Checks: res.Checks, Failures: res.Failures, Summary: res.Summary,
 	}
@@ -234,7 +243,13 @@ func (r *Register) Record(ctx context.Context, p RecordParams) (*Recorded, error
 	if err := CheckBookDate(book, p.Today); err != nil {
 		return nil, err
 	}
-	opts := reduce.Options{Class: p.Class, CurvatureRefraction: p.CurvatureRefraction}
+	prof := p.Standards
+	if prof == nil {
+		if prof, err = standards.Resolve(book.Meta.Standards, filepath.Dir(p.Path)); err != nil {
+			return nil, &InputError{Field: "standards", Msg: err.Error()}
+		}
+	}
+	opts := reduce.Options{Class: p.Class, Standards: prof, CurvatureRefraction: p.CurvatureRefraction}
 	if len(p.Hold) > 0 || len(p.HoldCurrent) > 0 {
 		if opts.Hold, err = TypedHoldM(book.Meta.Unit, p.Hold, len(p.HoldCurrent)); err != nil {
 			return nil, err
@@ -269,6 +284,10 @@ func (r *Register) Record(ctx context.Context, p RecordParams) (*Recorded, error
 		reason = strings.TrimSpace(p.Reason)
 	}
 	run, err := runInsertParams(p, book, res, reason)
+	run.Standards = store.RunStandards{Profile: prof.Name, Version: prof.Version(), Source: prof.Source}
+	if !prof.Builtin {
+		run.Standards.File = prof.Data
+	}
 	if err != nil {
 		return nil, err
 	}

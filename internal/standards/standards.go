@@ -1,19 +1,19 @@
 // Package standards holds the accuracy classes of differential leveling and
-// the tolerances that go with them, each with its published source.
+// the tolerances that judge a run, gathered in named, versioned profiles
+// (profile.go): two built in, each value with its source and how sure we are
+// of it, and the office's own, read from a file (file.go).
 //
 // Classes carry the order-and-class meaning of the Federal Geodetic Control
 // Committee, "Standards and Specifications for Geodetic Control Networks"
-// (FGCC, Rockville MD, September 1984), §3.5 (geodetic leveling, field
-// procedures). cairn names them in its own words: first-I, first-II,
-// second-I, second-II and third.
+// (FGCC, Rockville MD, September 1984). cairn names them in its own words:
+// first-I, first-II, second-I, second-II and third.
 //
-// The numbers of the FGCC 1984 field-procedure table below are from memory:
-// the publication was identified but its table could not be read when this
-// package was written. Two read sources agree with parts of it: the Montana
-// State University ITCM 410 lab "Vertical Control Survey – Three-Wire
-// Leveling" (closure constants 3, 4, 6, 8, 12 mm·√km expressed in feet) and
-// US Army Engineer School course EN0593, §4-3 (second-order class II,
-// 8.4 mm·√K; per-setup stadia imbalance about 10 m).
+// The built-in profile fgcc-1984 (the default) holds the 1984 field-procedure
+// table. Its closure constants, sight lengths, imbalances and ground
+// clearance are from memory: the stored copy of the National Geodetic
+// Survey's OCR text of the 1984 publication could be read only as far as its
+// preface, not its leveling section (docs/references.md#accuracy-classes).
+// The profile says so of each value, and so do the reports.
 package standards
 
 import (
@@ -68,11 +68,14 @@ func ParseClass(s string) (Class, error) {
 	return "", fmt.Errorf("unknown accuracy class %q (want %s)", s, strings.Join(names, ", "))
 }
 
-// Tolerances are the field-procedure limits of one accuracy class. Lengths
+// Tolerances are the limits of one accuracy class in one profile. Lengths
 // are in metres; misclosure constants in millimetres per square root of a
-// kilometre.
+// kilometre. A value of 0 in an optional field (MinGroundClearanceM,
+// MaxAccuracyMmSqrtKm) means the profile does not give it.
 type Tolerances struct {
 	Class Class `json:"class"`
+	// Profile names the profile the values come from.
+	Profile string `json:"profile"`
 	// SectionMmSqrtKm is the section misclosure constant of double-run
 	// leveling: |backward − forward| ≤ SectionMmSqrtKm·√D mm, with D the
 	// one-way section length in km.
@@ -80,7 +83,7 @@ type Tolerances struct {
 	// LoopMmSqrtKm is the loop misclosure constant: |misclosure| ≤
 	// LoopMmSqrtKm·√E mm, with E the loop length in km. cairn applies it
 	// also to a line closing between two held marks, E being the length of
-	// the line between them.
+	// the line between them: that is cairn's choice (docs/methods.md).
 	LoopMmSqrtKm float64 `json:"loop_mm_sqrt_km"`
 	// MaxSetupImbalanceM is the largest allowed difference between the
 	// backsight and foresight lengths of one setup.
@@ -90,6 +93,15 @@ type Tolerances struct {
 	MaxSectionImbalanceM float64 `json:"max_section_imbalance_m"`
 	// MaxSightM is the longest allowed sight.
 	MaxSightM float64 `json:"max_sight_m"`
+	// ThreeWireM is the largest allowed difference between the two half
+	// intervals of a three-wire reading, |(upper − middle) − (middle −
+	// lower)|, in metres; a difference equal to it passes.
+	ThreeWireM float64 `json:"three_wire_m"`
+	// CheckConnectionMmSqrtKm is the tolerance of a check connection: the
+	// observed difference between two published marks agrees with their
+	// published difference within CheckConnectionMmSqrtKm·√K mm, K the
+	// distance levelled between them in km.
+	CheckConnectionMmSqrtKm float64 `json:"check_connection_mm_sqrt_km"`
 	// MinGroundClearanceM is the least height of the line of sight above
 	// the ground. cairn does not check it (the book carries no clearance).
 	MinGroundClearanceM float64 `json:"min_ground_clearance_m"`
@@ -97,32 +109,22 @@ type Tolerances struct {
 	// accuracy b = S/√d (mm/√km) of a minimally constrained, correctly
 	// weighted least-squares adjustment: S the propagated standard
 	// deviation of the height difference in mm, d the distance along the
-	// route in km. Source: NGS, "Standards & Requirements for Leveling",
-	// after FGCC 1984 (read).
+	// route in km.
 	MaxAccuracyMmSqrtKm float64 `json:"max_accuracy_mm_sqrt_km"`
-	// Source cites where the field-procedure numbers come from.
+	// Source cites the profile's source in one line, with the status of
+	// its values in plain words (Profile.Summary).
 	Source string `json:"source"`
+	// Provenance gives the source and status of each value, by field.
+	Provenance map[Field]Provenance `json:"provenance,omitempty"`
 }
 
-// Source of the field-procedure table.
-const fgcc1984 = "FGCC 1984, Standards and Specifications for Geodetic Control Networks, §3.5 (values from memory)"
-
-// table holds FGCC 1984 §3.5 (from memory) and the NGS b = S/√d limits
-// (read), one row per class.
-var table = map[Class]Tolerances{
-	FirstI:   {Class: FirstI, SectionMmSqrtKm: 3, LoopMmSqrtKm: 4, MaxSetupImbalanceM: 2, MaxSectionImbalanceM: 4, MaxSightM: 50, MinGroundClearanceM: 0.5, MaxAccuracyMmSqrtKm: 0.5, Source: fgcc1984},
-	FirstII:  {Class: FirstII, SectionMmSqrtKm: 4, LoopMmSqrtKm: 5, MaxSetupImbalanceM: 5, MaxSectionImbalanceM: 10, MaxSightM: 60, MinGroundClearanceM: 0.5, MaxAccuracyMmSqrtKm: 0.7, Source: fgcc1984},
-	SecondI:  {Class: SecondI, SectionMmSqrtKm: 6, LoopMmSqrtKm: 6, MaxSetupImbalanceM: 5, MaxSectionImbalanceM: 10, MaxSightM: 60, MinGroundClearanceM: 0.5, MaxAccuracyMmSqrtKm: 1.0, Source: fgcc1984},
-	SecondII: {Class: SecondII, SectionMmSqrtKm: 8, LoopMmSqrtKm: 8, MaxSetupImbalanceM: 10, MaxSectionImbalanceM: 10, MaxSightM: 70, MinGroundClearanceM: 0.5, MaxAccuracyMmSqrtKm: 1.3, Source: fgcc1984},
-	Third:    {Class: Third, SectionMmSqrtKm: 12, LoopMmSqrtKm: 12, MaxSetupImbalanceM: 10, MaxSectionImbalanceM: 10, MaxSightM: 90, MinGroundClearanceM: 0.5, MaxAccuracyMmSqrtKm: 2.0, Source: fgcc1984},
-}
-
-// For returns the tolerances of class c. It panics on a class that is not
-// one of Classes (a programmer's mistake: parse names with ParseClass).
+// For returns the tolerances of class c in the default profile
+// (Default). It panics on a class that is not one of Classes (a
+// programmer's mistake: parse names with ParseClass).
 func For(c Class) Tolerances {
-	t, ok := table[c]
-	if !ok {
-		panic("standards: unknown class " + string(c))
+	t, err := Default().For(c)
+	if err != nil {
+		panic("standards: " + err.Error())
 	}
 	return t
 }
@@ -131,6 +133,8 @@ func For(c Class) Tolerances {
 // a line between two held marks) of the given length in metres:
 //
 //	allowable = LoopMmSqrtKm · √(length / 1000 m) / 1000   (m)
+//
+// It is what the misclosure checks of reduce and adjust compare with.
 func (t Tolerances) AllowableLoopM(lengthM float64) float64 {
 	return mmSqrtKm(t.LoopMmSqrtKm, lengthM)
 }
@@ -143,6 +147,15 @@ func (t Tolerances) AllowableSectionM(lengthM float64) float64 {
 	return mmSqrtKm(t.SectionMmSqrtKm, lengthM)
 }
 
+// AllowableCheckConnectionM returns the allowable disagreement in metres
+// between the observed and the published difference of two marks levelled
+// over the given length in metres:
+//
+//	allowable = CheckConnectionMmSqrtKm · √(length / 1000 m) / 1000   (m)
+func (t Tolerances) AllowableCheckConnectionM(lengthM float64) float64 {
+	return mmSqrtKm(t.CheckConnectionMmSqrtKm, lengthM)
+}
+
 func mmSqrtKm(c, lengthM float64) float64 {
 	if lengthM <= 0 {
 		return 0
@@ -150,15 +163,16 @@ func mmSqrtKm(c, lengthM float64) float64 {
 	return c * math.Sqrt(lengthM/1000) / 1000
 }
 
-// ThreeWireM is the largest allowed difference between the two half
-// intervals of a three-wire reading, |(upper − middle) − (middle − lower)|,
-// in metres; exactly 3 mm is accepted. It applies to every class. Source: US
-// Army Engineer School, course EN0593, §4 ("if the two half-intervals differ
-// by more than 0.003 m, reobserve"), read.
+// ThreeWireM is the three-wire half-interval limit of the built-in
+// profiles, 0.003 m; each profile carries its own (Tolerances.ThreeWireM).
+// Source: US Army Engineer School, subcourse EN0593, §4 ("if the two
+// half-intervals differ by more than 0.003 m, reobserve"), read. EN0593
+// accepts a difference of exactly 3 mm only after reobservation; cairn
+// cannot tell a reobservation in a book and accepts it (docs/methods.md).
 const ThreeWireM = 0.003
 
 // ThreeWireSource cites ThreeWireM.
-const ThreeWireSource = "US Army Engineer School, course EN0593, §4: half-intervals to agree within 0.003 m"
+const ThreeWireSource = "US Army Engineer School, subcourse EN0593, §4: half-intervals to agree within 0.003 m (read)"
 
 // StadiaFactor is the usual stadia interval factor of a level, and
 // StadiaConstant its usual additive constant (internal-focusing

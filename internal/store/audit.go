@@ -36,13 +36,18 @@ type AuditRun struct {
 	Book       []byte
 	Checks     []byte
 	RecordedAt time.Time
+	// Standards is the profile that judged the run (empty before v15).
+	Standards RunStandards
 }
 
 // AuditRunGet returns run id's book, check summary and time of recording.
 func AuditRunGet(ctx context.Context, db DBTX, id int64) (AuditRun, error) {
 	r := AuditRun{ID: id}
-	err := db.QueryRow(ctx, "SELECT file_name, book, checks::text, recorded_at FROM run WHERE id = $1", id).
-		Scan(&r.FileName, &r.Book, &r.Checks, &r.RecordedAt)
+	err := db.QueryRow(ctx, `SELECT file_name, book, checks::text, recorded_at,
+		coalesce(standards_profile, ''), coalesce(standards_version, ''), coalesce(standards_source, ''), standards_file
+		FROM run WHERE id = $1`, id).
+		Scan(&r.FileName, &r.Book, &r.Checks, &r.RecordedAt,
+			&r.Standards.Profile, &r.Standards.Version, &r.Standards.Source, &r.Standards.File)
 	return r, translate(err)
 }
 

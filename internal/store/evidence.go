@@ -93,19 +93,37 @@ func EvidenceCommitPage(ctx context.Context, tx pgx.Tx, after int64, limit int) 
 	return out, translate(rows.Err())
 }
 
+// evidenceLateColumns are the columns added to a table of the evidence
+// after v13, left out of a row's canonical text when NULL, so that rows
+// written before them keep the text their commits' digests were made of
+// (migrations/00015). Each entry's SQL is the same as
+// cairn_commit_manifest's.
+var evidenceLateColumns = map[string]string{
+	// A run's standards (00015): all four NULL before v15; the file NULL
+	// for a built-in profile.
+	"run": ` - CASE WHEN r.standards_profile IS NULL THEN '{standards_profile,standards_version,standards_source,standards_file}'::text[]` +
+		` WHEN r.standards_file IS NULL THEN '{standards_file}'::text[] ELSE '{}'::text[] END`,
+}
+
+// evidenceRowText is the SQL of the canonical text of a row r of table.
+func evidenceRowText(table string) string {
+	return "(to_jsonb(r) - 'created_xid'" + evidenceLateColumns[table] + ")"
+}
+
 // EvidenceRows calls fn with the canonical text of every row transaction
 // xid wrote (genesis: the rows of no transaction, created_xid NULL), table
 // by table in the order of EvidenceTables, each table's rows in key order,
 // then fn(table, nil) at the end of each table. The text is to_jsonb of
-// the row without created_xid, by plain SELECTs (no function of the
+// the row without created_xid (and the late columns that are NULL,
+// evidenceLateColumns), by plain SELECTs (no function of the
 // register's own). One round trip for all the tables.
 func EvidenceRows(ctx context.Context, tx pgx.Tx, xid uint64, genesis bool, fn func(table string, text []byte) error) error {
 	b := &pgx.Batch{}
 	for _, t := range EvidenceTables {
 		if genesis {
-			b.Queue(fmt.Sprintf(`SELECT (to_jsonb(r) - 'created_xid')::text FROM public.%s r WHERE created_xid IS NULL ORDER BY %s`, t.Name, t.Key))
+			b.Queue(fmt.Sprintf(`SELECT %s::text FROM public.%s r WHERE created_xid IS NULL ORDER BY %s`, evidenceRowText(t.Name), t.Name, t.Key))
 		} else {
-			b.Queue(fmt.Sprintf(`SELECT (to_jsonb(r) - 'created_xid')::text FROM public.%s r WHERE created_xid = $1::text::xid8 ORDER BY %s`, t.Name, t.Key),
+			b.Queue(fmt.Sprintf(`SELECT %s::text FROM public.%s r WHERE created_xid = $1::text::xid8 ORDER BY %s`, evidenceRowText(t.Name), t.Name, t.Key),
 				strconv.FormatUint(xid, 10))
 		}
 	}

@@ -74,8 +74,22 @@ type Run struct {
 	// schema v7, whose fingerprint is recomputed from its sightings when
 	// needed.
 	ObservationsSHA256 []byte
+	// Standards is the profile that judged the run: its name, version (a
+	// built-in's edition, or "sha256:…" of the file), source, and the
+	// file's bytes for a file profile; all empty for a run recorded
+	// before schema v15 (not recorded).
+	Standards RunStandards
 	// Voided is the run's void, nil while it stands.
 	Voided *RunVoid
+}
+
+// RunStandards is what a run keeps of the standards profile that judged
+// it (migrations/00015).
+type RunStandards struct {
+	Profile string
+	Version string
+	Source  string
+	File    []byte
 }
 
 const runColumns = `r.id, r.name, r.observed_on, r.crew, r.instrument, r.rod, r.datum, r.class, r.unit, r.meta,
@@ -85,6 +99,7 @@ const runColumns = `r.id, r.name, r.observed_on, r.crew, r.instrument, r.rod, r.
 	(SELECT count(*) FROM section s WHERE s.run_id = r.id),
 	(SELECT coalesce(sum(s.length_m), 0) FROM section s WHERE s.run_id = r.id),
 	r.observations_sha256,
+	coalesce(r.standards_profile, ''), coalesce(r.standards_version, ''), coalesce(r.standards_source, ''), r.standards_file,
 	(SELECT e.id FROM run_event e WHERE e.run_id = r.id AND e.kind = 'voided'),
 	(SELECT e.reason FROM run_event e WHERE e.run_id = r.id AND e.kind = 'voided'),
 	(SELECT e.recorded_by FROM run_event e WHERE e.run_id = r.id AND e.kind = 'voided'),
@@ -98,6 +113,7 @@ func scanRun(row pgx.Row) (Run, error) {
 	err := row.Scan(&r.ID, &r.Name, &r.ObservedOn, &r.Crew, &r.Instrument, &r.Rod, &r.Datum, &r.Class, &r.Unit, &r.Meta,
 		&r.FileName, &r.BookSHA256, &r.BookSize, &r.RecordedBy, &r.RecordedAt, &r.ChecksFailed, &r.Checks,
 		&r.AcceptedReason, &r.Sightings, &r.Sections, &r.LengthM, &r.ObservationsSHA256,
+		&r.Standards.Profile, &r.Standards.Version, &r.Standards.Source, &r.Standards.File,
 		&voidID, &voidReason, &voidBy, &voidAt)
 	if err == nil && voidID != nil {
 		r.Voided = &RunVoid{ID: *voidID, RunID: r.ID, Reason: *voidReason, RecordedBy: *voidBy, RecordedAt: *voidAt}
@@ -132,6 +148,8 @@ type RunInsertParams struct {
 	ChecksFailed   int
 	Checks         json.RawMessage
 	AcceptedReason string
+	// Standards is the profile that judged the run (see Run).
+	Standards RunStandards
 }
 
 // RunInsert adds a run and returns its identifier; ErrAlreadyExists when a
@@ -161,11 +179,12 @@ func RunInsert(ctx context.Context, db DBTX, p RunInsertParams) (int64, error) {
 	var id int64
 	err := db.QueryRow(ctx, `INSERT INTO run (name, observed_on, crew, instrument, rod, datum, class, unit, meta,
 		file_name, book, book_sha256, recorded_by, checks_failed, checks, accepted_reason,
-		observations_sha256, observations_seq)
-		VALUES ($1, $2, $3, $4, $5, $6, $7, $8, $9, $10, $11, $12, $13, $14, $15, $16, $17, $18) RETURNING id`,
+		observations_sha256, observations_seq, standards_profile, standards_version, standards_source, standards_file)
+		VALUES ($1, $2, $3, $4, $5, $6, $7, $8, $9, $10, $11, $12, $13, $14, $15, $16, $17, $18,
+		nullif($19, ''), nullif($20, ''), CASE WHEN $19 = '' THEN NULL ELSE $21 END, $22) RETURNING id`,
 		p.Name, observed, p.Crew, p.Instrument, p.Rod, p.Datum, p.Class, p.Unit, string(meta),
 		p.FileName, p.Book, p.BookSHA256, p.RecordedBy, p.ChecksFailed, string(checks), reason,
-		p.ObservationsSHA256, seq).Scan(&id)
+		p.ObservationsSHA256, seq, p.Standards.Profile, p.Standards.Version, p.Standards.Source, p.Standards.File).Scan(&id)
 	if err != nil {
 		return 0, fmt.Errorf("insert run: %w", translate(err))
 	}
