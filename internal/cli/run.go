@@ -412,6 +412,35 @@ func misclosureTable(r *reduce.Result) Table {
 	return t
 }
 
+// doubleRunTable lists the sections levelled both ways with their
+// closures (forward + backward) against the section tolerance.
+func doubleRunTable(r *reduce.Result) Table {
+	n := numbersFor(r)
+	u := string(r.Unit)
+	t := Table{Headers: []string{"FROM", "TO", "FORWARD", "BACKWARD", "FORWARD (" + u + ")", "BACKWARD (" + u + ")", "CLOSURE (" + u + ")", "ONE WAY (" + u + ")", "ALLOWABLE (" + u + ")", "RESULT"}}
+	for _, d := range r.DoubleRuns {
+		oneWay, allow, result := "-", "-", "not judged (no class)"
+		if d.HasLength {
+			oneWay = n.d(d.OneWayM)
+		} else {
+			result = "not judged (no length)"
+		}
+		if d.HasAllowable {
+			allow, result = n.h(d.AllowableM), "FAIL"
+			if d.Pass {
+				result = "pass"
+			}
+		}
+		back := fmt.Sprintf("section %d, lines %d-%d", d.Backward, d.BackwardLines[0], d.BackwardLines[1])
+		if d.OtherRun != 0 {
+			back = fmt.Sprintf("run %d section %d, lines %d-%d", d.OtherRun, d.Backward, d.BackwardLines[0], d.BackwardLines[1])
+		}
+		t.AddRow(d.From, d.To, fmt.Sprintf("section %d, lines %d-%d", d.Forward, d.ForwardLines[0], d.ForwardLines[1]), back,
+			n.signed(d.ForwardM), n.signed(d.BackwardM), n.signed(d.ClosureM), oneWay, allow, result)
+	}
+	return t
+}
+
 // spotTable lists the spot heights.
 func spotTable(r *reduce.Result) Table {
 	n := numbersFor(r)
@@ -542,6 +571,12 @@ func writeReport(w io.Writer, r *reduce.Result, heldFrom map[string]string) erro
 			title string
 			t     Table
 		}{"Spot heights (not marks)", spotTable(r)})
+	}
+	if len(r.DoubleRuns) > 0 {
+		parts = slices.Insert(parts, len(parts)-1, struct {
+			title string
+			t     Table
+		}{"Double-run sections (forward + backward)", doubleRunTable(r)})
 	}
 	if len(r.HeldSights) > 0 {
 		parts = slices.Insert(parts, len(parts)-1, struct {

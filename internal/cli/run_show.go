@@ -249,7 +249,7 @@ func writeRunReport(w io.Writer, run store.Run, sum register.CheckSummary, secti
 		}
 		ms.AddRow(m.Designation, cond, on, created)
 	}
-	res := &reduce.Result{Unit: u, Misclosures: mis, Checks: checks, Failures: failures}
+	res := &reduce.Result{Unit: u, Misclosures: mis, DoubleRuns: sum.DoubleRuns, Checks: checks, Failures: failures}
 	parts := []struct {
 		title string
 		t     Table
@@ -273,6 +273,12 @@ func writeRunReport(w io.Writer, run store.Run, sum register.CheckSummary, secti
 	}
 	if len(mis) == 0 {
 		parts[3].title = "Misclosure: none (the run does not close)"
+	}
+	if len(sum.DoubleRuns) > 0 {
+		parts = slices.Insert(parts, 4, struct {
+			title string
+			t     Table
+		}{"Double-run sections (forward + backward)", doubleRunTable(res)})
 	}
 	if len(failures) > 0 {
 		parts = append(parts, struct {

@@ -305,6 +305,8 @@ TC-1,FS,1.400,1.021,0.642,
 		CheckSetupImbalance:   {11},
 		CheckSectionImbalance: {9, 11},
 		CheckMisclosure:       {11},
+		// TC-1 to TC-2 and back is a double-run section too.
+		CheckDoubleRun: {11},
 	}
 	if fmt.Sprint(got) != fmt.Sprint(want) {
 		t.Errorf("failed lines\n got %v\nwant %v", got, want)
@@ -340,11 +342,11 @@ TC-1,FS,1.400,1.021,0.642,
 	var lines []int
 	for _, f := range nd.Failures {
 		lines = append(lines, f.Line)
-		if f.Kind != CheckDistance && f.Kind != CheckMisclosure {
+		if f.Kind != CheckDistance && f.Kind != CheckMisclosure && f.Kind != CheckDoubleRun {
 			t.Errorf("unexpected failure %+v", f)
 		}
 	}
-	if fmt.Sprint(lines) != "[4 5 6 7 7]" {
+	if fmt.Sprint(lines) != "[4 5 6 7 7 7]" {
 		t.Errorf("failed lines %v", lines)
 	}
 	// --class overrides the book's class.
@@ -415,5 +417,101 @@ func TestThreeWireLimitInFeet(t *testing.T) {
 	}
 	if want := "half-intervals 0.150 and 0.140 differ by 0.010 ft (limit 0.003 m (0.0098 ft)): reobserve"; len(msgs) != 1 || msgs[0] != want {
 		t.Errorf("three-wire failures %q, want [%q]", msgs, want)
+	}
+}
+
+// closureBook writes a second-II book along marks, each section two setups
+// of four 62.5 m sights (250 m, K = 0.25 km), rising by rises[i] (m).
+func closureBook(marks []string, rises []float64) string {
+	var sb strings.Builder
+	sb.WriteString("# units: m\n# class: second-II\npoint,sight,middle,distance\n")
+	tp := 0
+	for i, rise := range rises {
+		tp++
+		fmt.Fprintf(&sb, "%s,BS,1.5000,62.5\nTP%d,FS,1.5000,62.5\n", marks[i], tp)
+		fmt.Fprintf(&sb, "TP%d,BS,%.4f,62.5\n%s,FS,1.5000,62.5\n", tp, 1.5+rise, marks[i+1])
+	}
+	return sb.String()
+}
+
+// A run A→B→C→B→A with nothing held closes twice: on A (the loop) and on
+// B (the spur B→C→B, whose closure is its double-run section B–C, judged
+// by the section constant over the one-way length). FGCC 1984 §3.5 (table
+// values from memory, docs/references.md#accuracy-classes): second-II
+// section 8 mm·√K and loop 8 mm·√E. Derived: K = 0.25 km gives exactly
+// 4 mm for a double-run section, and the 1 km loop 8 mm.
+func TestClosuresWithinTheRun(t *testing.T) {
+	marks := []string{"TC-A", "TC-B", "TC-C", "TC-B", "TC-A"}
+	for _, c := range []struct {
+		name    string
+		spurMM  float64 // closure of B→C→B
+		spurOK  bool
+		loopMM  float64
+		loopOK  bool
+		failed  int
+		summary string
+	}{
+		{"at the limit", 4.0, true, 4.0, true, 0, "All checks passed."},
+		{"over the section limit", 4.1, false, 4.1, true, 1, "1 check(s) failed."},
+		// A-B closes by −4.1 mm, B-C by +4.1: the loop closes at zero.
+		{"both sections over", 4.1, false, 0, true, 2, "2 check(s) failed."},
+	} {
+		t.Run(c.name, func(t *testing.T) {
+			back := -0.3 + (c.loopMM-c.spurMM)/1000
+			r := reduce(t, parse(t, closureBook(marks, []float64{0.3, 0.5, -0.5 + c.spurMM/1000, back})), Options{})
+			if len(r.Misclosures) != 1 {
+				t.Fatalf("misclosures %+v, want the loop on TC-A only", r.Misclosures)
+			}
+			loop := r.Misclosures[0]
+			if loop.Kind != "loop" || loop.From != "TC-A" || loop.Within || math.Abs(loop.MisclosureM-c.loopMM/1000) > 1e-9 ||
+				math.Abs(loop.AllowableM-0.008) > 1e-12 || loop.Pass != c.loopOK {
+				t.Errorf("loop %+v, want %.1f mm against 8 mm", loop, c.loopMM)
+			}
+			if len(r.DoubleRuns) != 2 {
+				t.Fatalf("double runs %+v", r.DoubleRuns)
+			}
+			spur := r.DoubleRuns[0]
+			if spur.From != "TC-B" || spur.To != "TC-C" || spur.Forward != 2 || spur.Backward != 3 ||
+				math.Abs(spur.ClosureM-c.spurMM/1000) > 1e-9 || math.Abs(spur.OneWayM-250) > 1e-9 ||
+				math.Abs(spur.AllowableM-0.004) > 1e-12 || spur.Pass != c.spurOK {
+				t.Errorf("spur %+v, want %.1f mm against 4 mm", spur, c.spurMM)
+			}
+			if ab := r.DoubleRuns[1]; ab.From != "TC-A" || ab.To != "TC-B" || ab.Forward != 1 || ab.Backward != 4 {
+				t.Errorf("A-B double run %+v", ab)
+			}
+			if len(r.Failures) != c.failed || !strings.HasPrefix(r.Summary, c.summary) {
+				t.Errorf("failures %+v, summary %q", r.Failures, r.Summary)
+			}
+			for _, f := range r.Failures {
+				if f.Kind != CheckDoubleRun {
+					t.Errorf("failure %+v, want double_run only", f)
+				}
+			}
+		})
+	}
+}
+
+// A line that comes back to a mark it passed (B, C, D, B) closes there:
+// the stretch is judged by the loop constant; it does not tie the line to
+// known heights, so the closure check still fails. Second-II loop
+// 8 mm·√E (from memory, as above); derived: E = 0.75 km, 6.928 mm.
+func TestLoopWithinALine(t *testing.T) {
+	marks := []string{"TC-A", "TC-B", "TC-C", "TC-D", "TC-B", "TC-E"}
+	r := reduce(t, parse(t, closureBook(marks, []float64{0.3, 0.5, 0.2, -0.7 + 0.007, 0.1})), Options{})
+	if len(r.Misclosures) != 1 {
+		t.Fatalf("misclosures %+v", r.Misclosures)
+	}
+	ms := r.Misclosures[0]
+	want := 0.008 * math.Sqrt(0.75)
+	if !ms.Within || ms.From != "TC-B" || ms.To != "TC-B" || ms.FirstSection != 2 || ms.LastSection != 4 ||
+		math.Abs(ms.MisclosureM-0.007) > 1e-9 || math.Abs(ms.AllowableM-want) > 1e-12 || ms.Pass {
+		t.Errorf("closure %+v, want 7 mm against %.4f mm", ms, want*1000)
+	}
+	got := map[CheckKind]int{}
+	for _, f := range r.Failures {
+		got[f.Kind]++
+	}
+	if fmt.Sprint(got) != "map[closure:1 misclosure:1]" {
+		t.Errorf("failures %v", r.Failures)
 	}
 }

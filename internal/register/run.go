@@ -94,8 +94,12 @@ type CheckSummary struct {
 	End                 string              `json:"end"`
 	Loop                bool                `json:"loop"`
 	Misclosures         []reduce.Misclosure `json:"misclosures"`
-	Checks              []reduce.Check      `json:"checks"`
-	Failures            []reduce.Failure    `json:"failures"`
+	// DoubleRuns are the sections levelled both ways, in the book and
+	// against the runs recorded before it (absent for runs recorded
+	// before they were compared).
+	DoubleRuns []reduce.DoubleRun `json:"double_runs,omitempty"`
+	Checks     []reduce.Check     `json:"checks"`
+	Failures   []reduce.Failure   `json:"failures"`
 	// Summary is the reduction's one-sentence summary of its checks
 	// (empty for runs recorded before it was kept).
 	Summary string `json:"summary,omitempty"`
@@ -105,7 +109,7 @@ func summaryOf(res *reduce.Result) CheckSummary {
 	return CheckSummary{
 		Class: res.Class, HeldM: res.Held, CurvatureRefraction: res.CurvatureRefraction,
 		Start: res.Start, End: res.End, Loop: res.Loop,
-		Misclosures: res.Misclosures, Checks: res.Checks, Failures: res.Failures, Summary: res.Summary,
+		Misclosures: res.Misclosures, DoubleRuns: res.DoubleRuns, Checks: res.Checks, Failures: res.Failures, Summary: res.Summary,
 	}
 }
 
