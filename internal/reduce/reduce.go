@@ -86,6 +86,7 @@ func Reduce(book *levelbook.Book, opts Options) (*Result, error) {
 	r.anchor()
 	r.buildMisclosures()
 	r.buildDoubleRuns()
+	r.buildConnections(opts.Published)
 	r.spotHeights()
 	r.check()
 	return r, nil
@@ -357,15 +358,6 @@ func retraces[T any](stops []T, mark func(T) string) bool {
 	return true
 }
 
-// DoubleRunAllowableM is the allowable closure forward + backward of a
-// section levelled both ways, oneWayM its one-way length: the section
-// constant of the class (standards.Tolerances.AllowableSectionM, K the
-// one-way length, FGCC 1984 §3.5). It is the one place the double-run
-// tolerance is taken from.
-func DoubleRunAllowableM(t standards.Tolerances, oneWayM float64) float64 {
-	return t.AllowableSectionM(oneWayM)
-}
-
 // buildDoubleRuns pairs each section with the nearest earlier section of
 // the book levelled the other way between the same two marks (B→C, then
 // C→B), each section in one pair at most, and compares them.
@@ -398,7 +390,7 @@ func (r *Result) compareDoubleRun(d DoubleRun, fwdLenM, bwdLenM float64, hasLeng
 		d.OneWayM, d.HasLength = (fwdLenM+bwdLenM)/2, true
 	}
 	if r.Tolerances != nil && d.HasLength && d.OneWayM > 0 {
-		d.AllowableM, d.HasAllowable = DoubleRunAllowableM(*r.Tolerances, d.OneWayM), true
+		d.AllowableM, d.HasAllowable = standards.DoubleRunAllowableM(*r.Tolerances, d.OneWayM), true
 		d.Pass = math.Abs(d.ClosureM) <= d.AllowableM+eps
 	}
 	return d
@@ -411,7 +403,7 @@ func (r *Result) check() {
 	f := func(m float64) string { return units.Format(u.FromMetres(m), dec) + " " + string(u) }
 	fd := func(m float64) string { return units.Format(u.FromMetres(m), DistanceDecimals) + " " + string(u) }
 	checks := map[CheckKind]*Check{}
-	order := []CheckKind{CheckThreeWire, CheckDistance, CheckSightLength, CheckSetupImbalance, CheckSectionImbalance, CheckMisclosure, CheckDoubleRun, CheckHeldSight, CheckClosure}
+	order := []CheckKind{CheckThreeWire, CheckDistance, CheckSightLength, CheckSetupImbalance, CheckSectionImbalance, CheckMisclosure, CheckDoubleRun, CheckConnection, CheckHeldSight, CheckClosure}
 	for _, k := range order {
 		checks[k] = &Check{Kind: k}
 	}
@@ -520,6 +512,7 @@ func (r *Result) check() {
 		}
 	}
 	r.checkDoubleRuns(checks[CheckDoubleRun], fail, f, fd)
+	r.checkConnections(checks[CheckConnection], fail, f, fd)
 	r.checkHeldSights(checks[CheckHeldSight], fail, f, fd)
 
 	// Closure: the run must be checked by something.

@@ -515,3 +515,76 @@ func TestLoopWithinALine(t *testing.T) {
 		t.Errorf("failures %v", r.Failures)
 	}
 }
+
+// Check connections: three published marks on a line, the middle one
+// published 12 mm too low (it moved). Second-II, the loop constant over
+// the length between the marks (standards.CheckConnectionAllowableM; FGCC
+// 1984 §3.5 8 mm·√E from memory). Derived: 0.5 km gives 5.657 mm, 1 km
+// 8 mm. A–B and B–C differ by ±12 mm and fail, A–C agrees: B is the
+// suspect. An intermediate sight on a mark is carried from its section's
+// start.
+func TestCheckConnections(t *testing.T) {
+	marks := []string{"TC-A", "TC-X", "TC-B", "TC-Y", "TC-C"}
+	book := parse(t, closureBook(marks, []float64{0.1, 0.2, 0.3, 0.4}))
+	pub := map[string]float64{"TC-A": 10, "TC-B": 10.3 - 0.012, "TC-C": 11.0}
+	r := reduce(t, book, Options{Published: pub})
+	if len(r.Connections) != 3 {
+		t.Fatalf("connections %+v", r.Connections)
+	}
+	want := []struct {
+		from, to        string
+		diffMM, allowMM float64
+		pass            bool
+	}{
+		{"TC-A", "TC-B", 12, 8 * math.Sqrt(0.5), false},
+		{"TC-A", "TC-C", 0, 8, true},
+		{"TC-B", "TC-C", -12, 8 * math.Sqrt(0.5), false},
+	}
+	for i, w := range want {
+		c := r.Connections[i]
+		if c.From != w.from || c.To != w.to || math.Abs(c.DifferenceM*1000-w.diffMM) > 1e-6 || math.Abs(c.AllowableM*1000-w.allowMM) > 1e-9 || c.Pass != w.pass {
+			t.Errorf("connection %d: %+v, want %s to %s %.0f mm against %.3f mm", i, c, w.from, w.to, w.diffMM, w.allowMM)
+		}
+	}
+	if got := fmt.Sprint(r.SuspectMarks()); got != "[TC-B]" {
+		t.Errorf("suspect %s, want [TC-B]", got)
+	}
+	// The line is not held: it fails the closure check as well.
+	if got := fmt.Sprint(failedKinds(r)); got != "map[check_connection:2 closure:1]" {
+		t.Errorf("failures %s: %+v", got, r.Failures)
+	}
+	// Held at A and C, published B: A–C is the line's misclosure, not
+	// judged twice.
+	h := reduce(t, book, Options{Hold: map[string]float64{"TC-A": 10, "TC-C": 11}, Published: pub})
+	if !h.Connections[1].AsClosure || failedKinds(h)[CheckConnection] != 2 || len(h.Misclosures) != 1 {
+		t.Errorf("held: connections %+v failures %+v", h.Connections, h.Failures)
+	}
+	// Only one known mark: nothing to connect.
+	one := reduce(t, book, Options{Published: map[string]float64{"TC-A": 10}})
+	for _, c := range one.Checks {
+		if c.Kind == CheckConnection && !c.NotApplicable {
+			t.Errorf("one known mark: %+v", c)
+		}
+	}
+}
+
+// An intermediate sight on a mark: H(mark) − H(section start) = the
+// setups before it, the backsight of its setup, minus the sight.
+func TestSideShots(t *testing.T) {
+	b := parse(t, "# units: m\npoint,sight,middle,distance\nTC-1,BS,1.5,40\nTP1,FS,1.2,40\nTP1,BS,1.4,30\nTC-9,IS,0.9,20\nTC-2,FS,1.1,30\n")
+	r := reduce(t, b, Options{})
+	s := r.SideShots()
+	// Worked by hand: 1.5 − 1.2 + 1.4 − 0.9 = 0.8 m; along 40 + 40 + 30 m.
+	if len(s) != 1 || s[0].Point != "TC-9" || s[0].Section != 1 || math.Abs(s[0].DhM-0.8) > 1e-12 ||
+		!s[0].HasAlong || s[0].AlongM != 110 || s[0].AlongSetups != 1.5 || s[0].Line != 6 {
+		t.Errorf("side shots %+v", s)
+	}
+}
+
+func failedKinds(r *Result) map[CheckKind]int {
+	got := map[CheckKind]int{}
+	for _, f := range r.Failures {
+		got[f.Kind]++
+	}
+	return got
+}

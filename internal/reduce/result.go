@@ -31,6 +31,10 @@ type Options struct {
 	Hold map[string]float64
 	// Class overrides the book's accuracy class; empty keeps the book's.
 	Class standards.Class
+	// Published gives the known heights in metres of marks not held (their
+	// published heights): they hold nothing, and serve only the check
+	// connections, with the held marks.
+	Published map[string]float64
 	// CurvatureRefraction corrects every reading for the curvature of the
 	// earth and atmospheric refraction (CurvatureRefractionM); every sight
 	// must then have a distance.
@@ -79,6 +83,9 @@ type Result struct {
 	// compared with the section tolerance; those against another run's
 	// sections are added by CompareOtherRuns.
 	DoubleRuns []DoubleRun `json:"double_runs"`
+	// Connections are the check connections: every two marks of known
+	// height (held, or published: Options.Published) the run ties to.
+	Connections []Connection `json:"check_connections"`
 	// SpotHeights are the reduced spot heights (points declared `spot` in
 	// the book), in field order.
 	SpotHeights []SpotHeight `json:"spot_heights"`
@@ -267,7 +274,7 @@ type DoubleRun struct {
 	// lengths; meaningful when HasLength.
 	OneWayM   float64 `json:"one_way_m"`
 	HasLength bool    `json:"has_length"`
-	// AllowableM is DoubleRunAllowableM over OneWayM; meaningful when
+	// AllowableM is standards.DoubleRunAllowableM over OneWayM; meaningful when
 	// HasAllowable. Pass reports |ClosureM| ≤ AllowableM.
 	AllowableM   float64 `json:"allowable_m"`
 	HasAllowable bool    `json:"has_allowable"`
@@ -287,6 +294,7 @@ const (
 	CheckMisclosure       CheckKind = "misclosure"        // each closure within the allowable
 	CheckHeldSight        CheckKind = "held_sight"        // each intermediate sight on a held mark agrees with its held height
 	CheckDoubleRun        CheckKind = "double_run"        // each section levelled both ways: forward + backward within the section tolerance
+	CheckConnection       CheckKind = "check_connection"  // each two marks of known height: observed difference within the tolerance of the known one
 	CheckClosure          CheckKind = "closure"           // the run closes at all: a loop, or two held marks
 )
 
@@ -330,6 +338,8 @@ func (k CheckKind) Words() string {
 		return "held-mark sights"
 	case CheckDoubleRun:
 		return "double-run sections"
+	case CheckConnection:
+		return "check connections"
 	case CheckClosure:
 		return "closure"
 	}
