@@ -70,3 +70,87 @@ func TestDoubleRunInOneBook(t *testing.T) {
 		}
 	}
 }
+
+// publish sets mark's height (metres, on NAVD88).
+func publish(t *testing.T, url, mark, value string) {
+	t.Helper()
+	mustRun(t, url, "height", "set", mark, value, "--unit", "m", "--datum", "NAVD88",
+		"--source", "Tallis County Benchmark Book (invented)", "--reason", "test control", "--by", "tester")
+}
+
+// Check connections through the built binary. Three published marks on a
+// line, TC-B published 12 mm below what the line gives (it moved):
+// second-II, the loop constant over the length between the marks
+// (standards.CheckConnectionAllowableM, 8 mm·√E: FGCC 1984 §3.5 from
+// memory; the connections themselves: FGCC 1984 leveling network
+// geometry, read in POB's "The GPS Observer"). Derived: 0.5 km gives
+// 5.7 mm, 1 km 8.0 mm. run check, given the register, fails A–B and B–C
+// and passes A–C; run record --check-only keeps the connections and makes
+// TC-B suspect, which height show warns of until a condition report;
+// adjust refuses the check run.
+func TestCheckConnectionsMakeSuspect(t *testing.T) {
+	t.Parallel()
+	db := pgtest.New(t)
+	mustRun(t, db.URL, "datum", "add", "NAVD88", "--name", "North American Vertical Datum of 1988")
+	mustRun(t, db.URL, "mark", "add", "TC-A")
+	mustRun(t, db.URL, "mark", "add", "TC-B")
+	mustRun(t, db.URL, "mark", "add", "TC-C")
+	publish(t, db.URL, "TC-A", "10.000")
+	publish(t, db.URL, "TC-B", "10.288")
+	publish(t, db.URL, "TC-C", "11.000")
+	marks := []string{"TC-A", "TC-X", "TC-B", "TC-Y", "TC-C"}
+	path := writeBook(t, "check.csv", spurBook("", marks, []float64{0.1, 0.2, 0.3, 0.4}))
+
+	out, errOut, st := binRun(t, db.URL, "run", "check", path)
+	if st != ExitChecks {
+		t.Fatalf("run check exit %d: %s\n%s", st, errOut, out)
+	}
+	for _, want := range []string{
+		"Check connections (marks of known height)",
+		"TC-A TC-B 5-12 500.0 +0.3000 +0.2880 +0.0120 0.0057 FAIL",
+		"TC-A TC-C 5-20 1000.0 +1.0000 +1.0000 +0.0000 0.0080 pass",
+		"TC-B TC-C 12-20 500.0 +0.7000 +0.7120 -0.0120 0.0057 FAIL",
+		"check_connection 3 2",
+	} {
+		if !strings.Contains(squash(out), squash(want)) {
+			t.Errorf("run check lacks %q:\n%s", want, out)
+		}
+	}
+
+	out, errOut, st = binRun(t, db.URL, "run", "record", path, "--by", "tester", "--new-marks", "--check-only",
+		"--accept-failed-checks", "--reason", "crew check before the levee job")
+	if st != 0 {
+		t.Fatalf("run record exit %d: %s", st, errOut)
+	}
+	id := recordedRun.FindStringSubmatch(out)[1]
+	for _, want := range []string{"Recorded as a check run: it adjusts nothing", "mark TC-B is now SUSPECT"} {
+		if !strings.Contains(out, want) {
+			t.Errorf("run record lacks %q:\n%s", want, out)
+		}
+	}
+	if strings.Contains(out, "mark TC-A is now SUSPECT") || strings.Contains(out, "mark TC-C is now SUSPECT") {
+		t.Errorf("only TC-B is suspect:\n%s", out)
+	}
+	show := mustRun(t, db.URL, "run", "show", id)
+	for _, want := range []string{"is a check run: it adjusts nothing", "Check connections (marks of known height)", "+0.0120 0.0057 FAIL"} {
+		if !strings.Contains(squash(show), squash(want)) {
+			t.Errorf("run show lacks %q:\n%s", want, show)
+		}
+	}
+	hs, errOut, st := binRun(t, db.URL, "height", "show", "TC-B")
+	if !strings.Contains(hs+errOut, "TC-B is SUSPECT: its check connections in run "+id) || !strings.Contains(hs+errOut, "levelled from TC-A it is +12.0 mm from its published height (allowable 5.7 mm); levelled from TC-C it is +12.0 mm") {
+		t.Errorf("height show TC-B (exit %d) does not warn of the suspect mark:\n%s\n%s", st, hs, errOut)
+	}
+	if hs, errOut, _ := binRun(t, db.URL, "height", "show", "TC-A"); strings.Contains(hs+errOut, "SUSPECT") {
+		t.Errorf("TC-A is not suspect:\n%s%s", hs, errOut)
+	}
+	_, errOut, st = binRun(t, db.URL, "adjust", id, "--hold", "TC-A", "--hold", "TC-C", "--dry-run")
+	if st != ExitBadInput || !strings.Contains(errOut, "is a check run (recorded with --check-only): it adjusts nothing") {
+		t.Errorf("adjust of a check run: exit %d, %s", st, errOut)
+	}
+	// A condition report after the run clears it.
+	mustRun(t, db.URL, "mark", "condition", "TC-B", "good", "--note", "found firm; resurvey ordered")
+	if hs, errOut, _ := binRun(t, db.URL, "height", "show", "TC-B"); strings.Contains(hs+errOut, "SUSPECT") {
+		t.Errorf("a condition report clears the suspect mark:\n%s%s", hs, errOut)
+	}
+}

@@ -201,7 +201,7 @@ func parseHeldHeights(byFlag map[string][]string) (hold map[string]float64, curr
 // reduceBook reduces a level book with held heights typed in the book's
 // unit and held from the register. Every error is bad input (exit status
 // 2).
-func reduceBook(book *levelbook.Book, hold map[string]float64, held []register.HeldHeight, class standards.Class, cr bool) (*reduce.Result, error) {
+func reduceBook(book *levelbook.Book, hold map[string]float64, held []register.HeldHeight, published map[string]register.PublishedHeight, class standards.Class, cr bool) (*reduce.Result, error) {
 	var holdM map[string]float64
 	if len(hold)+len(held) > 0 {
 		var err error
@@ -212,7 +212,16 @@ func reduceBook(book *levelbook.Book, hold map[string]float64, held []register.H
 			holdM[h.Designation] = h.ValueM
 		}
 	}
-	r, err := reduce.Reduce(book, reduce.Options{Hold: holdM, Class: class, CurvatureRefraction: cr})
+	var pubM map[string]float64
+	for name, p := range published {
+		if _, typed := hold[name]; !typed {
+			if pubM == nil {
+				pubM = map[string]float64{}
+			}
+			pubM[name] = p.ValueM
+		}
+	}
+	r, err := reduce.Reduce(book, reduce.Options{Hold: holdM, Published: pubM, Class: class, CurvatureRefraction: cr})
 	if err != nil {
 		return nil, badInput("%v", err)
 	}
@@ -241,6 +250,7 @@ func runCheckRun(opts *runCheckOptions) error {
 		return err
 	}
 	var held []register.HeldHeight
+	var published map[string]register.PublishedHeight
 	var warnings []string
 	if len(opts.HoldCurrent) > 0 {
 		for _, name := range opts.HoldCurrent {
@@ -259,17 +269,23 @@ func runCheckRun(opts *runCheckOptions) error {
 			AllowCondition: opts.AllowCondition, ConditionReason: opts.ConditionReason}); err != nil {
 			return err
 		}
+		if published, err = reg.PublishedHeights(opts.ctx, book, held, opts.HoldCurrent); err != nil {
+			return err
+		}
 	} else if src := opts.f.Source(); !src.Embedded {
 		// A register named (--db, CAIRN_DATABASE_URL, PG* variables) is
-		// consulted for what it knows of the book's marks; one that
-		// cannot be reached is said, and the check goes on without it.
+		// consulted for what it knows of the book's marks, their
+		// published heights too (check connections); one that cannot be
+		// reached is said, and the check goes on without it.
 		if reg, err := openRegister(opts.ctx, opts.f); err != nil {
-			warnings = append(warnings, fmt.Sprintf("NOTE: the register (%s) was not consulted (%v): marks the book takes as turning points, and a date before a mark's earliest record, are not looked for", src.From, err))
+			warnings = append(warnings, fmt.Sprintf("NOTE: the register (%s) was not consulted (%v): marks the book takes as turning points, a date before a mark's earliest record, and the published heights to check into, are not looked for", src.From, err))
 		} else if warnings, err = reg.BookWarnings(opts.ctx, book); err != nil {
+			return err
+		} else if published, err = reg.PublishedHeights(opts.ctx, book, nil, nil); err != nil {
 			return err
 		}
 	}
-	r, err := reduceBook(book, opts.Hold, held, opts.Class, opts.CurvatureRefraction)
+	r, err := reduceBook(book, opts.Hold, held, published, opts.Class, opts.CurvatureRefraction)
 	if err != nil {
 		return err
 	}
@@ -441,6 +457,33 @@ func doubleRunTable(r *reduce.Result) Table {
 	return t
 }
 
+// connectionTable lists the check connections: each two marks of known
+// height the run ties to.
+func connectionTable(r *reduce.Result) Table {
+	n := numbersFor(r)
+	u := string(r.Unit)
+	t := Table{Headers: []string{"FROM", "TO", "LINES", "LENGTH (" + u + ")", "OBSERVED (" + u + ")", "KNOWN (" + u + ")", "DIFFERENCE (" + u + ")", "ALLOWABLE (" + u + ")", "RESULT"}}
+	for _, c := range r.Connections {
+		length, allow, result := "-", "-", "not judged (no class)"
+		if c.HasLength {
+			length = n.d(c.LengthM)
+		} else {
+			result = "not judged (no length)"
+		}
+		if c.HasAllowable {
+			allow, result = n.h(c.AllowableM), "FAIL"
+			if c.Pass {
+				result = "pass"
+			}
+		}
+		if c.AsClosure {
+			result = "as the line's misclosure"
+		}
+		t.AddRow(c.From, c.To, fmt.Sprintf("%d-%d", c.FromLine, c.ToLine), length, n.signed(c.ObservedM), n.signed(c.KnownM), n.signed(c.DifferenceM), allow, result)
+	}
+	return t
+}
+
 // spotTable lists the spot heights.
 func spotTable(r *reduce.Result) Table {
 	n := numbersFor(r)
@@ -577,6 +620,12 @@ func writeReport(w io.Writer, r *reduce.Result, heldFrom map[string]string) erro
 			title string
 			t     Table
 		}{"Double-run sections (forward + backward)", doubleRunTable(r)})
+	}
+	if len(r.Connections) > 0 {
+		parts = slices.Insert(parts, len(parts)-1, struct {
+			title string
+			t     Table
+		}{"Check connections (marks of known height)", connectionTable(r)})
 	}
 	if len(r.HeldSights) > 0 {
 		parts = slices.Insert(parts, len(parts)-1, struct {

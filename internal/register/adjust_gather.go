@@ -46,7 +46,19 @@ func (r *Register) gather(ctx context.Context, tx pgx.Tx, p AdjustParams) (*gath
 	for _, id := range p.RunIDs {
 		named[id] = true
 	}
+	// Check runs adjust nothing: one named is refused, one chosen by marks
+	// or area left out.
+	checkRuns, err := store.CheckRunIDs(ctx, tx, runIDs)
+	if err != nil {
+		return nil, err
+	}
 	for _, id := range runIDs {
+		if checkRuns[id] {
+			if named[id] {
+				return nil, inputErr("run", "run %d is a check run (recorded with --check-only): it adjusts nothing", id)
+			}
+			continue
+		}
 		run, err := r.run(ctx, tx, id)
 		if err != nil {
 			return nil, err
