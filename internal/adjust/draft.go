@@ -65,6 +65,8 @@ type DraftRun struct {
 	// misclosure.
 	Class    string
 	Sections []DraftSection
+	// Sides are the run's intermediate sights on marks, in field order.
+	Sides []DraftSide
 }
 
 // DraftSection is one section of a run between two marks, in field order.
@@ -208,13 +210,20 @@ func ComputeDraft(in DraftInput) (*Draft, error) {
 	if in.Decimals != nil {
 		d.Decimals = *in.Decimals
 	}
+	var err error
 	switch in.Method {
 	case MethodProportional:
-		return d, d.proportional(in)
+		err = d.proportional(in)
 	case MethodLeastSquares:
-		return d, d.leastSquares(in)
+		err = d.leastSquares(in)
+	default:
+		panic(fmt.Sprintf("adjust: unknown method %q", in.Method))
 	}
-	panic(fmt.Sprintf("adjust: unknown method %q", in.Method))
+	if err != nil {
+		return d, err
+	}
+	d.checks(in)
+	return d, nil
 }
 
 // proportional adjusts each run on its own between its held marks.

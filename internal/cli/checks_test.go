@@ -154,3 +154,54 @@ func TestCheckConnectionsMakeSuspect(t *testing.T) {
 		t.Errorf("a condition report clears the suspect mark:\n%s%s", hs, errOut)
 	}
 }
+
+// Two runs, out and back, through the built binary. Run 1 levels TC-A to
+// TC-B with an intermediate sight on mark TC-S (booked nowhere else); run
+// 2 levels TC-B back to TC-A 3 mm short. Recording run 2 compares its
+// section with run 1's (second-II section constant 8 mm·√K, FGCC 1984 §3.5
+// from memory; derived: K = 0.25 km, 4 mm: within). adjust by least
+// squares sees both runs, says the same comparison, and gives TC-S a
+// height carried from the adjusted section. Worked by hand: B = 10 +
+// (0.3000 + 0.2970)/2 = 10.2985 m (two equal weights); section 1's
+// correction −0.0015 m; TC-S stands 187.5 of 250 m along it: 10 + 0.8 −
+// 0.75 × 0.0015 = 10.798875 m.
+func TestDoubleRunTwoRunsAndSideShot(t *testing.T) {
+	t.Parallel()
+	db := pgtest.New(t)
+	mustRun(t, db.URL, "datum", "add", "NAVD88", "--name", "North American Vertical Datum of 1988")
+	mustRun(t, db.URL, "mark", "add", "TC-A")
+	publish(t, db.URL, "TC-A", "10.000")
+	head := "# units: m\n# class: second-II\n# datum: NAVD88\npoint,sight,middle,distance\n"
+	run1 := head + "TC-A,BS,1.5000,62.5\nTP1,FS,1.5000,62.5\nTP1,BS,1.8000,62.5\nTC-S,IS,1.0000,20\nTC-B,FS,1.5000,62.5\n"
+	run2 := head + "TC-B,BS,1.5000,62.5\nTP1,FS,1.5000,62.5\nTP1,BS,1.2000,62.5\nTC-A,FS,1.4970,62.5\n"
+	p1, p2 := writeBook(t, "out.csv", []byte(run1)), writeBook(t, "back.csv", []byte(run2))
+	if _, errOut, st := binRun(t, db.URL, "run", "record", p1, "--by", "tester", "--new-marks", "--accept-failed-checks", "--reason", "a line, closed by the run back"); st != 0 {
+		t.Fatalf("record run 1: exit %d: %s", st, errOut)
+	}
+	out, errOut, st := binRun(t, db.URL, "run", "record", p2, "--by", "tester", "--accept-failed-checks", "--reason", "a line, closed by the run out")
+	if st != 0 {
+		t.Fatalf("record run 2: exit %d: %s", st, errOut)
+	}
+	for _, want := range []string{"Double-run sections (forward + backward)", "TC-B TC-A section 1, lines 5-8 run 1 section 1, lines 5-9 -0.2970 +0.3000 +0.0030 250.0 0.0040 pass"} {
+		if !strings.Contains(squash(out), squash(want)) {
+			t.Errorf("run record lacks %q:\n%s", want, out)
+		}
+	}
+	if show := mustRun(t, db.URL, "run", "show", "2"); !strings.Contains(squash(show), squash("run 1 section 1, lines 5-9 -0.2970 +0.3000 +0.0030 250.0 0.0040 pass")) {
+		t.Errorf("run show 2 lacks the double run:\n%s", show)
+	}
+	adj, errOut, st := binRun(t, db.URL, "adjust", "1", "2", "--hold", "TC-A", "--method", "least-squares", "--dry-run")
+	if st != 0 && st != ExitChecks {
+		t.Fatalf("adjust: exit %d: %s\n%s", st, errOut, adj)
+	}
+	for _, want := range []string{
+		"Double-run section TC-A to TC-B, run 1 section 1 and back in run 2 section 1: +0.0030 m over 0.250 km one way; allowable 0.0040 m (second-II): within",
+		"TC-S: from an intermediate sight (run 1, book line 8), carried from TC-A",
+		"10.2985",
+		"10.7989",
+	} {
+		if !strings.Contains(squash(adj), squash(want)) {
+			t.Errorf("adjust lacks %q:\n%s", want, adj)
+		}
+	}
+}
