@@ -41,9 +41,9 @@ type DoubleRunStat struct {
 	From       string   `json:"from"`
 	To         string   `json:"to"`
 	RunID      int64    `json:"run_id"`
-	Seq        int      `json:"seq"`
+	Seq        int      `json:"section"`
 	BackRunID  int64    `json:"back_run_id"`
-	BackSeq    int      `json:"back_seq"`
+	BackSeq    int      `json:"back_section"`
 	ForwardM   float64  `json:"forward_m"`
 	BackwardM  float64  `json:"backward_m"`
 	ClosureM   float64  `json:"closure_m"`

@@ -520,10 +520,12 @@ func publishedHeights(ctx context.Context, db store.DBTX, book *levelbook.Book, 
 	if datumID == 0 {
 		return out, nil
 	}
+	// A mark whose latest condition report puts it in doubt is no control
+	// to check into: it is in doubt already (DoubtCondition).
 	var ids []int64
 	for _, n := range names {
 		if _, isHeld := hold[n]; !isHeld {
-			if m, ok := byName[n]; ok {
+			if m, ok := byName[n]; ok && (m.Latest == nil || !conditionsInDoubt[m.Latest.Condition]) {
 				ids = append(ids, m.ID)
 			}
 		}
