@@ -68,6 +68,8 @@ type DraftRun struct {
 	// nil for the default (standards.Default). Its tolerances judge the
 	// run's misclosures here too.
 	Standards *standards.Profile
+	// Sides are the run's intermediate sights on marks, in field order.
+	Sides []DraftSide
 }
 
 // tolerances returns the tolerances of the run's class in its profile,
@@ -225,13 +227,20 @@ func ComputeDraft(in DraftInput) (*Draft, error) {
 	if in.Decimals != nil {
 		d.Decimals = *in.Decimals
 	}
+	var err error
 	switch in.Method {
 	case MethodProportional:
-		return d, d.proportional(in)
+		err = d.proportional(in)
 	case MethodLeastSquares:
-		return d, d.leastSquares(in)
+		err = d.leastSquares(in)
+	default:
+		panic(fmt.Sprintf("adjust: unknown method %q", in.Method))
 	}
-	panic(fmt.Sprintf("adjust: unknown method %q", in.Method))
+	if err != nil {
+		return d, err
+	}
+	d.checks(in)
+	return d, nil
 }
 
 // proportional adjusts each run on its own between its held marks.

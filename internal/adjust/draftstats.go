@@ -12,15 +12,32 @@ import (
 type Statistics struct {
 	Stretches []StretchStat `json:"stretches,omitempty"`
 	Network   *NetworkStat  `json:"network,omitempty"`
+	// Sides are the marks given their heights from an intermediate sight.
+	Sides []SideStat `json:"sides,omitempty"`
+	// DoubleRuns are the sections of one run levelled back in another.
+	DoubleRuns []DoubleRunStat `json:"double_runs,omitempty"`
+	// Connections are the check connections between held marks.
+	Connections []ConnectionStat `json:"check_connections,omitempty"`
 }
 
 // Failed counts the checks that failed: the stretches whose misclosure
-// exceeds the allowable, and for least squares the flagged observations
-// and a failed χ² test.
+// exceeds the allowable, for least squares the flagged observations and a
+// failed χ² test, and the double-run sections between runs and the check
+// connections (not counted as a stretch) that fail.
 func (s Statistics) Failed() int {
 	n := s.Network.Failed()
 	for _, st := range s.Stretches {
 		if st.Pass != nil && !*st.Pass {
+			n++
+		}
+	}
+	for _, dr := range s.DoubleRuns {
+		if dr.Pass != nil && !*dr.Pass {
+			n++
+		}
+	}
+	for _, c := range s.Connections {
+		if !c.AsClosure && c.Pass != nil && !*c.Pass {
 			n++
 		}
 	}

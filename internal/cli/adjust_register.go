@@ -557,6 +557,7 @@ func renderAdjustment(ios *IOStreams, format Format, v *register.AdjustmentView,
 	if st := v.Statistics.Network; st != nil {
 		renderNetworkStats(say, v, st)
 	}
+	renderDraftChecks(say, v.Statistics)
 	say("\n%s\n", adjustCautions)
 	if !dryRun && a.Status == store.StatusDraft {
 		say("\nReview it, then: cairn publish %d --reason \"...\"   or   cairn discard %d --reason \"...\"\n", a.ID, a.ID)
@@ -628,5 +629,44 @@ func renderNetworkStats(say func(string, ...any), v *register.AdjustmentView, st
 	if len(idx) > 0 {
 		say("  The largest |w| points to the likeliest blunder; one blunder raises the w of its neighbours too, so\n")
 		say("  check that section's book first and adjust again. Sections in series between two junctions share one w.\n")
+	}
+}
+
+// renderDraftChecks says the draft's double-run sections between runs, its
+// check connections between held marks and its heights from intermediate
+// sights.
+func renderDraftChecks(say func(string, ...any), st adjust.Statistics) {
+	verdict := func(allow *float64, pass *bool, class string) string {
+		if allow == nil {
+			return "not judged (no class cairn knows, or no length)"
+		}
+		v := fmt.Sprintf("allowable %.4f m (%s): ", *allow, class)
+		if *pass {
+			return v + "within"
+		}
+		return v + "EXCEEDS THE ALLOWABLE"
+	}
+	for _, d := range st.DoubleRuns {
+		k := ""
+		if d.OneWayM != nil {
+			k = fmt.Sprintf(" over %.3f km one way", *d.OneWayM/1000)
+		}
+		say("Double-run section %s to %s, run %d section %d and back in run %d section %d: %+.4f m%s; %s\n",
+			d.From, d.To, d.RunID, d.Seq, d.BackRunID, d.BackSeq, d.ClosureM, k, verdict(d.AllowableM, d.Pass, d.Class))
+	}
+	for _, c := range st.Connections {
+		l := ""
+		if c.LengthM != nil {
+			l = fmt.Sprintf(" over %.3f km", *c.LengthM/1000)
+		}
+		v := verdict(c.AllowableM, c.Pass, c.Class)
+		if c.AsClosure {
+			v = "the stretch's misclosure above"
+		}
+		say("Check connection, run %d, %s to %s: observed %+.4f m, held %+.4f m, differs %+.4f m%s; %s\n",
+			c.RunID, c.From, c.To, c.ObservedM, c.KnownM, c.ObservedM-c.KnownM, l, v)
+	}
+	for _, sd := range st.Sides {
+		say("%s: from an intermediate sight (run %d, book line %d), carried from %s: a spur with no check of its own\n", sd.Mark, sd.RunID, sd.Line, sd.From)
 	}
 }

@@ -63,6 +63,9 @@ func TestEveryRowCarriesItsLogin(t *testing.T) {
 	mustRun(t, publisher, "adjust", "2", "--hold", "BM1", "--method", "least-squares", "--sigma-mm-per-sqrt-km", "100", "--by", "Ada Field")
 	draft := adjustForTest(t, publisher, "1")
 	mustRun(t, publisher, "publish", draft, "--reason", "worked circuit, reviewed", "--yes", "--by", "Ada Field")
+	// A check run into the marks now published: check_run and
+	// check_connection.
+	mustRun(t, publisher, "run", "record", book(3), "--check-only", "--hold", "BM1", "--by", "Ada Field")
 	mustRun(t, publisher, "run", "void", "2", "--reason", "wrong rod", "--yes", "--by", "Ada Field")
 
 	ctx := context.Background()
@@ -92,9 +95,9 @@ func TestEveryRowCarriesItsLogin(t *testing.T) {
 			t.Errorf("%s: %d of %d rows without login %s or their transaction", table, bad, n, login)
 		}
 	}
-	// One commit per command that wrote: ten.
-	if n := counts.Rows("register_commit"); n != 10 {
-		t.Errorf("%d commits, want 10 (one per writing command)", n)
+	// One commit per command that wrote: eleven.
+	if n := counts.Rows("register_commit"); n != 11 {
+		t.Errorf("%d commits, want 11 (one per writing command)", n)
 	}
 	// Nobody gives the login, the transaction or the time of a row.
 	conn, err := pgx.Connect(ctx, recorder)

@@ -129,7 +129,7 @@ func TestBookWarningsThroughBinary(t *testing.T) {
 			t.Errorf("run record: report or stderr lacks %q:\n%s\n%s", w, out, errOut)
 		}
 	}
-	registertest.AssertWrote(t, db.Pool, before, map[string]int64{"run": 1, "sighting": 14, "section": 2, "run_mark": 3, "run_held": 2, "register_commit": 1})
+	registertest.AssertWrote(t, db.Pool, before, map[string]int64{"run": 1, "sighting": 14, "section": 2, "run_mark": 3, "run_held": 2, "check_connection": 1, "register_commit": 1})
 	// The book names the mark in another case: refused, naming it.
 	before = registertest.Counts(t, db.Pool)
 	other := bookDated(t, "2025-02-01", "TC-0423,", "tc-0423,")

@@ -215,7 +215,7 @@ func parseHeldHeights(byFlag map[string][]string) (hold map[string]float64, curr
 // reduceBook reduces a level book with held heights typed in the book's
 // unit and held from the register. Every error is bad input (exit status
 // 2).
-func reduceBook(book *levelbook.Book, hold map[string]float64, held []register.HeldHeight, class standards.Class, prof *standards.Profile, cr bool) (*reduce.Result, error) {
+func reduceBook(book *levelbook.Book, hold map[string]float64, held []register.HeldHeight, published map[string]register.PublishedHeight, class standards.Class, prof *standards.Profile, cr bool) (*reduce.Result, error) {
 	var holdM map[string]float64
 	if len(hold)+len(held) > 0 {
 		var err error
@@ -226,7 +226,16 @@ func reduceBook(book *levelbook.Book, hold map[string]float64, held []register.H
 			holdM[h.Designation] = h.ValueM
 		}
 	}
-	r, err := reduce.Reduce(book, reduce.Options{Hold: holdM, Class: class, Standards: prof, CurvatureRefraction: cr})
+	var pubM map[string]float64
+	for name, p := range published {
+		if _, typed := hold[name]; !typed {
+			if pubM == nil {
+				pubM = map[string]float64{}
+			}
+			pubM[name] = p.ValueM
+		}
+	}
+	r, err := reduce.Reduce(book, reduce.Options{Hold: holdM, Published: pubM, Class: class, Standards: prof, CurvatureRefraction: cr})
 	if err != nil {
 		return nil, badInput("%v", err)
 	}
@@ -255,6 +264,7 @@ func runCheckRun(opts *runCheckOptions) error {
 		return err
 	}
 	var held []register.HeldHeight
+	var published map[string]register.PublishedHeight
 	var warnings []string
 	if len(opts.HoldCurrent) > 0 {
 		for _, name := range opts.HoldCurrent {
@@ -273,13 +283,19 @@ func runCheckRun(opts *runCheckOptions) error {
 			AllowCondition: opts.AllowCondition, ConditionReason: opts.ConditionReason}); err != nil {
 			return err
 		}
+		if published, err = reg.PublishedHeights(opts.ctx, book, held, opts.HoldCurrent); err != nil {
+			return err
+		}
 	} else if src := opts.f.Source(); !src.Embedded {
 		// A register named (--db, CAIRN_DATABASE_URL, PG* variables) is
-		// consulted for what it knows of the book's marks; one that
-		// cannot be reached is said, and the check goes on without it.
+		// consulted for what it knows of the book's marks, their
+		// published heights too (check connections); one that cannot be
+		// reached is said, and the check goes on without it.
 		if reg, err := openRegister(opts.ctx, opts.f); err != nil {
-			warnings = append(warnings, fmt.Sprintf("NOTE: the register (%s) was not consulted (%v): marks the book takes as turning points, and a date before a mark's earliest record, are not looked for", src.From, err))
+			warnings = append(warnings, fmt.Sprintf("NOTE: the register (%s) was not consulted (%v): marks the book takes as turning points, a date before a mark's earliest record, and the published heights to check into, are not looked for", src.From, err))
 		} else if warnings, err = reg.BookWarnings(opts.ctx, book); err != nil {
+			return err
+		} else if published, err = reg.PublishedHeights(opts.ctx, book, nil, nil); err != nil {
 			return err
 		}
 	}
@@ -287,7 +303,7 @@ func runCheckRun(opts *runCheckOptions) error {
 	if err != nil {
 		return err
 	}
-	r, err := reduceBook(book, opts.Hold, held, opts.Class, prof, opts.CurvatureRefraction)
+	r, err := reduceBook(book, opts.Hold, held, published, opts.Class, prof, opts.CurvatureRefraction)
 	if err != nil {
 		return err
 	}
@@ -440,6 +456,62 @@ func misclosureTable(r *reduce.Result) Table {
 	return t
 }
 
+// doubleRunTable lists the sections levelled both ways with their
+// closures (forward + backward) against the section tolerance.
+func doubleRunTable(r *reduce.Result) Table {
+	n := numbersFor(r)
+	u := string(r.Unit)
+	t := Table{Headers: []string{"FROM", "TO", "FORWARD", "BACKWARD", "FORWARD (" + u + ")", "BACKWARD (" + u + ")", "CLOSURE (" + u + ")", "ONE WAY (" + u + ")", "ALLOWABLE (" + u + ")", "RESULT"}}
+	for _, d := range r.DoubleRuns {
+		oneWay, allow, result := "-", "-", "not judged (no class)"
+		if d.HasLength {
+			oneWay = n.d(d.OneWayM)
+		} else {
+			result = "not judged (no length)"
+		}
+		if d.HasAllowable {
+			allow, result = n.h(d.AllowableM), "FAIL"
+			if d.Pass {
+				result = "pass"
+			}
+		}
+		back := fmt.Sprintf("section %d, lines %d-%d", d.Backward, d.BackwardLines[0], d.BackwardLines[1])
+		if d.OtherRun != 0 {
+			back = fmt.Sprintf("run %d section %d, lines %d-%d", d.OtherRun, d.Backward, d.BackwardLines[0], d.BackwardLines[1])
+		}
+		t.AddRow(d.From, d.To, fmt.Sprintf("section %d, lines %d-%d", d.Forward, d.ForwardLines[0], d.ForwardLines[1]), back,
+			n.signed(d.ForwardM), n.signed(d.BackwardM), n.signed(d.ClosureM), oneWay, allow, result)
+	}
+	return t
+}
+
+// connectionTable lists the check connections: each two marks of known
+// height the run ties to.
+func connectionTable(r *reduce.Result) Table {
+	n := numbersFor(r)
+	u := string(r.Unit)
+	t := Table{Headers: []string{"FROM", "TO", "LINES", "LENGTH (" + u + ")", "OBSERVED (" + u + ")", "KNOWN (" + u + ")", "DIFFERENCE (" + u + ")", "ALLOWABLE (" + u + ")", "RESULT"}}
+	for _, c := range r.Connections {
+		length, allow, result := "-", "-", "not judged (no class)"
+		if c.HasLength {
+			length = n.d(c.LengthM)
+		} else {
+			result = "not judged (no length)"
+		}
+		if c.HasAllowable {
+			allow, result = n.h(c.AllowableM), "FAIL"
+			if c.Pass {
+				result = "pass"
+			}
+		}
+		if c.AsClosure {
+			result = "as the line's misclosure"
+		}
+		t.AddRow(c.From, c.To, fmt.Sprintf("%d-%d", c.FromLine, c.ToLine), length, n.signed(c.ObservedM), n.signed(c.KnownM), n.signed(c.DifferenceM), allow, result)
+	}
+	return t
+}
+
 // spotTable lists the spot heights.
 func spotTable(r *reduce.Result) Table {
 	n := numbersFor(r)
@@ -569,6 +641,18 @@ func writeReport(w io.Writer, r *reduce.Result, heldFrom map[string]string) erro
 			title string
 			t     Table
 		}{"Spot heights (not marks)", spotTable(r)})
+	}
+	if len(r.DoubleRuns) > 0 {
+		parts = slices.Insert(parts, len(parts)-1, struct {
+			title string
+			t     Table
+		}{"Double-run sections (forward + backward)", doubleRunTable(r)})
+	}
+	if len(r.Connections) > 0 {
+		parts = slices.Insert(parts, len(parts)-1, struct {
+			title string
+			t     Table
+		}{"Check connections (marks of known height)", connectionTable(r)})
 	}
 	if len(r.HeldSights) > 0 {
 		parts = slices.Insert(parts, len(parts)-1, struct {

@@ -129,7 +129,7 @@ func TestRunHoldFromRegister(t *testing.T) {
 	if len(rec.Held) != 2 || rec.Held[0].Height != want20 || *rec.Held[0].HeightID != h20.ID {
 		t.Errorf("recorded held %+v", rec.Held)
 	}
-	b.AssertWrote(t, before, map[string]int64{"run": 1, "sighting": 4, "section": 1, "run_mark": 2, "run_held": 2, "register_commit": 1})
+	b.AssertWrote(t, before, map[string]int64{"run": 1, "sighting": 4, "section": 1, "run_mark": 2, "run_held": 2, "check_connection": 1, "register_commit": 1})
 	id := jsonID(rec.Run.ID)
 	show, _, _ := binRun(t, db.URL, "run", "show", id)
 	for _, want := range []string{

@@ -64,6 +64,21 @@ The book is refused, and nothing is written, when:
   - a check fails: give --accept-failed-checks with --reason to record it
     anyway; the reason is kept with the run.
 
+Marks of the book that are not held but have a current published height
+on the book's datum are compared two by two (check connections): the
+difference observed between them along the run against their published
+difference, within the class's tolerance for the length between them. The
+1984 federal standards ask new work to check into existing marks at both
+ends. A connection that fails is a failed check; a mark every one of whose
+connections fails becomes suspect (shown wherever its height is read) until
+a later run passes one of its connections or a condition report is made.
+A section of the book levelled the other way in a run already recorded is
+compared with it as a double-run section.
+
+With --check-only the run is recorded as a check run: a crew's check into
+two published marks before a job. It adjusts nothing (adjust leaves it out;
+stale and trace show it) and must tie to two marks of known height.
+
 Held heights are as for cairn run check: --hold MARK takes the mark's current
 height in the register (the run keeps the version held), --held-height
 MARK=HEIGHT a height you give in the book's unit (kept too).
@@ -113,6 +128,7 @@ work.`,
 	fl.BoolVar(&opts.NewMarks, "new-marks", false, "create the marks the register lacks (condition unverified, no height)")
 	fl.BoolVar(&opts.AcceptFailedChecks, "accept-failed-checks", false, "record the book even though checks fail (needs --reason)")
 	fl.StringVar(&opts.Reason, "reason", "", "why a book whose checks fail is recorded")
+	fl.BoolVar(&opts.CheckOnly, "check-only", false, "record the book as a check run between marks of known height: it adjusts nothing")
 	addOutputFlag(cmd, &opts.Format)
 	return cmd
 }
@@ -125,6 +141,9 @@ type recordedJSON struct {
 	Cautions     []string       `json:"cautions"`
 	Warnings     []string       `json:"warnings"`
 	Reduction    *reduce.Result `json:"reduction"`
+	CheckOnly    bool           `json:"check_only"`
+	// Suspect are the marks every one of whose check connections failed.
+	Suspect []string `json:"suspect"`
 }
 
 // runRecordRun records the book and prints its report.
@@ -160,7 +179,7 @@ func runRecordRun(opts *runRecordOptions) error {
 			warnLoudly(ios, c)
 		}
 		return writeJSON(ios.Out, recordedJSON{Run: toRunJSON(rec.Run), CreatedMarks: created, Cautions: nonNil(rec.Cautions),
-			Warnings: nonNil(rec.Warnings), Reduction: rec.Result,
+			Warnings: nonNil(rec.Warnings), Reduction: rec.Result, CheckOnly: rec.CheckOnly, Suspect: nonNil(rec.Suspect),
 			Held: toHeldJSON(rec.Run.Unit, rec.Held)})
 	}
 	w := ios.Out
@@ -172,10 +191,16 @@ func runRecordRun(opts *runRecordOptions) error {
 	if len(created) > 0 {
 		fmt.Fprintf(w, "Created marks (unverified, no height): %s\n", strings.Join(created, ", "))
 	}
+	if rec.CheckOnly {
+		fmt.Fprintln(w, "Recorded as a check run: it adjusts nothing")
+	}
 	// The report's warnings are in it, repeated on ErrOut when Out is not
 	// a terminal.
 	for _, c := range append(slices.Clip(rec.Cautions), rec.Warnings...) {
 		warnInReport(ios, c)
+	}
+	for _, m := range rec.Suspect {
+		warnInReport(ios, fmt.Sprintf("WARNING: mark %s is now SUSPECT: every check connection of it in this run failed; check it in the field and report its condition before relying on its height", m))
 	}
 	fmt.Fprintln(w)
 	return writeReport(w, rec.Result, heldNotes(toHeldJSON(rec.Run.Unit, rec.Held)))

@@ -161,12 +161,13 @@ func runShowRun(opts *runShowOptions) error {
 	if opts.Format == FormatJSON {
 		j := struct {
 			runJSON
-			Sections []sectionJSON   `json:"sections"`
-			Marks    []runMarkJSON   `json:"marks"`
-			Held     []runHeldJSON   `json:"held"`
-			Checks   json.RawMessage `json:"checks"`
-			Cautions []string        `json:"cautions"`
-		}{runJSON: toRunJSON(v.Run), Sections: []sectionJSON{}, Marks: []runMarkJSON{}, Held: toHeldJSON(v.Run.Unit, v.Held),
+			Sections  []sectionJSON   `json:"sections"`
+			Marks     []runMarkJSON   `json:"marks"`
+			Held      []runHeldJSON   `json:"held"`
+			Checks    json.RawMessage `json:"checks"`
+			Cautions  []string        `json:"cautions"`
+			CheckOnly bool            `json:"check_only"`
+		}{CheckOnly: v.CheckOnly, runJSON: toRunJSON(v.Run), Sections: []sectionJSON{}, Marks: []runMarkJSON{}, Held: toHeldJSON(v.Run.Unit, v.Held),
 			Checks: v.Run.Checks, Cautions: nonNil(v.Cautions)}
 		for _, s := range v.Sections {
 			j.Sections = append(j.Sections, sectionJSON{s.Seq, s.From, s.To, s.FirstLine, s.LastLine, s.Setups, s.DifferenceM, s.LengthM})
@@ -191,6 +192,9 @@ func runShowRun(opts *runShowOptions) error {
 	}
 	if len(v.Cautions) > 0 || v.Run.Voided != nil {
 		fmt.Fprintln(ios.Out)
+	}
+	if v.CheckOnly {
+		fmt.Fprintf(ios.Out, "Run %d is a check run: it adjusts nothing.\n\n", v.Run.ID)
 	}
 	if err := writeRunReport(ios.Out, v.Run, v.Summary, v.Sections, v.Marks, v.Held); err != nil {
 		return err
@@ -253,7 +257,7 @@ func writeRunReport(w io.Writer, run store.Run, sum register.CheckSummary, secti
 		}
 		ms.AddRow(m.Designation, cond, on, created)
 	}
-	res := &reduce.Result{Unit: u, Misclosures: mis, Checks: checks, Failures: failures}
+	res := &reduce.Result{Unit: u, Misclosures: mis, DoubleRuns: sum.DoubleRuns, Connections: sum.Connections, Checks: checks, Failures: failures}
 	parts := []struct {
 		title string
 		t     Table
@@ -277,6 +281,18 @@ func writeRunReport(w io.Writer, run store.Run, sum register.CheckSummary, secti
 	}
 	if len(mis) == 0 {
 		parts[3].title = "Misclosure: none (the run does not close)"
+	}
+	if len(sum.DoubleRuns) > 0 {
+		parts = slices.Insert(parts, 4, struct {
+			title string
+			t     Table
+		}{"Double-run sections (forward + backward)", doubleRunTable(res)})
+	}
+	if len(sum.Connections) > 0 {
+		parts = slices.Insert(parts, 4, struct {
+			title string
+			t     Table
+		}{"Check connections (marks of known height)", connectionTable(res)})
 	}
 	if len(failures) > 0 {
 		parts = append(parts, struct {

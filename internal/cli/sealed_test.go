@@ -105,6 +105,13 @@ func TestSealedChildren(t *testing.T) {
 			sql: `INSERT INTO run_mark (run_id, mark_id) SELECT $1, id FROM mark WHERE designation = 'TC-0499'`},
 		{table: "run_held", sealed: true, as: recorder, parent: s.run1, code: "CA004",
 			sql: `INSERT INTO run_held (run_id, mark_id, value_in_book_unit) SELECT $1, id, 100 FROM mark WHERE designation = 'TC-0499'`},
+		// A recorded run made a check run afterwards (adjust would leave
+		// it out), or given a check connection it never made.
+		{table: "check_run", sealed: true, as: recorder, parent: s.run1, code: "CA004",
+			sql: `INSERT INTO check_run (run_id) VALUES ($1)`},
+		{table: "check_connection", sealed: true, as: recorder, parent: s.run1, code: "CA004",
+			sql: `INSERT INTO check_connection (run_id, seq, from_mark_id, to_mark_id, observed_m, known_m)
+				SELECT $1, 1, f.id, t.id, 0.5, 0.5 FROM mark f, mark t WHERE f.designation = 'BM1' AND t.designation = 'TC-0499'`},
 		// Voiding is the publisher's, once per run.
 		{table: "run_event", why: "an event, decided later: the publisher's alone", as: recorder, parent: s.run1, code: "42501",
 			sql: `INSERT INTO run_event (run_id, kind, reason, recorded_by) VALUES ($1, 'voided', 'x', 'x')`},

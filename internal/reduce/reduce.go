@@ -93,6 +93,8 @@ func Reduce(book *levelbook.Book, opts Options) (*Result, error) {
 	r.buildSections()
 	r.anchor()
 	r.buildMisclosures()
+	r.buildDoubleRuns()
+	r.buildConnections(opts.Published)
 	r.spotHeights()
 	r.check()
 	return r, nil
@@ -346,6 +348,75 @@ func (r *Result) buildMisclosures() {
 		}
 		prev = i
 	}
+	// Closures within the run: each time the run comes back to a mark it
+	// has passed, the stretch since its last visit closes on it (known
+	// difference 0), unless a closure above covers the same sections. A
+	// stretch that retraces its own marks (B, C, B) is a spur: its closure
+	// is that of its double-run sections (checkDoubleRuns), judged by the
+	// section constant, and is not listed here again.
+	covered := map[[2]int]bool{}
+	for _, ms := range r.Misclosures {
+		covered[[2]int{ms.FirstSection, ms.LastSection}] = true
+	}
+	last := map[string]int{}
+	for j, st := range stops {
+		i, seen := last[st.mark]
+		last[st.mark] = j
+		if !seen || covered[[2]int{i + 1, j}] || retraces(stops[i:j+1], func(s stop) string { return s.mark }) {
+			continue
+		}
+		add("loop", stops[i], st, 0)
+		r.Misclosures[len(r.Misclosures)-1].Within = true
+	}
+}
+
+// retraces reports whether the marks of stops read the same both ways
+// (B, C, B or B, C, D, C, B): a spur levelled out and back.
+func retraces[T any](stops []T, mark func(T) string) bool {
+	for i, j := 0, len(stops)-1; i < j; i, j = i+1, j-1 {
+		if mark(stops[i]) != mark(stops[j]) {
+			return false
+		}
+	}
+	return true
+}
+
+// buildDoubleRuns pairs each section with the nearest earlier section of
+// the book levelled the other way between the same two marks (B→C, then
+// C→B), each section in one pair at most, and compares them.
+func (r *Result) buildDoubleRuns() {
+	r.DoubleRuns = []DoubleRun{}
+	paired := make([]bool, len(r.Sections))
+	for j, b := range r.Sections {
+		for i := j - 1; i >= 0; i-- {
+			a := r.Sections[i]
+			if paired[i] || a.From != b.To || a.To != b.From {
+				continue
+			}
+			paired[i], paired[j] = true, true
+			r.DoubleRuns = append(r.DoubleRuns, r.compareDoubleRun(DoubleRun{
+				From: a.From, To: a.To, Forward: a.Number, Backward: b.Number,
+				ForwardLines: [2]int{a.FromLine, a.ToLine}, BackwardLines: [2]int{b.FromLine, b.ToLine},
+				ForwardM: a.DifferenceM, BackwardM: b.DifferenceM,
+			}, a.LengthM, b.LengthM, a.HasLength && b.HasLength))
+			break
+		}
+	}
+}
+
+// compareDoubleRun fills the closure of a double-run section and, with a
+// class and both lengths, its allowable and outcome: K is the mean of the
+// forward and backward lengths.
+func (r *Result) compareDoubleRun(d DoubleRun, fwdLenM, bwdLenM float64, hasLength bool) DoubleRun {
+	d.ClosureM = d.ForwardM + d.BackwardM
+	if hasLength {
+		d.OneWayM, d.HasLength = (fwdLenM+bwdLenM)/2, true
+	}
+	if r.Tolerances != nil && d.HasLength && d.OneWayM > 0 {
+		d.AllowableM, d.HasAllowable = standards.DoubleRunAllowableM(*r.Tolerances, d.OneWayM), true
+		d.Pass = standards.Within(d.ClosureM, d.AllowableM)
+	}
+	return d
 }
 
 // check runs the quality checks and lists every failure.
@@ -355,7 +426,7 @@ func (r *Result) check() {
 	f := func(m float64) string { return units.FormatIn(m, u, dec) + " " + string(u) }
 	fd := func(m float64) string { return units.FormatIn(m, u, DistanceDecimals) + " " + string(u) }
 	checks := map[CheckKind]*Check{}
-	order := []CheckKind{CheckThreeWire, CheckDistance, CheckSightLength, CheckSetupImbalance, CheckSectionImbalance, CheckMisclosure, CheckHeldSight, CheckClosure}
+	order := []CheckKind{CheckThreeWire, CheckDistance, CheckSightLength, CheckSetupImbalance, CheckSectionImbalance, CheckMisclosure, CheckDoubleRun, CheckConnection, CheckHeldSight, CheckClosure}
 	for _, k := range order {
 		checks[k] = &Check{Kind: k}
 	}
@@ -468,6 +539,8 @@ func (r *Result) check() {
 			}
 		}
 	}
+	r.checkDoubleRuns(checks[CheckDoubleRun], fail, f, fd)
+	r.checkConnections(checks[CheckConnection], fail, f, fd)
 	r.checkHeldSights(checks[CheckHeldSight], fail, f, fd)
 
 	// Closure: the run must be checked by something.
@@ -475,7 +548,11 @@ func (r *Result) check() {
 	c.Tolerance = "the run closes on itself or joins two held marks"
 	c.Source = "common practice: check into two marks"
 	c.Checked = 1
-	if len(r.Misclosures) == 0 {
+	closes := false
+	for _, ms := range r.Misclosures {
+		closes = closes || !ms.Within
+	}
+	if !closes {
 		last := r.Sections[len(r.Sections)-1]
 		held := slices.Sorted(maps.Keys(r.Held))
 		why := "no mark is held"

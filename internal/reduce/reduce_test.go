@@ -329,6 +329,8 @@ TC-1,FS,1.400,1.021,0.642,
 		CheckSetupImbalance:   {11},
 		CheckSectionImbalance: {9, 11},
 		CheckMisclosure:       {11},
+		// TC-1 to TC-2 and back is a double-run section too.
+		CheckDoubleRun: {11},
 	}
 	if fmt.Sprint(got) != fmt.Sprint(want) {
 		t.Errorf("failed lines\n got %v\nwant %v", got, want)
@@ -364,11 +366,11 @@ TC-1,FS,1.400,1.021,0.642,
 	var lines []int
 	for _, f := range nd.Failures {
 		lines = append(lines, f.Line)
-		if f.Kind != CheckDistance && f.Kind != CheckMisclosure {
+		if f.Kind != CheckDistance && f.Kind != CheckMisclosure && f.Kind != CheckDoubleRun {
 			t.Errorf("unexpected failure %+v", f)
 		}
 	}
-	if fmt.Sprint(lines) != "[4 5 6 7 7]" {
+	if fmt.Sprint(lines) != "[4 5 6 7 7 7]" {
 		t.Errorf("failed lines %v", lines)
 	}
 	// --class overrides the book's class.
@@ -440,4 +442,173 @@ func TestThreeWireLimitInFeet(t *testing.T) {
 	if want := "half-intervals 0.150 and 0.140 differ by 0.010 ft (limit 0.003 m (0.0098 ft)): reobserve"; len(msgs) != 1 || msgs[0] != want {
 		t.Errorf("three-wire failures %q, want [%q]", msgs, want)
 	}
+}
+
+// closureBook writes a second-II book along marks, each section two setups
+// of four 62.5 m sights (250 m, K = 0.25 km), rising by rises[i] (m).
+func closureBook(marks []string, rises []float64) string {
+	var sb strings.Builder
+	sb.WriteString("# units: m\n# class: second-II\npoint,sight,middle,distance\n")
+	tp := 0
+	for i, rise := range rises {
+		tp++
+		fmt.Fprintf(&sb, "%s,BS,1.5000,62.5\nTP%d,FS,1.5000,62.5\n", marks[i], tp)
+		fmt.Fprintf(&sb, "TP%d,BS,%.4f,62.5\n%s,FS,1.5000,62.5\n", tp, 1.5+rise, marks[i+1])
+	}
+	return sb.String()
+}
+
+// A run A→B→C→B→A with nothing held closes twice: on A (the loop) and on
+// B (the spur B→C→B, whose closure is its double-run section B–C, judged
+// by the section constant over the one-way length). FGCC 1984 §3.5 (table
+// values from memory, docs/references.md#accuracy-classes): second-II
+// section 8 mm·√K and loop 8 mm·√E. Derived: K = 0.25 km gives exactly
+// 4 mm for a double-run section, and the 1 km loop 8 mm.
+func TestClosuresWithinTheRun(t *testing.T) {
+	marks := []string{"TC-A", "TC-B", "TC-C", "TC-B", "TC-A"}
+	for _, c := range []struct {
+		name    string
+		spurMM  float64 // closure of B→C→B
+		spurOK  bool
+		loopMM  float64
+		loopOK  bool
+		failed  int
+		summary string
+	}{
+		{"at the limit", 4.0, true, 4.0, true, 0, "All checks passed."},
+		{"over the section limit", 4.1, false, 4.1, true, 1, "1 check(s) failed."},
+		// A-B closes by −4.1 mm, B-C by +4.1: the loop closes at zero.
+		{"both sections over", 4.1, false, 0, true, 2, "2 check(s) failed."},
+	} {
+		t.Run(c.name, func(t *testing.T) {
+			back := -0.3 + (c.loopMM-c.spurMM)/1000
+			r := reduce(t, parse(t, closureBook(marks, []float64{0.3, 0.5, -0.5 + c.spurMM/1000, back})), Options{})
+			if len(r.Misclosures) != 1 {
+				t.Fatalf("misclosures %+v, want the loop on TC-A only", r.Misclosures)
+			}
+			loop := r.Misclosures[0]
+			if loop.Kind != "loop" || loop.From != "TC-A" || loop.Within || math.Abs(loop.MisclosureM-c.loopMM/1000) > 1e-9 ||
+				math.Abs(loop.AllowableM-0.008) > 1e-12 || loop.Pass != c.loopOK {
+				t.Errorf("loop %+v, want %.1f mm against 8 mm", loop, c.loopMM)
+			}
+			if len(r.DoubleRuns) != 2 {
+				t.Fatalf("double runs %+v", r.DoubleRuns)
+			}
+			spur := r.DoubleRuns[0]
+			if spur.From != "TC-B" || spur.To != "TC-C" || spur.Forward != 2 || spur.Backward != 3 ||
+				math.Abs(spur.ClosureM-c.spurMM/1000) > 1e-9 || math.Abs(spur.OneWayM-250) > 1e-9 ||
+				math.Abs(spur.AllowableM-0.004) > 1e-12 || spur.Pass != c.spurOK {
+				t.Errorf("spur %+v, want %.1f mm against 4 mm", spur, c.spurMM)
+			}
+			if ab := r.DoubleRuns[1]; ab.From != "TC-A" || ab.To != "TC-B" || ab.Forward != 1 || ab.Backward != 4 {
+				t.Errorf("A-B double run %+v", ab)
+			}
+			if len(r.Failures) != c.failed || !strings.HasPrefix(r.Summary, c.summary) {
+				t.Errorf("failures %+v, summary %q", r.Failures, r.Summary)
+			}
+			for _, f := range r.Failures {
+				if f.Kind != CheckDoubleRun {
+					t.Errorf("failure %+v, want double_run only", f)
+				}
+			}
+		})
+	}
+}
+
+// A line that comes back to a mark it passed (B, C, D, B) closes there:
+// the stretch is judged by the loop constant; it does not tie the line to
+// known heights, so the closure check still fails. Second-II loop
+// 8 mm·√E (from memory, as above); derived: E = 0.75 km, 6.928 mm.
+func TestLoopWithinALine(t *testing.T) {
+	marks := []string{"TC-A", "TC-B", "TC-C", "TC-D", "TC-B", "TC-E"}
+	r := reduce(t, parse(t, closureBook(marks, []float64{0.3, 0.5, 0.2, -0.7 + 0.007, 0.1})), Options{})
+	if len(r.Misclosures) != 1 {
+		t.Fatalf("misclosures %+v", r.Misclosures)
+	}
+	ms := r.Misclosures[0]
+	want := 0.008 * math.Sqrt(0.75)
+	if !ms.Within || ms.From != "TC-B" || ms.To != "TC-B" || ms.FirstSection != 2 || ms.LastSection != 4 ||
+		math.Abs(ms.MisclosureM-0.007) > 1e-9 || math.Abs(ms.AllowableM-want) > 1e-12 || ms.Pass {
+		t.Errorf("closure %+v, want 7 mm against %.4f mm", ms, want*1000)
+	}
+	got := map[CheckKind]int{}
+	for _, f := range r.Failures {
+		got[f.Kind]++
+	}
+	if fmt.Sprint(got) != "map[closure:1 misclosure:1]" {
+		t.Errorf("failures %v", r.Failures)
+	}
+}
+
+// Check connections: three published marks on a line, the middle one
+// published 12 mm too low (it moved). Second-II, the loop constant over
+// the length between the marks (standards.CheckConnectionAllowableM; FGCC
+// 1984 §3.5 8 mm·√E from memory). Derived: 0.5 km gives 5.657 mm, 1 km
+// 8 mm. A–B and B–C differ by ±12 mm and fail, A–C agrees: B is the
+// suspect. An intermediate sight on a mark is carried from its section's
+// start.
+func TestCheckConnections(t *testing.T) {
+	marks := []string{"TC-A", "TC-X", "TC-B", "TC-Y", "TC-C"}
+	book := parse(t, closureBook(marks, []float64{0.1, 0.2, 0.3, 0.4}))
+	pub := map[string]float64{"TC-A": 10, "TC-B": 10.3 - 0.012, "TC-C": 11.0}
+	r := reduce(t, book, Options{Published: pub})
+	if len(r.Connections) != 3 {
+		t.Fatalf("connections %+v", r.Connections)
+	}
+	want := []struct {
+		from, to        string
+		diffMM, allowMM float64
+		pass            bool
+	}{
+		{"TC-A", "TC-B", 12, 8 * math.Sqrt(0.5), false},
+		{"TC-A", "TC-C", 0, 8, true},
+		{"TC-B", "TC-C", -12, 8 * math.Sqrt(0.5), false},
+	}
+	for i, w := range want {
+		c := r.Connections[i]
+		if c.From != w.from || c.To != w.to || math.Abs(c.DifferenceM*1000-w.diffMM) > 1e-6 || math.Abs(c.AllowableM*1000-w.allowMM) > 1e-9 || c.Pass != w.pass {
+			t.Errorf("connection %d: %+v, want %s to %s %.0f mm against %.3f mm", i, c, w.from, w.to, w.diffMM, w.allowMM)
+		}
+	}
+	if got := fmt.Sprint(r.SuspectMarks()); got != "[TC-B]" {
+		t.Errorf("suspect %s, want [TC-B]", got)
+	}
+	// The line is not held: it fails the closure check as well.
+	if got := fmt.Sprint(failedKinds(r)); got != "map[check_connection:2 closure:1]" {
+		t.Errorf("failures %s: %+v", got, r.Failures)
+	}
+	// Held at A and C, published B: A–C is the line's misclosure, not
+	// judged twice.
+	h := reduce(t, book, Options{Hold: map[string]float64{"TC-A": 10, "TC-C": 11}, Published: pub})
+	if !h.Connections[1].AsClosure || failedKinds(h)[CheckConnection] != 2 || len(h.Misclosures) != 1 {
+		t.Errorf("held: connections %+v failures %+v", h.Connections, h.Failures)
+	}
+	// Only one known mark: nothing to connect.
+	one := reduce(t, book, Options{Published: map[string]float64{"TC-A": 10}})
+	for _, c := range one.Checks {
+		if c.Kind == CheckConnection && !c.NotApplicable {
+			t.Errorf("one known mark: %+v", c)
+		}
+	}
+}
+
+// An intermediate sight on a mark: H(mark) − H(section start) = the
+// setups before it, the backsight of its setup, minus the sight.
+func TestSideShots(t *testing.T) {
+	b := parse(t, "# units: m\npoint,sight,middle,distance\nTC-1,BS,1.5,40\nTP1,FS,1.2,40\nTP1,BS,1.4,30\nTC-9,IS,0.9,20\nTC-2,FS,1.1,30\n")
+	r := reduce(t, b, Options{})
+	s := r.SideShots()
+	// Worked by hand: 1.5 − 1.2 + 1.4 − 0.9 = 0.8 m; along 40 + 40 + 30 m.
+	if len(s) != 1 || s[0].Point != "TC-9" || s[0].Section != 1 || math.Abs(s[0].DhM-0.8) > 1e-12 ||
+		!s[0].HasAlong || s[0].AlongM != 110 || s[0].AlongSetups != 1.5 || s[0].Line != 6 {
+		t.Errorf("side shots %+v", s)
+	}
+}
+
+func failedKinds(r *Result) map[CheckKind]int {
+	got := map[CheckKind]int{}
+	for _, f := range r.Failures {
+		got[f.Kind]++
+	}
+	return got
 }

@@ -35,6 +35,10 @@ type Options struct {
 	// default profile (standards.Default). The caller resolves the book's
 	// "# standards:" line or its own flag (standards.Resolve).
 	Standards *standards.Profile
+	// Published gives the known heights in metres of marks not held (their
+	// published heights): they hold nothing, and serve only the check
+	// connections, with the held marks.
+	Published map[string]float64
 	// CurvatureRefraction corrects every reading for the curvature of the
 	// earth and atmospheric refraction (CurvatureRefractionM); every sight
 	// must then have a distance.
@@ -77,9 +81,17 @@ type Result struct {
 	// Sections are the observations between consecutive marks of the line,
 	// in field order.
 	Sections []Section `json:"sections"`
-	// Misclosures are the closures of the run: the loop on itself, and
-	// each stretch between consecutive held marks.
+	// Misclosures are the closures of the run: the loop on itself, each
+	// stretch between consecutive held marks, and each stretch that comes
+	// back to a mark the run passed (Misclosure.Within).
 	Misclosures []Misclosure `json:"misclosures"`
+	// DoubleRuns are the sections levelled both ways, forward + backward
+	// compared with the section tolerance; those against another run's
+	// sections are added by CompareOtherRuns.
+	DoubleRuns []DoubleRun `json:"double_runs"`
+	// Connections are the check connections: every two marks of known
+	// height (held, or published: Options.Published) the run ties to.
+	Connections []Connection `json:"check_connections"`
 	// SpotHeights are the reduced spot heights (points declared `spot` in
 	// the book), in field order.
 	SpotHeights []SpotHeight `json:"spot_heights"`
@@ -237,6 +249,42 @@ type Misclosure struct {
 	// Pass reports |MisclosureM| ≤ AllowableM (false when not
 	// HasAllowable).
 	Pass bool `json:"pass"`
+	// Within is set on a closure inside the run: the run came back to a
+	// mark it had passed (A, B, C, D, B, A closes B, C, D, B). It checks
+	// the stretch, not the run's tie to known heights, so it does not
+	// count for the closure check.
+	Within bool `json:"within,omitempty"`
+}
+
+// DoubleRun is a section levelled forward and backward, in this book or
+// in another run, compared: the two observed differences should sum to
+// zero.
+type DoubleRun struct {
+	// From and To are the marks of the forward section.
+	From string `json:"from"`
+	To   string `json:"to"`
+	// Forward and Backward number the two sections in their runs;
+	// ForwardLines and BackwardLines give their book lines. OtherRun is
+	// the run the backward section belongs to, 0 for this book.
+	Forward       int    `json:"forward_section"`
+	Backward      int    `json:"backward_section"`
+	ForwardLines  [2]int `json:"forward_lines"`
+	BackwardLines [2]int `json:"backward_lines"`
+	OtherRun      int64  `json:"other_run,omitempty"`
+	// ForwardM is H(To) − H(From) observed forward, BackwardM H(From) −
+	// H(To) observed backward; ClosureM = ForwardM + BackwardM.
+	ForwardM  float64 `json:"forward_m"`
+	BackwardM float64 `json:"backward_m"`
+	ClosureM  float64 `json:"closure_m"`
+	// OneWayM is the one-way length K, the mean of the two sections'
+	// lengths; meaningful when HasLength.
+	OneWayM   float64 `json:"one_way_m"`
+	HasLength bool    `json:"has_length"`
+	// AllowableM is standards.DoubleRunAllowableM over OneWayM; meaningful when
+	// HasAllowable. Pass reports |ClosureM| ≤ AllowableM.
+	AllowableM   float64 `json:"allowable_m"`
+	HasAllowable bool    `json:"has_allowable"`
+	Pass         bool    `json:"pass"`
 }
 
 // CheckKind names a kind of quality check.
@@ -251,6 +299,8 @@ const (
 	CheckSectionImbalance CheckKind = "section_imbalance" // accumulated imbalance over a section
 	CheckMisclosure       CheckKind = "misclosure"        // each closure within the allowable
 	CheckHeldSight        CheckKind = "held_sight"        // each intermediate sight on a held mark agrees with its held height
+	CheckDoubleRun        CheckKind = "double_run"        // each section levelled both ways: forward + backward within the section tolerance
+	CheckConnection       CheckKind = "check_connection"  // each two marks of known height: observed difference within the tolerance of the known one
 	CheckClosure          CheckKind = "closure"           // the run closes at all: a loop, or two held marks
 )
 
@@ -292,6 +342,10 @@ func (k CheckKind) Words() string {
 		return "misclosure"
 	case CheckHeldSight:
 		return "held-mark sights"
+	case CheckDoubleRun:
+		return "double-run sections"
+	case CheckConnection:
+		return "check connections"
 	case CheckClosure:
 		return "closure"
 	}

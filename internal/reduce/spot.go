@@ -150,3 +150,46 @@ func (r *Result) checkHeldSights(c *Check, fail func(k CheckKind, line int, subj
 		}
 	}
 }
+
+// checkDoubleRuns makes the double-run check: forward + backward of each
+// section levelled both ways within the class's section tolerance over its
+// one-way length.
+func (r *Result) checkDoubleRuns(c *Check, fail func(k CheckKind, line int, subject string, value, limit float64, format string, a ...any), f, fd func(float64) string) {
+	c.Tolerance = "forward + backward of a section levelled both ways within the section tolerance over its one-way length"
+	c.Source = "FGCC 1984 §3.5, section misclosure (backward and forward), K the one-way length"
+	switch {
+	case len(r.DoubleRuns) == 0:
+		c.NotMade, c.Why, c.NotApplicable = "no section is levelled both ways", "no double-run section", true
+		return
+	case r.Tolerances == nil:
+		c.NotMade, c.Why = "no accuracy class: the closures are shown but not judged", "no class"
+		return
+	}
+	c.Tolerance = fmt.Sprintf("forward + backward within %g mm·√K, K the one-way length in km (%s)", r.Tolerances.SectionMmSqrtKm, r.Tolerances.Class)
+	if r.Tolerances.Source != "" {
+		c.Source = r.Tolerances.Source + "; section misclosure, K the one-way length"
+	}
+	for _, d := range r.DoubleRuns {
+		c.Checked++
+		subject := d.From + " to " + d.To
+		other := "section " + fmt.Sprint(d.Backward)
+		if d.OtherRun != 0 {
+			other = fmt.Sprintf("run %d, section %d", d.OtherRun, d.Backward)
+		}
+		line := d.BackwardLines[1]
+		if d.OtherRun != 0 {
+			line = d.ForwardLines[1]
+		}
+		if !d.HasAllowable {
+			fail(CheckDoubleRun, line, subject, d.ClosureM, 0,
+				"forward %s and backward %s (%s) close by %s and cannot be judged: a section has no length",
+				f(d.ForwardM), f(d.BackwardM), other, f(d.ClosureM))
+			continue
+		}
+		if !d.Pass {
+			fail(CheckDoubleRun, line, subject, d.ClosureM, d.AllowableM,
+				"forward %s and backward %s (%s) close by %s, more than the allowable %s over %s one way",
+				f(d.ForwardM), f(d.BackwardM), other, f(d.ClosureM), f(d.AllowableM), fd(d.OneWayM))
+		}
+	}
+}

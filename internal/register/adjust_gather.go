@@ -2,6 +2,7 @@ package register
 
 import (
 	"context"
+	"encoding/json"
 	"errors"
 	"fmt"
 	"sort"
@@ -11,6 +12,8 @@ import (
 	"github.com/jackc/pgx/v5"
 
 	"cairn/internal/adjust"
+	"cairn/internal/levelbook"
+	"cairn/internal/reduce"
 	"cairn/internal/store"
 	"cairn/internal/units"
 )
@@ -46,7 +49,19 @@ func (r *Register) gather(ctx context.Context, tx pgx.Tx, p AdjustParams) (*gath
 	for _, id := range p.RunIDs {
 		named[id] = true
 	}
+	// Check runs adjust nothing: one named is refused, one chosen by marks
+	// or area left out.
+	checkRuns, err := store.CheckRunIDs(ctx, tx, runIDs)
+	if err != nil {
+		return nil, err
+	}
 	for _, id := range runIDs {
+		if checkRuns[id] {
+			if named[id] {
+				return nil, inputErr("run", "run %d is a check run (recorded with --check-only): it adjusts nothing", id)
+			}
+			continue
+		}
 		run, err := r.run(ctx, tx, id)
 		if err != nil {
 			return nil, err
@@ -134,7 +149,22 @@ func (r *Register) gather(ctx context.Context, tx pgx.Tx, p AdjustParams) (*gath
 		if err != nil {
 			return nil, fmt.Errorf("run %d: its standards profile: %w", run.ID, err)
 		}
-		g.input.Runs = append(g.input.Runs, adjust.DraftRun{ID: run.ID, Class: run.Class, Sections: byRun[run.ID], Standards: prof})
+		sides, err := sidesOf(ctx, tx, run)
+		if err != nil {
+			return nil, err
+		}
+		if len(sides) > 0 {
+			marks, err := store.RunMarkListByRun(ctx, tx, run.ID)
+			if err != nil {
+				return nil, err
+			}
+			for _, m := range marks {
+				if _, ok := g.markIDs[m.Designation]; !ok {
+					g.markIDs[m.Designation] = m.MarkID
+				}
+			}
+		}
+		g.input.Runs = append(g.input.Runs, adjust.DraftRun{ID: run.ID, Class: run.Class, Sections: byRun[run.ID], Sides: sides, Standards: prof})
 	}
 	g.input.Method, g.input.Distribution, g.input.Network = p.Method, p.Distribution, p.LeastSquares
 	g.input.Decimals = p.Decimals
@@ -332,4 +362,43 @@ func commonDatums(ctx context.Context, db store.DBTX, marks []store.Mark) (codes
 	}
 	sort.Strings(codes)
 	return codes, "", nil
+}
+
+// sidesOf reads run's intermediate sights on marks from its stored book,
+// reduced again with its stored options (as audit verify does): the side
+// shots that give a mark sighted only so its height (adjust.DraftSide).
+func sidesOf(ctx context.Context, db store.DBTX, run store.Run) ([]adjust.DraftSide, error) {
+	raw, err := store.RunGetBook(ctx, db, run.ID)
+	if err != nil {
+		return nil, fmt.Errorf("read the book of run %d: %w", run.ID, err)
+	}
+	book, err := levelbook.Parse(run.FileName, raw)
+	if err != nil {
+		return nil, fmt.Errorf("run %d: its stored book no longer parses: %w", run.ID, err)
+	}
+	has := false
+	for _, s := range book.Sightings {
+		has = has || s.Sight == levelbook.Intermediate && !s.Spot && !s.TurningPoint
+	}
+	if !has {
+		return nil, nil
+	}
+	var sum CheckSummary
+	if err := json.Unmarshal(run.Checks, &sum); err != nil {
+		return nil, fmt.Errorf("decode checks of run %d: %w", run.ID, err)
+	}
+	res, err := reduce.Reduce(book, reduce.Options{Class: sum.Class, Hold: sum.HeldM, CurvatureRefraction: sum.CurvatureRefraction})
+	if err != nil {
+		return nil, fmt.Errorf("run %d: its stored book no longer reduces: %w", run.ID, err)
+	}
+	var out []adjust.DraftSide
+	for _, sh := range res.SideShots() {
+		sd := adjust.DraftSide{Point: sh.Point, Line: sh.Line, Section: sh.Section, DhM: sh.DhM, AlongSetups: sh.AlongSetups}
+		if sh.HasAlong {
+			along := sh.AlongM
+			sd.AlongM = &along
+		}
+		out = append(out, sd)
+	}
+	return out, nil
 }

@@ -5,6 +5,7 @@ import (
 	"fmt"
 	"slices"
 	"strings"
+	"time"
 
 	"cairn/internal/store"
 )
@@ -26,6 +27,11 @@ const (
 	// DoubtAcceptedFailures: the version's adjustment was published with
 	// its failed checks accepted.
 	DoubtAcceptedFailures = "accepted-failed-checks"
+	// DoubtSuspect: every check connection of the mark judged in the latest
+	// run not voided that judged one failed: the mark may have moved. A
+	// later run that passes one of its connections, or a condition report
+	// recorded after that run, clears it.
+	DoubtSuspect = "suspect"
 )
 
 // Doubt is one reason not to rely on a mark's height.
@@ -52,6 +58,8 @@ func (d Doubt) Warning() string {
 		return "WARNING: " + d.Text + "; adjust it again before relying on it"
 	case DoubtVoidedRun:
 		return "WARNING: " + d.Text + "; adjust it again without that run before relying on it"
+	case DoubtSuspect:
+		return "WARNING: mark " + d.Text + "; check it in the field and report its condition, or check it again into two other marks, before relying on its height"
 	default:
 		return "WARNING: " + d.Text + "; read the checks accepted (cairn trace) before relying on it"
 	}
@@ -111,6 +119,15 @@ func doubtsOf(ctx context.Context, db store.DBTX, marks []store.Mark, hs []store
 	out := map[int64]Doubts{}
 	for _, m := range marks {
 		if d, ok := conditionDoubt(m); ok {
+			out[m.ID] = append(out[m.ID], d)
+		}
+	}
+	suspect, err := suspectDoubts(ctx, db, marks)
+	if err != nil {
+		return nil, err
+	}
+	for _, m := range marks {
+		if d, ok := suspect[m.ID]; ok {
 			out[m.ID] = append(out[m.ID], d)
 		}
 	}
@@ -204,4 +221,61 @@ func markDoubtsCurrent(ctx context.Context, db store.DBTX, marks []store.Mark) (
 		return nil, err
 	}
 	return doubtsOf(ctx, db, marks, hs)
+}
+
+// suspectDoubts finds the marks that failed their check connections: in
+// the latest run not voided that judged a check connection of the mark,
+// every one of its connections failed, and no condition report of the
+// mark was recorded after that run. Marks need their latest condition
+// report.
+func suspectDoubts(ctx context.Context, db store.DBTX, marks []store.Mark) (map[int64]Doubt, error) {
+	out := map[int64]Doubt{}
+	if len(marks) == 0 {
+		return out, nil
+	}
+	ids := make([]int64, len(marks))
+	for i, m := range marks {
+		ids[i] = m.ID
+	}
+	cs, err := store.CheckConnectionLatestByMarks(ctx, db, ids)
+	if err != nil {
+		return nil, fmt.Errorf("look up the check connections of the marks: %w", err)
+	}
+	for _, m := range marks {
+		var latest int64
+		for _, c := range cs {
+			if (c.FromMarkID == m.ID || c.ToMarkID == m.ID) && c.RunID > latest {
+				latest = c.RunID
+			}
+		}
+		if latest == 0 {
+			continue
+		}
+		var failed []string
+		passed := false
+		var at time.Time
+		for _, c := range cs {
+			if c.RunID != latest || (c.FromMarkID != m.ID && c.ToMarkID != m.ID) {
+				continue
+			}
+			at = c.RunRecordedAt
+			if *c.Pass {
+				passed = true
+				continue
+			}
+			// The mark's height as levelled from the other mark, minus
+			// its published height.
+			other, off := c.From, c.ObservedM-c.KnownM
+			if c.FromMarkID == m.ID {
+				other, off = c.To, -off
+			}
+			failed = append(failed, fmt.Sprintf("levelled from %s it is %+.1f mm from its published height (allowable %.1f mm)", other, off*1000, *c.AllowableM*1000))
+		}
+		if passed || m.Latest != nil && m.Latest.RecordedAt.After(at) {
+			continue
+		}
+		out[m.ID] = Doubt{Kind: DoubtSuspect, Word: "suspect", Text: fmt.Sprintf("%s is SUSPECT: its check connections in run %d (recorded %s) failed: %s",
+			m.Designation, latest, at.UTC().Format("2006-01-02"), strings.Join(failed, "; "))}
+	}
+	return out, nil
 }

@@ -149,7 +149,11 @@ func storedInput(ctx context.Context, db store.DBTX, v *AdjustmentView) (adjust.
 			LengthM: s.LengthM, Setups: s.Setups, FirstLine: s.FirstLine, LastLine: s.LastLine})
 	}
 	for _, run := range v.Runs {
-		in.Runs = append(in.Runs, adjust.DraftRun{ID: run.ID, Class: run.Class, Sections: byRun[run.ID]})
+		sides, err := sidesOf(ctx, db, run)
+		if err != nil {
+			return in, err
+		}
+		in.Runs = append(in.Runs, adjust.DraftRun{ID: run.ID, Class: run.Class, Sections: byRun[run.ID], Sides: sides})
 	}
 	held := map[string]store.Held{}
 	for _, h := range v.Held {

@@ -62,6 +62,10 @@ type RecordParams struct {
 	// Today is the recorder's calendar date (Today when zero): a book
 	// dated after it is refused.
 	Today time.Time
+	// CheckOnly records the book as a check run: a check between marks of
+	// known height (a crew's two-mark check before a job) that adjusts
+	// nothing. It must tie to two marks of known height.
+	CheckOnly bool
 
 	// beforeSections, if set, sees the sections just before they are
 	// stored (tests use it to make the write fail part way).
@@ -85,6 +89,13 @@ type Recorded struct {
 	// it (BookWarnings): marks taken as turning points, a date before a
 	// mark's earliest record.
 	Warnings []string
+	// Connections are the run's check connections as stored; Suspect the
+	// marks every one of whose judged connections failed (they are in
+	// doubt until a later check passes or a condition report is made).
+	Connections []store.CheckConnection
+	Suspect     []string
+	// CheckOnly says the run was recorded as a check run.
+	CheckOnly bool
 }
 
 // CheckSummary is what a run keeps of its reduction's checks, as they
@@ -102,8 +113,15 @@ type CheckSummary struct {
 	End                 string              `json:"end"`
 	Loop                bool                `json:"loop"`
 	Misclosures         []reduce.Misclosure `json:"misclosures"`
-	Checks              []reduce.Check      `json:"checks"`
-	Failures            []reduce.Failure    `json:"failures"`
+	// DoubleRuns are the sections levelled both ways, in the book and
+	// against the runs recorded before it (absent for runs recorded
+	// before they were compared).
+	DoubleRuns []reduce.DoubleRun `json:"double_runs,omitempty"`
+	// Connections are the check connections (absent for runs recorded
+	// before they were made).
+	Connections []reduce.Connection `json:"check_connections,omitempty"`
+	Checks      []reduce.Check      `json:"checks"`
+	Failures    []reduce.Failure    `json:"failures"`
 	// Summary is the reduction's one-sentence summary of its checks
 	// (empty for runs recorded before it was kept).
 	Summary string `json:"summary,omitempty"`
@@ -114,7 +132,7 @@ func summaryOf(res *reduce.Result) CheckSummary {
 	return CheckSummary{
 		Class: res.Class, Standards: &ref, HeldM: res.Held, CurvatureRefraction: res.CurvatureRefraction,
 		Start: res.Start, End: res.End, Loop: res.Loop,
-		Misclosures: res.Misclosures, Checks: res.Checks, Failures: res.Failures, Summary: res.Summary,
+		Misclosures: res.Misclosures, DoubleRuns: res.DoubleRuns, Connections: res.Connections, Checks: res.Checks, Failures: res.Failures, Summary: res.Summary,
 	}
 }
 
@@ -279,11 +297,7 @@ func (r *Register) Record(ctx context.Context, p RecordParams) (*Recorded, error
 	if !res.Passed() && !p.AcceptFailedChecks {
 		return nil, &ChecksFailedError{File: p.Path, Result: res}
 	}
-	reason := ""
-	if !res.Passed() {
-		reason = strings.TrimSpace(p.Reason)
-	}
-	run, err := runInsertParams(p, book, res, reason)
+	run, err := runInsertParams(p, book, res, failedReason(p, res))
 	run.Standards = store.RunStandards{Profile: prof.Name, Version: prof.Version(), Source: prof.Source}
 	if !prof.Builtin {
 		run.Standards.File = prof.Data
@@ -334,6 +348,37 @@ func (r *Register) Record(ctx context.Context, p RecordParams) (*Recorded, error
 		if out.Warnings, err = bookWarnings(ctx, tx, book); err != nil {
 			return err
 		}
+		// The checks against the register: the published heights of the
+		// book's other marks (check connections) and the sections other
+		// runs levelled the other way (double-run sections).
+		pub, err := publishedHeights(ctx, tx, book, names, byName, held, opts.Hold)
+		if err != nil {
+			return err
+		}
+		ropts := opts
+		ropts.Published = map[string]float64{}
+		for name, h := range pub {
+			ropts.Published[name] = h.ValueM
+		}
+		if res, err = reduce.Reduce(book, ropts); err != nil {
+			return &InputError{Field: p.Path, Msg: err.Error()}
+		}
+		others, err := otherRunSections(ctx, tx, res, byName)
+		if err != nil {
+			return err
+		}
+		res.CompareOtherRuns(others)
+		out.Result = res
+		if p.CheckOnly && len(res.Connections) == 0 {
+			return inputErr("check-only", "a check run compares marks of known height, and %s ties to fewer than two (hold them, or publish their heights first)", p.Path)
+		}
+		if !res.Passed() && !p.AcceptFailedChecks {
+			return &ChecksFailedError{File: p.Path, Result: res}
+		}
+		if run, err = runInsertParams(p, book, res, failedReason(p, res)); err != nil {
+			return err
+		}
+		run.ObservationsSeq = seq
 		id, err := store.RunInsert(ctx, tx, run)
 		if errors.Is(err, store.ErrAlreadyExists) {
 			return errAlreadyRecorded
@@ -379,6 +424,21 @@ func (r *Register) Record(ctx context.Context, p RecordParams) (*Recorded, error
 				return err
 			}
 		}
+		if p.CheckOnly {
+			if err := store.CheckRunInsert(ctx, tx, id); err != nil {
+				return err
+			}
+			out.CheckOnly = true
+		}
+		if cs := connectionsOf(res, ids, pub, held); len(cs) > 0 {
+			if _, err := store.CheckConnectionCopy(ctx, tx, store.CheckConnectionCopyParams{RunID: id, Connections: cs}); err != nil {
+				return err
+			}
+			if out.Connections, err = store.CheckConnectionListByRun(ctx, tx, id); err != nil {
+				return err
+			}
+			out.Suspect = res.SuspectMarks()
+		}
 		if out.Run, err = store.RunGet(ctx, tx, id); err != nil {
 			return err
 		}
@@ -405,6 +465,155 @@ func (r *Register) Record(ctx context.Context, p RecordParams) (*Recorded, error
 	}
 	out.Cautions = cautions(out.Marks)
 	return out, nil
+}
+
+// failedReason is the reason kept with a run whose checks failed ("" when
+// they passed).
+func failedReason(p RecordParams, res *reduce.Result) string {
+	if res.Passed() {
+		return ""
+	}
+	return strings.TrimSpace(p.Reason)
+}
+
+// PublishedHeights returns the current published heights of the marks
+// book names that are not in hold (designations), on the book's datum (or
+// that of held, the heights held from the register), for its check
+// connections. Nothing is written.
+func (r *Register) PublishedHeights(ctx context.Context, book *levelbook.Book, held []HeldHeight, hold []string) (map[string]PublishedHeight, error) {
+	var out map[string]PublishedHeight
+	err := r.withTx(ctx, readTx, func(tx pgx.Tx) error {
+		var names []string
+		seen := map[string]bool{}
+		for _, s := range book.Sightings {
+			if !s.TurningPoint && !s.Spot && !seen[s.Point] {
+				seen[s.Point] = true
+				names = append(names, s.Point)
+			}
+		}
+		known, err := store.MarkListByDesignations(ctx, tx, names)
+		if err != nil {
+			return err
+		}
+		byName := map[string]store.Mark{}
+		for _, m := range known {
+			byName[m.Designation] = m
+		}
+		skip := map[string]float64{}
+		for _, h := range hold {
+			skip[h] = 0
+		}
+		out, err = publishedHeights(ctx, tx, book, names, byName, held, skip)
+		return err
+	})
+	return out, err
+}
+
+// PublishedHeight is the published height of a mark a book names, not
+// held, for its check connections.
+type PublishedHeight struct {
+	Version store.Height
+	ValueM  float64
+}
+
+// publishedHeights finds the current published heights of the marks of
+// names that are not held, on the datum the book names (else the datum of
+// the heights held from the register; else none is looked for). A datum
+// the register lacks gives none: the held heights' lookup refuses it when
+// it matters.
+func publishedHeights(ctx context.Context, db store.DBTX, book *levelbook.Book, names []string, byName map[string]store.Mark,
+	held []HeldHeight, hold map[string]float64) (map[string]PublishedHeight, error) {
+	var datumID int64
+	if named := book.Meta.Datum; looseKey(named) != "" {
+		d, ok, err := datumNamed(ctx, db, named)
+		if err != nil {
+			return nil, err
+		}
+		if ok {
+			datumID = d.ID
+		}
+	} else if len(held) > 0 {
+		datumID = held[0].Version.DatumID
+	}
+	out := map[string]PublishedHeight{}
+	if datumID == 0 {
+		return out, nil
+	}
+	// A mark whose latest condition report puts it in doubt is no control
+	// to check into: it is in doubt already (DoubtCondition).
+	var ids []int64
+	for _, n := range names {
+		if _, isHeld := hold[n]; !isHeld {
+			if m, ok := byName[n]; ok && (m.Latest == nil || !conditionsInDoubt[m.Latest.Condition]) {
+				ids = append(ids, m.ID)
+			}
+		}
+	}
+	latest, err := store.HeightLatestMany(ctx, db, store.HeightLatestManyParams{MarkIDs: ids, DatumID: datumID})
+	if err != nil {
+		return nil, fmt.Errorf("look up the published heights of %s's marks: %w", book.Name, err)
+	}
+	for _, h := range latest {
+		if h.Value == nil {
+			continue
+		}
+		hm, err := heightMetres(h)
+		if err != nil {
+			return nil, err
+		}
+		out[h.Designation] = PublishedHeight{Version: h, ValueM: hm}
+	}
+	return out, nil
+}
+
+// otherRunSections are the sections of runs not voided levelled the other
+// way between the marks of res's sections.
+func otherRunSections(ctx context.Context, db store.DBTX, res *reduce.Result, byName map[string]store.Mark) ([]reduce.OtherSection, error) {
+	var p store.SectionListBetweenParams
+	for _, s := range res.Sections {
+		from, ok1 := byName[s.From]
+		to, ok2 := byName[s.To]
+		if ok1 && ok2 {
+			p.FromMarkIDs, p.ToMarkIDs = append(p.FromMarkIDs, to.ID), append(p.ToMarkIDs, from.ID)
+		}
+	}
+	if len(p.FromMarkIDs) == 0 {
+		return nil, nil
+	}
+	secs, err := store.SectionListBetween(ctx, db, p)
+	if err != nil {
+		return nil, fmt.Errorf("look up sections levelled the other way: %w", err)
+	}
+	out := make([]reduce.OtherSection, len(secs))
+	for i, s := range secs {
+		out[i] = reduce.OtherSection{RunID: s.RunID, Seq: s.Seq, From: s.From, To: s.To, DhM: s.DifferenceM, LengthM: s.LengthM, FirstLine: s.FirstLine, LastLine: s.LastLine}
+	}
+	return out, nil
+}
+
+// connectionsOf gives the rows of check_connection: res's connections
+// with the published versions compared.
+func connectionsOf(res *reduce.Result, ids map[string]int64, pub map[string]PublishedHeight, held []HeldHeight) []store.CheckConnection {
+	version := map[string]*int64{}
+	for name, h := range pub {
+		version[name] = &h.Version.ID
+	}
+	for _, h := range held {
+		version[h.Designation] = &h.Version.ID
+	}
+	out := make([]store.CheckConnection, len(res.Connections))
+	for i, c := range res.Connections {
+		sc := store.CheckConnection{Seq: i + 1, FromMarkID: ids[c.From], ToMarkID: ids[c.To], From: c.From, To: c.To,
+			FromHeightID: version[c.From], ToHeightID: version[c.To], ObservedM: c.ObservedM, KnownM: c.KnownM, AsClosure: c.AsClosure}
+		if c.HasLength {
+			sc.LengthM = &c.LengthM
+		}
+		if c.HasAllowable {
+			sc.AllowableM, sc.Pass = &c.AllowableM, &c.Pass
+		}
+		out[i] = sc
+	}
+	return out
 }
 
 // sameObservations finds the run, not voided, that holds the observations
@@ -670,6 +879,8 @@ type RunView struct {
 	Cautions []string
 	// Held are the marks the run was reduced from, by designation.
 	Held []store.RunHeld
+	// CheckOnly says the run is a check run: it adjusts nothing.
+	CheckOnly bool
 }
 
 // Run returns the run with identifier id, or an InputError if there is
@@ -690,6 +901,11 @@ func (r *Register) Run(ctx context.Context, id int64) (*RunView, error) {
 		if v.Marks, err = store.RunMarkListByRun(ctx, tx, id); err != nil {
 			return err
 		}
+		check, err := store.CheckRunIDs(ctx, tx, []int64{id})
+		if err != nil {
+			return err
+		}
+		v.CheckOnly = check[id]
 		v.Held, err = store.RunHeldListByRun(ctx, tx, id)
 		return err
 	})

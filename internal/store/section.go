@@ -80,3 +80,28 @@ func RunIDsTouchingMarks(ctx context.Context, db DBTX, markIDs []int64) ([]int64
 		return id, translate(r.Scan(&id))
 	})
 }
+
+// SectionListBetweenParams choose sections by their marks: the k-th pair
+// is (FromMarkIDs[k], ToMarkIDs[k]).
+type SectionListBetweenParams struct {
+	FromMarkIDs, ToMarkIDs []int64
+}
+
+// SectionListBetween returns the sections of runs not voided from and to
+// one of the pairs of marks, by run and seq.
+func SectionListBetween(ctx context.Context, db DBTX, p SectionListBetweenParams) ([]Section, error) {
+	rows, err := db.Query(ctx, `SELECT s.run_id, s.seq, s.from_mark_id, s.to_mark_id, f.designation, t.designation,
+		s.dh_m, s.length_m, s.setups, s.first_line, s.last_line
+		FROM section s JOIN mark f ON f.id = s.from_mark_id JOIN mark t ON t.id = s.to_mark_id
+		WHERE (s.from_mark_id, s.to_mark_id) IN (SELECT * FROM unnest($1::bigint[], $2::bigint[]))
+		AND NOT EXISTS (SELECT 1 FROM run_event e WHERE e.run_id = s.run_id AND e.kind = 'voided')
+		ORDER BY s.run_id, s.seq`, p.FromMarkIDs, p.ToMarkIDs)
+	if err != nil {
+		return nil, translate(err)
+	}
+	return collect(rows, func(r pgx.Row) (Section, error) {
+		var s Section
+		err := r.Scan(&s.RunID, &s.Seq, &s.FromMarkID, &s.ToMarkID, &s.From, &s.To, &s.DifferenceM, &s.LengthM, &s.Setups, &s.FirstLine, &s.LastLine)
+		return s, translate(err)
+	})
+}
