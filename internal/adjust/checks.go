@@ -1,8 +1,6 @@
 package adjust
 
 import (
-	"math"
-
 	"cairn/internal/standards"
 	"cairn/internal/units"
 )
@@ -155,9 +153,11 @@ func (d *Draft) doubleRuns(in DraftInput) {
 						k := (*fwd.LengthM + *back.LengthM) / 2
 						st.OneWayM = &k
 						if c := WorstClass([]DraftRun{in.Runs[i], in.Runs[j]}); c != "" && k > 0 {
-							a := standards.DoubleRunAllowableM(standards.For(c), k)
-							pass := math.Abs(st.ClosureM) <= a
-							st.Class, st.AllowableM, st.Pass = string(c), &a, &pass
+							if tol, ok := in.Runs[i].tolerancesOf(c); ok {
+								a := standards.DoubleRunAllowableM(tol, k)
+								pass := standards.Within(st.ClosureM, a)
+								st.Class, st.AllowableM, st.Pass = string(c), &a, &pass
+							}
 						}
 					}
 					d.Stats.DoubleRuns = append(d.Stats.DoubleRuns, st)
@@ -223,7 +223,7 @@ func (d *Draft) connections(in DraftInput) {
 		for k := 1; k < len(order); k++ {
 			stretch[[2]string{order[k-1], order[k]}] = true
 		}
-		tol, hasClass := TolerancesOf(run.Class)
+		tol, hasClass := run.tolerances()
 		for i := range stops {
 			for j := i + 1; j < len(stops); j++ {
 				a, b := stops[i], stops[j]
@@ -234,7 +234,7 @@ func (d *Draft) connections(in DraftInput) {
 					c.LengthM = &l
 					if hasClass && l > 0 {
 						al := standards.CheckConnectionAllowableM(tol, l)
-						pass := math.Abs(c.ObservedM-c.KnownM) <= al
+						pass := standards.Within(c.ObservedM-c.KnownM, al)
 						c.Class, c.AllowableM, c.Pass = string(tol.Class), &al, &pass
 					}
 				}

@@ -86,6 +86,17 @@ func (r DraftRun) tolerances() (standards.Tolerances, bool) {
 	return t, err == nil
 }
 
+// tolerancesOf returns the tolerances of class c in the run's profile (a
+// comparison of two runs judged by the worse class of the two), and false
+// if the profile does not cover it.
+func (r DraftRun) tolerancesOf(c standards.Class) (standards.Tolerances, bool) {
+	if r.Standards == nil {
+		return standards.For(c), true
+	}
+	t, err := r.Standards.For(c)
+	return t, err == nil
+}
+
 // DraftSection is one section of a run between two marks, in field order.
 type DraftSection struct {
 	// Seq numbers the sections of a run along it from 1.

@@ -9,14 +9,15 @@ import (
 	"cairn/internal/standards"
 )
 
-// loopBook writes a loop TC-1 → TC-2 → TC-1 of ten setups with every sight
+// loopBook writes a loop TC-1 → TC-2 → TC-3 → TC-1 of ten setups (three
+// sections, none levelled back: a loop, not a double run) with every sight
 // 50 m (a loop of 1.000 km, sights and imbalances within first-I's limits),
 // all readings 1.5000 m except the last foresight, 1.5000 − m, so the loop
 // misclosure (ΣBS − ΣFS against 0) is m exactly in decimals.
 func loopBook(class, misclosure string) string {
 	var b strings.Builder
 	fmt.Fprintf(&b, "# units: m\n# class: %s\npoint,sight,middle,distance\n", class)
-	pts := []string{"TC-1", "TP1", "TP2", "TP3", "TP4", "TC-2", "TP5", "TP6", "TP7", "TP8", "TC-1"}
+	pts := []string{"TC-1", "TP1", "TP2", "TP3", "TC-2", "TP4", "TP5", "TC-3", "TP6", "TP7", "TC-1"}
 	m, _ := new(big.Rat).SetString(misclosure)
 	last := new(big.Rat).Sub(big.NewRat(15, 10), m).FloatString(4)
 	for i := 0; i+1 < len(pts); i++ {

@@ -11,14 +11,17 @@ import (
 // A second-II loop of 200 m misclosing by −3.7 mm, between the 1984
 // table's 8 mm·√E (3.578 mm, from memory) and EN0593's 8.4 mm·√K
 // (3.757 mm, read, §4-3; derived: √0.2 = 0.447214): the profile decides.
+// A → B → C → A, so that no section is levelled back (a double run).
 const loop200 = `# units: m
 # class: second-II
 %s
 point,sight,middle,distance
-A,BS,1.5000,50
-B,FS,1.0000,50
-B,BS,1.2000,50
-A,FS,1.7037,50
+A,BS,1.5000,40
+B,FS,1.0000,40
+B,BS,1.2000,30
+C,FS,1.4000,30
+C,BS,1.3000,30
+A,FS,1.6037,30
 `
 
 func TestProfileJudgesMisclosure(t *testing.T) {

@@ -297,11 +297,7 @@ func (r *Register) Record(ctx context.Context, p RecordParams) (*Recorded, error
 	if !res.Passed() && !p.AcceptFailedChecks {
 		return nil, &ChecksFailedError{File: p.Path, Result: res}
 	}
-	run, err := runInsertParams(p, book, res, failedReason(p, res))
-	run.Standards = store.RunStandards{Profile: prof.Name, Version: prof.Version(), Source: prof.Source}
-	if !prof.Builtin {
-		run.Standards.File = prof.Data
-	}
+	run, err := runInsertParams(p, book, res, prof, failedReason(p, res))
 	if err != nil {
 		return nil, err
 	}
@@ -375,7 +371,7 @@ func (r *Register) Record(ctx context.Context, p RecordParams) (*Recorded, error
 		if !res.Passed() && !p.AcceptFailedChecks {
 			return &ChecksFailedError{File: p.Path, Result: res}
 		}
-		if run, err = runInsertParams(p, book, res, failedReason(p, res)); err != nil {
+		if run, err = runInsertParams(p, book, res, prof, failedReason(p, res)); err != nil {
 			return err
 		}
 		run.ObservationsSeq = seq
@@ -713,7 +709,7 @@ func isRefusal(err error) bool {
 }
 
 // runInsertParams gathers the run's row from the book and its reduction.
-func runInsertParams(p RecordParams, book *levelbook.Book, res *reduce.Result, reason string) (store.RunInsertParams, error) {
+func runInsertParams(p RecordParams, book *levelbook.Book, res *reduce.Result, prof *standards.Profile, reason string) (store.RunInsertParams, error) {
 	m := book.Meta
 	meta, err := json.Marshal(m)
 	if err != nil {
@@ -734,7 +730,13 @@ func runInsertParams(p RecordParams, book *levelbook.Book, res *reduce.Result, r
 	}
 	sum := sha256.Sum256(p.Book)
 	obs := book.ObservationsSHA256()
-	return store.RunInsertParams{ObservationsSHA256: obs[:],
+	// The profile that judged the run: a built-in by name and edition, an
+	// office's file by its SHA-256 and its bytes.
+	kept := store.RunStandards{Profile: prof.Name, Version: prof.Version(), Source: prof.Source}
+	if !prof.Builtin {
+		kept.File = prof.Data
+	}
+	return store.RunInsertParams{ObservationsSHA256: obs[:], Standards: kept,
 		Name: m.Run, ObservedOn: observed, Crew: m.Crew, Instrument: m.Instrument, Rod: m.Rod, Datum: m.Datum,
 		Class: string(res.Class), Unit: string(m.Unit), Meta: meta,
 		FileName: filepath.Base(p.Path), Book: p.Book, BookSHA256: sum[:],
