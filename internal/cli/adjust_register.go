@@ -64,6 +64,12 @@ adjusted height and the height to be published (rounded to the precision the
 runs' accuracy class supports in the unit, unless --unit and --decimals say
 otherwise), and each stretch's misclosure against the class's allowable. A
 misclosure over the allowable gives exit status 3; the draft is still kept.
+Each run is judged by the standards profile that judged it when it was
+recorded (run show and trace name it, with its source and which of its
+values were read in that source and which are from memory: cairn standards
+show NAME); a run recorded before profiles were kept is judged by today's
+fgcc-1984. Sections levelled back in another run of the adjustment are
+compared as double-run sections, and held marks as check connections.
 
 --method least-squares adjusts the sections of all the runs together as
 one network by weighted least squares: a mark reached by several runs is

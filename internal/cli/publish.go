@@ -80,7 +80,10 @@ heights.
 
 It then refuses (exit status 2, nothing written) a draft whose checks
 failed, listing each:
-  - a stretch whose misclosure exceeds the allowable of its class;
+  - a stretch whose misclosure exceeds the allowable of its class, in the
+    standards profile that judged its run (cairn standards show NAME gives
+    the profile's source, and which values were read there and which are
+    from memory);
   - a failed chi-square test of the variance factor (least squares);
   - each section, or mark held weighted, flagged by data snooping;
   - a held mark whose latest condition report, read now, says disturbed,
