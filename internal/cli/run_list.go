@@ -29,8 +29,10 @@ func newCmdRunList(f *Factory, runF func(*runListOptions) error) *cobra.Command 
 		Short: "List recorded runs",
 		Long: `List the recorded runs, oldest first: by the date in their book (or the day
 they were recorded, for a book without one). --mark keeps the runs that
-touched a mark; --since keeps those observed on or after a date. A voided
-run is listed with its void (when, by whom, why) in the last column.`,
+touched a mark; --since keeps those observed on or after a date. A check
+run (recorded with --check-only) says so beside its checks; it adjusts
+nothing. A voided run is listed with its void (when, by whom, why) in the
+last column.`,
 		Example: `  cairn run list
   cairn run list --mark TC-0412 --since 2024-01-01
   cairn run list -o csv`,
@@ -73,6 +75,9 @@ func runListRun(opts *runListOptions) error {
 			checks := "passed"
 			if j.ChecksFailed > 0 {
 				checks = fmt.Sprintf("%d failed, accepted", j.ChecksFailed)
+			}
+			if j.CheckOnly {
+				checks += "; a check run, adjusts nothing"
 			}
 			voided := "no"
 			if j.Voided != nil {

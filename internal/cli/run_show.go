@@ -48,6 +48,8 @@ type runJSON struct {
 	ObservationsSHA256 string `json:"observations_sha256"`
 	// Standards is the profile that judged the run.
 	Standards runStandardsJSON `json:"standards"`
+	// CheckOnly says the run is a check run: it adjusts nothing.
+	CheckOnly bool `json:"check_only"`
 	// Voided is the run's void, null while it stands.
 	Voided *voidJSON `json:"voided"`
 }
@@ -58,7 +60,7 @@ func toRunJSON(r store.Run) runJSON {
 		BookBytes: r.BookSize, RecordedBy: r.RecordedBy, RecordedAt: r.RecordedAt, ChecksFailed: r.ChecksFailed,
 		AcceptedReason: r.AcceptedReason, SightingCount: r.Sightings, SectionCount: r.Sections, LengthM: r.LengthM,
 		ObservationsSHA256: hex.EncodeToString(r.ObservationsSHA256), Standards: toRunStandardsJSON(r.Standards, r.Class),
-		Voided: toVoidJSON(r.Voided)}
+		CheckOnly: r.CheckOnly, Voided: toVoidJSON(r.Voided)}
 	if r.ObservedOn != nil {
 		j.ObservedOn = r.ObservedOn.Format("2006-01-02")
 	}
@@ -161,13 +163,12 @@ func runShowRun(opts *runShowOptions) error {
 	if opts.Format == FormatJSON {
 		j := struct {
 			runJSON
-			Sections  []sectionJSON   `json:"sections"`
-			Marks     []runMarkJSON   `json:"marks"`
-			Held      []runHeldJSON   `json:"held"`
-			Checks    json.RawMessage `json:"checks"`
-			Cautions  []string        `json:"cautions"`
-			CheckOnly bool            `json:"check_only"`
-		}{CheckOnly: v.CheckOnly, runJSON: toRunJSON(v.Run), Sections: []sectionJSON{}, Marks: []runMarkJSON{}, Held: toHeldJSON(v.Run.Unit, v.Held),
+			Sections []sectionJSON   `json:"sections"`
+			Marks    []runMarkJSON   `json:"marks"`
+			Held     []runHeldJSON   `json:"held"`
+			Checks   json.RawMessage `json:"checks"`
+			Cautions []string        `json:"cautions"`
+		}{runJSON: toRunJSON(v.Run), Sections: []sectionJSON{}, Marks: []runMarkJSON{}, Held: toHeldJSON(v.Run.Unit, v.Held),
 			Checks: v.Run.Checks, Cautions: nonNil(v.Cautions)}
 		for _, s := range v.Sections {
 			j.Sections = append(j.Sections, sectionJSON{s.Seq, s.From, s.To, s.FirstLine, s.LastLine, s.Setups, s.DifferenceM, s.LengthM})

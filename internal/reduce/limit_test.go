@@ -2,6 +2,7 @@ package reduce
 
 import (
 	"fmt"
+	"math"
 	"math/big"
 	"strings"
 	"testing"
@@ -92,9 +93,10 @@ func TestLoopMisclosureAtTheLimit(t *testing.T) {
 // sight of 50.0 m, an imbalance of 2.0 m and an accumulated 4.0 m pass;
 // 50.1, 2.1 and 4.1 m fail, on the line named.
 func TestClassLimitsAtTheLimit(t *testing.T) {
-	book := func(rows ...string) string {
-		return "# units: m\n# class: first-I\npoint,sight,middle,distance\n" + strings.Join(rows, "\n") + "\n"
+	bookIn := func(class string, rows ...string) string {
+		return "# units: m\n# class: " + class + "\npoint,sight,middle,distance\n" + strings.Join(rows, "\n") + "\n"
 	}
+	book := func(rows ...string) string { return bookIn("first-I", rows...) }
 	cases := []struct {
 		name string
 		book string
@@ -103,6 +105,9 @@ func TestClassLimitsAtTheLimit(t *testing.T) {
 	}{
 		{"sight at 50 m", book("TC-1,BS,1.5,50.0", "TC-2,FS,1.5,50.0", "TC-2,BS,1.5,50.0", "TC-1,FS,1.5,50.0"), "", 0},
 		{"sight of 50.1 m", book("TC-1,BS,1.5,50.0", "TC-2,FS,1.5,50.0", "TC-2,BS,1.5,50.1", "TC-1,FS,1.5,50.0"), CheckSightLength, 6},
+		// Second-II: sights at most 70 m (the same table's column).
+		{"second-II sight at 70 m", bookIn("second-II", "TC-1,BS,1.5,70.0", "TC-2,FS,1.5,70.0", "TC-2,BS,1.5,70.0", "TC-1,FS,1.5,70.0"), "", 0},
+		{"second-II sight of 70.1 m", bookIn("second-II", "TC-1,BS,1.5,70.0", "TC-2,FS,1.5,70.0", "TC-2,BS,1.5,70.1", "TC-1,FS,1.5,70.0"), CheckSightLength, 6},
 		{"setup imbalance of 2.0 m", book("TC-1,BS,1.5,40.0", "TP1,FS,1.5,38.0", "TP1,BS,1.5,38.0", "TC-2,FS,1.5,38.0", "TC-2,BS,1.5,40.0", "TC-1,FS,1.5,40.0"), "", 0},
 		{"setup imbalance of 2.1 m", book("TC-1,BS,1.5,40.1", "TP1,FS,1.5,38.0", "TP1,BS,1.5,38.0", "TC-2,FS,1.5,38.0", "TC-2,BS,1.5,40.0", "TC-1,FS,1.5,40.0"), CheckSetupImbalance, 5},
 		{"section imbalance of 4.0 m", book("TC-1,BS,1.5,40.0", "TP1,FS,1.5,38.0", "TP1,BS,1.5,40.0", "TC-2,FS,1.5,38.0", "TC-2,BS,1.5,40.0", "TC-1,FS,1.5,40.0"), "", 0},
@@ -120,6 +125,77 @@ func TestClassLimitsAtTheLimit(t *testing.T) {
 		}
 		if fmt.Sprint(got) != want && !(want == "[]" && len(got) == 0) {
 			t.Errorf("%s: failures %v, want %s", c.name, got, want)
+		}
+	}
+}
+
+// lineBook writes a first-I book along pts, one setup between each two
+// consecutive points with sights of 50 m, every reading 1.5000 m but the
+// foresight of setup i, 1.5000 − rise[i] m (rises in decimals, as written).
+func lineBook(pts []string, rise map[int]string) string {
+	var b strings.Builder
+	b.WriteString("# units: m\n# class: first-I\npoint,sight,middle,distance\n")
+	for i := 0; i+1 < len(pts); i++ {
+		fs := "1.5000"
+		if r, ok := rise[i]; ok {
+			d, _ := new(big.Rat).SetString(r)
+			fs = new(big.Rat).Sub(big.NewRat(15, 10), d).FloatString(4)
+		}
+		fmt.Fprintf(&b, "%s,BS,1.5000,50\n%s,FS,%s,50\n", pts[i], pts[i+1], fs)
+	}
+	return b.String()
+}
+
+// way returns from, nine turning points named after n, and to: ten setups
+// of 100 m, a section of 1.000 km.
+func way(from, n, to string) []string {
+	pts := []string{from}
+	for i := 1; i <= 9; i++ {
+		pts = append(pts, fmt.Sprintf("TP%s%d", n, i))
+	}
+	return append(pts, to)
+}
+
+// TestDoubleRunAndConnectionAtTheLimit tells the first-I columns apart, at
+// their limits, in the two comparisons of one observed difference with
+// another (FGCC 1984 §3.5, from memory: docs/references.md#accuracy-classes):
+//   - a section of 1.000 km levelled forward and back closes within the
+//     section column, 3 mm·√K (K = 1 km: 3.0 mm passes, 3.1 mm fails),
+//     not the loop column's 4 mm;
+//   - a check connection between two published marks 1.000 km apart is
+//     judged by the profile's check-connection constant, the loop column
+//     (cairn's choice, docs/methods.md): 4.0 mm passes, 3.5 mm passes (it
+//     would fail by the section column), 4.1 mm fails.
+func TestDoubleRunAndConnectionAtTheLimit(t *testing.T) {
+	for closure, pass := range map[string]bool{"0.0030": true, "-0.0030": true, "0.0031": false, "-0.0031": false} {
+		pts := append(way("TC-1", "A", "TC-2"), way("TC-2", "B", "TC-1")[1:]...)
+		// Forward +0.5 m; back −0.5 m + closure.
+		back, _ := new(big.Rat).SetString(closure)
+		back.Sub(back, big.NewRat(1, 2))
+		r := reduce(t, parse(t, lineBook(pts, map[int]string{0: "0.5", 10: back.FloatString(4)})), Options{})
+		if len(r.DoubleRuns) != 1 {
+			t.Fatalf("closure %s: double runs %+v, want one", closure, r.DoubleRuns)
+		}
+		d := r.DoubleRuns[0]
+		if d.OneWayM != 1000 || math.Abs(d.AllowableM-0.003) > 1e-15 || d.Pass != pass {
+			t.Errorf("closure %s: %+v; want one way 1000 m, allowable 0.003 m, pass %v", closure, d, pass)
+		}
+		for _, f := range r.Failures {
+			if f.Kind != CheckDoubleRun {
+				t.Errorf("closure %s: unexpected failure %+v", closure, f)
+			}
+		}
+	}
+	for diff, pass := range map[string]bool{"0.0040": true, "0.0035": true, "-0.0040": true, "0.0041": false, "-0.0041": false} {
+		d, _ := new(big.Rat).SetString(diff)
+		rise := new(big.Rat).Add(big.NewRat(1, 2), d).FloatString(4)
+		r := reduce(t, parse(t, lineBook(way("TC-1", "A", "TC-2"), map[int]string{0: rise})), Options{Published: map[string]float64{"TC-1": 10, "TC-2": 10.5}})
+		if len(r.Connections) != 1 {
+			t.Fatalf("difference %s: connections %+v, want one", diff, r.Connections)
+		}
+		c := r.Connections[0]
+		if c.LengthM != 1000 || math.Abs(c.AllowableM-0.004) > 1e-15 || c.Pass != pass {
+			t.Errorf("difference %s: %+v; want 1000 m, allowable 0.004 m, pass %v", diff, c, pass)
 		}
 	}
 }

@@ -55,11 +55,13 @@ func (r *Register) gather(ctx context.Context, tx pgx.Tx, p AdjustParams) (*gath
 	if err != nil {
 		return nil, err
 	}
+	var checksLeftOut []int64
 	for _, id := range runIDs {
 		if checkRuns[id] {
 			if named[id] {
 				return nil, inputErr("run", "run %d is a check run (recorded with --check-only): it adjusts nothing", id)
 			}
+			checksLeftOut = append(checksLeftOut, id)
 			continue
 		}
 		run, err := r.run(ctx, tx, id)
@@ -84,7 +86,14 @@ func (r *Register) gather(ctx context.Context, tx pgx.Tx, p AdjustParams) (*gath
 		for i, run := range g.leftOut {
 			ids[i] = run.ID
 		}
-		return nil, inputErr(field, "every run chosen is voided (runs %s): nothing is left to adjust", joinIDs(ids))
+		var why []string
+		if len(ids) > 0 {
+			why = append(why, "voided (runs "+joinIDs(ids)+")")
+		}
+		if len(checksLeftOut) > 0 {
+			why = append(why, "check runs, which adjust nothing (runs "+joinIDs(checksLeftOut)+")")
+		}
+		return nil, inputErr(field, "every run chosen is %s: nothing is left to adjust", strings.Join(why, " or "))
 	}
 	held := map[string]bool{}
 	for _, h := range p.Hold {

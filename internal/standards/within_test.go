@@ -37,4 +37,12 @@ func TestWithinAtTheLimit(t *testing.T) {
 			t.Errorf("Within(%.17g, %.17g) = %v, want %v", c.value, c.limit, got, c.want)
 		}
 	}
+	// The rule's edge, in float64 as the checks compute it: |value| ≤
+	// limit + SlackM passes, and the next float above fails.
+	l := lim
+	edge := l + SlackM
+	if !Within(edge, l) || !Within(-edge, l) || Within(math.Nextafter(edge, 1), l) {
+		t.Errorf("at limit + SlackM (%.17g): %v, %v; the next float: %v; want true, true, false",
+			edge, Within(edge, l), Within(-edge, l), Within(math.Nextafter(edge, 1), l))
+	}
 }

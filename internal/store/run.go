@@ -79,6 +79,9 @@ type Run struct {
 	// file's bytes for a file profile; all empty for a run recorded
 	// before schema v15 (not recorded).
 	Standards RunStandards
+	// CheckOnly says the run is a check run (check_run, migrations/00016):
+	// it adjusts nothing.
+	CheckOnly bool
 	// Voided is the run's void, nil while it stands.
 	Voided *RunVoid
 }
@@ -100,6 +103,7 @@ const runColumns = `r.id, r.name, r.observed_on, r.crew, r.instrument, r.rod, r.
 	(SELECT coalesce(sum(s.length_m), 0) FROM section s WHERE s.run_id = r.id),
 	r.observations_sha256,
 	coalesce(r.standards_profile, ''), coalesce(r.standards_version, ''), coalesce(r.standards_source, ''), r.standards_file,
+	EXISTS (SELECT 1 FROM check_run c WHERE c.run_id = r.id),
 	(SELECT e.id FROM run_event e WHERE e.run_id = r.id AND e.kind = 'voided'),
 	(SELECT e.reason FROM run_event e WHERE e.run_id = r.id AND e.kind = 'voided'),
 	(SELECT e.recorded_by FROM run_event e WHERE e.run_id = r.id AND e.kind = 'voided'),
@@ -114,7 +118,7 @@ func scanRun(row pgx.Row) (Run, error) {
 		&r.FileName, &r.BookSHA256, &r.BookSize, &r.RecordedBy, &r.RecordedAt, &r.ChecksFailed, &r.Checks,
 		&r.AcceptedReason, &r.Sightings, &r.Sections, &r.LengthM, &r.ObservationsSHA256,
 		&r.Standards.Profile, &r.Standards.Version, &r.Standards.Source, &r.Standards.File,
-		&voidID, &voidReason, &voidBy, &voidAt)
+		&r.CheckOnly, &voidID, &voidReason, &voidBy, &voidAt)
 	if err == nil && voidID != nil {
 		r.Voided = &RunVoid{ID: *voidID, RunID: r.ID, Reason: *voidReason, RecordedBy: *voidBy, RecordedAt: *voidAt}
 	}
