@@ -18,7 +18,7 @@ type EvidenceTable struct {
 
 // EvidenceTables are the tables of the evidence in their fixed order
 // (docs/reliability.md, "The evidence"). The same list is in the
-// database's cairn_evidence_tables (migrations/00013); it is written again
+// database's cairn_evidence_tables (migrations/00013, 00018); it is written again
 // here so that the audit does not take it from the database.
 var EvidenceTables = []EvidenceTable{
 	{"datum", "id"},
@@ -37,6 +37,9 @@ var EvidenceTables = []EvidenceTable{
 	{"adjustment_section", "adjustment_id, run_id, seq"},
 	{"adjustment_event", "id"},
 	{"height", "id"},
+	{"mark_version", "id"},
+	{"mark_alias", "id"},
+	{"mark_retirement", "id"},
 }
 
 // EvidenceSession fixes, for the rest of transaction tx, the settings the
