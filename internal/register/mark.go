@@ -11,6 +11,7 @@ import (
 
 	"github.com/jackc/pgx/v5"
 
+	"cairn/internal/names"
 	"cairn/internal/store"
 )
 
@@ -50,58 +51,90 @@ type MarkAddParams struct {
 	Type        string // e.g. "bronze disk", "brass rod"
 	Setting     string // e.g. "concrete post", "bridge abutment"
 	Stamping    string // what is stamped on it
-	ToReach     string // how to find it, in words
+	Directions  string // how to find it, in words
 	Lat, Lon    *float64
 	CreatedBy   string
 }
 
 // MarkAdd adds a mark to the register.
 func (r *Register) MarkAdd(ctx context.Context, p MarkAddParams) (store.Mark, error) {
-	if err := nameProblem("designation", "designation", p.Designation); err != nil {
+	if err := p.check(); err != nil {
 		return store.Mark{}, err
-	}
-	if (p.Lat == nil) != (p.Lon == nil) {
-		return store.Mark{}, inputErr("lat", "give both a latitude and a longitude, or neither")
-	}
-	if p.Lat != nil {
-		if math.IsNaN(*p.Lat) || *p.Lat < -90 || *p.Lat > 90 {
-			return store.Mark{}, inputErr("lat", "latitude %v is outside -90 to 90 degrees", *p.Lat)
-		}
-		if math.IsNaN(*p.Lon) || *p.Lon < -180 || *p.Lon > 180 {
-			return store.Mark{}, inputErr("lon", "longitude %v is outside -180 to 180 degrees", *p.Lon)
-		}
-	}
-	if strings.TrimSpace(p.CreatedBy) == "" {
-		return store.Mark{}, inputErr("by", "say who is adding the mark")
 	}
 	var m store.Mark
 	err := r.withTx(ctx, pgx.TxOptions{}, func(tx pgx.Tx) error {
-		// The same name written another way is refused naming the mark
-		// that has it; the unique index on the folded form settles a race.
-		existing, err := markFolded(ctx, tx, p.Designation)
-		if err != nil {
-			return err
-		}
-		if err := sameNameProblem("designation", "mark", p.Designation, existing); err != nil {
-			return err
-		}
-		if !designationPattern.MatchString(p.Designation) {
-			return inputErr("designation", "%q is not a designation: use at most 64 letters, digits and . _ / -, starting with a letter or digit", p.Designation)
-		}
-		_, err = store.MarkInsert(ctx, tx, store.MarkInsertParams{
-			Designation: p.Designation, Type: p.Type, Setting: p.Setting, Stamping: p.Stamping,
-			ToReach: p.ToReach, Lat: p.Lat, Lon: p.Lon, CreatedBy: p.CreatedBy,
-		})
-		if errors.Is(err, store.ErrAlreadyExists) {
-			return inputErr("designation", "mark %s is already in the register", p.Designation)
-		}
-		if err != nil {
-			return err
-		}
-		m, err = store.MarkGet(ctx, tx, store.MarkGetParams{Designation: p.Designation})
+		var err error
+		m, err = addMark(ctx, tx, p)
 		return err
 	})
 	return m, err
+}
+
+// check refuses, before the database is asked, a new mark's fields that
+// can never be right.
+func (p MarkAddParams) check() error {
+	if err := nameProblem("designation", "designation", p.Designation); err != nil {
+		return err
+	}
+	if err := positionProblem(p.Lat, p.Lon); err != nil {
+		return err
+	}
+	if strings.TrimSpace(p.CreatedBy) == "" {
+		return inputErr("by", "say who is adding the mark")
+	}
+	return nil
+}
+
+// positionProblem refuses half a position or one off the globe.
+func positionProblem(lat, lon *float64) error {
+	if (lat == nil) != (lon == nil) {
+		return inputErr("lat", "give both a latitude and a longitude, or neither")
+	}
+	if lat != nil {
+		if math.IsNaN(*lat) || *lat < -90 || *lat > 90 {
+			return inputErr("lat", "latitude %v is outside -90 to 90 degrees", *lat)
+		}
+		if math.IsNaN(*lon) || *lon < -180 || *lon > 180 {
+			return inputErr("lon", "longitude %v is outside -180 to 180 degrees", *lon)
+		}
+	}
+	return nil
+}
+
+// addMark adds the mark p (checked) in tx and returns it.
+func addMark(ctx context.Context, tx pgx.Tx, p MarkAddParams) (store.Mark, error) {
+	// The same name written another way is refused naming the mark
+	// that has it; the unique index on the folded form settles a race.
+	existing, err := markFolded(ctx, tx, p.Designation)
+	if err != nil {
+		return store.Mark{}, err
+	}
+	if err := sameNameProblem("designation", "mark", p.Designation, existing); err != nil {
+		return store.Mark{}, err
+	}
+	if !designationPattern.MatchString(p.Designation) {
+		return store.Mark{}, inputErr("designation", "%q is not a designation: use at most 64 letters, digits and . _ / -, starting with a letter or digit", p.Designation)
+	}
+	// Nor may it be another mark's alias; the database's trigger
+	// (mark_name_free) settles a race.
+	if holder, alias, err := store.AliasHolder(ctx, tx, names.Fold(p.Designation)); err == nil {
+		return store.Mark{}, inputErr("designation", "%s is an alias of mark %s (%s): a designation is never another mark's alias", p.Designation, holder, alias)
+	} else if !errors.Is(err, store.ErrNotFound) {
+		return store.Mark{}, err
+	}
+	_, err = store.MarkInsert(ctx, tx, store.MarkInsertParams{
+		Designation: p.Designation, Type: p.Type, Setting: p.Setting, Stamping: p.Stamping,
+		Directions: p.Directions, Lat: p.Lat, Lon: p.Lon, CreatedBy: p.CreatedBy,
+	})
+	switch {
+	case errors.Is(err, store.ErrAlreadyExists):
+		return store.Mark{}, inputErr("designation", "mark %s is already in the register", p.Designation)
+	case errors.Is(err, store.ErrNameTaken):
+		return store.Mark{}, inputErr("designation", "%v", err)
+	case err != nil:
+		return store.Mark{}, err
+	}
+	return store.MarkGet(ctx, tx, store.MarkGetParams{Designation: p.Designation})
 }
 
 // MarkView is a mark with its condition reports (latest first) and the
@@ -115,6 +148,13 @@ type MarkView struct {
 	// Doubts are the mark's doubts and those of the heights shown
 	// (doubtsOf).
 	Doubts Doubts
+	// Versions are the versions of the mark's description, oldest first
+	// (the first is the mark as added).
+	Versions []store.MarkVersion
+	// Aliases are the mark's other names, in the order given.
+	Aliases []store.Alias
+	// Reset is the mark's reset report recorded last, nil if none.
+	Reset *store.Condition
 }
 
 // MarkShow returns a mark, its condition history and its current heights.
@@ -134,6 +174,19 @@ func (r *Register) MarkShow(ctx context.Context, designation string) (MarkView, 
 		if v.Runs, err = store.RunList(ctx, tx, store.RunListParams{MarkID: &v.Mark.ID}); err != nil {
 			return err
 		}
+		if v.Versions, err = store.MarkVersionList(ctx, tx, v.Mark.ID); err != nil {
+			return err
+		}
+		if v.Aliases, err = store.AliasListByMark(ctx, tx, v.Mark.ID); err != nil {
+			return err
+		}
+		resets, err := store.ConditionLatestResetMany(ctx, tx, []int64{v.Mark.ID})
+		if err != nil {
+			return err
+		}
+		if c, ok := resets[v.Mark.ID]; ok {
+			v.Reset = &c
+		}
 		ds, err := doubtsOf(ctx, tx, []store.Mark{v.Mark}, v.Heights)
 		v.Doubts = ds[v.Mark.ID]
 		return err
@@ -148,6 +201,9 @@ type MarkListParams struct {
 	// Conditions keeps marks whose latest report is one of these, in any
 	// case (ShownConditions: "unknown" for no report yet).
 	Conditions []string
+	// Name keeps the mark whose designation or one of whose aliases is
+	// this name, in any case and character form (names.Fold).
+	Name string
 }
 
 // ListedMark is a mark in a listing, with its doubts and those of its
@@ -180,7 +236,8 @@ func (r *Register) MarkList(ctx context.Context, p MarkListParams) ([]ListedMark
 	}
 	var out []ListedMark
 	err := r.withTx(ctx, readTx, func(tx pgx.Tx) error {
-		ms, err := store.MarkList(ctx, tx, store.MarkListParams{Near: p.Near, RadiusM: p.RadiusM, Conditions: conds})
+		ms, err := store.MarkList(ctx, tx, store.MarkListParams{Near: p.Near, RadiusM: p.RadiusM, Conditions: conds,
+			Name: names.Fold(strings.TrimSpace(p.Name))})
 		if err != nil {
 			return err
 		}

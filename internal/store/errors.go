@@ -61,7 +61,7 @@ var roleToWrite = map[string]string{
 	"section": RoleRecorder, "run_mark": RoleRecorder, "adjustment": RoleRecorder, "adjustment_run": RoleRecorder,
 	"adjustment_held": RoleRecorder, "adjustment_result": RoleRecorder, "mark_version": RoleRecorder, "mark_alias": RoleRecorder,
 	"mark_retirement": RolePublisher,
-	"height": RolePublisher, "adjustment_event": RolePublisher, "datum": RolePublisher, "run_event": RolePublisher,
+	"height":          RolePublisher, "adjustment_event": RolePublisher, "datum": RolePublisher, "run_event": RolePublisher,
 }
 
 // deniedTable finds the table of "permission denied for table height".
