@@ -16,8 +16,8 @@
 --    unique by its folded form, lower(normalize(alias, NFKC)), as a
 --    designation is (00009), and never the folded form of any mark's
 --    designation: the triggers on mark and mark_alias refuse either
---    (SQLSTATE CA018), taking turns on the folded name with an advisory
---    lock so that two writers cannot each add one half.
+--    (SQLSTATE CA018), writers of aliases taking turns with writers of
+--    marks on an advisory lock so that two cannot each add one half.
 -- 3. Retired marks. mark_retirement retires a mark for good, once, with
 --    its date and reason, and names the mark that replaced it, if any (a
 --    new mark with a new designation; a mark replaces at most one, and a
@@ -104,10 +104,13 @@ $$;
 -- +goose StatementBegin
 -- mark_name_free refuses a designation (on mark) or an alias (on
 -- mark_alias) whose folded form is that of an alias or a designation of
--- any mark. Writers of one folded name take turns (a transaction-level
--- advisory lock on the name's hash), and each reads the other's rows once
--- it has the lock (READ COMMITTED: each statement of this function sees
--- what has been committed before it ran).
+-- any mark. A writer of aliases and a writer of marks take turns: the
+-- register's names lock (classid 0x6361 'ca', objid 18, transaction-level)
+-- is taken shared by a transaction adding marks, so that a recording of
+-- thousands of new marks holds one lock and such writers run together, and
+-- exclusive by one adding an alias. Each reads the other's rows once it has
+-- the lock (READ COMMITTED: each statement of this function sees what was
+-- committed before it ran).
 CREATE FUNCTION mark_name_free() RETURNS trigger LANGUAGE plpgsql
 SET search_path = pg_catalog, public, pg_temp AS $$
 DECLARE
@@ -121,7 +124,11 @@ BEGIN
         name := NEW.alias;
     END IF;
     folded := lower(normalize(name, NFKC));
-    PERFORM pg_advisory_xact_lock(hashtextextended('cairn mark name ' || folded, 18));
+    IF TG_TABLE_NAME = 'mark' THEN
+        PERFORM pg_advisory_xact_lock_shared(25441, 18);
+    ELSE
+        PERFORM pg_advisory_xact_lock(25441, 18);
+    END IF;
     IF TG_TABLE_NAME = 'mark' THEN
         SELECT m.designation || ' (its ' || a.kind || CASE WHEN a.kind = 'agency' THEN ' number, ' || a.agency ELSE '' END || ' alias ' || a.alias || ')'
           INTO other
@@ -213,7 +220,8 @@ CREATE TRIGGER mark_retirement_check BEFORE INSERT ON mark_retirement
     FOR EACH ROW EXECUTE FUNCTION mark_retirement_check();
 CREATE TRIGGER mark_retirement_not_after_today BEFORE INSERT ON mark_retirement
     FOR EACH ROW EXECUTE FUNCTION mark_retirement_not_after_today();
-CREATE TRIGGER mark_fields_fixed BEFORE UPDATE OR DELETE ON mark
+-- Named to fire after mark_key (00001), which says a designation never changes.
+CREATE TRIGGER mark_unchanged BEFORE UPDATE OR DELETE ON mark
     FOR EACH ROW EXECUTE FUNCTION mark_refuse_edit();
 CREATE TRIGGER mark_no_truncate BEFORE TRUNCATE ON mark
     FOR EACH STATEMENT EXECUTE FUNCTION mark_refuse_edit();
@@ -512,7 +520,7 @@ SET search_path = pg_catalog, public, pg_temp AS $$
 $$;
 -- +goose StatementEnd
 DROP TRIGGER mark_no_truncate ON mark;
-DROP TRIGGER mark_fields_fixed ON mark;
+DROP TRIGGER mark_unchanged ON mark;
 DROP TRIGGER mark_name_free ON mark;
 DROP TABLE mark_retirement;
 DROP TABLE mark_alias;

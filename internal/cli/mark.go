@@ -466,7 +466,7 @@ func markListRun(opts *markListOptions) error {
 	}
 	defer warnListed(opts.f.IO, opts.format, inDoubt, len(out), "marks")
 	return render(opts.f.IO, opts.format, out, func() Table {
-		t := Table{Headers: []string{"DESIGNATION", "TYPE", "CONDITION", "LAT (deg)", "LON (deg)", "DOUBT", "ALIASES"}}
+		t := Table{Headers: []string{"DESIGNATION", "TYPE", "CONDITION", "LAT (deg)", "LON (deg)", "ALIASES", "DOUBT"}}
 		if p.Near != nil {
 			t.Headers = append(t.Headers, "DISTANCE (km)")
 		}
@@ -476,7 +476,7 @@ func markListRun(opts *markListOptions) error {
 			if out[i].Warning != "" {
 				cond = "!! " + strings.ToUpper(cond)
 			}
-			row := []string{m.Designation, m.Type, cond, lat, lon, doubtCell(opts.f.IO, m.Doubts), strings.Join(m.Aliases, "; ")}
+			row := []string{m.Designation, m.Type, cond, lat, lon, strings.Join(m.Aliases, "; "), doubtCell(opts.f.IO, m.Doubts)}
 			if p.Near != nil {
 				row = append(row, strconv.FormatFloat(*out[i].DistanceKm, 'f', 3, 64))
 			}
