@@ -200,6 +200,10 @@ BEGIN
     IF TG_OP = 'UPDATE' AND NEW IS NOT DISTINCT FROM OLD THEN
         RETURN NEW;
     END IF;
+    IF TG_OP = 'UPDATE' AND NEW.designation IS DISTINCT FROM OLD.designation THEN
+        RAISE EXCEPTION 'a mark''s designation never changes (% stays %)', OLD.designation, OLD.designation
+            USING ERRCODE = 'CA001';
+    END IF;
     IF TG_OP = 'UPDATE' THEN
         RAISE EXCEPTION 'mark % is never changed in place: a new description is a new version with a reason (cairn mark edit)', OLD.designation
             USING ERRCODE = 'CA001';
@@ -220,8 +224,9 @@ CREATE TRIGGER mark_retirement_check BEFORE INSERT ON mark_retirement
     FOR EACH ROW EXECUTE FUNCTION mark_retirement_check();
 CREATE TRIGGER mark_retirement_not_after_today BEFORE INSERT ON mark_retirement
     FOR EACH ROW EXECUTE FUNCTION mark_retirement_not_after_today();
--- Named to fire after mark_key (00001), which says a designation never changes.
-CREATE TRIGGER mark_unchanged BEFORE UPDATE OR DELETE ON mark
+-- Named to fire before mark_key (00001), whose function reads NEW.code
+-- of a datum when a mark's designation is unchanged.
+CREATE TRIGGER mark_fixed BEFORE UPDATE OR DELETE ON mark
     FOR EACH ROW EXECUTE FUNCTION mark_refuse_edit();
 CREATE TRIGGER mark_no_truncate BEFORE TRUNCATE ON mark
     FOR EACH STATEMENT EXECUTE FUNCTION mark_refuse_edit();
@@ -520,7 +525,7 @@ SET search_path = pg_catalog, public, pg_temp AS $$
 $$;
 -- +goose StatementEnd
 DROP TRIGGER mark_no_truncate ON mark;
-DROP TRIGGER mark_unchanged ON mark;
+DROP TRIGGER mark_fixed ON mark;
 DROP TRIGGER mark_name_free ON mark;
 DROP TABLE mark_retirement;
 DROP TABLE mark_alias;
