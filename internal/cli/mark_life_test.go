@@ -118,6 +118,26 @@ func TestResetAndReplacedMarks(t *testing.T) {
 	refusedBin(t, db, []string{"held mark: BM1 on NAVD88, version 1", "BEFORE the mark was reset", "post re-set after frost heave"},
 		"publish", a2, "--reason", "late publication", "--yes")
 
+	// The way out: level the reset marks again from other control. The new
+	// versions are recorded after the reset report; they are not before
+	// it, and may be held.
+	binMustRun(t, db.URL, "height", "set", "BM1", "728.730", "--unit", "m", "--datum", "NAVD88",
+		"--source", "Outside control sheet 2 (invented citation)", "--reason", "BM1 levelled again from outside control after its reset")
+	a3 := adjustmentID(t, binMustRun(t, db.URL, "adjust", run1, "--hold", "BM1", "-o", "json"))
+	binMustRun(t, db.URL, "publish", a3, "--reason", "BM2 and BM1 levelled again after their reset", "--yes")
+	m, _ = showMark(t, db, "BM2")
+	if len(m.Heights) != 1 || m.Heights[0].Version != 2 || hasDoubt(m.Heights[0].Doubts, register.DoubtBeforeReset) {
+		t.Errorf("mark show BM2 after levelling again: heights %+v", m.Heights)
+	}
+	out, _ = mustBin(t, db, ExitOK, "history", "BM2")
+	if row := pipedRow(out, "NAVD88"); row == nil || strings.Contains(row[len(row)-1], "before-reset") || row[1] != "2" {
+		t.Errorf("history BM2: current row %q", row)
+	}
+	if !strings.Contains(out, "before-reset") {
+		t.Errorf("history BM2: version 1 is not shown before reset:\n%s", out)
+	}
+	mustBin(t, db, ExitOK, "adjust", run1, "--hold", "BM1", "--hold", "BM2", "--dry-run")
+
 	// Replaced: BM3 retired, BM3A in its place.
 	binMustRun(t, db.URL, "mark", "replace", "BM3", "BM3A", "--reason", "disk lost in the road works; new disk 3 m east",
 		"--on", "2024-07-01", "--directions", "3 m east of the old disk", "--type", "bronze disk")
@@ -270,6 +290,19 @@ func TestMarkEditHistory(t *testing.T) {
 	refusedBin(t, db, []string{"nothing to change"}, "mark", "edit", "TC-0412", "--setting", "concrete post", "--reason", "r")
 	refusedBin(t, db, []string{"both a latitude and a longitude"}, "mark", "edit", "TC-0412", "--lat", "41", "--reason", "r")
 	refusedBin(t, db, []string{"old name of --directions"}, "mark", "edit", "TC-0412", "--to-reach", "a", "--directions", "b", "--reason", "r")
+
+	// A near search looks at the current position, not the first.
+	mustBin(t, db, ExitOK, "mark", "edit", "TC-0412", "--lat", "41.7000", "--lon", "-97.9486",
+		"--position-source", "corrected from the 1961 sketch", "--reason", "the first position was scaled from the wrong sheet")
+	for _, c := range []struct {
+		near string
+		n    int
+	}{{"41.7000,-97.9486", 1}, {"41.6207,-97.9486", 0}} {
+		out, _ := mustBin(t, db, ExitOK, "mark", "list", "--near", c.near, "--within", "1km")
+		if rows := pipedRows(t, out); len(rows) != c.n {
+			t.Errorf("mark list --near %s --within 1km: %q, want %d marks", c.near, rows, c.n)
+		}
+	}
 
 	before := registertest.Counts(t, db.Pool)
 	for _, q := range []string{
