@@ -526,7 +526,9 @@ re-established, and levelled since). Reports are kept for good; the latest
 one (by the date observed) is the mark's condition. While it is disturbed,
 destroyed or not found the mark is in doubt: every command that shows its
 height warns loudly, new heights included, until a later report says good or
-reset.`,
+reset. A reset report ends that doubt, and every height recorded before it
+is shown as before reset and is never held as control: level the mark again
+and publish its new height.`,
 		Example: `  cairn mark condition TC-0415 disturbed --note "post tilted, struck by mower" --on 2024-05-14`,
 		Args:    exactArgs(2, "a DESIGNATION and a condition"),
 		ValidArgsFunction: func(cmd *cobra.Command, args []string, _ string) ([]string, cobra.ShellCompDirective) {
