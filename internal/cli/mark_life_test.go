@@ -175,6 +175,44 @@ func TestResetAndReplacedMarks(t *testing.T) {
 	refusedBin(t, db, []string{"mark BM3 is already in the register"}, "mark", "add", "BM3")
 	refusedBin(t, db, []string{"mark BM3 was retired already"}, "mark", "retire", "BM3", "--reason", "again")
 	refusedBin(t, db, []string{"mark BM3 is already in the register"}, "mark", "replace", "BM5", "BM3", "--reason", "x")
+
+	// The evidence holds the new tables' rows, and verifies.
+	mustBin(t, db, ExitOK, "audit", "verify")
+}
+
+// A publication that reports the re-levelled marks reset (publish
+// --report-condition reset) writes the report and the new versions in one
+// transaction: the new versions are not before the reset, the old ones
+// are.
+func TestResetReportedByPublication(t *testing.T) {
+	t.Parallel()
+	db := pgtest.New(t)
+	runs, _ := seedWorked(t, db, 1)
+	run1 := fmt.Sprint(runs[0])
+	a1 := adjustmentID(t, binMustRun(t, db.URL, "adjust", run1, "--hold", "BM1", "-o", "json"))
+	binMustRun(t, db.URL, "publish", a1, "--reason", "circuit of May 2024", "--yes")
+	binMustRun(t, db.URL, "mark", "condition", "BM3", "disturbed", "--note", "post tilted", "--on", "2024-05-01")
+	a2 := adjustmentID(t, binMustRun(t, db.URL, "adjust", run1, "--hold", "BM1", "-o", "json"))
+	binMustRun(t, db.URL, "publish", a2, "--reason", "BM3 re-set and levelled again", "--yes",
+		"--report-condition", "reset", "--condition-note", "post re-set plumb")
+	out, _ := mustBin(t, db, ExitOK, "history", "BM3", "-o", "json")
+	var hs []heightJSON
+	if err := json.Unmarshal([]byte(out), &hs); err != nil {
+		t.Fatalf("history -o json: %v\n%s", err, out)
+	}
+	if len(hs) != 2 {
+		t.Fatalf("history BM3: %d versions", len(hs))
+	}
+	for _, h := range hs {
+		before := hasDoubt(h.Doubts, register.DoubtBeforeReset)
+		if before != (h.Version == 1) {
+			t.Errorf("history BM3 version %d: before reset %v, doubts %+v", h.Version, before, h.Doubts)
+		}
+	}
+	m, _ := showMark(t, db, "BM3")
+	if m.Condition != "reset" || len(m.Doubts) != 0 {
+		t.Errorf("mark show BM3: condition %q, doubts %+v", m.Condition, m.Doubts)
+	}
 }
 
 // A mark is found by any of its aliases, in any case, by every look-up
