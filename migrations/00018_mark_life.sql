@@ -23,11 +23,18 @@
 --    new mark with a new designation; a mark replaces at most one, and a
 --    retired mark replaces none). A retired designation stays in mark and
 --    is never reused.
--- 4. The three tables join the evidence (cairn_evidence_tables, 17 to 19)
---    with created_xid, recorded_role, an index on created_xid, append-only
---    triggers and the commit trigger; cairn_roles_apply grants INSERT on
---    mark_version and mark_alias to cairn_recorder and on mark_retirement
---    to cairn_publisher.
+-- 4. Photos. condition_photo keeps the photographs of a condition report
+--    (a close-up, an eye-level view, a view of the setting), JPEG or PNG,
+--    at most 8 MiB each, byte for byte with their SHA-256, which the
+--    database checks, as it checks the file's first bytes against its
+--    type. A photo is written with its report, in the transaction that
+--    inserts the report, never later (SQLSTATE CA004, as 00011's seals).
+-- 5. The four tables join the evidence (cairn_evidence_tables, 17 to 20)
+--    with created_xid, recorded_role, an index on created_xid and
+--    append-only triggers, and the commit trigger on the three that head a
+--    write (a photo is written with its report); cairn_roles_apply grants
+--    INSERT on mark_version, mark_alias and condition_photo to
+--    cairn_recorder and on mark_retirement to cairn_publisher.
 
 CREATE TABLE mark_version (
     id              bigint GENERATED ALWAYS AS IDENTITY PRIMARY KEY,
@@ -87,6 +94,57 @@ CREATE TABLE mark_retirement (
     CONSTRAINT mark_retirement_not_itself CHECK (replaced_by <> mark_id)
 );
 CREATE INDEX mark_retirement_created_xid ON mark_retirement (created_xid);
+
+CREATE TABLE condition_photo (
+    id            bigint GENERATED ALWAYS AS IDENTITY PRIMARY KEY,
+    condition_id  bigint NOT NULL REFERENCES mark_condition (id),
+    -- What the photograph shows.
+    view          text NOT NULL CHECK (view IN ('close-up', 'eye-level', 'setting', 'other')),
+    media_type    text NOT NULL CHECK (media_type IN ('image/jpeg', 'image/png')),
+    file_name     text NOT NULL DEFAULT '',
+    content       bytea NOT NULL CHECK (octet_length(content) BETWEEN 1 AND 8388608),
+    sha256        bytea NOT NULL,
+    recorded_by   text NOT NULL CHECK (btrim(recorded_by) <> ''),
+    recorded_at   timestamptz NOT NULL DEFAULT cairn_write_time(),
+    created_xid   xid8 DEFAULT cairn_xact(),
+    recorded_role text DEFAULT session_user,
+    CONSTRAINT condition_photo_hash CHECK (sha256 = sha256(content)),
+    -- The signatures of the formats: JPEG's SOI marker X'FFD8' and the X'FF'
+    -- that begins the next marker (ITU-T T.81 | ISO/IEC 10918-1, Annex B,
+    -- Table B.1), PNG's eight-byte signature (ISO/IEC 15948:2004, 5.2, the
+    -- PNG signature); the section numbers from memory.
+    CONSTRAINT condition_photo_format CHECK (
+        (media_type = 'image/jpeg' AND substring(content FROM 1 FOR 3) = '\xffd8ff'::bytea) OR
+        (media_type = 'image/png' AND substring(content FROM 1 FOR 8) = '\x89504e470d0a1a0a'::bytea))
+);
+CREATE INDEX condition_photo_condition ON condition_photo (condition_id);
+CREATE INDEX condition_photo_created_xid ON condition_photo (created_xid);
+
+-- +goose StatementBegin
+-- condition_photo_sealed refuses a photo of a report made in another
+-- transaction: photos go in with their report.
+CREATE FUNCTION condition_photo_sealed() RETURNS trigger LANGUAGE plpgsql
+SET search_path = pg_catalog, public, pg_temp AS $$
+DECLARE
+    c record;
+BEGIN
+    SELECT mc.created_xid, mc.recorded_at INTO c FROM public.mark_condition mc WHERE mc.id = NEW.condition_id;
+    IF c.created_xid IS DISTINCT FROM cairn_xact() THEN
+        RAISE EXCEPTION 'condition report % is sealed: it was recorded whole on %, and no photo may be added to it since', NEW.condition_id,
+            coalesce(to_char(c.recorded_at AT TIME ZONE 'UTC', 'YYYY-MM-DD HH24:MI:SS"Z"'), 'an unknown date')
+            USING ERRCODE = 'CA004', HINT = 'a report is recorded once, with its photos; make a new report with them';
+    END IF;
+    RETURN NEW;
+END
+$$;
+-- +goose StatementEnd
+
+CREATE TRIGGER condition_photo_sealed BEFORE INSERT ON condition_photo
+    FOR EACH ROW EXECUTE FUNCTION condition_photo_sealed();
+CREATE TRIGGER condition_photo_append_only BEFORE UPDATE OR DELETE ON condition_photo
+    FOR EACH ROW EXECUTE FUNCTION refuse_change();
+CREATE TRIGGER condition_photo_no_truncate BEFORE TRUNCATE ON condition_photo
+    FOR EACH STATEMENT EXECUTE FUNCTION refuse_change();
 
 -- +goose StatementBegin
 -- mark_version_number sets a new version's number: one after the mark's
@@ -269,14 +327,15 @@ SET search_path = pg_catalog, public, pg_temp AS $$
         (16, 'height',             'id'),
         (17, 'mark_version',       'id'),
         (18, 'mark_alias',         'id'),
-        (19, 'mark_retirement',    'id')
+        (19, 'mark_retirement',    'id'),
+        (20, 'condition_photo',    'id')
     ) AS t (ord, tbl, key)
 $$;
 -- +goose StatementEnd
 
 -- +goose StatementBegin
--- cairn_roles_apply as in 00014, with mark_version and mark_alias
--- (INSERT for cairn_recorder) and mark_retirement (INSERT for
+-- cairn_roles_apply as in 00014, with mark_version, mark_alias and
+-- condition_photo (INSERT for cairn_recorder) and mark_retirement (INSERT for
 -- cairn_publisher), and their sequences.
 CREATE OR REPLACE FUNCTION cairn_roles_apply() RETURNS text[] LANGUAGE plpgsql
 SET search_path = pg_catalog, public, pg_temp AS $$
@@ -289,7 +348,8 @@ DECLARE
     everything constant text[] := history || ARRAY['mark', 'datum', 'goose_db_version'];
     recorded   constant text[] := ARRAY['mark', 'mark_condition', 'run', 'sighting', 'section', 'run_mark',
                                         'adjustment', 'adjustment_run', 'adjustment_held', 'adjustment_result',
-                                        'adjustment_section', 'run_held', 'mark_version', 'mark_alias'];
+                                        'adjustment_section', 'run_held', 'mark_version', 'mark_alias',
+                                        'condition_photo'];
     published  constant text[] := ARRAY['height', 'adjustment_event', 'datum', 'run_event', 'mark_retirement'];
     stamped    constant text[] := ARRAY['created_xid', 'created_server_start', 'recorded_role', 'recorded_at', 'created_at'];
     may_create boolean;
@@ -366,12 +426,12 @@ BEGIN
 
     REVOKE ALL ON SEQUENCE mark_id_seq, mark_condition_id_seq, run_id_seq, adjustment_id_seq,
         height_id_seq, adjustment_event_id_seq, datum_id_seq, run_event_id_seq,
-        mark_version_id_seq, mark_alias_id_seq, mark_retirement_id_seq FROM PUBLIC, cairn_reader, cairn_recorder, cairn_publisher;
+        mark_version_id_seq, mark_alias_id_seq, mark_retirement_id_seq, condition_photo_id_seq FROM PUBLIC, cairn_reader, cairn_recorder, cairn_publisher;
     GRANT SELECT ON SEQUENCE mark_id_seq, mark_condition_id_seq, run_id_seq, adjustment_id_seq,
         height_id_seq, adjustment_event_id_seq, datum_id_seq, run_event_id_seq,
-        mark_version_id_seq, mark_alias_id_seq, mark_retirement_id_seq TO cairn_reader;
+        mark_version_id_seq, mark_alias_id_seq, mark_retirement_id_seq, condition_photo_id_seq TO cairn_reader;
     GRANT USAGE ON SEQUENCE mark_id_seq, mark_condition_id_seq, run_id_seq, adjustment_id_seq,
-        mark_version_id_seq, mark_alias_id_seq TO cairn_recorder;
+        mark_version_id_seq, mark_alias_id_seq, condition_photo_id_seq TO cairn_recorder;
     GRANT USAGE ON SEQUENCE height_id_seq, adjustment_event_id_seq, datum_id_seq, run_event_id_seq,
         mark_retirement_id_seq TO cairn_publisher;
 
@@ -527,6 +587,8 @@ $$;
 DROP TRIGGER mark_no_truncate ON mark;
 DROP TRIGGER mark_fixed ON mark;
 DROP TRIGGER mark_name_free ON mark;
+DROP TABLE condition_photo;
+DROP FUNCTION condition_photo_sealed();
 DROP TABLE mark_retirement;
 DROP TABLE mark_alias;
 DROP TABLE mark_version;

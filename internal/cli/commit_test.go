@@ -62,7 +62,7 @@ func TestEveryRowCarriesItsLogin(t *testing.T) {
 	mustRun(t, publisher, "height", "set", "BM1", "728.730", "--unit", "m", "--datum", "NAVD88",
 		"--source", "Outside control sheet 1 (invented citation)", "--reason", "held control", "--by", "Ada Field")
 	mustRun(t, publisher, "run", "record", book(2), "--hold", "BM1", "--by", "Ada Field")
-	mustRun(t, publisher, "mark", "condition", "BM2", "good", "--note", "found as described", "--by", "Ada Field")
+	mustRun(t, publisher, "mark", "condition", "BM2", "good", "--note", "found as described", "--photo", "close-up="+pngPhoto(t), "--by", "Ada Field")
 	mustRun(t, publisher, "adjust", "2", "--hold", "BM1", "--method", "least-squares", "--sigma-mm-per-sqrt-km", "100", "--by", "Ada Field")
 	draft := adjustForTest(t, publisher, "1")
 	mustRun(t, publisher, "publish", draft, "--reason", "worked circuit, reviewed", "--yes", "--by", "Ada Field")

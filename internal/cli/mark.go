@@ -2,7 +2,11 @@ package cli
 
 import (
 	"context"
+	"encoding/hex"
 	"fmt"
+	"io"
+	"os"
+	"path/filepath"
 	"strconv"
 	"strings"
 	"time"
@@ -125,6 +129,7 @@ type markJSON struct {
 	Doubts       register.Doubts   `json:"doubts"`
 	DistanceKm   *float64          `json:"distance_km,omitempty"`
 	AliasDetails []aliasJSON       `json:"alias_details,omitempty"`
+	Photos       []photoJSON       `json:"photos,omitempty"`
 	Versions     []markVersionJSON `json:"versions,omitempty"`
 	Conditions   []conditionJSON   `json:"conditions,omitempty"`
 	Heights      []heightJSON      `json:"heights,omitempty"`
@@ -137,6 +142,17 @@ type retiredJSON struct {
 	RecordedBy string    `json:"recorded_by"`
 	RecordedAt time.Time `json:"recorded_at"`
 	ReplacedBy string    `json:"replaced_by"`
+}
+
+type photoJSON struct {
+	ID         int64  `json:"photo_id"`
+	ReportOn   string `json:"report_observed_on"`
+	View       string `json:"view"`
+	MediaType  string `json:"media_type"`
+	FileName   string `json:"file_name"`
+	Bytes      int64  `json:"bytes"`
+	SHA256     string `json:"sha256"`
+	RecordedBy string `json:"recorded_by"`
 }
 
 type aliasJSON struct {
@@ -252,6 +268,15 @@ func markShowRun(opts *markShowOptions) error {
 	for _, a := range v.Aliases {
 		j.AliasDetails = append(j.AliasDetails, aliasJSON{a.Alias, a.Kind, a.Agency, a.Note, a.RecordedBy, a.RecordedAt})
 	}
+	reportOn := map[int64]string{}
+	for _, c := range v.Conditions {
+		reportOn[c.ID] = c.ObservedOn.Format("2006-01-02")
+	}
+	j.Photos = []photoJSON{}
+	for _, ph := range v.Photos {
+		j.Photos = append(j.Photos, photoJSON{ph.ID, reportOn[ph.ConditionID], ph.View, ph.MediaType, ph.FileName, ph.Bytes,
+			hex.EncodeToString(ph.SHA256), ph.RecordedBy})
+	}
 	if opts.history {
 		j.Versions = []markVersionJSON{}
 		for _, mv := range v.Versions {
@@ -309,6 +334,10 @@ func markShowRun(opts *markShowOptions) error {
 	}
 	for _, c := range v.Conditions {
 		t.AddRow("report", fmt.Sprintf("%s %s by %s: %s", c.ObservedOn.Format("2006-01-02"), c.Condition, c.RecordedBy, c.Note))
+	}
+	for _, ph := range j.Photos {
+		t.AddRow(fmt.Sprintf("photo %d", ph.ID), fmt.Sprintf("%s, report of %s, %s (%s, %d bytes, sha256 %s)",
+			ph.View, ph.ReportOn, ph.FileName, ph.MediaType, ph.Bytes, ph.SHA256))
 	}
 	for _, h := range v.Heights {
 		t.AddRow("height on "+h.DatumCode, fmt.Sprintf("%s (version %d, %s)", valueText(h), h.Version, h.Source))
@@ -513,6 +542,7 @@ type markConditionOptions struct {
 	ctx    context.Context
 	params register.MarkConditionParams
 	on     string
+	photos []string // VIEW=FILE
 }
 
 func newCmdMarkCondition(f *Factory, runF func(*markConditionOptions) error) *cobra.Command {
@@ -553,14 +583,26 @@ and publish its new height.`,
 			return dispatch(opts, runF, markConditionRun)
 		},
 	}
+	cmd.Flags().StringArrayVar(&opts.photos, "photo", nil, "VIEW=FILE: a JPEG or PNG photograph to keep with the report, VIEW one of "+strings.Join(store.PhotoViews, ", ")+" (repeat)")
 	cmd.Flags().StringVar(&opts.params.Note, "note", "", "what was seen")
 	cmd.Flags().StringVar(&opts.on, "on", "", "date observed, YYYY-MM-DD (default today)")
 	cmd.Flags().StringVar(&opts.params.RecordedBy, "by", osUser(), "who observed it")
 	return cmd
 }
 
-// markConditionRun records the condition report.
+// markConditionRun records the condition report, with its photographs.
 func markConditionRun(opts *markConditionOptions) error {
+	for _, ph := range opts.photos {
+		view, path, ok := strings.Cut(ph, "=")
+		if !ok || strings.TrimSpace(path) == "" {
+			return badInput("photo: %q: give VIEW=FILE (e.g. close-up=IMG_0412.jpg), VIEW one of %s", ph, strings.Join(store.PhotoViews, ", "))
+		}
+		content, err := readPhoto(path)
+		if err != nil {
+			return err
+		}
+		opts.params.Photos = append(opts.params.Photos, register.PhotoFile{View: view, Name: filepath.Base(path), Content: content})
+	}
 	r, err := openRegister(opts.ctx, opts.f)
 	if err != nil {
 		return err
@@ -570,5 +612,26 @@ func markConditionRun(opts *markConditionOptions) error {
 		return err
 	}
 	opts.f.IO.printf("recorded %s as %s on %s\n", opts.params.Designation, c.Condition, c.ObservedOn.Format("2006-01-02"))
+	if n := len(opts.params.Photos); n > 0 {
+		opts.f.IO.printf("kept %d photograph(s) with the report\n", n)
+	}
 	return nil
+}
+
+// readPhoto reads a photograph's file, refusing one larger than the
+// register keeps before reading it whole.
+func readPhoto(path string) ([]byte, error) {
+	f, err := os.Open(path)
+	if err != nil {
+		return nil, badInput("photo: %v", err)
+	}
+	defer f.Close()
+	content, err := io.ReadAll(io.LimitReader(f, store.PhotoMaxBytes+1))
+	if err != nil {
+		return nil, badInput("photo: %s: %v", path, err)
+	}
+	if len(content) > store.PhotoMaxBytes {
+		return nil, badInput("photo: %s: more than the %d bytes (8 MiB) the register keeps of one photograph", path, store.PhotoMaxBytes)
+	}
+	return content, nil
 }

@@ -1,7 +1,14 @@
 package cli
 
 import (
+	"bytes"
 	"context"
+	"crypto/sha256"
+	"encoding/hex"
+	"fmt"
+	"os"
+	"strconv"
+	"strings"
 	"time"
 
 	"github.com/spf13/cobra"
@@ -259,5 +266,73 @@ func markRetireRun(opts *markRetireOptions) error {
 		return nil
 	}
 	opts.f.IO.printf("retired mark %s on %s\n", out.Mark.Designation, opts.params.On.Format("2006-01-02"))
+	return nil
+}
+
+// markPhotoOptions are the inputs of `cairn mark photo`.
+type markPhotoOptions struct {
+	f           *Factory
+	ctx         context.Context
+	designation string
+	id          int64
+	out         string
+}
+
+func newCmdMarkPhoto(f *Factory, runF func(*markPhotoOptions) error) *cobra.Command {
+	opts := &markPhotoOptions{f: f}
+	cmd := &cobra.Command{
+		Use:   "photo DESIGNATION PHOTO --out FILE",
+		Short: "Write a photograph kept with a condition report to a file, byte for byte",
+		Long: `Write photograph PHOTO (its number, as mark show lists it) of one of the
+mark's condition reports to FILE, exactly as it was given, and check it
+against its SHA-256. FILE must not exist; --out - writes to stdout.`,
+		Example: `  cairn mark photo TC-0412 3 --out TC-0412-close-up.jpg`,
+		Args:    exactArgs(2, "a DESIGNATION and a PHOTO number"),
+		RunE: func(cmd *cobra.Command, args []string) error {
+			opts.ctx, opts.designation = cmd.Context(), args[0]
+			id, err := strconv.ParseInt(strings.TrimSpace(args[1]), 10, 64)
+			if err != nil || id <= 0 {
+				return badInput("PHOTO: %q is not a photograph's number (mark show lists them)", args[1])
+			}
+			opts.id = id
+			if strings.TrimSpace(opts.out) == "" {
+				return badInput("out: name the file to write (or - for stdout)")
+			}
+			return dispatch(opts, runF, markPhotoRun)
+		},
+	}
+	cmd.Flags().StringVar(&opts.out, "out", "", "the file to write (it must not exist), or - for stdout")
+	return cmd
+}
+
+// markPhotoRun writes the photograph.
+func markPhotoRun(opts *markPhotoOptions) error {
+	r, err := openRegister(opts.ctx, opts.f)
+	if err != nil {
+		return err
+	}
+	p, content, err := r.MarkPhoto(opts.ctx, opts.designation, opts.id)
+	if err != nil {
+		return err
+	}
+	if sum := sha256.Sum256(content); !bytes.Equal(sum[:], p.SHA256) {
+		return fmt.Errorf("photograph %d of %s does not match its SHA-256 as kept: the register's copy is damaged (run cairn audit verify)", p.ID, opts.designation)
+	}
+	if opts.out == "-" {
+		_, err := opts.f.IO.Out.Write(content)
+		return err
+	}
+	f, err := os.OpenFile(opts.out, os.O_WRONLY|os.O_CREATE|os.O_EXCL, 0o644)
+	if err != nil {
+		return badInput("out: %v", err)
+	}
+	if _, err := f.Write(content); err != nil {
+		f.Close()
+		return fmt.Errorf("write %s: %w", opts.out, err)
+	}
+	if err := f.Close(); err != nil {
+		return fmt.Errorf("write %s: %w", opts.out, err)
+	}
+	opts.f.IO.printf("wrote %s: %s, %d bytes, sha256 %s\n", opts.out, p.FileName, len(content), hex.EncodeToString(p.SHA256))
 	return nil
 }

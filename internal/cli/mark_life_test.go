@@ -1,10 +1,16 @@
 package cli
 
 import (
+	"bytes"
 	"context"
+	"crypto/sha256"
+	"encoding/hex"
 	"encoding/json"
 	"errors"
 	"fmt"
+	"image"
+	"image/jpeg"
+	"image/png"
 	"os"
 	"path/filepath"
 	"strings"
@@ -357,4 +363,138 @@ func TestMarkEditHistory(t *testing.T) {
 		}
 	}
 	registertest.AssertNothingWritten(t, db.Pool, before)
+}
+
+// Photographs kept with a condition report: JPEG or PNG (the file's
+// content decides, read by the standard library's image decoders), at most
+// 8 MiB, given back byte for byte with their SHA-256; anything else is
+// refused naming the file, and the database refuses a photo added to an
+// earlier report, a hash that is not the content's, and a content that is
+// not of its type.
+func TestConditionPhotos(t *testing.T) {
+	t.Parallel()
+	db := pgtest.New(t)
+	dir := t.TempDir()
+	img := image.NewRGBA(image.Rect(0, 0, 8, 6))
+	for i := range img.Pix {
+		img.Pix[i] = byte(i * 7)
+	}
+	var jb, pb bytes.Buffer
+	if err := jpeg.Encode(&jb, img, nil); err != nil {
+		t.Fatal(err)
+	}
+	if err := png.Encode(&pb, img); err != nil {
+		t.Fatal(err)
+	}
+	write := func(name string, b []byte) string {
+		p := filepath.Join(dir, name)
+		if err := os.WriteFile(p, b, 0o644); err != nil {
+			t.Fatal(err)
+		}
+		return p
+	}
+	jpg, pngFile := write("IMG_0412.jpg", jb.Bytes()), write("setting.png", pb.Bytes())
+	mustBin(t, db, ExitOK, "mark", "add", "TC-0412")
+	mustBin(t, db, ExitOK, "mark", "condition", "TC-0412", "good", "--on", "2024-05-14", "--note", "found as described",
+		"--photo", "close-up="+jpg, "--photo", "Setting="+pngFile)
+
+	m, _ := showMark(t, db, "TC-0412")
+	if len(m.Photos) != 2 {
+		t.Fatalf("mark show: photos %+v", m.Photos)
+	}
+	for i, want := range []struct {
+		view, typ, name string
+		content         []byte
+	}{{"close-up", "image/jpeg", "IMG_0412.jpg", jb.Bytes()}, {"setting", "image/png", "setting.png", pb.Bytes()}} {
+		ph := m.Photos[i]
+		sum := sha256.Sum256(want.content)
+		if ph.View != want.view || ph.MediaType != want.typ || ph.FileName != want.name || ph.Bytes != int64(len(want.content)) ||
+			ph.SHA256 != hex.EncodeToString(sum[:]) || ph.ReportOn != "2024-05-14" {
+			t.Errorf("photo %d: %+v", i, ph)
+		}
+		out := filepath.Join(dir, fmt.Sprintf("back-%d", i))
+		mustBin(t, db, ExitOK, "mark", "photo", "TC-0412", fmt.Sprint(ph.ID), "--out", out)
+		got, err := os.ReadFile(out)
+		if err != nil || !bytes.Equal(got, want.content) {
+			t.Errorf("photo %d given back: %d bytes, %v; want the %d bytes given", i, len(got), err, len(want.content))
+		}
+		refusedBin(t, db, []string{"out: ", "exists"}, "mark", "photo", "TC-0412", fmt.Sprint(ph.ID), "--out", out)
+	}
+	out, _ := mustBin(t, db, ExitOK, "mark", "show", "TC-0412")
+	if row := pipedRow(out, fmt.Sprintf("photo %d", m.Photos[0].ID)); row == nil || !strings.Contains(row[1], "close-up, report of 2024-05-14, IMG_0412.jpg") {
+		t.Errorf("mark show piped: photo row %q", row)
+	}
+
+	text := write("notes.jpg", []byte("not a photograph\n"))
+	big := write("huge.png", append(append([]byte{}, pb.Bytes()...), make([]byte, store.PhotoMaxBytes)...))
+	refusedBin(t, db, []string{"--photo: notes.jpg: not a JPEG or PNG image"}, "mark", "condition", "TC-0412", "good", "--photo", "close-up="+text)
+	refusedBin(t, db, []string{"huge.png", "8 MiB"}, "mark", "condition", "TC-0412", "good", "--photo", "setting="+big)
+	refusedBin(t, db, []string{"unknown view \"sideways\""}, "mark", "condition", "TC-0412", "good", "--photo", "sideways="+jpg)
+	refusedBin(t, db, []string{"give VIEW=FILE"}, "mark", "condition", "TC-0412", "good", "--photo", jpg)
+	refusedBin(t, db, []string{"no photograph 99"}, "mark", "photo", "TC-0412", "99", "--out", filepath.Join(dir, "x"))
+
+	ctx := context.Background()
+	before := registertest.Counts(t, db.Pool)
+	sum := sha256.Sum256(jb.Bytes())
+	for _, c := range []struct {
+		q    string
+		args []any
+		code string
+	}{
+		{"INSERT INTO condition_photo (condition_id, view, media_type, content, sha256, recorded_by) SELECT min(id), 'close-up', 'image/jpeg', $1, $2, 'x' FROM mark_condition",
+			[]any{jb.Bytes(), sum[:]}, "CA004"},
+		{"UPDATE condition_photo SET file_name = 'renamed.jpg'", nil, "CA001"},
+		{"DELETE FROM condition_photo", nil, "CA001"},
+	} {
+		_, err := db.Pool.Exec(ctx, c.q, c.args...)
+		var pe *pgconn.PgError
+		if !errors.As(err, &pe) || pe.Code != c.code {
+			t.Errorf("%s: err = %v, want SQLSTATE %s", c.q, err, c.code)
+		}
+	}
+	// In the report's own transaction: a hash not of the content, and a
+	// content not of its type, are refused by their CHECKs.
+	for _, c := range []struct {
+		typ        string
+		content    []byte
+		constraint string
+	}{{"image/jpeg", jb.Bytes(), "condition_photo_hash"}, {"image/png", []byte("not a photograph"), "condition_photo_format"}} {
+		tx, err := db.Pool.Begin(ctx)
+		if err != nil {
+			t.Fatal(err)
+		}
+		var cid int64
+		if err := tx.QueryRow(ctx, "INSERT INTO mark_condition (mark_id, condition, observed_on, recorded_by) SELECT id, 'good', '2024-05-15', 'x' FROM mark RETURNING id").Scan(&cid); err != nil {
+			t.Fatal(err)
+		}
+		good := sha256.Sum256(c.content)
+		hash := good[:]
+		if c.constraint == "condition_photo_hash" {
+			hash = sum[:4]
+		}
+		_, err = tx.Exec(ctx, "INSERT INTO condition_photo (condition_id, view, media_type, content, sha256, recorded_by) VALUES ($1, 'setting', $2, $3, $4, 'x')",
+			cid, c.typ, c.content, hash)
+		var pe *pgconn.PgError
+		if !errors.As(err, &pe) || pe.ConstraintName != c.constraint {
+			t.Errorf("%s: err = %v, want the CHECK %s", c.constraint, err, c.constraint)
+		}
+		tx.Rollback(ctx)
+	}
+	registertest.AssertNothingWritten(t, db.Pool, before)
+	mustBin(t, db, ExitOK, "audit", "verify")
+}
+
+// pngPhoto writes a small PNG photograph in a temporary directory and
+// returns its path.
+func pngPhoto(t *testing.T) string {
+	t.Helper()
+	var b bytes.Buffer
+	if err := png.Encode(&b, image.NewGray(image.Rect(0, 0, 4, 4))); err != nil {
+		t.Fatal(err)
+	}
+	p := filepath.Join(t.TempDir(), "close-up.png")
+	if err := os.WriteFile(p, b.Bytes(), 0o644); err != nil {
+		t.Fatal(err)
+	}
+	return p
 }

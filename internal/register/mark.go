@@ -1,8 +1,12 @@
 package register
 
 import (
+	"bytes"
 	"context"
 	"errors"
+	"image"
+	_ "image/jpeg" // image.DecodeConfig reads JPEG
+	_ "image/png"  // and PNG
 	"math"
 	"regexp"
 	"slices"
@@ -155,6 +159,8 @@ type MarkView struct {
 	Aliases []store.Alias
 	// Reset is the mark's reset report recorded last, nil if none.
 	Reset *store.Condition
+	// Photos are the photographs of its reports, without their bytes.
+	Photos []store.Photo
 }
 
 // MarkShow returns a mark, its condition history and its current heights.
@@ -178,6 +184,9 @@ func (r *Register) MarkShow(ctx context.Context, designation string) (MarkView, 
 			return err
 		}
 		if v.Aliases, err = store.AliasListByMark(ctx, tx, v.Mark.ID); err != nil {
+			return err
+		}
+		if v.Photos, err = store.PhotoListByMark(ctx, tx, v.Mark.ID); err != nil {
 			return err
 		}
 		resets, err := store.ConditionLatestResetMany(ctx, tx, []int64{v.Mark.ID})
@@ -263,6 +272,37 @@ type MarkConditionParams struct {
 	RecordedBy  string
 	// Today is the reporter's calendar date; ObservedOn may not be after it.
 	Today time.Time
+	// Photos are photographs of the mark to keep with the report.
+	Photos []PhotoFile
+}
+
+// PhotoFile is a photograph given with a condition report: what it shows
+// (one of store.PhotoViews), the file's name and its bytes.
+type PhotoFile struct {
+	View    string
+	Name    string
+	Content []byte
+}
+
+// check refuses a photograph that is not a JPEG or PNG image, or too big,
+// naming its file; it returns the media type.
+func (f *PhotoFile) check() (string, error) {
+	view, ok := ParseCondition(f.View, store.PhotoViews)
+	if !ok {
+		return "", inputErr("photo", "%s: unknown view %q (want %s)", f.Name, f.View, strings.Join(store.PhotoViews, ", "))
+	}
+	f.View = view
+	switch {
+	case len(f.Content) == 0:
+		return "", inputErr("photo", "%s: the file is empty", f.Name)
+	case len(f.Content) > store.PhotoMaxBytes:
+		return "", inputErr("photo", "%s: %d bytes, more than the %d (8 MiB) the register keeps of one photograph", f.Name, len(f.Content), store.PhotoMaxBytes)
+	}
+	_, format, err := image.DecodeConfig(bytes.NewReader(f.Content))
+	if err != nil || (format != "jpeg" && format != "png") {
+		return "", inputErr("photo", "%s: not a JPEG or PNG image (the register keeps photographs in those two formats)", f.Name)
+	}
+	return "image/" + format, nil
 }
 
 // MarkCondition appends a condition report on a mark.
@@ -282,6 +322,14 @@ func (r *Register) MarkCondition(ctx context.Context, p MarkConditionParams) (st
 	if strings.TrimSpace(p.RecordedBy) == "" {
 		return store.Condition{}, inputErr("by", "say who made the report")
 	}
+	types := make([]string, len(p.Photos))
+	for i := range p.Photos {
+		t, err := p.Photos[i].check()
+		if err != nil {
+			return store.Condition{}, err
+		}
+		types[i] = t
+	}
 	var c store.Condition
 	err := r.withTx(ctx, pgx.TxOptions{}, func(tx pgx.Tx) error {
 		m, err := r.mark(ctx, tx, "designation", p.Designation, false)
@@ -291,7 +339,16 @@ func (r *Register) MarkCondition(ctx context.Context, p MarkConditionParams) (st
 		c, err = store.ConditionInsert(ctx, tx, store.ConditionInsertParams{
 			MarkID: m.ID, Condition: p.Condition, Note: p.Note, ObservedOn: p.ObservedOn, RecordedBy: p.RecordedBy,
 		})
-		return err
+		if err != nil {
+			return err
+		}
+		for i, f := range p.Photos {
+			if _, err := store.PhotoInsert(ctx, tx, store.PhotoInsertParams{ConditionID: c.ID, View: f.View, MediaType: types[i],
+				FileName: f.Name, Content: f.Content, RecordedBy: p.RecordedBy}); err != nil {
+				return err
+			}
+		}
+		return nil
 	})
 	return c, err
 }
@@ -304,4 +361,23 @@ func Warning(m store.Mark) string {
 		return ""
 	}
 	return d.Warning()
+}
+
+// MarkPhoto returns photograph id of one of the condition reports of the
+// mark named designation (or an alias), with its bytes exactly as kept.
+func (r *Register) MarkPhoto(ctx context.Context, designation string, id int64) (store.Photo, []byte, error) {
+	var p store.Photo
+	var content []byte
+	err := r.withTx(ctx, readTx, func(tx pgx.Tx) error {
+		m, err := r.mark(ctx, tx, "designation", designation, false)
+		if err != nil {
+			return err
+		}
+		p, content, err = store.PhotoGet(ctx, tx, m.ID, id)
+		if errors.Is(err, store.ErrNotFound) {
+			return inputErr("photo", "mark %s has no photograph %d (mark show lists its photographs)", m.Designation, id)
+		}
+		return err
+	})
+	return p, content, err
 }

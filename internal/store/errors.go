@@ -60,6 +60,7 @@ var roleToWrite = map[string]string{
 	"mark": RoleRecorder, "mark_condition": RoleRecorder, "run": RoleRecorder, "sighting": RoleRecorder,
 	"section": RoleRecorder, "run_mark": RoleRecorder, "adjustment": RoleRecorder, "adjustment_run": RoleRecorder,
 	"adjustment_held": RoleRecorder, "adjustment_result": RoleRecorder, "mark_version": RoleRecorder, "mark_alias": RoleRecorder,
+	"condition_photo": RoleRecorder,
 	"mark_retirement": RolePublisher,
 	"height":          RolePublisher, "adjustment_event": RolePublisher, "datum": RolePublisher, "run_event": RolePublisher,
 }

@@ -40,6 +40,7 @@ var EvidenceTables = []EvidenceTable{
 	{"mark_version", "id"},
 	{"mark_alias", "id"},
 	{"mark_retirement", "id"},
+	{"condition_photo", "id"},
 }
 
 // EvidenceSession fixes, for the rest of transaction tx, the settings the
