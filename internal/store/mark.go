@@ -277,8 +277,9 @@ func markListSQL(p MarkListParams) (string, []any) {
 	}
 	if p.Name != "" {
 		args = append(args, p.Name)
-		where = append(where, fmt.Sprintf(`(lower(normalize(m.designation, NFKC)) = $%d OR EXISTS (SELECT 1 FROM mark_alias na
-			WHERE na.mark_id = m.id AND lower(normalize(na.alias, NFKC)) = $%d))`, len(args), len(args)))
+		// By the unique indexes on the folded forms of both.
+		where = append(where, fmt.Sprintf(`m.id IN (SELECT id FROM mark WHERE lower(normalize(designation, NFKC)) = $%d
+			UNION SELECT mark_id FROM mark_alias WHERE lower(normalize(alias, NFKC)) = $%d)`, len(args), len(args)))
 	}
 	q += markFrom
 	if len(where) > 0 {
