@@ -257,6 +257,16 @@ func TestAliasesFindMarksAndNeverMeetDesignations(t *testing.T) {
 	refusedBin(t, db, []string{"name the agency"}, "mark", "alias", "BM2", "X1", "--kind", "agency")
 	refusedBin(t, db, []string{"not an alias"}, "mark", "alias", "BM2", "X  1", "--kind", "former")
 
+	// A book names its marks by designation: an alias in a book is refused
+	// naming its line, with or without --new-marks.
+	mustBin(t, db, ExitOK, "mark", "alias", "BM3", "ALT-3", "--kind", "stamped")
+	book := filepath.Join(t.TempDir(), "alias.csv")
+	text := strings.ReplaceAll(string(registertest.WorkedBook(t, 2)), "\nBM3,", "\nalt-3,")
+	if err := os.WriteFile(book, []byte(text), 0o644); err != nil {
+		t.Fatal(err)
+	}
+	refusedBin(t, db, []string{`field "point": "alt-3" is an alias of mark BM3 (ALT-3)`, "write BM3"}, "run", "record", book, "--new-marks")
+
 	// So does the database, for a writer with the recorder's role and for
 	// the owner, after NFKC and case folding (the fullwidth Ｂ is B).
 	mustRun(t, db.URL, "db", "roles")
