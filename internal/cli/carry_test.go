@@ -45,7 +45,7 @@ func TestRestoreIntoAnotherClusterGoesOn(t *testing.T) {
 	// cluster.
 	burnTo(t, first, 5000)
 	for i := range 40 {
-		if _, errOut, err := runDB(t, testFactory(first), "mark", "add", fmt.Sprintf("TC-%04d", 100+i), "--to-reach", "set before the backup"); err != nil {
+		if _, errOut, err := runDB(t, testFactory(first), "mark", "add", fmt.Sprintf("TC-%04d", 100+i), "--directions", "set before the backup"); err != nil {
 			t.Fatalf("write %d before the backup: %v\n%s", i+1, err, errOut)
 		}
 	}
@@ -64,7 +64,7 @@ func TestRestoreIntoAnotherClusterGoesOn(t *testing.T) {
 	// As many after, so that the second cluster's counter passes the
 	// numbers of the first's commits.
 	for i := range 40 {
-		if _, errOut, err := runDB(t, testFactory(second), "mark", "add", fmt.Sprintf("TC-%04d", 200+i), "--to-reach", "set after the restore"); err != nil {
+		if _, errOut, err := runDB(t, testFactory(second), "mark", "add", fmt.Sprintf("TC-%04d", 200+i), "--directions", "set after the restore"); err != nil {
 			t.Fatalf("write %d after the restore: %v\n%s", i+1, err, errOut)
 		}
 	}

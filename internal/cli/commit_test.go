@@ -56,10 +56,13 @@ func TestEveryRowCarriesItsLogin(t *testing.T) {
 	mustRun(t, publisher, "datum", "add", "NAVD88", "--name", "North American Vertical Datum of 1988", "--by", "Ada Field")
 	mustRun(t, publisher, "run", "record", book(1), "--new-marks", "--by", "Ada Field")
 	mustRun(t, publisher, "mark", "add", "TC-0412", "--by", "Ada Field")
+	mustRun(t, publisher, "mark", "edit", "TC-0412", "--directions", "north end of the Mere River bridge", "--reason", "directions written", "--by", "Ada Field")
+	mustRun(t, publisher, "mark", "alias", "TC-0412", "MR 17", "--kind", "agency", "--agency", "Mere River Drainage Board", "--by", "Ada Field")
+	mustRun(t, publisher, "mark", "replace", "TC-0412", "TC-0412A", "--reason", "disk lost in the bridge works", "--by", "Ada Field")
 	mustRun(t, publisher, "height", "set", "BM1", "728.730", "--unit", "m", "--datum", "NAVD88",
 		"--source", "Outside control sheet 1 (invented citation)", "--reason", "held control", "--by", "Ada Field")
 	mustRun(t, publisher, "run", "record", book(2), "--hold", "BM1", "--by", "Ada Field")
-	mustRun(t, publisher, "mark", "condition", "BM2", "good", "--note", "found as described", "--by", "Ada Field")
+	mustRun(t, publisher, "mark", "condition", "BM2", "good", "--note", "found as described", "--photo", "close-up="+pngPhoto(t), "--by", "Ada Field")
 	mustRun(t, publisher, "adjust", "2", "--hold", "BM1", "--method", "least-squares", "--sigma-mm-per-sqrt-km", "100", "--by", "Ada Field")
 	draft := adjustForTest(t, publisher, "1")
 	mustRun(t, publisher, "publish", draft, "--reason", "worked circuit, reviewed", "--yes", "--by", "Ada Field")
@@ -95,9 +98,9 @@ func TestEveryRowCarriesItsLogin(t *testing.T) {
 			t.Errorf("%s: %d of %d rows without login %s or their transaction", table, bad, n, login)
 		}
 	}
-	// One commit per command that wrote: eleven.
-	if n := counts.Rows("register_commit"); n != 11 {
-		t.Errorf("%d commits, want 11 (one per writing command)", n)
+	// One commit per command that wrote: fourteen.
+	if n := counts.Rows("register_commit"); n != 14 {
+		t.Errorf("%d commits, want 14 (one per writing command)", n)
 	}
 	// Nobody gives the login, the transaction or the time of a row.
 	conn, err := pgx.Connect(ctx, recorder)

@@ -50,7 +50,7 @@ func TestHostileText(t *testing.T) {
 			who = who[:MaxTextBytes]
 		}
 		des := fmt.Sprintf("TC-%04d", 100+i)
-		mustRun(t, db.URL, "mark", "add", des, "--type", v, "--setting", v, "--stamping", v, "--to-reach", v, "--by", who)
+		mustRun(t, db.URL, "mark", "add", des, "--type", v, "--setting", v, "--stamping", v, "--directions", v, "--by", who)
 		mustRun(t, db.URL, "mark", "condition", des, "good", "--note", v, "--by", who)
 		mustRun(t, db.URL, "datum", "add", fmt.Sprintf("D%d", i), "--name", v, "--note", v, "--by", who)
 		mustRun(t, db.URL, "height", "set", des, "1.000", "--unit", "m", "--datum", fmt.Sprintf("D%d", i),
@@ -60,7 +60,7 @@ func TestHostileText(t *testing.T) {
 		if err := json.Unmarshal([]byte(mustRun(t, db.URL, "mark", "show", des, "-o", "json")), &shown); err != nil {
 			t.Fatal(err)
 		}
-		if shown.Type != v || shown.Setting != v || shown.Stamping != v || shown.ToReach != v ||
+		if shown.Type != v || shown.Setting != v || shown.Stamping != v || shown.Directions != v ||
 			len(shown.Conditions) != 1 || shown.Conditions[0].Note != v || shown.Conditions[0].RecordedBy != who {
 			t.Errorf("mark show %s gives back %+v, want %q throughout", des, shown, clip(v))
 		}
@@ -122,7 +122,7 @@ func TestHostileText(t *testing.T) {
 	}
 	for _, r := range refusedText {
 		try("--note: ", "mark", "condition", "BM2", "good", "--note", r.value)
-		try("--to-reach: ", "mark", "add", "TC-0999", "--to-reach", r.value)
+		try("--directions: ", "mark", "add", "TC-0999", "--directions", r.value)
 		try("--reason: ", "height", "set", "BM2", "1.000", "--unit", "m", "--datum", "NAVD88", "--source", "s", "--reason", r.value)
 		try("--by: ", "publish", a2, "--reason", "r", "--by", r.value, "--yes")
 		try("--name: ", "datum", "add", "DX", "--name", r.value)

@@ -128,9 +128,9 @@ func TestTablesOnATerminalAndPiped(t *testing.T) {
 		warns    bool // the disturbed mark is warned of on stderr
 		cautions bool // the cautions follow on a terminal
 	}{
-		{[]string{"mark", "list"}, []string{"DESIGNATION", "TYPE", "CONDITION", "LAT (deg)", "LON (deg)", "DOUBT"}, [][]string{
-			{"TC-0412", "bronze disk", "!! DISTURBED", "41.62050", "-97.95860", anyCell},
-			{"TC-0413", "brass rod", "unknown", "", "", ""},
+		{[]string{"mark", "list"}, []string{"DESIGNATION", "TYPE", "CONDITION", "LAT (deg)", "LON (deg)", "ALIASES", "DOUBT"}, [][]string{
+			{"TC-0412", "bronze disk", "!! DISTURBED", "41.62050", "-97.95860", "", anyCell},
+			{"TC-0413", "brass rod", "unknown", "", "", "", ""},
 		}, true, false},
 		{[]string{"height", "list"}, []string{"MARK", "DATUM", "VERSION", "HEIGHT (in UNIT)", "UNIT", "CLASS", "SOURCE", "DOUBT"}, [][]string{
 			{"TC-0412", "NAVD88", "2", "769.88", "usft", "", "errata sheet 3 (invented)", anyCell},

@@ -85,7 +85,7 @@ func addMarks(ctx context.Context, r *register.Register) error {
 	} {
 		lat, lon := ll(x.lat, x.lon)
 		if _, err := r.MarkAdd(ctx, register.MarkAddParams{Designation: x.des, Type: x.typ, Setting: x.setting,
-			Stamping: x.stamping, ToReach: x.toReach, Lat: lat, Lon: lon, CreatedBy: Clerk}); err != nil {
+			Stamping: x.stamping, Directions: x.toReach, Lat: lat, Lon: lon, CreatedBy: Clerk}); err != nil {
 			return err
 		}
 	}

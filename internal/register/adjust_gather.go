@@ -119,6 +119,9 @@ func (r *Register) gather(ctx context.Context, tx pgx.Tx, p AdjustParams) (*gath
 		if err != nil {
 			return nil, err
 		}
+		if err := heldRefusal(ctx, tx, "hold", m, h); err != nil {
+			return nil, err
+		}
 		hm, err := heightMetres(h)
 		if err != nil {
 			return nil, err

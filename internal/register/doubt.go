@@ -32,6 +32,13 @@ const (
 	// later run that passes one of its connections, or a condition report
 	// recorded after that run, clears it.
 	DoubtSuspect = "suspect"
+	// DoubtRetired: the mark is retired (migrations/00018): its heights
+	// are of a mark no longer in use, never held as control.
+	DoubtRetired = "retired"
+	// DoubtBeforeReset: the version was recorded before the mark's latest
+	// reset report: it is the height of the mark as it was, never held as
+	// control after the reset.
+	DoubtBeforeReset = "before-reset"
 )
 
 // Doubt is one reason not to rely on a mark's height.
@@ -60,6 +67,10 @@ func (d Doubt) Warning() string {
 		return "WARNING: " + d.Text + "; adjust it again without that run before relying on it"
 	case DoubtSuspect:
 		return "WARNING: mark " + d.Text + "; check it in the field and report its condition, or check it again into two other marks, before relying on its height"
+	case DoubtRetired:
+		return "WARNING: mark " + d.Text + "; it is not control any more: do not hold it or set out from it"
+	case DoubtBeforeReset:
+		return "WARNING: " + d.Text + "; it is the height of the mark as it was: level the mark again and publish its new height before relying on it"
 	default:
 		return "WARNING: " + d.Text + "; read the checks accepted (cairn trace) before relying on it"
 	}
@@ -117,9 +128,35 @@ func conditionDoubt(m store.Mark) (Doubt, bool) {
 // doubt describes the same moment.
 func doubtsOf(ctx context.Context, db store.DBTX, marks []store.Mark, hs []store.Height) (map[int64]Doubts, error) {
 	out := map[int64]Doubts{}
+	var ids []int64
+	seen := map[int64]bool{}
 	for _, m := range marks {
 		if d, ok := conditionDoubt(m); ok {
 			out[m.ID] = append(out[m.ID], d)
+		}
+		if m.Retired != nil {
+			out[m.ID] = append(out[m.ID], Doubt{Kind: DoubtRetired, Word: "retired", Text: retiredText(m)})
+		}
+		if !seen[m.ID] {
+			ids, seen[m.ID] = append(ids, m.ID), true
+		}
+	}
+	for _, h := range hs {
+		if !seen[h.MarkID] {
+			ids, seen[h.MarkID] = append(ids, h.MarkID), true
+		}
+	}
+	if len(hs) > 0 {
+		resets, err := store.ConditionLatestResetMany(ctx, db, ids)
+		if err != nil {
+			return nil, fmt.Errorf("look up the resets of the marks: %w", err)
+		}
+		for _, h := range hs {
+			if c, ok := resets[h.MarkID]; ok && beforeReset(h, &c) {
+				out[h.MarkID] = append(out[h.MarkID], Doubt{Kind: DoubtBeforeReset, Word: "before-reset", Datum: h.DatumCode, Version: h.Version,
+					Text: fmt.Sprintf("%s on %s, version %d: recorded %s, BEFORE RESET (the mark was %s)", h.Designation, h.DatumCode, h.Version,
+						h.RecordedAt.UTC().Format("2006-01-02"), resetText(c))})
+			}
 		}
 	}
 	suspect, err := suspectDoubts(ctx, db, marks)

@@ -83,6 +83,9 @@ func (r *Register) HeightSet(ctx context.Context, p HeightSetParams) (HeightSetR
 		case !errors.Is(err, store.ErrNotFound):
 			return err
 		}
+		if m.Retired != nil && p.Kind != KindWithdrawal && p.Kind != KindCorrection {
+			return inputErr("designation", "mark %s: a retired mark gets no new height (only a correction of its record, or a withdrawal)", retiredText(m))
+		}
 		if p.Kind == KindWithdrawal && (res.Previous == nil || res.Previous.Value == nil) {
 			return inputErr("datum", "mark %s has no height on %s to withdraw", m.Designation, d.Code)
 		}

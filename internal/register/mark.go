@@ -1,8 +1,12 @@
 package register
 
 import (
+	"bytes"
 	"context"
 	"errors"
+	"image"
+	_ "image/jpeg" // image.DecodeConfig reads JPEG
+	_ "image/png"  // and PNG
 	"math"
 	"regexp"
 	"slices"
@@ -11,6 +15,7 @@ import (
 
 	"github.com/jackc/pgx/v5"
 
+	"cairn/internal/names"
 	"cairn/internal/store"
 )
 
@@ -50,58 +55,90 @@ type MarkAddParams struct {
 	Type        string // e.g. "bronze disk", "brass rod"
 	Setting     string // e.g. "concrete post", "bridge abutment"
 	Stamping    string // what is stamped on it
-	ToReach     string // how to find it, in words
+	Directions  string // how to find it, in words
 	Lat, Lon    *float64
 	CreatedBy   string
 }
 
 // MarkAdd adds a mark to the register.
 func (r *Register) MarkAdd(ctx context.Context, p MarkAddParams) (store.Mark, error) {
-	if err := nameProblem("designation", "designation", p.Designation); err != nil {
+	if err := p.check(); err != nil {
 		return store.Mark{}, err
-	}
-	if (p.Lat == nil) != (p.Lon == nil) {
-		return store.Mark{}, inputErr("lat", "give both a latitude and a longitude, or neither")
-	}
-	if p.Lat != nil {
-		if math.IsNaN(*p.Lat) || *p.Lat < -90 || *p.Lat > 90 {
-			return store.Mark{}, inputErr("lat", "latitude %v is outside -90 to 90 degrees", *p.Lat)
-		}
-		if math.IsNaN(*p.Lon) || *p.Lon < -180 || *p.Lon > 180 {
-			return store.Mark{}, inputErr("lon", "longitude %v is outside -180 to 180 degrees", *p.Lon)
-		}
-	}
-	if strings.TrimSpace(p.CreatedBy) == "" {
-		return store.Mark{}, inputErr("by", "say who is adding the mark")
 	}
 	var m store.Mark
 	err := r.withTx(ctx, pgx.TxOptions{}, func(tx pgx.Tx) error {
-		// The same name written another way is refused naming the mark
-		// that has it; the unique index on the folded form settles a race.
-		existing, err := markFolded(ctx, tx, p.Designation)
-		if err != nil {
-			return err
-		}
-		if err := sameNameProblem("designation", "mark", p.Designation, existing); err != nil {
-			return err
-		}
-		if !designationPattern.MatchString(p.Designation) {
-			return inputErr("designation", "%q is not a designation: use at most 64 letters, digits and . _ / -, starting with a letter or digit", p.Designation)
-		}
-		_, err = store.MarkInsert(ctx, tx, store.MarkInsertParams{
-			Designation: p.Designation, Type: p.Type, Setting: p.Setting, Stamping: p.Stamping,
-			ToReach: p.ToReach, Lat: p.Lat, Lon: p.Lon, CreatedBy: p.CreatedBy,
-		})
-		if errors.Is(err, store.ErrAlreadyExists) {
-			return inputErr("designation", "mark %s is already in the register", p.Designation)
-		}
-		if err != nil {
-			return err
-		}
-		m, err = store.MarkGet(ctx, tx, store.MarkGetParams{Designation: p.Designation})
+		var err error
+		m, err = addMark(ctx, tx, p)
 		return err
 	})
 	return m, err
+}
+
+// check refuses, before the database is asked, a new mark's fields that
+// can never be right.
+func (p MarkAddParams) check() error {
+	if err := nameProblem("designation", "designation", p.Designation); err != nil {
+		return err
+	}
+	if err := positionProblem(p.Lat, p.Lon); err != nil {
+		return err
+	}
+	if strings.TrimSpace(p.CreatedBy) == "" {
+		return inputErr("by", "say who is adding the mark")
+	}
+	return nil
+}
+
+// positionProblem refuses half a position or one off the globe.
+func positionProblem(lat, lon *float64) error {
+	if (lat == nil) != (lon == nil) {
+		return inputErr("lat", "give both a latitude and a longitude, or neither")
+	}
+	if lat != nil {
+		if math.IsNaN(*lat) || *lat < -90 || *lat > 90 {
+			return inputErr("lat", "latitude %v is outside -90 to 90 degrees", *lat)
+		}
+		if math.IsNaN(*lon) || *lon < -180 || *lon > 180 {
+			return inputErr("lon", "longitude %v is outside -180 to 180 degrees", *lon)
+		}
+	}
+	return nil
+}
+
+// addMark adds the mark p (checked) in tx and returns it.
+func addMark(ctx context.Context, tx pgx.Tx, p MarkAddParams) (store.Mark, error) {
+	// The same name written another way is refused naming the mark
+	// that has it; the unique index on the folded form settles a race.
+	existing, err := markFolded(ctx, tx, p.Designation)
+	if err != nil {
+		return store.Mark{}, err
+	}
+	if err := sameNameProblem("designation", "mark", p.Designation, existing); err != nil {
+		return store.Mark{}, err
+	}
+	if !designationPattern.MatchString(p.Designation) {
+		return store.Mark{}, inputErr("designation", "%q is not a designation: use at most 64 letters, digits and . _ / -, starting with a letter or digit", p.Designation)
+	}
+	// Nor may it be another mark's alias; the database's trigger
+	// (mark_name_free) settles a race.
+	if holder, alias, err := store.AliasHolder(ctx, tx, names.Fold(p.Designation)); err == nil {
+		return store.Mark{}, inputErr("designation", "%s is an alias of mark %s (%s): a designation is never another mark's alias", p.Designation, holder, alias)
+	} else if !errors.Is(err, store.ErrNotFound) {
+		return store.Mark{}, err
+	}
+	_, err = store.MarkInsert(ctx, tx, store.MarkInsertParams{
+		Designation: p.Designation, Type: p.Type, Setting: p.Setting, Stamping: p.Stamping,
+		Directions: p.Directions, Lat: p.Lat, Lon: p.Lon, CreatedBy: p.CreatedBy,
+	})
+	switch {
+	case errors.Is(err, store.ErrAlreadyExists):
+		return store.Mark{}, inputErr("designation", "mark %s is already in the register", p.Designation)
+	case errors.Is(err, store.ErrNameTaken):
+		return store.Mark{}, inputErr("designation", "%v", err)
+	case err != nil:
+		return store.Mark{}, err
+	}
+	return store.MarkGet(ctx, tx, store.MarkGetParams{Designation: p.Designation})
 }
 
 // MarkView is a mark with its condition reports (latest first) and the
@@ -115,6 +152,15 @@ type MarkView struct {
 	// Doubts are the mark's doubts and those of the heights shown
 	// (doubtsOf).
 	Doubts Doubts
+	// Versions are the versions of the mark's description, oldest first
+	// (the first is the mark as added).
+	Versions []store.MarkVersion
+	// Aliases are the mark's other names, in the order given.
+	Aliases []store.Alias
+	// Reset is the mark's reset report recorded last, nil if none.
+	Reset *store.Condition
+	// Photos are the photographs of its reports, without their bytes.
+	Photos []store.Photo
 }
 
 // MarkShow returns a mark, its condition history and its current heights.
@@ -134,6 +180,22 @@ func (r *Register) MarkShow(ctx context.Context, designation string) (MarkView, 
 		if v.Runs, err = store.RunList(ctx, tx, store.RunListParams{MarkID: &v.Mark.ID}); err != nil {
 			return err
 		}
+		if v.Versions, err = store.MarkVersionList(ctx, tx, v.Mark.ID); err != nil {
+			return err
+		}
+		if v.Aliases, err = store.AliasListByMark(ctx, tx, v.Mark.ID); err != nil {
+			return err
+		}
+		if v.Photos, err = store.PhotoListByMark(ctx, tx, v.Mark.ID); err != nil {
+			return err
+		}
+		resets, err := store.ConditionLatestResetMany(ctx, tx, []int64{v.Mark.ID})
+		if err != nil {
+			return err
+		}
+		if c, ok := resets[v.Mark.ID]; ok {
+			v.Reset = &c
+		}
 		ds, err := doubtsOf(ctx, tx, []store.Mark{v.Mark}, v.Heights)
 		v.Doubts = ds[v.Mark.ID]
 		return err
@@ -148,6 +210,9 @@ type MarkListParams struct {
 	// Conditions keeps marks whose latest report is one of these, in any
 	// case (ShownConditions: "unknown" for no report yet).
 	Conditions []string
+	// Name keeps the mark whose designation or one of whose aliases is
+	// this name, in any case and character form (names.Fold).
+	Name string
 }
 
 // ListedMark is a mark in a listing, with its doubts and those of its
@@ -180,7 +245,8 @@ func (r *Register) MarkList(ctx context.Context, p MarkListParams) ([]ListedMark
 	}
 	var out []ListedMark
 	err := r.withTx(ctx, readTx, func(tx pgx.Tx) error {
-		ms, err := store.MarkList(ctx, tx, store.MarkListParams{Near: p.Near, RadiusM: p.RadiusM, Conditions: conds})
+		ms, err := store.MarkList(ctx, tx, store.MarkListParams{Near: p.Near, RadiusM: p.RadiusM, Conditions: conds,
+			Name: names.Fold(strings.TrimSpace(p.Name))})
 		if err != nil {
 			return err
 		}
@@ -206,6 +272,37 @@ type MarkConditionParams struct {
 	RecordedBy  string
 	// Today is the reporter's calendar date; ObservedOn may not be after it.
 	Today time.Time
+	// Photos are photographs of the mark to keep with the report.
+	Photos []PhotoFile
+}
+
+// PhotoFile is a photograph given with a condition report: what it shows
+// (one of store.PhotoViews), the file's name and its bytes.
+type PhotoFile struct {
+	View    string
+	Name    string
+	Content []byte
+}
+
+// check refuses a photograph that is not a JPEG or PNG image, or too big,
+// naming its file; it returns the media type.
+func (f *PhotoFile) check() (string, error) {
+	view, ok := ParseCondition(f.View, store.PhotoViews)
+	if !ok {
+		return "", inputErr("photo", "%s: unknown view %q (want %s)", f.Name, f.View, strings.Join(store.PhotoViews, ", "))
+	}
+	f.View = view
+	switch {
+	case len(f.Content) == 0:
+		return "", inputErr("photo", "%s: the file is empty", f.Name)
+	case len(f.Content) > store.PhotoMaxBytes:
+		return "", inputErr("photo", "%s: %d bytes, more than the %d (8 MiB) the register keeps of one photograph", f.Name, len(f.Content), store.PhotoMaxBytes)
+	}
+	_, format, err := image.DecodeConfig(bytes.NewReader(f.Content))
+	if err != nil || (format != "jpeg" && format != "png") {
+		return "", inputErr("photo", "%s: not a JPEG or PNG image (the register keeps photographs in those two formats)", f.Name)
+	}
+	return "image/" + format, nil
 }
 
 // MarkCondition appends a condition report on a mark.
@@ -225,6 +322,14 @@ func (r *Register) MarkCondition(ctx context.Context, p MarkConditionParams) (st
 	if strings.TrimSpace(p.RecordedBy) == "" {
 		return store.Condition{}, inputErr("by", "say who made the report")
 	}
+	types := make([]string, len(p.Photos))
+	for i := range p.Photos {
+		t, err := p.Photos[i].check()
+		if err != nil {
+			return store.Condition{}, err
+		}
+		types[i] = t
+	}
 	var c store.Condition
 	err := r.withTx(ctx, pgx.TxOptions{}, func(tx pgx.Tx) error {
 		m, err := r.mark(ctx, tx, "designation", p.Designation, false)
@@ -234,7 +339,16 @@ func (r *Register) MarkCondition(ctx context.Context, p MarkConditionParams) (st
 		c, err = store.ConditionInsert(ctx, tx, store.ConditionInsertParams{
 			MarkID: m.ID, Condition: p.Condition, Note: p.Note, ObservedOn: p.ObservedOn, RecordedBy: p.RecordedBy,
 		})
-		return err
+		if err != nil {
+			return err
+		}
+		for i, f := range p.Photos {
+			if _, err := store.PhotoInsert(ctx, tx, store.PhotoInsertParams{ConditionID: c.ID, View: f.View, MediaType: types[i],
+				FileName: f.Name, Content: f.Content, RecordedBy: p.RecordedBy}); err != nil {
+				return err
+			}
+		}
+		return nil
 	})
 	return c, err
 }
@@ -247,4 +361,23 @@ func Warning(m store.Mark) string {
 		return ""
 	}
 	return d.Warning()
+}
+
+// MarkPhoto returns photograph id of one of the condition reports of the
+// mark named designation (or an alias), with its bytes exactly as kept.
+func (r *Register) MarkPhoto(ctx context.Context, designation string, id int64) (store.Photo, []byte, error) {
+	var p store.Photo
+	var content []byte
+	err := r.withTx(ctx, readTx, func(tx pgx.Tx) error {
+		m, err := r.mark(ctx, tx, "designation", designation, false)
+		if err != nil {
+			return err
+		}
+		p, content, err = store.PhotoGet(ctx, tx, m.ID, id)
+		if errors.Is(err, store.ErrNotFound) {
+			return inputErr("photo", "mark %s has no photograph %d (mark show lists its photographs)", m.Designation, id)
+		}
+		return err
+	})
+	return p, content, err
 }

@@ -60,6 +60,10 @@ func sameNameProblem(field, kind, s, existing string) error {
 	return nil
 }
 
+// foldName is names.Fold, for where a variable named names hides the
+// package.
+func foldName(s string) string { return names.Fold(s) }
+
 // markFolded returns the designation of the mark whose folded form is
 // that of s, or "".
 func markFolded(ctx context.Context, db store.DBTX, s string) (string, error) {

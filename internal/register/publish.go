@@ -196,6 +196,14 @@ func (r *Register) Publish(ctx context.Context, p PublishParams) (*Published, er
 			if cur := latest[h.MarkID]; cur.ID != h.ID {
 				return changed(a, h.Designation, "held", &h.Height, cur)
 			}
+			// Retired or reset since the draft was made: never control.
+			m, err := store.MarkGet(ctx, tx, store.MarkGetParams{Designation: h.Designation})
+			if err != nil {
+				return err
+			}
+			if err := heldRefusal(ctx, tx, "held mark", m, h.Height); err != nil {
+				return err
+			}
 		}
 		for _, res := range results {
 			if res.Held {

@@ -189,14 +189,20 @@ func (e *ConnectionLostError) Unwrap() error { return e.Err }
 // readTx is a read-only transaction that sees one snapshot.
 var readTx = pgx.TxOptions{IsoLevel: pgx.RepeatableRead, AccessMode: pgx.ReadOnly}
 
-// mark returns the mark with designation, or an InputError naming field
-// with the nearest designations as suggestions.
+// mark returns the mark with designation, or else the mark one of whose
+// aliases is designation once folded (names.Fold), with FoundBy set: the
+// one place a name given by a user is resolved to a mark. A name that is
+// neither is an InputError naming field, with the nearest designations as
+// suggestions.
 func (r *Register) mark(ctx context.Context, db store.DBTX, field, designation string, forUpdate bool) (store.Mark, error) {
 	designation = strings.TrimSpace(designation)
 	if designation == "" {
 		return store.Mark{}, inputErr(field, "a mark designation is required")
 	}
 	m, err := store.MarkGet(ctx, db, store.MarkGetParams{Designation: designation, ForUpdate: forUpdate})
+	if errors.Is(err, store.ErrNotFound) {
+		m, err = store.MarkGetByAlias(ctx, db, names.Fold(designation), forUpdate)
+	}
 	if errors.Is(err, store.ErrNotFound) {
 		cands, err := store.MarkDesignationsLike(ctx, db, names.Fold(designation), 10000)
 		if err != nil {

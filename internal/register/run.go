@@ -772,6 +772,15 @@ func findMarks(ctx context.Context, tx pgx.Tx, p RecordParams, names []string, f
 			return nil, nil, &levelbook.Error{File: p.Path, Line: u.Line, Field: "point",
 				Msg: fmt.Sprintf("%q is not in the register, but mark %s is the same name written another way (case or character forms): write %s", u.Designation, existing, existing)}
 		}
+		// An alias names a mark, but a book names its marks by designation.
+		holder, alias, err := store.AliasHolder(ctx, tx, foldName(u.Designation))
+		switch {
+		case err == nil:
+			return nil, nil, &levelbook.Error{File: p.Path, Line: u.Line, Field: "point",
+				Msg: fmt.Sprintf("%q is an alias of mark %s (%s): a book names its marks by designation; write %s", u.Designation, holder, alias, holder)}
+		case !errors.Is(err, store.ErrNotFound):
+			return nil, nil, err
+		}
 	}
 	if len(missing) > 0 && !p.NewMarks {
 		return nil, nil, &UnknownMarksError{File: p.Path, Marks: missing}

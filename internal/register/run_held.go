@@ -103,6 +103,9 @@ func (r *Register) heldHeights(ctx context.Context, db store.DBTX, p HeldHeights
 		if err != nil {
 			return nil, err
 		}
+		if m.FoundBy != "" {
+			return nil, inputErr("hold", "%s is an alias of mark %s: a book names its marks by designation; write %s in the book and hold it", name, m.Designation, m.Designation)
+		}
 		marks = append(marks, m)
 	}
 	datum, err := r.bookDatum(ctx, db, book, marks)
@@ -121,6 +124,9 @@ func (r *Register) heldHeights(ctx context.Context, db store.DBTX, p HeldHeights
 		}
 		if h.Value == nil {
 			return nil, inputErr("hold", "%s has no current height on %s to hold: version %d withdrew it", m.Designation, datum.Code, h.Version)
+		}
+		if err := heldRefusal(ctx, db, "hold", m, h); err != nil {
+			return nil, err
 		}
 		from, err := units.Parse(*h.Unit)
 		if err != nil {

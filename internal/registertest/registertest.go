@@ -143,7 +143,7 @@ type MarkOpts struct {
 	Type        string // default "bronze disk"
 	Setting     string // default "concrete post"
 	Stamping    string // default the designation
-	ToReach     string // default "Mere River road, Tallis County (invented)"
+	Directions  string // default "Mere River road, Tallis County (invented)"
 	// Lat and Lon give the position; both nil means the default one, and
 	// NoPosition a mark with none.
 	Lat, Lon   *float64
@@ -169,7 +169,7 @@ func (b *Bundle) Mark(tb testing.TB, o MarkOpts) store.Mark {
 	}
 	m, err := b.Reg.MarkAdd(b.Ctx, register.MarkAddParams{Designation: o.Designation, Type: or(o.Type, "bronze disk"),
 		Setting: or(o.Setting, "concrete post"), Stamping: or(o.Stamping, o.Designation),
-		ToReach: or(o.ToReach, "Mere River road, Tallis County (invented)"), Lat: o.Lat, Lon: o.Lon, CreatedBy: or(o.By, By)})
+		Directions: or(o.Directions, "Mere River road, Tallis County (invented)"), Lat: o.Lat, Lon: o.Lon, CreatedBy: or(o.By, By)})
 	if err != nil {
 		tb.Fatalf("registertest: mark %s: %v", o.Designation, err)
 	}

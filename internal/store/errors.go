@@ -40,6 +40,10 @@ var (
 	// (migrations/00014); nothing was written until the owner runs
 	// cairn db migrate.
 	ErrUncarried = errors.New("transaction numbers not carried into this cluster")
+	// ErrNameTaken: the database refused a designation that is another
+	// mark's alias, an alias that is a mark's designation, or a retired
+	// mark as a replacement (migrations/00018).
+	ErrNameTaken = errors.New("name taken")
 )
 
 // Roles of the register (migrations/00005_roles.sql); each includes the
@@ -55,8 +59,10 @@ const (
 var roleToWrite = map[string]string{
 	"mark": RoleRecorder, "mark_condition": RoleRecorder, "run": RoleRecorder, "sighting": RoleRecorder,
 	"section": RoleRecorder, "run_mark": RoleRecorder, "adjustment": RoleRecorder, "adjustment_run": RoleRecorder,
-	"adjustment_held": RoleRecorder, "adjustment_result": RoleRecorder,
-	"height": RolePublisher, "adjustment_event": RolePublisher, "datum": RolePublisher, "run_event": RolePublisher,
+	"adjustment_held": RoleRecorder, "adjustment_result": RoleRecorder, "mark_version": RoleRecorder, "mark_alias": RoleRecorder,
+	"condition_photo": RoleRecorder,
+	"mark_retirement": RolePublisher,
+	"height":          RolePublisher, "adjustment_event": RolePublisher, "datum": RolePublisher, "run_event": RolePublisher,
 }
 
 // deniedTable finds the table of "permission denied for table height".
@@ -102,6 +108,7 @@ const (
 	codeClock      = "CA012" // the server's clock is behind the register's latest time (00012)
 	codeSealed     = "CA004" // a row added to a parent made in another transaction (00011)
 	codeUncarried  = "CA013" // a write in a cluster the register has not met (00014)
+	codeNameTaken  = "CA018" // a designation that is an alias, or an alias that is a designation (00018)
 	codeDenied     = "42501" // insufficient_privilege
 )
 
@@ -112,6 +119,7 @@ var constraintsOfChains = map[string]bool{
 	"height_supersedes_key":               true,
 	"height_first":                        true,
 	"height_mark_id_datum_id_version_key": true,
+	"mark_version_mark_id_version_key":    true,
 }
 
 // translate maps driver errors to the store's errors, keeping the driver's
@@ -143,6 +151,8 @@ func translate(err error) error {
 		return permission(pe, "")
 	case pe.Code == codeClock:
 		return fmt.Errorf("%w: %s", ErrClock, pe.Message)
+	case pe.Code == codeNameTaken:
+		return fmt.Errorf("%w: %s", ErrNameTaken, pe.Message)
 	case pe.Code == codeUncarried:
 		return fmt.Errorf("%w: %s (%s)", ErrUncarried, pe.Message, pe.Hint)
 	}

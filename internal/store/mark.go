@@ -11,31 +11,78 @@ import (
 	"github.com/jackc/pgx/v5"
 )
 
-// Mark is a benchmark in the register, with its latest condition report.
+// Mark is a benchmark in the register, with its current description (the
+// latest version, migrations/00018), its latest condition report and, if
+// it is retired, its retirement.
 type Mark struct {
 	ID          int64
 	Designation string
 	Type        string
 	Setting     string
 	Stamping    string
-	ToReach     string
-	Lat, Lon    *float64 // approximate position, decimal degrees
-	CreatedAt   time.Time
-	CreatedBy   string
+	// Directions say in words how to find the mark (the column to_reach
+	// of its first version, directions of the later ones).
+	Directions     string
+	Description    string
+	Lat, Lon       *float64 // approximate position, decimal degrees
+	PositionSource string   // where the position came from
+	// Version is the number of the description shown: 1 for the mark's
+	// own row, 2 and on for mark_version.
+	Version   int
+	CreatedAt time.Time
+	CreatedBy string
 	// Latest is the latest condition report, nil if none.
 	Latest *Condition
+	// Retired is the mark's retirement, nil while it is in use.
+	Retired *Retirement
+	// Replaces is the designation of the mark this one replaced, or "".
+	Replaces string
+	// Aliases are the mark's other names, in the order they were given.
+	Aliases []string
+	// FoundBy is the alias the mark was looked up by, or "" (set by the
+	// look-up, not stored).
+	FoundBy string
 	// DistanceM is the great-circle distance from the search point, in
 	// metres (near searches only).
 	DistanceM *float64
 }
 
-const markColumns = `m.id, m.designation, m.mark_type, m.setting, m.stamping, m.to_reach, m.lat, m.lon,
-	m.created_at, m.created_by, c.id, c.condition, c.note, c.observed_on, c.recorded_at, c.recorded_by`
+// Retirement is a mark taken out of use for good.
+type Retirement struct {
+	On         time.Time // a date
+	Reason     string
+	RecordedBy string
+	RecordedAt time.Time
+	// ReplacedBy is the designation of the mark that replaced it, or "".
+	ReplacedBy string
+}
 
-// markFrom joins each mark to its latest condition report.
+// The current position: the latest version's, or the mark's own row's
+// when it has none.
+const (
+	curLat = "(CASE WHEN v.id IS NULL THEN m.lat ELSE v.lat END)"
+	curLon = "(CASE WHEN v.id IS NULL THEN m.lon ELSE v.lon END)"
+)
+
+var markColumns = `m.id, m.designation, coalesce(v.mark_type, m.mark_type), coalesce(v.setting, m.setting),
+	coalesce(v.stamping, m.stamping), coalesce(v.directions, m.to_reach), coalesce(v.description, ''),
+	` + curLat + `, ` + curLon + `, coalesce(v.position_source, ''), coalesce(v.version, 1),
+	m.created_at, m.created_by, c.id, c.condition, c.note, c.observed_on, c.recorded_at, c.recorded_by,
+	ret.retired_on, ret.reason, ret.recorded_by, ret.recorded_at, rby.designation AS replaced_by_designation,
+	rof.designation AS replaces_designation,
+	coalesce((SELECT array_agg(a.alias ORDER BY a.id) FROM mark_alias a WHERE a.mark_id = m.id), '{}') AS aliases`
+
+// markFrom joins each mark to its latest description, its latest
+// condition report, its retirement and the mark it replaced.
 const markFrom = ` FROM mark m LEFT JOIN LATERAL (
 	SELECT * FROM mark_condition mc WHERE mc.mark_id = m.id ORDER BY mc.observed_on DESC, mc.id DESC LIMIT 1
-) c ON true`
+) c ON true LEFT JOIN LATERAL (
+	SELECT * FROM mark_version mv WHERE mv.mark_id = m.id ORDER BY mv.version DESC LIMIT 1
+) v ON true
+LEFT JOIN mark_retirement ret ON ret.mark_id = m.id
+LEFT JOIN mark rby ON rby.id = ret.replaced_by
+LEFT JOIN mark_retirement rofr ON rofr.replaced_by = m.id
+LEFT JOIN mark rof ON rof.id = rofr.mark_id`
 
 func scanMark(row pgx.Row, extra ...any) (Mark, error) {
 	var m Mark
@@ -43,8 +90,12 @@ func scanMark(row pgx.Row, extra ...any) (Mark, error) {
 	var c Condition
 	var cond, note, by *string
 	var on, at *time.Time
-	dest := append([]any{&m.ID, &m.Designation, &m.Type, &m.Setting, &m.Stamping, &m.ToReach, &m.Lat, &m.Lon,
-		&m.CreatedAt, &m.CreatedBy, &cid, &cond, &note, &on, &at, &by}, extra...)
+	var retOn, retAt *time.Time
+	var retReason, retBy, retRepl, replaces *string
+	dest := append([]any{&m.ID, &m.Designation, &m.Type, &m.Setting, &m.Stamping, &m.Directions, &m.Description,
+		&m.Lat, &m.Lon, &m.PositionSource, &m.Version,
+		&m.CreatedAt, &m.CreatedBy, &cid, &cond, &note, &on, &at, &by,
+		&retOn, &retReason, &retBy, &retAt, &retRepl, &replaces, &m.Aliases}, extra...)
 	if err := row.Scan(dest...); err != nil {
 		return Mark{}, translate(err)
 	}
@@ -52,22 +103,33 @@ func scanMark(row pgx.Row, extra ...any) (Mark, error) {
 		c = Condition{ID: *cid, MarkID: m.ID, Condition: *cond, Note: *note, ObservedOn: *on, RecordedAt: *at, RecordedBy: *by}
 		m.Latest = &c
 	}
+	if retOn != nil {
+		m.Retired = &Retirement{On: *retOn, Reason: *retReason, RecordedBy: *retBy, RecordedAt: *retAt}
+		if retRepl != nil {
+			m.Retired.ReplacedBy = *retRepl
+		}
+	}
+	if replaces != nil {
+		m.Replaces = *replaces
+	}
 	return m, nil
 }
 
 // MarkInsertParams are the fields of a new mark.
 type MarkInsertParams struct {
-	Designation, Type, Setting, Stamping, ToReach string
-	Lat, Lon                                      *float64
-	CreatedBy                                     string
+	Designation, Type, Setting, Stamping, Directions string
+	Lat, Lon                                         *float64
+	CreatedBy                                        string
 }
 
-// MarkInsert adds a mark; ErrAlreadyExists if the designation is taken.
+// MarkInsert adds a mark; ErrAlreadyExists if the designation is taken,
+// ErrNameTaken if it is another mark's alias. The directions go in the
+// mark's column to_reach (migrations/00018).
 func MarkInsert(ctx context.Context, db DBTX, p MarkInsertParams) (int64, error) {
 	var id int64
 	err := db.QueryRow(ctx, `INSERT INTO mark (designation, mark_type, setting, stamping, to_reach, lat, lon, created_by)
 		VALUES ($1, $2, $3, $4, $5, $6, $7, $8) RETURNING id`,
-		p.Designation, p.Type, p.Setting, p.Stamping, p.ToReach, p.Lat, p.Lon, p.CreatedBy).Scan(&id)
+		p.Designation, p.Type, p.Setting, p.Stamping, p.Directions, p.Lat, p.Lon, p.CreatedBy).Scan(&id)
 	if err != nil {
 		return 0, fmt.Errorf("insert mark %s: %w", p.Designation, translate(err))
 	}
@@ -101,6 +163,24 @@ func MarkGetFolded(ctx context.Context, db DBTX, folded string) (Mark, error) {
 	return scanMark(db.QueryRow(ctx, "SELECT "+markColumns+markFrom+" WHERE lower(normalize(m.designation, NFKC)) = $1", folded))
 }
 
+// MarkGetByAlias returns the mark one of whose aliases has the folded form
+// folded (as MarkGetFolded, over the index mark_alias_folded), with
+// FoundBy set to that alias; ErrNotFound if none. ForUpdate locks the
+// mark's row as MarkGet does.
+func MarkGetByAlias(ctx context.Context, db DBTX, folded string, forUpdate bool) (Mark, error) {
+	if forUpdate {
+		if _, err := db.Exec(ctx, `SELECT 1 FROM mark WHERE id = (SELECT mark_id FROM mark_alias
+			WHERE lower(normalize(alias, NFKC)) = $1) FOR NO KEY UPDATE`, folded); err != nil {
+			return Mark{}, translateAs(err, RolePublisher)
+		}
+	}
+	var alias string
+	m, err := scanMark(db.QueryRow(ctx, "SELECT "+markColumns+", fa.alias"+markFrom+
+		" JOIN mark_alias fa ON fa.mark_id = m.id WHERE lower(normalize(fa.alias, NFKC)) = $1", folded), &alias)
+	m.FoundBy = alias
+	return m, err
+}
+
 // MarkDesignationsLike returns up to limit designations whose folded form
 // starts with the same first character as folded (a folded name, see
 // MarkGetFolded), as candidates for "did you mean".
@@ -127,6 +207,9 @@ type MarkListParams struct {
 	// Conditions, if set, keeps marks whose latest condition is one of
 	// these; "unknown" matches marks with no report.
 	Conditions []string
+	// Name, if set (a folded name, see MarkGetFolded), keeps the mark whose
+	// designation or one of whose aliases has that folded form.
+	Name string
 }
 
 // LatLon is a position in decimal degrees.
@@ -146,8 +229,8 @@ const MeanEarthRadiusM = 6371008.8
 //
 //	d = 2R asin √(sin²(Δφ/2) + cos φ1 cos φ2 sin²(Δλ/2))
 var haversineSQL = `2 * ` + strconv.FormatFloat(MeanEarthRadiusM, 'f', -1, 64) + ` * asin(least(1, sqrt(
-	power(sin(radians(m.lat - $1) / 2), 2) +
-	cos(radians($1)) * cos(radians(m.lat)) * power(sin(radians(m.lon - $2) / 2), 2))))`
+	power(sin(radians(` + curLat + ` - $1) / 2), 2) +
+	cos(radians($1)) * cos(radians(` + curLat + `)) * power(sin(radians(` + curLon + ` - $2) / 2), 2))))`
 
 // MarkList lists marks with their latest condition: by designation, or by
 // distance for a near search.
@@ -180,13 +263,23 @@ func markListSQL(p MarkListParams) (string, []any) {
 		q = "SELECT * FROM (SELECT " + markColumns + ", " + haversineSQL + " AS distance_m"
 		var boxes []string
 		for _, b := range boundingBoxes(*p.Near, p.RadiusM) {
-			boxes = append(boxes, fmt.Sprintf("point(m.lon, m.lat) <@ box(point(%g, %g), point(%g, %g))", b[0], b[1], b[2], b[3]))
+			boxes = append(boxes, fmt.Sprintf("point(lon, lat) <@ box(point(%g, %g), point(%g, %g))", b[0], b[1], b[2], b[3]))
 		}
-		where = append(where, "m.lat IS NOT NULL", "("+strings.Join(boxes, " OR ")+")")
+		in := "(" + strings.Join(boxes, " OR ") + ")"
+		// Candidates by either position the GiST indexes answer (the
+		// mark's own and its versions'); the current one decides.
+		where = append(where, curLat+" IS NOT NULL", "m.id IN (SELECT id FROM mark WHERE lat IS NOT NULL AND "+in+
+			" UNION SELECT mark_id FROM mark_version WHERE lat IS NOT NULL AND "+in+")")
 	}
 	if len(p.Conditions) > 0 {
 		args = append(args, p.Conditions)
 		where = append(where, fmt.Sprintf("coalesce(c.condition, 'unknown') = ANY($%d)", len(args)))
+	}
+	if p.Name != "" {
+		args = append(args, p.Name)
+		// By the unique indexes on the folded forms of both.
+		where = append(where, fmt.Sprintf(`m.id IN (SELECT id FROM mark WHERE lower(normalize(designation, NFKC)) = $%d
+			UNION SELECT mark_id FROM mark_alias WHERE lower(normalize(alias, NFKC)) = $%d)`, len(args), len(args)))
 	}
 	q += markFrom
 	if len(where) > 0 {
