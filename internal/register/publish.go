@@ -127,7 +127,7 @@ func (r *Register) PublishPreview(ctx context.Context, id int64, largeChangeM fl
 		if err := reproduce(ctx, tx, v); err != nil {
 			return err
 		}
-		latest, err := store.HeightLatestMany(ctx, tx, store.HeightLatestManyParams{MarkIDs: resultMarks(v), DatumID: v.Adjustment.DatumID})
+		latest, err := store.HeightLatestMany(ctx, tx, store.HeightLatestManyParams{MarkIDs: resultMarks(v), DatumID: v.Adjustment.DatumID, InForce: true})
 		if err != nil {
 			return err
 		}
@@ -192,8 +192,12 @@ func (r *Register) Publish(ctx context.Context, p PublishParams) (*Published, er
 		if err != nil {
 			return err
 		}
+		inForce, err := store.HeightLatestMany(ctx, tx, store.HeightLatestManyParams{MarkIDs: ids, DatumID: a.DatumID, InForce: true})
+		if err != nil {
+			return err
+		}
 		for _, h := range held {
-			if cur := latest[h.MarkID]; cur.ID != h.ID {
+			if cur := inForce[h.MarkID]; cur.ID != h.ID {
 				return changed(a, h.Designation, "held", &h.Height, cur)
 			}
 		}
@@ -228,7 +232,7 @@ func (r *Register) Publish(ctx context.Context, p PublishParams) (*Published, er
 			}
 			ev.AcceptedReason = p.AcceptReason
 		}
-		if out.Changes, err = markChanges(v, latest, p.LargeChangeM); err != nil {
+		if out.Changes, err = markChanges(v, inForce, p.LargeChangeM); err != nil {
 			return err
 		}
 		if err := store.AdjustmentEventInsert(ctx, tx, ev); err != nil {
@@ -266,7 +270,7 @@ func (r *Register) Publish(ctx context.Context, p PublishParams) (*Published, er
 		var at time.Time
 		if at, err = store.CommitTime(ctx, r.pool, xid); err == nil {
 			for i := range out.Versions {
-				out.Versions[i].InForceFrom = at
+				out.Versions[i].InForceFrom, out.Versions[i].CommittedAt = at, at
 			}
 		}
 	}

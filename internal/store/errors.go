@@ -40,6 +40,10 @@ var (
 	// (migrations/00014); nothing was written until the owner runs
 	// cairn db migrate.
 	ErrUncarried = errors.New("transaction numbers not carried into this cluster")
+	// ErrInForce: the database refused a version's in-force time: missing
+	// from a version from outside, given for one from an adjustment, or
+	// after the version is recorded (migrations/00017).
+	ErrInForce = errors.New("in-force time refused")
 )
 
 // Roles of the register (migrations/00005_roles.sql); each includes the
@@ -102,6 +106,7 @@ const (
 	codeClock      = "CA012" // the server's clock is behind the register's latest time (00012)
 	codeSealed     = "CA004" // a row added to a parent made in another transaction (00011)
 	codeUncarried  = "CA013" // a write in a cluster the register has not met (00014)
+	codeInForce    = "CA017" // a version's in-force time missing, given where not allowed, or after its recording (00017)
 	codeDenied     = "42501" // insufficient_privilege
 )
 
@@ -143,6 +148,8 @@ func translate(err error) error {
 		return permission(pe, "")
 	case pe.Code == codeClock:
 		return fmt.Errorf("%w: %s", ErrClock, pe.Message)
+	case pe.Code == codeInForce:
+		return fmt.Errorf("%w: %s", ErrInForce, pe.Message)
 	case pe.Code == codeUncarried:
 		return fmt.Errorf("%w: %s (%s)", ErrUncarried, pe.Message, pe.Hint)
 	}

@@ -93,19 +93,28 @@ func EvidenceCommitPage(ctx context.Context, tx pgx.Tx, after int64, limit int) 
 	return out, translate(rows.Err())
 }
 
+// lateColumns are, by table, the keys left out of a row's text where the
+// column is NULL: columns added after the evidence (schema v13), so that the
+// rows written before keep the text their commits sealed
+// (migrations/00017, cairn_commit_manifest).
+var lateColumns = map[string]string{
+	"height": ` - CASE WHEN r.in_force_from IS NULL THEN 'in_force_from' ELSE '' END`,
+}
+
 // EvidenceRows calls fn with the canonical text of every row transaction
 // xid wrote (genesis: the rows of no transaction, created_xid NULL), table
 // by table in the order of EvidenceTables, each table's rows in key order,
 // then fn(table, nil) at the end of each table. The text is to_jsonb of
-// the row without created_xid, by plain SELECTs (no function of the
+// the row without created_xid (nor the late columns that are NULL), by plain SELECTs (no function of the
 // register's own). One round trip for all the tables.
 func EvidenceRows(ctx context.Context, tx pgx.Tx, xid uint64, genesis bool, fn func(table string, text []byte) error) error {
 	b := &pgx.Batch{}
 	for _, t := range EvidenceTables {
+		late := lateColumns[t.Name]
 		if genesis {
-			b.Queue(fmt.Sprintf(`SELECT (to_jsonb(r) - 'created_xid')::text FROM public.%s r WHERE created_xid IS NULL ORDER BY %s`, t.Name, t.Key))
+			b.Queue(fmt.Sprintf(`SELECT (to_jsonb(r) - 'created_xid'%s)::text FROM public.%s r WHERE created_xid IS NULL ORDER BY %s`, late, t.Name, t.Key))
 		} else {
-			b.Queue(fmt.Sprintf(`SELECT (to_jsonb(r) - 'created_xid')::text FROM public.%s r WHERE created_xid = $1::text::xid8 ORDER BY %s`, t.Name, t.Key),
+			b.Queue(fmt.Sprintf(`SELECT (to_jsonb(r) - 'created_xid'%s)::text FROM public.%s r WHERE created_xid = $1::text::xid8 ORDER BY %s`, late, t.Name, t.Key),
 				strconv.FormatUint(xid, 10))
 		}
 	}
