@@ -249,4 +249,3 @@ func translateOf(b *registertest.Bundle, prev int64) error {
 		Value: &v, Unit: &u, Decimals: &d, SourceKind: "correction", Source: "errata (invented)", Reason: "typo", RecordedBy: "test"})
 	return err
 }
-
