@@ -71,10 +71,21 @@ const heightInForce = "coalesce(h.in_force_from, rc.committed_at, h.recorded_at)
 // heightCurrent is true when version h is the one in force now: no
 // version of its chain is in force from a later time, or from the same
 // time and recorded later (a greater version number). See HeightAsOf for
-// the rule.
-const heightCurrent = `NOT EXISTS (SELECT 1 FROM height s LEFT JOIN register_commit sc ON sc.xid = s.created_xid
-		WHERE s.mark_id = h.mark_id AND s.datum_id = h.datum_id AND s.id <> h.id
-		  AND (coalesce(s.in_force_from, sc.committed_at, s.recorded_at), s.version) > (` + heightInForce + `, h.version))`
+// the rule. Two cases are settled by the chain alone, without comparing
+// times: a version superseded by one in force from its own commit is not
+// current (that commit is after h was recorded, and h was in force by
+// then), and a version in force from its own commit that nothing
+// supersedes is (every earlier version came in force before it was
+// recorded, before this commit). The database holds both premises: a
+// version's in-force time is never after its write time (schema v17), and
+// a chain's versions are committed in version order.
+const heightCurrent = `CASE
+		WHEN EXISTS (SELECT 1 FROM height x WHERE x.supersedes = h.id AND x.in_force_from IS NULL) THEN false
+		WHEN h.in_force_from IS NULL AND NOT EXISTS (SELECT 1 FROM height x WHERE x.supersedes = h.id) THEN true
+		ELSE NOT EXISTS (SELECT 1 FROM height s LEFT JOIN register_commit sc ON sc.xid = s.created_xid
+			WHERE s.mark_id = h.mark_id AND s.datum_id = h.datum_id AND s.id <> h.id
+			  AND (coalesce(s.in_force_from, sc.committed_at, s.recorded_at), s.version) > (` + heightInForce + `, h.version))
+	END`
 
 const heightFrom = " FROM height h JOIN mark m ON m.id = h.mark_id JOIN datum d ON d.id = h.datum_id" +
 	" LEFT JOIN register_commit rc ON rc.xid = h.created_xid"
