@@ -127,8 +127,11 @@ func (r *Register) PublishPreview(ctx context.Context, id int64, largeChangeM fl
 		if err := reproduce(ctx, tx, v); err != nil {
 			return err
 		}
-		latest, err := store.HeightLatestMany(ctx, tx, store.HeightLatestManyParams{MarkIDs: resultMarks(v), DatumID: v.Adjustment.DatumID, InForce: true})
+		latest, err := store.HeightLatestMany(ctx, tx, store.HeightLatestManyParams{MarkIDs: resultMarks(v), DatumID: v.Adjustment.DatumID})
 		if err != nil {
+			return err
+		}
+		if latest, err = inForceOf(ctx, tx, latest, v.Adjustment.DatumID); err != nil {
 			return err
 		}
 		if pv.Changes, err = markChanges(v, latest, largeChangeM); err != nil {
@@ -141,6 +144,24 @@ func (r *Register) PublishPreview(ctx context.Context, id int64, largeChangeM fl
 		return nil, err
 	}
 	return pv, nil
+}
+
+// inForceOf returns, by mark, the version in force now of each chain
+// whose latest version is in latest: the latest itself, unless a version
+// recorded later came in force earlier (a correction of the past), when it
+// is looked up.
+func inForceOf(ctx context.Context, tx pgx.Tx, latest map[int64]store.Height, datumID int64) (map[int64]store.Height, error) {
+	out := make(map[int64]store.Height, len(latest))
+	for id, h := range latest {
+		if !h.Current {
+			var err error
+			if h, err = store.HeightCurrent(ctx, tx, store.HeightLatestParams{MarkID: id, DatumID: datumID}); err != nil {
+				return nil, err
+			}
+		}
+		out[id] = h
+	}
+	return out, nil
 }
 
 // resultMarks are the marks of v's results.
@@ -192,7 +213,7 @@ func (r *Register) Publish(ctx context.Context, p PublishParams) (*Published, er
 		if err != nil {
 			return err
 		}
-		inForce, err := store.HeightLatestMany(ctx, tx, store.HeightLatestManyParams{MarkIDs: ids, DatumID: a.DatumID, InForce: true})
+		inForce, err := inForceOf(ctx, tx, latest, a.DatumID)
 		if err != nil {
 			return err
 		}

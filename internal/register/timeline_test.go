@@ -249,3 +249,49 @@ func translateOf(b *registertest.Bundle, prev int64) error {
 		Value: &v, Unit: &u, Decimals: &d, SourceKind: "correction", Source: "errata (invented)", Reason: "typo", RecordedBy: "test"})
 	return err
 }
+
+// A correction of the past on a held mark and on an adjusted one: the
+// adjustment holds the version in force now, not the later-recorded
+// correction of an earlier date; publishing checks the held version is
+// still the one in force, supersedes the latest recorded version (the
+// chain stays in recorded order) and says what changes from the one in
+// force now.
+func TestPublishOverACorrectionOfThePast(t *testing.T) {
+	t.Parallel()
+	b := registertest.Setup(t)
+	runs := b.WorkedCircuit(t, registertest.WorkedCircuitOpts{Class: "first-II"})
+	bm4 := b.Height(t, registertest.HeightOpts{Designation: "BM4", Value: "843.400", Unit: "m", Class: "first-II"})
+	past := time.Date(2001, 3, 1, 0, 0, 0, 0, time.UTC)
+	for _, mark := range []string{"BM1", "BM4"} {
+		h := b.Height(t, registertest.HeightOpts{Designation: mark, Value: "700.000", Unit: "m", Kind: register.KindCorrection,
+			Source: "sheet of 2001 (invented)", InForceFrom: &past})
+		if h.Current {
+			t.Fatalf("%s: the correction of 2001 is current", mark)
+		}
+	}
+	draft := b.Adjustment(t, registertest.AdjustmentOpts{Runs: runs})
+	if len(draft.Held) != 1 || draft.Held[0].Version != 1 || *draft.Held[0].Value != "728.730" {
+		t.Fatalf("held %+v, want BM1 version 1 (728.730), the one in force now", draft.Held)
+	}
+	pub := b.Publication(t, draft.Adjustment.ID, registertest.PublicationOpts{})
+	var changed bool
+	for _, c := range pub.Changes {
+		if c.Designation == "BM4" {
+			changed = true
+			if c.Current == nil || c.Current.ID != bm4.ID {
+				t.Errorf("BM4 changes from %+v, want version %d in force now", c.Current, bm4.Version)
+			}
+		}
+	}
+	if !changed {
+		t.Fatalf("no change listed for BM4: %+v", pub.Changes)
+	}
+	for _, v := range pub.Versions {
+		if v.Designation == "BM4" && (v.Version != 3 || !v.Current) {
+			t.Errorf("BM4's published version %d (current %v), want 3 superseding the correction, current", v.Version, v.Current)
+		}
+	}
+	if rep, err := b.Reg.AuditVerify(b.Ctx); err != nil || len(rep.Breaks) != 0 {
+		t.Fatalf("audit: %v %+v", err, rep.Breaks)
+	}
+}

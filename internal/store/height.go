@@ -292,21 +292,14 @@ func HeightEach(ctx context.Context, db DBTX, fn func(Height) error) error {
 type HeightLatestManyParams struct {
 	MarkIDs []int64
 	DatumID int64
-	// InForce asks for the version of each in force now (HeightCurrent)
-	// rather than the latest, which a new version supersedes.
-	InForce bool
 }
 
-// HeightLatestMany returns the latest version (or, with InForce, the
-// version in force now) of each of the marks on the datum, by mark
-// identifier; marks without one are absent.
+// HeightLatestMany returns the latest version of each of the marks on the
+// datum, by mark identifier; marks without one are absent. Each says
+// whether it is the one in force now (Current).
 func HeightLatestMany(ctx context.Context, db DBTX, p HeightLatestManyParams) (map[int64]Height, error) {
-	order := "h.version DESC"
-	if p.InForce {
-		order = heightAsOfOrder
-	}
 	hs, err := heightQuery(ctx, db, "SELECT DISTINCT ON (h.mark_id) "+heightColumns+heightFrom+
-		" WHERE h.mark_id = ANY($1) AND h.datum_id = $2 ORDER BY h.mark_id, "+order, p.MarkIDs, p.DatumID)
+		" WHERE h.mark_id = ANY($1) AND h.datum_id = $2 ORDER BY h.mark_id, h.version DESC", p.MarkIDs, p.DatumID)
 	if err != nil {
 		return nil, err
 	}
