@@ -329,7 +329,7 @@ func TestDemoRunsTwice(t *testing.T) {
 	for i := range 2 {
 		out := mustRun(t, server, "demo", "--name", name)
 		for _, want := range []string{"TC-0412", "234.662", "769.83", "correction", "DISTURBED",
-			"licensed surveyor", "two marks", "condition", "regulations govern", "--db", name, "invented", "Mere River levee line", "Marks touched"} {
+			"licensed surveyor", "two marks", "condition", "regulations govern", "--db", name, "invented", "Mere River levee line", "Marks touched", "as it stood on 2020-06-01"} {
 			if !strings.Contains(out, want) {
 				t.Fatalf("run %d: demo output lacks %q:\n%s", i+1, want, out)
 			}
