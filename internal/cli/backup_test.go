@@ -83,7 +83,7 @@ func TestBackupRestore(t *testing.T) {
 	mustRun(t, db.URL, "publish", id, "--reason", "worked circuit, reviewed", "--yes")
 	mustRun(t, db.URL, "discard", adjustForTest(t, db.URL, fmt.Sprint(runs[1])), "--reason", "one is enough", "--yes")
 	mustRun(t, db.URL, "mark", "condition", "BM3", "disturbed", "--note", "tilted; 'quoted' \\ back-slashed")
-	mustRun(t, db.URL, "height", "set", "BM2", "783.250", "--unit", "m", "--datum", "NAVD88",
+	mustRun(t, db.URL, "height", "set", "--in-force-from", inForceNow(), "BM2", "783.250", "--unit", "m", "--datum", "NAVD88",
 		"--source", "Outside check (invented citation)", "--reason", "outside check")
 
 	file := filepath.Join(t.TempDir(), "register.dump")
@@ -118,7 +118,7 @@ func TestBackupRestore(t *testing.T) {
 		t.Fatalf("restored register differs:\n%s\nwant\n%s", b, a)
 	}
 	// The restored register goes on: triggers and roles came back.
-	mustRun(t, fresh, "height", "set", "BM2", "783.251", "--unit", "m", "--datum", "NAVD88",
+	mustRun(t, fresh, "height", "set", "--in-force-from", inForceNow(), "BM2", "783.251", "--unit", "m", "--datum", "NAVD88",
 		"--source", "Outside check 2 (invented citation)", "--reason", "after restore")
 	if _, errOut, st := run(t, fresh, "mark", "add", "BM1"); st != ExitBadInput {
 		t.Fatalf("unique designation after restore: exit %d, %s", st, errOut)

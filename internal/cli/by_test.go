@@ -55,7 +55,7 @@ func TestEveryWriteStoresBy(t *testing.T) {
 			}
 		}
 		mustRun(t, db.URL, by("mark", "condition", "BM2", "good")...)
-		mustRun(t, db.URL, by("height", "set", "BM1", "728.730", "--unit", "m", "--datum", "D"+sfx,
+		mustRun(t, db.URL, by("height", "set", "--in-force-from", inForceNow(), "BM1", "728.730", "--unit", "m", "--datum", "D"+sfx,
 			"--source", "Outside control sheet 1 (invented citation)", "--reason", "held control")...)
 		mustRun(t, db.URL, by("run", "record", path)...)
 		var runID int64

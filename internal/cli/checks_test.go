@@ -74,7 +74,7 @@ func TestDoubleRunInOneBook(t *testing.T) {
 // publish sets mark's height (metres, on NAVD88).
 func publish(t *testing.T, url, mark, value string) {
 	t.Helper()
-	mustRun(t, url, "height", "set", mark, value, "--unit", "m", "--datum", "NAVD88",
+	mustRun(t, url, "height", "set", "--in-force-from", inForceNow(), mark, value, "--unit", "m", "--datum", "NAVD88",
 		"--source", "Tallis County Benchmark Book (invented)", "--reason", "test control", "--by", "tester")
 }
 

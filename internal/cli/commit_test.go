@@ -59,7 +59,7 @@ func TestEveryRowCarriesItsLogin(t *testing.T) {
 	mustRun(t, publisher, "mark", "edit", "TC-0412", "--directions", "north end of the Mere River bridge", "--reason", "directions written", "--by", "Ada Field")
 	mustRun(t, publisher, "mark", "alias", "TC-0412", "MR 17", "--kind", "agency", "--agency", "Mere River Drainage Board", "--by", "Ada Field")
 	mustRun(t, publisher, "mark", "replace", "TC-0412", "TC-0412A", "--reason", "disk lost in the bridge works", "--by", "Ada Field")
-	mustRun(t, publisher, "height", "set", "BM1", "728.730", "--unit", "m", "--datum", "NAVD88",
+	mustRun(t, publisher, "height", "set", "--in-force-from", inForceNow(), "BM1", "728.730", "--unit", "m", "--datum", "NAVD88",
 		"--source", "Outside control sheet 1 (invented citation)", "--reason", "held control", "--by", "Ada Field")
 	mustRun(t, publisher, "run", "record", book(2), "--hold", "BM1", "--by", "Ada Field")
 	mustRun(t, publisher, "mark", "condition", "BM2", "good", "--note", "found as described", "--photo", "close-up="+pngPhoto(t), "--by", "Ada Field")
@@ -133,7 +133,7 @@ func TestHistoryAndTraceShowTheLogin(t *testing.T) {
 	login := loginOf(t, publisher)
 	mustRun(t, publisher, "datum", "add", "NAVD88", "--name", "North American Vertical Datum of 1988")
 	mustRun(t, publisher, "mark", "add", "TC-0412")
-	mustRun(t, publisher, "height", "set", "TC-0412", "769.83", "--unit", "usft", "--datum", "NAVD88",
+	mustRun(t, publisher, "height", "set", "--in-force-from", inForceNow(), "TC-0412", "769.83", "--unit", "usft", "--datum", "NAVD88",
 		"--source", "Tallis County Benchmark Book (invented)", "--reason", "entered from the book", "--by", "Ada Field")
 
 	want := "Ada Field (login " + login + ")"
@@ -198,7 +198,7 @@ func TestClockBehindTheRegisterRefused(t *testing.T) {
 	db := pgtest.New(t)
 	mustRun(t, db.URL, "datum", "add", "NAVD88", "--name", "North American Vertical Datum of 1988")
 	mustRun(t, db.URL, "mark", "add", "TC-0412")
-	mustRun(t, db.URL, "height", "set", "TC-0412", "769.83", "--unit", "usft", "--datum", "NAVD88",
+	mustRun(t, db.URL, "height", "set", "--in-force-from", inForceNow(), "TC-0412", "769.83", "--unit", "usft", "--datum", "NAVD88",
 		"--source", "Tallis County Benchmark Book (invented)", "--reason", "entered from the book")
 	ctx := context.Background()
 	ahead := time.Now().Add(time.Hour).UTC()
@@ -222,7 +222,7 @@ func TestClockBehindTheRegisterRefused(t *testing.T) {
 	}
 	conn.Release()
 	before := registertest.Counts(t, db.Pool)
-	_, errOut, status := binRun(t, db.URL, "height", "set", "TC-0412", "769.85", "--unit", "usft", "--datum", "NAVD88",
+	_, errOut, status := binRun(t, db.URL, "height", "set", "--in-force-from", inForceNow(), "TC-0412", "769.85", "--unit", "usft", "--datum", "NAVD88",
 		"--kind", "correction", "--source", "errata (invented)", "--reason", "a later correction")
 	if status != ExitFailure || !strings.Contains(errOut, "clock") || !strings.Contains(errOut, "behind") ||
 		!strings.Contains(errOut, ahead.Format("2006-01-02 15:04:05")) {

@@ -125,6 +125,7 @@ func demoRun(opts *demoOptions) error {
 		{"The benchmarks", "mark list"},
 		{"Their current heights", "height list"},
 		{"The history of " + demo.HistoryMark, "history " + demo.HistoryMark},
+		{"TC-0412 as it stood on 2020-06-01, its 2019 height in force", "height show TC-0412 --datum NAVD88 --as-of 2020-06-01"},
 		{"The disturbed mark, as cairn shows it", "height show TC-0415"},
 		{"The level runs recorded", "run list"},
 		{"The north loop as recorded", "run show 1"},

@@ -174,8 +174,8 @@ func TestRegisterFieldsShownAsFlags(t *testing.T) {
 	}{
 		{[]string{"datum", "add", "NGVD29"}, "cairn: --name: a datum needs its full name\n"},
 		{[]string{"mark", "add", "TC-0413", "--lat", "41.6"}, "cairn: --lat: give both a latitude and a longitude, or neither\n"},
-		{[]string{"height", "set", "TC-0412", "769.83", "--unit", "usft", "--datum", "NAVD88", "--reason", "r"}, "cairn: --source: cite the publication the height comes from\n"},
-		{[]string{"height", "set", "TC-0412", "769.83", "--unit", "usft", "--datum", "NAVD88", "--source", "s", "--reason", " "}, "cairn: --reason: say why this height is being recorded\n"},
+		{[]string{"height", "set", "--in-force-from", inForceNow(), "TC-0412", "769.83", "--unit", "usft", "--datum", "NAVD88", "--reason", "r"}, "cairn: --source: cite the publication the height comes from\n"},
+		{[]string{"height", "set", "--in-force-from", inForceNow(), "TC-0412", "769.83", "--unit", "usft", "--datum", "NAVD88", "--source", "s", "--reason", " "}, "cairn: --reason: say why this height is being recorded\n"},
 		{[]string{"height", "show", "TC-0412", "--datum", "NAVD89"}, `cairn: --datum: no datum "NAVD89" in the register (did you mean NAVD88?)` + "\n"},
 		{[]string{"history", "TC-0421"}, `cairn: designation: no mark "TC-0421" in the register (did you mean TC-0412?)` + "\n"},
 	} {

@@ -120,7 +120,7 @@ func sessionGone(t *testing.T, pool *pgxpool.Pool, pid int) {
 // (run record has a test of its own, TestRunRecordKilledLeavesNothing.)
 func TestWriteCommandsKilledLeaveNothing(t *testing.T) {
 	t.Parallel()
-	height := []string{"height", "set", "BM2", "783.250", "--unit", "m", "--datum", "NAVD88",
+	height := []string{"height", "set", "--in-force-from", inForceNow(), "BM2", "783.250", "--unit", "m", "--datum", "NAVD88",
 		"--source", "Outside check (invented citation)", "--reason", "outside check", "--by", "test"}
 	cases := []struct {
 		name string
@@ -147,7 +147,7 @@ func TestWriteCommandsKilledLeaveNothing(t *testing.T) {
 		{"height set", []string{"LOCK TABLE height IN SHARE MODE"}, height},
 		// The same for a withdrawal, a version with no value.
 		{"height withdraw", []string{"LOCK TABLE height IN SHARE MODE"},
-			[]string{"height", "withdraw", "BM1", "--datum", "NAVD88", "--reason", "mark destroyed", "--by", "test"}},
+			[]string{"height", "withdraw", "--in-force-from", inForceNow(), "BM1", "--datum", "NAVD88", "--reason", "mark destroyed", "--by", "test"}},
 		// The adjustment, its runs and its held marks are written; its
 		// results wait.
 		{"adjust", []string{"LOCK TABLE adjustment_result IN SHARE MODE"},

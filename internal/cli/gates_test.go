@@ -322,7 +322,7 @@ func TestPublishShowsChanges(t *testing.T) {
 	}
 
 	// -o json: the same list, against the versions now in force.
-	mustRun(t, db.URL, "height", "set", "BM4", "843.437", "--unit", "m", "--datum", "NAVD88",
+	mustRun(t, db.URL, "height", "set", "--in-force-from", inForceNow(), "BM4", "843.437", "--unit", "m", "--datum", "NAVD88",
 		"--source", "outside check (invented)", "--reason", "check", "--by", "tester")
 	second := adjustmentID(t, mustRun(t, db.URL, "adjust", "1", "--hold", "BM1", "-o", "json"))
 	out, _ = mustBin(t, db, 0, "publish", second, "--reason", "r", "--by", "reviewer", "--yes", "-o", "json")

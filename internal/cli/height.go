@@ -23,12 +23,13 @@ type heightSetOptions struct {
 	ctx      context.Context
 	params   register.HeightSetParams
 	decimals int
+	inForce  string
 }
 
 func newCmdHeightSet(f *Factory, runF func(*heightSetOptions) error) *cobra.Command {
 	opts := &heightSetOptions{f: f}
 	cmd := &cobra.Command{
-		Use:   "set DESIGNATION VALUE --unit m|ft|usft --datum CODE --source CITATION --reason TEXT",
+		Use:   "set DESIGNATION VALUE --unit m|ft|usft --datum CODE --in-force-from DATE --source CITATION --reason TEXT",
 		Short: "Record a height published by an outside authority",
 		Long: `Record a height of a benchmark as an outside authority published it: the
 value exactly as printed, its unit (m, ft for the international foot, usft for
@@ -41,14 +42,25 @@ for example a transcription error), or datum-change (the same mark moved to
 another realisation of the datum). Heights from adjustments of recorded runs
 come from 'cairn publish', and a withdrawal from 'cairn height withdraw'.
 
+--in-force-from (required) is when the height came in force, as its source
+gives it: the date the authority published it or it took effect (a date is
+the start of that day, local time; or a time, 2019-03-04T09:00:00Z). It is
+required because the register cannot know it: a default of today would
+make a height published years ago look in force only from its recording.
+It may not be in the future. A version in force from an earlier date than
+the one in force now is a correction of the past: 'height show --as-of'
+gives it for the dates it covers, and the height in force now stays.
+
 The height becomes a new version; the version it replaces stays in the
 register for good (see 'cairn history').
 
 ` + cautions,
 		Example: `  cairn height set TC-0412 769.83 --unit usft --datum NAVD88 --class second-I \
+    --in-force-from 1994-05-02 \
     --source "Tallis County Benchmark Book, 1994 edition, p. 12" \
     --reason "entered from the county benchmark book"
   cairn height set TC-0412 769.88 --unit usft --datum NAVD88 --kind correction \
+    --in-force-from 1994-05-02 \
     --source "errata sheet 3 to the 1994 book" --reason "769.83 was a transcription error"`,
 		Args: exactArgs(2, "a DESIGNATION and a VALUE"),
 		RunE: func(cmd *cobra.Command, args []string) error {
@@ -65,6 +77,10 @@ register for good (see 'cairn history').
 			if strings.TrimSpace(opts.params.Unit) == "" {
 				return badInput("--unit is required: say which unit the value is published in: m, ft (international foot, 0.3048 m) or usft (US survey foot, 1200/3937 m)")
 			}
+			var err error
+			if opts.params.InForceFrom, err = parseInForce(opts.inForce); err != nil {
+				return err
+			}
 			return dispatch(opts, runF, heightSetRun)
 		},
 	}
@@ -77,6 +93,7 @@ register for good (see 'cairn history').
 	fl.StringVar(&opts.params.Reason, "reason", "", "why this height is being recorded (required)")
 	fl.StringVar(&opts.params.RecordedBy, "by", osUser(), "who records it")
 	fl.StringVar(&opts.params.Kind, "kind", register.KindAuthority, "what the version is: authority, correction or datum-change")
+	fl.StringVar(&opts.inForce, "in-force-from", "", "when the height came in force, as its source gives it (required): a date (start of the day) or a time")
 	_ = cmd.RegisterFlagCompletionFunc("kind", func(*cobra.Command, []string, string) ([]string, cobra.ShellCompDirective) {
 		return []string{register.KindAuthority, register.KindCorrection, register.KindDatumChange}, cobra.ShellCompDirectiveNoFileComp
 	})
@@ -91,20 +108,26 @@ register for good (see 'cairn history').
 func newCmdHeightWithdraw(f *Factory, runF func(*heightSetOptions) error) *cobra.Command {
 	opts := &heightSetOptions{f: f}
 	cmd := &cobra.Command{
-		Use:   "withdraw DESIGNATION --datum CODE --reason TEXT",
+		Use:   "withdraw DESIGNATION --datum CODE --in-force-from DATE --reason TEXT",
 		Short: "Withdraw a mark's height on a datum, leaving none in force",
 		Long: `Withdraw a benchmark's height on one datum, for example when the mark is
 destroyed or its height can no longer be vouched for. The withdrawal is a new
 version with no value and a reason; the versions before it stay in the
 register, and as-of look-ups before the withdrawal still return them.
+--in-force-from (required) is when the withdrawal took effect, as for height
+set.
 
 ` + cautions,
-		Example: `  cairn height withdraw TC-0423 --datum NAVD88 --reason "mark destroyed when the depot was demolished"`,
+		Example: `  cairn height withdraw TC-0423 --datum NAVD88 --in-force-from 2024-06-10 --reason "mark destroyed when the depot was demolished"`,
 		Args:    exactArgs(1, "a DESIGNATION"),
 		RunE: func(cmd *cobra.Command, args []string) error {
 			opts.ctx = cmd.Context()
 			opts.params.Designation = args[0]
 			opts.params.Kind = register.KindWithdrawal
+			var err error
+			if opts.params.InForceFrom, err = parseInForce(opts.inForce); err != nil {
+				return err
+			}
 			return dispatch(opts, runF, heightSetRun)
 		},
 	}
@@ -113,6 +136,7 @@ register, and as-of look-ups before the withdrawal still return them.
 	fl.StringVar(&opts.params.Source, "source", "", "citation of a notice of the withdrawal, if any")
 	fl.StringVar(&opts.params.Reason, "reason", "", "why the height is withdrawn (required)")
 	fl.StringVar(&opts.params.RecordedBy, "by", osUser(), "who withdraws it")
+	fl.StringVar(&opts.inForce, "in-force-from", "", "when the withdrawal took effect (required): a date (start of the day) or a time")
 	return cmd
 }
 
@@ -130,11 +154,16 @@ func heightSetRun(opts *heightSetOptions) error {
 	}
 	v := res.Version
 	if opts.params.Kind == register.KindWithdrawal {
-		f.IO.printf("%s on %s has no height in force from now on (version %d, a withdrawal)\n", v.Designation, v.DatumCode, v.Version)
+		f.IO.printf("%s on %s has no height in force from %s on (version %d, a withdrawal)\n", v.Designation, v.DatumCode, timeText(v.InForceFrom), v.Version)
 		f.IO.printf("  withdraws version %d: %s\n", res.Previous.Version, valueText(*res.Previous))
 		return nil
 	}
-	f.IO.printf("%s on %s is now %s (version %d)\n", v.Designation, v.DatumCode, valueText(v), v.Version)
+	if v.Current {
+		f.IO.printf("%s on %s is now %s (version %d, in force from %s)\n", v.Designation, v.DatumCode, valueText(v), v.Version, timeText(v.InForceFrom))
+	} else {
+		f.IO.printf("%s on %s was %s from %s (version %d); a version in force from a later time stays in force now\n",
+			v.Designation, v.DatumCode, valueText(v), timeText(v.InForceFrom), v.Version)
+	}
 	if res.Previous != nil {
 		f.IO.printf("  replaces version %d: %s\n", res.Previous.Version, valueText(*res.Previous))
 	}
@@ -173,8 +202,12 @@ type heightJSON struct {
 	// null for versions written before schema v12.
 	RecordedRole *string   `json:"recorded_role"`
 	RecordedAt   time.Time `json:"recorded_at"`
-	// InForceFrom is when the version came in force (its transaction's
-	// commit), the instant --as-of compares with.
+	// CommittedAt is when the register learned of the version (its
+	// transaction's commit), the instant --known-at compares with.
+	CommittedAt time.Time `json:"committed_at"`
+	// InForceFrom is when the version came in force, the instant --as-of
+	// compares with: the time its source gives, or its commit for a
+	// version cairn published (or written before schema v17).
 	InForceFrom time.Time      `json:"in_force_from"`
 	Current     bool           `json:"current"`
 	Hash        string         `json:"hash"`
@@ -195,7 +228,7 @@ type convertedJSON struct {
 func toHeightJSON(h store.Height, in units.Unit) heightJSON {
 	j := heightJSON{Mark: h.Designation, Datum: h.DatumCode, Version: h.Version, Value: h.Value, Unit: h.Unit,
 		Decimals: h.Decimals, Class: h.Class, SourceKind: h.SourceKind, Source: h.Source, Reason: h.Reason,
-		RecordedBy: h.RecordedBy, RecordedRole: h.RecordedRole, RecordedAt: h.RecordedAt, InForceFrom: h.InForceFrom,
+		RecordedBy: h.RecordedBy, RecordedRole: h.RecordedRole, RecordedAt: h.RecordedAt, CommittedAt: h.CommittedAt, InForceFrom: h.InForceFrom,
 		Current: h.Current, Hash: hex.EncodeToString(h.Hash)}
 	if in != "" && h.Value != nil {
 		from := units.Unit(*h.Unit)
@@ -216,6 +249,19 @@ func byText(h heightJSON) string {
 	return h.RecordedBy + " (login " + *h.RecordedRole + ")"
 }
 
+// whenText is the instant a look-up asked about: "now", "at T", and "as
+// known at K".
+func whenText(asOf, knownAt *time.Time) string {
+	when := "now"
+	if asOf != nil {
+		when = "at " + timeText(*asOf)
+	}
+	if knownAt != nil {
+		when += " as known at " + timeText(*knownAt)
+	}
+	return when
+}
+
 // valueText is "769.83 usft", or "withdrawn".
 func valueText(h store.Height) string {
 	if h.Value == nil {
@@ -226,27 +272,38 @@ func valueText(h store.Height) string {
 
 // heightShowOptions are the inputs of `cairn height show`.
 type heightShowOptions struct {
-	f      *Factory
-	ctx    context.Context
-	format Format
-	params register.HeightShowParams
-	asOf   string
-	in     string
+	f       *Factory
+	ctx     context.Context
+	format  Format
+	params  register.HeightShowParams
+	asOf    string
+	knownAt string
+	in      string
 }
 
 func newCmdHeightShow(f *Factory, runF func(*heightShowOptions) error) *cobra.Command {
 	opts := &heightShowOptions{f: f}
 	cmd := &cobra.Command{
-		Use:   "show DESIGNATION [--datum CODE] [--as-of TIME] [--in UNIT]",
+		Use:   "show DESIGNATION [--datum CODE] [--as-of TIME] [--known-at TIME] [--in UNIT]",
 		Short: "Show a benchmark's heights in force, now or at a past time",
-		Long: `Show the heights of a benchmark in force now, or as the register stood at a
-past time (--as-of): one per datum, exactly as published, with the version,
-class and source. --in adds the value converted exactly to another unit.
+		Long: `Show the heights of a benchmark in force now, or in force at a past time
+(--as-of), as the register knows them now or as it knew them at a past time
+(--known-at): one per datum, exactly as published, with the version, class
+and source. --in adds the value converted exactly to another unit.
 
---as-of takes 2024-03-01T14:00:00Z, a local time 2024-03-01 14:00, or a
-date, meaning the end of that day. A version is in force from the commit of
-the transaction that wrote it (a publication comes in force whole, at one
-instant), the time shown as RECORDED.
+Every version has two times. IN FORCE FROM is when it came in force: the
+date its source gives for a height from outside (height set
+--in-force-from), the commit of the publication for a height cairn
+published. RECORDED is when the register learned of it: the commit of the
+transaction that wrote it. --as-of D answers "what was in force on D" by
+the first; --known-at T answers "what did the register know at T" by the
+second (alone, what it then said was in force then); both together answer
+"what did we think, at T, was in force on D". Of the versions known and in
+force by then, the answer is the one in force from the latest time, and of
+two in force from the same time (a correction), the one recorded later.
+
+Both take 2024-03-01T14:00:00Z, a local time 2024-03-01 14:00, or a date,
+meaning the end of that day.
 
 A loud warning goes to the error stream when the mark's latest condition
 report says it is disturbed, destroyed or not found.`,
@@ -257,12 +314,16 @@ report says it is disturbed, destroyed or not found.`,
 			if opts.params.AsOf, err = parseAsOf(opts.asOf); err != nil {
 				return err
 			}
+			if opts.params.KnownAt, err = parseKnownAt(opts.knownAt); err != nil {
+				return err
+			}
 			return dispatch(opts, runF, heightShowRun)
 		},
 	}
 	addOutputFlag(cmd, &opts.format)
 	cmd.Flags().StringVar(&opts.params.Datum, "datum", "", "only this datum")
 	cmd.Flags().StringVar(&opts.asOf, "as-of", "", asOfUsage("show the heights"))
+	cmd.Flags().StringVar(&opts.knownAt, "known-at", "", knownAtUsage("show the heights"))
 	cmd.Flags().StringVar(&opts.in, "in", "", "also show the value converted to this unit: m, ft or usft")
 	return cmd
 }
@@ -292,28 +353,26 @@ func heightShowRun(opts *heightShowOptions) error {
 		Warning   string          `json:"warning,omitempty"`
 		Doubts    register.Doubts `json:"doubts"`
 		AsOf      *time.Time      `json:"as_of"`
+		KnownAt   *time.Time      `json:"known_at"`
 		Heights   []heightJSON    `json:"heights"`
-	}{v.Mark.Designation, condition(v.Mark), register.Warning(v.Mark), doubtsJSON(v.Doubts), opts.params.AsOf, []heightJSON{}}
+	}{v.Mark.Designation, condition(v.Mark), register.Warning(v.Mark), doubtsJSON(v.Doubts),
+		register.AsOfOrKnown(opts.params.AsOf, opts.params.KnownAt), opts.params.KnownAt, []heightJSON{}}
 	for _, h := range v.Heights {
 		j := toHeightJSON(h, in)
 		j.Doubts = doubtsJSON(v.Doubts.Of(h.DatumCode, h.Version))
 		out.Heights = append(out.Heights, j)
 	}
 	if len(v.Heights) == 0 {
-		when := "now"
-		if opts.params.AsOf != nil {
-			when = "at " + timeText(*opts.params.AsOf)
-		}
-		opts.f.IO.printf("%s has no height in force %s\n", v.Mark.Designation, when)
+		opts.f.IO.printf("%s has no height in force %s\n", v.Mark.Designation, whenText(out.AsOf, out.KnownAt))
 	}
 	defer reportCautions(opts.f.IO, opts.format)
 	return render(opts.f.IO, opts.format, out, func() Table {
-		t := Table{Headers: []string{"DATUM", "VERSION", "HEIGHT" + perRowUnit, "UNIT", "CLASS", "RECORDED (UTC)", "SOURCE", "DOUBT"}}
+		t := Table{Headers: []string{"DATUM", "VERSION", "HEIGHT" + perRowUnit, "UNIT", "CLASS", "IN FORCE FROM (UTC)", "RECORDED (UTC)", "SOURCE", "DOUBT"}}
 		if in != "" {
 			t.Headers = append(t.Headers, "HEIGHT ("+string(in)+")")
 		}
 		for _, h := range out.Heights {
-			row := []string{h.Datum, strconv.Itoa(h.Version), deref(h.Value), deref(h.Unit), h.Class, timeText(h.InForceFrom), h.Source, doubtCell(opts.f.IO, h.Doubts)}
+			row := []string{h.Datum, strconv.Itoa(h.Version), deref(h.Value), deref(h.Unit), h.Class, timeText(h.InForceFrom), timeText(h.CommittedAt), h.Source, doubtCell(opts.f.IO, h.Doubts)}
 			if h.Value == nil {
 				row[2] = "withdrawn"
 			}
@@ -332,28 +391,33 @@ func heightShowRun(opts *heightShowOptions) error {
 
 // heightListOptions are the inputs of `cairn height list`.
 type heightListOptions struct {
-	f      *Factory
-	ctx    context.Context
-	format Format
-	datum  string
-	asOf   string
-	at     *time.Time
+	f       *Factory
+	ctx     context.Context
+	format  Format
+	datum   string
+	asOf    string
+	knownAt string
+	at      *time.Time
+	known   *time.Time
 }
 
 func newCmdHeightList(f *Factory, runF func(*heightListOptions) error) *cobra.Command {
 	opts := &heightListOptions{f: f}
 	cmd := &cobra.Command{
-		Use:   "list [--datum CODE] [--as-of TIME]",
+		Use:   "list [--datum CODE] [--as-of TIME] [--known-at TIME]",
 		Short: "List the height of every benchmark in force, now or at a past time",
-		Long: `List the height of every benchmark in force now, or as the register stood at
-a past time (--as-of, as for height show: the versions whose transaction had
-committed by then; a version in force then and withdrawn is listed as
-withdrawn).`,
+		Long: `List the height of every benchmark in force now, or in force at a past time
+(--as-of) as the register knows it now or knew it at a past time
+(--known-at), by the rule of height show (a version in force then and
+withdrawn is listed as withdrawn).`,
 		Args: exactArgs(0, "no arguments"),
 		RunE: func(cmd *cobra.Command, args []string) error {
 			opts.ctx = cmd.Context()
 			var err error
 			if opts.at, err = parseAsOf(opts.asOf); err != nil {
+				return err
+			}
+			if opts.known, err = parseKnownAt(opts.knownAt); err != nil {
 				return err
 			}
 			return dispatch(opts, runF, heightListRun)
@@ -362,6 +426,7 @@ withdrawn).`,
 	addOutputFlag(cmd, &opts.format)
 	cmd.Flags().StringVar(&opts.datum, "datum", "", "only this datum")
 	cmd.Flags().StringVar(&opts.asOf, "as-of", "", asOfUsage("list the heights"))
+	cmd.Flags().StringVar(&opts.knownAt, "known-at", "", knownAtUsage("list the heights"))
 	return cmd
 }
 
@@ -371,7 +436,7 @@ func heightListRun(opts *heightListOptions) error {
 	if err != nil {
 		return err
 	}
-	hs, err := r.HeightsAsOf(opts.ctx, opts.datum, opts.at)
+	hs, err := r.HeightsAsOf(opts.ctx, opts.datum, opts.at, opts.known)
 	if err != nil {
 		return err
 	}
@@ -418,8 +483,12 @@ func newCmdHistory(f *Factory, runF func(*historyOptions) error) *cobra.Command 
 an earlier version in another unit is converted exactly), its reason, its
 source and who recorded it: the name given with --by and the database login
 role that wrote it ("login not recorded" for versions from before schema
-v12). RECORDED is when the version came in force: the commit of the
-transaction that wrote it, the instant --as-of compares with.`,
+v12). Each version has two times: IN FORCE FROM, when it came in force (the
+date its source gives, or the commit of a publication), the instant
+--as-of compares with; and RECORDED, when the register learned of it (the
+commit of the transaction that wrote it), the instant --known-at compares
+with. The versions are listed in recorded order; a version recorded later
+may be in force from an earlier date (a correction of the past).`,
 		Args: exactArgs(1, "a DESIGNATION"),
 		RunE: func(cmd *cobra.Command, args []string) error {
 			opts.ctx, opts.designation = cmd.Context(), args[0]
@@ -468,13 +537,13 @@ func historyRun(opts *historyOptions) error {
 	}
 	defer reportCautions(ios, opts.format)
 	return render(ios, opts.format, out, func() Table {
-		t := Table{Headers: []string{"DATUM", "VERSION", "RECORDED (UTC)", "HEIGHT" + perRowUnit, "UNIT", "CHANGE" + perRowUnit, "KIND", "REASON", "SOURCE", "BY", "DOUBT"}}
+		t := Table{Headers: []string{"DATUM", "VERSION", "IN FORCE FROM (UTC)", "RECORDED (UTC)", "HEIGHT" + perRowUnit, "UNIT", "CHANGE" + perRowUnit, "KIND", "REASON", "SOURCE", "BY", "DOUBT"}}
 		for _, h := range out {
 			val := deref(h.Value)
 			if h.Value == nil {
 				val = "withdrawn"
 			}
-			t.AddRow(h.Datum, strconv.Itoa(h.Version), timeText(h.InForceFrom), val, deref(h.Unit),
+			t.AddRow(h.Datum, strconv.Itoa(h.Version), timeText(h.InForceFrom), timeText(h.CommittedAt), val, deref(h.Unit),
 				deref(h.Change), h.SourceKind, h.Reason, h.Source, byText(h.heightJSON), doubtCell(opts.f.IO, h.Doubts))
 		}
 		return t

@@ -53,7 +53,7 @@ func TestHostileText(t *testing.T) {
 		mustRun(t, db.URL, "mark", "add", des, "--type", v, "--setting", v, "--stamping", v, "--directions", v, "--by", who)
 		mustRun(t, db.URL, "mark", "condition", des, "good", "--note", v, "--by", who)
 		mustRun(t, db.URL, "datum", "add", fmt.Sprintf("D%d", i), "--name", v, "--note", v, "--by", who)
-		mustRun(t, db.URL, "height", "set", des, "1.000", "--unit", "m", "--datum", fmt.Sprintf("D%d", i),
+		mustRun(t, db.URL, "height", "set", "--in-force-from", inForceNow(), des, "1.000", "--unit", "m", "--datum", fmt.Sprintf("D%d", i),
 			"--source", v, "--reason", v, "--by", who)
 
 		var shown markJSON
@@ -123,7 +123,7 @@ func TestHostileText(t *testing.T) {
 	for _, r := range refusedText {
 		try("--note: ", "mark", "condition", "BM2", "good", "--note", r.value)
 		try("--directions: ", "mark", "add", "TC-0999", "--directions", r.value)
-		try("--reason: ", "height", "set", "BM2", "1.000", "--unit", "m", "--datum", "NAVD88", "--source", "s", "--reason", r.value)
+		try("--reason: ", "height", "set", "--in-force-from", inForceNow(), "BM2", "1.000", "--unit", "m", "--datum", "NAVD88", "--source", "s", "--reason", r.value)
 		try("--by: ", "publish", a2, "--reason", "r", "--by", r.value, "--yes")
 		try("--name: ", "datum", "add", "DX", "--name", r.value)
 		try("DESIGNATION: ", "mark", "add", r.value)

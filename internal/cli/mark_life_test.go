@@ -127,7 +127,7 @@ func TestResetAndReplacedMarks(t *testing.T) {
 	// The way out: level the reset marks again from other control. The new
 	// versions are recorded after the reset report; they are not before
 	// it, and may be held.
-	binMustRun(t, db.URL, "height", "set", "BM1", "728.730", "--unit", "m", "--datum", "NAVD88",
+	binMustRun(t, db.URL, "height", "set", "--in-force-from", inForceNow(), "BM1", "728.730", "--unit", "m", "--datum", "NAVD88",
 		"--source", "Outside control sheet 2 (invented citation)", "--reason", "BM1 levelled again from outside control after its reset")
 	a3 := adjustmentID(t, binMustRun(t, db.URL, "adjust", run1, "--hold", "BM1", "-o", "json"))
 	binMustRun(t, db.URL, "publish", a3, "--reason", "BM2 and BM1 levelled again after their reset", "--yes")
@@ -177,7 +177,7 @@ func TestResetAndReplacedMarks(t *testing.T) {
 	refusedBin(t, db, []string{"--hold: mark BM3 was RETIRED on 2024-07-01", "replaced by BM3A", "never held as control", "hold BM3A"},
 		"adjust", run1, "--hold", "BM3")
 	refusedBin(t, db, []string{"retired mark gets no new height"},
-		"height", "set", "BM3", "1.000", "--unit", "m", "--datum", "NAVD88", "--source", "Outside sheet 2 (invented)", "--reason", "new value")
+		"height", "set", "--in-force-from", inForceNow(), "BM3", "1.000", "--unit", "m", "--datum", "NAVD88", "--source", "Outside sheet 2 (invented)", "--reason", "new value")
 	refusedBin(t, db, []string{"mark BM3 is already in the register"}, "mark", "add", "BM3")
 	refusedBin(t, db, []string{"mark BM3 was retired already"}, "mark", "retire", "BM3", "--reason", "again")
 	refusedBin(t, db, []string{"mark BM3 is already in the register"}, "mark", "replace", "BM5", "BM3", "--reason", "x")

@@ -113,7 +113,7 @@ func TestTablesOnATerminalAndPiped(t *testing.T) {
 	cairn(t, db, "mark", "add", "TC-0413", "--type", "brass rod")
 	cairn(t, db, "mark", "condition", "TC-0412", "disturbed", "--on", "2024-05-14", "--note", "post tilted", "--by", "tester")
 	set := func(value, kind, source, reason string) {
-		cairn(t, db, "height", "set", "TC-0412", value, "--unit", "usft", "--datum", "NAVD88", "--kind", kind,
+		cairn(t, db, "height", "set", "--in-force-from", inForceNow(), "TC-0412", value, "--unit", "usft", "--datum", "NAVD88", "--kind", kind,
 			"--source", source, "--reason", reason, "--by", "tester")
 	}
 	set("769.83", "authority", "Tallis County Benchmark Book (invented)", "entered from the book")
@@ -135,9 +135,9 @@ func TestTablesOnATerminalAndPiped(t *testing.T) {
 		{[]string{"height", "list"}, []string{"MARK", "DATUM", "VERSION", "HEIGHT (in UNIT)", "UNIT", "CLASS", "SOURCE", "DOUBT"}, [][]string{
 			{"TC-0412", "NAVD88", "2", "769.88", "usft", "", "errata sheet 3 (invented)", anyCell},
 		}, false, false},
-		{[]string{"history", "TC-0412"}, []string{"DATUM", "VERSION", "RECORDED (UTC)", "HEIGHT (in UNIT)", "UNIT", "CHANGE (in UNIT)", "KIND", "REASON", "SOURCE", "BY", "DOUBT"}, [][]string{
-			{"NAVD88", "2", anyCell, "769.88", "usft", anyCell, "correction", "769.83 was a transcription error", "errata sheet 3 (invented)", by, anyCell},
-			{"NAVD88", "1", anyCell, "769.83", "usft", "", "authority", "entered from the book", "Tallis County Benchmark Book (invented)", by, anyCell},
+		{[]string{"history", "TC-0412"}, []string{"DATUM", "VERSION", "IN FORCE FROM (UTC)", "RECORDED (UTC)", "HEIGHT (in UNIT)", "UNIT", "CHANGE (in UNIT)", "KIND", "REASON", "SOURCE", "BY", "DOUBT"}, [][]string{
+			{"NAVD88", "2", anyCell, anyCell, "769.88", "usft", anyCell, "correction", "769.83 was a transcription error", "errata sheet 3 (invented)", by, anyCell},
+			{"NAVD88", "1", anyCell, anyCell, "769.83", "usft", "", "authority", "entered from the book", "Tallis County Benchmark Book (invented)", by, anyCell},
 		}, true, true},
 	} {
 		what := strings.Join(c.args, " ")

@@ -65,7 +65,7 @@ func TestFeetRefusedEverywhere(t *testing.T) {
 		wantRefused(t, db, "cairn: "+book+`:4: field "units": `+q+" "+feetAdvice,
 			"run", "record", book, "--held-height", "TC-0420=3.512", "--by", "tester")
 		wantRefused(t, db, "cairn: --unit: "+q+" "+feetAdvice,
-			"height", "set", "TC-0427", "5.104", "--unit", word, "--datum", "NAVD88", "--source", "book", "--reason", "r", "--by", "tester")
+			"height", "set", "--in-force-from", inForceNow(), "TC-0427", "5.104", "--unit", word, "--datum", "NAVD88", "--source", "book", "--reason", "r", "--by", "tester")
 		wantRefused(t, db, "cairn: in: "+q+" "+feetAdvice,
 			"height", "show", "TC-0420", "--in", word)
 		wantRefused(t, db, "cairn: --unit: "+q+" "+feetAdvice,
@@ -139,7 +139,7 @@ func TestHeightSetPlausible(t *testing.T) {
 	db := pgtest.New(t)
 	seed(t, db.URL)
 	set := func(value, unit string) []string {
-		args := []string{"height", "set", "--datum", "NAVD88", "--source", "book", "--reason", "r", "--by", "tester"}
+		args := []string{"height", "set", "--in-force-from", inForceNow(), "--datum", "NAVD88", "--source", "book", "--reason", "r", "--by", "tester"}
 		if unit != "" {
 			args = append(args, "--unit", unit)
 		}

@@ -76,7 +76,7 @@ func TestAdjustPublishTraceCommands(t *testing.T) {
 
 	// A new outside value for BM2, then a second adjustment: history shows
 	// all three versions with their reasons.
-	mustRun(t, db.URL, "height", "set", "BM2", "783.250", "--unit", "m", "--datum", "NAVD88",
+	mustRun(t, db.URL, "height", "set", "--in-force-from", inForceNow(), "BM2", "783.250", "--unit", "m", "--datum", "NAVD88",
 		"--source", "Outside check (invented citation)", "--reason", "outside check", "--by", "tester")
 	if err := json.Unmarshal([]byte(mustRun(t, db.URL, "adjust", runID, "--hold", "BM1", "-o", "json")), &rep); err != nil {
 		t.Fatal(err)

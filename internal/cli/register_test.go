@@ -50,7 +50,7 @@ func seed(t *testing.T, url string) {
 }
 
 func setArgs(value, reason string) []string {
-	return []string{"height", "set", "TC-0412", value, "--unit", "usft", "--datum", "NAVD88",
+	return []string{"height", "set", "--in-force-from", inForceNow(), "TC-0412", value, "--unit", "usft", "--datum", "NAVD88",
 		"--source", "Tallis County Benchmark Book (invented)", "--reason", reason, "--by", "tester"}
 }
 
@@ -269,14 +269,14 @@ func TestBadInputChangesNothing(t *testing.T) {
 	mustRun(t, db.URL, setArgs("769.83", "from the book")...)
 	before := registertest.Counts(t, db.Pool)
 	hs := func(value, unit, datum, reason string) []string {
-		return []string{"height", "set", "TC-0412", value, "--unit", unit, "--datum", datum, "--source", "book", "--reason", reason}
+		return []string{"height", "set", "--in-force-from", inForceNow(), "TC-0412", value, "--unit", unit, "--datum", datum, "--source", "book", "--reason", reason}
 	}
 	for _, c := range []struct {
 		name  string
 		args  []string
 		field string
 	}{
-		{"unknown mark", []string{"height", "set", "TC-0421", "769.90", "--unit", "usft", "--datum", "NAVD88", "--source", "book", "--reason", "r"}, "designation"},
+		{"unknown mark", []string{"height", "set", "--in-force-from", inForceNow(), "TC-0421", "769.90", "--unit", "usft", "--datum", "NAVD88", "--source", "book", "--reason", "r"}, "designation"},
 		{"unknown datum", hs("769.90", "usft", "NAVD89", "r"), "datum"},
 		{"misspelt unit", hs("769.90", "usf", "NAVD88", "r"), "unit"},
 		{"non-numeric height", hs("769.9O", "usft", "NAVD88", "r"), "value"},
@@ -329,7 +329,7 @@ func TestDemoRunsTwice(t *testing.T) {
 	for i := range 2 {
 		out := mustRun(t, server, "demo", "--name", name)
 		for _, want := range []string{"TC-0412", "234.662", "769.83", "correction", "DISTURBED",
-			"licensed surveyor", "two marks", "condition", "regulations govern", "--db", name, "invented", "Mere River levee line", "Marks touched"} {
+			"licensed surveyor", "two marks", "condition", "regulations govern", "--db", name, "invented", "Mere River levee line", "Marks touched", "as it stood on 2020-06-01"} {
 			if !strings.Contains(out, want) {
 				t.Fatalf("run %d: demo output lacks %q:\n%s", i+1, want, out)
 			}
@@ -378,7 +378,7 @@ func TestHeightCorrectionAndWithdrawal(t *testing.T) {
 	seed(t, db.URL)
 	mustRun(t, db.URL, setArgs("769.83", "entered from the book")...)
 	mustRun(t, db.URL, append(setArgs("769.88", "769.83 was a transcription error"), "--kind", "correction")...)
-	mustRun(t, db.URL, "height", "withdraw", "TC-0412", "--datum", "NAVD88", "--reason", "mark destroyed by roadworks", "--by", "tester")
+	mustRun(t, db.URL, "height", "withdraw", "--in-force-from", inForceNow(), "TC-0412", "--datum", "NAVD88", "--reason", "mark destroyed by roadworks", "--by", "tester")
 
 	out := mustRun(t, db.URL, "history", "TC-0412")
 	for _, want := range []string{"withdrawal\tmark destroyed by roadworks", "correction\t769.83 was a transcription error", "authority\tentered from the book"} {
@@ -394,7 +394,7 @@ func TestHeightCorrectionAndWithdrawal(t *testing.T) {
 	}
 	before := registertest.Counts(t, db.Pool)
 	for _, args := range [][]string{
-		{"height", "withdraw", "TC-0412", "--datum", "NAVD88", "--reason", "again"},
+		{"height", "withdraw", "--in-force-from", inForceNow(), "TC-0412", "--datum", "NAVD88", "--reason", "again"},
 		append(setArgs("769.90", "by hand"), "--kind", "adjustment"),
 	} {
 		if _, errOut, st := run(t, db.URL, args...); st != ExitBadInput {
@@ -406,3 +406,8 @@ func TestHeightCorrectionAndWithdrawal(t *testing.T) {
 	}
 	mustRun(t, db.URL, "audit", "verify")
 }
+
+// inForceNow is --in-force-from for a height recorded by a test as in force
+// from the moment it is recorded: the time of the call, which the version's
+// write time follows.
+func inForceNow() string { return time.Now().UTC().Format(time.RFC3339Nano) }

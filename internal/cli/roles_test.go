@@ -125,7 +125,7 @@ func TestRolesPrivileges(t *testing.T) {
 	refused(t, db, reader, store.RoleRecorder, "mark", "condition", "BM2", "disturbed", "--note", "post tilted")
 	refused(t, db, reader, store.RoleRecorder, "run", "record", book)
 	refused(t, db, reader, store.RoleRecorder, "adjust", run1, "--hold", "BM1")
-	refused(t, db, reader, store.RolePublisher, "height", "set", "BM2", "783.250", "--unit", "m", "--datum", "NAVD88",
+	refused(t, db, reader, store.RolePublisher, "height", "set", "--in-force-from", inForceNow(), "BM2", "783.250", "--unit", "m", "--datum", "NAVD88",
 		"--source", "Outside check (invented citation)", "--reason", "outside check")
 	refused(t, db, reader, store.RolePublisher, "publish", ownerDraft, "--reason", "reviewed", "--yes")
 	refused(t, db, reader, store.RolePublisher, "discard", ownerDraft, "--reason", "not wanted", "--yes")
@@ -150,7 +150,7 @@ func TestRolesPrivileges(t *testing.T) {
 	// ... but publishes nothing.
 	refused(t, db, recorder, store.RolePublisher, "publish", recorderDraft, "--reason", "reviewed", "--yes")
 	refused(t, db, recorder, store.RolePublisher, "discard", ownerDraft, "--reason", "not wanted", "--yes")
-	refused(t, db, recorder, store.RolePublisher, "height", "set", "BM2", "783.250", "--unit", "m", "--datum", "NAVD88",
+	refused(t, db, recorder, store.RolePublisher, "height", "set", "--in-force-from", inForceNow(), "BM2", "783.250", "--unit", "m", "--datum", "NAVD88",
 		"--source", "Outside check (invented citation)", "--reason", "outside check")
 	refused(t, db, recorder, store.RolePublisher, "datum", "add", "OBLD61", "--name", "Orrin Bay Local Datum 1961")
 	// Voiding evidence is a publisher's decision.
@@ -159,7 +159,7 @@ func TestRolesPrivileges(t *testing.T) {
 	// The publisher publishes and discards.
 	mustRun(t, publisher, "discard", ownerDraft, "--reason", "superseded by the recorder's draft", "--yes")
 	mustRun(t, publisher, "publish", recorderDraft, "--reason", "worked circuit, reviewed", "--yes")
-	mustRun(t, publisher, "height", "set", "BM2", "783.250", "--unit", "m", "--datum", "NAVD88",
+	mustRun(t, publisher, "height", "set", "--in-force-from", inForceNow(), "BM2", "783.250", "--unit", "m", "--datum", "NAVD88",
 		"--source", "Outside check (invented citation)", "--reason", "outside check")
 	mustRun(t, publisher, "datum", "add", "OBLD61", "--name", "Orrin Bay Local Datum 1961")
 	mustRun(t, publisher, "run", "void", run1, "--reason", "wrong rod", "--yes")

@@ -313,8 +313,8 @@ func TestShadowsChangeNothing(t *testing.T) {
 	}
 	var at time.Time
 	var version int
-	if err := publisher.QueryRow(ctx, `INSERT INTO public.height (mark_id, datum_id, supersedes, value, unit, decimals, source_kind, source, reason, recorded_by)
-		SELECT h.mark_id, h.datum_id, h.id, 783.250, 'm', 3, 'authority', 'Outside check (invented citation)', 'outside check', 'x'
+	if err := publisher.QueryRow(ctx, `INSERT INTO public.height (mark_id, datum_id, supersedes, value, unit, decimals, source_kind, source, reason, recorded_by, in_force_from)
+		SELECT h.mark_id, h.datum_id, h.id, 783.250, 'm', 3, 'authority', 'Outside check (invented citation)', 'outside check', 'x', '2024-01-01T00:00:00Z'
 		FROM public.height h JOIN public.mark m ON m.id = h.mark_id WHERE m.designation = 'BM2' ORDER BY h.version DESC LIMIT 1
 		RETURNING recorded_at, version`).Scan(&at, &version); err != nil {
 		t.Fatal(err)
@@ -403,8 +403,8 @@ func TestShadowsChangeNothing(t *testing.T) {
 		t.Errorf("a height of 999.99 citing draft %d with an = always true: %v, want refused", s.draft, err)
 	}
 	_ = tx.Rollback(ctx)
-	if err := publisher.QueryRow(ctx, `INSERT INTO public.height (mark_id, datum_id, supersedes, value, unit, decimals, source_kind, source, reason, recorded_by)
-		SELECT h.mark_id, h.datum_id, h.id, 783.251, 'm', 3, 'authority', 'Outside check (invented citation)', 'outside check', 'x'
+	if err := publisher.QueryRow(ctx, `INSERT INTO public.height (mark_id, datum_id, supersedes, value, unit, decimals, source_kind, source, reason, recorded_by, in_force_from)
+		SELECT h.mark_id, h.datum_id, h.id, 783.251, 'm', 3, 'authority', 'Outside check (invented citation)', 'outside check', 'x', '2024-01-01T00:00:00Z'
 		FROM public.height h JOIN public.mark m ON m.id = h.mark_id WHERE m.designation = 'BM2' ORDER BY h.version DESC LIMIT 1
 		RETURNING recorded_at, version`).Scan(&at, &version); err != nil {
 		t.Fatal(err)

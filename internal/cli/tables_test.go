@@ -301,7 +301,7 @@ func TestMarkListByCondition(t *testing.T) {
 	if !strings.Contains(help, strings.Join(register.ShownConditions, ", ")) {
 		t.Errorf("mark list --help lacks the conditions:\n%s", help)
 	}
-	for _, cmd := range [][]string{{"height", "set", "--help"}, {"run", "check", "--help"}, {"run", "record", "--help"}} {
+	for _, cmd := range [][]string{{"height", "set", "--in-force-from", inForceNow(), "--help"}, {"run", "check", "--help"}, {"run", "record", "--help"}} {
 		help, _, _ := binRun(t, url, cmd...)
 		if !strings.Contains(help, "first-I, first-II, second-I, second-II, third") || regexp.MustCompile(`1st|2nd|3rd`).MatchString(help) {
 			t.Errorf("%s: the class flag does not list the register's spellings:\n%s", strings.Join(cmd, " "), help)

@@ -16,8 +16,9 @@ import (
 
 // traceJSON is the derivation of a mark's heights in machine output.
 type traceJSON struct {
-	Mark string     `json:"mark"`
-	AsOf *time.Time `json:"as_of"`
+	Mark    string     `json:"mark"`
+	AsOf    *time.Time `json:"as_of"`
+	KnownAt *time.Time `json:"known_at"`
 	// Doubts are the doubts about the mark and the versions traced (each
 	// node carries its own in its doubts).
 	Doubts   register.Doubts    `json:"doubts"`
@@ -76,17 +77,18 @@ func toTraceVersionJSON(n *register.TraceVersion) traceVersionJSON {
 
 // traceOptions are the inputs of `cairn trace`.
 type traceOptions struct {
-	f      *Factory
-	ctx    context.Context
-	format Format
-	params register.TraceParams
-	asOf   string
+	f       *Factory
+	ctx     context.Context
+	format  Format
+	params  register.TraceParams
+	asOf    string
+	knownAt string
 }
 
 func newCmdTrace(f *Factory, runF func(*traceOptions) error) *cobra.Command {
 	opts := &traceOptions{f: f}
 	cmd := &cobra.Command{
-		Use:   "trace DESIGNATION [--datum CODE] [--as-of TIME]",
+		Use:   "trace DESIGNATION [--datum CODE] [--as-of TIME] [--known-at TIME]",
 		Short: "Show where a benchmark's height came from, down to outside sources",
 		Long: `Show the derivation of a benchmark's height as a tree: the version in force
 (now, or at --as-of), the adjustment it came from, that adjustment's runs
@@ -94,8 +96,9 @@ with the SHA-256 of their field books as recorded (and, for a run since
 voided, when, by whom and why), and the versions it held,
 each traced in turn, down to the outside publications they cite. Each
 version says who recorded it: the name given with --by and the database
-login role that wrote it. A version is in force from the commit of the
-transaction that wrote it; --as-of traces the versions committed by then.
+login role that wrote it, when it came in force and when the register
+recorded it. --as-of and --known-at pick the version as height show does:
+in force at --as-of, as the register knew it at --known-at.
 
 -o json gives the same tree; -o csv gives one row per node with its depth.`,
 		Args: exactArgs(1, "a DESIGNATION"),
@@ -105,12 +108,16 @@ transaction that wrote it; --as-of traces the versions committed by then.
 			if opts.params.AsOf, err = parseAsOf(opts.asOf); err != nil {
 				return err
 			}
+			if opts.params.KnownAt, err = parseKnownAt(opts.knownAt); err != nil {
+				return err
+			}
 			return dispatch(opts, runF, traceRun)
 		},
 	}
 	addOutputFlag(cmd, &opts.format)
 	cmd.Flags().StringVar(&opts.params.Datum, "datum", "", "only this datum")
 	cmd.Flags().StringVar(&opts.asOf, "as-of", "", asOfUsage("trace the version"))
+	cmd.Flags().StringVar(&opts.knownAt, "known-at", "", knownAtUsage("trace the version"))
 	return cmd
 }
 
@@ -126,7 +133,7 @@ func traceRun(opts *traceOptions) error {
 		return err
 	}
 	warnDoubts(ios, tr.Doubts)
-	out := traceJSON{Mark: tr.Mark.Designation, AsOf: tr.AsOf, Doubts: doubtsJSON(tr.Doubts), Versions: []traceVersionJSON{}}
+	out := traceJSON{Mark: tr.Mark.Designation, AsOf: tr.AsOf, KnownAt: tr.KnownAt, Doubts: doubtsJSON(tr.Doubts), Versions: []traceVersionJSON{}}
 	for _, v := range tr.Versions {
 		out.Versions = append(out.Versions, toTraceVersionJSON(v))
 	}
@@ -135,7 +142,7 @@ func traceRun(opts *traceOptions) error {
 		return writeJSON(ios.Out, out)
 	case FormatCSV:
 		t := Table{Headers: []string{"depth", "node", "mark", "datum", "version", "height" + perRowUnit, "unit", "source_kind", "source", "adjustment_id", "run_id", "book_sha256",
-			"held_as", "accepted_failed_checks", "doubt"}}
+			"held_as", "accepted_failed_checks", "doubt", "in_force_from", "recorded"}}
 		for _, v := range out.Versions {
 			traceRows(&t, v, 0)
 		}
@@ -194,8 +201,8 @@ func runText(r runRefJSON) string {
 
 // writeTrace writes the tree under v, indented.
 func writeTrace(w io.Writer, v traceVersionJSON, indent string) {
-	fmt.Fprintf(w, "%s%s on %s, version %d: %s (%s), recorded %s by %s\n", indent, v.Mark, v.Datum, v.Version,
-		valueOrWithdrawn(v.heightJSON), v.SourceKind, timeText(v.InForceFrom), byText(v.heightJSON))
+	fmt.Fprintf(w, "%s%s on %s, version %d: %s (%s), in force from %s, recorded %s by %s\n", indent, v.Mark, v.Datum, v.Version,
+		valueOrWithdrawn(v.heightJSON), v.SourceKind, timeText(v.InForceFrom), timeText(v.CommittedAt), byText(v.heightJSON))
 	in := indent + "    "
 	for _, d := range v.Doubts {
 		fmt.Fprintf(w, "%s!! DOUBT: %s\n", in, d.Text)
@@ -240,12 +247,12 @@ func traceRows(t *Table, v traceVersionJSON, depth int) {
 		accepted = acceptanceText(v.Adjustment.AcceptedFailedChecks, "")
 	}
 	t.AddRow(strconv.Itoa(depth), "version", v.Mark, v.Datum, strconv.Itoa(v.Version), deref(v.Value), deref(v.Unit), v.SourceKind, v.Source, adj, "", "",
-		v.HeldAs, accepted, v.Doubts.Words())
+		v.HeldAs, accepted, v.Doubts.Words(), v.InForceFrom.UTC().Format(time.RFC3339Nano), v.CommittedAt.UTC().Format(time.RFC3339Nano))
 	if v.Adjustment == nil || v.Repeated {
 		return
 	}
 	for _, r := range v.Adjustment.Runs {
-		t.AddRow(strconv.Itoa(depth+1), "run", "", "", "", "", "", "", r.FileName, adj, strconv.FormatInt(r.RunID, 10), r.BookSHA256, "", "", "")
+		t.AddRow(strconv.Itoa(depth+1), "run", "", "", "", "", "", "", r.FileName, adj, strconv.FormatInt(r.RunID, 10), r.BookSHA256, "", "", "", "", "")
 	}
 	for _, h := range v.Adjustment.Held {
 		traceRows(t, h, depth+1)

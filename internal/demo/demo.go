@@ -129,28 +129,36 @@ const (
 )
 
 func addHeights(ctx context.Context, r *register.Register) error {
-	type h struct{ des, datum, value, unit, class, kind, source, reason string }
+	type h struct{ des, datum, value, unit, class, kind, source, reason, inForce string }
 	for _, x := range []h{
-		{"TC-0401", "OBLD61", "118.62", "ft", "third", "", town1961, "entered from the town's 1961 abstract"},
-		{"TC-0412", "OBLD61", "112.47", "ft", "third", "", town1961, "entered from the town's 1961 abstract"},
-		{"TC-0419", "OBLD61", "96.35", "ft", "third", "", town1961, "entered from the town's 1961 abstract"},
-		{"TC-0420", "OBLD61", "3.512", "m", "second-I", "", levee88, "entered from the levee sheets"},
-		{"TC-0427", "OBLD61", "5.104", "m", "second-I", "", levee88, "entered from the levee sheets"},
-		{"TC-0401", "NAVD88", "776.12", "usft", "second-II", "", book1994 + ", p. 11", "entered from the 1994 benchmark book"},
-		{"TC-0405", "NAVD88", "771.40", "usft", "second-II", "", book1994 + ", p. 11", "entered from the 1994 benchmark book"},
-		{"TC-0408", "NAVD88", "781.07", "usft", "second-II", "", book1994 + ", p. 12", "entered from the 1994 benchmark book"},
-		{"TC-0412", "NAVD88", "769.83", "usft", "second-II", "", book1994 + ", p. 12", "entered from the 1994 benchmark book"},
-		{"TC-0415", "NAVD88", "768.29", "usft", "second-II", "", book1994 + ", p. 12", "entered from the 1994 benchmark book"},
-		{"TC-0419", "NAVD88", "753.71", "usft", "second-II", "", book1994 + ", p. 13", "entered from the 1994 benchmark book"},
-		{"TC-0423", "NAVD88", "778.36", "usft", "second-II", "", book1994 + ", p. 13", "entered from the 1994 benchmark book"},
+		{"TC-0401", "OBLD61", "118.62", "ft", "third", "", town1961, "entered from the town's 1961 abstract", "1961-11-20"},
+		{"TC-0412", "OBLD61", "112.47", "ft", "third", "", town1961, "entered from the town's 1961 abstract", "1961-11-20"},
+		{"TC-0419", "OBLD61", "96.35", "ft", "third", "", town1961, "entered from the town's 1961 abstract", "1961-11-20"},
+		{"TC-0420", "OBLD61", "3.512", "m", "second-I", "", levee88, "entered from the levee sheets", "1988-08-01"},
+		{"TC-0427", "OBLD61", "5.104", "m", "second-I", "", levee88, "entered from the levee sheets", "1988-08-01"},
+		{"TC-0401", "NAVD88", "776.12", "usft", "second-II", "", book1994 + ", p. 11", "entered from the 1994 benchmark book", "1994-06-01"},
+		{"TC-0405", "NAVD88", "771.40", "usft", "second-II", "", book1994 + ", p. 11", "entered from the 1994 benchmark book", "1994-06-01"},
+		{"TC-0408", "NAVD88", "781.07", "usft", "second-II", "", book1994 + ", p. 12", "entered from the 1994 benchmark book", "1994-06-01"},
+		{"TC-0412", "NAVD88", "769.83", "usft", "second-II", "", book1994 + ", p. 12", "entered from the 1994 benchmark book", "1994-06-01"},
+		{"TC-0415", "NAVD88", "768.29", "usft", "second-II", "", book1994 + ", p. 12", "entered from the 1994 benchmark book", "1994-06-01"},
+		{"TC-0419", "NAVD88", "753.71", "usft", "second-II", "", book1994 + ", p. 13", "entered from the 1994 benchmark book", "1994-06-01"},
+		{"TC-0423", "NAVD88", "778.36", "usft", "second-II", "", book1994 + ", p. 13", "entered from the 1994 benchmark book", "1994-06-01"},
 		{"TC-0412", "NAVD88", "769.88", "usft", "second-II", register.KindCorrection, errata,
-			"transcription error in the 1994 book: 769.83 should read 769.88"},
-		{"TC-0412", "NAVD88", "234.662", "m", "second-I", "", report19, "county re-levelling of 2019, published in metres"},
-		{"TC-0430", "NAVD88", "238.915", "m", "second-I", "", report19, "new mark of the 2019 re-levelling"},
-		{"TC-0405", "NAVD88", "235.124", "m", "second-I", "", report19, "county re-levelling of 2019, published in metres"},
+			"transcription error in the 1994 book: 769.83 should read 769.88", "1994-06-01"},
+		{"TC-0412", "NAVD88", "234.662", "m", "second-I", "", report19, "county re-levelling of 2019, published in metres", "2019-09-16"},
+		{"TC-0430", "NAVD88", "238.915", "m", "second-I", "", report19, "new mark of the 2019 re-levelling", "2019-09-16"},
+		{"TC-0405", "NAVD88", "235.124", "m", "second-I", "", report19, "county re-levelling of 2019, published in metres", "2019-09-16"},
 	} {
+		// Each height is in force from the date its source gives (invented):
+		// the errata sheet of 1996 corrects the 1994 book from the book's
+		// own date, as a correction does.
+		from, err := date(x.inForce)
+		if err != nil {
+			return err
+		}
 		if _, err := r.HeightSet(ctx, register.HeightSetParams{Designation: x.des, Datum: x.datum, Value: x.value,
-			Unit: x.unit, Class: x.class, Kind: x.kind, Source: x.source, Reason: x.reason, RecordedBy: Clerk}); err != nil {
+			Unit: x.unit, Class: x.class, Kind: x.kind, Source: x.source, Reason: x.reason, RecordedBy: Clerk,
+			InForceFrom: &from}); err != nil {
 			return err
 		}
 	}

@@ -5,6 +5,7 @@ import (
 	"crypto/sha256"
 	"os"
 	"testing"
+	"time"
 
 	"cairn/internal/pgtest"
 	"cairn/internal/register"
@@ -58,5 +59,36 @@ func TestDemoAdjustmentTrace(t *testing.T) {
 	}
 	if s, err := r.Stale(ctx); err != nil || len(s) != 0 {
 		t.Fatalf("stale after the demo: %v %v", s, err)
+	}
+}
+
+// The demo's historical heights are in force from their sources' dates:
+// asked about 2020-06-01, TC-0412 has the 2019 report's value; about 1995,
+// the 1994 book's as the errata sheet corrected it from the book's date.
+func TestDemoHeightsInForceFromTheirDates(t *testing.T) {
+	t.Parallel()
+	ctx := context.Background()
+	r := register.New(pgtest.New(t).Pool)
+	if err := Build(ctx, r); err != nil {
+		t.Fatal(err)
+	}
+	for _, c := range []struct {
+		asOf        time.Time
+		value, unit string
+	}{
+		{time.Date(2020, 6, 1, 23, 59, 59, 0, time.UTC), "234.662", "m"},
+		{time.Date(1995, 1, 1, 0, 0, 0, 0, time.UTC), "769.88", "usft"},
+	} {
+		v, err := r.HeightShow(ctx, register.HeightShowParams{Designation: "TC-0412", Datum: "NAVD88", AsOf: &c.asOf})
+		if err != nil {
+			t.Fatal(err)
+		}
+		if len(v.Heights) != 1 || v.Heights[0].Value == nil || *v.Heights[0].Value != c.value || *v.Heights[0].Unit != c.unit {
+			t.Fatalf("TC-0412 as of %s: %+v, want %s %s", c.asOf.Format("2006-01-02"), v.Heights, c.value, c.unit)
+		}
+	}
+	before := time.Date(1994, 5, 31, 0, 0, 0, 0, time.UTC)
+	if v, err := r.HeightShow(ctx, register.HeightShowParams{Designation: "TC-0412", Datum: "NAVD88", AsOf: &before}); err != nil || len(v.Heights) != 0 {
+		t.Fatalf("TC-0412 on NAVD88 before the 1994 book: %v %+v, want none", err, v.Heights)
 	}
 }

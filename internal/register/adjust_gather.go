@@ -112,7 +112,7 @@ func (r *Register) gather(ctx context.Context, tx pgx.Tx, p AdjustParams) (*gath
 	}
 	var doubt []string
 	for k, m := range g.holds {
-		h, err := store.HeightLatest(ctx, tx, store.HeightLatestParams{MarkID: m.ID, DatumID: g.datum.ID})
+		h, err := store.HeightCurrent(ctx, tx, store.HeightLatestParams{MarkID: m.ID, DatumID: g.datum.ID})
 		if errors.Is(err, store.ErrNotFound) || err == nil && h.Value == nil {
 			return nil, inputErr("hold", "%s has no current height on %s to hold", m.Designation, g.datum.Code)
 		}

@@ -40,6 +40,15 @@ import (
 // follows the others:
 //
 //	recorded_role the login role (session_user) that wrote it
+//
+// A version that gives the time it came in force (schema v17, from
+// outside: InForceGiven not nil) uses layout 3: "cairn-height" is 3 and
+// one more line follows those of layout 2:
+//
+//	in_force_from UTC, microseconds, as recorded_at
+//
+// A version without keeps layout 2 (or 1), whose meaning is "in force
+// from its commit".
 func Canonical(prevHash []byte, h store.Height) string {
 	opt := func(s *string) string {
 		if s == nil {
@@ -55,7 +64,10 @@ func Canonical(prevHash []byte, h store.Height) string {
 		adj = strconv.FormatInt(*h.AdjustmentID, 10)
 	}
 	layout := "1"
-	if h.RecordedRole != nil {
+	switch {
+	case h.InForceGiven != nil:
+		layout = "3"
+	case h.RecordedRole != nil:
 		layout = "2"
 	}
 	fields := [][2]string{
@@ -75,8 +87,11 @@ func Canonical(prevHash []byte, h store.Height) string {
 		{"recorded_by", h.RecordedBy},
 		{"recorded_at", h.RecordedAt.UTC().Format("2006-01-02T15:04:05.000000Z")},
 	}
-	if h.RecordedRole != nil {
-		fields = append(fields, [2]string{"recorded_role", *h.RecordedRole})
+	if h.RecordedRole != nil || h.InForceGiven != nil {
+		fields = append(fields, [2]string{"recorded_role", opt(h.RecordedRole)})
+	}
+	if h.InForceGiven != nil {
+		fields = append(fields, [2]string{"in_force_from", h.InForceGiven.UTC().Format("2006-01-02T15:04:05.000000Z")})
 	}
 	var b strings.Builder
 	for _, f := range fields {

@@ -3,6 +3,7 @@ package register_test
 import (
 	"context"
 	"errors"
+	"slices"
 	"strconv"
 	"strings"
 	"sync"
@@ -207,22 +208,67 @@ func TestAuditAcrossLayouts(t *testing.T) {
 		}
 	}
 	conn.Release()
-	v2 := fx.Height(t, registertest.HeightOpts{Designation: "TC-0412", Value: "769.88", Unit: "usft", Kind: KindCorrection, Source: "errata (invented)", Reason: "transcription error", By: "test"})
+	// A version as schemas v12 to v16 wrote it: layout 2, no in-force time
+	// of its own (in force from its commit).
+	conn, err = fx.DB.Pool.Acquire(ctx)
+	if err != nil {
+		t.Fatal(err)
+	}
+	for _, q := range []string{
+		"SET session_replication_role = replica",
+		`INSERT INTO height (mark_id, datum_id, version, supersedes, value, unit, decimals, source_kind, source, reason, recorded_by, recorded_at, recorded_role, hash)
+		 SELECT m.id, d.id, 2, h.id, 769.85, 'usft', 2, 'authority', 'Tallis County control sheet (invented)', 'entered', 'old hand', '2021-01-01T00:00:00Z', 'clerk', '\x00'
+		 FROM mark m, datum d, height h`,
+		`UPDATE height h SET created_xid = NULL, hash = sha256(convert_to(height_canonical_v2(p.hash, m.designation, d.code, h), 'UTF8'))
+		 FROM mark m, datum d, height p WHERE m.id = h.mark_id AND d.id = h.datum_id AND h.version = 2 AND p.id = h.supersedes`,
+		"SET session_replication_role = origin",
+	} {
+		if _, err := conn.Exec(ctx, q); err != nil {
+			t.Fatalf("%s: %v", q, err)
+		}
+	}
+	conn.Release()
+	v3 := fx.Height(t, registertest.HeightOpts{Designation: "TC-0412", Value: "769.88", Unit: "usft", Kind: KindCorrection, Source: "errata (invented)", Reason: "transcription error", By: "test"})
 	hv, err := fx.Reg.History(ctx, "TC-0412", "")
-	if err != nil || len(hv.Versions) != 2 {
+	if err != nil || len(hv.Versions) != 3 {
 		t.Fatalf("history: %v, %d versions", err, len(hv.Versions))
 	}
-	old := hv.Versions[1].Height
+	old, v2 := hv.Versions[2].Height, hv.Versions[1].Height
 	if old.RecordedRole != nil || !strings.HasPrefix(Canonical(nil, old), "cairn-height:1:1\n") {
 		t.Errorf("the old version: role %v, layout %q", old.RecordedRole, Canonical(nil, old)[:16])
 	}
-	if v2.RecordedRole == nil || !strings.HasPrefix(Canonical(old.Hash, v2), "cairn-height:1:2\n") ||
+	if v2.RecordedRole == nil || v2.InForceGiven != nil || !strings.HasPrefix(Canonical(old.Hash, v2), "cairn-height:1:2\n") ||
 		!strings.HasSuffix(Canonical(old.Hash, v2), "recorded_role:"+strconv.Itoa(len(*v2.RecordedRole))+":"+*v2.RecordedRole+"\n") {
-		t.Errorf("the new version: role %v, text %q", v2.RecordedRole, Canonical(old.Hash, v2))
+		t.Errorf("the v12 version: role %v, text %q", v2.RecordedRole, Canonical(old.Hash, v2))
+	}
+	if v3.InForceGiven == nil || !strings.HasPrefix(Canonical(v2.Hash, v3), "cairn-height:1:3\n") ||
+		!strings.HasSuffix(Canonical(v2.Hash, v3), "in_force_from:27:"+v3.InForceGiven.UTC().Format("2006-01-02T15:04:05.000000Z")+"\n") {
+		t.Errorf("the new version: in force %v, text %q", v3.InForceGiven, Canonical(v2.Hash, v3))
 	}
 	rep, err := fx.Reg.AuditVerify(ctx)
-	if err != nil || len(rep.Breaks) != 0 || rep.Versions != 2 {
+	if err != nil || len(rep.Breaks) != 0 || rep.Versions != 3 {
 		t.Fatalf("audit: %v %+v", err, rep)
+	}
+	// The in-force time is sealed: changed on the new version, or given to
+	// the v12 one, the audit finds each.
+	for _, q := range []string{
+		"UPDATE height SET in_force_from = in_force_from - interval '1 day' WHERE version = 3",
+		"UPDATE height SET in_force_from = '2021-01-01T00:00:00Z' WHERE version = 2",
+	} {
+		conn, err := fx.DB.Pool.Acquire(ctx)
+		if err != nil {
+			t.Fatal(err)
+		}
+		for _, q := range []string{"SET session_replication_role = replica", q, "SET session_replication_role = origin"} {
+			if _, err := conn.Exec(ctx, q); err != nil {
+				t.Fatalf("%s: %v", q, err)
+			}
+		}
+		conn.Release()
+		if rep, err := fx.Reg.AuditVerify(ctx); err != nil || len(rep.Breaks) == 0 ||
+			!slices.ContainsFunc(rep.Breaks, func(b Break) bool { return strings.Contains(b.Problem, "hash does not match") }) {
+			t.Fatalf("audit after %s: %v %+v", q, err, rep)
+		}
 	}
 	// The login is sealed: changed, the audit finds it.
 	conn, err = fx.DB.Pool.Acquire(ctx)
@@ -231,13 +277,13 @@ func TestAuditAcrossLayouts(t *testing.T) {
 	}
 	defer conn.Release()
 	for _, q := range []string{"SET session_replication_role = replica",
-		"UPDATE height SET recorded_role = 'somebody' WHERE version = 2",
+		"UPDATE height SET recorded_role = 'somebody' WHERE version = 3",
 		"SET session_replication_role = origin"} {
 		if _, err := conn.Exec(ctx, q); err != nil {
 			t.Fatalf("%s: %v", q, err)
 		}
 	}
-	if rep, err := fx.Reg.AuditVerify(ctx); err != nil || len(rep.Breaks) != 1 {
-		t.Fatalf("audit after the login was changed: %v %+v", err, rep)
+	if rep, err := fx.Reg.AuditVerify(ctx); err != nil || len(rep.Breaks) != 2 {
+		t.Fatalf("audit after the login was changed too (two versions broken, v2 and v3): %v %+v", err, rep)
 	}
 }

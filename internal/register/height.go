@@ -48,6 +48,11 @@ type HeightSetParams struct {
 	AdjustmentID *int64 // required for KindAdjustment
 	Reason       string // why this version (required)
 	RecordedBy   string // who (required)
+	// InForceFrom is when the version came in force, as its source gives
+	// it: the date the authority published it, or took effect. Required
+	// for every kind but KindAdjustment, which comes in force at its
+	// commit and must leave it nil; not after now.
+	InForceFrom *time.Time
 }
 
 // HeightSetResult is the version written and the one it superseded.
@@ -96,7 +101,10 @@ func (r *Register) HeightSet(ctx context.Context, p HeightSetParams) (HeightSetR
 		return err
 	})
 	if err == nil {
-		res.Version.InForceFrom, err = store.CommitTime(ctx, r.pool, xid)
+		res.Version.CommittedAt, err = store.CommitTime(ctx, r.pool, xid)
+		if res.Version.InForceGiven == nil {
+			res.Version.InForceFrom = res.Version.CommittedAt
+		}
 	}
 	if err != nil {
 		return HeightSetResult{}, fmt.Errorf("set height of %s: %w", p.Designation, err)
@@ -120,7 +128,7 @@ func checkHeight(p *HeightSetParams) (store.HeightInsertParams, error) {
 	}
 	ins := store.HeightInsertParams{Class: class, SourceKind: p.Kind,
 		Source: strings.TrimSpace(p.Source), AdjustmentID: p.AdjustmentID,
-		Reason: strings.TrimSpace(p.Reason), RecordedBy: strings.TrimSpace(p.RecordedBy)}
+		Reason: strings.TrimSpace(p.Reason), RecordedBy: strings.TrimSpace(p.RecordedBy), InForceFrom: p.InForceFrom}
 	switch p.Kind {
 	case KindAuthority, KindDatumChange, KindCorrection, KindAdjustment:
 		value := strings.TrimPrefix(strings.TrimSpace(p.Value), "+")
@@ -172,6 +180,14 @@ func checkHeight(p *HeightSetParams) (store.HeightInsertParams, error) {
 	if p.Kind == KindAdjustment && p.AdjustmentID == nil {
 		return ins, inputErr("adjustment", "a height from an adjustment names the adjustment")
 	}
+	switch {
+	case p.Kind == KindAdjustment && p.InForceFrom != nil:
+		return ins, inputErr("in-force-from", "a height from an adjustment comes in force when it is published; give no in-force date")
+	case p.Kind != KindAdjustment && p.InForceFrom == nil:
+		return ins, inputErr("in-force-from", "give the date the height came in force, as its source gives it (the date the %s took effect)", kindNoun(p.Kind))
+	case p.InForceFrom != nil && p.InForceFrom.After(time.Now()):
+		return ins, inputErr("in-force-from", "%s is in the future: the register records heights in force already", p.InForceFrom.Format(time.RFC3339))
+	}
 	if ins.Reason == "" {
 		return ins, inputErr("reason", "say why this height is being recorded")
 	}
@@ -179,6 +195,19 @@ func checkHeight(p *HeightSetParams) (store.HeightInsertParams, error) {
 		return ins, inputErr("by", "say who is recording the height")
 	}
 	return ins, nil
+}
+
+// kindNoun names what a version of kind k records, for messages.
+func kindNoun(k string) string {
+	switch k {
+	case KindWithdrawal:
+		return "withdrawal"
+	case KindCorrection:
+		return "correction"
+	case KindDatumChange:
+		return "change of datum"
+	}
+	return "publication"
 }
 
 // checkValueRange refuses a decimal value in unit u outside the plausible
@@ -196,13 +225,18 @@ func checkValueRange(value string, u units.Unit) error {
 type HeightShowParams struct {
 	Designation string
 	Datum       string     // "" for every datum
-	AsOf        *time.Time // nil for the current heights
+	AsOf        *time.Time // the instant asked about; nil for now, or KnownAt when that is given
+	// KnownAt is the instant of the register's knowledge: the versions it
+	// had learned of (committed) by then; nil for all it knows now.
+	KnownAt *time.Time
 }
 
 // HeightShow returns the mark (with its latest condition) and, for each
-// datum, the version in force at AsOf (or now). A datum whose version in
-// force is a withdrawal is listed with no value; a datum with no version
-// yet at that time is left out.
+// datum, the version in force at AsOf as the register knew it at KnownAt
+// (store.HeightAsOf has the rule). KnownAt alone asks what the register
+// said then was in force then. A datum whose version in force is a
+// withdrawal is listed with no value; a datum with no version yet at that
+// time is left out.
 func (r *Register) HeightShow(ctx context.Context, p HeightShowParams) (MarkView, error) {
 	var v MarkView
 	err := r.withTx(ctx, readTx, func(tx pgx.Tx) error {
@@ -210,7 +244,7 @@ func (r *Register) HeightShow(ctx context.Context, p HeightShowParams) (MarkView
 		if v.Mark, err = r.mark(ctx, tx, "designation", p.Designation, false); err != nil {
 			return err
 		}
-		q := store.HeightAsOfParams{MarkID: v.Mark.ID, AsOf: p.AsOf}
+		q := store.HeightAsOfParams{MarkID: v.Mark.ID, AsOf: AsOfOrKnown(p.AsOf, p.KnownAt), KnownAt: p.KnownAt}
 		if p.Datum != "" {
 			d, err := r.datum(ctx, tx, "datum", p.Datum)
 			if err != nil {
@@ -238,14 +272,23 @@ type CurrentHeight struct {
 // HeightsCurrent returns the current version of every mark on datum (""
 // for every datum), by designation and datum code, each with its doubts.
 func (r *Register) HeightsCurrent(ctx context.Context, datum string) ([]CurrentHeight, error) {
-	return r.HeightsAsOf(ctx, datum, nil)
+	return r.HeightsAsOf(ctx, datum, nil, nil)
+}
+
+// AsOfOrKnown is the instant asked about: asOf, or knownAt when asOf is
+// not given (what the register said then was in force then).
+func AsOfOrKnown(asOf, knownAt *time.Time) *time.Time {
+	if asOf == nil {
+		return knownAt
+	}
+	return asOf
 }
 
 // HeightsAsOf returns the version of every mark on datum ("" for every
-// datum) in force at asOf (nil: now), as HeightsCurrent: the latest
-// version whose writing transaction had committed by asOf. A version
-// listed may be a withdrawal.
-func (r *Register) HeightsAsOf(ctx context.Context, datum string, asOf *time.Time) ([]CurrentHeight, error) {
+// datum) in force at asOf as the register knew it at knownAt (each nil:
+// now; knownAt alone: in force then as known then), by the rule of
+// store.HeightAsOf. A version listed may be a withdrawal.
+func (r *Register) HeightsAsOf(ctx context.Context, datum string, asOf, knownAt *time.Time) ([]CurrentHeight, error) {
 	var out []CurrentHeight
 	err := r.withTx(ctx, readTx, func(tx pgx.Tx) error {
 		var id int64
@@ -256,7 +299,7 @@ func (r *Register) HeightsAsOf(ctx context.Context, datum string, asOf *time.Tim
 			}
 			id = d.ID
 		}
-		hs, err := store.HeightAsOfAll(ctx, tx, store.HeightAsOfAllParams{DatumID: id, AsOf: asOf})
+		hs, err := store.HeightAsOfAll(ctx, tx, store.HeightAsOfAllParams{DatumID: id, AsOf: AsOfOrKnown(asOf, knownAt), KnownAt: knownAt})
 		if err != nil {
 			return err
 		}

@@ -146,7 +146,8 @@ func TestLoadSixteenWorkers(t *testing.T) {
 					mark = fmt.Sprintf("%s%d", circuit, 2+rng.IntN(5))
 					_, err = reg.HeightSet(ctx, HeightSetParams{Designation: mark, Datum: "NAVD88",
 						Value: fmt.Sprintf("%d.%03d", 700+rng.IntN(200), rng.IntN(1000)), Unit: "m",
-						Source: "Load test sheet (invented citation)", Reason: fmt.Sprintf("worker %d, %d", w, i), RecordedBy: "load"})
+						Source: "Load test sheet (invented citation)", Reason: fmt.Sprintf("worker %d, %d", w, i), RecordedBy: "load",
+						InForceFrom: ptrTime(time.Now())})
 					if err == nil {
 						tl.versions++
 						tl.perMark[mark]++
@@ -273,3 +274,5 @@ func TestLoadSixteenWorkers(t *testing.T) {
 		t.Fatalf("audit: %d breaks, %d versions: %+v", len(rep.Breaks), rep.Versions, rep.Breaks)
 	}
 }
+
+func ptrTime(t time.Time) *time.Time { return &t }

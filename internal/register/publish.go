@@ -131,6 +131,9 @@ func (r *Register) PublishPreview(ctx context.Context, id int64, largeChangeM fl
 		if err != nil {
 			return err
 		}
+		if latest, err = inForceOf(ctx, tx, latest, v.Adjustment.DatumID); err != nil {
+			return err
+		}
 		if pv.Changes, err = markChanges(v, latest, largeChangeM); err != nil {
 			return err
 		}
@@ -141,6 +144,24 @@ func (r *Register) PublishPreview(ctx context.Context, id int64, largeChangeM fl
 		return nil, err
 	}
 	return pv, nil
+}
+
+// inForceOf returns, by mark, the version in force now of each chain
+// whose latest version is in latest: the latest itself, unless a version
+// recorded later came in force earlier (a correction of the past), when it
+// is looked up.
+func inForceOf(ctx context.Context, tx pgx.Tx, latest map[int64]store.Height, datumID int64) (map[int64]store.Height, error) {
+	out := make(map[int64]store.Height, len(latest))
+	for id, h := range latest {
+		if !h.Current {
+			var err error
+			if h, err = store.HeightCurrent(ctx, tx, store.HeightLatestParams{MarkID: id, DatumID: datumID}); err != nil {
+				return nil, err
+			}
+		}
+		out[id] = h
+	}
+	return out, nil
 }
 
 // resultMarks are the marks of v's results.
@@ -192,8 +213,12 @@ func (r *Register) Publish(ctx context.Context, p PublishParams) (*Published, er
 		if err != nil {
 			return err
 		}
+		inForce, err := inForceOf(ctx, tx, latest, a.DatumID)
+		if err != nil {
+			return err
+		}
 		for _, h := range held {
-			if cur := latest[h.MarkID]; cur.ID != h.ID {
+			if cur := inForce[h.MarkID]; cur.ID != h.ID {
 				return changed(a, h.Designation, "held", &h.Height, cur)
 			}
 			// Retired or reset since the draft was made: never control.
@@ -236,7 +261,7 @@ func (r *Register) Publish(ctx context.Context, p PublishParams) (*Published, er
 			}
 			ev.AcceptedReason = p.AcceptReason
 		}
-		if out.Changes, err = markChanges(v, latest, p.LargeChangeM); err != nil {
+		if out.Changes, err = markChanges(v, inForce, p.LargeChangeM); err != nil {
 			return err
 		}
 		if err := store.AdjustmentEventInsert(ctx, tx, ev); err != nil {
@@ -274,7 +299,7 @@ func (r *Register) Publish(ctx context.Context, p PublishParams) (*Published, er
 		var at time.Time
 		if at, err = store.CommitTime(ctx, r.pool, xid); err == nil {
 			for i := range out.Versions {
-				out.Versions[i].InForceFrom = at
+				out.Versions[i].InForceFrom, out.Versions[i].CommittedAt = at, at
 			}
 		}
 	}

@@ -28,12 +28,14 @@ func set(t *testing.T, b *registertest.Bundle, value, unit string) store.Height 
 	return b.Height(t, registertest.HeightOpts{Designation: "TC-0412", Value: value, Unit: unit})
 }
 
+// What the register said, at each instant, was in force then
+// (--known-at alone): a version is known from its commit.
 func TestHeightAsOf(t *testing.T) {
 	t.Parallel()
 	b := setup(t)
 	v1, v2, v3 := set(t, b, "769.83", "usft"), set(t, b, "769.88", "usft"), set(t, b, "234.662", "m")
-	if !(v1.InForceFrom.Before(v2.InForceFrom) && v2.InForceFrom.Before(v3.InForceFrom)) {
-		t.Fatalf("times in force not increasing: %v %v %v", v1.InForceFrom, v2.InForceFrom, v3.InForceFrom)
+	if !(v1.CommittedAt.Before(v2.CommittedAt) && v2.CommittedAt.Before(v3.CommittedAt)) {
+		t.Fatalf("commit times not increasing: %v %v %v", v1.CommittedAt, v2.CommittedAt, v3.CommittedAt)
 	}
 	mid := func(a, b time.Time) time.Time { return a.Add(b.Sub(a) / 2) }
 	for _, c := range []struct {
@@ -41,16 +43,16 @@ func TestHeightAsOf(t *testing.T) {
 		at   time.Time
 		want int // version, 0 for none
 	}{
-		{"before t1", v1.InForceFrom.Add(-time.Microsecond), 0},
-		{"at t1", v1.InForceFrom, 1},
-		// Written (recorded_at) but not yet committed: not in force.
+		{"before t1", v1.CommittedAt.Add(-time.Microsecond), 0},
+		{"at t1", v1.CommittedAt, 1},
+		// Written (recorded_at) but not yet committed: not known then.
 		{"at t1's write time", v1.RecordedAt, 0},
-		{"between t1 and t2", mid(v1.InForceFrom, v2.InForceFrom), 1},
-		{"between t2 and t3", mid(v2.InForceFrom, v3.InForceFrom), 2},
-		{"after t3", v3.InForceFrom.Add(time.Hour), 3},
+		{"between t1 and t2", mid(v1.CommittedAt, v2.CommittedAt), 1},
+		{"between t2 and t3", mid(v2.CommittedAt, v3.CommittedAt), 2},
+		{"after t3", v3.CommittedAt.Add(time.Hour), 3},
 	} {
 		at := c.at
-		v, err := b.Reg.HeightShow(b.Ctx, register.HeightShowParams{Designation: "TC-0412", Datum: "NAVD88", AsOf: &at})
+		v, err := b.Reg.HeightShow(b.Ctx, register.HeightShowParams{Designation: "TC-0412", Datum: "NAVD88", KnownAt: &at})
 		if err != nil {
 			t.Fatal(err)
 		}
@@ -248,8 +250,10 @@ func TestCanonicalMatchesDatabase(t *testing.T) {
 	t.Parallel()
 	b := setup(t)
 	set(t, b, "769.83", "usft")
+	withdrawn := time.Date(2024, 6, 10, 0, 0, 0, 0, time.UTC)
 	if _, err := b.Reg.HeightSet(b.Ctx, register.HeightSetParams{Designation: "TC-0412", Datum: "NAVD88", Kind: register.KindWithdrawal,
-		Reason: "mark reported destroyed: tab:\t newline:\n quote:' unicode: ±°", RecordedBy: "tester"}); err != nil {
+		Reason: "mark reported destroyed: tab:\t newline:\n quote:' unicode: ±°", RecordedBy: "tester",
+		InForceFrom: &withdrawn}); err != nil {
 		t.Fatal(err)
 	}
 	rep, err := b.Reg.AuditVerify(b.Ctx)

@@ -115,7 +115,7 @@ func (r *Register) heldHeights(ctx context.Context, db store.DBTX, p HeldHeights
 	out := make([]HeldHeight, 0, len(marks))
 	var doubt []string
 	for _, m := range marks {
-		h, err := store.HeightLatest(ctx, db, store.HeightLatestParams{MarkID: m.ID, DatumID: datum.ID})
+		h, err := store.HeightCurrent(ctx, db, store.HeightLatestParams{MarkID: m.ID, DatumID: datum.ID})
 		if errors.Is(err, store.ErrNotFound) {
 			return nil, inputErr("hold", "%s has no height on %s to hold: give its height with its value (MARK=HEIGHT)", m.Designation, datum.Code)
 		}
@@ -188,7 +188,7 @@ func (r *Register) bookDatum(ctx context.Context, db store.DBTX, book *levelbook
 // they were read.
 func checkHeldCurrent(ctx context.Context, tx pgx.Tx, held []HeldHeight, byName map[string]store.Mark) error {
 	for _, h := range held {
-		cur, err := store.HeightLatest(ctx, tx, store.HeightLatestParams{MarkID: h.MarkID, DatumID: h.Version.DatumID})
+		cur, err := store.HeightCurrent(ctx, tx, store.HeightLatestParams{MarkID: h.MarkID, DatumID: h.Version.DatumID})
 		if err != nil {
 			return fmt.Errorf("look up the height of %s: %w", h.Designation, err)
 		}

@@ -18,14 +18,18 @@ type TraceParams struct {
 	Designation string
 	// Datum is a datum code; "" traces the mark's height on every datum.
 	Datum string
-	// AsOf picks the versions in force then; nil means now.
+	// AsOf picks the versions in force then; nil means now (or KnownAt).
 	AsOf *time.Time
+	// KnownAt picks them as the register knew them then (committed by
+	// then); nil means all it knows now.
+	KnownAt *time.Time
 }
 
 // Trace is the derivation of the heights of one mark.
 type Trace struct {
-	Mark store.Mark
-	AsOf *time.Time
+	Mark    store.Mark
+	AsOf    *time.Time
+	KnownAt *time.Time
 	// Doubts are the doubts about the mark and the versions traced (not
 	// those held).
 	Doubts Doubts
@@ -62,13 +66,13 @@ type TraceAdjustment struct {
 // leads to its adjustment, the adjustment to its runs and to the versions it
 // held, and those to their own derivations, down to outside sources.
 func (r *Register) Trace(ctx context.Context, p TraceParams) (*Trace, error) {
-	t := &Trace{AsOf: p.AsOf}
+	t := &Trace{AsOf: AsOfOrKnown(p.AsOf, p.KnownAt), KnownAt: p.KnownAt}
 	err := r.withTx(ctx, readTx, func(tx pgx.Tx) error {
 		var err error
 		if t.Mark, err = r.mark(ctx, tx, "designation", p.Designation, false); err != nil {
 			return err
 		}
-		q := store.HeightAsOfParams{MarkID: t.Mark.ID, AsOf: p.AsOf}
+		q := store.HeightAsOfParams{MarkID: t.Mark.ID, AsOf: t.AsOf, KnownAt: p.KnownAt}
 		if p.Datum != "" {
 			d, err := r.datum(ctx, tx, "datum", p.Datum)
 			if err != nil {
@@ -82,8 +86,11 @@ func (r *Register) Trace(ctx context.Context, p TraceParams) (*Trace, error) {
 		}
 		if len(hs) == 0 {
 			when := "now"
-			if p.AsOf != nil {
-				when = "as of " + p.AsOf.UTC().Format(time.RFC3339)
+			if t.AsOf != nil {
+				when = "as of " + t.AsOf.UTC().Format(time.RFC3339)
+			}
+			if p.KnownAt != nil {
+				when += " as known at " + p.KnownAt.UTC().Format(time.RFC3339)
 			}
 			return inputErr("designation", "%s has no height %s", t.Mark.Designation, when)
 		}

@@ -227,6 +227,9 @@ type HeightOpts struct {
 	Source string
 	Reason string // default "outside control"
 	By     string // default By
+	// InForceFrom is when the version came in force; default the time of
+	// the call (so that each version recorded is the one in force now).
+	InForceFrom *time.Time
 }
 
 // Height records a version of a mark's height through HeightSet.
@@ -247,9 +250,13 @@ func (b *Bundle) Height(tb testing.TB, o HeightOpts) store.Height {
 	if kind == register.KindAuthority {
 		o.Source = or(o.Source, "Tallis County control sheet 1 (invented citation)")
 	}
+	if o.InForceFrom == nil && kind != register.KindAdjustment {
+		now := time.Now().Truncate(time.Microsecond)
+		o.InForceFrom = &now
+	}
 	res, err := b.Reg.HeightSet(b.Ctx, register.HeightSetParams{Designation: o.Designation, Datum: o.Datum, Value: o.Value,
 		Unit: o.Unit, Decimals: o.Decimals, Class: o.Class, Kind: o.Kind, Source: o.Source,
-		Reason: or(o.Reason, "outside control"), RecordedBy: or(o.By, By)})
+		Reason: or(o.Reason, "outside control"), RecordedBy: or(o.By, By), InForceFrom: o.InForceFrom})
 	if err != nil {
 		tb.Fatalf("registertest: height of %s: %v", o.Designation, err)
 	}

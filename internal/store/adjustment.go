@@ -328,9 +328,9 @@ type HeldLink struct{ HeightID, HeldID int64 }
 // held versions of its adjustment that are still current: the links along
 // which staleness spreads.
 func HeldLinkList(ctx context.Context, db DBTX) ([]HeldLink, error) {
-	rows, err := db.Query(ctx, `SELECT h.id, ah.height_id FROM height h
+	rows, err := db.Query(ctx, `SELECT h.id, ah.height_id FROM height h LEFT JOIN register_commit rc ON rc.xid = h.created_xid
 		JOIN adjustment_held ah ON ah.adjustment_id = h.adjustment_id
-		WHERE NOT EXISTS (SELECT 1 FROM height x WHERE x.supersedes = h.id)
+		WHERE `+heightCurrent+`
 		  AND NOT EXISTS (SELECT 1 FROM height y WHERE y.supersedes = ah.height_id)
 		ORDER BY 1, 2`)
 	if err != nil {

@@ -44,6 +44,10 @@ var (
 	// mark's alias, an alias that is a mark's designation, or a retired
 	// mark as a replacement (migrations/00018).
 	ErrNameTaken = errors.New("name taken")
+	// ErrInForce: the database refused a version's in-force time: missing
+	// from a version from outside, given for one from an adjustment, or
+	// after the version is recorded (migrations/00017).
+	ErrInForce = errors.New("in-force time refused")
 )
 
 // Roles of the register (migrations/00005_roles.sql); each includes the
@@ -109,6 +113,7 @@ const (
 	codeSealed     = "CA004" // a row added to a parent made in another transaction (00011)
 	codeUncarried  = "CA013" // a write in a cluster the register has not met (00014)
 	codeNameTaken  = "CA018" // a designation that is an alias, or an alias that is a designation (00018)
+	codeInForce    = "CA017" // a version's in-force time missing, given where not allowed, or after its recording (00017)
 	codeDenied     = "42501" // insufficient_privilege
 )
 
@@ -153,6 +158,8 @@ func translate(err error) error {
 		return fmt.Errorf("%w: %s", ErrClock, pe.Message)
 	case pe.Code == codeNameTaken:
 		return fmt.Errorf("%w: %s", ErrNameTaken, pe.Message)
+	case pe.Code == codeInForce:
+		return fmt.Errorf("%w: %s", ErrInForce, pe.Message)
 	case pe.Code == codeUncarried:
 		return fmt.Errorf("%w: %s (%s)", ErrUncarried, pe.Message, pe.Hint)
 	}

@@ -102,13 +102,16 @@ func EvidenceCommitPage(ctx context.Context, tx pgx.Tx, after int64, limit int) 
 // evidenceLateColumns are the columns added to a table of the evidence
 // after v13, left out of a row's canonical text when NULL, so that rows
 // written before them keep the text their commits' digests were made of
-// (migrations/00015). Each entry's SQL is the same as
+// (migrations/00015, 00017). Each entry's SQL is the same as
 // cairn_commit_manifest's.
 var evidenceLateColumns = map[string]string{
 	// A run's standards (00015): all four NULL before v15; the file NULL
 	// for a built-in profile.
 	"run": ` - CASE WHEN r.standards_profile IS NULL THEN '{standards_profile,standards_version,standards_source,standards_file}'::text[]` +
 		` WHEN r.standards_file IS NULL THEN '{standards_file}'::text[] ELSE '{}'::text[] END`,
+	// A height's in-force time (00017): NULL for a version in force from
+	// its own commit.
+	"height": ` - CASE WHEN r.in_force_from IS NULL THEN 'in_force_from' ELSE '' END`,
 }
 
 // evidenceRowText is the SQL of the canonical text of a row r of table.

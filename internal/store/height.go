@@ -32,24 +32,60 @@ type Height struct {
 	// RecordedAt is the time of the writing transaction's writes, as the
 	// hash covers it.
 	RecordedAt time.Time
-	// InForceFrom is when the version came in force: the commit of its
-	// transaction (register_commit), or RecordedAt for a version written
-	// before schema v12.
+	// CommittedAt is when the register learned of the version (its
+	// "recorded" time): the commit of its transaction (register_commit),
+	// or RecordedAt for a version written before schema v12.
+	CommittedAt time.Time
+	// InForceGiven is the time the version came in force as its source
+	// gives it (schema v17, hashed with layout 3); nil for a version in
+	// force from its own commit: one from an adjustment, or one written
+	// before schema v17.
+	InForceGiven *time.Time
+	// InForceFrom is when the version came in force: InForceGiven, or else
+	// CommittedAt.
 	InForceFrom time.Time
 	Hash        []byte
-	// Current is true when no version supersedes this one.
+	// Current is true when the version is the one in force now, by all
+	// the register knows: of the versions of its mark and datum, the one
+	// in force from the latest time, the later recorded of two in force
+	// from the same time. It is the latest version of its chain unless a
+	// version recorded later came in force earlier (a correction of the
+	// past).
 	Current bool
 }
 
 const heightColumns = `h.id, h.mark_id, m.designation, h.datum_id, d.code, h.version, h.supersedes,
 	h.value::text, h.unit, h.decimals, h.class, h.source_kind, h.source, h.adjustment_id,
-	h.reason, h.recorded_by, h.recorded_role, h.recorded_at, ` + heightInForce + `, h.hash,
-	NOT EXISTS (SELECT 1 FROM height s WHERE s.supersedes = h.id)`
+	h.reason, h.recorded_by, h.recorded_role, h.recorded_at, ` + heightKnown + `, h.in_force_from, ` + heightInForce + `, h.hash,
+	` + heightCurrent
 
-// heightInForce is when version h came in force: its transaction's commit,
-// or, for a version written before schema v12 (no created_xid), its
-// recorded_at.
-const heightInForce = "coalesce(rc.committed_at, h.recorded_at)"
+// heightKnown is when the register learned of version h: its
+// transaction's commit, or, for a version written before schema v12 (no
+// created_xid), its recorded_at.
+const heightKnown = "coalesce(rc.committed_at, h.recorded_at)"
+
+// heightInForce is when version h came in force: the time its source
+// gives (schema v17), or else when the register learned of it.
+const heightInForce = "coalesce(h.in_force_from, rc.committed_at, h.recorded_at)"
+
+// heightCurrent is true when version h is the one in force now: no
+// version of its chain is in force from a later time, or from the same
+// time and recorded later (a greater version number). See HeightAsOf for
+// the rule. Two cases are settled by the chain alone, without comparing
+// times: a version superseded by one in force from its own commit is not
+// current (that commit is after h was recorded, and h was in force by
+// then), and a version in force from its own commit that nothing
+// supersedes is (every earlier version came in force before it was
+// recorded, before this commit). The database holds both premises: a
+// version's in-force time is never after its write time (schema v17), and
+// a chain's versions are committed in version order.
+const heightCurrent = `CASE
+		WHEN EXISTS (SELECT 1 FROM height x WHERE x.supersedes = h.id AND x.in_force_from IS NULL) THEN false
+		WHEN h.in_force_from IS NULL AND NOT EXISTS (SELECT 1 FROM height x WHERE x.supersedes = h.id) THEN true
+		ELSE NOT EXISTS (SELECT 1 FROM height s LEFT JOIN register_commit sc ON sc.xid = s.created_xid
+			WHERE s.mark_id = h.mark_id AND s.datum_id = h.datum_id AND s.id <> h.id
+			  AND (coalesce(s.in_force_from, sc.committed_at, s.recorded_at), s.version) > (` + heightInForce + `, h.version))
+	END`
 
 const heightFrom = " FROM height h JOIN mark m ON m.id = h.mark_id JOIN datum d ON d.id = h.datum_id" +
 	" LEFT JOIN register_commit rc ON rc.xid = h.created_xid"
@@ -59,7 +95,7 @@ func scanHeight(row pgx.Row) (Height, error) {
 	var dec *int16
 	err := row.Scan(&h.ID, &h.MarkID, &h.Designation, &h.DatumID, &h.DatumCode, &h.Version, &h.Supersedes,
 		&h.Value, &h.Unit, &dec, &h.Class, &h.SourceKind, &h.Source, &h.AdjustmentID,
-		&h.Reason, &h.RecordedBy, &h.RecordedRole, &h.RecordedAt, &h.InForceFrom, &h.Hash, &h.Current)
+		&h.Reason, &h.RecordedBy, &h.RecordedRole, &h.RecordedAt, &h.CommittedAt, &h.InForceGiven, &h.InForceFrom, &h.Hash, &h.Current)
 	if dec != nil {
 		d := int(*dec)
 		h.Decimals = &d
@@ -92,16 +128,20 @@ type HeightInsertParams struct {
 	AdjustmentID *int64
 	Reason       string
 	RecordedBy   string
+	// InForceFrom is when the version came in force, as its source gives
+	// it; required for every source kind but adjustment, for which it is
+	// nil (in force from its commit). Not after the transaction's time.
+	InForceFrom *time.Time
 }
 
 // HeightInsert appends a version and returns it as stored.
 func HeightInsert(ctx context.Context, db DBTX, p HeightInsertParams) (Height, error) {
 	var id int64
 	err := db.QueryRow(ctx, `INSERT INTO height (mark_id, datum_id, supersedes, value, unit, decimals, class,
-			source_kind, source, adjustment_id, reason, recorded_by)
-		VALUES ($1, $2, $3, $4::numeric, $5, $6, $7, $8, $9, $10, $11, $12) RETURNING id`,
+			source_kind, source, adjustment_id, reason, recorded_by, in_force_from)
+		VALUES ($1, $2, $3, $4::numeric, $5, $6, $7, $8, $9, $10, $11, $12, $13) RETURNING id`,
 		p.MarkID, p.DatumID, p.Supersedes, p.Value, p.Unit, p.Decimals, p.Class,
-		p.SourceKind, p.Source, p.AdjustmentID, p.Reason, p.RecordedBy).Scan(&id)
+		p.SourceKind, p.Source, p.AdjustmentID, p.Reason, p.RecordedBy, p.InForceFrom).Scan(&id)
 	if err != nil {
 		return Height{}, fmt.Errorf("insert height version: %w", translate(err))
 	}
@@ -116,66 +156,100 @@ func HeightGet(ctx context.Context, db DBTX, id int64) (Height, error) {
 // HeightLatestParams names one chain of versions.
 type HeightLatestParams struct{ MarkID, DatumID int64 }
 
-// HeightLatest returns the current version of a mark on a datum;
-// ErrNotFound if it has none.
+// HeightLatest returns the latest version of a mark on a datum, the one
+// a new version supersedes (the chain is in recorded order); ErrNotFound
+// if it has none. The version in force now is HeightCurrent's.
 func HeightLatest(ctx context.Context, db DBTX, p HeightLatestParams) (Height, error) {
 	return scanHeight(db.QueryRow(ctx, "SELECT "+heightColumns+heightFrom+
 		" WHERE h.mark_id = $1 AND h.datum_id = $2 ORDER BY h.version DESC LIMIT 1", p.MarkID, p.DatumID))
 }
 
-// HeightAsOfParams asks for the versions in force at an instant.
+// HeightCurrent returns the version of a mark on a datum in force now, by
+// all the register knows (a withdrawal included); ErrNotFound if it has
+// none.
+func HeightCurrent(ctx context.Context, db DBTX, p HeightLatestParams) (Height, error) {
+	return scanHeight(db.QueryRow(ctx, "SELECT "+heightColumns+heightFrom+
+		" WHERE h.mark_id = $1 AND h.datum_id = $2 ORDER BY "+heightInForce+" DESC, h.version DESC LIMIT 1", p.MarkID, p.DatumID))
+}
+
+// HeightAsOfParams ask for the versions in force at an instant, as the
+// register knew them at another.
 type HeightAsOfParams struct {
 	MarkID int64
 	// DatumID 0 means every datum of the mark.
 	DatumID int64
-	// AsOf nil means now (the current versions).
+	// AsOf is the instant asked about: the versions in force then. Nil
+	// means now.
 	AsOf *time.Time
+	// KnownAt is the instant of the register's knowledge: only the
+	// versions it had learned of by then (committed by KnownAt) count.
+	// Nil means all it knows now.
+	KnownAt *time.Time
 }
 
+// heightAsOfWhere keeps the versions in force at $AsOf and known at
+// $KnownAt (each nil: no bound).
+func heightAsOfWhere(asOf, knownAt int) string {
+	return fmt.Sprintf(" AND ($%d::timestamptz IS NULL OR %s <= $%d) AND ($%d::timestamptz IS NULL OR %s <= $%d)",
+		asOf, heightInForce, asOf, knownAt, heightKnown, knownAt)
+}
+
+// heightAsOfOrder orders each chain's versions so that the first is the
+// answer: in force from the latest time, then recorded latest.
+const heightAsOfOrder = heightInForce + " DESC, h.version DESC"
+
 // HeightAsOf returns, for each datum, the version of the mark in force at
-// AsOf (a withdrawal included), by datum code: the latest version whose
-// writing transaction had committed by AsOf (InForceFrom not after it).
-// Versions come in force in version order, so this is the one answer.
+// AsOf as the register knew it at KnownAt (a withdrawal included), by
+// datum code. The rule, the one answer to each question:
+//
+//	of the versions the register had learned of by KnownAt (committed by then)
+//	and in force from a time not after AsOf,
+//	the one in force from the latest time;
+//	of two in force from the same time, the one recorded later.
+//
+// A chain's versions are recorded at increasing times, one per
+// transaction, in version order (the database holds it), so the answer is
+// one version or none.
 func HeightAsOf(ctx context.Context, db DBTX, p HeightAsOfParams) ([]Height, error) {
 	return heightQuery(ctx, db, "SELECT * FROM (SELECT DISTINCT ON (h.datum_id) "+heightColumns+heightFrom+
-		` WHERE h.mark_id = $1 AND ($2::bigint = 0 OR h.datum_id = $2) AND ($3::timestamptz IS NULL OR `+heightInForce+` <= $3)
-		ORDER BY h.datum_id, h.version DESC) v ORDER BY v.code`, p.MarkID, p.DatumID, p.AsOf)
+		` WHERE h.mark_id = $1 AND ($2::bigint = 0 OR h.datum_id = $2)`+heightAsOfWhere(3, 4)+`
+		ORDER BY h.datum_id, `+heightAsOfOrder+`) v ORDER BY v.code`, p.MarkID, p.DatumID, p.AsOf, p.KnownAt)
 }
 
 // HeightAsOfAllParams ask for the version of every mark in force at an
-// instant.
+// instant, as the register knew them at another.
 type HeightAsOfAllParams struct {
 	// DatumID 0 means every datum.
 	DatumID int64
-	// AsOf nil means now (the current versions).
-	AsOf *time.Time
+	// AsOf nil means now; KnownAt nil means all the register knows now.
+	AsOf, KnownAt *time.Time
 }
 
-// HeightAsOfAll returns the version of every mark in force at AsOf on the
-// datum (a withdrawal included), as HeightAsOf, by designation and datum
-// code.
+// HeightAsOfAll returns the version of every mark in force at AsOf as
+// known at KnownAt on the datum (a withdrawal included), by the rule of
+// HeightAsOf, by designation and datum code.
 func HeightAsOfAll(ctx context.Context, db DBTX, p HeightAsOfAllParams) ([]Height, error) {
-	if p.AsOf == nil {
+	if p.AsOf == nil && p.KnownAt == nil {
 		return HeightCurrentAll(ctx, db, p.DatumID)
 	}
 	return heightQuery(ctx, db, "SELECT * FROM (SELECT DISTINCT ON (h.mark_id, h.datum_id) "+heightColumns+heightFrom+
-		` WHERE ($1::bigint = 0 OR h.datum_id = $1) AND `+heightInForce+` <= $2
-		ORDER BY h.mark_id, h.datum_id, h.version DESC) v ORDER BY v.designation, v.code`, p.DatumID, p.AsOf)
+		` WHERE ($1::bigint = 0 OR h.datum_id = $1)`+heightAsOfWhere(2, 3)+`
+		ORDER BY h.mark_id, h.datum_id, `+heightAsOfOrder+`) v ORDER BY v.designation, v.code`, p.DatumID, p.AsOf, p.KnownAt)
 }
 
-// HeightCurrentAll returns the current version of every mark on datumID
-// (0: every datum), by designation and datum code.
+// HeightCurrentAll returns the version in force now of every mark on
+// datumID (0: every datum), by designation and datum code.
 func HeightCurrentAll(ctx context.Context, db DBTX, datumID int64) ([]Height, error) {
 	return heightQuery(ctx, db, "SELECT "+heightColumns+heightFrom+
-		` WHERE NOT EXISTS (SELECT 1 FROM height s WHERE s.supersedes = h.id) AND ($1::bigint = 0 OR h.datum_id = $1)
+		` WHERE `+heightCurrent+` AND ($1::bigint = 0 OR h.datum_id = $1)
 		ORDER BY m.designation, d.code`, datumID)
 }
 
-// HeightCurrentByMarks returns the current versions of the marks
+// HeightCurrentByMarks returns the versions in force now of the marks
 // markIDs on every datum, by designation and datum code.
 func HeightCurrentByMarks(ctx context.Context, db DBTX, markIDs []int64) ([]Height, error) {
 	return heightQuery(ctx, db, "SELECT "+heightColumns+heightFrom+
-		` WHERE h.mark_id = ANY($1) AND NOT EXISTS (SELECT 1 FROM height s WHERE s.supersedes = h.id)
+		` WHERE h.mark_id = ANY($1) AND `+heightCurrent+`
 		ORDER BY m.designation, d.code`, markIDs)
 }
 
@@ -221,7 +295,8 @@ type HeightLatestManyParams struct {
 }
 
 // HeightLatestMany returns the latest version of each of the marks on the
-// datum, by mark identifier; marks without one are absent.
+// datum, by mark identifier; marks without one are absent. Each says
+// whether it is the one in force now (Current).
 func HeightLatestMany(ctx context.Context, db DBTX, p HeightLatestManyParams) (map[int64]Height, error) {
 	hs, err := heightQuery(ctx, db, "SELECT DISTINCT ON (h.mark_id) "+heightColumns+heightFrom+
 		" WHERE h.mark_id = ANY($1) AND h.datum_id = $2 ORDER BY h.mark_id, h.version DESC", p.MarkIDs, p.DatumID)

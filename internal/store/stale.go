@@ -57,8 +57,8 @@ type StaleCause struct {
 func StaleCauseList(ctx context.Context, db DBTX) ([]StaleCause, error) {
 	rows, err := db.Query(ctx, `
 		WITH cur AS (
-			SELECT h.id, h.adjustment_id FROM height h
-			WHERE h.adjustment_id IS NOT NULL AND NOT EXISTS (SELECT 1 FROM height x WHERE x.supersedes = h.id)
+			SELECT h.id, h.adjustment_id FROM height h LEFT JOIN register_commit rc ON rc.xid = h.created_xid
+			WHERE h.adjustment_id IS NOT NULL AND `+heightCurrent+`
 		)
 		SELECT cur.id, cur.adjustment_id, 'held-superseded', m.designation,
 			held.id, held.version, s.id, s.version, s.recorded_at,
