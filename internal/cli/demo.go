@@ -139,6 +139,10 @@ func demoRun(opts *demoOptions) error {
 			{"Where " + demo.TraceMark + "'s height comes from", "trace " + demo.TraceMark},
 		}...)
 	}
+	steps = append(steps, []struct{ title, args string }{
+		{"A mark reset in place: its heights from before the reset", "history " + demo.ResetMark},
+		{"A mark retired and the one that replaced it", "mark show " + demo.ReplacedMark},
+	}...)
 	for _, step := range steps {
 		fmt.Fprintf(out, "\n== %s (cairn %s)\n", step.title, step.args)
 		if err := Execute(ctx, df, append([]string{"--db", url}, strings.Fields(step.args)...)); err != nil {
@@ -154,12 +158,14 @@ func demoRun(opts *demoOptions) error {
 
 // demoContents says what the demo register holds; TestDemoHelpSaysWhatItBuilds
 // holds it to what demo.Build makes.
-const demoContents = `two datums; eleven benchmarks with their descriptions,
+const demoContents = `two datums; twelve benchmarks with their descriptions,
 one of them created by recording a field book (its condition unverified);
 condition reports, one mark disturbed and one reported not found in 2023
 and recovered in 2024; heights from outside publications, one mark with
 several versions in two units; two field books recorded as runs; and two
-adjustments of them, published.`
+adjustments of them, published. Then one mark reset in place after a
+flood, its old heights kept as before the reset, and one mark destroyed by
+road works, retired and replaced by a new one.`
 
 // redact hides a password in a URL for printing.
 func redact(url string) string {

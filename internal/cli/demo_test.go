@@ -40,8 +40,11 @@ func TestDemoHelpSaysWhatItBuilds(t *testing.T) {
 		t.Fatal(err)
 	}
 	latest := map[string]int{}
-	recovered := 0
+	recovered, replaced := 0, 0
 	for _, m := range marks {
+		if m.Retired != nil && m.Retired.ReplacedBy != "" {
+			replaced++
+		}
 		if m.Latest != nil {
 			latest[m.Latest.Condition]++
 		}
@@ -55,7 +58,7 @@ func TestDemoHelpSaysWhatItBuilds(t *testing.T) {
 			}
 		}
 	}
-	words := map[int]string{1: "one", 2: "two", 11: "eleven"}
+	words := map[int]string{1: "one", 2: "two", 11: "eleven", 12: "twelve"}
 	text := strings.Join(strings.Fields(demoContents), " ")
 	for _, c := range []struct {
 		n    int
@@ -65,6 +68,8 @@ func TestDemoHelpSaysWhatItBuilds(t *testing.T) {
 		{len(marks), "%s benchmarks"},
 		{latest["unverified"], "%s of them created by recording a field book (its condition unverified)"},
 		{latest["disturbed"], "%s mark disturbed"},
+		{latest["reset"], "%s mark reset in place"},
+		{replaced, "%s mark destroyed by road works, retired and replaced"},
 		{recovered, "%s reported not found in 2023 and recovered in 2024"},
 		{len(runs), "%s field books recorded as runs"},
 		{len(published), "%s adjustments of them, published"},

@@ -30,6 +30,51 @@ var Steps = []Step{
 	{"published heights", addHeights},
 	{"field books", recordBooks},
 	{"adjustments", adjustRuns},
+	{"the life of a mark", markLife},
+}
+
+// ResetMark is the mark the demo resets in place; ReplacedMark the one it
+// retires for a new mark, NewMark.
+const (
+	ResetMark    = "TC-0419"
+	ReplacedMark = "TC-0405"
+	NewMark      = "TC-0405A"
+)
+
+// markLife resets one mark in place after a flood cracked its headwall
+// (its heights before the reset stay in the register, shown as before the
+// reset and never held again), and retires one destroyed by road works for
+// a new mark set beside it.
+func markLife(ctx context.Context, r *register.Register) error {
+	for _, x := range []struct{ cond, on, note string }{
+		{"disturbed", "2025-03-10", "headwall cracked and shifted by the March flood"},
+		{"reset", "2025-04-02", "headwall rebuilt on its old footing; square cut again at the same place, to be levelled again"},
+	} {
+		on, err := date(x.on)
+		if err != nil {
+			return err
+		}
+		if _, err := r.MarkCondition(ctx, register.MarkConditionParams{Designation: ResetMark, Condition: x.cond,
+			Note: x.note, ObservedOn: on, RecordedBy: Clerk}); err != nil {
+			return err
+		}
+	}
+	on, err := date("2025-05-06")
+	if err != nil {
+		return err
+	}
+	if _, err := r.MarkCondition(ctx, register.MarkConditionParams{Designation: ReplacedMark, Condition: "destroyed",
+		Note: "post broken out by the road works; disk found in the spoil", ObservedOn: on, RecordedBy: Clerk}); err != nil {
+		return err
+	}
+	lat, lon := ll(41.61880, -97.94745)
+	_, err = r.MarkRetire(ctx, register.MarkRetireParams{Designation: ReplacedMark, On: on, Today: time.Now(),
+		Reason: "post broken out when Mere River Road was widened; a new disk set 15 m south-west",
+		By:     Clerk,
+		Replacement: &register.MarkAddParams{Designation: NewMark, Type: "bronze disk", Setting: "concrete post, flush with the ground",
+			Stamping: "TC 0405A 2025", Directions: "Mere River Road, 55 m south of the grain elevator gate, new west verge",
+			Lat: lat, Lon: lon, CreatedBy: Clerk}})
+	return err
 }
 
 // HistoryMark is the mark whose history the demo shows: it has several
