@@ -74,6 +74,41 @@ func MarkInsert(ctx context.Context, db DBTX, p MarkInsertParams) (int64, error)
 	return id, nil
 }
 
+// MarkInsertManyParams are new marks made with a run: designations only,
+// with no description and no position.
+type MarkInsertManyParams struct {
+	Designations []string
+	CreatedBy    string
+}
+
+// MarkInsertMany adds the marks in one statement and returns their
+// identifiers by designation; ErrAlreadyExists if a designation is taken
+// (or two of them are one name once folded), and then none is added.
+func MarkInsertMany(ctx context.Context, db DBTX, p MarkInsertManyParams) (map[string]int64, error) {
+	rows, err := db.Query(ctx, `INSERT INTO mark (designation, mark_type, setting, stamping, to_reach, lat, lon, created_by)
+		SELECT u.designation, '', '', '', '', NULL, NULL, $2 FROM unnest($1::text[]) WITH ORDINALITY AS u (designation, ord) ORDER BY u.ord
+		RETURNING id, designation`, p.Designations, p.CreatedBy)
+	if err != nil {
+		return nil, fmt.Errorf("insert %d marks: %w", len(p.Designations), translate(err))
+	}
+	type made struct {
+		id          int64
+		designation string
+	}
+	ms, err := collect(rows, func(r pgx.Row) (made, error) {
+		var m made
+		return m, translate(r.Scan(&m.id, &m.designation))
+	})
+	if err != nil {
+		return nil, fmt.Errorf("insert %d marks: %w", len(p.Designations), err)
+	}
+	ids := make(map[string]int64, len(ms))
+	for _, m := range ms {
+		ids[m.designation] = m.id
+	}
+	return ids, nil
+}
+
 // MarkGetParams names a mark.
 type MarkGetParams struct {
 	Designation string
