@@ -137,6 +137,22 @@ func fromDocker(ctx context.Context) (u string, err error) {
 // New returns a fresh, migrated database for t, dropped when t ends.
 func New(t testing.TB) *DB {
 	t.Helper()
+	return create(t, "cairn_test_"+randomHex(6), true)
+}
+
+// Kept returns a fresh, migrated database named name, which stays on the
+// server when t ends: a benchmark's register that a cairn process measures
+// again afterwards (its pool is closed when t ends). A database of that
+// name already on the server fails t. Whoever asked for it drops it.
+func Kept(t testing.TB, name string) *DB {
+	t.Helper()
+	return create(t, name, false)
+}
+
+// create makes database name from the template, dropped when t ends if
+// drop.
+func create(t testing.TB, name string, drop bool) *DB {
+	t.Helper()
 	ctx := context.Background()
 	admin, err := server()
 	if err != nil {
@@ -146,7 +162,6 @@ func New(t testing.TB) *DB {
 	if err != nil {
 		t.Fatalf("pgtest: template database: %v", err)
 	}
-	name := "cairn_test_" + randomHex(6)
 	if err := createFrom(ctx, admin, name, tmpl); err != nil {
 		t.Fatalf("pgtest: create test database: %v", err)
 	}
@@ -160,6 +175,9 @@ func New(t testing.TB) *DB {
 	}
 	t.Cleanup(func() {
 		pool.Close()
+		if !drop {
+			return
+		}
 		if err := onAdmin(context.Background(), admin, func(conn *pgx.Conn) error {
 			return store.DatabaseDrop(context.Background(), conn, name)
 		}); err != nil {

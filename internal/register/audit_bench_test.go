@@ -2,13 +2,22 @@ package register_test
 
 import (
 	"context"
+	"errors"
+	"fmt"
 	"os"
+	"runtime"
+	"runtime/debug"
 	"strconv"
 	"strings"
+	"sync"
 	"testing"
+	"time"
 
 	"cairn/internal/booktest"
+	"cairn/internal/pgtest"
+	"cairn/internal/register"
 	"cairn/internal/registertest"
+	"cairn/internal/store"
 )
 
 // BenchmarkAuditVerify20k: the whole audit (hash chains, the book parsed
@@ -46,32 +55,138 @@ func BenchmarkAuditVerifyEmpty(b *testing.B) {
 	}
 }
 
-// BenchmarkAuditVerifyScaled: the whole audit of a register of one
-// generated loop with a mark at every setup, CAIRN_BENCH_AUDIT_MARKS
-// marks (default 100 000), adjusted and published CAIRN_BENCH_AUDIT_ROUNDS
-// times (default 5), so that every mark but the held one has that many
-// versions. It reports the process's peak resident memory (VmHWM) as
-// peak-MB. Building the register is not timed.
+// BenchmarkAuditVerifyScaled: the whole audit of a register of
+// generated loops with a mark at every setup, each loop held at its first
+// mark (an outside height) and adjusted and published over and over:
+//
+//	CAIRN_BENCH_AUDIT_MARKS   marks in all (default 100 000)
+//	CAIRN_BENCH_AUDIT_RUNS    loops (runs) they are shared out among, each
+//	                          of MARKS/RUNS setups and marks (default 1)
+//	CAIRN_BENCH_AUDIT_ROUNDS  adjustments and publications of each loop
+//	                          (default 5)
+//	CAIRN_BENCH_AUDIT_KEEP    the name of a database to build the register
+//	                          in and leave on the server, for `cairn audit
+//	                          verify` to measure again (default none: a
+//	                          test database, dropped)
+//
+// so that every mark but the held ones has ROUNDS versions:
+// RUNS·(1 + (MARKS/RUNS − 1)·ROUNDS) versions. The register is built
+// through the register's own use cases (Record, HeightSet, Adjust,
+// Publish), the loops shared out among as many goroutines as there are
+// processors; building is not timed, but reported as build-s, with the
+// process's peak resident memory (VmHWM) while building as build-peak-MB.
+// The peak is then reset (/proc/self/clear_refs), so peak-MB is the
+// audit's own.
 func BenchmarkAuditVerifyScaled(b *testing.B) {
-	marks, rounds := envInt(b, "CAIRN_BENCH_AUDIT_MARKS", 100000), envInt(b, "CAIRN_BENCH_AUDIT_ROUNDS", 5)
-	fx := registertest.Setup(b)
-	fx.Datum(b, registertest.DatumOpts{})
-	loop := booktest.Loop{Setups: marks, MarkEvery: 1, Seed: 1}
-	rec := fx.Run(b, registertest.RunOpts{Path: "large.csv", Book: loop.Book(), By: "bench", NewMarks: true})
-	fx.Height(b, registertest.HeightOpts{Designation: "TC-1001", Value: "100.000", Unit: "m", Source: "invented", Reason: "bench", By: "bench"})
-	for range rounds {
-		v := fx.Adjustment(b, registertest.AdjustmentOpts{Runs: []int64{rec.Run.ID}, Hold: []string{"TC-1001"}, By: "bench"})
-		fx.Publication(b, v.Adjustment.ID, registertest.PublicationOpts{Reason: "bench", By: "bench"})
+	marks, runs, rounds := envInt(b, "CAIRN_BENCH_AUDIT_MARKS", 100000), envInt(b, "CAIRN_BENCH_AUDIT_RUNS", 1), envInt(b, "CAIRN_BENCH_AUDIT_ROUNDS", 5)
+	if marks%runs != 0 || marks/runs < 2 {
+		b.Fatalf("CAIRN_BENCH_AUDIT_MARKS=%d over CAIRN_BENCH_AUDIT_RUNS=%d: want a whole number of at least 2 marks a loop", marks, runs)
 	}
+	db := pgtest.New
+	if keep := os.Getenv("CAIRN_BENCH_AUDIT_KEEP"); keep != "" {
+		db = func(tb testing.TB) *pgtest.DB { return pgtest.Kept(tb, keep) }
+	}
+	fx := registertest.On(b, db(b))
+	fx.Datum(b, registertest.DatumOpts{})
+	start := time.Now()
+	if err := buildLoops(fx, marks/runs, runs, rounds, min(runs, runtime.GOMAXPROCS(0))); err != nil {
+		b.Fatal(err)
+	}
+	buildS, buildMB := time.Since(start).Seconds(), peakMB(b)
+	runtime.GC()
+	debug.FreeOSMemory()
+	if err := os.WriteFile("/proc/self/clear_refs", []byte("5"), 0); err != nil {
+		b.Fatalf("reset the peak resident memory: %v", err)
+	}
+	versions := runs * (1 + (marks/runs-1)*rounds)
 	b.ResetTimer()
 	for b.Loop() {
 		rep, err := fx.Reg.AuditVerify(context.Background())
-		if err != nil || rep.Count() != 0 || rep.Runs != 1 || rep.Adjustments != rounds {
-			b.Fatalf("audit: %v, %d breaks, %d versions, %d runs, %d adjustments", err, rep.Count(), rep.Versions, rep.Runs, rep.Adjustments)
+		if err != nil || rep.Count() != 0 || rep.Runs != runs || rep.Adjustments != runs*rounds || rep.Versions != versions {
+			b.Fatalf("audit: %v, %d breaks, %d versions (want %d), %d runs, %d adjustments", err, rep.Count(), rep.Versions, versions, rep.Runs, rep.Adjustments)
 		}
 		b.ReportMetric(float64(rep.Versions), "versions")
 	}
 	b.ReportMetric(peakMB(b), "peak-MB")
+	b.ReportMetric(buildS, "build-s")
+	b.ReportMetric(buildMB, "build-peak-MB")
+}
+
+// buildLoops records runs generated loops of setups setups each, a mark
+// at every setup and no mark shared (loop k's marks are numbered from
+// TC-1001 + k·setups), gives each loop's first mark an outside height, and
+// adjusts each loop by itself, holding that mark, and publishes the draft,
+// rounds times, on workers goroutines.
+func buildLoops(fx *registertest.Bundle, setups, runs, rounds, workers int) error {
+	ctx := fx.Ctx
+	loops := make(chan int)
+	errs := make(chan error, workers)
+	var wg sync.WaitGroup
+	for range workers {
+		wg.Add(1)
+		go func() {
+			defer wg.Done()
+			for k := range loops {
+				if err := buildLoop(ctx, fx, k, setups, rounds); err != nil {
+					errs <- err
+					return
+				}
+			}
+		}()
+	}
+	var err error
+send:
+	for k := range runs {
+		select {
+		case loops <- k:
+		case err = <-errs:
+			break send
+		}
+	}
+	close(loops)
+	wg.Wait()
+	close(errs)
+	if err != nil {
+		return err
+	}
+	return <-errs
+}
+
+// buildLoop records and adjusts loop k of buildLoops.
+func buildLoop(ctx context.Context, fx *registertest.Bundle, k, setups, rounds int) error {
+	loop := booktest.Loop{Name: fmt.Sprintf("Generated loop %d", k+1), Setups: setups, MarkEvery: 1, FirstMark: 1001 + k*setups, Seed: uint64(k + 1)}
+	rec, err := fx.Reg.Record(ctx, register.RecordParams{Path: fmt.Sprintf("loop-%d.csv", k+1), Book: loop.Book(), By: "bench", NewMarks: true})
+	if err != nil {
+		return err
+	}
+	held := loop.Marks()[0]
+	if _, err := fx.Reg.HeightSet(ctx, register.HeightSetParams{Designation: held, Datum: "NAVD88", Value: "100.000", Unit: "m",
+		Source: "invented", Reason: "bench", RecordedBy: "bench"}); err != nil {
+		return err
+	}
+	for range rounds {
+		p := fx.AdjustParams(registertest.AdjustmentOpts{Runs: []int64{rec.Run.ID}, Hold: []string{held}, By: "bench"})
+		v, err := fx.Reg.Adjust(ctx, p)
+		for try := 1; try < 10 && isConflict(err); try++ {
+			// Adjust tries its own snapshot up to three times against the
+			// other goroutines' commits; try again from the start.
+			v, err = fx.Reg.Adjust(ctx, p)
+		}
+		if err != nil {
+			return fmt.Errorf("adjust loop %d: %w", k+1, err)
+		}
+		if _, err := fx.Reg.Publish(ctx, register.PublishParams{AdjustmentID: v.Adjustment.ID, Reason: "bench", By: "bench"}); err != nil {
+			return fmt.Errorf("publish loop %d: %w", k+1, err)
+		}
+	}
+	return nil
+}
+
+// isConflict says whether err is the register's conflict with another
+// writer (nothing was written; try again).
+func isConflict(err error) bool {
+	var ce *register.ConflictError
+	return errors.As(err, &ce) || errors.Is(err, store.ErrConflict)
 }
 
 // envInt reads a positive whole number from the environment, or def.

@@ -17,6 +17,7 @@ import (
 	"github.com/jackc/pgx/v5"
 
 	"cairn/internal/levelbook"
+	"cairn/internal/names"
 	"cairn/internal/reduce"
 	"cairn/internal/standards"
 	"cairn/internal/store"
@@ -747,8 +748,8 @@ func runInsertParams(p RecordParams, book *levelbook.Book, res *reduce.Result, p
 // findMarks looks up the marks the book names, with their latest
 // condition; missing are those the register lacks. Without p.NewMarks, a
 // missing mark refuses the book.
-func findMarks(ctx context.Context, tx pgx.Tx, p RecordParams, names []string, firstLine map[string]int) (byName map[string]store.Mark, missing []UnknownMark, err error) {
-	known, err := store.MarkListByDesignations(ctx, tx, names)
+func findMarks(ctx context.Context, tx pgx.Tx, p RecordParams, named []string, firstLine map[string]int) (byName map[string]store.Mark, missing []UnknownMark, err error) {
+	known, err := store.MarkListByDesignations(ctx, tx, named)
 	if err != nil {
 		return nil, nil, fmt.Errorf("look up the marks of %s: %w", p.Path, err)
 	}
@@ -756,21 +757,32 @@ func findMarks(ctx context.Context, tx pgx.Tx, p RecordParams, names []string, f
 	for _, m := range known {
 		byName[m.Designation] = m
 	}
-	for _, n := range names {
+	for _, n := range named {
 		if _, ok := byName[n]; !ok {
 			missing = append(missing, UnknownMark{Designation: n, Line: firstLine[n]})
 		}
 	}
 	// A name the register holds written another way (tc-0412 for
-	// TC-0412) is that mark misspelt, never a new one.
-	for _, u := range missing {
-		existing, err := markFolded(ctx, tx, u.Designation)
-		if err != nil {
-			return nil, nil, err
+	// TC-0412) is that mark misspelt, never a new one: all the missing
+	// names looked up at once, the first in the book's order named.
+	if len(missing) > 0 {
+		folded := make([]string, len(missing))
+		for i, u := range missing {
+			folded[i] = names.Fold(u.Designation)
 		}
-		if existing != "" {
-			return nil, nil, &levelbook.Error{File: p.Path, Line: u.Line, Field: "point",
-				Msg: fmt.Sprintf("%q is not in the register, but mark %s is the same name written another way (case or character forms): write %s", u.Designation, existing, existing)}
+		like, err := store.MarkListByFolded(ctx, tx, folded)
+		if err != nil {
+			return nil, nil, fmt.Errorf("look up marks named like those of %s: %w", p.Path, err)
+		}
+		existing := map[string]string{}
+		for _, m := range like {
+			existing[names.Fold(m.Designation)] = m.Designation
+		}
+		for i, u := range missing {
+			if e, ok := existing[folded[i]]; ok {
+				return nil, nil, &levelbook.Error{File: p.Path, Line: u.Line, Field: "point",
+					Msg: fmt.Sprintf("%q is not in the register, but mark %s is the same name written another way (case or character forms): write %s", u.Designation, e, e)}
+			}
 		}
 		// An alias names a mark, but a book names its marks by designation.
 		holder, alias, err := store.AliasHolder(ctx, tx, foldName(u.Designation))
@@ -799,7 +811,8 @@ func createMarks(ctx context.Context, tx pgx.Tx, p RecordParams, book *levelbook
 		}
 	}
 	created := map[string]bool{}
-	for _, u := range missing {
+	designations := make([]string, len(missing))
+	for i, u := range missing {
 		if err := nameProblem("point", "designation", u.Designation); err != nil {
 			return nil, &levelbook.Error{File: p.Path, Line: u.Line, Field: "point", Msg: err.(*InputError).Msg}
 		}
@@ -807,22 +820,33 @@ func createMarks(ctx context.Context, tx pgx.Tx, p RecordParams, book *levelbook
 			return nil, &levelbook.Error{File: p.Path, Line: u.Line, Field: "point",
 				Msg: fmt.Sprintf("%q cannot be a mark's designation (use at most 64 letters, digits and . _ / -, starting with a letter or digit), or name it as a turning point", u.Designation)}
 		}
-		id, err := store.MarkInsert(ctx, tx, store.MarkInsertParams{Designation: u.Designation, CreatedBy: p.By})
+		designations[i] = u.Designation
+	}
+	if len(missing) > 0 {
+		// The marks and their first reports, each in one statement.
+		ids, err := store.MarkInsertMany(ctx, tx, store.MarkInsertManyParams{Designations: designations, CreatedBy: p.By})
 		if errors.Is(err, store.ErrAlreadyExists) {
 			return nil, &ConflictError{Err: err}
 		}
 		if err != nil {
 			return nil, err
 		}
-		c, err := store.ConditionInsert(ctx, tx, store.ConditionInsertParams{
-			MarkID: id, Condition: Unverified, ObservedOn: observed, RecordedBy: p.By,
+		markIDs := make([]int64, len(designations))
+		for i, d := range designations {
+			markIDs[i] = ids[d]
+		}
+		cs, err := store.ConditionInsertMany(ctx, tx, store.ConditionInsertManyParams{
+			MarkIDs: markIDs, Condition: Unverified, ObservedOn: observed, RecordedBy: p.By,
 			Note: fmt.Sprintf("created when %s was recorded", filepath.Base(p.Path)),
 		})
 		if err != nil {
 			return nil, err
 		}
-		byName[u.Designation] = store.Mark{ID: id, Designation: u.Designation, Latest: &c}
-		created[u.Designation] = true
+		for i, d := range designations {
+			c := cs[markIDs[i]]
+			byName[d] = store.Mark{ID: markIDs[i], Designation: d, Latest: &c}
+			created[d] = true
+		}
 	}
 	marks := make([]store.RunMark, len(names))
 	for i, n := range names {

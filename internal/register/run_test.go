@@ -437,6 +437,24 @@ func slicesEqual(a, b []int64) bool {
 	return true
 }
 
+// BenchmarkRecordNewMarks records a generated loop of 1,000 setups with a
+// mark at every setup (2,000 sightings, 1,000 sections), every mark new
+// to the register and created with the run (NewMarks), as each loop of
+// BenchmarkAuditVerifyScaled is. Each iteration records a loop of marks
+// of its own.
+func BenchmarkRecordNewMarks(b *testing.B) {
+	fx := registertest.Setup(b)
+	i := 0
+	for b.Loop() {
+		l := booktest.Loop{Setups: 1000, MarkEvery: 1, FirstMark: 1001 + 1000*i, Seed: uint64(i + 1)}
+		i++
+		p := register.RecordParams{Path: fmt.Sprintf("loop-%d.csv", i), Book: l.Book(), By: "bench", NewMarks: true}
+		if _, err := fx.Reg.Record(fx.Ctx, p); err != nil {
+			b.Fatal(err)
+		}
+	}
+}
+
 // BenchmarkRecord20kSetups records a generated loop of 20,000 setups
 // (40,000 sightings, 400 sections over marks already in the register):
 // parse, reduce and the one transaction. Each iteration records a

@@ -41,6 +41,41 @@ func ConditionInsert(ctx context.Context, db DBTX, p ConditionInsertParams) (Con
 	return c, nil
 }
 
+// ConditionInsertManyParams are one condition report, the same for each
+// of several marks.
+type ConditionInsertManyParams struct {
+	MarkIDs    []int64
+	Condition  string
+	Note       string
+	ObservedOn time.Time
+	RecordedBy string
+}
+
+// ConditionInsertMany appends the report on each mark in one statement and
+// returns the reports by mark.
+func ConditionInsertMany(ctx context.Context, db DBTX, p ConditionInsertManyParams) (map[int64]Condition, error) {
+	rows, err := db.Query(ctx, `INSERT INTO mark_condition (mark_id, condition, note, observed_on, recorded_by)
+		SELECT u.mark_id, $2, $3, $4, $5 FROM unnest($1::bigint[]) WITH ORDINALITY AS u (mark_id, ord) ORDER BY u.ord
+		RETURNING id, mark_id, condition, note, observed_on, recorded_at, recorded_by`,
+		p.MarkIDs, p.Condition, p.Note, pgDate(p.ObservedOn), p.RecordedBy)
+	if err != nil {
+		return nil, fmt.Errorf("insert condition reports: %w", translate(err))
+	}
+	cs, err := collect(rows, func(r pgx.Row) (Condition, error) {
+		var c Condition
+		err := r.Scan(&c.ID, &c.MarkID, &c.Condition, &c.Note, &c.ObservedOn, &c.RecordedAt, &c.RecordedBy)
+		return c, translate(err)
+	})
+	if err != nil {
+		return nil, fmt.Errorf("insert condition reports: %w", err)
+	}
+	out := make(map[int64]Condition, len(cs))
+	for _, c := range cs {
+		out[c.MarkID] = c
+	}
+	return out, nil
+}
+
 // ConditionListByMark returns a mark's condition reports, latest first.
 func ConditionListByMark(ctx context.Context, db DBTX, markID int64) ([]Condition, error) {
 	rows, err := db.Query(ctx, `SELECT id, mark_id, condition, note, observed_on, recorded_at, recorded_by

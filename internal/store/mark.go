@@ -84,6 +84,17 @@ LEFT JOIN mark rby ON rby.id = ret.replaced_by
 LEFT JOIN mark_retirement rofr ON rofr.replaced_by = m.id
 LEFT JOIN mark rof ON rof.id = rofr.mark_id`
 
+// markDesignation is the designation of the mark whose id is the column
+// col, as a scalar subquery: one lookup by the mark's key per row. Lists
+// of one run's or one adjustment's rows name their marks this way rather
+// than by a join, which PostgreSQL may make a hash join over every mark of
+// the register (measured 2026-12-02, 390,000 marks: the sections of a
+// 1,000-mark run read in 105 ms by a join, in 2.5 ms by the subquery), so
+// that their cost follows the run, not the register.
+func markDesignation(col string) string {
+	return "(SELECT designation FROM mark WHERE id = " + col + ")"
+}
+
 func scanMark(row pgx.Row, extra ...any) (Mark, error) {
 	var m Mark
 	var cid *int64
@@ -134,6 +145,41 @@ func MarkInsert(ctx context.Context, db DBTX, p MarkInsertParams) (int64, error)
 		return 0, fmt.Errorf("insert mark %s: %w", p.Designation, translate(err))
 	}
 	return id, nil
+}
+
+// MarkInsertManyParams are new marks made with a run: designations only,
+// with no description and no position.
+type MarkInsertManyParams struct {
+	Designations []string
+	CreatedBy    string
+}
+
+// MarkInsertMany adds the marks in one statement and returns their
+// identifiers by designation; ErrAlreadyExists if a designation is taken
+// (or two of them are one name once folded), and then none is added.
+func MarkInsertMany(ctx context.Context, db DBTX, p MarkInsertManyParams) (map[string]int64, error) {
+	rows, err := db.Query(ctx, `INSERT INTO mark (designation, mark_type, setting, stamping, to_reach, lat, lon, created_by)
+		SELECT u.designation, '', '', '', '', NULL, NULL, $2 FROM unnest($1::text[]) WITH ORDINALITY AS u (designation, ord) ORDER BY u.ord
+		RETURNING id, designation`, p.Designations, p.CreatedBy)
+	if err != nil {
+		return nil, fmt.Errorf("insert %d marks: %w", len(p.Designations), translate(err))
+	}
+	type made struct {
+		id          int64
+		designation string
+	}
+	ms, err := collect(rows, func(r pgx.Row) (made, error) {
+		var m made
+		return m, translate(r.Scan(&m.id, &m.designation))
+	})
+	if err != nil {
+		return nil, fmt.Errorf("insert %d marks: %w", len(p.Designations), err)
+	}
+	ids := make(map[string]int64, len(ms))
+	for _, m := range ms {
+		ids[m.designation] = m.id
+	}
+	return ids, nil
 }
 
 // MarkGetParams names a mark.

@@ -314,10 +314,10 @@ func RunMarkCopy(ctx context.Context, db Copier, p RunMarkCopyParams) (int64, er
 
 // RunMarkListByRun returns the marks a run touched, by designation.
 func RunMarkListByRun(ctx context.Context, db DBTX, runID int64) ([]RunMark, error) {
-	rows, err := db.Query(ctx, `SELECT rm.run_id, rm.mark_id, m.designation, rm.created,
+	rows, err := db.Query(ctx, `SELECT rm.run_id, rm.mark_id, `+markDesignation("rm.mark_id")+` AS designation, rm.created,
 		c.id, c.condition, c.note, c.observed_on, c.recorded_at, c.recorded_by
-		FROM run_mark rm JOIN mark m ON m.id = rm.mark_id LEFT JOIN mark_condition c ON c.id = rm.condition_id
-		WHERE rm.run_id = $1 ORDER BY m.designation`, runID)
+		FROM run_mark rm LEFT JOIN mark_condition c ON c.id = rm.condition_id
+		WHERE rm.run_id = $1 ORDER BY designation`, runID)
 	if err != nil {
 		return nil, translate(err)
 	}

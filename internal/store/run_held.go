@@ -60,11 +60,11 @@ func RunHeldCopy(ctx context.Context, db Copier, p RunHeldCopyParams) (int64, er
 // RunHeldListByRun returns the marks a run was reduced from, by
 // designation, with the versions held.
 func RunHeldListByRun(ctx context.Context, db DBTX, runID int64) ([]RunHeld, error) {
-	rows, err := db.Query(ctx, `SELECT rh.run_id, rh.mark_id, m.designation, rh.height_id, rh.value_in_book_unit::text,
+	rows, err := db.Query(ctx, `SELECT rh.run_id, rh.mark_id, `+markDesignation("rh.mark_id")+` AS designation, rh.height_id, rh.value_in_book_unit::text,
 		coalesce(rh.condition_reason, ''), h.version, d.code, h.value::text, h.unit
-		FROM run_held rh JOIN mark m ON m.id = rh.mark_id
+		FROM run_held rh
 		LEFT JOIN height h ON h.id = rh.height_id LEFT JOIN datum d ON d.id = h.datum_id
-		WHERE rh.run_id = $1 ORDER BY m.designation`, runID)
+		WHERE rh.run_id = $1 ORDER BY designation`, runID)
 	if err != nil {
 		return nil, translate(err)
 	}
