@@ -785,13 +785,15 @@ func findMarks(ctx context.Context, tx pgx.Tx, p RecordParams, named []string, f
 			}
 		}
 		// An alias names a mark, but a book names its marks by designation.
-		holder, alias, err := store.AliasHolder(ctx, tx, foldName(u.Designation))
-		switch {
-		case err == nil:
-			return nil, nil, &levelbook.Error{File: p.Path, Line: u.Line, Field: "point",
-				Msg: fmt.Sprintf("%q is an alias of mark %s (%s): a book names its marks by designation; write %s", u.Designation, holder, alias, holder)}
-		case !errors.Is(err, store.ErrNotFound):
-			return nil, nil, err
+		for _, u := range missing {
+			holder, alias, err := store.AliasHolder(ctx, tx, foldName(u.Designation))
+			switch {
+			case err == nil:
+				return nil, nil, &levelbook.Error{File: p.Path, Line: u.Line, Field: "point",
+					Msg: fmt.Sprintf("%q is an alias of mark %s (%s): a book names its marks by designation; write %s", u.Designation, holder, alias, holder)}
+			case !errors.Is(err, store.ErrNotFound):
+				return nil, nil, err
+			}
 		}
 	}
 	if len(missing) > 0 && !p.NewMarks {
