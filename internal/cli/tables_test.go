@@ -268,8 +268,12 @@ func TestMarkListByCondition(t *testing.T) {
 		{"unverified", []string{"TC-0413"}},
 		{"UNVERIFIED", []string{"TC-0413"}},
 		{"DISTURBED", []string{"TC-0415"}},
-		{"Disturbed,good", []string{"TC-0401", "TC-0412", "TC-0415", "TC-0419", "TC-0420", "TC-0423", "TC-0427", "TC-0430"}},
-		{"unknown", []string{"TC-0405", "TC-0408"}},
+		{"Disturbed,good", []string{"TC-0401", "TC-0412", "TC-0415", "TC-0420", "TC-0423", "TC-0427", "TC-0430"}},
+		// TC-0419 reset after a flood; TC-0405 destroyed and replaced
+		// by TC-0405A, which has no report yet.
+		{"reset", []string{"TC-0419"}},
+		{"destroyed", []string{"TC-0405"}},
+		{"unknown", []string{"TC-0405A", "TC-0408"}},
 		{"not found", nil},
 	} {
 		out, errOut, st := binRun(t, url, "mark", "list", "--condition", c.condition)
