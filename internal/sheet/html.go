@@ -91,9 +91,9 @@ func (d Data) Sketch() *svgSketch {
 }
 
 var htmlTmpl = template.Must(template.New("sheet").Funcs(template.FuncMap{
-	"date":  func(t time.Time) string { return t.UTC().Format("2006-01-02") },
-	"time":  func(t time.Time) string { return t.UTC().Format(time.RFC3339) },
-	"join":  func(s []string) string { return strings.Join(s, ", ") },
+	"date": func(t time.Time) string { return t.UTC().Format("2006-01-02") },
+	"time": func(t time.Time) string { return t.UTC().Format(time.RFC3339) },
+	"join": func(s []string) string { return strings.Join(s, ", ") },
 	"orDash": func(s string) string {
 		if s == "" {
 			return "—"
