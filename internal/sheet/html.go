@@ -151,7 +151,7 @@ th, td { text-align: left; vertical-align: top; padding: 2px 6px; border: 1px so
 <p class="fine">Sketch: this mark (triangle) and the marks near it (circles), north up, from the register's approximate positions; no map.</p>
 {{end}}<h2>Heights ({{.Unit}}), {{.AsOfText}}</h2>
 {{if .Heights}}<table>
-<tr><th>datum</th><th>height ({{.Unit}})</th><th>as published</th><th>version</th><th>class</th><th>made by</th><th>in force from (UTC)</th><th>source</th></tr>
+<tr><th>datum</th><th>height ({{.Unit}})</th><th>as published</th><th>version</th><th>class</th><th>provenance</th><th>in force from (UTC)</th><th>source</th></tr>
 {{range .Heights}}<tr><td>{{.Datum}}</td><td>{{if .Withdrawn}}withdrawn{{else}}{{.Value}}{{end}}</td><td>{{orDash .Published}}</td><td>{{.Version}}</td><td>{{orDash .Class}}</td><td>{{.Provenance}}</td><td>{{time .InForceFrom}}</td><td class="text">{{orDash .Source}}</td></tr>
 {{end}}</table>
 {{else}}<p class="doubt">No height in force on any datum.</p>

@@ -73,7 +73,7 @@ func writeSheet(f *fpdf.Fpdf, d Data) {
 	f.SetFooterFunc(func() {
 		f.SetY(-margin - 2)
 		f.SetFont("dejavu", "", 7)
-		f.MultiCell(textW, 3, fmt.Sprintf("cairn datasheet of %s · page %d · made from %s", d.Designation, f.PageNo(), d.StateText()), "", "L", false)
+		f.MultiCell(textW, 3, fmt.Sprintf("cairn datasheet of %s · page %d · register commit %d, head %.16s", d.Designation, f.PageNo(), d.State.Seq, d.State.Head), "", "L", false)
 	})
 	f.SetTitle(d.Title(), true)
 	f.AddPage()
@@ -122,7 +122,7 @@ func writeSheet(f *fpdf.Fpdf, d Data) {
 		if h.Published != "" {
 			parts = append(parts, "as published "+h.Published)
 		}
-		parts = append(parts, "version "+strconv.Itoa(h.Version), "class "+orDash(h.Class), "made by "+h.Provenance,
+		parts = append(parts, "version "+strconv.Itoa(h.Version), "class "+orDash(h.Class), "provenance "+h.Provenance,
 			"in force from "+h.InForceFrom.UTC().Format(time.RFC3339))
 		f.MultiCell(textW, lineH, strings.Join(parts, "; "), "", "L", false)
 		field(f, "source", orDash(h.Source))
