@@ -21,6 +21,7 @@ import (
 	"testing"
 
 	"cairn/internal/pgtest"
+	"cairn/internal/register"
 )
 
 // hostileDirections is 2,000 characters of directions with quotes, markup
@@ -343,5 +344,27 @@ func checkGeoJSON(t *testing.T, data []byte, wantFeatures int) {
 		if _, ok := f.Properties["height_usft"]; !ok {
 			t.Errorf("marks.geojson feature lacks height_usft: %v", f.Properties)
 		}
+	}
+}
+
+// A pack made with a signing key carries the register's statement, signed
+// (Ed25519, RFC 8032), of the same head as its sheets, and lists it in
+// SHA256SUMS.
+func TestPackSigned(t *testing.T) {
+	t.Parallel()
+	db := sheetRegister(t)
+	dir := t.TempDir()
+	key := filepath.Join(dir, "office.key")
+	mustRun(t, db.URL, "audit", "key", "new", key)
+	out := filepath.Join(dir, "p.zip")
+	mustRun(t, db.URL, "pack", "--near", "41.6208,-97.9583", "--within", "1km", "--key", key, "--out", out)
+	data, _ := os.ReadFile(out)
+	files, _ := readZip(t, data)
+	st, signed, err := register.ParseStatement(files["statement.json"], "")
+	if err != nil || !signed {
+		t.Fatalf("pack's statement.json: signed %v, %v", signed, err)
+	}
+	if !strings.Contains(string(files["README.txt"]), st.Head) || !strings.Contains(string(files["SHA256SUMS"]), "  statement.json\n") {
+		t.Errorf("pack's README or SHA256SUMS does not match its statement of head %s", st.Head)
 	}
 }
