@@ -34,8 +34,8 @@ const (
 // modification dates are the register state's time, its catalogue sorted,
 // so the same Data gives the same bytes.
 func PDF(w io.Writer, d Data) error {
-	f := newPDF(d.State.Time())
-	writeSheet(f, d)
+	f, cur := newPDF(d.State.Time())
+	writeSheet(f, cur, d)
 	if err := f.Error(); err != nil {
 		return fmt.Errorf("sheet %s: %w", d.Designation, err)
 	}
@@ -45,9 +45,9 @@ func PDF(w io.Writer, d Data) error {
 // PDFMany writes the sheets one after another in one PDF, each from a new
 // page, dated at t.
 func PDFMany(w io.Writer, ds []Data, t time.Time) error {
-	f := newPDF(t)
+	f, cur := newPDF(t)
 	for _, d := range ds {
-		writeSheet(f, d)
+		writeSheet(f, cur, d)
 	}
 	if err := f.Error(); err != nil {
 		return fmt.Errorf("sheets: %w", err)
@@ -55,8 +55,17 @@ func PDFMany(w io.Writer, ds []Data, t time.Time) error {
 	return f.Output(w)
 }
 
-func newPDF(t time.Time) *fpdf.Fpdf {
+// newPDF starts a document dated t. Its footer names the sheet in *cur,
+// which writeSheet sets once the sheet's first page is begun (the footer
+// of a page is written when the next page begins).
+func newPDF(t time.Time) (*fpdf.Fpdf, *Data) {
 	f := fpdf.New("P", "mm", "A4", "")
+	cur := &Data{}
+	f.SetFooterFunc(func() {
+		f.SetY(-margin - 2)
+		f.SetFont("dejavu", "", 7)
+		f.MultiCell(textW, 3, fmt.Sprintf("cairn datasheet of %s · page %d · register commit %d, head %.16s", cur.Designation, f.PageNo(), cur.State.Seq, cur.State.Head), "", "L", false)
+	})
 	f.SetMargins(margin, margin, margin)
 	f.SetAutoPageBreak(true, margin+5)
 	f.AddUTF8FontFromBytes("dejavu", "", fontRegular)
@@ -66,17 +75,15 @@ func newPDF(t time.Time) *fpdf.Fpdf {
 	f.SetCatalogSort(true)
 	f.SetProducer("cairn", false)
 	f.SetCreator("cairn datasheet", false)
-	return f
+	return f, cur
 }
 
-func writeSheet(f *fpdf.Fpdf, d Data) {
-	f.SetFooterFunc(func() {
-		f.SetY(-margin - 2)
-		f.SetFont("dejavu", "", 7)
-		f.MultiCell(textW, 3, fmt.Sprintf("cairn datasheet of %s · page %d · register commit %d, head %.16s", d.Designation, f.PageNo(), d.State.Seq, d.State.Head), "", "L", false)
-	})
-	f.SetTitle(d.Title(), true)
+func writeSheet(f *fpdf.Fpdf, cur *Data, d Data) {
+	if cur.Designation == "" {
+		f.SetTitle(d.Title(), true)
+	}
 	f.AddPage()
+	*cur = d
 	f.SetFont("dejavu", "B", 16)
 	f.MultiCell(textW, 8, "Mark "+d.Designation, "", "L", false)
 	f.Ln(1)

@@ -126,3 +126,31 @@ func TestRoundUp(t *testing.T) {
 		}
 	}
 }
+
+// Sheets in one PDF: each page's footer names the sheet's own mark (the
+// footer of a page is written as the next begins).
+func TestPDFManyFooters(t *testing.T) {
+	t.Parallel()
+	if _, err := exec.LookPath("pdftotext"); err != nil {
+		t.Fatal("pdftotext (poppler-utils) is needed: apt-get install poppler-utils")
+	}
+	a, b := hostile(), hostile()
+	b.Designation, b.Directions = "OB-18", "short"
+	var buf bytes.Buffer
+	if err := PDFMany(&buf, []Data{a, b}, a.State.Time()); err != nil {
+		t.Fatal(err)
+	}
+	file := filepath.Join(t.TempDir(), "m.pdf")
+	if err := os.WriteFile(file, buf.Bytes(), 0o644); err != nil {
+		t.Fatal(err)
+	}
+	for page, want := range map[string]string{"2": "cairn datasheet of OB-17 · page 2", "3": "cairn datasheet of OB-18 · page 3"} {
+		out, err := exec.Command("pdftotext", "-enc", "UTF-8", "-f", page, "-l", page, file, "-").Output()
+		if err != nil {
+			t.Fatal(err)
+		}
+		if !strings.Contains(squash(string(out)), squash(want)) {
+			t.Errorf("page %s lacks %q:\n%s", page, want, out)
+		}
+	}
+}
