@@ -233,7 +233,7 @@ func sheetData(st register.RegisterState, s register.Datasheet, asOf *time.Time,
 	on := s.PhotoReportDates()
 	for _, p := range s.Photos {
 		d.Photos = append(d.Photos, sheet.Photo{ObservedOn: on[p.ID], View: p.View, FileName: p.FileName, MediaType: p.MediaType,
-			Bytes: p.Bytes, SHA256: hex.EncodeToString(p.SHA256)})
+			Bytes: p.Bytes, SHA256: hex.EncodeToString(p.SHA256), Content: s.PhotoContent[p.ID]})
 	}
 	return d
 }

@@ -121,7 +121,18 @@ func TestDatasheetFields(t *testing.T) {
 		}
 	}
 
+	// The photograph is drawn: pdfimages (poppler-utils) lists it.
+	if pi, err := exec.LookPath("pdfimages"); err == nil {
+		list, err := exec.Command(pi, "-list", file).Output()
+		if lines := strings.Split(strings.TrimSpace(string(list)), "\n"); err != nil || len(lines) < 3 {
+			t.Errorf("pdfimages -list finds no image on the sheet: %v\n%s", err, list)
+		}
+	}
+
 	html := mustRun(t, db.URL, "datasheet", "OB-17", "--unit", "usft", "-o", "html")
+	if !strings.Contains(html, `<img src="data:image/png;base64,`) {
+		t.Error("datasheet HTML does not show the photograph")
+	}
 	text := wellFormedNoScript(t, []byte(html))
 	for _, want := range []string{hostileDescription, hostileDirections, "MR 17/B", `OB 17 "1962"`, "769.92", head} {
 		if !strings.Contains(text, want) {

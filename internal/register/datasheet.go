@@ -41,6 +41,8 @@ type Datasheet struct {
 	// Neighbours are the marks with a position within the sketch's radius,
 	// nearest first, the mark itself left out.
 	Neighbours []store.Mark
+	// PhotoContent is each photograph's bytes, by its identifier.
+	PhotoContent map[int64][]byte
 }
 
 // RegisterState is the register state a set of sheets was read from: the
@@ -146,6 +148,14 @@ func datasheet(ctx context.Context, tx pgx.Tx, m store.Mark, asOf *time.Time, ne
 	}
 	if v.Photos, err = store.PhotoListByMark(ctx, tx, m.ID); err != nil {
 		return s, err
+	}
+	s.PhotoContent = map[int64][]byte{}
+	for _, ph := range v.Photos {
+		_, b, err := store.PhotoGet(ctx, tx, m.ID, ph.ID)
+		if err != nil {
+			return s, err
+		}
+		s.PhotoContent[ph.ID] = b
 	}
 	ds, err := doubtsOf(ctx, tx, []store.Mark{m}, v.Heights)
 	if err != nil {

@@ -2,6 +2,7 @@ package sheet
 
 import (
 	"bytes"
+	"encoding/base64"
 	"fmt"
 	"html/template"
 	"io"
@@ -60,6 +61,16 @@ func (d Data) StateText() string {
 		return "a register with no commit in its evidence chain"
 	}
 	return fmt.Sprintf("commit %d, head %s, committed %s", d.State.Seq, d.State.Head, d.State.Time().Format(time.RFC3339Nano))
+}
+
+// DataURI is the photograph as a data: URL (RFC 2397) for an img
+// element, "" unless it is a JPEG or PNG with content. Its bytes are
+// base64, so nothing of them can leave the attribute.
+func (p Photo) DataURI() template.URL {
+	if len(p.Content) == 0 || (p.MediaType != "image/jpeg" && p.MediaType != "image/png") {
+		return ""
+	}
+	return template.URL("data:" + p.MediaType + ";base64," + base64.StdEncoding.EncodeToString(p.Content))
 }
 
 // svgSketch is the sketch as SVG elements' coordinates, in a 200 × 200
@@ -167,6 +178,8 @@ th, td { text-align: left; vertical-align: top; padding: 2px 6px; border: 1px so
 <tr><th>report of</th><th>view</th><th>file</th><th>bytes</th><th>SHA-256</th></tr>
 {{range .Photos}}<tr><td>{{date .ObservedOn}}</td><td>{{.View}}</td><td>{{.FileName}}</td><td>{{.Bytes}}</td><td>{{.SHA256}}</td></tr>
 {{end}}</table>
+{{range .Photos}}{{with .DataURI}}<img src="{{.}}" alt="photograph" style="max-width: 60mm; max-height: 60mm; margin: 4px;"/>
+{{end}}{{end}}
 {{end}}<h2>Register state</h2>
 <p>Made from {{.StateText}}. <span class="fine">Check it with cairn audit verify.</span></p>
 <h2>Before you use this height</h2>

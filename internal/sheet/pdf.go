@@ -1,6 +1,7 @@
 package sheet
 
 import (
+	"bytes"
 	_ "embed"
 	"fmt"
 	"io"
@@ -154,6 +155,7 @@ func writeSheet(f *fpdf.Fpdf, cur *Data, d Data) {
 		for _, p := range d.Photos {
 			field(f, p.ObservedOn.UTC().Format("2006-01-02"), fmt.Sprintf("%s, %s, %d bytes, SHA-256 %s", p.View, p.FileName, p.Bytes, p.SHA256))
 		}
+		drawPhotos(f, d.Photos)
 	}
 
 	heading(f, "Register state")
@@ -244,4 +246,50 @@ func drawSketch(f *fpdf.Fpdf, d Data) {
 	f.SetFont("dejavu", "", 8)
 	f.MultiCell(textW-sketchMM-10, 4, "Sketch: this mark (triangle) and the marks near it (circles), north up, from the register's approximate positions; no map.", "", "L", false)
 	f.SetXY(margin, y0+sketchMM+7)
+}
+
+// photoMM is the width of a photograph on the PDF sheet.
+const photoMM = 45.0
+
+// drawPhotos draws the photographs fpdf can read in a row (a new row, or
+// page, when full). One it cannot read (an interlaced PNG, say) is tried
+// on a scratch document first and left out with a note, so that it never
+// spoils the sheet.
+func drawPhotos(f *fpdf.Fpdf, ps []Photo) {
+	x := margin
+	rowH := 0.0
+	for _, p := range ps {
+		typ := map[string]string{"image/jpeg": "JPG", "image/png": "PNG"}[p.MediaType]
+		if len(p.Content) == 0 || typ == "" {
+			continue
+		}
+		opt := fpdf.ImageOptions{ImageType: typ}
+		scratch := fpdf.New("P", "mm", "A4", "")
+		scratch.RegisterImageOptionsReader("p", opt, bytes.NewReader(p.Content))
+		if scratch.Err() {
+			f.SetFont("dejavu", "", 8)
+			f.MultiCell(textW, 4, p.FileName+": this image cannot be drawn here; its SHA-256 is above", "", "L", false)
+			continue
+		}
+		name := "photo-" + p.SHA256
+		info := f.RegisterImageOptionsReader(name, opt, bytes.NewReader(p.Content))
+		if info == nil || info.Width() == 0 {
+			continue
+		}
+		h := photoMM * info.Height() / info.Width()
+		if x+photoMM > pageW-margin {
+			f.SetY(f.GetY() + rowH + 2)
+			x, rowH = margin, 0
+		}
+		if f.GetY()+h > pageH-margin-5 {
+			f.AddPage()
+			x, rowH = margin, 0
+		}
+		f.ImageOptions(name, x, f.GetY()+1, photoMM, h, false, opt, 0, "")
+		x += photoMM + 3
+		rowH = max(rowH, h)
+	}
+	if rowH > 0 {
+		f.SetY(f.GetY() + rowH + 3)
+	}
 }

@@ -100,6 +100,9 @@ type Photo struct {
 	MediaType  string
 	Bytes      int64
 	SHA256     string
+	// Content is the image (JPEG or PNG, as MediaType says), drawn on the
+	// sheet when given; nil to list the photograph only.
+	Content []byte
 }
 
 // State is the register state the sheet was made from: its latest commit
