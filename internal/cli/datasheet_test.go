@@ -304,6 +304,14 @@ func TestPack(t *testing.T) {
 			t.Errorf("pack --as-of 2010: OB-17 %s usft (%s), want 769.89 (234.662 m, in force from 2001)", col(r, "height_usft"), col(r, "height_in_unit"))
 		}
 	}
+	// Reports observed after 2010, and their photographs, are not on the
+	// sheet as it stood then.
+	if h := string(of["sheets/OB-17.html"]); strings.Contains(h, "cap cleaned") || strings.Contains(h, "close.png") {
+		t.Error("pack --as-of 2010 shows the condition reports of 2024")
+	}
+	if h := string(files["sheets/OB-17.html"]); !strings.Contains(h, "cap cleaned") || !strings.Contains(h, "close.png") {
+		t.Error("pack shows neither the 2024 reports nor the photograph")
+	}
 	if !strings.Contains(string(of["README.txt"]), "2010-01-01") {
 		t.Error("pack --as-of: README does not say the instant")
 	}

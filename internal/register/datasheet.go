@@ -149,6 +149,10 @@ func datasheet(ctx context.Context, tx pgx.Tx, m store.Mark, asOf *time.Time, ne
 	if v.Photos, err = store.PhotoListByMark(ctx, tx, m.ID); err != nil {
 		return s, err
 	}
+	// Photographs of the reports kept (those observed by asOf).
+	v.Photos = slices.DeleteFunc(v.Photos, func(ph store.Photo) bool {
+		return !slices.ContainsFunc(v.Conditions, func(c store.Condition) bool { return c.ID == ph.ConditionID })
+	})
 	s.PhotoContent = map[int64][]byte{}
 	for _, ph := range v.Photos {
 		_, b, err := store.PhotoGet(ctx, tx, m.ID, ph.ID)
