@@ -116,6 +116,8 @@ codes and regulations that govern your work.`,
 		newCmdTrace(f, nil),
 		newCmdStandards(f),
 		newCmdStale(f, nil),
+		newCmdDatasheet(f, nil),
+		newCmdPack(f, nil),
 		newCmdBackup(f, nil),
 		newCmdRestore(f, nil),
 	)

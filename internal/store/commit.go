@@ -64,3 +64,20 @@ func CommitTime(ctx context.Context, db DBTX, xid uint64) (time.Time, error) {
 	}
 	return t, nil
 }
+
+// CommitHeadRow is the head of the register's evidence chain: its last
+// commit's seq, hash and time.
+type CommitHeadRow struct {
+	Seq         int64
+	Hash        []byte
+	CommittedAt time.Time
+}
+
+// CommitHead returns the last entry of the evidence chain (the genesis
+// entry, seq 0, when nothing was written since); ErrNotFound when the
+// chain is empty.
+func CommitHead(ctx context.Context, db DBTX) (CommitHeadRow, error) {
+	var c CommitHeadRow
+	err := db.QueryRow(ctx, "SELECT seq, hash, committed_at FROM public.register_commit ORDER BY seq DESC LIMIT 1").Scan(&c.Seq, &c.Hash, &c.CommittedAt)
+	return c, translate(err)
+}

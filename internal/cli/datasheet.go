@@ -1,0 +1,239 @@
+package cli
+
+import (
+	"bytes"
+	"context"
+	"encoding/hex"
+	"os"
+	"path/filepath"
+	"strconv"
+	"strings"
+	"time"
+
+	"github.com/spf13/cobra"
+
+	"cairn/internal/register"
+	"cairn/internal/sheet"
+	"cairn/internal/units"
+)
+
+// datasheetOptions are the inputs of `cairn datasheet`.
+type datasheetOptions struct {
+	f            *Factory
+	ctx          context.Context
+	designations []string
+	asOf         *time.Time
+	unit         units.Unit
+	out          string // a folder
+	format       string // html or pdf, to stdout
+}
+
+func newCmdDatasheet(f *Factory, runF func(*datasheetOptions) error) *cobra.Command {
+	opts := &datasheetOptions{f: f}
+	var asOf, unit string
+	cmd := &cobra.Command{
+		Use:   "datasheet DESIGNATION... [--as-of TIME] [--unit m|ft|usft] (--out DIR | -o html|pdf)",
+		Short: "Write a printable sheet of each mark: how to find it, its heights, its condition and doubts",
+		Long: `Write one sheet per mark for the people who use its height: what the mark is
+and how to find it (with a sketch of the marks near it), every height in
+force on each datum in the unit asked for (--unit, converted exactly from
+the published value and rounded half away from zero), with its class,
+version, in-force date and source; its condition reports and when it was
+last found in good order; every doubt about it, in a banner; the register
+state the sheet was made from (the head of the audit chain, as 'cairn audit
+head' states it); and the cautions.
+
+--out DIR writes DESIGNATION.html and DESIGNATION.pdf for each mark (the
+folder is made if missing). -o html or -o pdf writes one mark's sheet to
+stdout. --as-of gives the heights in force at a past time, and the
+condition reports observed by then; the doubts are as the register knows
+them now.
+
+` + cautions,
+		Example: `  cairn datasheet TC-0412 TC-0413 --unit usft --out sheets/
+  cairn datasheet TC-0412 -o pdf > TC-0412.pdf`,
+		Args: minArgs(1, "at least one DESIGNATION"),
+		RunE: func(cmd *cobra.Command, args []string) error {
+			opts.ctx, opts.designations = cmd.Context(), args
+			var err error
+			if opts.asOf, err = parseAsOf(asOf); err != nil {
+				return err
+			}
+			if opts.unit, err = parseSheetUnit(unit); err != nil {
+				return err
+			}
+			switch {
+			case opts.out == "" && opts.format == "":
+				return badInput("say where the sheets go: --out DIR, or -o html or -o pdf for one mark to stdout")
+			case opts.out != "" && opts.format != "":
+				return badInput("give --out DIR or -o, not both")
+			case opts.format != "" && opts.format != "html" && opts.format != "pdf":
+				return badInput("-o %q: want html or pdf", opts.format)
+			case opts.format != "" && len(args) != 1:
+				return badInput("-o %s writes one mark's sheet to stdout; for %d marks use --out DIR", opts.format, len(args))
+			}
+			return dispatch(opts, runF, datasheetRun)
+		},
+	}
+	fl := cmd.Flags()
+	fl.StringVar(&asOf, "as-of", "", asOfUsage("show the heights"))
+	fl.StringVar(&unit, "unit", "m", "unit of the heights on the sheet: m, ft (international foot) or usft (US survey foot)")
+	fl.StringVarP(&opts.out, "out", "", "", "folder to write DESIGNATION.html and DESIGNATION.pdf in")
+	fl.StringVarP(&opts.format, "output", "o", "", "html or pdf: one mark's sheet to stdout")
+	return cmd
+}
+
+// parseSheetUnit reads --unit.
+func parseSheetUnit(s string) (units.Unit, error) {
+	u, err := units.Parse(s)
+	if err != nil {
+		return "", badInput("unit: %v", err)
+	}
+	return u, nil
+}
+
+func datasheetRun(opts *datasheetOptions) error {
+	r, err := openRegister(opts.ctx, opts.f)
+	if err != nil {
+		return err
+	}
+	set, err := r.Datasheets(opts.ctx, register.DatasheetParams{Designations: opts.designations, AsOf: opts.asOf})
+	if err != nil {
+		return err
+	}
+	ios := opts.f.IO
+	for _, s := range set.Sheets {
+		warnDoubts(ios, s.Doubts)
+	}
+	if opts.format != "" {
+		d := sheetData(set.State, set.Sheets[0], opts.asOf, opts.unit)
+		if opts.format == "html" {
+			return sheet.HTML(ios.Out, d)
+		}
+		return sheet.PDF(ios.Out, d)
+	}
+	if err := os.MkdirAll(opts.out, 0o755); err != nil {
+		return badInput("out: %v", err)
+	}
+	for _, s := range set.Sheets {
+		d := sheetData(set.State, s, opts.asOf, opts.unit)
+		h, p, err := renderSheet(d)
+		if err != nil {
+			return err
+		}
+		base := filepath.Join(opts.out, sheetFileName(d.Designation))
+		if err := os.WriteFile(base+".html", h, 0o644); err != nil {
+			return err
+		}
+		if err := os.WriteFile(base+".pdf", p, 0o644); err != nil {
+			return err
+		}
+		ios.printf("wrote %s.html and %s.pdf\n", base, base)
+	}
+	return nil
+}
+
+// renderSheet is a sheet's HTML and PDF.
+func renderSheet(d sheet.Data) (html, pdf []byte, err error) {
+	var h, p bytes.Buffer
+	if err := sheet.HTML(&h, d); err != nil {
+		return nil, nil, err
+	}
+	if err := sheet.PDF(&p, d); err != nil {
+		return nil, nil, err
+	}
+	return h.Bytes(), p.Bytes(), nil
+}
+
+// sheetFileName is a designation as a file name: letters, digits, '-',
+// '_' and '.' kept, anything else (a '/', a space) as '_'.
+func sheetFileName(designation string) string {
+	s := strings.Map(func(r rune) rune {
+		switch {
+		case r >= 'a' && r <= 'z', r >= 'A' && r <= 'Z', r >= '0' && r <= '9', r == '-', r == '_', r == '.':
+			return r
+		}
+		return '_'
+	}, designation)
+	if strings.Trim(s, ".") == "" {
+		s = "mark" + s
+	}
+	return s
+}
+
+// sheetCautions are the cautions, one a sentence.
+func sheetCautions() []string {
+	c := strings.TrimPrefix(strings.Join(strings.Fields(cautions), " "), "Cautions: ")
+	var out []string
+	for _, s := range strings.SplitAfter(c, ". ") {
+		if s = strings.TrimSpace(s); s != "" {
+			out = append(out, strings.ToUpper(s[:1])+s[1:])
+		}
+	}
+	return out
+}
+
+// sheetData is a mark's sheet: the register's view formatted, each height
+// converted exactly to u.
+func sheetData(st register.RegisterState, s register.Datasheet, asOf *time.Time, u units.Unit) sheet.Data {
+	m := s.Mark
+	d := sheet.Data{Designation: m.Designation, Aliases: m.Aliases, Kind: m.Type, Setting: m.Setting, Stamping: m.Stamping,
+		Description: m.Description, Directions: m.Directions, Lat: m.Lat, Lon: m.Lon, PositionSource: m.PositionSource,
+		Replaces: m.Replaces, Unit: string(u), LastRecovered: s.LastRecovered(), Cautions: sheetCautions(),
+		State: sheet.State{Seq: st.Seq, Head: st.Head, CommittedAt: st.CommittedAt, AsOf: asOf}}
+	if d.Aliases == nil {
+		for _, a := range s.Aliases {
+			d.Aliases = append(d.Aliases, a.Alias)
+		}
+	}
+	if m.Retired != nil {
+		d.Retired = "since " + m.Retired.On.Format("2006-01-02") + ": " + m.Retired.Reason
+		if m.Retired.ReplacedBy != "" {
+			d.Retired += "; replaced by " + m.Retired.ReplacedBy
+		}
+	}
+	for _, n := range s.Neighbours {
+		nb := sheet.Neighbour{Designation: n.Designation, Lat: *n.Lat, Lon: *n.Lon}
+		if n.DistanceM != nil {
+			nb.DistanceM = *n.DistanceM
+		}
+		d.Neighbours = append(d.Neighbours, nb)
+	}
+	for _, h := range s.Heights {
+		sh := sheet.Height{Datum: h.DatumCode, Version: h.Version, Class: h.Class, Provenance: h.SourceKind,
+			InForceFrom: h.InForceFrom, Source: h.Source}
+		if h.AdjustmentID != nil {
+			sh.Source = strings.TrimSpace("adjustment " + strconv.FormatInt(*h.AdjustmentID, 10) + " " + h.Source)
+		}
+		if h.Value == nil {
+			sh.Withdrawn = true
+		} else {
+			from := units.Unit(*h.Unit)
+			dec := units.ConvertedDecimals(from, u, *h.Decimals)
+			v, err := units.ConvertExact(*h.Value, from, u, dec)
+			if err != nil {
+				v = "unreadable value " + *h.Value + " " + *h.Unit
+			}
+			sh.Value = v
+			if from != u {
+				sh.Published = *h.Value + " " + *h.Unit
+			}
+		}
+		d.Heights = append(d.Heights, sh)
+	}
+	seenDoubt := map[string]bool{}
+	for _, dt := range s.Doubts {
+		if w := dt.Warning(); !seenDoubt[w] {
+			d.Doubts, seenDoubt[w] = append(d.Doubts, w), true
+		}
+	}
+	for _, c := range s.Conditions {
+		d.Conditions = append(d.Conditions, sheet.Condition{ObservedOn: c.ObservedOn, Condition: c.Condition, Note: c.Note, By: c.RecordedBy})
+	}
+	on := s.PhotoReportDates()
+	for _, p := range s.Photos {
+		d.Photos = append(d.Photos, sheet.Photo{ObservedOn: on[p.ID], View: p.View, FileName: p.FileName, MediaType: p.MediaType,
+			Bytes: p.Bytes, SHA256: hex.EncodeToString(p.SHA256), Content: s.PhotoContent[p.ID]})
+	}
+	return d
+}

@@ -1,0 +1,393 @@
+package cli
+
+import (
+	"archive/zip"
+	"bytes"
+	"context"
+	"crypto/sha256"
+	"encoding/csv"
+	"encoding/hex"
+	"encoding/json"
+	"fmt"
+	"os"
+	"strconv"
+	"strings"
+	"time"
+
+	"github.com/spf13/cobra"
+
+	"cairn/internal/register"
+	"cairn/internal/sheet"
+	"cairn/internal/units"
+)
+
+// packOptions are the inputs of `cairn pack`.
+type packOptions struct {
+	f       *Factory
+	ctx     context.Context
+	near    string
+	within  string
+	asOf    *time.Time
+	asOfArg string
+	unit    units.Unit
+	out     string
+	key     string
+}
+
+func newCmdPack(f *Factory, runF func(*packOptions) error) *cobra.Command {
+	opts := &packOptions{f: f}
+	var asOf, unit string
+	cmd := &cobra.Command{
+		Use:   "pack --near LAT,LON --within R [--as-of TIME] [--unit m|ft|usft] --out FILE.zip",
+		Short: "Write a job pack for a site: the sheets, CSV and GeoJSON of the marks near it",
+		Long: `Write a job pack (a zip file) for the marks within --within of a site:
+
+  README.txt              what the pack is, the register state, the cautions
+  datasheets.pdf          every mark's sheet, one after another
+  sheets/MARK.html        every mark's sheet as HTML
+  marks.csv               one row per mark and datum, heights in --unit
+  marks.geojson           the same rows as an RFC 7946 FeatureCollection of
+                          points (longitude, latitude)
+  statement.json          the register's signed audit statement, when a key
+                          is configured (--key, or CAIRN_AUDIT_KEY)
+  SHA256SUMS              the SHA-256 of every other file (sha256sum -c)
+
+The pack is reproducible: the same register state and arguments give the
+same bytes (the files' times in the zip and the PDF's dates are the time of
+the register's latest commit; marks by distance, then designation). A
+signed statement says when it was made, so a pack with one differs in that
+file and in SHA256SUMS. --as-of gives the pack as it would have been at a
+past time: the heights in force then and the condition reports observed by
+then.
+
+` + cautions,
+		Example: `  cairn pack --near 41.62,-97.95 --within 2km --unit usft --out mere-bridge.zip
+  cairn pack --near 41.62,-97.95 --within 2km --as-of 2020-06-01 --out as-handed.zip`,
+		Args: exactArgs(0, "no arguments"),
+		RunE: func(cmd *cobra.Command, _ []string) error {
+			opts.ctx = cmd.Context()
+			var err error
+			if opts.near == "" {
+				return badInput("--near LAT,LON is required: the site the pack is for")
+			}
+			if opts.out == "" {
+				return badInput("--out FILE.zip is required")
+			}
+			if opts.asOf, err = parseAsOf(asOf); err != nil {
+				return err
+			}
+			opts.asOfArg = asOf
+			if opts.unit, err = parseSheetUnit(unit); err != nil {
+				return err
+			}
+			return dispatch(opts, runF, packRun)
+		},
+	}
+	fl := cmd.Flags()
+	fl.StringVar(&opts.near, "near", "", "LAT,LON in decimal degrees: the site")
+	fl.StringVar(&opts.within, "within", "2km", "radius about the site, in m, km, ft, usft or mi (e.g. 2km, 500m)")
+	fl.StringVar(&asOf, "as-of", "", asOfUsage("give the heights"))
+	fl.StringVar(&unit, "unit", "m", "unit of the heights: m, ft (international foot) or usft (US survey foot)")
+	fl.StringVar(&opts.out, "out", "", "the zip file to write")
+	fl.StringVar(&opts.key, "key", "", "sign the statement with the Ed25519 key in FILE (default: the file CAIRN_AUDIT_KEY names; none: no statement)")
+	return cmd
+}
+
+func packRun(opts *packOptions) error {
+	ll, err := parseLatLon(opts.near)
+	if err != nil {
+		return err
+	}
+	radius, err := parseDistance(opts.within)
+	if err != nil {
+		return err
+	}
+	r, err := openRegister(opts.ctx, opts.f)
+	if err != nil {
+		return err
+	}
+	set, err := r.Datasheets(opts.ctx, register.DatasheetParams{Near: &ll, RadiusM: radius, AsOf: opts.asOf})
+	if err != nil {
+		return err
+	}
+	var stmt []byte
+	if opts.key != "" || os.Getenv("CAIRN_AUDIT_KEY") != "" {
+		s, err := makeStatement(opts.ctx, r, opts.key, opts.f)
+		if err != nil {
+			return err
+		}
+		if s.Seq != set.State.Seq || s.Head != set.State.Head {
+			return fmt.Errorf("the register changed while the pack was made (commit %d, then %d): make it again", set.State.Seq, s.Seq)
+		}
+		stmt = s.Encode()
+	}
+	p := packInput{Near: opts.near, Within: opts.within, AsOf: opts.asOfArg, Unit: opts.unit, Set: set, Statement: stmt}
+	data, err := buildPack(p)
+	if err != nil {
+		return err
+	}
+	ios := opts.f.IO
+	for _, s := range set.Sheets {
+		warnDoubts(ios, s.Doubts)
+	}
+	if err := os.WriteFile(opts.out, data, 0o644); err != nil {
+		return err
+	}
+	ios.printf("wrote %s: %d mark(s) within %s of %s, register commit %d\n", opts.out, len(set.Sheets), opts.within, opts.near, set.State.Seq)
+	return nil
+}
+
+// packInput is what a pack is made of.
+type packInput struct {
+	Near, Within, AsOf string
+	Unit               units.Unit
+	Set                register.DatasheetSet
+	Statement          []byte // nil: none
+}
+
+// packFile is one file of a pack.
+type packFile struct {
+	Name string
+	Data []byte
+}
+
+// packEpoch is the files' time in a pack from a register with no commit:
+// the earliest time a zip file can hold (MS-DOS dates start in 1980).
+var packEpoch = time.Date(1980, 1, 1, 0, 0, 0, 0, time.UTC)
+
+// buildPack makes the zip, in a fixed order with fixed times.
+func buildPack(p packInput) ([]byte, error) {
+	at := p.Set.State.CommittedAt.UTC()
+	if at.Before(packEpoch) {
+		at = packEpoch
+	}
+	var ds []sheet.Data
+	for _, s := range p.Set.Sheets {
+		ds = append(ds, sheetData(p.Set.State, s, parsedAsOf(p), p.Unit))
+	}
+	var files []packFile
+	files = append(files, packFile{"README.txt", packReadme(p, len(ds))})
+	var pdf bytes.Buffer
+	if len(ds) > 0 {
+		if err := sheet.PDFMany(&pdf, ds, at); err != nil {
+			return nil, err
+		}
+		files = append(files, packFile{"datasheets.pdf", pdf.Bytes()})
+	}
+	rows := packRows(p.Set, p.Unit)
+	c, err := packCSV(rows, p.Unit)
+	if err != nil {
+		return nil, err
+	}
+	files = append(files, packFile{"marks.csv", c})
+	g, err := packGeoJSON(rows, p.Unit)
+	if err != nil {
+		return nil, err
+	}
+	files = append(files, packFile{"marks.geojson", g})
+	used := map[string]int{}
+	for _, d := range ds {
+		var h bytes.Buffer
+		if err := sheet.HTML(&h, d); err != nil {
+			return nil, err
+		}
+		name := sheetFileName(d.Designation)
+		if n := used[name]; n > 0 {
+			name += "_" + strconv.Itoa(n+1)
+		}
+		used[sheetFileName(d.Designation)]++
+		files = append(files, packFile{"sheets/" + name + ".html", h.Bytes()})
+	}
+	if p.Statement != nil {
+		files = append(files, packFile{"statement.json", p.Statement})
+	}
+	var sums strings.Builder
+	for _, f := range files {
+		s := sha256.Sum256(f.Data)
+		fmt.Fprintf(&sums, "%s  %s\n", hex.EncodeToString(s[:]), f.Name)
+	}
+	files = append(files, packFile{"SHA256SUMS", []byte(sums.String())})
+
+	var b bytes.Buffer
+	zw := zip.NewWriter(&b)
+	for _, f := range files {
+		w, err := zw.CreateHeader(&zip.FileHeader{Name: f.Name, Method: zip.Deflate, Modified: at})
+		if err != nil {
+			return nil, err
+		}
+		if _, err := w.Write(f.Data); err != nil {
+			return nil, err
+		}
+	}
+	if err := zw.Close(); err != nil {
+		return nil, err
+	}
+	return b.Bytes(), nil
+}
+
+// parsedAsOf is the pack's --as-of again (it was checked on the way in).
+func parsedAsOf(p packInput) *time.Time {
+	if p.AsOf == "" {
+		return nil
+	}
+	t, err := parseInstant(p.AsOf)
+	if err != nil {
+		return nil
+	}
+	return &t
+}
+
+// packRow is one mark and datum of a pack's CSV and GeoJSON; a mark with
+// no height has one row with no datum.
+type packRow struct {
+	Mark          string
+	Aliases       []string
+	Lat, Lon      *float64
+	DistanceM     *float64
+	Condition     string
+	LastGoodOn    string
+	Datum         string
+	Height        string // in the pack's unit
+	Published     string // exactly as published
+	PublishedUnit string
+	Version       int
+	Class         string
+	InForceFrom   string
+	Source        string
+	Doubts        string
+}
+
+func packRows(set register.DatasheetSet, u units.Unit) []packRow {
+	var out []packRow
+	for _, s := range set.Sheets {
+		d := sheetData(set.State, s, nil, u)
+		base := packRow{Mark: s.Mark.Designation, Aliases: d.Aliases, Lat: s.Mark.Lat, Lon: s.Mark.Lon, DistanceM: s.Mark.DistanceM,
+			Condition: condition(s.Mark), Doubts: s.Doubts.Words()}
+		if base.Aliases == nil {
+			base.Aliases = []string{}
+		}
+		if d.LastRecovered != nil {
+			base.LastGoodOn = d.LastRecovered.Format("2006-01-02")
+		}
+		if len(s.Heights) == 0 {
+			out = append(out, base)
+			continue
+		}
+		for i, h := range s.Heights {
+			row := base
+			row.Datum, row.Version, row.Class, row.Source = h.DatumCode, h.Version, h.Class, d.Heights[i].Source
+			row.InForceFrom = h.InForceFrom.UTC().Format(time.RFC3339)
+			row.Doubts = s.Doubts.Of(h.DatumCode, h.Version).Words()
+			if h.Value != nil {
+				row.Height, row.Published, row.PublishedUnit = d.Heights[i].Value, *h.Value, *h.Unit
+			}
+			out = append(out, row)
+		}
+	}
+	return out
+}
+
+func fmtDeg(v *float64) string {
+	if v == nil {
+		return ""
+	}
+	return strconv.FormatFloat(*v, 'f', -1, 64)
+}
+
+// packCSV writes the rows with units in the headers (docs/output.md).
+func packCSV(rows []packRow, u units.Unit) ([]byte, error) {
+	var b bytes.Buffer
+	w := csv.NewWriter(&b)
+	_ = w.Write([]string{"mark", "aliases", "lat_deg", "lon_deg", "distance_from_site_m", "condition", "last_found_good_on",
+		"datum", "height_" + string(u), "height_in_unit", "unit", "version", "class", "in_force_from_utc", "source", "doubts"})
+	for _, r := range rows {
+		dist, ver := "", ""
+		if r.DistanceM != nil {
+			dist = units.Format(*r.DistanceM, 1)
+		}
+		if r.Version > 0 {
+			ver = strconv.Itoa(r.Version)
+		}
+		_ = w.Write([]string{r.Mark, strings.Join(r.Aliases, ";"), fmtDeg(r.Lat), fmtDeg(r.Lon), dist, r.Condition, r.LastGoodOn,
+			r.Datum, r.Height, r.Published, r.PublishedUnit, ver, r.Class, r.InForceFrom, r.Source, r.Doubts})
+	}
+	w.Flush()
+	return b.Bytes(), w.Error()
+}
+
+// packGeoJSON writes the rows that have a position as an RFC 7946
+// FeatureCollection of Points: [longitude, latitude], no crs member (RFC
+// 7946 §4: WGS 84 always), one feature per row. Property names are fixed
+// snake_case with units in them; the height's key names the pack's unit.
+func packGeoJSON(rows []packRow, u units.Unit) ([]byte, error) {
+	type geometry struct {
+		Type        string     `json:"type"`
+		Coordinates [2]float64 `json:"coordinates"`
+	}
+	type feature struct {
+		Type       string         `json:"type"`
+		Geometry   geometry       `json:"geometry"`
+		Properties map[string]any `json:"properties"`
+	}
+	fc := struct {
+		Type     string    `json:"type"`
+		Features []feature `json:"features"`
+	}{Type: "FeatureCollection", Features: []feature{}}
+	for _, r := range rows {
+		if r.Lat == nil || r.Lon == nil {
+			continue
+		}
+		props := map[string]any{"mark": r.Mark, "aliases": r.Aliases, "condition": r.Condition, "last_found_good_on": nullable(r.LastGoodOn),
+			"datum": nullable(r.Datum), "height_" + string(u): nullable(r.Height), "height_in_unit": nullable(r.Published),
+			"unit": nullable(r.PublishedUnit), "class": nullable(r.Class), "in_force_from_utc": nullable(r.InForceFrom),
+			"source": nullable(r.Source), "doubts": r.Doubts, "distance_from_site_m": r.DistanceM, "version": nil}
+		if r.Version > 0 {
+			props["version"] = r.Version
+		}
+		fc.Features = append(fc.Features, feature{Type: "Feature", Geometry: geometry{Type: "Point", Coordinates: [2]float64{*r.Lon, *r.Lat}}, Properties: props})
+	}
+	b, err := json.MarshalIndent(fc, "", " ")
+	return append(b, '\n'), err
+}
+
+// nullable is s, or JSON null for "".
+func nullable(s string) any {
+	if s == "" {
+		return nil
+	}
+	return s
+}
+
+// packReadme is the pack's README.
+func packReadme(p packInput, marks int) []byte {
+	var b strings.Builder
+	fmt.Fprintf(&b, "cairn job pack\n==============\n\n")
+	fmt.Fprintf(&b, "Marks within %s of %s: %d.\n", p.Within, p.Near, marks)
+	if p.AsOf != "" {
+		fmt.Fprintf(&b, "Heights in force at %s (--as-of), as the register knows them now;\ncondition reports observed by then; doubts as known now.\n", p.AsOf)
+	} else {
+		b.WriteString("Heights in force when the register was at the state below.\n")
+	}
+	fmt.Fprintf(&b, "Heights in %s (%s), converted exactly from the published values.\n\n", p.Unit, p.Unit.Name())
+	st := p.Set.State
+	if st.Head != "" {
+		fmt.Fprintf(&b, "Register state: commit %d, head %s,\ncommitted %s. Prove it with cairn audit verify", st.Seq, st.Head, st.CommittedAt.UTC().Format(time.RFC3339Nano))
+		if p.Statement != nil {
+			b.WriteString(" --against statement.json")
+		}
+		b.WriteString(".\n\n")
+	}
+	b.WriteString(`Files:
+  datasheets.pdf     every mark's sheet
+  sheets/*.html      every mark's sheet as HTML
+  marks.csv          one row per mark and datum
+  marks.geojson      the same rows, RFC 7946 points (longitude, latitude)
+`)
+	if p.Statement != nil {
+		b.WriteString("  statement.json     the register's signed audit statement\n")
+	}
+	b.WriteString("  SHA256SUMS         the SHA-256 of every other file: sha256sum -c SHA256SUMS\n\n")
+	b.WriteString("Read every sheet's doubts before using a height.\n\n")
+	b.WriteString(cautions + "\n")
+	return []byte(b.String())
+}
