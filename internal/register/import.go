@@ -409,7 +409,7 @@ func importInForce(s string) (time.Time, error) {
 // an office's old files do not say which foot, so the import makes them.
 func importUnit(s string) (string, error) {
 	if strings.EqualFold(strings.TrimSpace(s), "ft") {
-		return "", &units.AmbiguousError{Given: s}
+		return "", fmt.Errorf("%q is ambiguous: write intl-ft for the international foot (0.3048 m) or usft for the US survey foot (1200/3937 m)", s)
 	}
 	u, err := units.Parse(strings.ReplaceAll(s, "_", "-"))
 	if err != nil {
@@ -478,10 +478,10 @@ func orBy(s, by string) string {
 
 func (f *csvFile) markRow(by string) func(int64, func(string) string) []any {
 	return func(line int64, get func(string) string) []any {
-		bad := len(*f.problems)
 		des := names.Normal(get("designation"))
 		if !designationPattern.MatchString(des) {
 			f.problem(line, "designation", "%q is not a designation: letters and digits, then also . _ / -", des)
+			return nil
 		}
 		aliases, kinds, agencies := []string{}, []string{}, []string{}
 		if s := get("aliases"); s != "" {
@@ -529,9 +529,9 @@ func (f *csvFile) markRow(by string) func(int64, func(string) string) []any {
 		if (get("lat") == "") != (get("lon") == "") {
 			f.problem(line, "lat", "give lat and lon together, or neither")
 		}
-		if len(*f.problems) > bad {
-			return nil
-		}
+		// A row with a problem is staged all the same, without the values
+		// at fault, so that the rows naming its mark are not refused for
+		// it too; the import is refused for its problem.
 		return []any{line, des, names.Fold(des), aliases, kinds, agencies, get("type"), get("setting"), get("stamping"),
 			get("directions"), get("description"), lat, lon, get("position_source"), orBy(get("by"), by)}
 	}
