@@ -53,7 +53,12 @@ CREATE UNLOGGED TABLE cairn_staging.mark (
     lat             double precision,
     lon             double precision,
     position_source text NOT NULL,
-    by              text NOT NULL
+    by              text NOT NULL,
+    retired_on      date,
+    retired_reason  text NOT NULL,
+    -- The mark that replaced it, as written and folded ('' for none).
+    replaced_by     text NOT NULL,
+    replaced_folded text NOT NULL
 );
 CREATE INDEX ON cairn_staging.mark (import_xid, folded);
 CREATE UNLOGGED TABLE cairn_staging.condition (

@@ -65,8 +65,8 @@ func importRun(opts *importOptions) error {
 			opts.params.Dir, c.Marks, c.Conditions, c.Heights)
 		return nil
 	}
-	opts.f.IO.printf("import %d: %d marks (%d with a description), %d aliases, %d condition reports, %d height versions\n",
-		res.EventID, c.Marks, c.Versions, c.Aliases, c.Conditions, c.Heights)
+	opts.f.IO.printf("import %d: %d marks (%d with a description, %d retired), %d aliases, %d condition reports, %d height versions\n",
+		res.EventID, c.Marks, c.Versions, c.Retirements, c.Aliases, c.Conditions, c.Heights)
 	for _, f := range res.Files {
 		opts.f.IO.printf("  %s  %d rows  sha256 %s\n", f.Name, f.Rows, f.SHA256)
 	}

@@ -59,16 +59,16 @@ func TestImportExportRoundTrip(t *testing.T) {
 
 	before := registertest.Counts(t, db.Pool)
 	_, out := mustBin(t, db, ExitOK, "import", importSample, "--check")
-	if !strings.Contains(out, "4 marks, 5 condition reports, 9 height versions would be imported") {
+	if !strings.Contains(out, "5 marks, 5 condition reports, 9 height versions would be imported") {
 		t.Errorf("import --check: %s", out)
 	}
 	registertest.AssertNothingWritten(t, db.Pool, before)
 
 	_, out = mustBin(t, db, ExitOK, "import", importSample, "--by", "importer")
-	if !strings.Contains(out, "4 marks (3 with a description), 4 aliases, 5 condition reports, 9 height versions") {
+	if !strings.Contains(out, "5 marks (4 with a description, 1 retired), 5 aliases, 5 condition reports, 9 height versions") {
 		t.Errorf("import: %s", out)
 	}
-	registertest.AssertWrote(t, db.Pool, before, map[string]int64{"mark": 4, "mark_version": 3, "mark_alias": 4,
+	registertest.AssertWrote(t, db.Pool, before, map[string]int64{"mark": 5, "mark_version": 4, "mark_alias": 5, "mark_retirement": 1,
 		"mark_condition": 5, "height": 9, "import_event": 1, "register_commit": 1})
 
 	first := filepath.Join(t.TempDir(), "first")
@@ -205,6 +205,10 @@ func TestImportBadRowsRefused(t *testing.T) {
 			`marks.csv line 2 field aliases: alias TC-0103 is also the designation on line 4`},
 		{"latitude", [3]string{"marks.csv", "39.4127,-104.8211", "94.4127,-104.8211"},
 			`marks.csv line 2 field lat: 94.4127 is outside -90 to 90 degrees`},
+		{"retired without a reason", [3]string{"marks.csv", "2015-03-01,the depot was rebuilt and the rod pulled,", "2015-03-01,,"},
+			`marks.csv line 4 field retired_reason: say why the mark was retired`},
+		{"replaced by no mark", [3]string{"marks.csv", "rod pulled,TC-0105", "rod pulled,TC-0109"},
+			`marks.csv line 4 field replaced_by: no mark TC-0109 in the register or in the marks file`},
 		{"latitude alone", [3]string{"marks.csv", "39.4127,-104.8211", "39.4127,"},
 			`marks.csv line 2 field lat: give lat and lon together, or neither`},
 		{"unknown column", [3]string{"conditions.csv", "note,by", "remark,by"},

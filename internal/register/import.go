@@ -39,7 +39,8 @@ var importFiles = []string{MarksFile, ConditionsFile, HeightsFile}
 // The columns of each file, in the order export writes them. A column
 // marked required must be in the header; the others may be left out.
 var (
-	markHeader      = []string{"designation", "aliases", "type", "setting", "stamping", "directions", "description", "lat", "lon", "position_source", "by"}
+	markHeader      = []string{"designation", "aliases", "type", "setting", "stamping", "directions", "description", "lat", "lon", "position_source", "by",
+		"retired_on", "retired_reason", "replaced_by"}
 	conditionHeader = []string{"mark", "observed_on", "condition", "note", "by"}
 	heightHeader    = []string{"mark", "datum", "kind", "value", "unit", "decimals", "class", "in_force_from", "source", "reason", "by"}
 	requiredColumns = map[string][]string{
@@ -446,7 +447,7 @@ func (r *Register) importFile(ctx context.Context, tx pgx.Tx, dir, name, by stri
 	var columns []string
 	switch name {
 	case MarksFile:
-		table, columns, row = "mark", store.StageMarkColumns, f.markRow(by)
+		table, columns, row = "mark", store.StageMarkColumns, f.markRow(by, LatestToday(time.Now()))
 	case ConditionsFile:
 		table, columns, row = "condition", store.StageConditionColumns, f.conditionRow(by, LatestToday(time.Now()))
 	default:
@@ -476,7 +477,7 @@ func orBy(s, by string) string {
 	return s
 }
 
-func (f *csvFile) markRow(by string) func(int64, func(string) string) []any {
+func (f *csvFile) markRow(by string, latest time.Time) func(int64, func(string) string) []any {
 	return func(line int64, get func(string) string) []any {
 		des := names.Normal(get("designation"))
 		if !designationPattern.MatchString(des) {
@@ -529,11 +530,41 @@ func (f *csvFile) markRow(by string) func(int64, func(string) string) []any {
 		if (get("lat") == "") != (get("lon") == "") {
 			f.problem(line, "lat", "give lat and lon together, or neither")
 		}
+		var retired *time.Time
+		reason, repl := get("retired_reason"), names.Normal(get("replaced_by"))
+		if s := get("retired_on"); s != "" {
+			t, err := importDate(s)
+			switch {
+			case err != nil:
+				f.problem(line, "retired_on", "%v", err)
+			case t.After(latest):
+				f.problem(line, "retired_on", "%s is in the future", s)
+			default:
+				retired = &t
+			}
+			if reason == "" {
+				f.problem(line, "retired_reason", "say why the mark was retired")
+			}
+		} else if reason != "" || repl != "" {
+			f.problem(line, "retired_on", "a retirement's reason or replacement is given without the date it was retired")
+		}
+		if repl != "" && !designationPattern.MatchString(repl) {
+			f.problem(line, "replaced_by", "%q is not a designation", repl)
+			repl = ""
+		}
+		replFolded := ""
+		if repl != "" {
+			replFolded = names.Fold(repl)
+			if replFolded == names.Fold(des) {
+				f.problem(line, "replaced_by", "a mark does not replace itself")
+			}
+		}
 		// A row with a problem is staged all the same, without the values
 		// at fault, so that the rows naming its mark are not refused for
 		// it too; the import is refused for its problem.
 		return []any{line, des, names.Fold(des), aliases, kinds, agencies, get("type"), get("setting"), get("stamping"),
-			get("directions"), get("description"), lat, lon, get("position_source"), orBy(get("by"), by)}
+			get("directions"), get("description"), lat, lon, get("position_source"), orBy(get("by"), by),
+			retired, reason, repl, replFolded}
 	}
 }
 

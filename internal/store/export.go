@@ -13,10 +13,14 @@ const (
 	            FROM mark_alias a WHERE a.mark_id = m.id), ''),
 	coalesce(v.mark_type, m.mark_type), coalesce(v.setting, m.setting), coalesce(v.stamping, m.stamping),
 	coalesce(v.directions, m.to_reach), coalesce(v.description, ''),
-	(` + curLat + `)::text, (` + curLon + `)::text, coalesce(v.position_source, ''), m.created_by
+	(` + curLat + `)::text, (` + curLon + `)::text, coalesce(v.position_source, ''), m.created_by,
+	to_char(ret.retired_on, 'YYYY-MM-DD'), coalesce(ret.reason, ''), coalesce(rby.designation, '')
 	FROM mark m LEFT JOIN LATERAL (
 		SELECT * FROM mark_version mv WHERE mv.mark_id = m.id ORDER BY mv.version DESC LIMIT 1
-	) v ON true ORDER BY m.id`
+	) v ON true
+	LEFT JOIN mark_retirement ret ON ret.mark_id = m.id
+	LEFT JOIN mark rby ON rby.id = ret.replaced_by
+	ORDER BY m.id`
 	exportConditionsSQL = `SELECT m.designation, to_char(c.observed_on, 'YYYY-MM-DD'), c.condition, c.note, c.recorded_by
 	FROM mark_condition c JOIN mark m ON m.id = c.mark_id ORDER BY m.id, c.id`
 	exportHeightsSQL = `SELECT m.designation, d.code, h.source_kind, h.value::text, h.unit, h.decimals::text, h.class,
@@ -28,8 +32,9 @@ const (
 
 // ExportMarks calls fn with each mark of the register, in the order they
 // were added: designation, aliases (KIND[=AGENCY]:ALIAS;...), type,
-// setting, stamping, directions, description, lat, lon, position source
-// and who added it, the description being the current one. The rows are
+// setting, stamping, directions, description, lat, lon, position source,
+// who added it, and its retirement (date, reason, the mark that replaced
+// it), the description being the current one. The rows are
 // read as fn takes them, never all held.
 func ExportMarks(ctx context.Context, db DBTX, fn func([]string) error) error {
 	return exportRows(ctx, db, "marks", exportMarksSQL, fn)

@@ -17,7 +17,8 @@ import (
 // columns a caller's rows give, in order, to StageCopy.
 var (
 	StageMarkColumns = []string{"line", "designation", "folded", "aliases", "alias_kinds", "alias_agencies",
-		"mark_type", "setting", "stamping", "directions", "description", "lat", "lon", "position_source", "by"}
+		"mark_type", "setting", "stamping", "directions", "description", "lat", "lon", "position_source", "by",
+		"retired_on", "retired_reason", "replaced_by", "replaced_folded"}
 	StageConditionColumns = []string{"line", "mark", "folded", "observed_on", "condition", "note", "by"}
 	StageHeightColumns    = []string{"line", "mark", "folded", "datum", "kind", "value", "unit", "decimals",
 		"class", "in_force_from", "source", "reason", "by"}
@@ -73,6 +74,12 @@ SELECT 'mark', a.line, 'aliases', 'alias ' || a.alias || ' is also ' || CASE WHE
   FROM a LEFT JOIN a o ON o.folded = a.folded AND o.line < a.line
          LEFT JOIN s d ON d.folded = a.folded
  WHERE o.line IS NOT NULL OR d.line IS NOT NULL
+UNION ALL
+SELECT 'mark', s.line, 'replaced_by', 'no mark ' || s.replaced_by || ' in the register or in the marks file'
+  FROM s WHERE s.replaced_folded <> '' AND NOT EXISTS (SELECT 1 FROM known k WHERE k.folded = s.replaced_folded)
+UNION ALL
+SELECT 'mark', s.line, 'replaced_by', 'mark ' || s.replaced_by || ' replaces also the mark of line ' || o.line || ': a mark replaces at most one'
+  FROM s JOIN s o ON o.replaced_folded = s.replaced_folded AND o.line < s.line WHERE s.replaced_folded <> ''
 UNION ALL
 SELECT 'condition', c.line, 'mark', 'no mark ' || c.mark || ' in the register or in the marks file'
   FROM cairn_staging.condition c
@@ -167,7 +174,7 @@ func ImportEventInsert(ctx context.Context, db DBTX, p ImportEventInsertParams) 
 
 // ImportCounts are the rows an import wrote.
 type ImportCounts struct {
-	Marks, Versions, Aliases, Conditions, Heights int64
+	Marks, Versions, Aliases, Conditions, Heights, Retirements int64
 }
 
 // StageApply inserts the staged rows into the register, through its
@@ -245,6 +252,14 @@ func StageApply(ctx context.Context, db DBTX, reason string) (ImportCounts, erro
 			break
 		}
 		c.Heights += n
+	}
+	// Retirements last, in line order: a mark that replaced another may
+	// itself be retired by a later line.
+	if err := exec(&c.Retirements, "retirements", fmt.Sprintf(`INSERT INTO mark_retirement (mark_id, replaced_by, retired_on, reason, recorded_by)
+		SELECT m.id, CASE WHEN s.folded <> '' THEN `+markOf+` END, s.retired_on, s.retired_reason, s.by
+		  FROM (SELECT line, designation, retired_on, retired_reason, by, replaced_folded AS folded FROM cairn_staging.mark WHERE import_xid = pg_current_xact_id() AND retired_on IS NOT NULL) s
+		  JOIN mark m ON m.designation = s.designation ORDER BY s.line`, "s")); err != nil {
+		return c, err
 	}
 	for _, t := range []string{"mark", "condition", "height"} {
 		if err := StageClear(ctx, db, t); err != nil {
