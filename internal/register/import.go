@@ -39,7 +39,7 @@ var importFiles = []string{MarksFile, ConditionsFile, HeightsFile}
 // The columns of each file, in the order export writes them. A column
 // marked required must be in the header; the others may be left out.
 var (
-	markHeader      = []string{"designation", "aliases", "type", "setting", "stamping", "directions", "description", "lat", "lon", "position_source", "by",
+	markHeader = []string{"designation", "aliases", "type", "setting", "stamping", "directions", "description", "lat", "lon", "position_source", "by",
 		"retired_on", "retired_reason", "replaced_by"}
 	conditionHeader = []string{"mark", "observed_on", "condition", "note", "by"}
 	heightHeader    = []string{"mark", "datum", "kind", "value", "unit", "decimals", "class", "in_force_from", "source", "reason", "by"}
