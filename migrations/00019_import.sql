@@ -37,7 +37,7 @@ CREATE CONSTRAINT TRIGGER import_event_commit AFTER INSERT ON import_event DEFER
     FOR EACH ROW WHEN (cairn_commit_first()) EXECUTE FUNCTION register_commit_stamp();
 
 CREATE SCHEMA cairn_staging;
-CREATE UNLOGGED TABLE cairn_staging.mark (
+CREATE UNLOGGED TABLE cairn_staging.import_mark (
     import_xid      xid8 NOT NULL DEFAULT pg_current_xact_id(),
     line            bigint NOT NULL,
     designation     text NOT NULL,
@@ -60,8 +60,8 @@ CREATE UNLOGGED TABLE cairn_staging.mark (
     replaced_by     text NOT NULL,
     replaced_folded text NOT NULL
 );
-CREATE INDEX ON cairn_staging.mark (import_xid, folded);
-CREATE UNLOGGED TABLE cairn_staging.condition (
+CREATE INDEX ON cairn_staging.import_mark (import_xid, folded);
+CREATE UNLOGGED TABLE cairn_staging.import_condition (
     import_xid  xid8 NOT NULL DEFAULT pg_current_xact_id(),
     line        bigint NOT NULL,
     mark        text NOT NULL,
@@ -71,8 +71,8 @@ CREATE UNLOGGED TABLE cairn_staging.condition (
     note        text NOT NULL,
     by          text NOT NULL
 );
-CREATE INDEX ON cairn_staging.condition (import_xid);
-CREATE UNLOGGED TABLE cairn_staging.height (
+CREATE INDEX ON cairn_staging.import_condition (import_xid);
+CREATE UNLOGGED TABLE cairn_staging.import_height (
     import_xid    xid8 NOT NULL DEFAULT pg_current_xact_id(),
     line          bigint NOT NULL,
     mark          text NOT NULL,
@@ -88,7 +88,7 @@ CREATE UNLOGGED TABLE cairn_staging.height (
     reason        text NOT NULL,
     by            text NOT NULL
 );
-CREATE INDEX ON cairn_staging.height (import_xid, folded, datum, line);
+CREATE INDEX ON cairn_staging.import_height (import_xid, folded, datum, line);
 
 -- +goose StatementBegin
 -- cairn_evidence_tables as in 00018, with import_event last.
@@ -139,7 +139,7 @@ BEGIN
     d := replace(d, $r$mark_retirement_id_seq TO cairn_publisher;$r$,
         $r$mark_retirement_id_seq, import_event_id_seq TO cairn_publisher;
     GRANT USAGE ON SCHEMA cairn_staging TO cairn_publisher;
-    GRANT SELECT, INSERT, DELETE ON cairn_staging.mark, cairn_staging.condition, cairn_staging.height TO cairn_publisher;$r$);
+    GRANT SELECT, INSERT, DELETE ON cairn_staging.import_mark, cairn_staging.import_condition, cairn_staging.import_height TO cairn_publisher;$r$);
     EXECUTE d;
 END
 $$;
@@ -156,7 +156,7 @@ BEGIN
     d := replace(d, $r$'run_event', 'mark_retirement', 'import_event'];$r$, $r$'run_event', 'mark_retirement'];$r$);
     d := replace(d, $r$mark_retirement_id_seq, import_event_id_seq TO cairn_publisher;
     GRANT USAGE ON SCHEMA cairn_staging TO cairn_publisher;
-    GRANT SELECT, INSERT, DELETE ON cairn_staging.mark, cairn_staging.condition, cairn_staging.height TO cairn_publisher;$r$,
+    GRANT SELECT, INSERT, DELETE ON cairn_staging.import_mark, cairn_staging.import_condition, cairn_staging.import_height TO cairn_publisher;$r$,
         $r$mark_retirement_id_seq TO cairn_publisher;$r$);
     EXECUTE d;
 END

@@ -28,7 +28,7 @@ var (
 // table ("mark", "condition" or "height") with one COPY; next is called
 // as COPY reads, so the rows are never all held.
 func StageCopy(ctx context.Context, db Copier, table string, columns []string, next func() ([]any, error)) (int64, error) {
-	n, err := db.CopyFrom(ctx, pgx.Identifier{"cairn_staging", table}, columns, pgx.CopyFromFunc(next))
+	n, err := db.CopyFrom(ctx, pgx.Identifier{"cairn_staging", "import_" + table}, columns, pgx.CopyFromFunc(next))
 	if err != nil {
 		return n, fmt.Errorf("copy into staging %s: %w", table, translate(err))
 	}
@@ -49,7 +49,7 @@ type StageProblem struct {
 // line.
 func StageCheck(ctx context.Context, db DBTX) ([]StageProblem, error) {
 	rows, err := db.Query(ctx, `
-WITH s AS (SELECT * FROM cairn_staging.mark WHERE import_xid = pg_current_xact_id()),
+WITH s AS (SELECT * FROM cairn_staging.import_mark WHERE import_xid = pg_current_xact_id()),
 a AS (SELECT s.line, u.alias, lower(normalize(u.alias, NFKC)) AS folded
         FROM s, unnest(s.aliases) AS u (alias)),
 known AS (SELECT lower(normalize(m.designation, NFKC)) AS folded FROM mark m
@@ -82,15 +82,15 @@ SELECT 'mark', s.line, 'replaced_by', 'mark ' || s.replaced_by || ' replaces als
   FROM s JOIN s o ON o.replaced_folded = s.replaced_folded AND o.line < s.line WHERE s.replaced_folded <> ''
 UNION ALL
 SELECT 'condition', c.line, 'mark', 'no mark ' || c.mark || ' in the register or in the marks file'
-  FROM cairn_staging.condition c
+  FROM cairn_staging.import_condition c
  WHERE c.import_xid = pg_current_xact_id() AND NOT EXISTS (SELECT 1 FROM known k WHERE k.folded = c.folded)
 UNION ALL
 SELECT 'height', h.line, 'mark', 'no mark ' || h.mark || ' in the register or in the marks file'
-  FROM cairn_staging.height h
+  FROM cairn_staging.import_height h
  WHERE h.import_xid = pg_current_xact_id() AND NOT EXISTS (SELECT 1 FROM known k WHERE k.folded = h.folded)
 UNION ALL
 SELECT 'height', h.line, 'datum', 'no datum ' || h.datum || ' in the register (cairn datum list)'
-  FROM cairn_staging.height h
+  FROM cairn_staging.import_height h
  WHERE h.import_xid = pg_current_xact_id() AND NOT EXISTS (SELECT 1 FROM datum d WHERE d.code = h.datum)
 ORDER BY 1, 2, 3`)
 	if err != nil {
@@ -198,20 +198,20 @@ func StageApply(ctx context.Context, db DBTX, reason string) (ImportCounts, erro
 		return nil
 	}
 	if err := exec(&c.Marks, "marks", `INSERT INTO mark (designation, mark_type, setting, stamping, to_reach, lat, lon, created_by)
-		SELECT designation, mark_type, setting, stamping, directions, lat, lon, by FROM cairn_staging.mark
+		SELECT designation, mark_type, setting, stamping, directions, lat, lon, by FROM cairn_staging.import_mark
 		 WHERE import_xid = pg_current_xact_id() ORDER BY line`); err != nil {
 		return c, err
 	}
 	if err := exec(&c.Versions, "mark descriptions", `INSERT INTO mark_version (mark_id, mark_type, setting, stamping, directions,
 			description, lat, lon, position_source, reason, recorded_by)
 		SELECT m.id, s.mark_type, s.setting, s.stamping, s.directions, s.description, s.lat, s.lon, s.position_source, $1, s.by
-		  FROM cairn_staging.mark s JOIN mark m ON m.designation = s.designation
+		  FROM cairn_staging.import_mark s JOIN mark m ON m.designation = s.designation
 		 WHERE s.import_xid = pg_current_xact_id() AND (s.description <> '' OR s.position_source <> '') ORDER BY s.line`, reason); err != nil {
 		return c, err
 	}
 	if err := exec(&c.Aliases, "aliases", `INSERT INTO mark_alias (mark_id, alias, kind, agency, recorded_by)
 		SELECT m.id, u.alias, u.kind, u.agency, s.by
-		  FROM cairn_staging.mark s JOIN mark m ON m.designation = s.designation,
+		  FROM cairn_staging.import_mark s JOIN mark m ON m.designation = s.designation,
 		       unnest(s.aliases, s.alias_kinds, s.alias_agencies) WITH ORDINALITY AS u (alias, kind, agency, ord)
 		 WHERE s.import_xid = pg_current_xact_id() ORDER BY s.line, u.ord`); err != nil {
 		return c, err
@@ -220,7 +220,7 @@ func StageApply(ctx context.Context, db DBTX, reason string) (ImportCounts, erro
 	const markOf = `(SELECT m.id FROM mark m WHERE lower(normalize(m.designation, NFKC)) = %[1]s.folded
 		UNION ALL SELECT x.mark_id FROM mark_alias x WHERE lower(normalize(x.alias, NFKC)) = %[1]s.folded LIMIT 1)`
 	if err := exec(&c.Conditions, "condition reports", fmt.Sprintf(`INSERT INTO mark_condition (mark_id, condition, note, observed_on, recorded_by)
-		SELECT `+markOf+`, c.condition, c.note, c.observed_on, c.by FROM cairn_staging.condition c
+		SELECT `+markOf+`, c.condition, c.note, c.observed_on, c.by FROM cairn_staging.import_condition c
 		 WHERE c.import_xid = pg_current_xact_id() ORDER BY c.line`, "c")); err != nil {
 		return c, err
 	}
@@ -243,7 +243,7 @@ func StageApply(ctx context.Context, db DBTX, reason string) (ImportCounts, erro
 			       r.value::numeric, r.unit, r.decimals, r.class, r.kind, r.source, r.reason, r.by, r.in_force_from
 			  FROM (SELECT s.*, `+markOf+` AS mark_id,
 			               row_number() OVER (PARTITION BY s.folded, s.datum ORDER BY s.line) AS place
-			          FROM cairn_staging.height s WHERE s.import_xid = pg_current_xact_id()) r
+			          FROM cairn_staging.import_height s WHERE s.import_xid = pg_current_xact_id()) r
 			  JOIN datum d ON d.code = r.datum
 			 WHERE r.place = $1 ORDER BY r.line`, "s"), k); err != nil {
 			return c, err
@@ -257,7 +257,7 @@ func StageApply(ctx context.Context, db DBTX, reason string) (ImportCounts, erro
 	// itself be retired by a later line.
 	if err := exec(&c.Retirements, "retirements", fmt.Sprintf(`INSERT INTO mark_retirement (mark_id, replaced_by, retired_on, reason, recorded_by)
 		SELECT m.id, CASE WHEN s.folded <> '' THEN `+markOf+` END, s.retired_on, s.retired_reason, s.by
-		  FROM (SELECT line, designation, retired_on, retired_reason, by, replaced_folded AS folded FROM cairn_staging.mark WHERE import_xid = pg_current_xact_id() AND retired_on IS NOT NULL) s
+		  FROM (SELECT line, designation, retired_on, retired_reason, by, replaced_folded AS folded FROM cairn_staging.import_mark WHERE import_xid = pg_current_xact_id() AND retired_on IS NOT NULL) s
 		  JOIN mark m ON m.designation = s.designation ORDER BY s.line`, "s")); err != nil {
 		return c, err
 	}
@@ -271,7 +271,7 @@ func StageApply(ctx context.Context, db DBTX, reason string) (ImportCounts, erro
 
 // StageClear deletes this transaction's staged rows of table.
 func StageClear(ctx context.Context, db DBTX, table string) error {
-	_, err := db.Exec(ctx, "DELETE FROM "+pgx.Identifier{"cairn_staging", table}.Sanitize()+" WHERE import_xid = pg_current_xact_id()")
+	_, err := db.Exec(ctx, "DELETE FROM "+pgx.Identifier{"cairn_staging", "import_" + table}.Sanitize()+" WHERE import_xid = pg_current_xact_id()")
 	if err != nil {
 		return fmt.Errorf("clear staging %s: %w", table, translate(err))
 	}
