@@ -70,6 +70,8 @@ func TestEveryRowCarriesItsLogin(t *testing.T) {
 	// check_connection.
 	mustRun(t, publisher, "run", "record", book(3), "--check-only", "--hold", "BM1", "--by", "Ada Field")
 	mustRun(t, publisher, "run", "void", "2", "--reason", "wrong rod", "--yes", "--by", "Ada Field")
+	mustRun(t, publisher, "datum", "add", "TCLD", "--name", "Tallis County local datum (invented)", "--by", "Ada Field")
+	mustRun(t, publisher, "import", importSample, "--by", "Ada Field")
 
 	ctx := context.Background()
 	counts, err := store.TableCount(ctx, db.Pool)
@@ -99,8 +101,8 @@ func TestEveryRowCarriesItsLogin(t *testing.T) {
 		}
 	}
 	// One commit per command that wrote: fourteen.
-	if n := counts.Rows("register_commit"); n != 14 {
-		t.Errorf("%d commits, want 14 (one per writing command)", n)
+	if n := counts.Rows("register_commit"); n != 16 {
+		t.Errorf("%d commits, want 16 (one per writing command)", n)
 	}
 	// Nobody gives the login, the transaction or the time of a row.
 	conn, err := pgx.Connect(ctx, recorder)

@@ -56,13 +56,15 @@ func exitCode(err error) int {
 		dme *register.DraftMismatchError
 		cf  checksFailed
 		ce  *register.ConflictError
+		imp *register.ImportError
 	)
 	switch {
 	case err == nil:
 		return ExitOK
 	case errors.As(err, &fe), errors.As(err, &ie), errors.As(err, &le),
 		errors.As(err, &ume), errors.As(err, &are), errors.As(err, &soe), errors.As(err, &cfe),
-		errors.As(err, &rve), errors.As(err, &pce), errors.As(err, &nde), errors.As(err, &dme):
+		errors.As(err, &rve), errors.As(err, &pce), errors.As(err, &nde), errors.As(err, &dme),
+		errors.As(err, &imp):
 		// A refused book (unknown marks, already recorded, the same
 		// observations as a run, failed checks without
 		// --accept-failed-checks) and a voided run named are bad input:

@@ -39,6 +39,22 @@ type traceVersionJSON struct {
 	HeldAs     string               `json:"held_as,omitempty"`
 	HeldSDMM   *float64             `json:"held_sd_mm,omitempty"`
 	Adjustment *traceAdjustmentJSON `json:"adjustment,omitempty"`
+	Import     *traceImportJSON     `json:"import,omitempty"`
+}
+
+// traceImportJSON is the import that wrote a version.
+type traceImportJSON struct {
+	ImportID   int64            `json:"import_id"`
+	Source     string           `json:"source"`
+	RecordedBy string           `json:"recorded_by"`
+	RecordedAt time.Time        `json:"recorded_at"`
+	Files      []importFileJSON `json:"files"`
+}
+
+type importFileJSON struct {
+	Name   string `json:"name"`
+	SHA256 string `json:"sha256"`
+	Rows   int64  `json:"rows"`
 }
 
 type traceAdjustmentJSON struct {
@@ -58,6 +74,13 @@ type traceAdjustmentJSON struct {
 func toTraceVersionJSON(n *register.TraceVersion) traceVersionJSON {
 	j := traceVersionJSON{heightJSON: toHeightJSON(n.Height, ""), HeightID: n.ID, Repeated: n.Repeated}
 	j.Doubts = doubtsJSON(n.Doubts)
+	if e := n.Import; e != nil {
+		ji := &traceImportJSON{ImportID: e.ID, Source: e.Source, RecordedBy: e.RecordedBy, RecordedAt: e.RecordedAt, Files: []importFileJSON{}}
+		for _, f := range e.Files {
+			ji.Files = append(ji.Files, importFileJSON(f))
+		}
+		j.Import = ji
+	}
 	if a := n.Adjustment; a != nil {
 		ja := &traceAdjustmentJSON{AdjustmentID: a.ID, Method: a.Method, Status: a.Status, StatusBy: a.StatusBy,
 			StatusAt: a.StatusAt, StatusReason: a.StatusReason, Runs: []runRefJSON{}, Held: []traceVersionJSON{},
@@ -234,6 +257,12 @@ func writeTrace(w io.Writer, v traceVersionJSON, indent string) {
 		}
 	default:
 		fmt.Fprintf(w, "%ssource: %s\n", in, v.Source)
+		if e := v.Import; e != nil {
+			fmt.Fprintf(w, "%simported by import %d, %s by %s, from %s\n", in, e.ImportID, timeText(e.RecordedAt), e.RecordedBy, e.Source)
+			for _, f := range e.Files {
+				fmt.Fprintf(w, "%s    %s (%d rows), sha256 %s\n", in, f.Name, f.Rows, f.SHA256)
+			}
+		}
 	}
 }
 

@@ -43,6 +43,9 @@ type TraceVersion struct {
 	store.Height
 	// Adjustment is set for a version from an adjustment, unless Repeated.
 	Adjustment *TraceAdjustment
+	// Import is the import that wrote the version, with its files'
+	// SHA-256 (migrations/00019); nil if it was not imported.
+	Import *store.ImportEvent
 	// Repeated says the version's derivation is shown earlier in the same
 	// trace.
 	Repeated bool
@@ -116,6 +119,13 @@ func (r *Register) Trace(ctx context.Context, p TraceParams) (*Trace, error) {
 func traceVersion(ctx context.Context, db store.DBTX, h store.Height, seen map[int64]bool) (*TraceVersion, error) {
 	n := &TraceVersion{Height: h}
 	if h.AdjustmentID == nil {
+		e, err := store.ImportEventOfHeight(ctx, db, h.ID)
+		switch {
+		case err == nil:
+			n.Import = &e
+		case !errors.Is(err, store.ErrNotFound):
+			return nil, err
+		}
 		return n, nil
 	}
 	if seen[h.ID] {

@@ -67,6 +67,7 @@ var roleToWrite = map[string]string{
 	"condition_photo": RoleRecorder,
 	"mark_retirement": RolePublisher,
 	"height":          RolePublisher, "adjustment_event": RolePublisher, "datum": RolePublisher, "run_event": RolePublisher,
+	"import_event": RolePublisher,
 }
 
 // deniedTable finds the table of "permission denied for table height".

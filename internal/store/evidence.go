@@ -18,7 +18,7 @@ type EvidenceTable struct {
 
 // EvidenceTables are the tables of the evidence in their fixed order
 // (docs/reliability.md, "The evidence"). The same list is in the
-// database's cairn_evidence_tables (migrations/00013, 00016, 00018); it is written again
+// database's cairn_evidence_tables (migrations/00013, 00016, 00018, 00019); it is written again
 // here so that the audit does not take it from the database.
 var EvidenceTables = []EvidenceTable{
 	{"datum", "id"},
@@ -43,6 +43,7 @@ var EvidenceTables = []EvidenceTable{
 	{"mark_alias", "id"},
 	{"mark_retirement", "id"},
 	{"condition_photo", "id"},
+	{"import_event", "id"},
 }
 
 // EvidenceSession fixes, for the rest of transaction tx, the settings the

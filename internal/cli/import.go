@@ -1,0 +1,119 @@
+package cli
+
+import (
+	"context"
+	"errors"
+
+	"github.com/spf13/cobra"
+
+	"cairn/internal/register"
+)
+
+// importOptions are the inputs of `cairn import`.
+type importOptions struct {
+	f      *Factory
+	ctx    context.Context
+	params register.ImportParams
+}
+
+func newCmdImport(f *Factory, runF func(*importOptions) error) *cobra.Command {
+	opts := &importOptions{f: f}
+	cmd := &cobra.Command{
+		Use:   "import DIR [--check]",
+		Short: "Import an existing register from CSV files",
+		Long: `Import an office's existing register from a folder of CSV files in cairn's
+layout (docs/import.md): marks.csv (marks, aliases, positions), conditions.csv
+(condition reports) and heights.csv (height versions with their in-force
+dates), any of them, each with its header row.
+
+The import is one transaction: every problem of every file is reported, with
+its file, line and field, and then nothing is written. --check reads and
+checks everything and writes nothing in any case. Dates are written
+YYYY-MM-DD; a bare "ft" is refused (write intl-ft or usft). The same files
+are never imported twice. The import is recorded, with the SHA-256 of each
+file, and trace names it for an imported height.
+
+Heights from an office's old books are what those books say: review them
+(a licensed surveyor), check into two marks and verify a mark's condition
+before use; local codes govern.`,
+		Example: `  cairn import old-register --check
+  cairn import old-register`,
+		Args: exactArgs(1, "the folder DIR to import"),
+		RunE: func(cmd *cobra.Command, args []string) error {
+			opts.ctx, opts.params.Dir = cmd.Context(), args[0]
+			return dispatch(opts, runF, importRun)
+		},
+	}
+	cmd.Flags().BoolVar(&opts.params.Check, "check", false, "check the files and report every problem, writing nothing")
+	cmd.Flags().StringVar(&opts.params.RecordedBy, "by", osUser(), "who imports (and the by of a row that gives none)")
+	return cmd
+}
+
+// importRun imports the folder.
+func importRun(opts *importOptions) error {
+	r, err := openRegister(opts.ctx, opts.f)
+	if err != nil {
+		return err
+	}
+	res, err := r.Import(opts.ctx, opts.params)
+	if err != nil {
+		return err
+	}
+	c := res.Counts
+	if opts.params.Check {
+		opts.f.IO.printf("checked %s: no problems; %d marks, %d condition reports, %d height versions would be imported (nothing written)\n",
+			opts.params.Dir, c.Marks, c.Conditions, c.Heights)
+		return nil
+	}
+	opts.f.IO.printf("import %d: %d marks (%d with a description, %d retired), %d aliases, %d condition reports, %d height versions\n",
+		res.EventID, c.Marks, c.Versions, c.Retirements, c.Aliases, c.Conditions, c.Heights)
+	for _, f := range res.Files {
+		opts.f.IO.printf("  %s  %d rows  sha256 %s\n", f.Name, f.Rows, f.SHA256)
+	}
+	return nil
+}
+
+// exportOptions are the inputs of `cairn export`.
+type exportOptions struct {
+	f   *Factory
+	ctx context.Context
+	out string
+}
+
+func newCmdExport(f *Factory, runF func(*exportOptions) error) *cobra.Command {
+	opts := &exportOptions{f: f}
+	cmd := &cobra.Command{
+		Use:   "export --out DIR",
+		Short: "Export the register as CSV files in the import layout",
+		Long: `Write the register to the folder DIR in the layout cairn import reads
+(docs/import.md): marks.csv with each mark's current description and aliases,
+conditions.csv with every condition report, heights.csv with every height
+version in recorded order and its in-force date. An export imported into an
+empty register (with the same datums) gives the same register. DIR is made if
+needed; files already there are never overwritten.`,
+		Example: `  cairn export --out register-2026`,
+		Args:    exactArgs(0, "no arguments (the folder is --out)"),
+		RunE:    runE(&opts.ctx, opts, runF, exportRun),
+	}
+	cmd.Flags().StringVar(&opts.out, "out", "", "the folder to write (required)")
+	return cmd
+}
+
+// exportRun writes the files.
+func exportRun(opts *exportOptions) error {
+	if opts.out == "" {
+		return flagError{errors.New("--out: name the folder to write")}
+	}
+	r, err := openRegister(opts.ctx, opts.f)
+	if err != nil {
+		return err
+	}
+	res, err := r.Export(opts.ctx, opts.out)
+	if err != nil {
+		return err
+	}
+	for _, n := range []string{register.MarksFile, register.ConditionsFile, register.HeightsFile} {
+		opts.f.IO.printf("%s  %d rows\n", n, res.Files[n])
+	}
+	return nil
+}

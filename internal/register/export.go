@@ -1,0 +1,95 @@
+package register
+
+import (
+	"context"
+	"encoding/csv"
+	"errors"
+	"fmt"
+	"io/fs"
+	"os"
+	"path/filepath"
+
+	"github.com/jackc/pgx/v5"
+
+	"cairn/internal/store"
+)
+
+// ExportResult counts the rows written to each file.
+type ExportResult struct {
+	Files map[string]int64
+}
+
+// Export writes the register to dir in the layout of docs/import.md:
+// marks.csv (each mark's current description and aliases),
+// conditions.csv (every condition report) and heights.csv (every height
+// version in recorded order, with its in-force time), read in one
+// snapshot and streamed row by row. dir is made if it does not exist; a
+// file of the layout already in it is refused, never overwritten.
+func (r *Register) Export(ctx context.Context, dir string) (ExportResult, error) {
+	if err := os.MkdirAll(dir, 0o755); err != nil {
+		return ExportResult{}, inputErr("out", "%v", err)
+	}
+	for _, n := range importFiles {
+		if _, err := os.Stat(filepath.Join(dir, n)); err == nil {
+			return ExportResult{}, inputErr("out", "%s is there already: export into an empty folder", filepath.Join(dir, n))
+		} else if !errors.Is(err, fs.ErrNotExist) {
+			return ExportResult{}, inputErr("out", "%v", err)
+		}
+	}
+	res := ExportResult{Files: map[string]int64{}}
+	err := r.runTx(ctx, pgx.TxOptions{AccessMode: pgx.ReadOnly, IsoLevel: pgx.RepeatableRead}, func(tx pgx.Tx) error {
+		for _, f := range []struct {
+			name   string
+			header []string
+			rows   func(context.Context, store.DBTX, func([]string) error) error
+			unit   int // the column of a unit, or -1
+		}{
+			{MarksFile, markHeader, store.ExportMarks, -1},
+			{ConditionsFile, conditionHeader, store.ExportConditions, -1},
+			{HeightsFile, heightHeader, store.ExportHeights, 4},
+		} {
+			n, err := exportFile(ctx, tx, filepath.Join(dir, f.name), f.header, f.rows, f.unit)
+			if err != nil {
+				return err
+			}
+			res.Files[f.name] = n
+		}
+		return nil
+	})
+	if err != nil {
+		return ExportResult{}, fmt.Errorf("export to %s: %w", dir, err)
+	}
+	return res, nil
+}
+
+func exportFile(ctx context.Context, tx pgx.Tx, path string, header []string,
+	rows func(context.Context, store.DBTX, func([]string) error) error, unit int) (int64, error) {
+	fh, err := os.OpenFile(path, os.O_WRONLY|os.O_CREATE|os.O_EXCL, 0o644)
+	if err != nil {
+		return 0, err
+	}
+	w := csv.NewWriter(fh)
+	if err := w.Write(header); err != nil {
+		fh.Close()
+		return 0, err
+	}
+	var n int64
+	err = rows(ctx, tx, func(rec []string) error {
+		if unit >= 0 {
+			rec[unit] = ExportUnit(rec[unit])
+		}
+		n++
+		return w.Write(rec)
+	})
+	w.Flush()
+	if err == nil {
+		err = w.Error()
+	}
+	if cerr := fh.Close(); err == nil {
+		err = cerr
+	}
+	if err != nil {
+		return n, fmt.Errorf("write %s: %w", path, err)
+	}
+	return n, nil
+}
