@@ -336,117 +336,32 @@ $$;
 -- +goose StatementEnd
 
 -- +goose StatementBegin
--- cairn_roles_apply as in 00014, with mark_version, mark_alias and
--- condition_photo (INSERT for cairn_recorder) and mark_retirement (INSERT for
--- cairn_publisher), and their sequences.
-CREATE OR REPLACE FUNCTION cairn_roles_apply() RETURNS text[] LANGUAGE plpgsql
-SET search_path = pg_catalog, public, pg_temp AS $$
+-- cairn_roles_apply as 00016 left it, with mark_version, mark_alias and
+-- condition_photo inserted by cairn_recorder and mark_retirement by
+-- cairn_publisher, with their sequences: edited in the function's own text.
+DO $$
 DECLARE
-    roles      constant text[] := ARRAY['cairn_reader', 'cairn_recorder', 'cairn_publisher'];
-    -- Append-only: every table of the evidence but datum and mark (whose
-    -- ids the publisher locks), and the register's own ledgers.
-    history    constant text[] := ARRAY(SELECT tbl FROM cairn_evidence_tables() WHERE tbl NOT IN ('datum', 'mark') ORDER BY ord)
-                                  || ARRAY['register_commit', 'register_cluster'];
-    everything constant text[] := history || ARRAY['mark', 'datum', 'goose_db_version'];
-    recorded   constant text[] := ARRAY['mark', 'mark_condition', 'run', 'sighting', 'section', 'run_mark',
-                                        'adjustment', 'adjustment_run', 'adjustment_held', 'adjustment_result',
-                                        'adjustment_section', 'run_held', 'check_run', 'check_connection',
-                                        'mark_version', 'mark_alias', 'condition_photo'];
-    published  constant text[] := ARRAY['height', 'adjustment_event', 'datum', 'run_event', 'mark_retirement'];
-    stamped    constant text[] := ARRAY['created_xid', 'created_server_start', 'recorded_role', 'recorded_at', 'created_at'];
-    may_create boolean;
-    missing    text[] := '{}';
-    owner      text;
-    -- The register's schema: where height is found on this function's
-    -- search path (current_schema() would be pg_catalog here).
-    schema     text := (SELECT relnamespace::regnamespace::text FROM pg_class WHERE oid = 'height'::regclass);
-    r          text;
-    t          text;
-    fn         regprocedure;
+    d text := pg_get_functiondef('cairn_roles_apply()'::regprocedure);
+    e text[];
 BEGIN
-    -- No TEMP, no CREATE on the database or in schema public (00011).
-    PERFORM cairn_database_apply();
-    -- No function of the register for PUBLIC, whether the roles exist or not.
-    FOR fn IN SELECT p.oid::regprocedure FROM pg_proc p WHERE p.pronamespace = schema::regnamespace LOOP
-        EXECUTE format('REVOKE ALL ON FUNCTION %s FROM PUBLIC', fn);
-    END LOOP;
-    SELECT rolsuper OR rolcreaterole INTO may_create FROM pg_roles WHERE rolname = current_user;
-    FOREACH r IN ARRAY roles LOOP
-        IF NOT EXISTS (SELECT 1 FROM pg_roles WHERE rolname = r) THEN
-            IF may_create THEN
-                BEGIN
-                    EXECUTE format('CREATE ROLE %I NOLOGIN', r);
-                EXCEPTION WHEN duplicate_object OR unique_violation THEN
-                    -- Another database's migration made it meanwhile.
-                    NULL;
-                END;
-            ELSE
-                missing := missing || r;
-            END IF;
+    FOREACH e SLICE 1 IN ARRAY ARRAY[
+        ARRAY[$r$'adjustment_section', 'run_held', 'check_run', 'check_connection'];$r$, $r$'adjustment_section', 'run_held', 'check_run', 'check_connection',
+                                        'mark_version', 'mark_alias', 'condition_photo'];$r$],
+        ARRAY[$r$'datum', 'run_event'];$r$, $r$'datum', 'run_event', 'mark_retirement'];$r$],
+        ARRAY[$r$datum_id_seq, run_event_id_seq FROM PUBLIC$r$, $r$datum_id_seq, run_event_id_seq,
+        mark_version_id_seq, mark_alias_id_seq, mark_retirement_id_seq, condition_photo_id_seq FROM PUBLIC$r$],
+        ARRAY[$r$datum_id_seq, run_event_id_seq TO cairn_reader;$r$, $r$datum_id_seq, run_event_id_seq,
+        mark_version_id_seq, mark_alias_id_seq, mark_retirement_id_seq, condition_photo_id_seq TO cairn_reader;$r$],
+        ARRAY[$r$run_id_seq, adjustment_id_seq TO cairn_recorder;$r$, $r$run_id_seq, adjustment_id_seq,
+        mark_version_id_seq, mark_alias_id_seq, condition_photo_id_seq TO cairn_recorder;$r$],
+        ARRAY[$r$datum_id_seq, run_event_id_seq TO cairn_publisher;$r$, $r$datum_id_seq, run_event_id_seq,
+        mark_retirement_id_seq TO cairn_publisher;$r$]] LOOP
+        IF position(e[1] IN d) = 0 THEN
+            RAISE EXCEPTION 'cairn_roles_apply lacks %: migration 00018 cannot edit it', e[1];
         END IF;
+        d := replace(d, e[1], e[2]);
     END LOOP;
-    IF cardinality(missing) > 0 THEN
-        RAISE NOTICE 'roles % are missing and % may not create them: no privileges granted; run cairn db roles as an administrator',
-            missing, current_user;
-        RETURN missing;
-    END IF;
-
-    -- Each role includes the one below it.
-    IF may_create THEN
-        BEGIN
-            IF NOT pg_has_role('cairn_recorder', 'cairn_reader', 'MEMBER') THEN
-                GRANT cairn_reader TO cairn_recorder;
-            END IF;
-            IF NOT pg_has_role('cairn_publisher', 'cairn_recorder', 'MEMBER') THEN
-                GRANT cairn_recorder TO cairn_publisher;
-            END IF;
-        EXCEPTION WHEN unique_violation THEN
-            NULL;
-        END;
-    END IF;
-
-    SELECT tableowner INTO owner FROM pg_tables WHERE schemaname = schema AND tablename = 'height';
-    FOREACH t IN ARRAY everything LOOP
-        EXECUTE format('REVOKE ALL ON TABLE %I FROM PUBLIC, cairn_reader, cairn_recorder, cairn_publisher', t);
-        EXECUTE format('GRANT SELECT ON TABLE %I TO cairn_reader', t);
-    END LOOP;
-    -- INSERT of the columns a writer gives, not of those the database sets.
-    FOREACH t IN ARRAY recorded || published LOOP
-        EXECUTE format('GRANT INSERT (%s) ON TABLE %I TO %I',
-            (SELECT string_agg(quote_ident(a.attname), ', ' ORDER BY a.attnum)
-               FROM pg_attribute a
-              WHERE a.attrelid = t::regclass AND a.attnum > 0 AND NOT a.attisdropped
-                AND a.attidentity = '' AND a.attgenerated = '' AND a.attname <> ALL (stamped)),
-            t, CASE WHEN t = ANY (recorded) THEN 'cairn_recorder' ELSE 'cairn_publisher' END);
-    END LOOP;
-    GRANT UPDATE (id) ON TABLE mark, adjustment TO cairn_publisher;
-    FOREACH t IN ARRAY history LOOP
-        EXECUTE format('REVOKE UPDATE, DELETE, TRUNCATE ON TABLE %I FROM %I', t, owner);
-    END LOOP;
-    -- The owner's own row locks on adjustment (publish, discard).
-    EXECUTE format('GRANT UPDATE (id) ON TABLE adjustment TO %I', owner);
-
-    REVOKE ALL ON SEQUENCE mark_id_seq, mark_condition_id_seq, run_id_seq, adjustment_id_seq,
-        height_id_seq, adjustment_event_id_seq, datum_id_seq, run_event_id_seq,
-        mark_version_id_seq, mark_alias_id_seq, mark_retirement_id_seq, condition_photo_id_seq FROM PUBLIC, cairn_reader, cairn_recorder, cairn_publisher;
-    GRANT SELECT ON SEQUENCE mark_id_seq, mark_condition_id_seq, run_id_seq, adjustment_id_seq,
-        height_id_seq, adjustment_event_id_seq, datum_id_seq, run_event_id_seq,
-        mark_version_id_seq, mark_alias_id_seq, mark_retirement_id_seq, condition_photo_id_seq TO cairn_reader;
-    GRANT USAGE ON SEQUENCE mark_id_seq, mark_condition_id_seq, run_id_seq, adjustment_id_seq,
-        mark_version_id_seq, mark_alias_id_seq, condition_photo_id_seq TO cairn_recorder;
-    GRANT USAGE ON SEQUENCE height_id_seq, adjustment_event_id_seq, datum_id_seq, run_event_id_seq,
-        mark_retirement_id_seq TO cairn_publisher;
-
-    -- Functions: a trigger runs its function whoever fires it, so trigger
-    -- functions need no grant; the functions a default or a trigger's
-    -- WHEN calls run with the writer's privileges; the canonical texts of
-    -- a version are for anyone with a role.
-    FOR fn IN SELECT p.oid::regprocedure FROM pg_proc p WHERE p.pronamespace = schema::regnamespace LOOP
-        EXECUTE format('REVOKE ALL ON FUNCTION %s FROM cairn_reader, cairn_recorder, cairn_publisher', fn);
-    END LOOP;
-    GRANT EXECUTE ON FUNCTION height_canonical(bytea, text, text, height), height_canonical_v2(bytea, text, text, height) TO cairn_reader;
-    GRANT EXECUTE ON FUNCTION cairn_write_time(), cairn_commit_first(), cairn_xact() TO cairn_recorder;
-    RETURN missing;
+    EXECUTE d;
 END
 $$;
 -- +goose StatementEnd
@@ -455,110 +370,30 @@ SELECT cairn_roles_apply();
 
 -- +goose Down
 -- +goose StatementBegin
--- cairn_roles_apply as 00014 made it.
-CREATE OR REPLACE FUNCTION cairn_roles_apply() RETURNS text[] LANGUAGE plpgsql
-SET search_path = pg_catalog, public, pg_temp AS $$
+-- cairn_roles_apply as 00016 left it: v18's edits undone.
+DO $$
 DECLARE
-    roles      constant text[] := ARRAY['cairn_reader', 'cairn_recorder', 'cairn_publisher'];
-    -- Append-only: every table of the evidence but datum and mark (whose
-    -- ids the publisher locks), and the register's own ledgers.
-    history    constant text[] := ARRAY(SELECT tbl FROM cairn_evidence_tables() WHERE tbl NOT IN ('datum', 'mark') ORDER BY ord)
-                                  || ARRAY['register_commit', 'register_cluster'];
-    everything constant text[] := history || ARRAY['mark', 'datum', 'goose_db_version'];
-    recorded   constant text[] := ARRAY['mark', 'mark_condition', 'run', 'sighting', 'section', 'run_mark',
-                                        'adjustment', 'adjustment_run', 'adjustment_held', 'adjustment_result',
-                                        'adjustment_section', 'run_held', 'check_run', 'check_connection'];
-    published  constant text[] := ARRAY['height', 'adjustment_event', 'datum', 'run_event'];
-    stamped    constant text[] := ARRAY['created_xid', 'created_server_start', 'recorded_role', 'recorded_at', 'created_at'];
-    may_create boolean;
-    missing    text[] := '{}';
-    owner      text;
-    -- The register's schema: where height is found on this function's
-    -- search path (current_schema() would be pg_catalog here).
-    schema     text := (SELECT relnamespace::regnamespace::text FROM pg_class WHERE oid = 'height'::regclass);
-    r          text;
-    t          text;
-    fn         regprocedure;
+    d text := pg_get_functiondef('cairn_roles_apply()'::regprocedure);
+    e text[];
 BEGIN
-    -- No TEMP, no CREATE on the database or in schema public (00011).
-    PERFORM cairn_database_apply();
-    -- No function of the register for PUBLIC, whether the roles exist or not.
-    FOR fn IN SELECT p.oid::regprocedure FROM pg_proc p WHERE p.pronamespace = schema::regnamespace LOOP
-        EXECUTE format('REVOKE ALL ON FUNCTION %s FROM PUBLIC', fn);
-    END LOOP;
-    SELECT rolsuper OR rolcreaterole INTO may_create FROM pg_roles WHERE rolname = current_user;
-    FOREACH r IN ARRAY roles LOOP
-        IF NOT EXISTS (SELECT 1 FROM pg_roles WHERE rolname = r) THEN
-            IF may_create THEN
-                BEGIN
-                    EXECUTE format('CREATE ROLE %I NOLOGIN', r);
-                EXCEPTION WHEN duplicate_object OR unique_violation THEN
-                    -- Another database's migration made it meanwhile.
-                    NULL;
-                END;
-            ELSE
-                missing := missing || r;
-            END IF;
+    FOREACH e SLICE 1 IN ARRAY ARRAY[
+        ARRAY[$r$'adjustment_section', 'run_held', 'check_run', 'check_connection',
+                                        'mark_version', 'mark_alias', 'condition_photo'];$r$, $r$'adjustment_section', 'run_held', 'check_run', 'check_connection'];$r$],
+        ARRAY[$r$'datum', 'run_event', 'mark_retirement'];$r$, $r$'datum', 'run_event'];$r$],
+        ARRAY[$r$datum_id_seq, run_event_id_seq,
+        mark_version_id_seq, mark_alias_id_seq, mark_retirement_id_seq, condition_photo_id_seq FROM PUBLIC$r$, $r$datum_id_seq, run_event_id_seq FROM PUBLIC$r$],
+        ARRAY[$r$datum_id_seq, run_event_id_seq,
+        mark_version_id_seq, mark_alias_id_seq, mark_retirement_id_seq, condition_photo_id_seq TO cairn_reader;$r$, $r$datum_id_seq, run_event_id_seq TO cairn_reader;$r$],
+        ARRAY[$r$run_id_seq, adjustment_id_seq,
+        mark_version_id_seq, mark_alias_id_seq, condition_photo_id_seq TO cairn_recorder;$r$, $r$run_id_seq, adjustment_id_seq TO cairn_recorder;$r$],
+        ARRAY[$r$datum_id_seq, run_event_id_seq,
+        mark_retirement_id_seq TO cairn_publisher;$r$, $r$datum_id_seq, run_event_id_seq TO cairn_publisher;$r$]] LOOP
+        IF position(e[1] IN d) = 0 THEN
+            RAISE EXCEPTION 'cairn_roles_apply lacks %: migration 00018 cannot edit it', e[1];
         END IF;
+        d := replace(d, e[1], e[2]);
     END LOOP;
-    IF cardinality(missing) > 0 THEN
-        RAISE NOTICE 'roles % are missing and % may not create them: no privileges granted; run cairn db roles as an administrator',
-            missing, current_user;
-        RETURN missing;
-    END IF;
-
-    -- Each role includes the one below it.
-    IF may_create THEN
-        BEGIN
-            IF NOT pg_has_role('cairn_recorder', 'cairn_reader', 'MEMBER') THEN
-                GRANT cairn_reader TO cairn_recorder;
-            END IF;
-            IF NOT pg_has_role('cairn_publisher', 'cairn_recorder', 'MEMBER') THEN
-                GRANT cairn_recorder TO cairn_publisher;
-            END IF;
-        EXCEPTION WHEN unique_violation THEN
-            NULL;
-        END;
-    END IF;
-
-    SELECT tableowner INTO owner FROM pg_tables WHERE schemaname = schema AND tablename = 'height';
-    FOREACH t IN ARRAY everything LOOP
-        EXECUTE format('REVOKE ALL ON TABLE %I FROM PUBLIC, cairn_reader, cairn_recorder, cairn_publisher', t);
-        EXECUTE format('GRANT SELECT ON TABLE %I TO cairn_reader', t);
-    END LOOP;
-    -- INSERT of the columns a writer gives, not of those the database sets.
-    FOREACH t IN ARRAY recorded || published LOOP
-        EXECUTE format('GRANT INSERT (%s) ON TABLE %I TO %I',
-            (SELECT string_agg(quote_ident(a.attname), ', ' ORDER BY a.attnum)
-               FROM pg_attribute a
-              WHERE a.attrelid = t::regclass AND a.attnum > 0 AND NOT a.attisdropped
-                AND a.attidentity = '' AND a.attgenerated = '' AND a.attname <> ALL (stamped)),
-            t, CASE WHEN t = ANY (recorded) THEN 'cairn_recorder' ELSE 'cairn_publisher' END);
-    END LOOP;
-    GRANT UPDATE (id) ON TABLE mark, adjustment TO cairn_publisher;
-    FOREACH t IN ARRAY history LOOP
-        EXECUTE format('REVOKE UPDATE, DELETE, TRUNCATE ON TABLE %I FROM %I', t, owner);
-    END LOOP;
-    -- The owner's own row locks on adjustment (publish, discard).
-    EXECUTE format('GRANT UPDATE (id) ON TABLE adjustment TO %I', owner);
-
-    REVOKE ALL ON SEQUENCE mark_id_seq, mark_condition_id_seq, run_id_seq, adjustment_id_seq,
-        height_id_seq, adjustment_event_id_seq, datum_id_seq, run_event_id_seq FROM PUBLIC, cairn_reader, cairn_recorder, cairn_publisher;
-    GRANT SELECT ON SEQUENCE mark_id_seq, mark_condition_id_seq, run_id_seq, adjustment_id_seq,
-        height_id_seq, adjustment_event_id_seq, datum_id_seq, run_event_id_seq TO cairn_reader;
-    GRANT USAGE ON SEQUENCE mark_id_seq, mark_condition_id_seq, run_id_seq, adjustment_id_seq TO cairn_recorder;
-    GRANT USAGE ON SEQUENCE height_id_seq, adjustment_event_id_seq, datum_id_seq, run_event_id_seq TO cairn_publisher;
-
-    -- Functions: a trigger runs its function whoever fires it, so trigger
-    -- functions need no grant; the functions a default or a trigger's
-    -- WHEN calls run with the writer's privileges; the canonical texts of
-    -- a version are for anyone with a role.
-    FOR fn IN SELECT p.oid::regprocedure FROM pg_proc p WHERE p.pronamespace = schema::regnamespace LOOP
-        EXECUTE format('REVOKE ALL ON FUNCTION %s FROM cairn_reader, cairn_recorder, cairn_publisher', fn);
-    END LOOP;
-    GRANT EXECUTE ON FUNCTION height_canonical(bytea, text, text, height), height_canonical_v2(bytea, text, text, height) TO cairn_reader;
-    GRANT EXECUTE ON FUNCTION cairn_write_time(), cairn_commit_first(), cairn_xact() TO cairn_recorder;
-    RETURN missing;
+    EXECUTE d;
 END
 $$;
 -- +goose StatementEnd

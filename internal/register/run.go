@@ -785,14 +785,14 @@ func findMarks(ctx context.Context, tx pgx.Tx, p RecordParams, named []string, f
 			}
 		}
 		// An alias names a mark, but a book names its marks by designation.
-		for _, u := range missing {
-			holder, alias, err := store.AliasHolder(ctx, tx, foldName(u.Designation))
-			switch {
-			case err == nil:
+		held, err := store.AliasHolders(ctx, tx, folded)
+		if err != nil {
+			return nil, nil, fmt.Errorf("look up the aliases among the names of %s: %w", p.Path, err)
+		}
+		for i, u := range missing {
+			if h, ok := held[folded[i]]; ok {
 				return nil, nil, &levelbook.Error{File: p.Path, Line: u.Line, Field: "point",
-					Msg: fmt.Sprintf("%q is an alias of mark %s (%s): a book names its marks by designation; write %s", u.Designation, holder, alias, holder)}
-			case !errors.Is(err, store.ErrNotFound):
-				return nil, nil, err
+					Msg: fmt.Sprintf("%q is an alias of mark %s (%s): a book names its marks by designation; write %s", u.Designation, h.Designation, h.Alias, h.Designation)}
 			}
 		}
 	}

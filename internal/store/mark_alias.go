@@ -63,3 +63,31 @@ func AliasHolder(ctx context.Context, db DBTX, folded string) (designation, alia
 		WHERE lower(normalize(a.alias, NFKC)) = $1`, folded).Scan(&designation, &alias)
 	return designation, alias, translate(err)
 }
+
+// AliasHeld is an alias and the designation of the mark that holds it.
+type AliasHeld struct {
+	Designation string
+	Alias       string
+}
+
+// AliasHolders returns, by folded name, the marks whose alias folds to one
+// of folded: AliasHolder for many names in one statement.
+func AliasHolders(ctx context.Context, db DBTX, folded []string) (map[string]AliasHeld, error) {
+	rows, err := db.Query(ctx, `SELECT lower(normalize(a.alias, NFKC)), m.designation, a.alias
+		FROM mark_alias a JOIN mark m ON m.id = a.mark_id
+		WHERE lower(normalize(a.alias, NFKC)) = ANY ($1::text[])`, folded)
+	if err != nil {
+		return nil, translate(err)
+	}
+	defer rows.Close()
+	held := map[string]AliasHeld{}
+	for rows.Next() {
+		var f string
+		var h AliasHeld
+		if err := rows.Scan(&f, &h.Designation, &h.Alias); err != nil {
+			return nil, translate(err)
+		}
+		held[f] = h
+	}
+	return held, translate(rows.Err())
+}
