@@ -143,7 +143,12 @@ FROM pg_constraint co JOIN rel ON rel.oid = co.conrelid
 UNION ALL
 SELECT 'column', format('column %s.%s.%s', rel.nspname, rel.relname, a.attname),
 	format('%s; not null %s; default %s', format_type(a.atttypid, a.atttypmod), a.attnotnull,
-		coalesce(pg_get_expr(ad.adbin, ad.adrelid), 'none')), false
+		-- created_xid's default carries the register's base in this
+		-- cluster as a constant (migrations/00021): register state, not
+		-- schema; a wrong base shows as rows no commit covers.
+		coalesce(CASE WHEN a.attname = 'created_xid'
+			THEN regexp_replace(pg_get_expr(ad.adbin, ad.adrelid), '^(\(\(\(\(\(pg_current_xact_id\(\)\)::text\)::bigint \+ )[0-9]+(\)\)::text\)::xid8)$', '\1BASE\2')
+			ELSE pg_get_expr(ad.adbin, ad.adrelid) END, 'none')), false
 FROM pg_attribute a JOIN rel ON rel.oid = a.attrelid LEFT JOIN pg_attrdef ad ON ad.adrelid = a.attrelid AND ad.adnum = a.attnum
 WHERE a.attnum > 0 AND NOT a.attisdropped
 UNION ALL
