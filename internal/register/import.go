@@ -62,11 +62,17 @@ type ImportProblem struct {
 func (p ImportProblem) String() string {
 	var b strings.Builder
 	b.WriteString(p.File)
+	// A feature of marks.geojson is named by its number (from 1) and
+	// a property, as a row of a CSV file by its line and field.
+	line, field := " line %d", " field %s"
+	if p.File == MarksGeoJSON {
+		line, field = " feature %d", " property %s"
+	}
 	if p.Line > 0 {
-		fmt.Fprintf(&b, " line %d", p.Line)
+		fmt.Fprintf(&b, line, p.Line)
 	}
 	if p.Field != "" {
-		fmt.Fprintf(&b, " field %s", p.Field)
+		fmt.Fprintf(&b, field, p.Field)
 	}
 	return b.String() + ": " + p.Msg
 }
@@ -122,7 +128,13 @@ func (r *Register) Import(ctx context.Context, p ImportParams) (ImportResult, er
 	errChecked := errors.New("checked")
 	err = r.withTx(ctx, pgx.TxOptions{}, func(tx pgx.Tx) error {
 		for _, name := range present {
-			f, err := r.importFile(ctx, tx, p.Dir, name, by, &problems)
+			importFile := r.importFile
+			if name == MarksGeoJSON {
+				importFile = func(ctx context.Context, tx pgx.Tx, dir, _, by string, problems *[]ImportProblem) (store.ImportFile, error) {
+					return r.importGeoJSON(ctx, tx, dir, by, problems)
+				}
+			}
+			f, err := importFile(ctx, tx, p.Dir, name, by, &problems)
 			if err != nil {
 				return err
 			}
@@ -143,8 +155,15 @@ func (r *Register) Import(ctx context.Context, p ImportParams) (ImportResult, er
 		if err != nil {
 			return err
 		}
+		marksFile := MarksFile
+		if slices.Contains(present, MarksGeoJSON) {
+			marksFile = MarksGeoJSON
+		}
 		for _, s := range staged {
-			problems = append(problems, ImportProblem{File: map[string]string{"mark": MarksFile, "condition": ConditionsFile, "height": HeightsFile}[s.Kind],
+			if s.Kind == "mark" && marksFile == MarksGeoJSON {
+				s.Msg = strings.NewReplacer(" on line ", " as feature ", " of line ", " of feature ", " the designation on line ", " the designation of feature ").Replace(s.Msg)
+			}
+			problems = append(problems, ImportProblem{File: map[string]string{"mark": marksFile, "condition": ConditionsFile, "height": HeightsFile}[s.Kind],
 				Line: s.Line, Field: s.Field, Msg: s.Msg})
 		}
 		if len(problems) > 0 {
@@ -153,7 +172,7 @@ func (r *Register) Import(ctx context.Context, p ImportParams) (ImportResult, er
 		if p.Check {
 			for _, f := range res.Files {
 				switch f.Name {
-				case MarksFile:
+				case MarksFile, MarksGeoJSON:
 					res.Counts.Marks = f.Rows
 				case ConditionsFile:
 					res.Counts.Conditions = f.Rows
@@ -184,7 +203,7 @@ func (r *Register) Import(ctx context.Context, p ImportParams) (ImportResult, er
 }
 
 func sortProblems(ps []ImportProblem) []ImportProblem {
-	order := map[string]int{MarksFile: 0, ConditionsFile: 1, HeightsFile: 2}
+	order := map[string]int{MarksFile: 0, MarksGeoJSON: 0, ConditionsFile: 1, HeightsFile: 2}
 	slices.SortStableFunc(ps, func(a, b ImportProblem) int {
 		if d := order[a.File] - order[b.File]; d != 0 {
 			return d
@@ -211,21 +230,28 @@ func importPresent(dir string, problems *[]ImportProblem) ([]string, error) {
 	for _, e := range entries {
 		n := e.Name()
 		switch {
-		case slices.Contains(importFiles, n):
+		case slices.Contains(importFiles, n), n == MarksGeoJSON:
 			have[n] = true
 		case strings.HasPrefix(n, "."), strings.EqualFold(filepath.Ext(n), ".md"), strings.EqualFold(filepath.Ext(n), ".txt"):
 		default:
-			*problems = append(*problems, ImportProblem{File: n, Msg: "not a file of the layout (marks.csv, conditions.csv, heights.csv; docs/import.md)"})
+			*problems = append(*problems, ImportProblem{File: n, Msg: "not a file of the layout (marks.csv or marks.geojson, conditions.csv, heights.csv; docs/import.md)"})
 		}
 	}
 	var present []string
+	if have[MarksFile] && have[MarksGeoJSON] {
+		*problems = append(*problems, ImportProblem{File: MarksGeoJSON, Msg: "marks.csv is in the folder too: give the marks in the one file or the other, not both"})
+		delete(have, MarksGeoJSON)
+	}
+	if have[MarksGeoJSON] {
+		present = append(present, MarksGeoJSON)
+	}
 	for _, n := range importFiles {
 		if have[n] {
 			present = append(present, n)
 		}
 	}
 	if len(present) == 0 {
-		return nil, inputErr("dir", "%s holds none of marks.csv, conditions.csv, heights.csv (docs/import.md)", dir)
+		return nil, inputErr("dir", "%s holds none of marks.csv, marks.geojson, conditions.csv, heights.csv (docs/import.md)", dir)
 	}
 	return present, nil
 }
