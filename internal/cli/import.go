@@ -3,6 +3,7 @@ package cli
 import (
 	"context"
 	"errors"
+	"fmt"
 
 	"github.com/spf13/cobra"
 
@@ -114,6 +115,11 @@ func exportRun(opts *exportOptions) error {
 	}
 	for _, n := range []string{register.MarksFile, register.ConditionsFile, register.HeightsFile} {
 		opts.f.IO.printf("%s  %d rows\n", n, res.Files[n])
+	}
+	if res.Adjustments > 0 {
+		fmt.Fprintf(opts.f.IO.ErrOut, "warning: heights.csv holds %d height version(s) of kind adjustment, from this register's own adjustments: "+
+			"cairn import refuses them (an adjustment is reproduced from its runs, not copied); to import this export, "+
+			"write each as kind authority citing the publication that gave it, or adjust the runs again in the new register\n", res.Adjustments)
 	}
 	return nil
 }

@@ -17,6 +17,11 @@ import (
 // ExportResult counts the rows written to each file.
 type ExportResult struct {
 	Files map[string]int64
+	// Adjustments counts the height versions from the register's own
+	// adjustments (kind adjustment) in heights.csv: an import refuses
+	// them, so a re-import needs each as an authority, citing its
+	// publication.
+	Adjustments int64
 }
 
 // Export writes the register to dir in the layout of docs/import.md:
@@ -46,7 +51,14 @@ func (r *Register) Export(ctx context.Context, dir string) (ExportResult, error)
 		}{
 			{MarksFile, markHeader, store.ExportMarks, -1},
 			{ConditionsFile, conditionHeader, store.ExportConditions, -1},
-			{HeightsFile, heightHeader, store.ExportHeights, 4},
+			{HeightsFile, heightHeader, func(ctx context.Context, db store.DBTX, w func([]string) error) error {
+				return store.ExportHeights(ctx, db, func(rec []string) error {
+					if rec[2] == KindAdjustment {
+						res.Adjustments++
+					}
+					return w(rec)
+				})
+			}, 4},
 		} {
 			n, err := exportFile(ctx, tx, filepath.Join(dir, f.name), f.header, f.rows, f.unit)
 			if err != nil {
