@@ -25,7 +25,9 @@ func newCmdImport(f *Factory, runF func(*importOptions) error) *cobra.Command {
 		Long: `Import an office's existing register from a folder of CSV files in cairn's
 layout (docs/import.md): marks.csv (marks, aliases, positions), conditions.csv
 (condition reports) and heights.csv (height versions with their in-force
-dates), any of them, each with its header row.
+dates), any of them, each with its header row. The marks may come instead as
+marks.geojson, an RFC 7946 FeatureCollection of Point features whose
+properties are marks.csv's columns ([longitude, latitude]; no altitude).
 
 The import is one transaction: every problem of every file is reported, with
 its file, line and field, and then nothing is written. --check reads and
