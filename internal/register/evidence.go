@@ -56,9 +56,53 @@ type EvidenceReport struct {
 	Breaks       []EvidenceBreak  `json:"breaks"`
 }
 
+// tableSum hashes the rows one commit wrote to one table as
+// cairn_commit_manifest does (migrations/00022): in key order, each row's
+// canonical text and a newline; whole, or cut into pieces of piece rows
+// whose digests are hashed in turn.
 type tableSum struct {
-	rows int64
-	h    hash.Hash
+	piece  int64     // rows in a piece; 0: all the rows are one piece
+	rows   int64     // rows added
+	h      hash.Hash // the piece being hashed
+	pieces []byte    // the 32-byte digests of the pieces done
+}
+
+func newTableSum(piece int64) *tableSum { return &tableSum{piece: piece, h: sha256.New()} }
+
+func (s *tableSum) add(text []byte) {
+	s.h.Write(text)
+	s.h.Write([]byte{'\n'})
+	s.rows++
+	if s.piece > 0 && s.rows%s.piece == 0 {
+		s.pieces = s.h.Sum(s.pieces)
+		s.h.Reset()
+	}
+}
+
+// line is the table's line of the manifest without the table's name:
+// "rows sha256" for at most one piece, "rows pieces-of K sha256" for more.
+func (s *tableSum) line() string {
+	pieces := s.pieces
+	if s.piece == 0 || s.rows%s.piece != 0 {
+		pieces = s.h.Sum(pieces)
+	}
+	if len(pieces) == sha256.Size {
+		return strconv.FormatInt(s.rows, 10) + " " + hex.EncodeToString(pieces)
+	}
+	d := sha256.Sum256(pieces)
+	return strconv.FormatInt(s.rows, 10) + " pieces-of " + strconv.FormatInt(s.piece, 10) + " " + hex.EncodeToString(d[:])
+}
+
+// manifestPiece is the piece size a stored manifest line names ("rows
+// pieces-of K sha256"), or 0 for a line of one piece (and for no line).
+func manifestPiece(line string) int64 {
+	f := strings.Fields(line)
+	if len(f) == 4 && f[1] == "pieces-of" {
+		if k, err := strconv.ParseInt(f[2], 10, 64); err == nil && k > 0 {
+			return k
+		}
+	}
+	return 0
 }
 
 // EvidenceVerify recomputes, from the rows by plain SELECTs in one
@@ -120,7 +164,14 @@ func (r *Register) EvidenceVerify(ctx context.Context, against *Statement) (Evid
 			if d := sha256.Sum256([]byte(c.Manifest)); !bytes.Equal(d[:], c.Digest) {
 				brk("", "the manifest does not match the digest")
 			}
-			// The rows.
+			// The rows, each table hashed in the form its stored line
+			// names: a line rewritten to another form breaks the digest.
+			stored := map[string]string{}
+			for _, l := range strings.Split(strings.TrimSuffix(c.Manifest, "\n"), "\n") {
+				if t, rest, ok := strings.Cut(l, " "); ok {
+					stored[t] = rest
+				}
+			}
 			sums := map[string]*tableSum{}
 			var order []string
 			err := store.EvidenceRows(ctx, tx, c.Xid, c.Seq == 0 && c.Xid == 0, func(table string, text []byte) error {
@@ -129,13 +180,11 @@ func (r *Register) EvidenceVerify(ctx context.Context, against *Statement) (Evid
 				}
 				s := sums[table]
 				if s == nil {
-					s = &tableSum{h: sha256.New()}
+					s = newTableSum(manifestPiece(stored[table]))
 					sums[table] = s
 					order = append(order, table)
 				}
-				s.rows++
-				s.h.Write(text)
-				s.h.Write([]byte{'\n'})
+				s.add(text)
 				return nil
 			})
 			if err != nil {
@@ -144,16 +193,10 @@ func (r *Register) EvidenceVerify(ctx context.Context, against *Statement) (Evid
 			var man strings.Builder
 			got := map[string]string{}
 			for _, t := range order {
-				line := fmt.Sprintf("%d %s", sums[t].rows, hex.EncodeToString(sums[t].h.Sum(nil)))
+				line := sums[t].line()
 				got[t] = line
 				fmt.Fprintf(&man, "%s %s\n", t, line)
 				rep.Rows[t] += sums[t].rows
-			}
-			stored := map[string]string{}
-			for _, l := range strings.Split(strings.TrimSuffix(c.Manifest, "\n"), "\n") {
-				if t, rest, ok := strings.Cut(l, " "); ok {
-					stored[t] = rest
-				}
 			}
 			for _, t := range store.EvidenceTables {
 				g, s := got[t.Name], stored[t.Name]

@@ -1,7 +1,13 @@
 package register_test
 
 import (
+	"crypto/sha256"
+	"encoding/hex"
+	"fmt"
+	"strings"
 	"testing"
+
+	"github.com/jackc/pgx/v5/pgxpool"
 
 	"cairn/internal/booktest"
 	"cairn/internal/register"
@@ -135,5 +141,108 @@ func BenchmarkEvidenceVerify20k(b *testing.B) {
 		if err != nil || len(rep.Breaks) != 0 {
 			b.Fatal(err, rep.Breaks)
 		}
+	}
+}
+
+// A commit's manifest hashed in pieces (migrations/00022): with pieces of
+// 4 rows (cairn.manifest_piece_rows, set for the recording session), a
+// run of 20 setups and new marks writes more than one piece of marks and
+// sightings. Each such line is "rows pieces-of 4 sha256", whose digest
+// this test recomputes by the documented rule with crypto/sha256
+// (SHA-256, FIPS 180-4): the rows' canonical texts in key order, a
+// newline after each, cut every 4 rows, each piece hashed, the pieces'
+// 32-byte digests hashed in order. A table of at most one piece keeps the
+// form of v21 (the digest of all its rows' text). The audit verifies
+// both forms, and still finds a row edited in the second piece.
+func TestEvidenceManifestInPieces(t *testing.T) {
+	t.Parallel()
+	b := registertest.Setup(t)
+	cfg, err := pgxpool.ParseConfig(b.DB.URL)
+	if err != nil {
+		t.Fatal(err)
+	}
+	cfg.ConnConfig.RuntimeParams["cairn.manifest_piece_rows"] = "4"
+	pool, err := pgxpool.NewWithConfig(b.Ctx, cfg)
+	if err != nil {
+		t.Fatal(err)
+	}
+	defer pool.Close()
+	pieced := &registertest.Bundle{Ctx: b.Ctx, DB: b.DB, Reg: register.New(pool)}
+	pieced.Datum(t, registertest.DatumOpts{})
+	rec := pieced.Run(t, registertest.RunOpts{Book: booktest.Loop{Setups: 20, MarkEvery: 2, Seed: 3}.Book(), NewMarks: true})
+
+	var manifest string
+	if err := b.DB.Pool.QueryRow(b.Ctx, `SELECT c.manifest FROM register_commit c JOIN run r ON r.created_xid = c.xid WHERE r.id = $1`, rec.Run.ID).Scan(&manifest); err != nil {
+		t.Fatal(err)
+	}
+	lines := map[string]string{}
+	for _, l := range strings.Split(strings.TrimSuffix(manifest, "\n"), "\n") {
+		name, rest, _ := strings.Cut(l, " ")
+		lines[name] = rest
+	}
+	keys := map[string]string{}
+	for _, e := range store.EvidenceTables {
+		keys[e.Name] = e.Key
+	}
+	piecedTables := 0
+	for name, line := range lines {
+		rows, err := b.DB.Pool.Query(b.Ctx, fmt.Sprintf(`SELECT (to_jsonb(r) - 'created_xid'
+			- CASE WHEN %[1]s = 'height' AND (to_jsonb(r) ->> 'in_force_from') IS NULL THEN 'in_force_from' ELSE '' END
+			- CASE WHEN %[1]s = 'run' AND (to_jsonb(r) ->> 'standards_profile') IS NULL THEN '{standards_profile,standards_version,standards_source,standards_file}'::text[]
+			       WHEN %[1]s = 'run' AND (to_jsonb(r) ->> 'standards_file') IS NULL THEN '{standards_file}'::text[] ELSE '{}'::text[] END)::text
+			FROM public.%[2]s r WHERE created_xid = (SELECT created_xid FROM run WHERE id = $1) ORDER BY %[3]s`, "'"+name+"'", name, keys[name]), rec.Run.ID)
+		if err != nil {
+			t.Fatal(err)
+		}
+		var texts []string
+		for rows.Next() {
+			var s string
+			rows.Scan(&s)
+			texts = append(texts, s)
+		}
+		rows.Close()
+		var want string
+		if len(texts) <= 4 {
+			h := sha256.Sum256([]byte(strings.Join(texts, "\n") + "\n"))
+			want = fmt.Sprintf("%d %s", len(texts), hex.EncodeToString(h[:]))
+		} else {
+			piecedTables++
+			var digests []byte
+			for i := 0; i < len(texts); i += 4 {
+				h := sha256.Sum256([]byte(strings.Join(texts[i:min(i+4, len(texts))], "\n") + "\n"))
+				digests = append(digests, h[:]...)
+			}
+			h := sha256.Sum256(digests)
+			want = fmt.Sprintf("%d pieces-of 4 %s", len(texts), hex.EncodeToString(h[:]))
+		}
+		if line != want {
+			t.Errorf("manifest line of %s:\n got %s\nwant %s", name, line, want)
+		}
+	}
+	if piecedTables < 2 || !strings.Contains(lines["sighting"], "pieces-of 4") || !strings.Contains(lines["mark"], "pieces-of 4") {
+		t.Fatalf("the run's commit has %d tables in pieces; want mark and sighting among them:\n%s", piecedTables, manifest)
+	}
+	if rep, err := b.Reg.EvidenceVerify(b.Ctx, nil); err != nil || len(rep.Breaks) != 0 {
+		t.Fatalf("untouched register: %v %+v", err, rep.Breaks)
+	}
+
+	// A sighting of the second piece edited behind the register's back.
+	tx, err := b.DB.Pool.Begin(b.Ctx)
+	if err != nil {
+		t.Fatal(err)
+	}
+	tx.Exec(b.Ctx, "SET LOCAL session_replication_role = replica")
+	if tag, err := tx.Exec(b.Ctx, `UPDATE sighting SET recorded_role = 'someone' WHERE run_id = $1 AND seq = (SELECT seq FROM sighting WHERE run_id = $1 ORDER BY seq OFFSET 5 LIMIT 1)`, rec.Run.ID); err != nil || tag.RowsAffected() != 1 {
+		t.Fatal(tag, err)
+	}
+	if err := tx.Commit(b.Ctx); err != nil {
+		t.Fatal(err)
+	}
+	rep, err := b.Reg.EvidenceVerify(b.Ctx, nil)
+	if err != nil {
+		t.Fatal(err)
+	}
+	if len(rep.Breaks) != 1 || rep.Breaks[0].Table != "sighting" {
+		t.Errorf("a sighting of the second piece edited: breaks %+v, want one, of sighting", rep.Breaks)
 	}
 }
