@@ -4,6 +4,7 @@ import (
 	"context"
 	"errors"
 	"fmt"
+	"strings"
 
 	"github.com/spf13/cobra"
 
@@ -23,11 +24,16 @@ func newCmdImport(f *Factory, runF func(*importOptions) error) *cobra.Command {
 		Use:   "import DIR [--check]",
 		Short: "Import an existing register from CSV files",
 		Long: `Import an office's existing register from a folder of CSV files in cairn's
-layout (docs/import.md): marks.csv (marks, aliases, positions), conditions.csv
-(condition reports) and heights.csv (height versions with their in-force
-dates), any of them, each with its header row. The marks may come instead as
-marks.geojson, an RFC 7946 FeatureCollection of Point features whose
-properties are marks.csv's columns ([longitude, latitude]; no altitude).
+layout (docs/import.md), any of them, each with its header row:
+  marks.csv         marks, aliases, positions, retirements
+  descriptions.csv  later versions of the marks' descriptions, in order
+  aliases.csv       other names of marks, with agency, note and who
+  conditions.csv    condition reports (ref names a report for photos.csv)
+  photos.csv        photographs of the reports, files in the folder photos
+  heights.csv       height versions with their in-force dates
+The marks may come instead as marks.geojson, an RFC 7946 FeatureCollection
+of Point features whose properties are marks.csv's columns ([longitude,
+latitude]; no altitude).
 
 The import is one transaction: every problem of every file is reported, with
 its file, line and field, and then nothing is written. --check reads and
@@ -68,9 +74,13 @@ func importRun(opts *importOptions) error {
 			opts.params.Dir, c.Marks, c.Conditions, c.Heights)
 		return nil
 	}
-	opts.f.IO.printf("import %d: %d marks (%d with a description, %d retired), %d aliases, %d condition reports, %d height versions\n",
-		res.EventID, c.Marks, c.Versions, c.Retirements, c.Aliases, c.Conditions, c.Heights)
+	opts.f.IO.printf("import %d: %d marks (%d description versions, %d retired), %d aliases, %d condition reports, %d photographs, %d height versions\n",
+		res.EventID, c.Marks, c.Versions, c.Retirements, c.Aliases, c.Conditions, c.Photos, c.Heights)
 	for _, f := range res.Files {
+		if strings.HasPrefix(f.Name, register.PhotosDir+"/") {
+			opts.f.IO.printf("  %s  sha256 %s\n", f.Name, f.SHA256)
+			continue
+		}
 		opts.f.IO.printf("  %s  %d rows  sha256 %s\n", f.Name, f.Rows, f.SHA256)
 	}
 	return nil
@@ -89,11 +99,16 @@ func newCmdExport(f *Factory, runF func(*exportOptions) error) *cobra.Command {
 		Use:   "export --out DIR",
 		Short: "Export the register as CSV files in the import layout",
 		Long: `Write the register to the folder DIR in the layout cairn import reads
-(docs/import.md): marks.csv with each mark's current description and aliases,
-conditions.csv with every condition report, heights.csv with every height
-version in recorded order and its in-force date. An export imported into an
-empty register (with the same datums) gives the same register. DIR is made if
-needed; files already there are never overwritten.`,
+(docs/import.md): marks.csv with each mark as first recorded and its
+retirement, descriptions.csv with every later version of a description,
+aliases.csv, conditions.csv with every condition report, photos.csv and the
+folder photos with every photograph (each file named by its SHA-256),
+heights.csv with every height version in recorded order and its in-force
+date. An export imported into an empty register (with the same datums) gives
+the same register, row for row. Runs and adjustments are not in the layout
+(backup keeps the whole record); heights of kind adjustment are written but
+an import refuses them (a warning says how many). DIR is made if needed;
+files already there are never overwritten.`,
 		Example: `  cairn export --out register-2026`,
 		Args:    exactArgs(0, "no arguments (the folder is --out)"),
 		RunE:    runE(&opts.ctx, opts, runF, exportRun),
@@ -115,7 +130,7 @@ func exportRun(opts *exportOptions) error {
 	if err != nil {
 		return err
 	}
-	for _, n := range []string{register.MarksFile, register.ConditionsFile, register.HeightsFile} {
+	for _, n := range []string{register.MarksFile, register.DescriptionsFile, register.AliasesFile, register.ConditionsFile, register.PhotosFile, register.HeightsFile} {
 		opts.f.IO.printf("%s  %d rows\n", n, res.Files[n])
 	}
 	if res.Adjustments > 0 {

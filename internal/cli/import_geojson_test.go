@@ -46,7 +46,7 @@ func geojsonDir(t *testing.T, edits ...[2]string) string {
 
 // TestImportGeoJSON: the marks given as a FeatureCollection of Points
 // (RFC 7946 section 3.3) are imported as marks.csv's rows are: the export
-// of the register is byte for byte the sample's CSV files. The position
+// of the register is byte for byte the export of the sample's CSV files. The position
 // [-104.8211, 39.4127] is longitude first (RFC 7946 section 3.1.1), so
 // marks.csv's lat is 39.4127; a null geometry (section 3.2, an unlocated
 // feature) is a mark without a position (TC-0103).
@@ -68,7 +68,7 @@ func TestImportGeoJSON(t *testing.T) {
 		"mark_condition": 5, "height": 9, "import_event": 1, "register_commit": 1})
 	exp := filepath.Join(t.TempDir(), "exp")
 	mustBin(t, db, ExitOK, "export", "--out", exp)
-	sameFiles(t, importSample, exp)
+	sameFiles(t, importExported, exp)
 	mustBin(t, db, ExitOK, "audit", "verify")
 }
 

@@ -25,29 +25,51 @@ import (
 	"cairn/internal/units"
 )
 
-// The files of an import or an export, one per kind of row (docs/import.md).
+// The files of an import or an export, one per kind of row, and the
+// folder of photographs (docs/import.md).
 const (
-	MarksFile      = "marks.csv"
-	ConditionsFile = "conditions.csv"
-	HeightsFile    = "heights.csv"
+	MarksFile        = "marks.csv"
+	DescriptionsFile = "descriptions.csv"
+	AliasesFile      = "aliases.csv"
+	ConditionsFile   = "conditions.csv"
+	PhotosFile       = "photos.csv"
+	HeightsFile      = "heights.csv"
+	PhotosDir        = "photos"
 )
 
-// importFiles are the files of the layout in the order they are read: a
-// condition report or a height may name a mark of the marks file.
-var importFiles = []string{MarksFile, ConditionsFile, HeightsFile}
+// importFiles are the files of the layout in the order they are read: the
+// other files may name a mark of the marks file, photos.csv a report of
+// conditions.csv.
+var importFiles = []string{MarksFile, DescriptionsFile, AliasesFile, ConditionsFile, PhotosFile, HeightsFile}
 
-// The columns of each file, in the order export writes them. A column
-// marked required must be in the header; the others may be left out.
+// The columns of each file. A column marked required must be in the
+// header; the others may be left out. Export writes the columns of
+// exportHeaders: the marks file without the columns that only an import
+// by hand needs (aliases, description, position_source: export writes
+// those rows in aliases.csv and descriptions.csv).
 var (
 	markHeader = []string{"designation", "aliases", "type", "setting", "stamping", "directions", "description", "lat", "lon", "position_source", "by",
-		"retired_on", "retired_reason", "replaced_by"}
-	conditionHeader = []string{"mark", "observed_on", "condition", "note", "by"}
-	heightHeader    = []string{"mark", "datum", "kind", "value", "unit", "decimals", "class", "in_force_from", "source", "reason", "by"}
+		"retired_on", "retired_reason", "retired_by", "replaced_by"}
+	descriptionHeader = []string{"mark", "type", "setting", "stamping", "directions", "description", "lat", "lon", "position_source", "reason", "by"}
+	aliasHeader       = []string{"mark", "alias", "kind", "agency", "note", "by"}
+	conditionHeader   = []string{"ref", "mark", "observed_on", "condition", "note", "by"}
+	photoHeader       = []string{"condition", "view", "file", "file_name", "by"}
+	heightHeader      = []string{"mark", "datum", "kind", "value", "unit", "decimals", "class", "in_force_from", "source", "reason", "by"}
+	fileHeaders       = map[string][]string{MarksFile: markHeader, DescriptionsFile: descriptionHeader, AliasesFile: aliasHeader,
+		ConditionsFile: conditionHeader, PhotosFile: photoHeader, HeightsFile: heightHeader}
+	exportMarkHeader = []string{"designation", "type", "setting", "stamping", "directions", "lat", "lon", "by",
+		"retired_on", "retired_reason", "retired_by", "replaced_by"}
 	requiredColumns = map[string][]string{
-		MarksFile:      {"designation"},
-		ConditionsFile: {"mark", "observed_on", "condition"},
-		HeightsFile:    {"mark", "datum", "value", "in_force_from", "reason"},
+		MarksFile:        {"designation"},
+		DescriptionsFile: {"mark", "reason"},
+		AliasesFile:      {"mark", "alias", "kind"},
+		ConditionsFile:   {"mark", "observed_on", "condition"},
+		PhotosFile:       {"condition", "view", "file"},
+		HeightsFile:      {"mark", "datum", "value", "in_force_from", "reason"},
 	}
+	// stageFiles names the file of each kind of staged row.
+	stageFiles = map[string]string{"mark": MarksFile, "description": DescriptionsFile, "alias": AliasesFile,
+		"condition": ConditionsFile, "photo": PhotosFile, "height": HeightsFile}
 )
 
 // ImportProblem is one problem of an import's files: the file, the line
@@ -127,20 +149,28 @@ func (r *Register) Import(ctx context.Context, p ImportParams) (ImportResult, er
 	}
 	errChecked := errors.New("checked")
 	err = r.withTx(ctx, pgx.TxOptions{}, func(tx pgx.Tx) error {
+		photos := &photoFiles{named: map[string]bool{}}
 		for _, name := range present {
-			importFile := r.importFile
+			var f store.ImportFile
+			var err error
 			if name == MarksGeoJSON {
-				importFile = func(ctx context.Context, tx pgx.Tx, dir, _, by string, problems *[]ImportProblem) (store.ImportFile, error) {
-					return r.importGeoJSON(ctx, tx, dir, by, problems)
-				}
+				f, err = r.importGeoJSON(ctx, tx, p.Dir, by, &problems)
+			} else {
+				f, err = r.importFile(ctx, tx, p.Dir, name, by, photos, &problems)
 			}
-			f, err := importFile(ctx, tx, p.Dir, name, by, &problems)
 			if err != nil {
 				return err
 			}
 			res.Files = append(res.Files, f)
 		}
+		res.Files = append(res.Files, photos.files...)
+		photos.unnamed(p.Dir, &problems)
 		for _, f := range res.Files {
+			if strings.HasPrefix(f.Name, PhotosDir+"/") {
+				// A photograph is one file of its report, not a file of
+				// rows: the same picture may be kept with two reports.
+				continue
+			}
 			e, err := store.ImportEventWithFile(ctx, tx, f.SHA256)
 			if errors.Is(err, store.ErrNotFound) {
 				continue
@@ -163,8 +193,11 @@ func (r *Register) Import(ctx context.Context, p ImportParams) (ImportResult, er
 			if s.Kind == "mark" && marksFile == MarksGeoJSON {
 				s.Msg = strings.NewReplacer(" on line ", " as feature ", " of line ", " of feature ", " the designation on line ", " the designation of feature ").Replace(s.Msg)
 			}
-			problems = append(problems, ImportProblem{File: map[string]string{"mark": marksFile, "condition": ConditionsFile, "height": HeightsFile}[s.Kind],
-				Line: s.Line, Field: s.Field, Msg: s.Msg})
+			file := stageFiles[s.Kind]
+			if s.Kind == "mark" {
+				file = marksFile
+			}
+			problems = append(problems, ImportProblem{File: file, Line: s.Line, Field: s.Field, Msg: s.Msg})
 		}
 		if len(problems) > 0 {
 			return &ImportError{Problems: sortProblems(problems)}
@@ -174,8 +207,14 @@ func (r *Register) Import(ctx context.Context, p ImportParams) (ImportResult, er
 				switch f.Name {
 				case MarksFile, MarksGeoJSON:
 					res.Counts.Marks = f.Rows
+				case DescriptionsFile:
+					res.Counts.Versions = f.Rows
+				case AliasesFile:
+					res.Counts.Aliases = f.Rows
 				case ConditionsFile:
 					res.Counts.Conditions = f.Rows
+				case PhotosFile:
+					res.Counts.Photos = f.Rows
 				case HeightsFile:
 					res.Counts.Heights = f.Rows
 				}
@@ -190,7 +229,7 @@ func (r *Register) Import(ctx context.Context, p ImportParams) (ImportResult, er
 		if err != nil {
 			return err
 		}
-		res.Counts, err = store.StageApply(ctx, tx, fmt.Sprintf("imported (import %d)", res.EventID))
+		res.Counts, err = store.StageApply(ctx, tx, res.EventID, fmt.Sprintf("imported (import %d)", res.EventID))
 		return err
 	})
 	if errors.Is(err, errChecked) {
@@ -203,7 +242,15 @@ func (r *Register) Import(ctx context.Context, p ImportParams) (ImportResult, er
 }
 
 func sortProblems(ps []ImportProblem) []ImportProblem {
-	order := map[string]int{MarksFile: 0, MarksGeoJSON: 0, ConditionsFile: 1, HeightsFile: 2}
+	order := map[string]int{MarksGeoJSON: 0}
+	for i, n := range importFiles {
+		order[n] = i
+	}
+	for _, p := range ps {
+		if _, ok := order[p.File]; !ok {
+			order[p.File] = len(importFiles) // a photograph, or a file not of the layout
+		}
+	}
 	slices.SortStableFunc(ps, func(a, b ImportProblem) int {
 		if d := order[a.File] - order[b.File]; d != 0 {
 			return d
@@ -232,9 +279,11 @@ func importPresent(dir string, problems *[]ImportProblem) ([]string, error) {
 		switch {
 		case slices.Contains(importFiles, n), n == MarksGeoJSON:
 			have[n] = true
+		case n == PhotosDir && e.IsDir():
+			// Read with photos.csv, which names each file in it.
 		case strings.HasPrefix(n, "."), strings.EqualFold(filepath.Ext(n), ".md"), strings.EqualFold(filepath.Ext(n), ".txt"):
 		default:
-			*problems = append(*problems, ImportProblem{File: n, Msg: "not a file of the layout (marks.csv or marks.geojson, conditions.csv, heights.csv; docs/import.md)"})
+			*problems = append(*problems, ImportProblem{File: n, Msg: "not a file of the layout (marks.csv or marks.geojson, descriptions.csv, aliases.csv, conditions.csv, photos.csv and the folder photos, heights.csv; docs/import.md)"})
 		}
 	}
 	var present []string
@@ -251,7 +300,7 @@ func importPresent(dir string, problems *[]ImportProblem) ([]string, error) {
 		}
 	}
 	if len(present) == 0 {
-		return nil, inputErr("dir", "%s holds none of marks.csv, marks.geojson, conditions.csv, heights.csv (docs/import.md)", dir)
+		return nil, inputErr("dir", "%s holds none of the files of the layout: marks.csv, marks.geojson, descriptions.csv, aliases.csv, conditions.csv, photos.csv, heights.csv (docs/import.md)", dir)
 	}
 	return present, nil
 }
@@ -458,9 +507,9 @@ func ExportUnit(u string) string {
 var errStop = errors.New("stop")
 
 // importFile streams one file into its staging table, checking each row.
-func (r *Register) importFile(ctx context.Context, tx pgx.Tx, dir, name, by string, problems *[]ImportProblem) (store.ImportFile, error) {
-	cols := map[string][]string{MarksFile: markHeader, ConditionsFile: conditionHeader, HeightsFile: heightHeader}[name]
-	f, closer, err := openCSV(dir, name, cols, problems)
+// photos collects the photographs photos.csv names.
+func (r *Register) importFile(ctx context.Context, tx pgx.Tx, dir, name, by string, photos *photoFiles, problems *[]ImportProblem) (store.ImportFile, error) {
+	f, closer, err := openCSV(dir, name, fileHeaders[name], problems)
 	if err != nil {
 		return store.ImportFile{}, err
 	}
@@ -471,11 +520,18 @@ func (r *Register) importFile(ctx context.Context, tx pgx.Tx, dir, name, by stri
 	var row func(line int64, get func(string) string) []any
 	var table string
 	var columns []string
+	latest := LatestToday(time.Now())
 	switch name {
 	case MarksFile:
-		table, columns, row = "mark", store.StageMarkColumns, f.markRow(by, LatestToday(time.Now()))
+		table, columns, row = "mark", store.StageMarkColumns, f.markRow(by, latest)
+	case DescriptionsFile:
+		table, columns, row = "description", store.StageDescriptionColumns, f.descriptionRow(by)
+	case AliasesFile:
+		table, columns, row = "alias", store.StageAliasColumns, f.aliasRow(by)
 	case ConditionsFile:
-		table, columns, row = "condition", store.StageConditionColumns, f.conditionRow(by, LatestToday(time.Now()))
+		table, columns, row = "condition", store.StageConditionColumns, f.conditionRow(by, latest)
+	case PhotosFile:
+		table, columns, row = "photo", store.StagePhotoColumns, f.photoRow(dir, by, photos)
 	default:
 		table, columns, row = "height", store.StageHeightColumns, f.heightRow(by)
 	}
@@ -522,40 +578,21 @@ func (f *csvFile) markRow(by string, latest time.Time) func(int64, func(string) 
 				switch {
 				case !ok:
 					f.problem(line, "aliases", "%q: write each alias KIND:ALIAS (former:, stamped:, agency=NAME:), separated by ;", a)
-				case kind != "former" && kind != "stamped" && kind != "agency":
-					f.problem(line, "aliases", "%q: the kind of an alias is former, stamped or agency=NAME", a)
-				case (kind == "agency") != (agency != ""):
-					f.problem(line, "aliases", "%q: an agency's number names the agency (agency=NAME:ALIAS), and only it", a)
-				case !aliasPattern.MatchString(alias) || strings.Contains(alias, "  ") || strings.HasSuffix(alias, " "):
-					f.problem(line, "aliases", "%q is not an alias: letters, digits, single spaces and . _ / # -, at most 64", alias)
+				case kind == "agency" && agency == "":
+					f.problem(line, "aliases", "%q: an agency's number names the agency (agency=NAME:ALIAS)", a)
 				default:
+					if msg := aliasProblem(kind, agency, alias); msg != "" {
+						if strings.HasPrefix(msg, "the kind") {
+							msg += "=NAME"
+						}
+						f.problem(line, "aliases", "%q: %s", a, msg)
+						continue
+					}
 					aliases, kinds, agencies = append(aliases, alias), append(kinds, kind), append(agencies, agency)
 				}
 			}
 		}
-		var lat, lon *float64
-		for _, c := range []struct {
-			name  string
-			dst   **float64
-			limit float64
-		}{{"lat", &lat, 90}, {"lon", &lon, 180}} {
-			s := get(c.name)
-			if s == "" {
-				continue
-			}
-			v, err := strconv.ParseFloat(s, 64)
-			switch {
-			case err != nil:
-				f.problem(line, c.name, "%q is not a number of decimal degrees", s)
-			case v < -c.limit || v > c.limit:
-				f.problem(line, c.name, "%s is outside -%g to %g degrees", s, c.limit, c.limit)
-			default:
-				*c.dst = &v
-			}
-		}
-		if (get("lat") == "") != (get("lon") == "") {
-			f.problem(line, "lat", "give lat and lon together, or neither")
-		}
+		lat, lon := f.position(line, get)
 		var retired *time.Time
 		reason, repl := get("retired_reason"), names.Normal(get("replaced_by"))
 		if s := get("retired_on"); s != "" {
@@ -590,7 +627,177 @@ func (f *csvFile) markRow(by string, latest time.Time) func(int64, func(string) 
 		// it too; the import is refused for its problem.
 		return []any{line, des, names.Fold(des), aliases, kinds, agencies, get("type"), get("setting"), get("stamping"),
 			get("directions"), get("description"), lat, lon, get("position_source"), orBy(get("by"), by),
-			retired, reason, repl, replFolded}
+			retired, reason, get("retired_by"), repl, replFolded}
+	}
+}
+
+// aliasProblem says what is wrong with an alias of kind (and agency), or "".
+func aliasProblem(kind, agency, alias string) string {
+	switch {
+	case kind != "former" && kind != "stamped" && kind != "agency":
+		return "the kind of an alias is former, stamped or agency"
+	case (kind == "agency") != (agency != ""):
+		return "an agency's number names the agency, and only it"
+	case !aliasPattern.MatchString(alias) || strings.Contains(alias, "  ") || strings.HasSuffix(alias, " "):
+		return fmt.Sprintf("%q is not an alias: letters, digits, single spaces and . _ / # -, at most 64", alias)
+	}
+	return ""
+}
+
+// position reads a row's lat and lon: both or neither, in range.
+func (f *csvFile) position(line int64, get func(string) string) (lat, lon *float64) {
+	for _, c := range []struct {
+		name  string
+		dst   **float64
+		limit float64
+	}{{"lat", &lat, 90}, {"lon", &lon, 180}} {
+		s := get(c.name)
+		if s == "" {
+			continue
+		}
+		v, err := strconv.ParseFloat(s, 64)
+		switch {
+		case err != nil:
+			f.problem(line, c.name, "%q is not a number of decimal degrees", s)
+		case v < -c.limit || v > c.limit:
+			f.problem(line, c.name, "%s is outside -%g to %g degrees", s, c.limit, c.limit)
+		default:
+			*c.dst = &v
+		}
+	}
+	if (get("lat") == "") != (get("lon") == "") {
+		f.problem(line, "lat", "give lat and lon together, or neither")
+		return nil, nil
+	}
+	return lat, lon
+}
+
+// descriptionRow reads a later version of a mark's description, whole (a
+// version holds every descriptive field, not only those that changed).
+func (f *csvFile) descriptionRow(by string) func(int64, func(string) string) []any {
+	return func(line int64, get func(string) string) []any {
+		bad := len(*f.problems)
+		mark := names.Normal(get("mark"))
+		if mark == "" {
+			f.problem(line, "mark", "no mark named")
+		}
+		if get("reason") == "" {
+			f.problem(line, "reason", "say why the description changed")
+		}
+		lat, lon := f.position(line, get)
+		if len(*f.problems) > bad {
+			return nil
+		}
+		return []any{line, mark, names.Fold(mark), get("type"), get("setting"), get("stamping"), get("directions"), get("description"),
+			lat, lon, get("position_source"), get("reason"), orBy(get("by"), by)}
+	}
+}
+
+// aliasRow reads an alias of aliases.csv.
+func (f *csvFile) aliasRow(by string) func(int64, func(string) string) []any {
+	return func(line int64, get func(string) string) []any {
+		bad := len(*f.problems)
+		mark := names.Normal(get("mark"))
+		if mark == "" {
+			f.problem(line, "mark", "no mark named")
+		}
+		kind, agency, alias := get("kind"), get("agency"), get("alias")
+		switch {
+		case kind != "former" && kind != "stamped" && kind != "agency":
+			f.problem(line, "kind", "%q: the kind of an alias is former, stamped or agency", kind)
+		case (kind == "agency") != (agency != ""):
+			f.problem(line, "agency", "an agency's number names the agency, and only it")
+		default:
+			if msg := aliasProblem(kind, agency, alias); msg != "" {
+				f.problem(line, "alias", "%s", msg)
+			}
+		}
+		if len(*f.problems) > bad {
+			return nil
+		}
+		return []any{line, mark, names.Fold(mark), alias, names.Fold(alias), kind, agency, get("note"), orBy(get("by"), by)}
+	}
+}
+
+// photoFiles are the photographs photos.csv names, as files of the import.
+type photoFiles struct {
+	named map[string]bool // by path in the folder, slash-separated
+	files []store.ImportFile
+}
+
+// unnamed adds a problem for each file in the folder photos that
+// photos.csv does not name: a photograph is never silently left behind.
+func (p *photoFiles) unnamed(dir string, problems *[]ImportProblem) {
+	entries, err := os.ReadDir(filepath.Join(dir, PhotosDir))
+	if err != nil {
+		return
+	}
+	for _, e := range entries {
+		n := PhotosDir + "/" + e.Name()
+		if !p.named[n] && !strings.HasPrefix(e.Name(), ".") {
+			*problems = append(*problems, ImportProblem{File: n, Msg: "photos.csv names no such file: list it there with its report, or take it out of the folder"})
+		}
+	}
+}
+
+var sha256Name = regexp.MustCompile(`^[0-9a-f]{64}$`)
+
+// photoRow reads a photograph of photos.csv and its file, one at a time:
+// a JPEG or PNG of at most store.PhotoMaxBytes under the folder photos. A
+// file named by a SHA-256 (as export names them) must have it.
+func (f *csvFile) photoRow(dir, by string, photos *photoFiles) func(int64, func(string) string) []any {
+	return func(line int64, get func(string) string) []any {
+		bad := len(*f.problems)
+		ref := get("condition")
+		if ref == "" {
+			f.problem(line, "condition", "no condition report named (its ref in conditions.csv)")
+		}
+		rel := get("file")
+		clean := filepath.ToSlash(filepath.Clean(filepath.FromSlash(rel)))
+		switch {
+		case rel == "":
+			f.problem(line, "file", "no file named")
+		case filepath.IsAbs(rel) || !strings.HasPrefix(clean, PhotosDir+"/") || strings.Contains(clean[len(PhotosDir)+1:], "/"):
+			f.problem(line, "file", "%q: a photograph is a file in the folder photos beside photos.csv (photos/NAME)", rel)
+		}
+		if len(*f.problems) > bad {
+			return nil
+		}
+		photos.named[clean] = true
+		content, err := os.ReadFile(filepath.Join(dir, filepath.FromSlash(clean)))
+		if err != nil {
+			f.problem(line, "file", "%v", err)
+			return nil
+		}
+		sum := sha256.Sum256(content)
+		hexSum := hex.EncodeToString(sum[:])
+		if stem := strings.TrimSuffix(filepath.Base(clean), filepath.Ext(clean)); sha256Name.MatchString(stem) && stem != hexSum {
+			f.problem(line, "file", "%s is named by a SHA-256 that is not its own (%s): the file is not the one exported", clean, hexSum)
+			return nil
+		}
+		name := get("file_name")
+		if name == "" {
+			name = filepath.Base(clean)
+		}
+		ph := PhotoFile{View: get("view"), Name: clean, Content: content}
+		media, err := ph.check()
+		var ie *InputError
+		if errors.As(err, &ie) {
+			field := "file"
+			if strings.Contains(ie.Msg, "unknown view") {
+				field = "view"
+			}
+			f.problem(line, field, "%s", ie.Msg)
+			return nil
+		}
+		if err != nil {
+			f.problem(line, "file", "%v", err)
+			return nil
+		}
+		if !slices.ContainsFunc(photos.files, func(f store.ImportFile) bool { return f.Name == clean }) {
+			photos.files = append(photos.files, store.ImportFile{Name: clean, SHA256: hexSum, Rows: 1})
+		}
+		return []any{line, ref, ph.View, media, name, content, sum[:], orBy(get("by"), by)}
 	}
 }
 
@@ -611,10 +818,14 @@ func (f *csvFile) conditionRow(by string, latest time.Time) func(int64, func(str
 		if !slices.Contains(Conditions, cond) {
 			f.problem(line, "condition", "%q is not a condition (%s)", cond, strings.Join(Conditions, ", "))
 		}
+		ref := get("ref")
+		if len(ref) > 64 {
+			f.problem(line, "ref", "a ref of %d characters: at most 64", len(ref))
+		}
 		if len(*f.problems) > bad {
 			return nil
 		}
-		return []any{line, mark, names.Fold(mark), on, cond, get("note"), orBy(get("by"), by)}
+		return []any{line, mark, names.Fold(mark), on, cond, get("note"), orBy(get("by"), by), ref}
 	}
 }
 

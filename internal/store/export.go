@@ -6,22 +6,23 @@ import (
 )
 
 // The queries of an export (docs/import.md): each row as the text of its
-// columns, in the order of the layout's header, NULL as "".
+// columns, in the order of the layout's export header, NULL as "".
 const (
-	exportMarksSQL = `SELECT m.designation,
-	coalesce((SELECT string_agg(a.kind || CASE WHEN a.kind = 'agency' THEN '=' || a.agency ELSE '' END || ':' || a.alias, ';' ORDER BY a.id)
-	            FROM mark_alias a WHERE a.mark_id = m.id), ''),
-	coalesce(v.mark_type, m.mark_type), coalesce(v.setting, m.setting), coalesce(v.stamping, m.stamping),
-	coalesce(v.directions, m.to_reach), coalesce(v.description, ''),
-	(` + curLat + `)::text, (` + curLon + `)::text, coalesce(v.position_source, ''), m.created_by,
-	to_char(ret.retired_on, 'YYYY-MM-DD'), coalesce(ret.reason, ''), coalesce(rby.designation, '')
-	FROM mark m LEFT JOIN LATERAL (
-		SELECT * FROM mark_version mv WHERE mv.mark_id = m.id ORDER BY mv.version DESC LIMIT 1
-	) v ON true
+	// A mark as first recorded (version 1, the mark's own row), and its
+	// retirement.
+	exportMarksSQL = `SELECT m.designation, m.mark_type, m.setting, m.stamping, m.to_reach,
+	m.lat::text, m.lon::text, m.created_by,
+	to_char(ret.retired_on, 'YYYY-MM-DD'), coalesce(ret.reason, ''), coalesce(ret.recorded_by, ''), coalesce(rby.designation, '')
+	FROM mark m
 	LEFT JOIN mark_retirement ret ON ret.mark_id = m.id
 	LEFT JOIN mark rby ON rby.id = ret.replaced_by
 	ORDER BY m.id`
-	exportConditionsSQL = `SELECT m.designation, to_char(c.observed_on, 'YYYY-MM-DD'), c.condition, c.note, c.recorded_by
+	exportDescriptionsSQL = `SELECT m.designation, v.mark_type, v.setting, v.stamping, v.directions, v.description,
+	v.lat::text, v.lon::text, v.position_source, v.reason, v.recorded_by
+	FROM mark_version v JOIN mark m ON m.id = v.mark_id ORDER BY m.id, v.version`
+	exportAliasesSQL = `SELECT m.designation, a.alias, a.kind, a.agency, a.note, a.recorded_by
+	FROM mark_alias a JOIN mark m ON m.id = a.mark_id ORDER BY a.id`
+	exportConditionsSQL = `SELECT c.id::text, m.designation, to_char(c.observed_on, 'YYYY-MM-DD'), c.condition, c.note, c.recorded_by
 	FROM mark_condition c JOIN mark m ON m.id = c.mark_id ORDER BY m.id, c.id`
 	exportHeightsSQL = `SELECT m.designation, d.code, h.source_kind, h.value::text, h.unit, h.decimals::text, h.class,
 	CASE WHEN f.t = date_trunc('day', f.t) THEN to_char(f.t, 'YYYY-MM-DD') ELSE to_char(f.t, 'YYYY-MM-DD"T"HH24:MI:SS.US"Z"') END,
@@ -31,17 +32,31 @@ const (
 )
 
 // ExportMarks calls fn with each mark of the register, in the order they
-// were added: designation, aliases (KIND[=AGENCY]:ALIAS;...), type,
-// setting, stamping, directions, description, lat, lon, position source,
-// who added it, and its retirement (date, reason, the mark that replaced
-// it), the description being the current one. The rows are
-// read as fn takes them, never all held.
+// were added, as first recorded: designation, type, setting, stamping,
+// directions, lat, lon, who added it, and its retirement (date, reason,
+// who recorded it, the mark that replaced it). The rows are read as fn
+// takes them, never all held.
 func ExportMarks(ctx context.Context, db DBTX, fn func([]string) error) error {
 	return exportRows(ctx, db, "marks", exportMarksSQL, fn)
 }
 
+// ExportDescriptions calls fn with every later version of a mark's
+// description, mark by mark in version order: mark, type, setting,
+// stamping, directions, description, lat, lon, position source, reason,
+// by.
+func ExportDescriptions(ctx context.Context, db DBTX, fn func([]string) error) error {
+	return exportRows(ctx, db, "descriptions", exportDescriptionsSQL, fn)
+}
+
+// ExportAliases calls fn with every alias in recorded order: mark, alias,
+// kind, agency, note, by.
+func ExportAliases(ctx context.Context, db DBTX, fn func([]string) error) error {
+	return exportRows(ctx, db, "aliases", exportAliasesSQL, fn)
+}
+
 // ExportConditions calls fn with each condition report, mark by mark in
-// recorded order: mark, observed on, condition, note, by.
+// recorded order: ref (the report's id here), mark, observed on,
+// condition, note, by.
 func ExportConditions(ctx context.Context, db DBTX, fn func([]string) error) error {
 	return exportRows(ctx, db, "condition reports", exportConditionsSQL, fn)
 }
@@ -52,6 +67,42 @@ func ExportConditions(ctx context.Context, db DBTX, fn func([]string) error) err
 // reason, by.
 func ExportHeights(ctx context.Context, db DBTX, fn func([]string) error) error {
 	return exportRows(ctx, db, "heights", exportHeightsSQL, fn)
+}
+
+// ExportPhoto is a photograph as export writes it.
+type ExportPhoto struct {
+	ConditionID int64
+	View        string
+	MediaType   string
+	FileName    string
+	SHA256      []byte
+	Content     []byte
+	RecordedBy  string
+}
+
+// ExportPhotos calls fn with every photograph, in the order of their
+// reports (as ExportConditions) and then as kept, one at a time with its
+// bytes.
+func ExportPhotos(ctx context.Context, db DBTX, fn func(ExportPhoto) error) error {
+	rows, err := db.Query(ctx, `SELECT p.condition_id, p.view, p.media_type, p.file_name, p.sha256, p.content, p.recorded_by
+		FROM condition_photo p JOIN mark_condition c ON c.id = p.condition_id ORDER BY c.mark_id, c.id, p.id`)
+	if err != nil {
+		return fmt.Errorf("export photographs: %w", translate(err))
+	}
+	defer rows.Close()
+	for rows.Next() {
+		var p ExportPhoto
+		if err := rows.Scan(&p.ConditionID, &p.View, &p.MediaType, &p.FileName, &p.SHA256, &p.Content, &p.RecordedBy); err != nil {
+			return fmt.Errorf("export photographs: %w", translate(err))
+		}
+		if err := fn(p); err != nil {
+			return err
+		}
+	}
+	if err := rows.Err(); err != nil {
+		return fmt.Errorf("export photographs: %w", translate(err))
+	}
+	return nil
 }
 
 func exportRows(ctx context.Context, db DBTX, what, sql string, fn func([]string) error) error {

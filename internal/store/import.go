@@ -18,14 +18,21 @@ import (
 var (
 	StageMarkColumns = []string{"line", "designation", "folded", "aliases", "alias_kinds", "alias_agencies",
 		"mark_type", "setting", "stamping", "directions", "description", "lat", "lon", "position_source", "by",
-		"retired_on", "retired_reason", "replaced_by", "replaced_folded"}
-	StageConditionColumns = []string{"line", "mark", "folded", "observed_on", "condition", "note", "by"}
+		"retired_on", "retired_reason", "retired_by", "replaced_by", "replaced_folded"}
+	StageConditionColumns   = []string{"line", "mark", "folded", "observed_on", "condition", "note", "by", "ref"}
+	StageDescriptionColumns = []string{"line", "mark", "folded", "mark_type", "setting", "stamping", "directions", "description",
+		"lat", "lon", "position_source", "reason", "by"}
+	StageAliasColumns = []string{"line", "mark", "folded", "alias", "alias_folded", "kind", "agency", "note", "by"}
+	StagePhotoColumns = []string{"line", "condition", "view", "media_type", "file_name", "content", "sha256", "by"}
 	StageHeightColumns    = []string{"line", "mark", "folded", "datum", "kind", "value", "unit", "decimals",
 		"class", "in_force_from", "source", "reason", "by"}
 )
 
+// StageTables are the staging tables, by the kind of row each holds.
+var StageTables = []string{"mark", "description", "alias", "condition", "photo", "height"}
+
 // StageCopy copies the rows next gives (nil, nil at the end) into staging
-// table ("mark", "condition" or "height") with one COPY; next is called
+// table (one of StageTables) with one COPY; next is called
 // as COPY reads, so the rows are never all held.
 func StageCopy(ctx context.Context, db Copier, table string, columns []string, next func() ([]any, error)) (int64, error) {
 	n, err := db.CopyFrom(ctx, pgx.Identifier{"cairn_staging", "import_" + table}, columns, pgx.CopyFromFunc(next))
@@ -37,7 +44,7 @@ func StageCopy(ctx context.Context, db Copier, table string, columns []string, n
 
 // StageProblem is a problem a set-based check found in staged rows.
 type StageProblem struct {
-	Kind  string // "mark", "condition" or "height"
+	Kind  string // one of StageTables
 	Line  int64
 	Field string
 	Msg   string
@@ -50,12 +57,20 @@ type StageProblem struct {
 func StageCheck(ctx context.Context, db DBTX) ([]StageProblem, error) {
 	rows, err := db.Query(ctx, `
 WITH s AS (SELECT * FROM cairn_staging.import_mark WHERE import_xid = pg_current_xact_id()),
-a AS (SELECT s.line, u.alias, lower(normalize(u.alias, NFKC)) AS folded
-        FROM s, unnest(s.aliases) AS u (alias)),
+-- Every alias the import gives: of the marks file's aliases column, and
+-- of aliases.csv (kind alias); ord orders them as they are written.
+a AS (SELECT 'mark' AS kind, s.line, 0 AS ord, u.alias, lower(normalize(u.alias, NFKC)) AS folded
+        FROM s, unnest(s.aliases) AS u (alias)
+      UNION ALL
+      SELECT 'alias', x.line, 1, x.alias, x.alias_folded
+        FROM cairn_staging.import_alias x WHERE x.import_xid = pg_current_xact_id()),
+-- A name the register or the import gives a mark: a mark named in the
+-- other files is found by its designation or by an alias.
 known AS (SELECT lower(normalize(m.designation, NFKC)) AS folded FROM mark m
           UNION ALL SELECT lower(normalize(x.alias, NFKC)) FROM mark_alias x
           UNION ALL SELECT s.folded FROM s
-          UNION ALL SELECT a.folded FROM a)
+          UNION ALL SELECT a.folded FROM a),
+c AS (SELECT * FROM cairn_staging.import_condition WHERE import_xid = pg_current_xact_id())
 SELECT 'mark', s.line, 'designation', 'mark ' || m.designation || ' is in the register already'
   FROM s JOIN mark m ON lower(normalize(m.designation, NFKC)) = s.folded
 UNION ALL
@@ -65,13 +80,15 @@ UNION ALL
 SELECT 'mark', s.line, 'designation', s.designation || ' is given also on line ' || o.line
   FROM s JOIN s o ON o.folded = s.folded AND o.line < s.line
 UNION ALL
-SELECT 'mark', a.line, 'aliases', 'alias ' || a.alias || ' is a name of mark ' || m.designation || ' in the register already'
+SELECT a.kind, a.line, CASE a.kind WHEN 'mark' THEN 'aliases' ELSE 'alias' END, 'alias ' || a.alias || ' is a name of mark ' || m.designation || ' in the register already'
   FROM a JOIN (SELECT id, designation, lower(normalize(designation, NFKC)) AS folded FROM mark
                UNION ALL SELECT x.mark_id, mm.designation, lower(normalize(x.alias, NFKC)) FROM mark_alias x JOIN mark mm ON mm.id = x.mark_id) m
     ON m.folded = a.folded
 UNION ALL
-SELECT 'mark', a.line, 'aliases', 'alias ' || a.alias || ' is also ' || CASE WHEN o.line IS NOT NULL THEN 'an alias on line ' || o.line ELSE 'the designation on line ' || d.line END
-  FROM a LEFT JOIN a o ON o.folded = a.folded AND o.line < a.line
+SELECT a.kind, a.line, CASE a.kind WHEN 'mark' THEN 'aliases' ELSE 'alias' END, 'alias ' || a.alias || ' is also ' ||
+       CASE WHEN o.line IS NOT NULL THEN 'an alias on line ' || o.line || CASE WHEN o.kind <> a.kind THEN ' of ' || CASE o.kind WHEN 'mark' THEN 'the marks file' ELSE 'aliases.csv' END ELSE '' END
+            ELSE 'the designation on line ' || d.line || CASE WHEN a.kind = 'alias' THEN ' of the marks file' ELSE '' END END
+  FROM a LEFT JOIN LATERAL (SELECT o.kind, o.line FROM a o WHERE o.folded = a.folded AND (o.ord, o.line) < (a.ord, a.line) ORDER BY o.ord, o.line LIMIT 1) o ON true
          LEFT JOIN s d ON d.folded = a.folded
  WHERE o.line IS NOT NULL OR d.line IS NOT NULL
 UNION ALL
@@ -82,8 +99,25 @@ SELECT 'mark', s.line, 'replaced_by', 'mark ' || s.replaced_by || ' replaces als
   FROM s JOIN s o ON o.replaced_folded = s.replaced_folded AND o.line < s.line WHERE s.replaced_folded <> ''
 UNION ALL
 SELECT 'condition', c.line, 'mark', 'no mark ' || c.mark || ' in the register or in the marks file'
-  FROM cairn_staging.import_condition c
- WHERE c.import_xid = pg_current_xact_id() AND NOT EXISTS (SELECT 1 FROM known k WHERE k.folded = c.folded)
+  FROM c WHERE NOT EXISTS (SELECT 1 FROM known k WHERE k.folded = c.folded)
+UNION ALL
+SELECT 'condition', c.line, 'ref', 'ref ' || c.ref || ' is given also on line ' || o.line
+  FROM c JOIN c o ON o.ref = c.ref AND o.line < c.line WHERE c.ref <> ''
+UNION ALL
+SELECT 'description', d.line, 'mark', 'no mark ' || d.mark || ' in the register or in the marks file'
+  FROM cairn_staging.import_description d
+ WHERE d.import_xid = pg_current_xact_id() AND NOT EXISTS (SELECT 1 FROM known k WHERE k.folded = d.folded)
+UNION ALL
+SELECT 'alias', x.line, 'mark', 'no mark ' || x.mark || ' in the register or in the marks file'
+  FROM cairn_staging.import_alias x
+ WHERE x.import_xid = pg_current_xact_id()
+   AND NOT EXISTS (SELECT 1 FROM mark m WHERE lower(normalize(m.designation, NFKC)) = x.folded
+                   UNION ALL SELECT 1 FROM mark_alias y WHERE lower(normalize(y.alias, NFKC)) = x.folded
+                   UNION ALL SELECT 1 FROM s WHERE s.folded = x.folded)
+UNION ALL
+SELECT 'photo', p.line, 'condition', 'no condition report with ref ' || p.condition || ' in conditions.csv'
+  FROM cairn_staging.import_photo p
+ WHERE p.import_xid = pg_current_xact_id() AND NOT EXISTS (SELECT 1 FROM c WHERE c.ref = p.condition)
 UNION ALL
 SELECT 'height', h.line, 'mark', 'no mark ' || h.mark || ' in the register or in the marks file'
   FROM cairn_staging.import_height h
@@ -174,18 +208,20 @@ func ImportEventInsert(ctx context.Context, db DBTX, p ImportEventInsertParams) 
 
 // ImportCounts are the rows an import wrote.
 type ImportCounts struct {
-	Marks, Versions, Aliases, Conditions, Heights, Retirements int64
+	Marks, Versions, Aliases, Conditions, Photos, Heights, Retirements int64
 }
 
 // StageApply inserts the staged rows into the register, through its
-// triggers: marks (and a second version where a description or position
-// source is given), their aliases, condition reports, then heights chain
-// by chain, one statement per place in a chain (the k-th version of every
-// mark and datum supersedes the latest), each set in line order, each
-// place written at a time after the one before it. reason
-// is the reason of the mark versions it writes. Then it deletes the
-// staged rows.
-func StageApply(ctx context.Context, db DBTX, reason string) (ImportCounts, error) {
+// triggers: marks (and a second version where the marks file gives a
+// description or position source, with reason), their aliases (of the
+// marks file, then of aliases.csv), the later versions of descriptions,
+// condition reports and their photographs, then heights chain by chain,
+// one statement per place in a chain (the k-th version of every mark and
+// datum supersedes the latest), each set in line order, each place
+// written at a time after the one before it; retirements last. Then it
+// deletes the staged rows. eventID is the import's record, written in the
+// same transaction.
+func StageApply(ctx context.Context, db DBTX, eventID int64, reason string) (ImportCounts, error) {
 	var c ImportCounts
 	exec := func(n *int64, what, sql string, args ...any) error {
 		tag, err := db.Exec(ctx, sql, args...)
@@ -216,13 +252,53 @@ func StageApply(ctx context.Context, db DBTX, reason string) (ImportCounts, erro
 		 WHERE s.import_xid = pg_current_xact_id() ORDER BY s.line, u.ord`); err != nil {
 		return c, err
 	}
-	// A mark named in the conditions or heights file by its designation or an alias.
+	// A mark named in another file by its designation or an alias.
 	const markOf = `(SELECT m.id FROM mark m WHERE lower(normalize(m.designation, NFKC)) = %[1]s.folded
 		UNION ALL SELECT x.mark_id FROM mark_alias x WHERE lower(normalize(x.alias, NFKC)) = %[1]s.folded LIMIT 1)`
+	if err := exec(&c.Aliases, "aliases", fmt.Sprintf(`INSERT INTO mark_alias (mark_id, alias, kind, agency, note, recorded_by)
+		SELECT `+markOf+`, sa.alias, sa.kind, sa.agency, sa.note, sa.by FROM cairn_staging.import_alias sa
+		 WHERE sa.import_xid = pg_current_xact_id() ORDER BY sa.line`, "sa")); err != nil {
+		return c, err
+	}
+	// Later versions of a description, after the marks file's own, in
+	// line order: the trigger numbers each mark's versions as they come.
+	if err := exec(&c.Versions, "mark descriptions", fmt.Sprintf(`INSERT INTO mark_version (mark_id, mark_type, setting, stamping, directions,
+			description, lat, lon, position_source, reason, recorded_by)
+		SELECT `+markOf+`, d.mark_type, d.setting, d.stamping, d.directions, d.description, d.lat, d.lon, d.position_source, d.reason, d.by
+		  FROM cairn_staging.import_description d WHERE d.import_xid = pg_current_xact_id() ORDER BY d.line`, "d")); err != nil {
+		return c, err
+	}
 	if err := exec(&c.Conditions, "condition reports", fmt.Sprintf(`INSERT INTO mark_condition (mark_id, condition, note, observed_on, recorded_by)
 		SELECT `+markOf+`, c.condition, c.note, c.observed_on, c.by FROM cairn_staging.import_condition c
 		 WHERE c.import_xid = pg_current_xact_id() ORDER BY c.line`, "c")); err != nil {
 		return c, err
+	}
+	// Photographs: the reports were inserted in line order, so the n-th
+	// report this transaction wrote (by id) is the n-th staged one (by
+	// line); the join checks the mark and date as well, and a photograph
+	// left without its report fails the import.
+	var staged int64
+	if err := db.QueryRow(ctx, `SELECT count(*) FROM cairn_staging.import_photo WHERE import_xid = pg_current_xact_id()`).Scan(&staged); err != nil {
+		return c, fmt.Errorf("import photographs: %w", translate(err))
+	}
+	if staged > 0 {
+		if err := exec(&c.Photos, "photographs", fmt.Sprintf(`WITH mine AS (
+				SELECT id, mark_id, observed_on, row_number() OVER (ORDER BY id) AS n FROM mark_condition
+				 WHERE created_xid = (SELECT e.created_xid FROM import_event e WHERE e.id = $1)),
+			staged AS (
+				SELECT c.ref, c.observed_on, `+markOf+` AS mark_id, row_number() OVER (ORDER BY c.line) AS n
+				  FROM cairn_staging.import_condition c WHERE c.import_xid = pg_current_xact_id())
+			INSERT INTO condition_photo (condition_id, view, media_type, file_name, content, sha256, recorded_by)
+			SELECT mine.id, p.view, p.media_type, p.file_name, p.content, p.sha256, p.by
+			  FROM cairn_staging.import_photo p
+			  JOIN staged ON staged.ref = p.condition
+			  JOIN mine ON mine.n = staged.n AND mine.mark_id = staged.mark_id AND mine.observed_on = staged.observed_on
+			 WHERE p.import_xid = pg_current_xact_id() ORDER BY p.line`, "c"), eventID); err != nil {
+			return c, err
+		}
+		if c.Photos != staged {
+			return c, fmt.Errorf("import photographs: %d of %d found their condition report; nothing was written", c.Photos, staged)
+		}
 	}
 	for k := 1; ; k++ {
 		if k > 1 {
@@ -256,12 +332,12 @@ func StageApply(ctx context.Context, db DBTX, reason string) (ImportCounts, erro
 	// Retirements last, in line order: a mark that replaced another may
 	// itself be retired by a later line.
 	if err := exec(&c.Retirements, "retirements", fmt.Sprintf(`INSERT INTO mark_retirement (mark_id, replaced_by, retired_on, reason, recorded_by)
-		SELECT m.id, CASE WHEN s.folded <> '' THEN `+markOf+` END, s.retired_on, s.retired_reason, s.by
-		  FROM (SELECT line, designation, retired_on, retired_reason, by, replaced_folded AS folded FROM cairn_staging.import_mark WHERE import_xid = pg_current_xact_id() AND retired_on IS NOT NULL) s
+		SELECT m.id, CASE WHEN s.folded <> '' THEN `+markOf+` END, s.retired_on, s.retired_reason, CASE WHEN s.retired_by <> '' THEN s.retired_by ELSE s.by END
+		  FROM (SELECT line, designation, retired_on, retired_reason, retired_by, by, replaced_folded AS folded FROM cairn_staging.import_mark WHERE import_xid = pg_current_xact_id() AND retired_on IS NOT NULL) s
 		  JOIN mark m ON m.designation = s.designation ORDER BY s.line`, "s")); err != nil {
 		return c, err
 	}
-	for _, t := range []string{"mark", "condition", "height"} {
+	for _, t := range StageTables {
 		if err := StageClear(ctx, db, t); err != nil {
 			return c, err
 		}
