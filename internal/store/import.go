@@ -22,9 +22,9 @@ var (
 	StageConditionColumns   = []string{"line", "mark", "folded", "observed_on", "condition", "note", "by", "ref"}
 	StageDescriptionColumns = []string{"line", "mark", "folded", "mark_type", "setting", "stamping", "directions", "description",
 		"lat", "lon", "position_source", "reason", "by"}
-	StageAliasColumns = []string{"line", "mark", "folded", "alias", "alias_folded", "kind", "agency", "note", "by"}
-	StagePhotoColumns = []string{"line", "condition", "view", "media_type", "file_name", "content", "sha256", "by"}
-	StageHeightColumns    = []string{"line", "mark", "folded", "datum", "kind", "value", "unit", "decimals",
+	StageAliasColumns  = []string{"line", "mark", "folded", "alias", "alias_folded", "kind", "agency", "note", "by"}
+	StagePhotoColumns  = []string{"line", "condition", "view", "media_type", "file_name", "content", "sha256", "by"}
+	StageHeightColumns = []string{"line", "mark", "folded", "datum", "kind", "value", "unit", "decimals",
 		"class", "in_force_from", "source", "reason", "by"}
 )
 
