@@ -6,8 +6,13 @@ import (
 	"crypto/sha256"
 	"encoding/hex"
 	"fmt"
+	"runtime"
 	"strconv"
 	"strings"
+	"time"
+
+	"github.com/jackc/pgx/v5"
+	"golang.org/x/sync/errgroup"
 
 	"cairn/internal/store"
 )
@@ -50,19 +55,16 @@ import (
 // A version without keeps layout 2 (or 1), whose meaning is "in force
 // from its commit".
 func Canonical(prevHash []byte, h store.Height) string {
-	opt := func(s *string) string {
-		if s == nil {
-			return ""
-		}
-		return *s
-	}
-	dec, adj := "", ""
-	if h.Decimals != nil {
-		dec = strconv.Itoa(*h.Decimals)
-	}
-	if h.AdjustmentID != nil {
-		adj = strconv.FormatInt(*h.AdjustmentID, 10)
-	}
+	return string(AppendCanonical(nil, prevHash, &h))
+}
+
+// canonicalTime is the layout of the canonical text's times.
+const canonicalTime = "2006-01-02T15:04:05.000000Z"
+
+// AppendCanonical appends Canonical's text to b, without fmt or a
+// string per field: the audit builds one for every version.
+func AppendCanonical(b []byte, prevHash []byte, h *store.Height) []byte {
+	var scratch [64]byte
 	layout := "1"
 	switch {
 	case h.InForceGiven != nil:
@@ -70,34 +72,62 @@ func Canonical(prevHash []byte, h store.Height) string {
 	case h.RecordedRole != nil:
 		layout = "2"
 	}
-	fields := [][2]string{
-		{"cairn-height", layout},
-		{"prev", hex.EncodeToString(prevHash)},
-		{"mark", h.Designation},
-		{"datum", h.DatumCode},
-		{"version", strconv.Itoa(h.Version)},
-		{"value", opt(h.Value)},
-		{"unit", opt(h.Unit)},
-		{"decimals", dec},
-		{"class", h.Class},
-		{"source_kind", h.SourceKind},
-		{"source", h.Source},
-		{"adjustment_id", adj},
-		{"reason", h.Reason},
-		{"recorded_by", h.RecordedBy},
-		{"recorded_at", h.RecordedAt.UTC().Format("2006-01-02T15:04:05.000000Z")},
+	b = appendField(b, "cairn-height", layout)
+	b = appendFieldBytes(b, "prev", hex.AppendEncode(scratch[:0], prevHash))
+	b = appendField(b, "mark", h.Designation)
+	b = appendField(b, "datum", h.DatumCode)
+	b = appendFieldBytes(b, "version", strconv.AppendInt(scratch[:0], int64(h.Version), 10))
+	b = appendField(b, "value", deref(h.Value))
+	b = appendField(b, "unit", deref(h.Unit))
+	if h.Decimals != nil {
+		b = appendFieldBytes(b, "decimals", strconv.AppendInt(scratch[:0], int64(*h.Decimals), 10))
+	} else {
+		b = appendField(b, "decimals", "")
 	}
+	b = appendField(b, "class", h.Class)
+	b = appendField(b, "source_kind", h.SourceKind)
+	b = appendField(b, "source", h.Source)
+	if h.AdjustmentID != nil {
+		b = appendFieldBytes(b, "adjustment_id", strconv.AppendInt(scratch[:0], *h.AdjustmentID, 10))
+	} else {
+		b = appendField(b, "adjustment_id", "")
+	}
+	b = appendField(b, "reason", h.Reason)
+	b = appendField(b, "recorded_by", h.RecordedBy)
+	b = appendFieldBytes(b, "recorded_at", h.RecordedAt.UTC().AppendFormat(scratch[:0], canonicalTime))
 	if h.RecordedRole != nil || h.InForceGiven != nil {
-		fields = append(fields, [2]string{"recorded_role", opt(h.RecordedRole)})
+		b = appendField(b, "recorded_role", deref(h.RecordedRole))
 	}
 	if h.InForceGiven != nil {
-		fields = append(fields, [2]string{"in_force_from", h.InForceGiven.UTC().Format("2006-01-02T15:04:05.000000Z")})
+		b = appendFieldBytes(b, "in_force_from", h.InForceGiven.UTC().AppendFormat(scratch[:0], canonicalTime))
 	}
-	var b strings.Builder
-	for _, f := range fields {
-		fmt.Fprintf(&b, "%s:%d:%s\n", f[0], len(f[1]), f[1])
+	return b
+}
+
+// appendField appends one line "name:length:value" (the length in bytes).
+func appendField(b []byte, name, value string) []byte {
+	b = append(b, name...)
+	b = append(b, ':')
+	b = strconv.AppendInt(b, int64(len(value)), 10)
+	b = append(b, ':')
+	b = append(b, value...)
+	return append(b, '\n')
+}
+
+func appendFieldBytes(b []byte, name string, value []byte) []byte {
+	b = append(b, name...)
+	b = append(b, ':')
+	b = strconv.AppendInt(b, int64(len(value)), 10)
+	b = append(b, ':')
+	b = append(b, value...)
+	return append(b, '\n')
+}
+
+func deref(s *string) string {
+	if s == nil {
+		return ""
 	}
-	return b.String()
+	return *s
 }
 
 // Break is one fault found in a chain of versions.
@@ -124,61 +154,137 @@ type AuditReport struct {
 // first version to the last and reports each break: a hash that does not
 // match its recomputed value, a version that does not supersede the one
 // before it, a gap in the version numbers, a time that does not follow
-// its predecessor's, or more than one current version.
+// its predecessor's, or an in-force time after the version was written
+// (the premise of "in force now", store.heightCurrent: with it, exactly
+// one version of a chain is in force at any time). The chains are
+// divided by mark id among workers, one per CPU (at most 8), each in its
+// own transaction on one snapshot exported by the first, so that they see
+// the same register; the breaks are reported in chain order.
 func (r *Register) AuditVerify(ctx context.Context) (AuditReport, error) {
 	rep := AuditReport{Breaks: []Break{}}
-	var prev *store.Height
-	current := 0
-	endChain := func() {
-		if prev != nil && current != 1 {
-			rep.Breaks = append(rep.Breaks, Break{Designation: prev.Designation, Datum: prev.DatumCode, Version: prev.Version, ID: prev.ID,
-				Problem: fmt.Sprintf("%d current versions (want exactly 1)", current)})
-		}
+	if err := r.auditChains(ctx, &rep); err != nil {
+		return rep, fmt.Errorf("read height versions: %w", err)
 	}
-	err := store.HeightEach(ctx, r.pool, func(h store.Height) error {
+	return rep, r.auditDerive(ctx, &rep)
+}
+
+// auditWorkers is how many transactions read the chains at once, and
+// auditSpanPerWorker the fewest mark ids worth a worker of its own.
+var (
+	auditWorkers       = func() int { return min(max(runtime.GOMAXPROCS(0), 1), 8) }
+	auditSpanPerWorker = int64(1000)
+)
+
+func (r *Register) auditChains(ctx context.Context, rep *AuditReport) error {
+	lead, err := r.pool.BeginTx(ctx, pgx.TxOptions{IsoLevel: pgx.RepeatableRead, AccessMode: pgx.ReadOnly})
+	if err != nil {
+		return err
+	}
+	defer lead.Rollback(ctx)
+	var snapshot string
+	if err := lead.QueryRow(ctx, "SELECT pg_export_snapshot()").Scan(&snapshot); err != nil {
+		return err
+	}
+	lo, hi, err := store.HeightChainSpan(ctx, lead)
+	if err != nil {
+		return err
+	}
+	n := int64(auditWorkers())
+	if hi-lo+1 < n*auditSpanPerWorker {
+		n = max(1, (hi-lo+1)/auditSpanPerWorker) // a small register: fewer transactions are quicker
+	}
+	parts := make([]AuditReport, n)
+	g, gctx := errgroup.WithContext(ctx)
+	step := (hi - lo + n) / n
+	for i := range n {
+		from, to := lo+i*step, min(lo+(i+1)*step-1, hi)
+		part := &parts[i]
+		part.Breaks = []Break{}
+		g.Go(func() error {
+			if i == 0 {
+				return auditChainRange(gctx, lead, from, to, part)
+			}
+			tx, err := r.pool.BeginTx(gctx, pgx.TxOptions{IsoLevel: pgx.RepeatableRead, AccessMode: pgx.ReadOnly})
+			if err != nil {
+				return err
+			}
+			defer tx.Rollback(gctx)
+			if _, err := tx.Exec(gctx, "SET TRANSACTION SNAPSHOT "+quoteLiteral(snapshot)); err != nil {
+				return fmt.Errorf("share the audit's snapshot: %w", err)
+			}
+			return auditChainRange(gctx, tx, from, to, part)
+		})
+	}
+	if err := g.Wait(); err != nil {
+		return err
+	}
+	for _, p := range parts {
+		rep.Chains += p.Chains
+		rep.Versions += p.Versions
+		rep.Breaks = append(rep.Breaks, p.Breaks...)
+	}
+	return nil
+}
+
+// quoteLiteral quotes s as an SQL string literal (a snapshot's name, which
+// SET TRANSACTION SNAPSHOT takes only as a literal).
+func quoteLiteral(s string) string { return "'" + strings.ReplaceAll(s, "'", "''") + "'" }
+
+// chainLink is what the check of a version keeps of the one before it.
+type chainLink struct {
+	id, markID, datumID int64
+	version             int
+	hash                []byte
+	recordedAt          time.Time
+}
+
+// auditChainRange checks the chains of the marks with ids from lo to hi.
+func auditChainRange(ctx context.Context, tx pgx.Tx, lo, hi int64, rep *AuditReport) error {
+	var (
+		prev    chainLink
+		hasPrev bool
+		buf     []byte
+	)
+	return store.HeightChainEach(ctx, tx, lo, hi, func(h *store.Height) error {
 		rep.Versions++
-		if prev == nil || prev.MarkID != h.MarkID || prev.DatumID != h.DatumID {
-			endChain()
+		if !hasPrev || prev.markID != h.MarkID || prev.datumID != h.DatumID {
 			rep.Chains++
-			prev, current = nil, 0
-		}
-		if h.Current {
-			current++
+			hasPrev = false
 		}
 		brk := func(problem string) {
 			rep.Breaks = append(rep.Breaks, Break{Designation: h.Designation, Datum: h.DatumCode, Version: h.Version, ID: h.ID, Problem: problem})
 		}
 		var prevHash []byte
 		wantVersion := 1
-		if prev != nil {
-			prevHash, wantVersion = prev.Hash, prev.Version+1
+		if hasPrev {
+			prevHash, wantVersion = prev.hash, prev.version+1
 		}
 		if h.Version != wantVersion {
 			brk(fmt.Sprintf("version number %d where %d was due", h.Version, wantVersion))
 		}
 		switch {
-		case prev == nil && h.Supersedes != nil:
+		case !hasPrev && h.Supersedes != nil:
 			brk(fmt.Sprintf("broken link: first version supersedes id %d", *h.Supersedes))
-		case prev != nil && (h.Supersedes == nil || *h.Supersedes != prev.ID):
-			brk(fmt.Sprintf("broken link: supersedes %s, not version %d (id %d)", idText(h.Supersedes), prev.Version, prev.ID))
+		case hasPrev && (h.Supersedes == nil || *h.Supersedes != prev.id):
+			brk(fmt.Sprintf("broken link: supersedes %s, not version %d (id %d)", idText(h.Supersedes), prev.version, prev.id))
 		}
-		if prev != nil && !h.RecordedAt.After(prev.RecordedAt) {
+		if hasPrev && !h.RecordedAt.After(prev.recordedAt) {
 			brk("recorded at or before the version it supersedes")
 		}
-		sum := sha256.Sum256([]byte(Canonical(prevHash, h)))
+		if h.InForceGiven != nil && h.InForceGiven.After(h.RecordedAt) {
+			brk("in force from a time after it was written (" + h.InForceGiven.UTC().Format(canonicalTime) + ")")
+		}
+		buf = AppendCanonical(buf[:0], prevHash, h)
+		sum := sha256.Sum256(buf)
 		if !bytes.Equal(sum[:], h.Hash) {
 			rep.Breaks = append(rep.Breaks, Break{Designation: h.Designation, Datum: h.DatumCode, Version: h.Version, ID: h.ID,
 				Problem: "hash does not match the version's contents", Expected: hex.EncodeToString(sum[:]), Stored: hex.EncodeToString(h.Hash)})
 		}
-		p := h
-		prev = &p
+		prev = chainLink{id: h.ID, markID: h.MarkID, datumID: h.DatumID, version: h.Version,
+			hash: append(prev.hash[:0], h.Hash...), recordedAt: h.RecordedAt}
+		hasPrev = true
 		return nil
 	})
-	if err != nil {
-		return rep, fmt.Errorf("read height versions: %w", err)
-	}
-	endChain()
-	return rep, r.auditDerive(ctx, &rep)
 }
 
 func idText(id *int64) string {

@@ -17,3 +17,12 @@ func SetClock(r *Register, now func() time.Time) { r.now = now }
 // CheckResults is checkResults, the last gate before an adjustment's
 // numbers are stored or published.
 var CheckResults = checkResults
+
+// SetAuditSplit makes AuditVerify divide the chains among workers
+// transactions, a worker for every span mark ids; the returned function
+// puts the defaults back. Not for parallel tests.
+func SetAuditSplit(workers int, span int64) func() {
+	w, sp := auditWorkers, auditSpanPerWorker
+	auditWorkers, auditSpanPerWorker = func() int { return workers }, span
+	return func() { auditWorkers, auditSpanPerWorker = w, sp }
+}

@@ -2,7 +2,9 @@ package register_test
 
 import (
 	"errors"
+	"fmt"
 	"math"
+	"reflect"
 	"strings"
 	"testing"
 	"time"
@@ -262,5 +264,47 @@ func TestCanonicalMatchesDatabase(t *testing.T) {
 	}
 	if rep.Chains != 1 || rep.Versions != 2 || len(rep.Breaks) != 0 {
 		t.Fatalf("audit %+v, want 1 chain of 2 versions and no break", rep)
+	}
+}
+
+// The audit divided among worker transactions (here 4, a worker for
+// every 7 mark ids) finds what one transaction finds: the same chains
+// and versions, and a hash edited behind the register's back in the
+// chains of the third worker, reported once, as in one transaction. Not
+// parallel: it sets the package's split.
+func TestAuditVerifyInParts(t *testing.T) {
+	b := registertest.Setup(t)
+	b.Datum(t, registertest.DatumOpts{})
+	var names []string
+	for i := range 30 {
+		names = append(names, fmt.Sprintf("TC-%04d", 500+i))
+	}
+	b.Marks(t, names...)
+	for _, n := range names {
+		b.Height(t, registertest.HeightOpts{Designation: n, Value: "10.000"})
+		b.Height(t, registertest.HeightOpts{Designation: n, Value: "10.004"})
+	}
+	if _, err := b.DB.Pool.Exec(b.Ctx, `BEGIN; SET LOCAL session_replication_role = replica;
+		UPDATE height SET reason = 'edited' WHERE mark_id = (SELECT id FROM mark WHERE designation = 'TC-0521') AND version = 2; COMMIT`); err != nil {
+		t.Fatal(err)
+	}
+	whole := register.SetAuditSplit(1, 1000)
+	one, err := b.Reg.AuditVerify(b.Ctx)
+	whole()
+	if err != nil {
+		t.Fatal(err)
+	}
+	restore := register.SetAuditSplit(4, 7)
+	defer restore()
+	parts, err := b.Reg.AuditVerify(b.Ctx)
+	if err != nil {
+		t.Fatal(err)
+	}
+	if one.Chains != 30 || one.Versions != 60 || len(one.Breaks) != 1 || one.Breaks[0].Designation != "TC-0521" {
+		t.Fatalf("one transaction: %d chains, %d versions, breaks %+v; want 30, 60 and the edit of TC-0521", one.Chains, one.Versions, one.Breaks)
+	}
+	if parts.Chains != one.Chains || parts.Versions != one.Versions || !reflect.DeepEqual(parts.Breaks, one.Breaks) {
+		t.Errorf("in parts: %d chains, %d versions, breaks %+v; one transaction: %d, %d, %+v",
+			parts.Chains, parts.Versions, parts.Breaks, one.Chains, one.Versions, one.Breaks)
 	}
 }
