@@ -5,6 +5,7 @@ import (
 	"fmt"
 	"os"
 	"path/filepath"
+	"runtime"
 	"strconv"
 	"syscall"
 	"testing"
@@ -84,5 +85,43 @@ func BenchmarkImport(b *testing.B) {
 	var ru syscall.Rusage
 	if err := syscall.Getrusage(syscall.RUSAGE_SELF, &ru); err == nil {
 		b.ReportMetric(float64(ru.Maxrss)/1024, "maxrss_MB")
+	}
+}
+
+// BenchmarkAuditChains recomputes the hash chains of a register imported
+// from importBenchFiles (marks from CAIRN_BENCH_AUDIT_CHAIN_MARKS,
+// default 20,000, five versions each), in one transaction (workers=1)
+// and divided among one worker per CPU (workers=cpu). It reports the time
+// per version.
+func BenchmarkAuditChains(b *testing.B) {
+	marks := 20000
+	if s := os.Getenv("CAIRN_BENCH_AUDIT_CHAIN_MARKS"); s != "" {
+		n, err := strconv.Atoi(s)
+		if err != nil || n < 1 {
+			b.Fatalf("CAIRN_BENCH_AUDIT_CHAIN_MARKS=%q: want a number of marks", s)
+		}
+		marks = n
+	}
+	fx := registertest.Setup(b)
+	fx.Datum(b, registertest.DatumOpts{})
+	if _, err := fx.Reg.Import(fx.Ctx, ImportParams{Dir: importBenchFiles(b, marks), RecordedBy: "bench"}); err != nil {
+		b.Fatal(err)
+	}
+	for _, w := range []struct {
+		name    string
+		workers int
+	}{{"workers=1", 1}, {"workers=cpu", runtime.GOMAXPROCS(0)}} {
+		b.Run(w.name, func(b *testing.B) {
+			defer SetAuditSplit(w.workers, 1000)()
+			var versions int
+			for b.Loop() {
+				rep, err := fx.Reg.AuditChains(fx.Ctx)
+				if err != nil || len(rep.Breaks) != 0 || rep.Versions != 5*marks {
+					b.Fatalf("audit: %v, %d breaks, %d versions", err, len(rep.Breaks), rep.Versions)
+				}
+				versions += rep.Versions
+			}
+			b.ReportMetric(float64(b.Elapsed().Nanoseconds())/float64(versions)/1000, "µs/version")
+		})
 	}
 }
