@@ -137,6 +137,9 @@ type dbStatus struct {
 	RegisterTables bool    `json:"register_tables"`
 	Marks          *int64  `json:"marks"`
 	HeightVersions *int64  `json:"height_versions"`
+	// CountsEstimated: marks and height_versions are the planner's
+	// estimates of a large register, not counted row by row.
+	CountsEstimated bool `json:"counts_estimated"`
 }
 
 func dbStatusRun(opts *dbOptions) error {
@@ -175,7 +178,7 @@ func dbStatusRun(opts *dbOptions) error {
 		}
 		st.RegisterTables = applied
 		if applied {
-			st.Marks, st.HeightVersions = &n.Marks, &n.HeightVersions
+			st.Marks, st.HeightVersions, st.CountsEstimated = &n.Marks, &n.HeightVersions, n.Estimated
 		}
 	} else {
 		latest, err := store.SchemaLatest()
@@ -217,6 +220,8 @@ func (st dbStatus) table() Table {
 	}
 	count := func(n *int64) string {
 		switch {
+		case n != nil && st.CountsEstimated:
+			return "about " + strconv.FormatInt(*n, 10) + " (the planner's estimate)"
 		case n != nil:
 			return strconv.FormatInt(*n, 10)
 		case st.SchemaVersion == nil:
