@@ -8,7 +8,6 @@ import (
 	"fmt"
 	"runtime"
 	"strconv"
-	"strings"
 	"time"
 
 	"github.com/jackc/pgx/v5"
@@ -181,8 +180,8 @@ func (r *Register) auditChains(ctx context.Context, rep *AuditReport) error {
 		return err
 	}
 	defer lead.Rollback(ctx)
-	var snapshot string
-	if err := lead.QueryRow(ctx, "SELECT pg_export_snapshot()").Scan(&snapshot); err != nil {
+	snapshot, err := store.SnapshotExport(ctx, lead)
+	if err != nil {
 		return err
 	}
 	lo, hi, err := store.HeightChainSpan(ctx, lead)
@@ -209,7 +208,7 @@ func (r *Register) auditChains(ctx context.Context, rep *AuditReport) error {
 				return err
 			}
 			defer tx.Rollback(gctx)
-			if _, err := tx.Exec(gctx, "SET TRANSACTION SNAPSHOT "+quoteLiteral(snapshot)); err != nil {
+			if err := store.SnapshotUse(gctx, tx, snapshot); err != nil {
 				return fmt.Errorf("share the audit's snapshot: %w", err)
 			}
 			return auditChainRange(gctx, tx, from, to, part)
@@ -225,10 +224,6 @@ func (r *Register) auditChains(ctx context.Context, rep *AuditReport) error {
 	}
 	return nil
 }
-
-// quoteLiteral quotes s as an SQL string literal (a snapshot's name, which
-// SET TRANSACTION SNAPSHOT takes only as a literal).
-func quoteLiteral(s string) string { return "'" + strings.ReplaceAll(s, "'", "''") + "'" }
 
 // chainLink is what the check of a version keeps of the one before it.
 type chainLink struct {

@@ -408,3 +408,18 @@ func HeightChainEach(ctx context.Context, db DBTX, lo, hi int64, fn func(h *Heig
 	}
 	return translate(rows.Err())
 }
+
+// SnapshotExport names the snapshot of tx (a REPEATABLE READ
+// transaction) for others to share while tx is open.
+func SnapshotExport(ctx context.Context, tx pgx.Tx) (string, error) {
+	var id string
+	err := tx.QueryRow(ctx, "SELECT pg_export_snapshot()").Scan(&id)
+	return id, translate(err)
+}
+
+// SnapshotUse makes tx, a REPEATABLE READ transaction that has run no
+// query yet, see the snapshot id that SnapshotExport named.
+func SnapshotUse(ctx context.Context, tx pgx.Tx, id string) error {
+	_, err := tx.Exec(ctx, "SET TRANSACTION SNAPSHOT "+quoteLiteral(id))
+	return translate(err)
+}
