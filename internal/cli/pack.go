@@ -7,15 +7,16 @@ import (
 	"crypto/sha256"
 	"encoding/csv"
 	"encoding/hex"
-	"encoding/json"
 	"fmt"
 	"os"
+	"slices"
 	"strconv"
 	"strings"
 	"time"
 
 	"github.com/spf13/cobra"
 
+	"cairn/internal/geojson"
 	"cairn/internal/register"
 	"cairn/internal/sheet"
 	"cairn/internal/units"
@@ -316,38 +317,50 @@ func packCSV(rows []packRow, u units.Unit) ([]byte, error) {
 }
 
 // packGeoJSON writes the rows that have a position as an RFC 7946
-// FeatureCollection of Points: [longitude, latitude], no crs member (RFC
-// 7946 §4: WGS 84 always), one feature per row. Property names are fixed
-// snake_case with units in them; the height's key names the pack's unit.
+// FeatureCollection of Points (internal/geojson: [longitude, latitude], no
+// crs member), one feature per row. Property names are fixed snake_case
+// with units in them, in alphabetical order (as the pack always had them); the height's key names the
+// pack's unit.
 func packGeoJSON(rows []packRow, u units.Unit) ([]byte, error) {
-	type geometry struct {
-		Type        string     `json:"type"`
-		Coordinates [2]float64 `json:"coordinates"`
-	}
-	type feature struct {
-		Type       string         `json:"type"`
-		Geometry   geometry       `json:"geometry"`
-		Properties map[string]any `json:"properties"`
-	}
-	fc := struct {
-		Type     string    `json:"type"`
-		Features []feature `json:"features"`
-	}{Type: "FeatureCollection", Features: []feature{}}
+	var b bytes.Buffer
+	w := geojson.NewWriter(&b, " ")
 	for _, r := range rows {
 		if r.Lat == nil || r.Lon == nil {
 			continue
 		}
-		props := map[string]any{"mark": r.Mark, "aliases": r.Aliases, "condition": r.Condition, "last_found_good_on": nullable(r.LastGoodOn),
-			"datum": nullable(r.Datum), "height_" + string(u): nullable(r.Height), "height_in_unit": nullable(r.Published),
-			"unit": nullable(r.PublishedUnit), "class": nullable(r.Class), "in_force_from_utc": nullable(r.InForceFrom),
-			"source": nullable(r.Source), "doubts": r.Doubts, "distance_from_site_m": r.DistanceM, "version": nil}
+		var version any
 		if r.Version > 0 {
-			props["version"] = r.Version
+			version = r.Version
 		}
-		fc.Features = append(fc.Features, feature{Type: "Feature", Geometry: geometry{Type: "Point", Coordinates: [2]float64{*r.Lon, *r.Lat}}, Properties: props})
+		var dist any
+		if r.DistanceM != nil {
+			dist = *r.DistanceM
+		}
+		props := []geojson.Property{
+			{Name: "aliases", Value: r.Aliases},
+			{Name: "class", Value: nullable(r.Class)},
+			{Name: "condition", Value: r.Condition},
+			{Name: "datum", Value: nullable(r.Datum)},
+			{Name: "distance_from_site_m", Value: dist},
+			{Name: "doubts", Value: r.Doubts},
+			{Name: "height_in_unit", Value: nullable(r.Published)},
+			{Name: "height_" + string(u), Value: nullable(r.Height)},
+			{Name: "in_force_from_utc", Value: nullable(r.InForceFrom)},
+			{Name: "last_found_good_on", Value: nullable(r.LastGoodOn)},
+			{Name: "mark", Value: r.Mark},
+			{Name: "source", Value: nullable(r.Source)},
+			{Name: "unit", Value: nullable(r.PublishedUnit)},
+			{Name: "version", Value: version},
+		}
+		slices.SortFunc(props, func(a, b geojson.Property) int { return strings.Compare(a.Name, b.Name) })
+		if err := w.Write(geojson.Feature{Lon: r.Lon, Lat: r.Lat, Properties: props}); err != nil {
+			return nil, err
+		}
 	}
-	b, err := json.MarshalIndent(fc, "", " ")
-	return append(b, '\n'), err
+	if err := w.Close(); err != nil {
+		return nil, err
+	}
+	return b.Bytes(), nil
 }
 
 // nullable is s, or JSON null for "".
