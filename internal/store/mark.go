@@ -421,3 +421,30 @@ func MarkEarliestRecord(ctx context.Context, db DBTX, markIDs []int64) (map[int6
 	}
 	return out, nil
 }
+
+// MarkPositions returns the current position of each of the marks that
+// has one, by the mark's identifier.
+func MarkPositions(ctx context.Context, db DBTX, markIDs []int64) (map[int64]LatLon, error) {
+	rows, err := db.Query(ctx, `SELECT m.id, `+curLat+`, `+curLon+` FROM mark m LEFT JOIN LATERAL (
+		SELECT * FROM mark_version mv WHERE mv.mark_id = m.id ORDER BY mv.version DESC LIMIT 1
+	) v ON true WHERE m.id = ANY($1) AND `+curLat+` IS NOT NULL`, markIDs)
+	if err != nil {
+		return nil, translate(err)
+	}
+	type pos struct {
+		id int64
+		ll LatLon
+	}
+	list, err := collect(rows, func(r pgx.Row) (pos, error) {
+		var p pos
+		return p, translate(r.Scan(&p.id, &p.ll.Lat, &p.ll.Lon))
+	})
+	if err != nil {
+		return nil, err
+	}
+	out := make(map[int64]LatLon, len(list))
+	for _, p := range list {
+		out[p.id] = p.ll
+	}
+	return out, nil
+}
