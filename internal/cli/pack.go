@@ -261,29 +261,35 @@ type packRow struct {
 func packRows(set register.DatasheetSet, u units.Unit) []packRow {
 	var out []packRow
 	for _, s := range set.Sheets {
-		d := sheetData(set.State, s, nil, u)
-		base := packRow{Mark: s.Mark.Designation, Aliases: d.Aliases, Lat: s.Mark.Lat, Lon: s.Mark.Lon, DistanceM: s.Mark.DistanceM,
-			Condition: condition(s.Mark), Doubts: s.Doubts.Words()}
-		if base.Aliases == nil {
-			base.Aliases = []string{}
+		out = append(out, packRowsOf(set.State, s, u)...)
+	}
+	return out
+}
+
+// packRowsOf is one mark's rows: one per datum, or one with no datum.
+func packRowsOf(st register.RegisterState, s register.Datasheet, u units.Unit) []packRow {
+	d := sheetData(st, s, nil, u)
+	base := packRow{Mark: s.Mark.Designation, Aliases: d.Aliases, Lat: s.Mark.Lat, Lon: s.Mark.Lon, DistanceM: s.Mark.DistanceM,
+		Condition: condition(s.Mark), Doubts: s.Doubts.Words()}
+	if base.Aliases == nil {
+		base.Aliases = []string{}
+	}
+	if d.LastRecovered != nil {
+		base.LastGoodOn = d.LastRecovered.Format("2006-01-02")
+	}
+	if len(s.Heights) == 0 {
+		return []packRow{base}
+	}
+	out := make([]packRow, 0, len(s.Heights))
+	for i, h := range s.Heights {
+		row := base
+		row.Datum, row.Version, row.Class, row.Source = h.DatumCode, h.Version, h.Class, d.Heights[i].Source
+		row.InForceFrom = h.InForceFrom.UTC().Format(time.RFC3339)
+		row.Doubts = s.Doubts.Of(h.DatumCode, h.Version).Words()
+		if h.Value != nil {
+			row.Height, row.Published, row.PublishedUnit = d.Heights[i].Value, *h.Value, *h.Unit
 		}
-		if d.LastRecovered != nil {
-			base.LastGoodOn = d.LastRecovered.Format("2006-01-02")
-		}
-		if len(s.Heights) == 0 {
-			out = append(out, base)
-			continue
-		}
-		for i, h := range s.Heights {
-			row := base
-			row.Datum, row.Version, row.Class, row.Source = h.DatumCode, h.Version, h.Class, d.Heights[i].Source
-			row.InForceFrom = h.InForceFrom.UTC().Format(time.RFC3339)
-			row.Doubts = s.Doubts.Of(h.DatumCode, h.Version).Words()
-			if h.Value != nil {
-				row.Height, row.Published, row.PublishedUnit = d.Heights[i].Value, *h.Value, *h.Unit
-			}
-			out = append(out, row)
-		}
+		out = append(out, row)
 	}
 	return out
 }
@@ -299,28 +305,37 @@ func fmtDeg(v *float64) string {
 func packCSV(rows []packRow, u units.Unit) ([]byte, error) {
 	var b bytes.Buffer
 	w := csv.NewWriter(&b)
-	_ = w.Write([]string{"mark", "aliases", "lat_deg", "lon_deg", "distance_from_site_m", "condition", "last_found_good_on",
-		"datum", "height_" + string(u), "height_in_unit", "unit", "version", "class", "in_force_from_utc", "source", "doubts"})
+	_ = w.Write(packCSVHeader(u))
 	for _, r := range rows {
-		dist, ver := "", ""
-		if r.DistanceM != nil {
-			dist = units.Format(*r.DistanceM, 1)
-		}
-		if r.Version > 0 {
-			ver = strconv.Itoa(r.Version)
-		}
-		_ = w.Write([]string{r.Mark, strings.Join(r.Aliases, ";"), fmtDeg(r.Lat), fmtDeg(r.Lon), dist, r.Condition, r.LastGoodOn,
-			r.Datum, r.Height, r.Published, r.PublishedUnit, ver, r.Class, r.InForceFrom, r.Source, r.Doubts})
+		_ = w.Write(r.csvRecord())
 	}
 	w.Flush()
 	return b.Bytes(), w.Error()
 }
 
+// packCSVHeader is the header of a pack's (and an export's) CSV: units in
+// the headers, the height's named after u.
+func packCSVHeader(u units.Unit) []string {
+	return []string{"mark", "aliases", "lat_deg", "lon_deg", "distance_from_site_m", "condition", "last_found_good_on",
+		"datum", "height_" + string(u), "height_in_unit", "unit", "version", "class", "in_force_from_utc", "source", "doubts"}
+}
+
+// csvRecord is r's CSV record, in packCSVHeader's order.
+func (r packRow) csvRecord() []string {
+	dist, ver := "", ""
+	if r.DistanceM != nil {
+		dist = units.Format(*r.DistanceM, 1)
+	}
+	if r.Version > 0 {
+		ver = strconv.Itoa(r.Version)
+	}
+	return []string{r.Mark, strings.Join(r.Aliases, ";"), fmtDeg(r.Lat), fmtDeg(r.Lon), dist, r.Condition, r.LastGoodOn,
+		r.Datum, r.Height, r.Published, r.PublishedUnit, ver, r.Class, r.InForceFrom, r.Source, r.Doubts}
+}
+
 // packGeoJSON writes the rows that have a position as an RFC 7946
 // FeatureCollection of Points (internal/geojson: [longitude, latitude], no
-// crs member), one feature per row. Property names are fixed snake_case
-// with units in them, in alphabetical order (as the pack always had them); the height's key names the
-// pack's unit.
+// crs member), one feature per row.
 func packGeoJSON(rows []packRow, u units.Unit) ([]byte, error) {
 	var b bytes.Buffer
 	w := geojson.NewWriter(&b, " ")
@@ -328,32 +343,7 @@ func packGeoJSON(rows []packRow, u units.Unit) ([]byte, error) {
 		if r.Lat == nil || r.Lon == nil {
 			continue
 		}
-		var version any
-		if r.Version > 0 {
-			version = r.Version
-		}
-		var dist any
-		if r.DistanceM != nil {
-			dist = *r.DistanceM
-		}
-		props := []geojson.Property{
-			{Name: "aliases", Value: r.Aliases},
-			{Name: "class", Value: nullable(r.Class)},
-			{Name: "condition", Value: r.Condition},
-			{Name: "datum", Value: nullable(r.Datum)},
-			{Name: "distance_from_site_m", Value: dist},
-			{Name: "doubts", Value: r.Doubts},
-			{Name: "height_in_unit", Value: nullable(r.Published)},
-			{Name: "height_" + string(u), Value: nullable(r.Height)},
-			{Name: "in_force_from_utc", Value: nullable(r.InForceFrom)},
-			{Name: "last_found_good_on", Value: nullable(r.LastGoodOn)},
-			{Name: "mark", Value: r.Mark},
-			{Name: "source", Value: nullable(r.Source)},
-			{Name: "unit", Value: nullable(r.PublishedUnit)},
-			{Name: "version", Value: version},
-		}
-		slices.SortFunc(props, func(a, b geojson.Property) int { return strings.Compare(a.Name, b.Name) })
-		if err := w.Write(geojson.Feature{Lon: r.Lon, Lat: r.Lat, Properties: props}); err != nil {
+		if err := w.Write(r.feature(u)); err != nil {
 			return nil, err
 		}
 	}
@@ -361,6 +351,38 @@ func packGeoJSON(rows []packRow, u units.Unit) ([]byte, error) {
 		return nil, err
 	}
 	return b.Bytes(), nil
+}
+
+// feature is r as a GeoJSON feature (a null geometry without a position).
+// Property names are fixed snake_case with units in them, in alphabetical
+// order (as the pack always had them); the height's key names the unit u.
+func (r packRow) feature(u units.Unit) geojson.Feature {
+	var version any
+	if r.Version > 0 {
+		version = r.Version
+	}
+	var dist any
+	if r.DistanceM != nil {
+		dist = *r.DistanceM
+	}
+	props := []geojson.Property{
+		{Name: "aliases", Value: r.Aliases},
+		{Name: "class", Value: nullable(r.Class)},
+		{Name: "condition", Value: r.Condition},
+		{Name: "datum", Value: nullable(r.Datum)},
+		{Name: "distance_from_site_m", Value: dist},
+		{Name: "doubts", Value: r.Doubts},
+		{Name: "height_in_unit", Value: nullable(r.Published)},
+		{Name: "height_" + string(u), Value: nullable(r.Height)},
+		{Name: "in_force_from_utc", Value: nullable(r.InForceFrom)},
+		{Name: "last_found_good_on", Value: nullable(r.LastGoodOn)},
+		{Name: "mark", Value: r.Mark},
+		{Name: "source", Value: nullable(r.Source)},
+		{Name: "unit", Value: nullable(r.PublishedUnit)},
+		{Name: "version", Value: version},
+	}
+	slices.SortFunc(props, func(a, b geojson.Property) int { return strings.Compare(a.Name, b.Name) })
+	return geojson.Feature{Lon: r.Lon, Lat: r.Lat, Properties: props}
 }
 
 // nullable is s, or JSON null for "".
