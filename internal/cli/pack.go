@@ -30,6 +30,8 @@ type packOptions struct {
 	within  string
 	asOf    *time.Time
 	asOfArg string
+	knownAt *time.Time
+	known   string
 	unit    units.Unit
 	out     string
 	key     string
@@ -37,9 +39,9 @@ type packOptions struct {
 
 func newCmdPack(f *Factory, runF func(*packOptions) error) *cobra.Command {
 	opts := &packOptions{f: f}
-	var asOf, unit string
+	var asOf, knownAt, unit string
 	cmd := &cobra.Command{
-		Use:   "pack --near LAT,LON --within R [--as-of TIME] [--unit m|ft|usft] --out FILE.zip",
+		Use:   "pack --near LAT,LON --within R [--as-of TIME] [--known-at TIME] [--unit m|ft|usft] --out FILE.zip",
 		Short: "Write a job pack for a site: the sheets, CSV and GeoJSON of the marks near it",
 		Long: `Write a job pack (a zip file) for the marks within --within of a site:
 
@@ -59,11 +61,18 @@ the register's latest commit; marks by distance, then designation). A
 signed statement says when it was made, so a pack with one differs in that
 file and in SHA256SUMS. --as-of gives the pack as it would have been at a
 past time: the heights in force then and the condition reports observed by
-then.
+then, as the register knows them now. --known-at gives the pack as the
+register knew it at a past time, as height show --known-at does: only the
+marks added, the height versions committed and the condition reports
+recorded by then (alone, the heights in force then; with --as-of, those in
+force at --as-of). Together they rebuild what a crew was handed on a day,
+from the register as it stood that day. The marks' descriptions, positions
+and doubts are as known now.
 
 ` + cautions,
 		Example: `  cairn pack --near 41.62,-97.95 --within 2km --unit usft --out mere-bridge.zip
-  cairn pack --near 41.62,-97.95 --within 2km --as-of 2020-06-01 --out as-handed.zip`,
+  cairn pack --near 41.62,-97.95 --within 2km --as-of 2020-06-01 --out as-in-force.zip
+  cairn pack --near 41.62,-97.95 --within 2km --known-at 2020-06-01 --out as-handed.zip`,
 		Args: exactArgs(0, "no arguments"),
 		RunE: func(cmd *cobra.Command, _ []string) error {
 			opts.ctx = cmd.Context()
@@ -78,6 +87,10 @@ then.
 				return err
 			}
 			opts.asOfArg = asOf
+			if opts.knownAt, err = parseKnownAt(knownAt); err != nil {
+				return err
+			}
+			opts.known = knownAt
 			if opts.unit, err = parseSheetUnit(unit); err != nil {
 				return err
 			}
@@ -88,6 +101,7 @@ then.
 	fl.StringVar(&opts.near, "near", "", "LAT,LON in decimal degrees: the site")
 	fl.StringVar(&opts.within, "within", "2km", "radius about the site, in m, km, ft, usft or mi (e.g. 2km, 500m)")
 	fl.StringVar(&asOf, "as-of", "", asOfUsage("give the heights"))
+	fl.StringVar(&knownAt, "known-at", "", knownAtUsage("give the marks, heights and condition reports"))
 	fl.StringVar(&unit, "unit", "m", "unit of the heights: m, ft (international foot) or usft (US survey foot)")
 	fl.StringVar(&opts.out, "out", "", "the zip file to write")
 	fl.StringVar(&opts.key, "key", "", "sign the statement with the Ed25519 key in FILE (default: the file CAIRN_AUDIT_KEY names; none: no statement)")
@@ -107,7 +121,7 @@ func packRun(opts *packOptions) error {
 	if err != nil {
 		return err
 	}
-	set, err := r.Datasheets(opts.ctx, register.DatasheetParams{Near: &ll, RadiusM: radius, AsOf: opts.asOf})
+	set, err := r.Datasheets(opts.ctx, register.DatasheetParams{Near: &ll, RadiusM: radius, AsOf: opts.asOf, KnownAt: opts.knownAt})
 	if err != nil {
 		return err
 	}
@@ -122,7 +136,7 @@ func packRun(opts *packOptions) error {
 		}
 		stmt = s.Encode()
 	}
-	p := packInput{Near: opts.near, Within: opts.within, AsOf: opts.asOfArg, Unit: opts.unit, Set: set, Statement: stmt}
+	p := packInput{Near: opts.near, Within: opts.within, AsOf: opts.asOfArg, KnownAt: opts.known, Unit: opts.unit, Set: set, Statement: stmt}
 	data, err := buildPack(p)
 	if err != nil {
 		return err
@@ -140,10 +154,10 @@ func packRun(opts *packOptions) error {
 
 // packInput is what a pack is made of.
 type packInput struct {
-	Near, Within, AsOf string
-	Unit               units.Unit
-	Set                register.DatasheetSet
-	Statement          []byte // nil: none
+	Near, Within, AsOf, KnownAt string
+	Unit                        units.Unit
+	Set                         register.DatasheetSet
+	Statement                   []byte // nil: none
 }
 
 // packFile is one file of a pack.
@@ -164,7 +178,7 @@ func buildPack(p packInput) ([]byte, error) {
 	}
 	var ds []sheet.Data
 	for _, s := range p.Set.Sheets {
-		ds = append(ds, sheetData(p.Set.State, s, parsedAsOf(p), p.Unit))
+		ds = append(ds, sheetData(p.Set.State, s, parsedInstant(p.AsOf), parsedInstant(p.KnownAt), p.Unit))
 	}
 	var files []packFile
 	files = append(files, packFile{"README.txt", packReadme(p, len(ds))})
@@ -226,12 +240,13 @@ func buildPack(p packInput) ([]byte, error) {
 	return b.Bytes(), nil
 }
 
-// parsedAsOf is the pack's --as-of again (it was checked on the way in).
-func parsedAsOf(p packInput) *time.Time {
-	if p.AsOf == "" {
+// parsedInstant is the pack's --as-of or --known-at again (it was
+// checked on the way in).
+func parsedInstant(s string) *time.Time {
+	if s == "" {
 		return nil
 	}
-	t, err := parseInstant(p.AsOf)
+	t, err := parseInstant(s)
 	if err != nil {
 		return nil
 	}
@@ -268,7 +283,7 @@ func packRows(set register.DatasheetSet, u units.Unit) []packRow {
 
 // packRowsOf is one mark's rows: one per datum, or one with no datum.
 func packRowsOf(st register.RegisterState, s register.Datasheet, u units.Unit) []packRow {
-	d := sheetData(st, s, nil, u)
+	d := sheetData(st, s, nil, nil, u)
 	base := packRow{Mark: s.Mark.Designation, Aliases: d.Aliases, Lat: s.Mark.Lat, Lon: s.Mark.Lon, DistanceM: s.Mark.DistanceM,
 		Condition: condition(s.Mark), Doubts: s.Doubts.Words()}
 	if base.Aliases == nil {
@@ -398,9 +413,14 @@ func packReadme(p packInput, marks int) []byte {
 	var b strings.Builder
 	fmt.Fprintf(&b, "cairn job pack\n==============\n\n")
 	fmt.Fprintf(&b, "Marks within %s of %s: %d.\n", p.Within, p.Near, marks)
-	if p.AsOf != "" {
+	switch {
+	case p.AsOf != "" && p.KnownAt != "":
+		fmt.Fprintf(&b, "Heights in force at %s (--as-of), as the register knew them at %s\n(--known-at): marks added, versions committed and condition reports\nrecorded by then, reports observed by %s; descriptions and doubts as known now.\n", p.AsOf, p.KnownAt, p.AsOf)
+	case p.KnownAt != "":
+		fmt.Fprintf(&b, "The register as it knew the marks at %s (--known-at): marks added,\nheight versions committed and condition reports recorded by then, the\nheights in force then; descriptions and doubts as known now.\n", p.KnownAt)
+	case p.AsOf != "":
 		fmt.Fprintf(&b, "Heights in force at %s (--as-of), as the register knows them now;\ncondition reports observed by then; doubts as known now.\n", p.AsOf)
-	} else {
+	default:
 		b.WriteString("Heights in force when the register was at the state below.\n")
 	}
 	fmt.Fprintf(&b, "Heights in %s (%s), converted exactly from the published values.\n\n", p.Unit, p.Unit.Name())
