@@ -616,7 +616,14 @@ func auditVerifyRun(opts *auditVerifyOptions) error {
 	if err != nil {
 		return err
 	}
-	rep, err := r.AuditVerify(opts.ctx)
+	// A bar of the versions checked, on a terminal and not with -o json;
+	// what follows them (the derived checks) is not counted.
+	var bar *Bar
+	if opts.format != FormatJSON {
+		bar = ios.StartBar(-1, "audit: height versions checked", "versions")
+	}
+	rep, err := r.AuditVerifyProgress(opts.ctx, bar.Add)
+	bar.Finish()
 	if err != nil {
 		return err
 	}

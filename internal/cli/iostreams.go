@@ -110,7 +110,8 @@ func (s *IOStreams) printf(format string, a ...any) { fmt.Fprintf(s.ErrOut, form
 // error stream of a terminal. A nil *Bar draws nothing: every method may
 // be called on what StartBar returned, whatever the streams are.
 type Bar struct {
-	pb *progressbar.ProgressBar
+	pb   *progressbar.ProgressBar
+	done bool
 }
 
 // StartBar starts a bar of total steps (less than 0: not known, a
@@ -143,9 +144,17 @@ func (b *Bar) Add(n int) {
 	}
 }
 
-// Finish clears the bar from the terminal.
+// Describe changes the words before the bar.
+func (b *Bar) Describe(what string) {
+	if b != nil && !b.done {
+		b.pb.Describe(what)
+	}
+}
+
+// Finish clears the bar from the terminal; again, it does nothing.
 func (b *Bar) Finish() {
-	if b != nil {
+	if b != nil && !b.done {
+		b.done = true
 		_ = b.pb.Finish()
 		_ = b.pb.Clear()
 	}

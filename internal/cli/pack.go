@@ -121,7 +121,17 @@ func packRun(opts *packOptions) error {
 	if err != nil {
 		return err
 	}
-	set, err := r.Datasheets(opts.ctx, register.DatasheetParams{Near: &ll, RadiusM: radius, AsOf: opts.asOf, KnownAt: opts.knownAt})
+	// A bar of the sheets read, then of the sheets written, on a terminal.
+	var bar *Bar
+	defer func() { bar.Finish() }()
+	set, err := r.Datasheets(opts.ctx, register.DatasheetParams{Near: &ll, RadiusM: radius, AsOf: opts.asOf, KnownAt: opts.knownAt,
+		Progress: func(done, total int) {
+			if bar == nil {
+				bar = opts.f.IO.StartBar(int64(total), "pack: reading sheets", "marks")
+			}
+			bar.Add(1)
+		}})
+	bar.Finish()
 	if err != nil {
 		return err
 	}
@@ -137,7 +147,10 @@ func packRun(opts *packOptions) error {
 		stmt = s.Encode()
 	}
 	p := packInput{Near: opts.near, Within: opts.within, AsOf: opts.asOfArg, KnownAt: opts.known, Unit: opts.unit, Set: set, Statement: stmt}
+	bar = opts.f.IO.StartBar(int64(2*len(set.Sheets)), "pack: writing sheets (PDF, HTML)", "sheets")
+	p.Step = func() { bar.Add(1) }
 	data, err := buildPack(p)
+	bar.Finish()
 	if err != nil {
 		return err
 	}
@@ -158,6 +171,9 @@ type packInput struct {
 	Unit                        units.Unit
 	Set                         register.DatasheetSet
 	Statement                   []byte // nil: none
+	// Step, unless nil, is called after each sheet's PDF page and HTML
+	// file, for a progress bar.
+	Step func()
 }
 
 // packFile is one file of a pack.
@@ -176,6 +192,10 @@ func buildPack(p packInput) ([]byte, error) {
 	if at.Before(packEpoch) {
 		at = packEpoch
 	}
+	step := p.Step
+	if step == nil {
+		step = func() {}
+	}
 	var ds []sheet.Data
 	for _, s := range p.Set.Sheets {
 		ds = append(ds, sheetData(p.Set.State, s, parsedInstant(p.AsOf), parsedInstant(p.KnownAt), p.Unit))
@@ -186,6 +206,9 @@ func buildPack(p packInput) ([]byte, error) {
 	if len(ds) > 0 {
 		if err := sheet.PDFMany(&pdf, ds, at); err != nil {
 			return nil, err
+		}
+		for range ds {
+			step() // the PDF is made in one call
 		}
 		files = append(files, packFile{"datasheets.pdf", pdf.Bytes()})
 	}
@@ -212,6 +235,7 @@ func buildPack(p packInput) ([]byte, error) {
 		}
 		used[sheetFileName(d.Designation)]++
 		files = append(files, packFile{"sheets/" + name + ".html", h.Bytes()})
+		step()
 	}
 	if p.Statement != nil {
 		files = append(files, packFile{"statement.json", p.Statement})

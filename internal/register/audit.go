@@ -126,7 +126,22 @@ type AuditReport struct {
 // before it, a gap in the version numbers, a time that does not follow
 // its predecessor's, or more than one current version.
 func (r *Register) AuditVerify(ctx context.Context) (AuditReport, error) {
+	return r.AuditVerifyProgress(ctx, nil)
+}
+
+// AuditProgressStep is how many versions AuditVerifyProgress checks
+// between two calls of its step.
+const AuditProgressStep = 1000
+
+// AuditVerifyProgress is AuditVerify calling step (unless nil) with the
+// number of versions checked since its last call, every
+// AuditProgressStep versions and at the end of the chains, for a
+// progress bar.
+func (r *Register) AuditVerifyProgress(ctx context.Context, step func(versions int)) (AuditReport, error) {
 	rep := AuditReport{Breaks: []Break{}}
+	if step == nil {
+		step = func(int) {}
+	}
 	var prev *store.Height
 	current := 0
 	endChain := func() {
@@ -137,6 +152,9 @@ func (r *Register) AuditVerify(ctx context.Context) (AuditReport, error) {
 	}
 	err := store.HeightEach(ctx, r.pool, func(h store.Height) error {
 		rep.Versions++
+		if rep.Versions%AuditProgressStep == 0 {
+			step(AuditProgressStep)
+		}
 		if prev == nil || prev.MarkID != h.MarkID || prev.DatumID != h.DatumID {
 			endChain()
 			rep.Chains++
@@ -178,6 +196,7 @@ func (r *Register) AuditVerify(ctx context.Context) (AuditReport, error) {
 		return rep, fmt.Errorf("read height versions: %w", err)
 	}
 	endChain()
+	step(rep.Versions % AuditProgressStep)
 	return rep, r.auditDerive(ctx, &rep)
 }
 

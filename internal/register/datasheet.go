@@ -28,6 +28,9 @@ type DatasheetParams struct {
 	// only the marks added by then; with AsOf nil the heights are those in
 	// force at KnownAt (AsOfOrKnown). Nil for all the register knows.
 	KnownAt *time.Time
+	// Progress, unless nil, is called after each sheet is read with the
+	// number read and the number of marks in all, for a progress bar.
+	Progress func(done, total int)
 	// NeighbourRadiusM is how far the sketch looks for other marks
 	// (DefaultNeighbourRadiusM when 0).
 	NeighbourRadiusM float64
@@ -124,12 +127,15 @@ func (r *Register) Datasheets(ctx context.Context, p DatasheetParams) (Datasheet
 				}
 			}
 		}
-		for _, m := range marks {
+		for i, m := range marks {
 			s, err := datasheet(ctx, tx, m, AsOfOrKnown(p.AsOf, p.KnownAt), p.KnownAt, nr)
 			if err != nil {
 				return err
 			}
 			out.Sheets = append(out.Sheets, s)
+			if p.Progress != nil {
+				p.Progress(i+1, len(marks))
+			}
 		}
 		return nil
 	})
