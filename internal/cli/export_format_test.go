@@ -50,6 +50,9 @@ func TestExportFormats(t *testing.T) {
 	if err != nil {
 		t.Fatal(err)
 	}
+	if st, _ := os.Stat(out); st.Mode().Perm() != 0o644 {
+		t.Errorf("the export's file has mode %v, want -rw-r--r-- as the pack's", st.Mode().Perm())
+	}
 	fs := geojsontest.Check(t, data)
 	var order []string
 	props := map[string]map[string]any{}

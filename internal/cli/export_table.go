@@ -60,6 +60,9 @@ func exportTableRun(opts *exportOptions) error {
 		}
 		defer os.Remove(tmp.Name())
 		defer tmp.Close()
+		if err := tmp.Chmod(0o644); err != nil {
+			return err
+		}
 		dst = tmp
 	}
 	bw := bufio.NewWriterSize(dst, 64<<10)
