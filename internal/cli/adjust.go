@@ -7,7 +7,6 @@ import (
 	"io"
 	"math"
 	"os"
-	"sync"
 	"time"
 
 	"github.com/spf13/cobra"
@@ -173,62 +172,18 @@ func checkNetworkOptions(o adjust.NetworkOptions) error {
 	return nil
 }
 
-// progress shows the current phase on a terminal once a job has run for a
-// second.
-type progress struct {
-	w     io.Writer
-	start time.Time
-	mu    sync.Mutex
-	phase string
-	shown bool
-	stop  chan struct{}
-	done  chan struct{}
-}
+// progress shows the current phase of an adjustment on a terminal: a
+// spinner with the phase and the time elapsed (IOStreams.StartBar; the
+// solve has no count to report).
+type progress struct{ bar *Bar }
 
 func startProgress(ios *IOStreams) *progress {
-	p := &progress{w: ios.progressOut(), start: time.Now(), stop: make(chan struct{}), done: make(chan struct{})}
-	if !ios.ErrIsTerminal {
-		close(p.done)
-		return p
-	}
-	go func() {
-		defer close(p.done)
-		tick := time.NewTicker(250 * time.Millisecond)
-		defer tick.Stop()
-		for {
-			select {
-			case <-p.stop:
-				return
-			case <-tick.C:
-				if el := time.Since(p.start); el >= time.Second {
-					p.mu.Lock()
-					fmt.Fprintf(p.w, "\r\033[Kadjusting: %s (%.0f s)", p.phase, el.Seconds())
-					p.shown = true
-					p.mu.Unlock()
-				}
-			}
-		}
-	}()
-	return p
+	return &progress{bar: ios.StartBar(-1, "adjusting", "steps")}
 }
 
-func (p *progress) set(phase string) {
-	p.mu.Lock()
-	p.phase = phase
-	p.mu.Unlock()
-}
+func (p *progress) set(phase string) { p.bar.Describe("adjusting: " + phase) }
 
-func (p *progress) end() {
-	select {
-	case <-p.done:
-	default:
-		close(p.stop)
-		<-p.done
-	}
-	if p.shown {
-		fmt.Fprint(p.w, "\r\033[K")
-	}
-}
+func (p *progress) end() { p.bar.Finish() }
 
 func adjustFilesRun(opts *adjustOptions) error {
 	ios := opts.IO

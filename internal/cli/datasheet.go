@@ -106,7 +106,7 @@ func datasheetRun(opts *datasheetOptions) error {
 		warnDoubts(ios, s.Doubts)
 	}
 	if opts.format != "" {
-		d := sheetData(set.State, set.Sheets[0], opts.asOf, opts.unit)
+		d := sheetData(set.State, set.Sheets[0], opts.asOf, nil, opts.unit)
 		if opts.format == "html" {
 			return sheet.HTML(ios.Out, d)
 		}
@@ -116,7 +116,7 @@ func datasheetRun(opts *datasheetOptions) error {
 		return badInput("out: %v", err)
 	}
 	for _, s := range set.Sheets {
-		d := sheetData(set.State, s, opts.asOf, opts.unit)
+		d := sheetData(set.State, s, opts.asOf, nil, opts.unit)
 		h, p, err := renderSheet(d)
 		if err != nil {
 			return err
@@ -175,12 +175,12 @@ func sheetCautions() []string {
 
 // sheetData is a mark's sheet: the register's view formatted, each height
 // converted exactly to u.
-func sheetData(st register.RegisterState, s register.Datasheet, asOf *time.Time, u units.Unit) sheet.Data {
+func sheetData(st register.RegisterState, s register.Datasheet, asOf, knownAt *time.Time, u units.Unit) sheet.Data {
 	m := s.Mark
 	d := sheet.Data{Designation: m.Designation, Aliases: m.Aliases, Kind: m.Type, Setting: m.Setting, Stamping: m.Stamping,
 		Description: m.Description, Directions: m.Directions, Lat: m.Lat, Lon: m.Lon, PositionSource: m.PositionSource,
 		Replaces: m.Replaces, Unit: string(u), LastRecovered: s.LastRecovered(), Cautions: sheetCautions(),
-		State: sheet.State{Seq: st.Seq, Head: st.Head, CommittedAt: st.CommittedAt, AsOf: asOf}}
+		State: sheet.State{Seq: st.Seq, Head: st.Head, CommittedAt: st.CommittedAt, AsOf: asOf, KnownAt: knownAt}}
 	if d.Aliases == nil {
 		for _, a := range s.Aliases {
 			d.Aliases = append(d.Aliases, a.Alias)

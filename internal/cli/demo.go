@@ -1,8 +1,13 @@
 package cli
 
 import (
+	"archive/zip"
 	"context"
+	"errors"
 	"fmt"
+	"io/fs"
+	"os"
+	"path/filepath"
 	"strings"
 
 	"github.com/spf13/cobra"
@@ -24,7 +29,19 @@ type demoOptions struct {
 	name string // the demo database
 	// url prints the demo register's URL instead of building it.
 	url bool
+	// pack is the file the demo's job pack is written to ("": demoPack
+	// in cairn's data folder).
+	pack string
 }
+
+// The demo's job pack: a site at the Mere River bridge (TC-0412), the
+// marks within 1 km, heights in US survey feet, written as demoPack in
+// cairn's data folder unless --pack names another file.
+const (
+	demoPack       = "demo-pack-mere-river-bridge.zip"
+	demoPackSite   = "41.6205,-97.9586"
+	demoPackRadius = "1km"
+)
 
 func newCmdDemo(f *Factory, runF func(*demoOptions) error) *cobra.Command {
 	opts := &demoOptions{f: f}
@@ -44,7 +61,12 @@ with any command, name it: --url prints its URL, for --db or
 CAIRN_DATABASE_URL:
 
   export CAIRN_DATABASE_URL="$(cairn demo --url)"
-  cairn mark show TC-0412`,
+  cairn mark show TC-0412
+
+Last it writes a job pack for a site in it, the Mere River bridge (cairn pack
+--near ` + demoPackSite + ` --within ` + demoPackRadius + ` --unit usft), to ` + demoPack + ` in
+cairn's data folder (or the file --pack names), made anew each run, and
+lists its files.`,
 		Args: exactArgs(0, "no arguments"),
 		RunE: func(cmd *cobra.Command, args []string) error {
 			opts.ctx = cmd.Context()
@@ -55,6 +77,7 @@ CAIRN_DATABASE_URL:
 		},
 	}
 	cmd.Flags().BoolVar(&opts.url, "url", false, "print the demo register's URL (for --db or CAIRN_DATABASE_URL) and build nothing")
+	cmd.Flags().StringVar(&opts.pack, "pack", "", "write the demo's job pack to FILE (default: "+demoPack+" in cairn's data folder)")
 	cmd.Flags().StringVar(&opts.name, "name", demoDatabase, "name of the demo database (dropped and made anew)")
 	_ = cmd.Flags().MarkHidden("name")
 	return cmd
@@ -66,10 +89,21 @@ func demoRun(opts *demoOptions) error {
 	src := f.Source()
 	server := src.URL
 	var url string
+	packPath := opts.pack
+	if packPath == "" && !opts.url {
+		dir, err := localpg.DefaultDir(os.Getenv)
+		if err != nil {
+			return err
+		}
+		packPath = filepath.Join(dir, demoPack)
+	}
 	if src.Embedded {
 		c, err := f.Cluster()
 		if err != nil {
 			return err
+		}
+		if opts.pack == "" && !opts.url {
+			packPath = filepath.Join(c.Dir, demoPack)
 		}
 		// The demo is the first command of the README: as root, on a
 		// machine new to cairn, it makes the system user of cairn's
@@ -149,10 +183,40 @@ func demoRun(opts *demoOptions) error {
 			return fmt.Errorf("demo: cairn %s: %w", step.args, err)
 		}
 	}
+	if err := demoWritePack(ctx, df, url, packPath); err != nil {
+		return err
+	}
 	fmt.Fprintf(out, "\nAll names, positions, heights and citations above are invented.\n\n%s\n", cautions)
 	fmt.Fprintf(out, "\nLook at it again with, for example:\n  cairn --db '%s' mark show %s\n  cairn --db '%s' history %s\n",
 		redact(url), demo.HistoryMark, redact(url), demo.HistoryMark)
 	fmt.Fprintf(out, "or make it the register every command reads, for this shell:\n  export CAIRN_DATABASE_URL=\"$(cairn demo --url)\"\n")
+	return nil
+}
+
+// demoWritePack writes the demo's job pack to path (made anew) and lists
+// its files, with the command that made it.
+func demoWritePack(ctx context.Context, df *Factory, url, path string) error {
+	out := df.IO.Out
+	args := []string{"pack", "--near", demoPackSite, "--within", demoPackRadius, "--unit", "usft", "--out", path}
+	fmt.Fprintf(out, "\n== A job pack for the Mere River bridge site (cairn %s)\n", strings.Join(args, " "))
+	if err := os.MkdirAll(filepath.Dir(path), 0o755); err != nil {
+		return fmt.Errorf("demo: the pack's folder: %w", err)
+	}
+	if err := os.Remove(path); err != nil && !errors.Is(err, fs.ErrNotExist) {
+		return fmt.Errorf("demo: the last run's pack: %w", err)
+	}
+	if err := Execute(ctx, df, append([]string{"--db", url}, args...)); err != nil {
+		return fmt.Errorf("demo: cairn pack: %w", err)
+	}
+	zr, err := zip.OpenReader(path)
+	if err != nil {
+		return fmt.Errorf("demo: read the pack back: %w", err)
+	}
+	defer zr.Close()
+	fmt.Fprintf(out, "%s holds:\n", path)
+	for _, zf := range zr.File {
+		fmt.Fprintf(out, "  %-26s %8d bytes\n", zf.Name, zf.UncompressedSize64)
+	}
 	return nil
 }
 

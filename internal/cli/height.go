@@ -409,8 +409,15 @@ func newCmdHeightList(f *Factory, runF func(*heightListOptions) error) *cobra.Co
 		Long: `List the height of every benchmark in force now, or in force at a past time
 (--as-of) as the register knows it now or knew it at a past time
 (--known-at), by the rule of height show (a version in force then and
-withdrawn is listed as withdrawn).`,
-		Args: exactArgs(0, "no arguments"),
+withdrawn is listed as withdrawn).
+
+-o geojson writes the heights as an RFC 7946 FeatureCollection for a GIS:
+one Point feature per mark and datum at the mark's current position
+[longitude, latitude] (a null geometry for a mark with no position), with
+the height as published (height_in_unit, unit) and converted exactly to
+metres (height_m) (docs/output.md).`,
+		Example: `  cairn height list --datum NAVD88 -o geojson > heights.geojson`,
+		Args:    exactArgs(0, "no arguments"),
 		RunE: func(cmd *cobra.Command, args []string) error {
 			opts.ctx = cmd.Context()
 			var err error
@@ -423,7 +430,7 @@ withdrawn is listed as withdrawn).`,
 			return dispatch(opts, runF, heightListRun)
 		},
 	}
-	addOutputFlag(cmd, &opts.format)
+	addGeoOutputFlag(cmd, &opts.format)
 	cmd.Flags().StringVar(&opts.datum, "datum", "", "only this datum")
 	cmd.Flags().StringVar(&opts.asOf, "as-of", "", asOfUsage("list the heights"))
 	cmd.Flags().StringVar(&opts.knownAt, "known-at", "", knownAtUsage("list the heights"))
@@ -451,6 +458,9 @@ func heightListRun(opts *heightListOptions) error {
 		out = append(out, j)
 	}
 	defer warnListed(opts.f.IO, opts.format, inDoubt, len(out), "heights")
+	if opts.format == FormatGeoJSON {
+		return writeHeightFeatures(opts.f.IO, hs)
+	}
 	return render(opts.f.IO, opts.format, out, func() Table {
 		t := Table{Headers: []string{"MARK", "DATUM", "VERSION", "HEIGHT" + perRowUnit, "UNIT", "CLASS", "SOURCE", "DOUBT"}}
 		for _, h := range out {
@@ -495,7 +505,7 @@ may be in force from an earlier date (a correction of the past).`,
 			return dispatch(opts, runF, historyRun)
 		},
 	}
-	addOutputFlag(cmd, &opts.format)
+	addGeoOutputFlag(cmd, &opts.format)
 	cmd.Flags().StringVar(&opts.datum, "datum", "", "only this datum")
 	return cmd
 }
@@ -606,7 +616,14 @@ func auditVerifyRun(opts *auditVerifyOptions) error {
 	if err != nil {
 		return err
 	}
-	rep, err := r.AuditVerify(opts.ctx)
+	// A bar of the versions checked, on a terminal and not with -o json;
+	// what follows them (the derived checks) is not counted.
+	var bar *Bar
+	if opts.format != FormatJSON {
+		bar = ios.StartBar(-1, "audit: height versions checked", "versions")
+	}
+	rep, err := r.AuditVerifyProgress(opts.ctx, bar.Add)
+	bar.Finish()
 	if err != nil {
 		return err
 	}

@@ -9,6 +9,7 @@ import (
 	"github.com/spf13/cobra"
 
 	"cairn/internal/register"
+	"cairn/internal/units"
 )
 
 // importOptions are the inputs of `cairn import`.
@@ -91,13 +92,20 @@ type exportOptions struct {
 	f   *Factory
 	ctx context.Context
 	out string
+	// format, when set (geojson or csv), asks for one file for a GIS or
+	// a spreadsheet instead of the import layout.
+	format string
+	area   string
+	within string
+	unit   units.Unit
 }
 
 func newCmdExport(f *Factory, runF func(*exportOptions) error) *cobra.Command {
 	opts := &exportOptions{f: f}
+	var unit string
 	cmd := &cobra.Command{
-		Use:   "export --out DIR",
-		Short: "Export the register as CSV files in the import layout",
+		Use:   "export --out DIR | export --format geojson|csv [--area LAT,LON --within R] [--unit m|ft|usft] --out FILE|-",
+		Short: "Export the register: CSV files in the import layout, or one GeoJSON or CSV file of the marks and heights",
 		Long: `Write the register to the folder DIR in the layout cairn import reads
 (docs/import.md): marks.csv with each mark as first recorded and its
 retirement, descriptions.csv with every later version of a description,
@@ -108,17 +116,56 @@ date. An export imported into an empty register (with the same datums) gives
 the same register, row for row. Runs and adjustments are not in the layout
 (backup keeps the whole record); heights of kind adjustment are written but
 an import refuses them (a warning says how many). DIR is made if needed;
-files already there are never overwritten.`,
-		Example: `  cairn export --out register-2026`,
-		Args:    exactArgs(0, "no arguments (the folder is --out)"),
-		RunE:    runE(&opts.ctx, opts, runF, exportRun),
+files already there are never overwritten.
+
+With --format, write instead one file for a GIS or a spreadsheet: every mark
+(or, with --area LAT,LON, those within --within of the point) with its
+current height on each datum, one row (one feature) per mark and datum, a
+mark with no height once. The columns are those of a job pack's marks.csv
+(docs/output.md): the height in --unit (its header or property names the
+unit: height_m, height_ft, height_usft), the height exactly as published
+with its unit, class, in-force time, source, the mark's condition, last
+found in good order, and its doubts. --format geojson writes an RFC 7946
+FeatureCollection, one Point feature a line at [longitude, latitude] (a null
+geometry for a mark with no position); --format csv writes RFC 4180 CSV.
+The marks are by designation, read in one snapshot a batch at a time, so
+memory does not grow with the register (docs/performance.md). --out -
+writes to standard output; a file already there is never overwritten, and
+a failed export leaves no file.
+
+` + cautions,
+		Example: `  cairn export --out register-2026
+  cairn export --format geojson --unit usft --out tallis-marks.geojson
+  cairn export --format csv --area 41.62,-97.95 --within 10km --out - > mere.csv`,
+		Args: exactArgs(0, "no arguments (the folder or file is --out)"),
+		RunE: func(cmd *cobra.Command, _ []string) error {
+			opts.ctx = cmd.Context()
+			var err error
+			if opts.unit, err = parseSheetUnit(unit); err != nil {
+				return err
+			}
+			if opts.format == "" && cmd.Flags().Changed("unit") {
+				return flagError{errors.New("--unit gives the heights of --format geojson|csv: the import layout keeps each height as published")}
+			}
+			return dispatch(opts, runF, exportRun)
+		},
 	}
-	cmd.Flags().StringVar(&opts.out, "out", "", "the folder to write (required)")
+	cmd.Flags().StringVar(&opts.out, "out", "", "the folder to write (the import layout), or with --format the file to write (- for standard output) (required)")
+	cmd.Flags().StringVar(&opts.format, "format", "", "write one file instead of the import layout: geojson (RFC 7946) or csv")
+	cmd.Flags().StringVar(&opts.area, "area", "", "with --format: only the marks within --within of LAT,LON (decimal degrees)")
+	cmd.Flags().StringVar(&opts.within, "within", "", "with --area: the radius, in m, km, ft, usft or mi (e.g. 10km)")
+	cmd.Flags().StringVar(&unit, "unit", "m", "with --format: unit of the heights, m, ft (international foot) or usft (US survey foot)")
 	return cmd
 }
 
 // exportRun writes the files.
 func exportRun(opts *exportOptions) error {
+	if opts.format != "" {
+		return exportTableRun(opts)
+	}
+	if opts.area != "" || opts.within != "" {
+		return flagError{errors.New("--area and --within choose the marks of --format geojson|csv: the import layout holds the whole register")}
+	}
 	if opts.out == "" {
 		return flagError{errors.New("--out: name the folder to write")}
 	}

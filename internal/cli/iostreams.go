@@ -7,7 +7,9 @@ import (
 	"io"
 	"os"
 	"strings"
+	"time"
 
+	"github.com/schollz/progressbar/v3"
 	"golang.org/x/term"
 )
 
@@ -103,3 +105,57 @@ func (s *IOStreams) Confirm(question string) bool {
 // printf writes a message for the person at the terminal on ErrOut, so
 // that Out carries only data.
 func (s *IOStreams) printf(format string, a ...any) { fmt.Fprintf(s.ErrOut, format, a...) }
+
+// Bar is a progress bar for long work (schollz/progressbar), drawn on the
+// error stream of a terminal. A nil *Bar draws nothing: every method may
+// be called on what StartBar returned, whatever the streams are.
+type Bar struct {
+	pb   *progressbar.ProgressBar
+	done bool
+}
+
+// StartBar starts a bar of total steps (less than 0: not known, a
+// spinner with the count) described by what, its rate in unit per second. It is the one place that
+// decides whether a bar is drawn: only when ErrOut is a terminal, so that
+// a bar never reaches a file, a pipe or a test's buffer, and never the
+// data on Out. Commands with machine output (-o json) do not ask.
+func (s *IOStreams) StartBar(total int64, what, unit string) *Bar {
+	if !s.ErrIsTerminal {
+		return nil
+	}
+	return &Bar{pb: progressbar.NewOptions64(total,
+		progressbar.OptionSetWriter(s.progressOut()),
+		progressbar.OptionSetDescription(what),
+		progressbar.OptionShowCount(),
+		progressbar.OptionShowIts(),
+		progressbar.OptionSetItsString(unit),
+		progressbar.OptionSetWidth(30),
+		progressbar.OptionThrottle(100*time.Millisecond),
+		progressbar.OptionSetPredictTime(true),
+		progressbar.OptionClearOnFinish(),
+		progressbar.OptionSetRenderBlankState(true),
+	)}
+}
+
+// Add advances the bar by n steps.
+func (b *Bar) Add(n int) {
+	if b != nil {
+		_ = b.pb.Add(n)
+	}
+}
+
+// Describe changes the words before the bar.
+func (b *Bar) Describe(what string) {
+	if b != nil && !b.done {
+		b.pb.Describe(what)
+	}
+}
+
+// Finish clears the bar from the terminal; again, it does nothing.
+func (b *Bar) Finish() {
+	if b != nil && !b.done {
+		b.done = true
+		_ = b.pb.Finish()
+		_ = b.pb.Clear()
+	}
+}

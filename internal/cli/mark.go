@@ -449,13 +449,19 @@ reported disturbed, destroyed or not found are flagged with a warning.
 
 --name keeps the mark whose designation or one of whose aliases (another
 agency's number, a former designation, what is stamped on it) is NAME, in
-any case.`,
+any case.
+
+-o geojson writes the marks as an RFC 7946 FeatureCollection for a GIS: one
+Point feature per mark at its current position [longitude, latitude] (a
+null geometry for a mark with no position), its fields as properties with
+snake_case names (docs/output.md).`,
 		Example: `  cairn mark list --near 41.62,-97.95 --within 2km
-  cairn mark list --condition disturbed,not-found`,
+  cairn mark list --condition disturbed,not-found
+  cairn mark list --near 41.62,-97.95 --within 5km -o geojson > marks.geojson`,
 		Args: exactArgs(0, "no arguments"),
 		RunE: runE(&opts.ctx, opts, runF, markListRun),
 	}
-	addOutputFlag(cmd, &opts.format)
+	addGeoOutputFlag(cmd, &opts.format)
 	cmd.Flags().StringVar(&opts.near, "near", "", "LAT,LON in decimal degrees: list marks near this point")
 	cmd.Flags().StringVar(&opts.within, "within", "2km", "search radius with --near, in m, km, ft, usft or mi (e.g. 2km, 500m, 2mi)")
 	cmd.Flags().StringVar(&opts.name, "name", "", "keep the mark with this designation or alias, in any case")
@@ -494,6 +500,9 @@ func markListRun(opts *markListOptions) error {
 		}
 	}
 	defer warnListed(opts.f.IO, opts.format, inDoubt, len(out), "marks")
+	if opts.format == FormatGeoJSON {
+		return writeMarkFeatures(opts.f.IO, ms, p.Near != nil)
+	}
 	return render(opts.f.IO, opts.format, out, func() Table {
 		t := Table{Headers: []string{"DESIGNATION", "TYPE", "CONDITION", "LAT (deg)", "LON (deg)", "ALIASES", "DOUBT"}}
 		if p.Near != nil {

@@ -19,6 +19,9 @@ const (
 	FormatTable Format = "table"
 	FormatJSON  Format = "json"
 	FormatCSV   Format = "csv"
+	// FormatGeoJSON is an RFC 7946 FeatureCollection (internal/geojson),
+	// for the commands that list marks.
+	FormatGeoJSON Format = "geojson"
 )
 
 // Table is tabular data: headers and rows of already formatted cells.
@@ -45,6 +48,31 @@ func addOutputFlag(cmd *cobra.Command, f *Format) {
 	_ = cmd.RegisterFlagCompletionFunc("output", func(*cobra.Command, []string, string) ([]string, cobra.ShellCompDirective) {
 		return []string{"table", "json", "csv"}, cobra.ShellCompDirectiveNoFileComp
 	})
+}
+
+// addGeoOutputFlag adds -o/--output to a command that lists marks: table,
+// json, csv or geojson.
+func addGeoOutputFlag(cmd *cobra.Command, f *Format) {
+	*f = FormatTable
+	cmd.Flags().VarP((*geoFormatValue)(f), "output", "o", "output format: table, json, csv or geojson (RFC 7946)")
+	_ = cmd.RegisterFlagCompletionFunc("output", func(*cobra.Command, []string, string) ([]string, cobra.ShellCompDirective) {
+		return []string{"table", "json", "csv", "geojson"}, cobra.ShellCompDirectiveNoFileComp
+	})
+}
+
+type geoFormatValue Format
+
+func (v *geoFormatValue) String() string { return string(*v) }
+func (v *geoFormatValue) Type() string   { return "format" }
+func (v *geoFormatValue) Set(s string) error {
+	if Format(strings.ToLower(s)) == FormatGeoJSON {
+		*v = geoFormatValue(FormatGeoJSON)
+		return nil
+	}
+	if err := (*formatValue)(v).Set(s); err != nil {
+		return fmt.Errorf("unknown output format %q (want table, json, csv or geojson)", s)
+	}
+	return nil
 }
 
 type formatValue Format
@@ -99,8 +127,8 @@ func writeTable(ios *IOStreams, format Format, t Table) error {
 			return err
 		}
 		return w.Error()
-	case FormatJSON:
-		return fmt.Errorf("cli: writeTable called with json")
+	case FormatJSON, FormatGeoJSON:
+		return fmt.Errorf("cli: writeTable called with %s", format)
 	}
 	// A cell is one line of plain text, whatever the register holds: piped,
 	// its tabs, line ends and backslashes escaped as COPY does, then the

@@ -7,15 +7,16 @@ import (
 	"crypto/sha256"
 	"encoding/csv"
 	"encoding/hex"
-	"encoding/json"
 	"fmt"
 	"os"
+	"slices"
 	"strconv"
 	"strings"
 	"time"
 
 	"github.com/spf13/cobra"
 
+	"cairn/internal/geojson"
 	"cairn/internal/register"
 	"cairn/internal/sheet"
 	"cairn/internal/units"
@@ -29,6 +30,8 @@ type packOptions struct {
 	within  string
 	asOf    *time.Time
 	asOfArg string
+	knownAt *time.Time
+	known   string
 	unit    units.Unit
 	out     string
 	key     string
@@ -36,9 +39,9 @@ type packOptions struct {
 
 func newCmdPack(f *Factory, runF func(*packOptions) error) *cobra.Command {
 	opts := &packOptions{f: f}
-	var asOf, unit string
+	var asOf, knownAt, unit string
 	cmd := &cobra.Command{
-		Use:   "pack --near LAT,LON --within R [--as-of TIME] [--unit m|ft|usft] --out FILE.zip",
+		Use:   "pack --near LAT,LON --within R [--as-of TIME] [--known-at TIME] [--unit m|ft|usft] --out FILE.zip",
 		Short: "Write a job pack for a site: the sheets, CSV and GeoJSON of the marks near it",
 		Long: `Write a job pack (a zip file) for the marks within --within of a site:
 
@@ -58,11 +61,18 @@ the register's latest commit; marks by distance, then designation). A
 signed statement says when it was made, so a pack with one differs in that
 file and in SHA256SUMS. --as-of gives the pack as it would have been at a
 past time: the heights in force then and the condition reports observed by
-then.
+then, as the register knows them now. --known-at gives the pack as the
+register knew it at a past time, as height show --known-at does: only the
+marks added, the height versions committed and the condition reports
+recorded by then (alone, the heights in force then; with --as-of, those in
+force at --as-of). Together they rebuild what a crew was handed on a day,
+from the register as it stood that day. The marks' descriptions, positions
+and doubts are as known now.
 
 ` + cautions,
 		Example: `  cairn pack --near 41.62,-97.95 --within 2km --unit usft --out mere-bridge.zip
-  cairn pack --near 41.62,-97.95 --within 2km --as-of 2020-06-01 --out as-handed.zip`,
+  cairn pack --near 41.62,-97.95 --within 2km --as-of 2020-06-01 --out as-in-force.zip
+  cairn pack --near 41.62,-97.95 --within 2km --known-at 2020-06-01 --out as-handed.zip`,
 		Args: exactArgs(0, "no arguments"),
 		RunE: func(cmd *cobra.Command, _ []string) error {
 			opts.ctx = cmd.Context()
@@ -77,6 +87,10 @@ then.
 				return err
 			}
 			opts.asOfArg = asOf
+			if opts.knownAt, err = parseKnownAt(knownAt); err != nil {
+				return err
+			}
+			opts.known = knownAt
 			if opts.unit, err = parseSheetUnit(unit); err != nil {
 				return err
 			}
@@ -87,6 +101,7 @@ then.
 	fl.StringVar(&opts.near, "near", "", "LAT,LON in decimal degrees: the site")
 	fl.StringVar(&opts.within, "within", "2km", "radius about the site, in m, km, ft, usft or mi (e.g. 2km, 500m)")
 	fl.StringVar(&asOf, "as-of", "", asOfUsage("give the heights"))
+	fl.StringVar(&knownAt, "known-at", "", knownAtUsage("give the marks, heights and condition reports"))
 	fl.StringVar(&unit, "unit", "m", "unit of the heights: m, ft (international foot) or usft (US survey foot)")
 	fl.StringVar(&opts.out, "out", "", "the zip file to write")
 	fl.StringVar(&opts.key, "key", "", "sign the statement with the Ed25519 key in FILE (default: the file CAIRN_AUDIT_KEY names; none: no statement)")
@@ -106,7 +121,17 @@ func packRun(opts *packOptions) error {
 	if err != nil {
 		return err
 	}
-	set, err := r.Datasheets(opts.ctx, register.DatasheetParams{Near: &ll, RadiusM: radius, AsOf: opts.asOf})
+	// A bar of the sheets read, then of the sheets written, on a terminal.
+	var bar *Bar
+	defer func() { bar.Finish() }()
+	set, err := r.Datasheets(opts.ctx, register.DatasheetParams{Near: &ll, RadiusM: radius, AsOf: opts.asOf, KnownAt: opts.knownAt,
+		Progress: func(done, total int) {
+			if bar == nil {
+				bar = opts.f.IO.StartBar(int64(total), "pack: reading sheets", "marks")
+			}
+			bar.Add(1)
+		}})
+	bar.Finish()
 	if err != nil {
 		return err
 	}
@@ -121,8 +146,11 @@ func packRun(opts *packOptions) error {
 		}
 		stmt = s.Encode()
 	}
-	p := packInput{Near: opts.near, Within: opts.within, AsOf: opts.asOfArg, Unit: opts.unit, Set: set, Statement: stmt}
+	p := packInput{Near: opts.near, Within: opts.within, AsOf: opts.asOfArg, KnownAt: opts.known, Unit: opts.unit, Set: set, Statement: stmt}
+	bar = opts.f.IO.StartBar(int64(2*len(set.Sheets)), "pack: writing sheets (PDF, HTML)", "sheets")
+	p.Step = func() { bar.Add(1) }
 	data, err := buildPack(p)
+	bar.Finish()
 	if err != nil {
 		return err
 	}
@@ -139,10 +167,13 @@ func packRun(opts *packOptions) error {
 
 // packInput is what a pack is made of.
 type packInput struct {
-	Near, Within, AsOf string
-	Unit               units.Unit
-	Set                register.DatasheetSet
-	Statement          []byte // nil: none
+	Near, Within, AsOf, KnownAt string
+	Unit                        units.Unit
+	Set                         register.DatasheetSet
+	Statement                   []byte // nil: none
+	// Step, unless nil, is called after each sheet's PDF page and HTML
+	// file, for a progress bar.
+	Step func()
 }
 
 // packFile is one file of a pack.
@@ -161,9 +192,13 @@ func buildPack(p packInput) ([]byte, error) {
 	if at.Before(packEpoch) {
 		at = packEpoch
 	}
+	step := p.Step
+	if step == nil {
+		step = func() {}
+	}
 	var ds []sheet.Data
 	for _, s := range p.Set.Sheets {
-		ds = append(ds, sheetData(p.Set.State, s, parsedAsOf(p), p.Unit))
+		ds = append(ds, sheetData(p.Set.State, s, parsedInstant(p.AsOf), parsedInstant(p.KnownAt), p.Unit))
 	}
 	var files []packFile
 	files = append(files, packFile{"README.txt", packReadme(p, len(ds))})
@@ -171,6 +206,9 @@ func buildPack(p packInput) ([]byte, error) {
 	if len(ds) > 0 {
 		if err := sheet.PDFMany(&pdf, ds, at); err != nil {
 			return nil, err
+		}
+		for range ds {
+			step() // the PDF is made in one call
 		}
 		files = append(files, packFile{"datasheets.pdf", pdf.Bytes()})
 	}
@@ -197,6 +235,7 @@ func buildPack(p packInput) ([]byte, error) {
 		}
 		used[sheetFileName(d.Designation)]++
 		files = append(files, packFile{"sheets/" + name + ".html", h.Bytes()})
+		step()
 	}
 	if p.Statement != nil {
 		files = append(files, packFile{"statement.json", p.Statement})
@@ -225,12 +264,13 @@ func buildPack(p packInput) ([]byte, error) {
 	return b.Bytes(), nil
 }
 
-// parsedAsOf is the pack's --as-of again (it was checked on the way in).
-func parsedAsOf(p packInput) *time.Time {
-	if p.AsOf == "" {
+// parsedInstant is the pack's --as-of or --known-at again (it was
+// checked on the way in).
+func parsedInstant(s string) *time.Time {
+	if s == "" {
 		return nil
 	}
-	t, err := parseInstant(p.AsOf)
+	t, err := parseInstant(s)
 	if err != nil {
 		return nil
 	}
@@ -260,29 +300,35 @@ type packRow struct {
 func packRows(set register.DatasheetSet, u units.Unit) []packRow {
 	var out []packRow
 	for _, s := range set.Sheets {
-		d := sheetData(set.State, s, nil, u)
-		base := packRow{Mark: s.Mark.Designation, Aliases: d.Aliases, Lat: s.Mark.Lat, Lon: s.Mark.Lon, DistanceM: s.Mark.DistanceM,
-			Condition: condition(s.Mark), Doubts: s.Doubts.Words()}
-		if base.Aliases == nil {
-			base.Aliases = []string{}
+		out = append(out, packRowsOf(set.State, s, u)...)
+	}
+	return out
+}
+
+// packRowsOf is one mark's rows: one per datum, or one with no datum.
+func packRowsOf(st register.RegisterState, s register.Datasheet, u units.Unit) []packRow {
+	d := sheetData(st, s, nil, nil, u)
+	base := packRow{Mark: s.Mark.Designation, Aliases: d.Aliases, Lat: s.Mark.Lat, Lon: s.Mark.Lon, DistanceM: s.Mark.DistanceM,
+		Condition: condition(s.Mark), Doubts: s.Doubts.Words()}
+	if base.Aliases == nil {
+		base.Aliases = []string{}
+	}
+	if d.LastRecovered != nil {
+		base.LastGoodOn = d.LastRecovered.Format("2006-01-02")
+	}
+	if len(s.Heights) == 0 {
+		return []packRow{base}
+	}
+	out := make([]packRow, 0, len(s.Heights))
+	for i, h := range s.Heights {
+		row := base
+		row.Datum, row.Version, row.Class, row.Source = h.DatumCode, h.Version, h.Class, d.Heights[i].Source
+		row.InForceFrom = h.InForceFrom.UTC().Format(time.RFC3339)
+		row.Doubts = s.Doubts.Of(h.DatumCode, h.Version).Words()
+		if h.Value != nil {
+			row.Height, row.Published, row.PublishedUnit = d.Heights[i].Value, *h.Value, *h.Unit
 		}
-		if d.LastRecovered != nil {
-			base.LastGoodOn = d.LastRecovered.Format("2006-01-02")
-		}
-		if len(s.Heights) == 0 {
-			out = append(out, base)
-			continue
-		}
-		for i, h := range s.Heights {
-			row := base
-			row.Datum, row.Version, row.Class, row.Source = h.DatumCode, h.Version, h.Class, d.Heights[i].Source
-			row.InForceFrom = h.InForceFrom.UTC().Format(time.RFC3339)
-			row.Doubts = s.Doubts.Of(h.DatumCode, h.Version).Words()
-			if h.Value != nil {
-				row.Height, row.Published, row.PublishedUnit = d.Heights[i].Value, *h.Value, *h.Unit
-			}
-			out = append(out, row)
-		}
+		out = append(out, row)
 	}
 	return out
 }
@@ -298,56 +344,84 @@ func fmtDeg(v *float64) string {
 func packCSV(rows []packRow, u units.Unit) ([]byte, error) {
 	var b bytes.Buffer
 	w := csv.NewWriter(&b)
-	_ = w.Write([]string{"mark", "aliases", "lat_deg", "lon_deg", "distance_from_site_m", "condition", "last_found_good_on",
-		"datum", "height_" + string(u), "height_in_unit", "unit", "version", "class", "in_force_from_utc", "source", "doubts"})
+	_ = w.Write(packCSVHeader(u))
 	for _, r := range rows {
-		dist, ver := "", ""
-		if r.DistanceM != nil {
-			dist = units.Format(*r.DistanceM, 1)
-		}
-		if r.Version > 0 {
-			ver = strconv.Itoa(r.Version)
-		}
-		_ = w.Write([]string{r.Mark, strings.Join(r.Aliases, ";"), fmtDeg(r.Lat), fmtDeg(r.Lon), dist, r.Condition, r.LastGoodOn,
-			r.Datum, r.Height, r.Published, r.PublishedUnit, ver, r.Class, r.InForceFrom, r.Source, r.Doubts})
+		_ = w.Write(r.csvRecord())
 	}
 	w.Flush()
 	return b.Bytes(), w.Error()
 }
 
+// packCSVHeader is the header of a pack's (and an export's) CSV: units in
+// the headers, the height's named after u.
+func packCSVHeader(u units.Unit) []string {
+	return []string{"mark", "aliases", "lat_deg", "lon_deg", "distance_from_site_m", "condition", "last_found_good_on",
+		"datum", "height_" + string(u), "height_in_unit", "unit", "version", "class", "in_force_from_utc", "source", "doubts"}
+}
+
+// csvRecord is r's CSV record, in packCSVHeader's order.
+func (r packRow) csvRecord() []string {
+	dist, ver := "", ""
+	if r.DistanceM != nil {
+		dist = units.Format(*r.DistanceM, 1)
+	}
+	if r.Version > 0 {
+		ver = strconv.Itoa(r.Version)
+	}
+	return []string{r.Mark, strings.Join(r.Aliases, ";"), fmtDeg(r.Lat), fmtDeg(r.Lon), dist, r.Condition, r.LastGoodOn,
+		r.Datum, r.Height, r.Published, r.PublishedUnit, ver, r.Class, r.InForceFrom, r.Source, r.Doubts}
+}
+
 // packGeoJSON writes the rows that have a position as an RFC 7946
-// FeatureCollection of Points: [longitude, latitude], no crs member (RFC
-// 7946 §4: WGS 84 always), one feature per row. Property names are fixed
-// snake_case with units in them; the height's key names the pack's unit.
+// FeatureCollection of Points (internal/geojson: [longitude, latitude], no
+// crs member), one feature per row.
 func packGeoJSON(rows []packRow, u units.Unit) ([]byte, error) {
-	type geometry struct {
-		Type        string     `json:"type"`
-		Coordinates [2]float64 `json:"coordinates"`
-	}
-	type feature struct {
-		Type       string         `json:"type"`
-		Geometry   geometry       `json:"geometry"`
-		Properties map[string]any `json:"properties"`
-	}
-	fc := struct {
-		Type     string    `json:"type"`
-		Features []feature `json:"features"`
-	}{Type: "FeatureCollection", Features: []feature{}}
+	var b bytes.Buffer
+	w := geojson.NewWriter(&b, " ")
 	for _, r := range rows {
 		if r.Lat == nil || r.Lon == nil {
 			continue
 		}
-		props := map[string]any{"mark": r.Mark, "aliases": r.Aliases, "condition": r.Condition, "last_found_good_on": nullable(r.LastGoodOn),
-			"datum": nullable(r.Datum), "height_" + string(u): nullable(r.Height), "height_in_unit": nullable(r.Published),
-			"unit": nullable(r.PublishedUnit), "class": nullable(r.Class), "in_force_from_utc": nullable(r.InForceFrom),
-			"source": nullable(r.Source), "doubts": r.Doubts, "distance_from_site_m": r.DistanceM, "version": nil}
-		if r.Version > 0 {
-			props["version"] = r.Version
+		if err := w.Write(r.feature(u)); err != nil {
+			return nil, err
 		}
-		fc.Features = append(fc.Features, feature{Type: "Feature", Geometry: geometry{Type: "Point", Coordinates: [2]float64{*r.Lon, *r.Lat}}, Properties: props})
 	}
-	b, err := json.MarshalIndent(fc, "", " ")
-	return append(b, '\n'), err
+	if err := w.Close(); err != nil {
+		return nil, err
+	}
+	return b.Bytes(), nil
+}
+
+// feature is r as a GeoJSON feature (a null geometry without a position).
+// Property names are fixed snake_case with units in them, in alphabetical
+// order (as the pack always had them); the height's key names the unit u.
+func (r packRow) feature(u units.Unit) geojson.Feature {
+	var version any
+	if r.Version > 0 {
+		version = r.Version
+	}
+	var dist any
+	if r.DistanceM != nil {
+		dist = *r.DistanceM
+	}
+	props := []geojson.Property{
+		{Name: "aliases", Value: r.Aliases},
+		{Name: "class", Value: nullable(r.Class)},
+		{Name: "condition", Value: r.Condition},
+		{Name: "datum", Value: nullable(r.Datum)},
+		{Name: "distance_from_site_m", Value: dist},
+		{Name: "doubts", Value: r.Doubts},
+		{Name: "height_in_unit", Value: nullable(r.Published)},
+		{Name: "height_" + string(u), Value: nullable(r.Height)},
+		{Name: "in_force_from_utc", Value: nullable(r.InForceFrom)},
+		{Name: "last_found_good_on", Value: nullable(r.LastGoodOn)},
+		{Name: "mark", Value: r.Mark},
+		{Name: "source", Value: nullable(r.Source)},
+		{Name: "unit", Value: nullable(r.PublishedUnit)},
+		{Name: "version", Value: version},
+	}
+	slices.SortFunc(props, func(a, b geojson.Property) int { return strings.Compare(a.Name, b.Name) })
+	return geojson.Feature{Lon: r.Lon, Lat: r.Lat, Properties: props}
 }
 
 // nullable is s, or JSON null for "".
@@ -363,9 +437,14 @@ func packReadme(p packInput, marks int) []byte {
 	var b strings.Builder
 	fmt.Fprintf(&b, "cairn job pack\n==============\n\n")
 	fmt.Fprintf(&b, "Marks within %s of %s: %d.\n", p.Within, p.Near, marks)
-	if p.AsOf != "" {
+	switch {
+	case p.AsOf != "" && p.KnownAt != "":
+		fmt.Fprintf(&b, "Heights in force at %s (--as-of), as the register knew them at %s\n(--known-at): marks added, versions committed and condition reports\nrecorded by then, reports observed by %s; descriptions and doubts as known now.\n", p.AsOf, p.KnownAt, p.AsOf)
+	case p.KnownAt != "":
+		fmt.Fprintf(&b, "The register as it knew the marks at %s (--known-at): marks added,\nheight versions committed and condition reports recorded by then, the\nheights in force then; descriptions and doubts as known now.\n", p.KnownAt)
+	case p.AsOf != "":
 		fmt.Fprintf(&b, "Heights in force at %s (--as-of), as the register knows them now;\ncondition reports observed by then; doubts as known now.\n", p.AsOf)
-	} else {
+	default:
 		b.WriteString("Heights in force when the register was at the state below.\n")
 	}
 	fmt.Fprintf(&b, "Heights in %s (%s), converted exactly from the published values.\n\n", p.Unit, p.Unit.Name())

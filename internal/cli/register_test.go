@@ -13,6 +13,7 @@ import (
 	"testing"
 	"time"
 
+	"cairn/internal/geojson/geojsontest"
 	"cairn/internal/pgtest"
 	"cairn/internal/registertest"
 	"cairn/internal/store"
@@ -326,9 +327,10 @@ func TestDemoRunsTwice(t *testing.T) {
 		t.Fatal(err)
 	}
 	t.Cleanup(func() { _, _ = db.Pool.Exec(context.Background(), "DROP DATABASE IF EXISTS "+name+" WITH (FORCE)") })
+	pack := filepath.Join(t.TempDir(), "demo-pack.zip")
 	for i := range 2 {
-		out := mustRun(t, server, "demo", "--name", name)
-		for _, want := range []string{"TC-0412", "234.662", "769.83", "correction", "DISTURBED",
+		out := mustRun(t, server, "demo", "--name", name, "--pack", pack)
+		for _, want := range []string{"cairn pack --near", pack + " holds:", "marks.geojson", "datasheets.pdf", "sheets/TC-0412.html", "TC-0412", "234.662", "769.83", "correction", "DISTURBED",
 			"licensed surveyor", "two marks", "condition", "regulations govern", "--db", name, "invented", "Mere River levee line", "Marks touched", "as it stood on 2020-06-01"} {
 			if !strings.Contains(out, want) {
 				t.Fatalf("run %d: demo output lacks %q:\n%s", i+1, want, out)
@@ -352,6 +354,17 @@ func TestDemoRunsTwice(t *testing.T) {
 	}
 	if _, errOut, st := run(t, demoURL, "audit", "verify"); st != 0 {
 		t.Fatalf("audit of the demo: exit %d: %s", st, errOut)
+	}
+	// The demo's pack: the marks within 1 km of the bridge, its GeoJSON
+	// RFC 7946 (geojsontest.Check), TC-0412 among them.
+	data, err := os.ReadFile(pack)
+	if err != nil {
+		t.Fatal(err)
+	}
+	files, _ := readZip(t, data)
+	fs := geojsontest.Check(t, files["marks.geojson"])
+	if len(fs) < 2 || !strings.Contains(string(files["marks.csv"]), "TC-0412,") || !strings.Contains(string(files["README.txt"]), "licensed surveyor") {
+		t.Errorf("the demo's pack: %d features, marks.csv %q", len(fs), files["marks.csv"])
 	}
 	if _, _, st := run(t, server, "demo", "--name", "postgres"); st != ExitBadInput {
 		t.Fatalf("demo --name postgres: exit %d, want %d (it must never drop other databases)", st, ExitBadInput)

@@ -8,6 +8,7 @@ import (
 	"fmt"
 	"runtime"
 	"strconv"
+	"sync"
 	"time"
 
 	"github.com/jackc/pgx/v5"
@@ -160,8 +161,25 @@ type AuditReport struct {
 // own transaction on one snapshot exported by the first, so that they see
 // the same register; the breaks are reported in chain order.
 func (r *Register) AuditVerify(ctx context.Context) (AuditReport, error) {
+	return r.AuditVerifyProgress(ctx, nil)
+}
+
+// AuditProgressStep is how many versions AuditVerifyProgress checks
+// between two calls of its step.
+const AuditProgressStep = 1000
+
+// AuditVerifyProgress is AuditVerify calling step (unless nil) with the
+// number of versions checked since its last call, every
+// AuditProgressStep versions and at the end of the chains, for a
+// progress bar.
+func (r *Register) AuditVerifyProgress(ctx context.Context, step func(versions int)) (AuditReport, error) {
 	rep := AuditReport{Breaks: []Break{}}
-	if err := r.auditChains(ctx, &rep); err != nil {
+	if step == nil {
+		step = func(int) {}
+	}
+	var mu sync.Mutex
+	safe := func(n int) { mu.Lock(); defer mu.Unlock(); step(n) }
+	if err := r.auditChains(ctx, &rep, safe); err != nil {
 		return rep, fmt.Errorf("read height versions: %w", err)
 	}
 	return rep, r.auditDerive(ctx, &rep)
@@ -174,7 +192,7 @@ var (
 	auditSpanPerWorker = int64(1000)
 )
 
-func (r *Register) auditChains(ctx context.Context, rep *AuditReport) error {
+func (r *Register) auditChains(ctx context.Context, rep *AuditReport, step func(int)) error {
 	lead, err := r.pool.BeginTx(ctx, pgx.TxOptions{IsoLevel: pgx.RepeatableRead, AccessMode: pgx.ReadOnly})
 	if err != nil {
 		return err
@@ -194,14 +212,14 @@ func (r *Register) auditChains(ctx context.Context, rep *AuditReport) error {
 	}
 	parts := make([]AuditReport, n)
 	g, gctx := errgroup.WithContext(ctx)
-	step := (hi - lo + n) / n
+	width := (hi - lo + n) / n
 	for i := range n {
-		from, to := lo+i*step, min(lo+(i+1)*step-1, hi)
+		from, to := lo+i*width, min(lo+(i+1)*width-1, hi)
 		part := &parts[i]
 		part.Breaks = []Break{}
 		g.Go(func() error {
 			if i == 0 {
-				return auditChainRange(gctx, lead, from, to, part)
+				return auditChainRange(gctx, lead, from, to, part, step)
 			}
 			tx, err := r.pool.BeginTx(gctx, pgx.TxOptions{IsoLevel: pgx.RepeatableRead, AccessMode: pgx.ReadOnly})
 			if err != nil {
@@ -211,7 +229,7 @@ func (r *Register) auditChains(ctx context.Context, rep *AuditReport) error {
 			if err := store.SnapshotUse(gctx, tx, snapshot); err != nil {
 				return fmt.Errorf("share the audit's snapshot: %w", err)
 			}
-			return auditChainRange(gctx, tx, from, to, part)
+			return auditChainRange(gctx, tx, from, to, part, step)
 		})
 	}
 	if err := g.Wait(); err != nil {
@@ -234,14 +252,18 @@ type chainLink struct {
 }
 
 // auditChainRange checks the chains of the marks with ids from lo to hi.
-func auditChainRange(ctx context.Context, tx pgx.Tx, lo, hi int64, rep *AuditReport) error {
+func auditChainRange(ctx context.Context, tx pgx.Tx, lo, hi int64, rep *AuditReport, step func(int)) error {
 	var (
 		prev    chainLink
 		hasPrev bool
 		buf     []byte
 	)
+	defer func() { step(rep.Versions % AuditProgressStep) }()
 	return store.HeightChainEach(ctx, tx, lo, hi, func(h *store.Height) error {
 		rep.Versions++
+		if rep.Versions%AuditProgressStep == 0 {
+			step(AuditProgressStep)
+		}
 		if !hasPrev || prev.markID != h.MarkID || prev.datumID != h.DatumID {
 			rep.Chains++
 			hasPrev = false

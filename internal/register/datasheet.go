@@ -23,6 +23,14 @@ type DatasheetParams struct {
 	// AsOf is the instant asked about: the versions in force then (as the
 	// register knows them now); nil for now.
 	AsOf *time.Time
+	// KnownAt is the instant of the register's knowledge: only the height
+	// versions committed and the condition reports recorded by then, and
+	// only the marks added by then; with AsOf nil the heights are those in
+	// force at KnownAt (AsOfOrKnown). Nil for all the register knows.
+	KnownAt *time.Time
+	// Progress, unless nil, is called after each sheet is read with the
+	// number read and the number of marks in all, for a progress bar.
+	Progress func(done, total int)
 	// NeighbourRadiusM is how far the sketch looks for other marks
 	// (DefaultNeighbourRadiusM when 0).
 	NeighbourRadiusM float64
@@ -111,25 +119,33 @@ func (r *Register) Datasheets(ctx context.Context, p DatasheetParams) (Datasheet
 				return err
 			}
 			for _, m := range ms {
+				if p.KnownAt != nil && m.CreatedAt.After(*p.KnownAt) {
+					continue // the register did not know the mark yet
+				}
 				if !seen[m.ID] {
 					marks, seen[m.ID] = append(marks, m), true
 				}
 			}
 		}
-		for _, m := range marks {
-			s, err := datasheet(ctx, tx, m, p.AsOf, nr)
+		for i, m := range marks {
+			s, err := datasheet(ctx, tx, m, AsOfOrKnown(p.AsOf, p.KnownAt), p.KnownAt, nr)
 			if err != nil {
 				return err
 			}
 			out.Sheets = append(out.Sheets, s)
+			if p.Progress != nil {
+				p.Progress(i+1, len(marks))
+			}
 		}
 		return nil
 	})
 	return out, err
 }
 
-// datasheet reads one mark's sheet in tx.
-func datasheet(ctx context.Context, tx pgx.Tx, m store.Mark, asOf *time.Time, neighbourM float64) (Datasheet, error) {
+// datasheet reads one mark's sheet in tx: heights in force at asOf as
+// known at knownAt, the reports observed by asOf and recorded by knownAt
+// (each nil: no limit).
+func datasheet(ctx context.Context, tx pgx.Tx, m store.Mark, asOf, knownAt *time.Time, neighbourM float64) (Datasheet, error) {
 	s := Datasheet{MarkView: MarkView{Mark: m}}
 	v := &s.MarkView
 	var err error
@@ -140,7 +156,11 @@ func datasheet(ctx context.Context, tx pgx.Tx, m store.Mark, asOf *time.Time, ne
 		// The reports observed by then, as a crew would have had them.
 		v.Conditions = slices.DeleteFunc(v.Conditions, func(c store.Condition) bool { return c.ObservedOn.After(*asOf) })
 	}
-	if v.Heights, err = store.HeightAsOf(ctx, tx, store.HeightAsOfParams{MarkID: m.ID, AsOf: asOf}); err != nil {
+	if knownAt != nil {
+		// The reports the register had been given by then.
+		v.Conditions = slices.DeleteFunc(v.Conditions, func(c store.Condition) bool { return c.RecordedAt.After(*knownAt) })
+	}
+	if v.Heights, err = store.HeightAsOf(ctx, tx, store.HeightAsOfParams{MarkID: m.ID, AsOf: asOf, KnownAt: knownAt}); err != nil {
 		return s, err
 	}
 	if v.Aliases, err = store.AliasListByMark(ctx, tx, m.ID); err != nil {

@@ -267,6 +267,8 @@ func (r *Register) HeightShow(ctx context.Context, p HeightShowParams) (MarkView
 type CurrentHeight struct {
 	store.Height
 	Doubts Doubts
+	// Position is the mark's current position, nil if it has none.
+	Position *store.LatLon
 }
 
 // HeightsCurrent returns the current version of every mark on datum (""
@@ -287,7 +289,8 @@ func AsOfOrKnown(asOf, knownAt *time.Time) *time.Time {
 // HeightsAsOf returns the version of every mark on datum ("" for every
 // datum) in force at asOf as the register knew it at knownAt (each nil:
 // now; knownAt alone: in force then as known then), by the rule of
-// store.HeightAsOf. A version listed may be a withdrawal.
+// store.HeightAsOf, each with its doubts and its mark's current position
+// (not the position as of then). A version listed may be a withdrawal.
 func (r *Register) HeightsAsOf(ctx context.Context, datum string, asOf, knownAt *time.Time) ([]CurrentHeight, error) {
 	var out []CurrentHeight
 	err := r.withTx(ctx, readTx, func(tx pgx.Tx) error {
@@ -324,9 +327,16 @@ func (r *Register) HeightsAsOf(ctx context.Context, datum string, asOf, knownAt 
 		if err != nil {
 			return err
 		}
+		pos, err := store.MarkPositions(ctx, tx, ids)
+		if err != nil {
+			return err
+		}
 		out = make([]CurrentHeight, len(hs))
 		for i, h := range hs {
 			out[i] = CurrentHeight{Height: h, Doubts: ds[h.MarkID].Of(h.DatumCode, h.Version)}
+			if p, ok := pos[h.MarkID]; ok {
+				out[i].Position = &p
+			}
 		}
 		return nil
 	})

@@ -41,10 +41,14 @@ func (d Data) PositionText() string {
 
 // AsOfText says what instant the heights are of.
 func (d Data) AsOfText() string {
-	if d.State.AsOf == nil {
-		return "in force when the sheet was made"
+	s := "in force when the sheet was made"
+	if d.State.AsOf != nil {
+		s = "in force on " + d.State.AsOf.UTC().Format(time.RFC3339)
 	}
-	return "in force on " + d.State.AsOf.UTC().Format(time.RFC3339)
+	if d.State.KnownAt != nil {
+		s += " as the register knew them on " + d.State.KnownAt.UTC().Format(time.RFC3339)
+	}
+	return s
 }
 
 // RecoveredText is the last recovery in words.

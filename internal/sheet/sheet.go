@@ -114,6 +114,9 @@ type State struct {
 	CommittedAt time.Time
 	// AsOf is the instant asked about (--as-of); nil for now.
 	AsOf *time.Time
+	// KnownAt is the instant of the register's knowledge (--known-at):
+	// the heights and reports it had by then; nil for all it knows.
+	KnownAt *time.Time
 }
 
 // Time is the sheet's own time: the state's latest commit, the moment

@@ -116,6 +116,30 @@ func ConditionLatestMany(ctx context.Context, db DBTX, markIDs []int64) (map[int
 	return out, nil
 }
 
+// ConditionLastGoodMany returns, for each of the marks that has one, its
+// latest report (by date observed) that found it in good order: good or
+// reset.
+func ConditionLastGoodMany(ctx context.Context, db DBTX, markIDs []int64) (map[int64]Condition, error) {
+	rows, err := db.Query(ctx, `SELECT DISTINCT ON (mark_id) id, mark_id, condition, note, observed_on, recorded_at, recorded_by
+		FROM mark_condition WHERE mark_id = ANY($1) AND condition IN ('good', 'reset') ORDER BY mark_id, observed_on DESC, id DESC`, markIDs)
+	if err != nil {
+		return nil, translate(err)
+	}
+	list, err := collect(rows, func(r pgx.Row) (Condition, error) {
+		var c Condition
+		err := r.Scan(&c.ID, &c.MarkID, &c.Condition, &c.Note, &c.ObservedOn, &c.RecordedAt, &c.RecordedBy)
+		return c, translate(err)
+	})
+	if err != nil {
+		return nil, err
+	}
+	out := make(map[int64]Condition, len(list))
+	for _, c := range list {
+		out[c.MarkID] = c
+	}
+	return out, nil
+}
+
 // ConditionLatestResetMany returns, for each of the marks that has one, its
 // reset report recorded last (condition "reset", the greatest recorded_at):
 // the report from which on the heights recorded before it are of the mark

@@ -256,6 +256,12 @@ type MarkListParams struct {
 	// Name, if set (a folded name, see MarkGetFolded), keeps the mark whose
 	// designation or one of whose aliases has that folded form.
 	Name string
+	// Limit, if more than 0, asks for one page of at most Limit marks by
+	// designation (a near search too), those whose designation comes
+	// after After: the pages of a listing too large to hold at once,
+	// each answered by the index on the designation.
+	Limit int
+	After string
 }
 
 // LatLon is a position in decimal degrees.
@@ -330,6 +336,17 @@ func markListSQL(p MarkListParams) (string, []any) {
 	q += markFrom
 	if len(where) > 0 {
 		q += " WHERE " + strings.Join(where, " AND ")
+	}
+	if p.Limit > 0 {
+		args = append(args, p.After, p.Limit)
+		page := fmt.Sprintf("designation > $%d ORDER BY designation LIMIT $%d", len(args)-1, len(args))
+		if p.Near != nil {
+			return q + ") near WHERE distance_m <= $3 AND " + page, args
+		}
+		if len(where) > 0 {
+			return q + " AND m." + page, args
+		}
+		return q + " WHERE m." + page, args
 	}
 	if p.Near != nil {
 		return q + ") near WHERE distance_m <= $3 ORDER BY distance_m, designation", args
@@ -418,6 +435,40 @@ func MarkEarliestRecord(ctx context.Context, db DBTX, markIDs []int64) (map[int6
 	out := make(map[int64]time.Time, len(list))
 	for _, f := range list {
 		out[f.id] = f.on
+	}
+	return out, nil
+}
+
+// MarkCount is the number of marks in the register.
+func MarkCount(ctx context.Context, db DBTX) (int64, error) {
+	var n int64
+	err := db.QueryRow(ctx, "SELECT count(*) FROM mark").Scan(&n)
+	return n, translate(err)
+}
+
+// MarkPositions returns the current position of each of the marks that
+// has one, by the mark's identifier.
+func MarkPositions(ctx context.Context, db DBTX, markIDs []int64) (map[int64]LatLon, error) {
+	rows, err := db.Query(ctx, `SELECT m.id, `+curLat+`, `+curLon+` FROM mark m LEFT JOIN LATERAL (
+		SELECT * FROM mark_version mv WHERE mv.mark_id = m.id ORDER BY mv.version DESC LIMIT 1
+	) v ON true WHERE m.id = ANY($1) AND `+curLat+` IS NOT NULL`, markIDs)
+	if err != nil {
+		return nil, translate(err)
+	}
+	type pos struct {
+		id int64
+		ll LatLon
+	}
+	list, err := collect(rows, func(r pgx.Row) (pos, error) {
+		var p pos
+		return p, translate(r.Scan(&p.id, &p.ll.Lat, &p.ll.Lon))
+	})
+	if err != nil {
+		return nil, err
+	}
+	out := make(map[int64]LatLon, len(list))
+	for _, p := range list {
+		out[p.id] = p.ll
 	}
 	return out, nil
 }
