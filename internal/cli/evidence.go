@@ -143,6 +143,47 @@ type statementCheck struct {
 // file when not empty; it prints what it found and returns checksFailed
 // when anything does not hold. The statement's check is nil without one.
 func verifyAgainst(ctx context.Context, f *Factory, r *register.Register, file, pub string) (register.EvidenceReport, *statementCheck, error) {
+	return verifyEvidence(ctx, f, r, file, pub, nil)
+}
+
+// readSince reads the statement an incremental audit starts from, its
+// signature checked when it has one (and required with pub).
+func readSince(f *Factory, file, pub string) (register.Statement, *statementCheck, error) {
+	data, err := os.ReadFile(file)
+	if err != nil {
+		return register.Statement{}, nil, badInput("--since: %v", err)
+	}
+	s, signed, err := register.ParseStatement(data, pub)
+	if err != nil {
+		return register.Statement{}, nil, badInput("--since %s: %v", file, err)
+	}
+	check := &statementCheck{File: file, Signed: signed}
+	if signed {
+		check.PublicKey = s.PublicKey
+		f.IO.printf("statement %s: signed by %s, signature verifies\n", file, s.PublicKey)
+	} else {
+		f.IO.printf("statement %s: not signed: the audit since it trusts the file as it is\n", file)
+	}
+	return s, check, nil
+}
+
+// verifyEvidence is verifyAgainst, or with since the evidence from that
+// checkpoint on (EvidenceVerifySince).
+func verifyEvidence(ctx context.Context, f *Factory, r *register.Register, file, pub string, since *register.Statement) (register.EvidenceReport, *statementCheck, error) {
+	if since != nil {
+		rep, err := r.EvidenceVerifySince(ctx, *since)
+		if err != nil {
+			return rep, nil, err
+		}
+		if len(rep.Breaks) > 0 {
+			printEvidenceBreaks(f, rep)
+			f.IO.printf("evidence: %d break(s) in %d commit(s) since the statement's seq %d\n", len(rep.Breaks), rep.Commits, since.Seq)
+			return rep, nil, checksFailed{len(rep.Breaks)}
+		}
+		f.IO.printf("evidence: %d commit(s) since the statement's seq %d (made %s) verify, head seq %d %s; the commits before it are taken from the statement (the whole audit, without --since, recomputes them)\n",
+			rep.Commits, since.Seq, since.MadeAt.UTC().Format("2006-01-02 15:04:05Z"), rep.Seq, rep.Head)
+		return rep, nil, nil
+	}
 	var stmt *register.Statement
 	var check *statementCheck
 	if file != "" {

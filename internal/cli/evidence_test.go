@@ -11,6 +11,7 @@ import (
 	"testing"
 
 	"cairn/internal/pgtest"
+	"cairn/internal/registertest"
 )
 
 // A signed statement verifies; one byte changed, or another key, fails.
@@ -141,6 +142,7 @@ func TestBackupStatementRestoreChecks(t *testing.T) {
 // auditDocJSON is the part of audit verify's JSON the tests read.
 type auditDocJSON struct {
 	Verified bool `json:"verified"`
+	Versions int  `json:"versions"`
 	Evidence struct {
 		Commits int64  `json:"commits"`
 		Head    string `json:"head"`
@@ -162,4 +164,92 @@ func auditDoc(t *testing.T, out string) auditDocJSON {
 		t.Fatalf("audit verify -o json: %v\n%s", err, out)
 	}
 	return d
+}
+
+// audit verify --since: from a signed statement of a register, a
+// publication afterwards is audited alone (its chains, its run, its
+// adjustment, its commits), and a version of it edited behind cairn's back
+// is found. A row edited before the statement is not seen by --since, as
+// its help says, and the whole audit finds it. A statement whose commit's
+// stored hash no longer matches is refused, sending to the whole audit.
+func TestAuditVerifySince(t *testing.T) {
+	t.Parallel()
+	db := pgtest.New(t)
+	runs, _ := seedWorked(t, db, 1)
+	mustRun(t, db.URL, "publish", adjustForTest(t, db.URL, fmt.Sprint(runs[0])), "--reason", "worked circuit, reviewed", "--yes")
+	dir := t.TempDir()
+	key := filepath.Join(dir, "office.key")
+	mustRun(t, db.URL, "audit", "key", "new", key)
+	stmt := mustRun(t, db.URL, "audit", "head", "--key", key)
+	sfile := filepath.Join(dir, "s.json")
+	if err := os.WriteFile(sfile, []byte(stmt), 0o644); err != nil {
+		t.Fatal(err)
+	}
+	out, _, st := binRun(t, db.URL, "audit", "verify", "-o", "json")
+	whole := auditDoc(t, out)
+	if st != ExitOK || whole.Versions == 0 {
+		t.Fatalf("whole audit of the demo: exit %d, %+v", st, whole)
+	}
+
+	// Nothing since: nothing to derive, the evidence still proven.
+	out, errOut, st := binRun(t, db.URL, "audit", "verify", "--since", sfile, "-o", "json")
+	doc := auditDoc(t, out)
+	if st != ExitOK || !doc.Verified || doc.Evidence.Commits != 0 || doc.Versions != 0 || !strings.Contains(errOut, "signature verifies") {
+		t.Fatalf("--since with nothing since: exit %d, %+v\n%s", st, doc, errOut)
+	}
+
+	// A run recorded, adjusted and published since the statement.
+	run2 := registertest.On(t, db).WorkedCopy(t, 2, "tester")
+	mustRun(t, db.URL, "publish", adjustForTest(t, db.URL, fmt.Sprint(run2)), "--reason", "second circuit, reviewed", "--yes")
+	out, _, _ = binRun(t, db.URL, "audit", "verify", "-o", "json")
+	whole = auditDoc(t, out)
+	out, errOut, st = binRun(t, db.URL, "audit", "verify", "--since", sfile, "-o", "json")
+	doc = auditDoc(t, out)
+	// The chains the publication touched, not the held mark's, which it
+	// did not.
+	if st != ExitOK || !doc.Verified || doc.Evidence.Commits < 2 || doc.Versions == 0 || doc.Versions >= whole.Versions {
+		t.Fatalf("--since after a publication: exit %d, %+v\n%s", st, doc, errOut)
+	}
+	var since struct {
+		Runs        int `json:"runs"`
+		Adjustments int `json:"adjustments"`
+	}
+	if err := json.Unmarshal([]byte(out), &since); err != nil || since.Runs != 1 || since.Adjustments != 1 {
+		t.Errorf("--since derived %d runs and %d adjustments, want the 1 and 1 since (%v)", since.Runs, since.Adjustments, err)
+	}
+
+	// A version published since, edited: found by --since.
+	asSuperuser(t, db, "UPDATE height SET reason = 'edited' WHERE id = (SELECT max(id) FROM height)")
+	if out, errOut, st := binRun(t, db.URL, "audit", "verify", "--since", sfile); st != ExitChecks || !strings.Contains(out, "hash does not match") ||
+		!strings.Contains(errOut, "table height: the rows changed since the commit") {
+		t.Errorf("--since, a version of since edited: exit %d, %s%s", st, out, errOut)
+	}
+	asSuperuser(t, db, "UPDATE height SET reason = 'second circuit, reviewed' WHERE id = (SELECT max(id) FROM height)")
+
+	// A mark of before the statement, edited: not seen by --since, found
+	// by the whole audit.
+	asSuperuser(t, db, "UPDATE mark SET setting = 'edited' WHERE id = (SELECT min(id) FROM mark)")
+	if _, errOut, st := binRun(t, db.URL, "audit", "verify", "--since", sfile); st != ExitOK {
+		t.Errorf("--since, a row of before edited: exit %d, want %d (not its to see): %s", st, ExitOK, errOut)
+	}
+	if _, errOut, st := binRun(t, db.URL, "audit", "verify"); st != ExitChecks || !strings.Contains(errOut, "table mark: the rows changed since the commit") {
+		t.Errorf("whole audit, a row of before edited: exit %d, %s", st, errOut)
+	}
+
+	// The statement's own commit rewritten: --since refuses to start.
+	var seq int64
+	var s struct {
+		Seq int64 `json:"seq"`
+	}
+	if err := json.Unmarshal([]byte(stmt), &s); err != nil {
+		t.Fatal(err)
+	}
+	seq = s.Seq
+	asSuperuser(t, db, fmt.Sprintf("ALTER TABLE register_commit DISABLE TRIGGER USER; UPDATE register_commit SET hash = sha256(hash) WHERE seq = %d; ALTER TABLE register_commit ENABLE TRIGGER USER", seq))
+	if _, errOut, st := binRun(t, db.URL, "audit", "verify", "--since", sfile); st != ExitBadInput || !strings.Contains(errOut, "run the whole audit") {
+		t.Errorf("--since, the statement's commit rewritten: exit %d, %s", st, errOut)
+	}
+	if _, errOut, st := binRun(t, db.URL, "audit", "verify", "--since", sfile, "--against", sfile); st != ExitBadInput || !strings.Contains(errOut, "give one") {
+		t.Errorf("--since with --against: exit %d, %s", st, errOut)
+	}
 }

@@ -173,16 +173,30 @@ const AuditProgressStep = 1000
 // AuditProgressStep versions and at the end of the chains, for a
 // progress bar.
 func (r *Register) AuditVerifyProgress(ctx context.Context, step func(versions int)) (AuditReport, error) {
+	return r.auditVerify(ctx, nil, step)
+}
+
+// AuditVerifySince is AuditVerifyProgress from a checkpoint, the commit of
+// transaction xid (a statement's, whose signature the caller checked): it
+// recomputes the chains with a version written after it, each whole, and
+// derives again the runs recorded and adjustments published after it; the
+// schema is compared in full. A version, run or adjustment written before
+// and changed since is the whole audit's to find.
+func (r *Register) AuditVerifySince(ctx context.Context, xid uint64, step func(versions int)) (AuditReport, error) {
+	return r.auditVerify(ctx, &xid, step)
+}
+
+func (r *Register) auditVerify(ctx context.Context, since *uint64, step func(versions int)) (AuditReport, error) {
 	rep := AuditReport{Breaks: []Break{}}
 	if step == nil {
 		step = func(int) {}
 	}
 	var mu sync.Mutex
 	safe := func(n int) { mu.Lock(); defer mu.Unlock(); step(n) }
-	if err := r.auditChains(ctx, &rep, safe); err != nil {
+	if err := r.auditChains(ctx, &rep, since, safe); err != nil {
 		return rep, fmt.Errorf("read height versions: %w", err)
 	}
-	return rep, r.auditDerive(ctx, &rep)
+	return rep, r.auditDerive(ctx, &rep, since)
 }
 
 // auditWorkers is how many transactions read the chains at once, and
@@ -192,7 +206,7 @@ var (
 	auditSpanPerWorker = int64(1000)
 )
 
-func (r *Register) auditChains(ctx context.Context, rep *AuditReport, step func(int)) error {
+func (r *Register) auditChains(ctx context.Context, rep *AuditReport, since *uint64, step func(int)) error {
 	lead, err := r.pool.BeginTx(ctx, pgx.TxOptions{IsoLevel: pgx.RepeatableRead, AccessMode: pgx.ReadOnly})
 	if err != nil {
 		return err
@@ -219,7 +233,7 @@ func (r *Register) auditChains(ctx context.Context, rep *AuditReport, step func(
 		part.Breaks = []Break{}
 		g.Go(func() error {
 			if i == 0 {
-				return auditChainRange(gctx, lead, from, to, part, step)
+				return auditChainRange(gctx, lead, from, to, since, part, step)
 			}
 			tx, err := r.pool.BeginTx(gctx, pgx.TxOptions{IsoLevel: pgx.RepeatableRead, AccessMode: pgx.ReadOnly})
 			if err != nil {
@@ -229,7 +243,7 @@ func (r *Register) auditChains(ctx context.Context, rep *AuditReport, step func(
 			if err := store.SnapshotUse(gctx, tx, snapshot); err != nil {
 				return fmt.Errorf("share the audit's snapshot: %w", err)
 			}
-			return auditChainRange(gctx, tx, from, to, part, step)
+			return auditChainRange(gctx, tx, from, to, since, part, step)
 		})
 	}
 	if err := g.Wait(); err != nil {
@@ -252,14 +266,14 @@ type chainLink struct {
 }
 
 // auditChainRange checks the chains of the marks with ids from lo to hi.
-func auditChainRange(ctx context.Context, tx pgx.Tx, lo, hi int64, rep *AuditReport, step func(int)) error {
+func auditChainRange(ctx context.Context, tx pgx.Tx, lo, hi int64, since *uint64, rep *AuditReport, step func(int)) error {
 	var (
 		prev    chainLink
 		hasPrev bool
 		buf     []byte
 	)
 	defer func() { step(rep.Versions % AuditProgressStep) }()
-	return store.HeightChainEach(ctx, tx, lo, hi, func(h *store.Height) error {
+	return store.HeightChainEach(ctx, tx, lo, hi, since, func(h *store.Height) error {
 		rep.Versions++
 		if rep.Versions%AuditProgressStep == 0 {
 			step(AuditProgressStep)

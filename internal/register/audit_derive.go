@@ -5,6 +5,7 @@ import (
 	"encoding/json"
 	"errors"
 	"fmt"
+	"slices"
 	"strconv"
 	"time"
 
@@ -62,15 +63,18 @@ const mostPerRun = 20
 // its stored inputs and compared with its results and with the versions
 // that cite it (auditAdjustments), and the schema (auditSchema). The
 // rows are read in one snapshot.
-func (r *Register) auditDerive(ctx context.Context, rep *AuditReport) error {
+//
+// With since not nil, only the runs recorded and the adjustments published
+// by transactions after that one.
+func (r *Register) auditDerive(ctx context.Context, rep *AuditReport, since *uint64) error {
 	if rep.Findings == nil {
 		rep.Findings = []Finding{}
 	}
 	err := r.withTx(ctx, readTx, func(tx pgx.Tx) error {
-		if err := auditBooks(ctx, tx, rep); err != nil {
+		if err := auditBooks(ctx, tx, rep, since); err != nil {
 			return err
 		}
-		return r.auditAdjustments(ctx, tx, rep)
+		return r.auditAdjustments(ctx, tx, rep, since)
 	})
 	if err != nil {
 		return err
@@ -85,8 +89,8 @@ func utc(t time.Time) string { return t.UTC().Format("2006-01-02 15:04:05Z") }
 // class, the held heights, curvature and refraction), and compares the
 // result, row by row and field by field, with the stored sightings and
 // sections.
-func auditBooks(ctx context.Context, tx pgx.Tx, rep *AuditReport) error {
-	ids, err := store.AuditRunIDs(ctx, tx)
+func auditBooks(ctx context.Context, tx pgx.Tx, rep *AuditReport, since *uint64) error {
+	ids, err := store.AuditRunIDs(ctx, tx, since)
 	if err != nil {
 		return fmt.Errorf("list runs: %w", err)
 	}
@@ -262,10 +266,17 @@ func sectionFields(d reduce.Section, s store.Section) []fieldDiff {
 // value, unit, decimals and class, on the adjustment's datum. A version of
 // kind adjustment, or citing one, whose adjustment is not published is a
 // break too.
-func (r *Register) auditAdjustments(ctx context.Context, tx pgx.Tx, rep *AuditReport) error {
+func (r *Register) auditAdjustments(ctx context.Context, tx pgx.Tx, rep *AuditReport, since *uint64) error {
 	adjs, err := store.AdjustmentList(ctx, tx, store.AdjustmentListParams{Status: store.StatusPublished})
 	if err != nil {
 		return fmt.Errorf("list published adjustments: %w", err)
+	}
+	if since != nil {
+		ids, err := store.AuditPublishedAfter(ctx, tx, *since)
+		if err != nil {
+			return fmt.Errorf("list adjustments published since: %w", err)
+		}
+		adjs = slices.DeleteFunc(adjs, func(a store.Adjustment) bool { _, found := slices.BinarySearch(ids, a.ID); return !found })
 	}
 	for _, a := range adjs {
 		rep.Adjustments++

@@ -115,6 +115,44 @@ func manifestPiece(line string) int64 {
 // head, with the statement's counts. Linear in rows and commits; one page
 // of commits and one row at a time in memory.
 func (r *Register) EvidenceVerify(ctx context.Context, against *Statement) (EvidenceReport, error) {
+	return r.evidenceVerify(ctx, nil, against)
+}
+
+// EvidenceVerifySince is EvidenceVerify from a checkpoint: it trusts the
+// chain up to the statement since (whose signature the caller checked),
+// proves that the stored commit at the statement's seq still has the
+// statement's hash, and recomputes only the commits after it, and looks
+// for uncovered rows only among the rows of later transactions. What it
+// cannot see is a row of a commit before the statement changed since:
+// that is the whole audit's to find (docs/reliability.md).
+func (r *Register) EvidenceVerifySince(ctx context.Context, since Statement) (EvidenceReport, error) {
+	return r.evidenceVerify(ctx, &since, nil)
+}
+
+// StatementXid returns the transaction of the commit a statement names
+// (its seq), for AuditVerifySince; an InputError if the register has no
+// such commit or its stored hash is not the statement's (then only the
+// whole audit can say what changed).
+func (r *Register) StatementXid(ctx context.Context, s Statement) (uint64, error) {
+	var xid uint64
+	err := r.withTx(ctx, readTx, func(tx pgx.Tx) error {
+		c, err := store.EvidenceCommitAt(ctx, tx, s.Seq)
+		if errors.Is(err, store.ErrNotFound) {
+			return inputErr("since", "the register has no commit seq %d, which the statement names: run the whole audit (without --since)", s.Seq)
+		}
+		if err != nil {
+			return err
+		}
+		if hex.EncodeToString(c.Hash) != s.Head {
+			return inputErr("since", "the register's commit seq %d has hash %x, not the statement's %s: the chain up to the statement was rewritten; run the whole audit (without --since)", s.Seq, c.Hash, s.Head)
+		}
+		xid = c.Xid
+		return nil
+	})
+	return xid, err
+}
+
+func (r *Register) evidenceVerify(ctx context.Context, since, against *Statement) (EvidenceReport, error) {
 	rep := EvidenceReport{Rows: map[string]int64{}, Breaks: []EvidenceBreak{}}
 	tx, err := r.pool.BeginTx(ctx, pgx.TxOptions{IsoLevel: pgx.RepeatableRead, AccessMode: pgx.ReadOnly})
 	if err != nil {
@@ -131,9 +169,33 @@ func (r *Register) EvidenceVerify(ctx context.Context, against *Statement) (Evid
 		prevAt     time.Time
 		seen       bool
 		atStmt     bool
+		sinceXid   *uint64
 	)
 	var stmtRows map[string]int64
 	after := int64(-1)
+	if since != nil {
+		head, err := hex.DecodeString(since.Head)
+		if err != nil {
+			return rep, fmt.Errorf("the statement's head %q: %w", since.Head, err)
+		}
+		c, err := store.EvidenceCommitAt(ctx, tx, since.Seq)
+		switch {
+		case errors.Is(err, store.ErrNotFound):
+			rep.Breaks = append(rep.Breaks, EvidenceBreak{Seq: since.Seq, Problem: fmt.Sprintf("the register's chain has no commit seq %d, which the statement (made %s) names: the register did not only grow since",
+				since.Seq, since.MadeAt.UTC().Format(time.RFC3339))})
+			return rep, nil
+		case err != nil:
+			return rep, err
+		}
+		if !bytes.Equal(c.Hash, head) {
+			rep.Breaks = append(rep.Breaks, EvidenceBreak{Seq: c.Seq, Xid: c.Xid, CommittedAt: c.CommittedAt, Problem: fmt.Sprintf(
+				"the stored hash of commit seq %d is %x, not the statement's %s: the chain up to the statement was rewritten", c.Seq, c.Hash, since.Head)})
+		}
+		storedPrev, recPrev, prevSeq, prevAt, seen, after = c.Hash, head, c.Seq, c.CommittedAt, true, c.Seq
+		x := c.Xid
+		sinceXid = &x
+		rep.Seq, rep.Head, rep.LatestCommit = c.Seq, since.Head, c.CommittedAt
+	}
 	for {
 		page, err := store.EvidenceCommitPage(ctx, tx, after, 1000)
 		if err != nil {
@@ -250,7 +312,7 @@ func (r *Register) EvidenceVerify(ctx context.Context, against *Statement) (Evid
 			}
 		}
 	}
-	unc, err := store.EvidenceUncoveredRows(ctx, tx)
+	unc, err := store.EvidenceUncoveredRows(ctx, tx, sinceXid)
 	if err != nil {
 		return rep, err
 	}

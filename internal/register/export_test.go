@@ -31,6 +31,6 @@ func SetAuditSplit(workers int, span int64) func() {
 // AuditChains is the part of AuditVerify that recomputes the hash chains.
 func (r *Register) AuditChains(ctx context.Context) (AuditReport, error) {
 	rep := AuditReport{Breaks: []Break{}}
-	err := r.auditChains(ctx, &rep, func(int) {})
+	err := r.auditChains(ctx, &rep, nil, func(int) {})
 	return rep, err
 }

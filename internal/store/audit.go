@@ -6,6 +6,7 @@ import (
 	"encoding/hex"
 	"errors"
 	"fmt"
+	"strconv"
 	"time"
 
 	"github.com/jackc/pgx/v5"
@@ -18,8 +19,28 @@ import (
 
 // AuditRunIDs returns the identifier of every run, in order: the audit
 // reads them one at a time, so a large register is never held whole.
-func AuditRunIDs(ctx context.Context, db DBTX) ([]int64, error) {
-	rows, err := db.Query(ctx, "SELECT id FROM run ORDER BY id")
+// With after not nil, only the runs recorded by transactions after that
+// one (an incremental audit's).
+func AuditRunIDs(ctx context.Context, db DBTX, after *uint64) ([]int64, error) {
+	q, args := "SELECT id FROM run ORDER BY id", []any{}
+	if after != nil {
+		q, args = "SELECT id FROM run WHERE created_xid > $1::text::xid8 ORDER BY id", []any{strconv.FormatUint(*after, 10)}
+	}
+	rows, err := db.Query(ctx, q, args...)
+	if err != nil {
+		return nil, translate(err)
+	}
+	return collect(rows, func(r pgx.Row) (int64, error) {
+		var id int64
+		return id, translate(r.Scan(&id))
+	})
+}
+
+// AuditPublishedAfter returns the adjustments published by transactions
+// after xid after, in order (an incremental audit's).
+func AuditPublishedAfter(ctx context.Context, db DBTX, after uint64) ([]int64, error) {
+	rows, err := db.Query(ctx, `SELECT adjustment_id FROM adjustment_event
+		WHERE status = 'published' AND created_xid > $1::text::xid8 ORDER BY adjustment_id`, strconv.FormatUint(after, 10))
 	if err != nil {
 		return nil, translate(err)
 	}

@@ -165,6 +165,18 @@ func EvidenceRows(ctx context.Context, tx pgx.Tx, xid uint64, genesis bool, fn f
 	return translate(br.Close())
 }
 
+// EvidenceCommitAt returns the commit of seq; ErrNotFound if there is none.
+func EvidenceCommitAt(ctx context.Context, tx pgx.Tx, seq int64) (EvidenceCommit, error) {
+	page, err := EvidenceCommitPage(ctx, tx, seq-1, 1)
+	if err != nil {
+		return EvidenceCommit{}, err
+	}
+	if len(page) == 0 || page[0].Seq != seq {
+		return EvidenceCommit{}, ErrNotFound
+	}
+	return page[0], nil
+}
+
 // EvidenceUncovered is a set of rows of one table that no commit covers.
 type EvidenceUncovered struct {
 	Table string
@@ -175,12 +187,19 @@ type EvidenceUncovered struct {
 // EvidenceUncoveredRows lists, per table and transaction, the rows whose
 // created_xid names no commit of register_commit (or is NULL when there is
 // no genesis entry): rows added behind the register's back.
-func EvidenceUncoveredRows(ctx context.Context, tx pgx.Tx) ([]EvidenceUncovered, error) {
+//
+// With after not nil, only the rows of transactions after that one (by
+// the index on created_xid): the rows an incremental audit reaches.
+func EvidenceUncoveredRows(ctx context.Context, tx pgx.Tx, after *uint64) ([]EvidenceUncovered, error) {
 	var out []EvidenceUncovered
+	cond, args := "", []any{}
+	if after != nil {
+		cond, args = "AND r.created_xid > $1::text::xid8", []any{strconv.FormatUint(*after, 10)}
+	}
 	for _, t := range EvidenceTables {
 		rows, err := tx.Query(ctx, fmt.Sprintf(`SELECT r.created_xid::text, count(*) FROM public.%s r
-			WHERE NOT EXISTS (SELECT 1 FROM public.register_commit c WHERE c.xid = coalesce(r.created_xid, '0'::xid8))
-			GROUP BY r.created_xid ORDER BY r.created_xid NULLS FIRST`, t.Name))
+			WHERE NOT EXISTS (SELECT 1 FROM public.register_commit c WHERE c.xid = coalesce(r.created_xid, '0'::xid8)) %s
+			GROUP BY r.created_xid ORDER BY r.created_xid NULLS FIRST`, t.Name, cond), args...)
 		if err != nil {
 			return nil, fmt.Errorf("look for rows no commit covers in %s: %w", t.Name, translate(err))
 		}

@@ -3,6 +3,7 @@ package store
 import (
 	"context"
 	"fmt"
+	"strconv"
 	"time"
 
 	"github.com/jackc/pgx/v5"
@@ -379,12 +380,20 @@ func HeightChainSpan(ctx context.Context, db DBTX) (lo, hi int64, err error) {
 // with the fields of its canonical text only: no commit time, in-force
 // time or Current, which need a probe per row. h is reused from call to
 // call: fn copies what it keeps.
-func HeightChainEach(ctx context.Context, db DBTX, lo, hi int64, fn func(h *Height) error) error {
+//
+// With after not nil, only the chains with a version written by a
+// transaction after that one, each whole (an incremental audit's).
+func HeightChainEach(ctx context.Context, db DBTX, lo, hi int64, after *uint64, fn func(h *Height) error) error {
+	cond, args := "", []any{lo, hi}
+	if after != nil {
+		cond = " AND (h.mark_id, h.datum_id) IN (SELECT x.mark_id, x.datum_id FROM height x WHERE x.created_xid > $3::text::xid8)"
+		args = append(args, strconv.FormatUint(*after, 10))
+	}
 	rows, err := db.Query(ctx, `SELECT h.id, h.mark_id, m.designation, h.datum_id, d.code, h.version, h.supersedes,
 		h.value::text, h.unit, h.decimals, h.class, h.source_kind, h.source, h.adjustment_id,
 		h.reason, h.recorded_by, h.recorded_role, h.recorded_at, h.in_force_from, h.hash
 		FROM height h JOIN mark m ON m.id = h.mark_id JOIN datum d ON d.id = h.datum_id
-		WHERE h.mark_id BETWEEN $1 AND $2 ORDER BY h.mark_id, h.datum_id, h.version, h.id`, lo, hi)
+		WHERE h.mark_id BETWEEN $1 AND $2`+cond+` ORDER BY h.mark_id, h.datum_id, h.version, h.id`, args...)
 	if err != nil {
 		return translate(err)
 	}
