@@ -34,3 +34,11 @@ func (r *Register) AuditChains(ctx context.Context) (AuditReport, error) {
 	err := r.auditChains(ctx, &rep, nil, func(int) {})
 	return rep, err
 }
+
+// AuditChainsSince is auditChains from the commit of transaction since
+// (nil: all the chains).
+func (r *Register) AuditChainsSince(ctx context.Context, since *uint64) (AuditReport, error) {
+	rep := AuditReport{Breaks: []Break{}}
+	err := r.auditChains(ctx, &rep, since, func(int) {})
+	return rep, err
+}

@@ -20,6 +20,13 @@ import (
 // layout of docs/import.md, to a new folder.
 func importBenchFiles(b *testing.B, marks int) string {
 	b.Helper()
+	return importBenchFilesFrom(b, 0, marks)
+}
+
+// importBenchFilesFrom is importBenchFiles of the marks numbered from
+// first.
+func importBenchFilesFrom(b *testing.B, first, marks int) string {
+	b.Helper()
 	dir := b.TempDir()
 	write := func(name, header string, row func(w *bufio.Writer, i int)) {
 		f, err := os.Create(filepath.Join(dir, name))
@@ -28,7 +35,7 @@ func importBenchFiles(b *testing.B, marks int) string {
 		}
 		w := bufio.NewWriter(f)
 		w.WriteString(header + "\n")
-		for i := range marks {
+		for i := first; i < first+marks; i++ {
 			row(w, i)
 		}
 		if err := w.Flush(); err != nil {
@@ -124,4 +131,55 @@ func BenchmarkAuditChains(b *testing.B) {
 			b.ReportMetric(float64(b.Elapsed().Nanoseconds())/float64(versions)/1000, "µs/version")
 		})
 	}
+}
+
+// BenchmarkAuditSince is the incremental audit after a large write: a
+// register of 20,000 imported marks (100,000 versions), a statement made,
+// then 10,000 marks more imported (50,000 versions, the size of a large
+// publication), and the audit since the statement: its evidence (the
+// commits after it) and its chains (those with a version written since),
+// besides the whole register's chains for comparison. The derivation of
+// runs and adjustments (none here) and the schema's comparison (a fixed
+// cost, docs/performance.md) are not in it.
+func BenchmarkAuditSince(b *testing.B) {
+	fx := registertest.Setup(b)
+	fx.Datum(b, registertest.DatumOpts{})
+	if _, err := fx.Reg.Import(fx.Ctx, ImportParams{Dir: importBenchFilesFrom(b, 0, 20000), RecordedBy: "bench"}); err != nil {
+		b.Fatal(err)
+	}
+	stmt, _, err := fx.Reg.MakeStatement(fx.Ctx, "bench", nil)
+	if err != nil {
+		b.Fatal(err)
+	}
+	if _, err := fx.Reg.Import(fx.Ctx, ImportParams{Dir: importBenchFilesFrom(b, 20000, 10000), RecordedBy: "bench"}); err != nil {
+		b.Fatal(err)
+	}
+	xid, err := fx.Reg.StatementXid(fx.Ctx, stmt)
+	if err != nil {
+		b.Fatal(err)
+	}
+	b.Run("since", func(b *testing.B) {
+		for b.Loop() {
+			ev, err := fx.Reg.EvidenceVerifySince(fx.Ctx, stmt)
+			if err != nil || len(ev.Breaks) != 0 || ev.Commits != 1 {
+				b.Fatalf("evidence since: %v, %d commits, %+v", err, ev.Commits, ev.Breaks)
+			}
+			rep, err := fx.Reg.AuditChainsSince(fx.Ctx, &xid)
+			if err != nil || len(rep.Breaks) != 0 || rep.Versions != 50000 {
+				b.Fatalf("chains since: %v, %d versions, %+v", err, rep.Versions, rep.Breaks)
+			}
+		}
+	})
+	b.Run("whole", func(b *testing.B) {
+		for b.Loop() {
+			ev, err := fx.Reg.EvidenceVerify(fx.Ctx, nil)
+			if err != nil || len(ev.Breaks) != 0 {
+				b.Fatalf("evidence: %v, %+v", err, ev.Breaks)
+			}
+			rep, err := fx.Reg.AuditChainsSince(fx.Ctx, nil)
+			if err != nil || len(rep.Breaks) != 0 || rep.Versions != 150000 {
+				b.Fatalf("chains: %v, %d versions, %+v", err, rep.Versions, rep.Breaks)
+			}
+		}
+	})
 }
