@@ -227,14 +227,36 @@ func MarkGetByAlias(ctx context.Context, db DBTX, folded string, forUpdate bool)
 	return m, err
 }
 
-// MarkDesignationsLike returns up to limit designations whose folded form
-// starts with the same first character as folded (a folded name, see
-// MarkGetFolded), as candidates for "did you mean".
-func MarkDesignationsLike(ctx context.Context, db DBTX, folded string, limit int) ([]string, error) {
-	if folded == "" {
-		return nil, nil
+// designationKey is the SQL of a mark's designation key: its folded form
+// (lower(normalize(designation, NFKC)), as the unique index of 00009) with
+// the punctuation - _ . / left out, in byte order (COLLATE "C"), as the
+// index mark_designation_hint (migrations/00023) holds it.
+const designationKey = `(translate(lower(normalize(designation, NFKC)), '-_./', '') COLLATE "C")`
+
+// MarkDesignationsByKeyPrefix returns, in order of their keys, up to limit
+// designations whose key (folded, punctuation left out: designationKey)
+// starts with prefix, or of every mark if prefix is "". The prefix is a
+// range scan of the index mark_designation_hint, so a register of any size
+// answers in a few index pages; a caller that gets limit names back knows
+// there may be more. A prefix with bytes outside printable ASCII matches
+// nothing (designations are ASCII: migrations/00001).
+func MarkDesignationsByKeyPrefix(ctx context.Context, db DBTX, prefix string, limit int) ([]string, error) {
+	var rows pgx.Rows
+	var err error
+	if prefix == "" {
+		rows, err = db.Query(ctx, "SELECT designation FROM mark ORDER BY "+designationKey+" LIMIT $1", limit)
+	} else {
+		for i := 0; i < len(prefix); i++ {
+			if prefix[i] < 0x21 || prefix[i] >= 0x7e {
+				return nil, nil
+			}
+		}
+		// The keys starting with prefix are those from prefix up to, not
+		// including, prefix with its last byte one higher.
+		upper := prefix[:len(prefix)-1] + string(rune(prefix[len(prefix)-1]+1))
+		rows, err = db.Query(ctx, "SELECT designation FROM mark WHERE "+designationKey+" >= $1 AND "+designationKey+" < $2 ORDER BY "+designationKey+" LIMIT $3",
+			prefix, upper, limit)
 	}
-	rows, err := db.Query(ctx, "SELECT designation FROM mark WHERE lower(normalize(left(designation, 1), NFKC)) = left($1, 1) ORDER BY designation LIMIT $2", folded, limit)
 	if err != nil {
 		return nil, translate(err)
 	}
