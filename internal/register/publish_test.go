@@ -484,3 +484,29 @@ func TestAdjustmentAppendOnly(t *testing.T) {
 	}
 	b.AssertNothingWritten(t, before)
 }
+
+// A published version's source names its adjustment, method and count of
+// runs, never the run list (issue 15: 17 kB a version for 2,947 runs),
+// and is a few dozen bytes however many runs there are.
+func TestPublishedSourceIsShort(t *testing.T) {
+	t.Parallel()
+	b := registertest.Setup(t)
+	b.WorkedCircuit(t, registertest.WorkedCircuitOpts{Copies: 3})
+	// Three copies of the worked circuit by least squares: it misses
+	// closure by 0.244 m, so the network's checks fail; accepted here.
+	v := b.Adjustment(t, registertest.AdjustmentOpts{Method: adjust.MethodLeastSquares})
+	if _, err := b.Reg.Publish(b.Ctx, PublishParams{AdjustmentID: v.Adjustment.ID, Reason: "three copies", By: "reviewer",
+		AcceptFailedChecks: true, AcceptReason: "a test of the source text"}); err != nil {
+		t.Fatal(err)
+	}
+	want := fmt.Sprintf("adjustment %d (least-squares, 3 runs)", v.Adjustment.ID)
+	if h := current(t, b, "BM4"); h.Source != want {
+		t.Errorf("BM4's source %q, want %q", h.Source, want)
+	}
+	if got := AdjustmentSource(12, "least-squares", 2947); got != "adjustment 12 (least-squares, 2947 runs)" {
+		t.Errorf("2947 runs: %q", got)
+	}
+	if got := AdjustmentSource(3, "proportional", 1); got != "adjustment 3 (proportional, 1 run)" {
+		t.Errorf("one run: %q", got)
+	}
+}
