@@ -167,7 +167,8 @@ func datasheet(ctx context.Context, tx pgx.Tx, m store.Mark, asOf *time.Time, ne
 	}
 	v.Doubts = ds[m.ID]
 	if m.Lat != nil && m.Lon != nil {
-		ns, err := store.MarkList(ctx, tx, store.MarkListParams{Near: &store.LatLon{Lat: *m.Lat, Lon: *m.Lon}, RadiusM: neighbourM})
+		ns, err := store.MarkList(ctx, tx, store.MarkListParams{Near: &store.LatLon{Lat: *m.Lat, Lon: *m.Lon}, RadiusM: neighbourM,
+			Limit: MaxNeighbours + 1}) // the mark itself is among them
 		if err != nil {
 			return s, err
 		}
