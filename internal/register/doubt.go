@@ -168,13 +168,14 @@ func doubtsOf(ctx context.Context, db store.DBTX, marks []store.Mark, hs []store
 			out[m.ID] = append(out[m.ID], d)
 		}
 	}
-	var adjIDs []int64
-	stale := false
+	var adjIDs, currentAdjusted []int64
 	for _, h := range hs {
 		if h.AdjustmentID != nil && !slices.Contains(adjIDs, *h.AdjustmentID) {
 			adjIDs = append(adjIDs, *h.AdjustmentID)
 		}
-		stale = stale || (h.Current && h.AdjustmentID != nil)
+		if h.Current && h.AdjustmentID != nil {
+			currentAdjusted = append(currentAdjusted, h.ID)
+		}
 	}
 	if len(adjIDs) == 0 {
 		return out, nil
@@ -194,8 +195,9 @@ func doubtsOf(ctx context.Context, db store.DBTX, marks []store.Mark, hs []store
 		return nil, fmt.Errorf("look up voided runs: %w", err)
 	}
 	staleReasons := map[int64][]StaleReason{}
-	if stale {
-		shs, err := staleHeights(ctx, db)
+	if len(currentAdjusted) > 0 {
+		// Only these heights, and those their adjustments held, are read.
+		shs, err := staleHeights(ctx, db, currentAdjusted, true)
 		if err != nil {
 			return nil, err
 		}

@@ -326,13 +326,20 @@ type HeldLink struct{ HeightID, HeldID int64 }
 
 // HeldLinkList returns, for every current height from an adjustment, the
 // held versions of its adjustment that are still current: the links along
-// which staleness spreads.
-func HeldLinkList(ctx context.Context, db DBTX) ([]HeldLink, error) {
-	rows, err := db.Query(ctx, `SELECT h.id, ah.height_id FROM height h LEFT JOIN register_commit rc ON rc.xid = h.created_xid
+// which staleness spreads. If heightIDs is not nil, only the links from
+// those heights.
+func HeldLinkList(ctx context.Context, db DBTX, heightIDs []int64) ([]HeldLink, error) {
+	from := "height h"
+	var args []any
+	if heightIDs != nil {
+		from = "unnest($1::bigint[]) AS u (id) JOIN height h ON h.id = u.id"
+		args = append(args, heightIDs)
+	}
+	rows, err := db.Query(ctx, `SELECT h.id, ah.height_id FROM `+from+` LEFT JOIN register_commit rc ON rc.xid = h.created_xid
 		JOIN adjustment_held ah ON ah.adjustment_id = h.adjustment_id
 		WHERE `+heightCurrent+`
 		  AND NOT EXISTS (SELECT 1 FROM height y WHERE y.supersedes = ah.height_id)
-		ORDER BY 1, 2`)
+		ORDER BY 1, 2`, args...)
 	if err != nil {
 		return nil, translate(err)
 	}

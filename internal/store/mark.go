@@ -382,6 +382,29 @@ func markListSQL(p MarkListParams, ids []int64) (string, []any) {
 	return q + " ORDER BY m.designation", args
 }
 
+// MarkIDsWithin returns the ids of the marks whose current position is
+// within radiusM metres of c, in order of id: an area chosen by its marks'
+// keys alone (the bounding boxes by the GiST indexes, then the exact
+// haversine distance of the current position), without reading the
+// marks' rows, conditions or aliases.
+func MarkIDsWithin(ctx context.Context, db DBTX, c LatLon, radiusM float64) ([]int64, error) {
+	in := boxesSQL(boundingBoxes(c, radiusM))
+	rows, err := db.Query(ctx, `SELECT m.id FROM mark m LEFT JOIN LATERAL (
+			SELECT mv.id, mv.lat, mv.lon FROM mark_version mv WHERE mv.mark_id = m.id ORDER BY mv.version DESC LIMIT 1
+		) v ON true
+		WHERE m.id IN (SELECT id FROM mark WHERE lat IS NOT NULL AND `+in+`
+			UNION SELECT mark_id FROM mark_version WHERE lat IS NOT NULL AND `+in+`)
+		  AND `+curLat+` IS NOT NULL AND `+haversineSQL+` <= $3
+		ORDER BY m.id`, c.Lat, c.Lon, radiusM)
+	if err != nil {
+		return nil, translate(err)
+	}
+	return collect(rows, func(r pgx.Row) (int64, error) {
+		var id int64
+		return id, translate(r.Scan(&id))
+	})
+}
+
 // boxesSQL is the condition that point(lon, lat) lies in one of boxes.
 func boxesSQL(boxes [][4]float64) string {
 	var in []string
