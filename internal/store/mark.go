@@ -227,6 +227,37 @@ func MarkGetByAlias(ctx context.Context, db DBTX, folded string, forUpdate bool)
 	return m, err
 }
 
+// MarkIDsByNames returns the identifiers of the marks named, by name: a
+// name is a mark's designation exactly, or else the folded form of one of
+// its aliases (as register.mark resolves one name), looked up for every
+// name in one statement. Names of no mark are absent.
+func MarkIDsByNames(ctx context.Context, db DBTX, names, folded []string) (map[string]int64, error) {
+	rows, err := db.Query(ctx, `SELECT u.name, coalesce(m.id, a.mark_id)
+		FROM unnest($1::text[], $2::text[]) AS u (name, folded)
+		LEFT JOIN mark m ON m.designation = u.name
+		LEFT JOIN mark_alias a ON m.id IS NULL AND lower(normalize(a.alias, NFKC)) = u.folded
+		WHERE m.id IS NOT NULL OR a.mark_id IS NOT NULL`, names, folded)
+	if err != nil {
+		return nil, translate(err)
+	}
+	type found struct {
+		name string
+		id   int64
+	}
+	got, err := collect(rows, func(r pgx.Row) (found, error) {
+		var f found
+		return f, translate(r.Scan(&f.name, &f.id))
+	})
+	if err != nil {
+		return nil, err
+	}
+	out := make(map[string]int64, len(got))
+	for _, f := range got {
+		out[f.name] = f.id
+	}
+	return out, nil
+}
+
 // designationKey is the SQL of a mark's designation key: its folded form
 // (lower(normalize(designation, NFKC)), as the unique index of 00009) with
 // the punctuation - _ . / left out, in byte order (COLLATE "C"), as the
@@ -527,7 +558,8 @@ func boundingBoxes(c LatLon, r float64) [][4]float64 {
 // MarkListByDesignations returns the marks with the given designations
 // (those that exist), each with its latest condition report.
 func MarkListByDesignations(ctx context.Context, db DBTX, designations []string) ([]Mark, error) {
-	rows, err := db.Query(ctx, "SELECT "+markColumns+markFrom+" WHERE m.designation = ANY($1) ORDER BY m.designation", designations)
+	rows, err := db.Query(ctx, "SELECT "+markColumns+strings.Replace(markFrom, " FROM mark m ",
+		" FROM (SELECT DISTINCT unnest($1::text[]) AS designation) AS u JOIN mark m ON m.designation = u.designation ", 1)+" ORDER BY m.designation", designations)
 	if err != nil {
 		return nil, translate(err)
 	}
@@ -545,7 +577,8 @@ func MarkLock(ctx context.Context, db DBTX, markIDs []int64) error {
 // MarkListByFolded returns the marks whose folded designations are among
 // folded (see MarkGetFolded), each with its latest condition report.
 func MarkListByFolded(ctx context.Context, db DBTX, folded []string) ([]Mark, error) {
-	rows, err := db.Query(ctx, "SELECT "+markColumns+markFrom+" WHERE lower(normalize(m.designation, NFKC)) = ANY($1) ORDER BY m.designation", folded)
+	rows, err := db.Query(ctx, "SELECT "+markColumns+strings.Replace(markFrom, " FROM mark m ",
+		" FROM (SELECT DISTINCT unnest($1::text[]) AS folded) AS u JOIN mark m ON lower(normalize(m.designation, NFKC)) = u.folded ", 1)+" ORDER BY m.designation", folded)
 	if err != nil {
 		return nil, translate(err)
 	}
@@ -558,10 +591,11 @@ func MarkListByFolded(ctx context.Context, db DBTX, folded []string) ([]Mark, er
 // that touched it (voided ones too: the mark was there).
 func MarkEarliestRecord(ctx context.Context, db DBTX, markIDs []int64) (map[int64]time.Time, error) {
 	rows, err := db.Query(ctx, `SELECT mark_id, min(d) FROM (
-		SELECT mark_id, observed_on AS d FROM mark_condition WHERE mark_id = ANY($1)
+		SELECT c.mark_id, c.observed_on AS d FROM unnest($1::bigint[]) AS u (mark_id) JOIN mark_condition c ON c.mark_id = u.mark_id
 		UNION ALL
-		SELECT rm.mark_id, r.observed_on FROM run_mark rm JOIN run r ON r.id = rm.run_id
-		WHERE rm.mark_id = ANY($1) AND r.observed_on IS NOT NULL
+		SELECT rm.mark_id, r.observed_on FROM unnest($1::bigint[]) AS u (mark_id) JOIN run_mark rm ON rm.mark_id = u.mark_id
+		JOIN run r ON r.id = rm.run_id
+		WHERE r.observed_on IS NOT NULL
 	) AS records GROUP BY mark_id`, markIDs)
 	if err != nil {
 		return nil, translate(err)
