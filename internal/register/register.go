@@ -242,30 +242,25 @@ func (r *Register) datum(ctx context.Context, db store.DBTX, field, code string)
 }
 
 // hintRead is the most designations designationHint reads for one prefix.
-const hintRead = 1000
+const hintRead = 250
 
 // designationHint returns didYouMean's hint for a designation the register
 // does not hold, right at any size of the register. It reads the
 // designations whose key (folded, punctuation left out: hintKey) starts
-// with the longest prefix of the typed key, then shorter and shorter ones,
+// with the whole typed key, then with shorter and shorter prefixes of it,
 // each a range scan of an index (store.MarkDesignationsByKeyPrefix), and
 // keeps the shortest prefix whose designations number at most hintRead;
-// the whole register if it is that small. A designation not read then
-// differs from the typed key within that prefix, so it is at least one
-// edit away, and the hint names only candidates no designation left unread
-// could beat: those one edit away; none if the nearest read is further.
-// No hint is better than the name of another mark.
+// if even the first character's are that few, the whole register, if it
+// is that small. A designation not read then differs from the typed key
+// within that prefix, so it is at least one edit away, and the hint names
+// only candidates no designation left unread could beat: those one edit
+// away; none if the nearest read is further. No hint is better than the
+// name of another mark.
 func designationHint(ctx context.Context, db store.DBTX, typed string) (string, error) {
-	all, err := store.MarkDesignationsByKeyPrefix(ctx, db, "", hintRead+1)
-	if err != nil {
-		return "", err
-	}
-	if len(all) <= hintRead {
-		return didYouMean(typed, all, math.MaxInt), nil
-	}
 	k := hintKey(typed)
 	var cands []string
-	for p := len(k); p > 0; p-- {
+	p := len(k)
+	for ; p > 0; p-- {
 		got, err := store.MarkDesignationsByKeyPrefix(ctx, db, k[:p], hintRead+1)
 		if err != nil {
 			return "", err
@@ -274,6 +269,15 @@ func designationHint(ctx context.Context, db store.DBTX, typed string) (string, 
 			break
 		}
 		cands = got
+	}
+	if p == 0 {
+		all, err := store.MarkDesignationsByKeyPrefix(ctx, db, "", hintRead+1)
+		if err != nil {
+			return "", err
+		}
+		if len(all) <= hintRead {
+			return didYouMean(typed, all, math.MaxInt), nil
+		}
 	}
 	return didYouMean(typed, cands, 1), nil
 }

@@ -5,4 +5,6 @@ var (
 	MarkListSQL   = func(p MarkListParams) (string, []any) { return markListSQL(p, nil) }
 	BoundingBoxes = boundingBoxes
 	NearestSQL    = nearestSQL
+	HeightColumns = heightColumns
+	HeightFrom    = heightFrom
 )

@@ -385,9 +385,11 @@ func markListSQL(p MarkListParams, ids []int64) (string, []any) {
 				" UNION SELECT mark_id FROM mark_version WHERE lat IS NOT NULL AND "+in+")")
 		}
 	}
+	from := markFrom
 	if ids != nil {
+		// The marks by their keys, one probe each, not a scan of mark.
 		args = append(args, ids)
-		where = append(where, fmt.Sprintf("m.id IN (SELECT unnest($%d::bigint[]))", len(args)))
+		from = strings.Replace(markFrom, " FROM mark m ", fmt.Sprintf(" FROM (SELECT DISTINCT unnest($%d::bigint[]) AS id) AS u JOIN mark m ON m.id = u.id ", len(args)), 1)
 	}
 	if len(p.Conditions) > 0 {
 		args = append(args, p.Conditions)
@@ -399,7 +401,7 @@ func markListSQL(p MarkListParams, ids []int64) (string, []any) {
 		where = append(where, fmt.Sprintf(`m.id IN (SELECT id FROM mark WHERE lower(normalize(designation, NFKC)) = $%d
 			UNION SELECT mark_id FROM mark_alias WHERE lower(normalize(alias, NFKC)) = $%d)`, len(args), len(args)))
 	}
-	q += markFrom
+	q += from
 	if len(where) > 0 {
 		q += " WHERE " + strings.Join(where, " AND ")
 	}
