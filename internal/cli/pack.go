@@ -32,13 +32,17 @@ type packOptions struct {
 	unit    units.Unit
 	out     string
 	key     string
+	limit   int
 }
+
+// defaultPackLimit is how many marks a pack holds unless told.
+const defaultPackLimit = 500
 
 func newCmdPack(f *Factory, runF func(*packOptions) error) *cobra.Command {
 	opts := &packOptions{f: f}
 	var asOf, unit string
 	cmd := &cobra.Command{
-		Use:   "pack --near LAT,LON --within R [--as-of TIME] [--unit m|ft|usft] --out FILE.zip",
+		Use:   "pack --near LAT,LON --within R [--limit N] [--as-of TIME] [--unit m|ft|usft] --out FILE.zip",
 		Short: "Write a job pack for a site: the sheets, CSV and GeoJSON of the marks near it",
 		Long: `Write a job pack (a zip file) for the marks within --within of a site:
 
@@ -58,7 +62,9 @@ the register's latest commit; marks by distance, then designation). A
 signed statement says when it was made, so a pack with one differs in that
 file and in SHA256SUMS. --as-of gives the pack as it would have been at a
 past time: the heights in force then and the condition reports observed by
-then.
+then. A pack holds at most the --limit nearest marks (default 500; 0 for
+all); when more are within the radius, README.txt and the error stream say
+so.
 
 ` + cautions,
 		Example: `  cairn pack --near 41.62,-97.95 --within 2km --unit usft --out mere-bridge.zip
@@ -72,6 +78,9 @@ then.
 			}
 			if opts.out == "" {
 				return badInput("--out FILE.zip is required")
+			}
+			if opts.limit < 0 {
+				return badInput("limit: %d is not a number of marks (0 for all)", opts.limit)
 			}
 			if opts.asOf, err = parseAsOf(asOf); err != nil {
 				return err
@@ -88,6 +97,7 @@ then.
 	fl.StringVar(&opts.within, "within", "2km", "radius about the site, in m, km, ft, usft or mi (e.g. 2km, 500m)")
 	fl.StringVar(&asOf, "as-of", "", asOfUsage("give the heights"))
 	fl.StringVar(&unit, "unit", "m", "unit of the heights: m, ft (international foot) or usft (US survey foot)")
+	fl.IntVar(&opts.limit, "limit", defaultPackLimit, "pack at most this many marks, nearest first (0 for all)")
 	fl.StringVar(&opts.out, "out", "", "the zip file to write")
 	fl.StringVar(&opts.key, "key", "", "sign the statement with the Ed25519 key in FILE (default: the file CAIRN_AUDIT_KEY names; none: no statement)")
 	return cmd
@@ -106,9 +116,17 @@ func packRun(opts *packOptions) error {
 	if err != nil {
 		return err
 	}
-	set, err := r.Datasheets(opts.ctx, register.DatasheetParams{Near: &ll, RadiusM: radius, AsOf: opts.asOf})
+	dp := register.DatasheetParams{Near: &ll, RadiusM: radius, AsOf: opts.asOf}
+	if opts.limit > 0 {
+		dp.Limit = opts.limit + 1 // one more, to know whether there are more
+	}
+	set, err := r.Datasheets(opts.ctx, dp)
 	if err != nil {
 		return err
+	}
+	more := opts.limit > 0 && len(set.Sheets) > opts.limit
+	if more {
+		set.Sheets = set.Sheets[:opts.limit]
 	}
 	var stmt []byte
 	if opts.key != "" || os.Getenv("CAIRN_AUDIT_KEY") != "" {
@@ -121,7 +139,7 @@ func packRun(opts *packOptions) error {
 		}
 		stmt = s.Encode()
 	}
-	p := packInput{Near: opts.near, Within: opts.within, AsOf: opts.asOfArg, Unit: opts.unit, Set: set, Statement: stmt}
+	p := packInput{Near: opts.near, Within: opts.within, AsOf: opts.asOfArg, Unit: opts.unit, Set: set, Statement: stmt, More: more}
 	data, err := buildPack(p)
 	if err != nil {
 		return err
@@ -134,6 +152,9 @@ func packRun(opts *packOptions) error {
 		return err
 	}
 	ios.printf("wrote %s: %d mark(s) within %s of %s, register commit %d\n", opts.out, len(set.Sheets), opts.within, opts.near, set.State.Seq)
+	if more {
+		ios.printf("more marks are within %s of %s than the %d nearest packed (--limit 0 packs all)\n", opts.within, opts.near, opts.limit)
+	}
 	return nil
 }
 
@@ -143,6 +164,8 @@ type packInput struct {
 	Unit               units.Unit
 	Set                register.DatasheetSet
 	Statement          []byte // nil: none
+	// More: the radius holds more marks than the nearest packed (--limit).
+	More bool
 }
 
 // packFile is one file of a pack.
@@ -363,6 +386,9 @@ func packReadme(p packInput, marks int) []byte {
 	var b strings.Builder
 	fmt.Fprintf(&b, "cairn job pack\n==============\n\n")
 	fmt.Fprintf(&b, "Marks within %s of %s: %d.\n", p.Within, p.Near, marks)
+	if p.More {
+		fmt.Fprintf(&b, "MORE MARKS ARE WITHIN %s: this pack holds the %d nearest only (--limit).\n", p.Within, marks)
+	}
 	if p.AsOf != "" {
 		fmt.Fprintf(&b, "Heights in force at %s (--as-of), as the register knows them now;\ncondition reports observed by then; doubts as known now.\n", p.AsOf)
 	} else {
