@@ -5,6 +5,7 @@ import (
 	"encoding/json"
 	"errors"
 	"fmt"
+	"strings"
 	"time"
 
 	"github.com/jackc/pgx/v5"
@@ -135,7 +136,8 @@ func AdjustmentList(ctx context.Context, db DBTX, p AdjustmentListParams) ([]Adj
 // AdjustmentListByIDs returns the adjustments of ids that exist, by
 // identifier.
 func AdjustmentListByIDs(ctx context.Context, db DBTX, ids []int64) ([]Adjustment, error) {
-	rows, err := db.Query(ctx, "SELECT "+adjustmentColumns+adjustmentFrom+" WHERE a.id = ANY($1) ORDER BY a.id", ids)
+	rows, err := db.Query(ctx, "SELECT "+adjustmentColumns+strings.Replace(adjustmentFrom, " FROM adjustment a ",
+		" FROM (SELECT DISTINCT unnest($1::bigint[]) AS id) AS u JOIN adjustment a ON a.id = u.id ", 1)+" ORDER BY a.id", ids)
 	if err != nil {
 		return nil, translate(err)
 	}

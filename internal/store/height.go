@@ -3,6 +3,7 @@ package store
 import (
 	"context"
 	"fmt"
+	"strings"
 	"time"
 
 	"github.com/jackc/pgx/v5"
@@ -375,5 +376,7 @@ func HeightInsertMany(ctx context.Context, db DBTX, p HeightInsertManyParams) ([
 // HeightListByIDs returns the versions with the given identifiers, by
 // designation and datum code.
 func HeightListByIDs(ctx context.Context, db DBTX, ids []int64) ([]Height, error) {
-	return heightQuery(ctx, db, "SELECT "+heightColumns+heightFrom+" WHERE h.id = ANY($1) ORDER BY m.designation, d.code", ids)
+	// By key, one probe an id (see HeightLatestMany).
+	return heightQuery(ctx, db, "SELECT "+heightColumns+strings.Replace(heightFrom, " FROM height h ",
+		" FROM (SELECT DISTINCT unnest($1::bigint[]) AS id) AS u JOIN height h ON h.id = u.id ", 1)+" ORDER BY m.designation, d.code", ids)
 }

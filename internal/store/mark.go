@@ -572,7 +572,8 @@ func MarkListByDesignations(ctx context.Context, db DBTX, designations []string)
 // that writers locking overlapping sets never deadlock, until the
 // transaction ends. It takes the lock HeightSet takes for one mark.
 func MarkLock(ctx context.Context, db DBTX, markIDs []int64) error {
-	_, err := db.Exec(ctx, "SELECT 1 FROM mark WHERE id = ANY($1) ORDER BY id FOR NO KEY UPDATE", markIDs)
+	_, err := db.Exec(ctx, `SELECT 1 FROM (SELECT DISTINCT unnest($1::bigint[]) AS id) AS u JOIN mark m ON m.id = u.id
+		ORDER BY m.id FOR NO KEY UPDATE OF m`, markIDs)
 	return translateAs(err, RolePublisher)
 }
 
