@@ -124,7 +124,7 @@ func (opts *adjustOptions) parse(cmd *cobra.Command, args []string) error {
 	if opts.Register.holds() {
 		return badInput("--hold goes with RUN numbers; with --sections, give the held marks in --held")
 	}
-	for _, name := range []string{"marks", "area", "within", "weight", "method", "by", "made-by", "distribute", "datum", "dry-run"} {
+	for _, name := range []string{"marks", "marks-file", "area", "within", "weight", "method", "by", "made-by", "distribute", "datum", "dry-run"} {
 		if cmd.Flags().Changed(name) {
 			return badInput("%s: --%s goes with RUN numbers, not with --sections", name, name)
 		}

@@ -1,13 +1,16 @@
 package cli
 
 import (
+	"bufio"
 	"context"
 	"encoding/hex"
 	"fmt"
 	"math"
+	"os"
 	"strconv"
 	"strings"
 	"time"
+	"unicode/utf8"
 
 	"github.com/spf13/cobra"
 
@@ -25,10 +28,14 @@ type adjustRegisterOptions struct {
 	params   register.AdjustParams
 	hold     []string // --hold MARK (or, deprecated, MARK:SD_MM)
 	weighted []string // --hold-weighted MARK=SD_MM
-	method   string
-	by       string // who; once the distribution (deprecated)
-	madeBy   string // deprecated spelling of --by
-	distrib  string
+	// marksFile is --marks-file; marksFrom says where each of
+	// params.Marks was read ("" for --marks).
+	marksFile string
+	marksFrom []string
+	method    string
+	by        string // who; once the distribution (deprecated)
+	madeBy    string // deprecated spelling of --by
+	distrib   string
 	// distribFlag is the flag that gave the distribution: "distribute",
 	// "by" (deprecated), or "" for none.
 	distribFlag string
@@ -81,7 +88,9 @@ MARK=SD_MM holds it weighted, its current height taken as an observation
 with that standard deviation in millimetres. --minimal holds only the first held mark
 and adjusts the others as check marks, never published, to judge the runs
 apart from the control. --marks and --area (with --within) add every run
-with a section from or to the marks named or the marks in the area.
+with a section from or to the marks named or the marks in the area;
+--marks-file FILE names marks one a line (blank lines and # comments
+skipped), for more names than a command line holds.
 
 The least-squares report gives each mark's adjusted height and standard
 deviation, the redundancy, the variance factor with its chi-square test at
@@ -112,6 +121,7 @@ func (o *adjustRegisterOptions) flags(cmd *cobra.Command) {
 	fl.StringSliceVar(&o.hold, "hold", nil, "marks to hold fixed at their current heights; repeat, or separate with commas (MARK:SD_MM is deprecated: use --hold-weighted)")
 	fl.StringSliceVar(&o.weighted, "hold-weighted", nil, "least squares: MARK=SD_MM holds a mark weighted, its current height an observation with that standard deviation in millimetres")
 	fl.StringSliceVar(&o.params.Marks, "marks", nil, "also adjust every run with a section from or to these marks")
+	fl.StringVar(&o.marksFile, "marks-file", "", "also adjust every run with a section from or to the marks named in this file, one a line (# comments)")
 	fl.StringVar(&o.area, "area", "", "LAT,LON: also adjust every run with a section from or to a mark within --within of this point")
 	fl.StringVar(&o.within, "within", "", "radius of --area, in m, km, ft, usft or mi (e.g. 5km, 3mi)")
 	fl.StringVar(&o.weight, "weight", "length", "least squares: weigh sections by length or by setups")
@@ -129,8 +139,13 @@ func (o *adjustRegisterOptions) flags(cmd *cobra.Command) {
 
 // parse fills o.params from the flags and args.
 func (o *adjustRegisterOptions) parse(cmd *cobra.Command, args []string) error {
+	if o.marksFile != "" {
+		if err := o.readMarksFile(); err != nil {
+			return err
+		}
+	}
 	if len(args) == 0 && len(o.params.Marks) == 0 && o.area == "" {
-		return badInput("run: name the runs to adjust (see cairn run list), or choose them with --marks or --area")
+		return badInput("run: name the runs to adjust (see cairn run list), or choose them with --marks, --marks-file or --area")
 	}
 	for _, a := range args {
 		id, err := strconv.ParseInt(strings.TrimSpace(a), 10, 64)
@@ -675,4 +690,56 @@ func renderDraftChecks(say func(string, ...any), st adjust.Statistics) {
 	for _, sd := range st.Sides {
 		say("%s: from an intermediate sight (run %d, book line %d), carried from %s: a spur with no check of its own\n", sd.Mark, sd.RunID, sd.Line, sd.From)
 	}
+}
+
+// maxMarksFileBytes is the largest --marks-file read: 64 MiB, some five
+// million designations.
+const maxMarksFileBytes = 64 << 20
+
+// readMarksFile appends the marks named in --marks-file to --marks: one
+// designation (or alias) a line, surrounding spaces trimmed; blank lines
+// and lines starting with # are skipped. A line that is not UTF-8 text, or
+// holds a comma or a tab (two names on one line?), is refused naming the
+// file and line, and so is a file that names no mark.
+func (o *adjustRegisterOptions) readMarksFile() error {
+	f, err := os.Open(o.marksFile)
+	if err != nil {
+		return badInput("marks-file: %v", err)
+	}
+	defer f.Close()
+	if st, err := f.Stat(); err == nil && st.Size() > maxMarksFileBytes {
+		return badInput("marks-file: %s: %d bytes is too long (at most %d)", o.marksFile, st.Size(), maxMarksFileBytes)
+	}
+	for len(o.marksFrom) < len(o.params.Marks) {
+		o.marksFrom = append(o.marksFrom, "")
+	}
+	sc := bufio.NewScanner(f)
+	sc.Buffer(make([]byte, 0, 4096), MaxTextBytes)
+	n, names := 0, 0
+	for sc.Scan() {
+		n++
+		line := strings.TrimSpace(sc.Text())
+		if n == 1 {
+			line = strings.TrimSpace(strings.TrimPrefix(line, "\uFEFF"))
+		}
+		switch {
+		case line == "" || strings.HasPrefix(line, "#"):
+			continue
+		case !utf8.ValidString(line) || strings.ContainsRune(line, 0):
+			return badInput("marks-file: %s:%d: not UTF-8 text (save the file as UTF-8)", o.marksFile, n)
+		case strings.ContainsAny(line, ",\t"):
+			return badInput("marks-file: %s:%d: %q: one mark a line (no commas or tabs)", o.marksFile, n, clip(line))
+		}
+		o.params.Marks = append(o.params.Marks, line)
+		o.marksFrom = append(o.marksFrom, fmt.Sprintf("%s:%d", o.marksFile, n))
+		names++
+	}
+	if err := sc.Err(); err != nil {
+		return badInput("marks-file: %s:%d: %v", o.marksFile, n+1, err)
+	}
+	if names == 0 {
+		return badInput("marks-file: %s names no mark", o.marksFile)
+	}
+	o.params.MarksFrom = o.marksFrom
+	return nil
 }

@@ -201,9 +201,13 @@ func sheetData(st register.RegisterState, s register.Datasheet, asOf, knownAt *t
 	}
 	for _, h := range s.Heights {
 		sh := sheet.Height{Datum: h.DatumCode, Version: h.Version, Class: h.Class, Provenance: h.SourceKind,
-			InForceFrom: h.InForceFrom, Source: h.Source}
+			InForceFrom: h.InForceFrom, Source: sourceShown(h.SourceKind, h.Source)}
 		if h.AdjustmentID != nil {
-			sh.Source = strings.TrimSpace("adjustment " + strconv.FormatInt(*h.AdjustmentID, 10) + " " + h.Source)
+			// The source of a published version names its adjustment
+			// already (register.AdjustmentSource); another is prefixed.
+			if a := "adjustment " + strconv.FormatInt(*h.AdjustmentID, 10); !strings.HasPrefix(sh.Source, a+" ") && sh.Source != a {
+				sh.Source = strings.TrimSpace(a + " " + sh.Source)
+			}
 		}
 		if h.Value == nil {
 			sh.Withdrawn = true

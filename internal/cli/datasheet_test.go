@@ -315,6 +315,30 @@ func TestPack(t *testing.T) {
 	if !strings.Contains(string(of["README.txt"]), "2010-01-01") {
 		t.Error("pack --as-of: README does not say the instant")
 	}
+	if strings.Contains(string(files["README.txt"]), "MORE MARKS") {
+		t.Error("a pack of every mark within the radius says there are more")
+	}
+
+	// --limit 1: the nearest mark alone, and the README and the error
+	// stream say more are within the radius.
+	one := filepath.Join(dir, "one.zip")
+	_, errOut, status := run(t, db.URL, append(args, "--limit", "1", "--out", one)...)
+	d1, _ := os.ReadFile(one)
+	f1, n1 := readZip(t, d1)
+	var sheets []string
+	for _, n := range n1 {
+		if strings.HasPrefix(n, "sheets/") {
+			sheets = append(sheets, n)
+		}
+	}
+	if status != ExitOK || len(sheets) != 1 || !strings.Contains(errOut, "more marks are within 500m of 41.6208,-97.9583 than the 1 nearest packed") ||
+		!strings.Contains(string(f1["README.txt"]), "MORE MARKS ARE WITHIN 500m: this pack holds the 1 nearest only") {
+		t.Errorf("pack --limit 1: exit %d, sheets %v, stderr %q, README:\n%s", status, sheets, errOut, f1["README.txt"])
+	}
+	checkGeoJSON(t, f1["marks.geojson"], 1)
+	if _, errOut, status := run(t, db.URL, append(args, "--limit", "-1", "--out", one)...); status != ExitBadInput || !strings.Contains(errOut, "limit") {
+		t.Errorf("pack --limit -1: exit %d, %s", status, errOut)
+	}
 }
 
 // checkGeoJSON checks a FeatureCollection against RFC 7946 (Butler et al.,

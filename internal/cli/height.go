@@ -372,7 +372,7 @@ func heightShowRun(opts *heightShowOptions) error {
 			t.Headers = append(t.Headers, "HEIGHT ("+string(in)+")")
 		}
 		for _, h := range out.Heights {
-			row := []string{h.Datum, strconv.Itoa(h.Version), deref(h.Value), deref(h.Unit), h.Class, timeText(h.InForceFrom), timeText(h.CommittedAt), h.Source, doubtCell(opts.f.IO, h.Doubts)}
+			row := []string{h.Datum, strconv.Itoa(h.Version), deref(h.Value), deref(h.Unit), h.Class, timeText(h.InForceFrom), timeText(h.CommittedAt), sourceShown(h.SourceKind, h.Source), doubtCell(opts.f.IO, h.Doubts)}
 			if h.Value == nil {
 				row[2] = "withdrawn"
 			}
@@ -468,7 +468,7 @@ func heightListRun(opts *heightListOptions) error {
 			if h.Value == nil {
 				val = "withdrawn"
 			}
-			t.AddRow(h.Mark, h.Datum, strconv.Itoa(h.Version), val, deref(h.Unit), h.Class, h.Source, doubtCell(opts.f.IO, h.Doubts))
+			t.AddRow(h.Mark, h.Datum, strconv.Itoa(h.Version), val, deref(h.Unit), h.Class, sourceShown(h.SourceKind, h.Source), doubtCell(opts.f.IO, h.Doubts))
 		}
 		return t
 	})
@@ -554,7 +554,7 @@ func historyRun(opts *historyOptions) error {
 				val = "withdrawn"
 			}
 			t.AddRow(h.Datum, strconv.Itoa(h.Version), timeText(h.InForceFrom), timeText(h.CommittedAt), val, deref(h.Unit),
-				deref(h.Change), h.SourceKind, h.Reason, h.Source, byText(h.heightJSON), doubtCell(opts.f.IO, h.Doubts))
+				deref(h.Change), h.SourceKind, h.Reason, sourceShown(h.SourceKind, h.Source), byText(h.heightJSON), doubtCell(opts.f.IO, h.Doubts))
 		}
 		return t
 	})

@@ -429,12 +429,17 @@ type markListOptions struct {
 	within     string
 	conditions []string
 	name       string
+	limit      int
+	limitSet   bool // --limit was given
 }
+
+// defaultNearLimit is how many marks a near search lists unless told.
+const defaultNearLimit = 100
 
 func newCmdMarkList(f *Factory, runF func(*markListOptions) error) *cobra.Command {
 	opts := &markListOptions{f: f}
 	cmd := &cobra.Command{
-		Use:   "list [--near LAT,LON --within 2km] [--condition ...] [--name NAME]",
+		Use:   "list [--near LAT,LON --within 2km [--limit N]] [--condition ...] [--name NAME]",
 		Short: "List benchmarks, optionally those near a point, nearest first",
 		Long: `List the benchmarks of the register with their latest condition.
 
@@ -444,8 +449,10 @@ unverified (created by recording a book, no report yet) or unknown (no
 report at all).
 
 With --near, only marks within --within of the point (great-circle distance
-on a sphere of the mean Earth radius) are listed, nearest first. Marks last
-reported disturbed, destroyed or not found are flagged with a warning.
+on a sphere of the mean Earth radius) are listed, nearest first, at most
+--limit of them (default 100; 0 for all): when more are within the radius,
+the error stream says so. Marks last reported disturbed, destroyed or not
+found are flagged with a warning.
 
 --name keeps the mark whose designation or one of whose aliases (another
 agency's number, a former designation, what is stamped on it) is NAME, in
@@ -459,11 +466,16 @@ snake_case names (docs/output.md).`,
   cairn mark list --condition disturbed,not-found
   cairn mark list --near 41.62,-97.95 --within 5km -o geojson > marks.geojson`,
 		Args: exactArgs(0, "no arguments"),
-		RunE: runE(&opts.ctx, opts, runF, markListRun),
+	}
+	run := runE(&opts.ctx, opts, runF, markListRun)
+	cmd.RunE = func(cmd *cobra.Command, args []string) error {
+		opts.limitSet = cmd.Flags().Changed("limit")
+		return run(cmd, args)
 	}
 	addGeoOutputFlag(cmd, &opts.format)
 	cmd.Flags().StringVar(&opts.near, "near", "", "LAT,LON in decimal degrees: list marks near this point")
 	cmd.Flags().StringVar(&opts.within, "within", "2km", "search radius with --near, in m, km, ft, usft or mi (e.g. 2km, 500m, 2mi)")
+	cmd.Flags().IntVar(&opts.limit, "limit", defaultNearLimit, "with --near, list at most this many marks, nearest first (0 for all)")
 	cmd.Flags().StringVar(&opts.name, "name", "", "keep the mark with this designation or alias, in any case")
 	cmd.Flags().StringSliceVar(&opts.conditions, "condition", nil, "keep marks whose latest condition is one of these, in any case: "+strings.Join(register.ShownConditions, ", ")+" (no report yet)")
 	return cmd
@@ -481,6 +493,14 @@ func markListRun(opts *markListOptions) error {
 			return err
 		}
 		p.Near = &ll
+		if opts.limit < 0 {
+			return badInput("limit: %d is not a number of marks (0 for all)", opts.limit)
+		}
+		if opts.limit > 0 {
+			p.Limit = opts.limit + 1 // one more, to know whether there are more
+		}
+	} else if opts.limitSet {
+		return badInput("limit: --limit goes with --near")
 	}
 	r, err := openRegister(opts.ctx, opts.f)
 	if err != nil {
@@ -489,6 +509,10 @@ func markListRun(opts *markListOptions) error {
 	ms, err := r.MarkList(opts.ctx, p)
 	if err != nil {
 		return err
+	}
+	if p.Limit > 0 && len(ms) > opts.limit {
+		ms = ms[:opts.limit]
+		defer opts.f.IO.printf("more marks are within %s of %s than the %d nearest listed (--limit 0 lists all)\n", opts.within, opts.near, opts.limit)
 	}
 	out := []markJSON{}
 	inDoubt := 0

@@ -35,13 +35,17 @@ type packOptions struct {
 	unit    units.Unit
 	out     string
 	key     string
+	limit   int
 }
+
+// defaultPackLimit is how many marks a pack holds unless told.
+const defaultPackLimit = 500
 
 func newCmdPack(f *Factory, runF func(*packOptions) error) *cobra.Command {
 	opts := &packOptions{f: f}
 	var asOf, knownAt, unit string
 	cmd := &cobra.Command{
-		Use:   "pack --near LAT,LON --within R [--as-of TIME] [--known-at TIME] [--unit m|ft|usft] --out FILE.zip",
+		Use:   "pack --near LAT,LON --within R [--limit N] [--as-of TIME] [--known-at TIME] [--unit m|ft|usft] --out FILE.zip",
 		Short: "Write a job pack for a site: the sheets, CSV and GeoJSON of the marks near it",
 		Long: `Write a job pack (a zip file) for the marks within --within of a site:
 
@@ -67,7 +71,9 @@ marks added, the height versions committed and the condition reports
 recorded by then (alone, the heights in force then; with --as-of, those in
 force at --as-of). Together they rebuild what a crew was handed on a day,
 from the register as it stood that day. The marks' descriptions, positions
-and doubts are as known now.
+and doubts are as known now. A pack holds at most the --limit nearest marks
+(default 500; 0 for all); when more are within the radius, README.txt and
+the error stream say so.
 
 ` + cautions,
 		Example: `  cairn pack --near 41.62,-97.95 --within 2km --unit usft --out mere-bridge.zip
@@ -82,6 +88,9 @@ and doubts are as known now.
 			}
 			if opts.out == "" {
 				return badInput("--out FILE.zip is required")
+			}
+			if opts.limit < 0 {
+				return badInput("limit: %d is not a number of marks (0 for all)", opts.limit)
 			}
 			if opts.asOf, err = parseAsOf(asOf); err != nil {
 				return err
@@ -103,6 +112,7 @@ and doubts are as known now.
 	fl.StringVar(&asOf, "as-of", "", asOfUsage("give the heights"))
 	fl.StringVar(&knownAt, "known-at", "", knownAtUsage("give the marks, heights and condition reports"))
 	fl.StringVar(&unit, "unit", "m", "unit of the heights: m, ft (international foot) or usft (US survey foot)")
+	fl.IntVar(&opts.limit, "limit", defaultPackLimit, "pack at most this many marks, nearest first (0 for all)")
 	fl.StringVar(&opts.out, "out", "", "the zip file to write")
 	fl.StringVar(&opts.key, "key", "", "sign the statement with the Ed25519 key in FILE (default: the file CAIRN_AUDIT_KEY names; none: no statement)")
 	return cmd
@@ -124,16 +134,24 @@ func packRun(opts *packOptions) error {
 	// A bar of the sheets read, then of the sheets written, on a terminal.
 	var bar *Bar
 	defer func() { bar.Finish() }()
-	set, err := r.Datasheets(opts.ctx, register.DatasheetParams{Near: &ll, RadiusM: radius, AsOf: opts.asOf, KnownAt: opts.knownAt,
+	dp := register.DatasheetParams{Near: &ll, RadiusM: radius, AsOf: opts.asOf, KnownAt: opts.knownAt,
 		Progress: func(done, total int) {
 			if bar == nil {
 				bar = opts.f.IO.StartBar(int64(total), "pack: reading sheets", "marks")
 			}
 			bar.Add(1)
-		}})
+		}}
+	if opts.limit > 0 {
+		dp.Limit = opts.limit + 1 // one more, to know whether there are more
+	}
+	set, err := r.Datasheets(opts.ctx, dp)
 	bar.Finish()
 	if err != nil {
 		return err
+	}
+	more := opts.limit > 0 && len(set.Sheets) > opts.limit
+	if more {
+		set.Sheets = set.Sheets[:opts.limit]
 	}
 	var stmt []byte
 	if opts.key != "" || os.Getenv("CAIRN_AUDIT_KEY") != "" {
@@ -146,7 +164,7 @@ func packRun(opts *packOptions) error {
 		}
 		stmt = s.Encode()
 	}
-	p := packInput{Near: opts.near, Within: opts.within, AsOf: opts.asOfArg, KnownAt: opts.known, Unit: opts.unit, Set: set, Statement: stmt}
+	p := packInput{Near: opts.near, Within: opts.within, AsOf: opts.asOfArg, KnownAt: opts.known, Unit: opts.unit, Set: set, Statement: stmt, More: more}
 	bar = opts.f.IO.StartBar(int64(2*len(set.Sheets)), "pack: writing sheets (PDF, HTML)", "sheets")
 	p.Step = func() { bar.Add(1) }
 	data, err := buildPack(p)
@@ -162,6 +180,9 @@ func packRun(opts *packOptions) error {
 		return err
 	}
 	ios.printf("wrote %s: %d mark(s) within %s of %s, register commit %d\n", opts.out, len(set.Sheets), opts.within, opts.near, set.State.Seq)
+	if more {
+		ios.printf("more marks are within %s of %s than the %d nearest packed (--limit 0 packs all)\n", opts.within, opts.near, opts.limit)
+	}
 	return nil
 }
 
@@ -174,6 +195,8 @@ type packInput struct {
 	// Step, unless nil, is called after each sheet's PDF page and HTML
 	// file, for a progress bar.
 	Step func()
+	// More: the radius holds more marks than the nearest packed (--limit).
+	More bool
 }
 
 // packFile is one file of a pack.
@@ -437,6 +460,9 @@ func packReadme(p packInput, marks int) []byte {
 	var b strings.Builder
 	fmt.Fprintf(&b, "cairn job pack\n==============\n\n")
 	fmt.Fprintf(&b, "Marks within %s of %s: %d.\n", p.Within, p.Near, marks)
+	if p.More {
+		fmt.Fprintf(&b, "MORE MARKS ARE WITHIN %s: this pack holds the %d nearest only (--limit).\n", p.Within, marks)
+	}
 	switch {
 	case p.AsOf != "" && p.KnownAt != "":
 		fmt.Fprintf(&b, "Heights in force at %s (--as-of), as the register knew them at %s\n(--known-at): marks added, versions committed and condition reports\nrecorded by then, reports observed by %s; descriptions and doubts as known now.\n", p.AsOf, p.KnownAt, p.AsOf)

@@ -229,6 +229,23 @@ func TestRunVoid(t *testing.T) {
 	if out := binMustRun(t, db.URL, "stale"); !strings.Contains(out, "voided-run\t"+wantReason) {
 		t.Errorf("stale:\n%s", out)
 	}
+	// stale --datum and --limit: two of the five, and a word that there
+	// are more; --area: the five near the circuit, none at 0,0.
+	if out, errOut, status := binRun(t, db.URL, "stale", "--datum", "NAVD88", "--limit", "2", "-o", "json"); status != ExitOK ||
+		json.Unmarshal([]byte(out), &stale) != nil || len(stale) != 2 || !strings.Contains(errOut, "more heights are stale than the 2 listed") {
+		t.Errorf("stale --limit 2: exit %d, %s, stderr %q", status, out, errOut)
+	}
+	if err := json.Unmarshal([]byte(binMustRun(t, db.URL, "stale", "--area", "41.62,-97.95", "--within", "10km", "-o", "json")), &stale); err != nil || len(stale) != 5 {
+		t.Errorf("stale --area of the circuit: %d heights, %v", len(stale), err)
+	}
+	if out := binMustRun(t, db.URL, "stale", "--area", "0,0", "--within", "10km", "-o", "json"); out != "[]\n" {
+		t.Errorf("stale --area 0,0: %s", out)
+	}
+	for _, bad := range [][]string{{"--area", "north"}, {"--limit", "-1"}, {"--datum", "NAVD89"}, {"--area", "91,0"}} {
+		if _, errOut, status := binRun(t, db.URL, append([]string{"stale"}, bad...)...); status != ExitBadInput || !strings.Contains(errOut, strings.TrimPrefix(bad[0], "--")) {
+			t.Errorf("stale %v: exit %d, %s", bad, status, errOut)
+		}
+	}
 
 	// Trace shows the void on the run.
 	tr := binMustRun(t, db.URL, "trace", "BM3")

@@ -256,7 +256,7 @@ func writeTrace(w io.Writer, v traceVersionJSON, indent string) {
 			writeTrace(w, h, in+"        ")
 		}
 	default:
-		fmt.Fprintf(w, "%ssource: %s\n", in, v.Source)
+		fmt.Fprintf(w, "%ssource: %s\n", in, sourceShown(v.SourceKind, v.Source))
 		if e := v.Import; e != nil {
 			fmt.Fprintf(w, "%simported by import %d, %s by %s, from %s\n", in, e.ImportID, timeText(e.RecordedAt), e.RecordedBy, e.Source)
 			for _, f := range e.Files {
@@ -275,7 +275,7 @@ func traceRows(t *Table, v traceVersionJSON, depth int) {
 	if v.Adjustment != nil && v.Adjustment.AcceptedFailedChecks != nil {
 		accepted = acceptanceText(v.Adjustment.AcceptedFailedChecks, "")
 	}
-	t.AddRow(strconv.Itoa(depth), "version", v.Mark, v.Datum, strconv.Itoa(v.Version), deref(v.Value), deref(v.Unit), v.SourceKind, v.Source, adj, "", "",
+	t.AddRow(strconv.Itoa(depth), "version", v.Mark, v.Datum, strconv.Itoa(v.Version), deref(v.Value), deref(v.Unit), v.SourceKind, sourceShown(v.SourceKind, v.Source), adj, "", "",
 		v.HeldAs, accepted, v.Doubts.Words(), v.InForceFrom.UTC().Format(time.RFC3339Nano), v.CommittedAt.UTC().Format(time.RFC3339Nano))
 	if v.Adjustment == nil || v.Repeated {
 		return

@@ -57,7 +57,7 @@ func TestDemoAdjustmentTrace(t *testing.T) {
 	if held.Designation != "TC-0412" || held.Source != report19 {
 		t.Fatalf("held %s citing %q, want TC-0412 citing %q", held.Designation, held.Source, report19)
 	}
-	if s, err := r.Stale(ctx); err != nil || len(s) != 0 {
+	if s, err := r.Stale(ctx, register.StaleParams{}); err != nil || len(s.Heights) != 0 {
 		t.Fatalf("stale after the demo: %v %v", s, err)
 	}
 }

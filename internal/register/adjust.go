@@ -34,6 +34,10 @@ type AdjustParams struct {
 	Marks   []string
 	Near    *store.LatLon
 	RadiusM float64
+	// MarksFrom, if set, says where each of Marks was read (FILE:LINE),
+	// for the error that names one the register does not hold; "" for a
+	// name given on the command line.
+	MarksFrom []string
 	// Datum is the datum code; "" means the one datum the runs' books name,
 	// else the one on which every held mark has a current height.
 	Datum string

@@ -13,6 +13,7 @@ import (
 
 	"cairn/internal/adjust"
 	"cairn/internal/levelbook"
+	"cairn/internal/names"
 	"cairn/internal/reduce"
 	"cairn/internal/store"
 	"cairn/internal/units"
@@ -56,6 +57,15 @@ func (r *Register) gather(ctx context.Context, tx pgx.Tx, p AdjustParams) (*gath
 		return nil, err
 	}
 	var checksLeftOut []int64
+	// Every run in one statement, not one a run.
+	listed, err := store.RunListByIDs(ctx, tx, runIDs)
+	if err != nil {
+		return nil, fmt.Errorf("look up %d runs: %w", len(runIDs), err)
+	}
+	byID := make(map[int64]store.Run, len(listed))
+	for _, run := range listed {
+		byID[run.ID] = run
+	}
 	for _, id := range runIDs {
 		if checkRuns[id] {
 			if named[id] {
@@ -64,9 +74,9 @@ func (r *Register) gather(ctx context.Context, tx pgx.Tx, p AdjustParams) (*gath
 			checksLeftOut = append(checksLeftOut, id)
 			continue
 		}
-		run, err := r.run(ctx, tx, id)
-		if err != nil {
-			return nil, err
+		run, ok := byID[id]
+		if !ok {
+			return nil, inputErr("run", "no run %d in the register (see cairn run list)", id)
 		}
 		switch {
 		case run.Voided != nil && named[id]:
@@ -156,27 +166,33 @@ func (r *Register) gather(ctx context.Context, tx pgx.Tx, p AdjustParams) (*gath
 			LengthM: s.LengthM, Setups: s.Setups, FirstLine: s.FirstLine, LastLine: s.LastLine})
 		g.markIDs[s.From], g.markIDs[s.To] = s.FromMarkID, s.ToMarkID
 	}
+	sides, err := sidesOfRuns(ctx, tx, g.runs)
+	if err != nil {
+		return nil, err
+	}
+	var withSides []int64
+	for _, run := range g.runs {
+		if len(sides[run.ID]) > 0 {
+			withSides = append(withSides, run.ID)
+		}
+	}
+	if len(withSides) > 0 {
+		marks, err := store.RunMarkIDsByRuns(ctx, tx, withSides)
+		if err != nil {
+			return nil, err
+		}
+		for d, id := range marks {
+			if _, ok := g.markIDs[d]; !ok {
+				g.markIDs[d] = id
+			}
+		}
+	}
 	for _, run := range g.runs {
 		prof, err := runProfile(run.Standards)
 		if err != nil {
 			return nil, fmt.Errorf("run %d: its standards profile: %w", run.ID, err)
 		}
-		sides, err := sidesOf(ctx, tx, run)
-		if err != nil {
-			return nil, err
-		}
-		if len(sides) > 0 {
-			marks, err := store.RunMarkListByRun(ctx, tx, run.ID)
-			if err != nil {
-				return nil, err
-			}
-			for _, m := range marks {
-				if _, ok := g.markIDs[m.Designation]; !ok {
-					g.markIDs[m.Designation] = m.MarkID
-				}
-			}
-		}
-		g.input.Runs = append(g.input.Runs, adjust.DraftRun{ID: run.ID, Class: run.Class, Sections: byRun[run.ID], Sides: sides, Standards: prof})
+		g.input.Runs = append(g.input.Runs, adjust.DraftRun{ID: run.ID, Class: run.Class, Sections: byRun[run.ID], Sides: sides[run.ID], Standards: prof})
 	}
 	g.input.Method, g.input.Distribution, g.input.Network = p.Method, p.Distribution, p.LeastSquares
 	g.input.Decimals = p.Decimals
@@ -212,12 +228,34 @@ func (r *Register) chooseRuns(ctx context.Context, tx pgx.Tx, p AdjustParams) ([
 // chosen by p.Marks or p.Near (none if neither is given).
 func (r *Register) runsTouching(ctx context.Context, tx pgx.Tx, p AdjustParams) ([]int64, error) {
 	var ids []int64
-	for _, d := range p.Marks {
-		m, err := r.mark(ctx, tx, "marks", strings.TrimSpace(d), false)
+	if len(p.Marks) > 0 {
+		// Every name in one statement; the first not found is then
+		// resolved alone, for its error and its hint.
+		list := make([]string, len(p.Marks))
+		folded := make([]string, len(p.Marks))
+		for i, d := range p.Marks {
+			list[i] = strings.TrimSpace(d)
+			folded[i] = names.Fold(list[i])
+		}
+		found, err := store.MarkIDsByNames(ctx, tx, list, folded)
 		if err != nil {
 			return nil, err
 		}
-		ids = append(ids, m.ID)
+		for i, d := range list {
+			id, ok := found[d]
+			if !ok {
+				m, err := r.mark(ctx, tx, "marks", d, false)
+				var ie *InputError
+				if errors.As(err, &ie) && i < len(p.MarksFrom) && p.MarksFrom[i] != "" {
+					return nil, &InputError{Field: "marks-file", Msg: p.MarksFrom[i] + ": " + ie.Msg}
+				}
+				if err != nil {
+					return nil, err
+				}
+				id = m.ID
+			}
+			ids = append(ids, id)
+		}
 	}
 	if len(p.Marks) > 0 {
 		runs, err := store.RunIDsTouchingMarks(ctx, tx, ids)
@@ -225,7 +263,11 @@ func (r *Register) runsTouching(ctx context.Context, tx pgx.Tx, p AdjustParams) 
 			return nil, err
 		}
 		if len(runs) == 0 {
-			return nil, inputErr("marks", "no recorded run has a section from or to %s", strings.Join(p.Marks, ", "))
+			named := strings.Join(p.Marks, ", ")
+			if len(p.Marks) > 10 {
+				named = fmt.Sprintf("any of the %d marks named", len(p.Marks))
+			}
+			return nil, inputErr("marks", "no recorded run has a section from or to %s", named)
 		}
 		ids = runs
 	} else {
@@ -234,24 +276,22 @@ func (r *Register) runsTouching(ctx context.Context, tx pgx.Tx, p AdjustParams) 
 	if p.Near == nil {
 		return ids, nil
 	}
-	near, err := store.MarkList(ctx, tx, store.MarkListParams{Near: p.Near, RadiusM: p.RadiusM})
+	// The area's marks by their ids alone: their rows, conditions and
+	// aliases are not needed to choose runs.
+	mids, err := store.MarkIDsWithin(ctx, tx, *p.Near, p.RadiusM)
 	if err != nil {
 		return nil, err
 	}
 	where := areaText(p)
-	if len(near) == 0 {
+	if len(mids) == 0 {
 		return nil, inputErr("area", "no mark with a position lies within %s", where)
-	}
-	mids := make([]int64, len(near))
-	for i, m := range near {
-		mids[i] = m.ID
 	}
 	runs, err := store.RunIDsTouchingMarks(ctx, tx, mids)
 	if err != nil {
 		return nil, err
 	}
 	if len(runs) == 0 {
-		return nil, inputErr("area", "no recorded run has a section from or to the %d mark(s) within %s", len(near), where)
+		return nil, inputErr("area", "no recorded run has a section from or to the %d mark(s) within %s", len(mids), where)
 	}
 	return append(ids, runs...), nil
 }
@@ -376,14 +416,33 @@ func commonDatums(ctx context.Context, db store.DBTX, marks []store.Mark) (codes
 	return codes, "", nil
 }
 
-// sidesOf reads run's intermediate sights on marks from its stored book,
-// reduced again with its stored options (as audit verify does): the side
-// shots that give a mark sighted only so its height (adjust.DraftSide).
-func sidesOf(ctx context.Context, db store.DBTX, run store.Run) ([]adjust.DraftSide, error) {
-	raw, err := store.RunGetBook(ctx, db, run.ID)
-	if err != nil {
-		return nil, fmt.Errorf("read the book of run %d: %w", run.ID, err)
+// sidesOfRuns reads the runs' intermediate sights on marks from their
+// stored books (sidesOf), the books in one statement, by run.
+func sidesOfRuns(ctx context.Context, db store.DBTX, runs []store.Run) (map[int64][]adjust.DraftSide, error) {
+	byID := make(map[int64]store.Run, len(runs))
+	ids := make([]int64, len(runs))
+	for i, run := range runs {
+		byID[run.ID], ids[i] = run, run.ID
 	}
+	out := map[int64][]adjust.DraftSide{}
+	err := store.RunBookEach(ctx, db, ids, func(id int64, raw []byte) error {
+		sides, err := sidesOf(byID[id], raw)
+		if len(sides) > 0 {
+			out[id] = sides
+		}
+		return err
+	})
+	if err != nil {
+		return nil, fmt.Errorf("read the books of %d runs: %w", len(runs), err)
+	}
+	return out, nil
+}
+
+// sidesOf reads run's intermediate sights on marks from its stored book
+// raw, reduced again with its stored options (as audit verify does): the
+// side shots that give a mark sighted only so its height
+// (adjust.DraftSide).
+func sidesOf(run store.Run, raw []byte) ([]adjust.DraftSide, error) {
 	book, err := levelbook.Parse(run.FileName, raw)
 	if err != nil {
 		return nil, fmt.Errorf("run %d: its stored book no longer parses: %w", run.ID, err)

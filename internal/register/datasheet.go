@@ -20,6 +20,10 @@ type DatasheetParams struct {
 	Designations []string
 	Near         *store.LatLon
 	RadiusM      float64
+	// Limit, if more than zero, keeps the nearest Limit marks of Near,
+	// read nearest first from the position indexes; a caller asks for
+	// one more than it packs to know whether there are more.
+	Limit int
 	// AsOf is the instant asked about: the versions in force then (as the
 	// register knows them now); nil for now.
 	AsOf *time.Time
@@ -114,7 +118,7 @@ func (r *Register) Datasheets(ctx context.Context, p DatasheetParams) (Datasheet
 			}
 		}
 		if p.Near != nil {
-			ms, err := store.MarkList(ctx, tx, store.MarkListParams{Near: p.Near, RadiusM: p.RadiusM})
+			ms, err := store.MarkList(ctx, tx, store.MarkListParams{Near: p.Near, RadiusM: p.RadiusM, Limit: p.Limit})
 			if err != nil {
 				return err
 			}
@@ -187,7 +191,8 @@ func datasheet(ctx context.Context, tx pgx.Tx, m store.Mark, asOf, knownAt *time
 	}
 	v.Doubts = ds[m.ID]
 	if m.Lat != nil && m.Lon != nil {
-		ns, err := store.MarkList(ctx, tx, store.MarkListParams{Near: &store.LatLon{Lat: *m.Lat, Lon: *m.Lon}, RadiusM: neighbourM})
+		ns, err := store.MarkList(ctx, tx, store.MarkListParams{Near: &store.LatLon{Lat: *m.Lat, Lon: *m.Lon}, RadiusM: neighbourM,
+			Limit: MaxNeighbours + 1}) // the mark itself is among them
 		if err != nil {
 			return s, err
 		}

@@ -127,36 +127,6 @@ func conditionDoubt(m store.Mark) (Doubt, bool) {
 // It reads in db, which should be one read-only transaction so that every
 // doubt describes the same moment.
 func doubtsOf(ctx context.Context, db store.DBTX, marks []store.Mark, hs []store.Height) (map[int64]Doubts, error) {
-	return doubtsOfWith(ctx, db, marks, hs, &staleSet{})
-}
-
-// staleSet is the stale heights of the register (staleHeights), read once
-// in a transaction and then kept: a reader that asks doubtsOfWith again
-// and again in one snapshot (an export, batch by batch) reads them once.
-// It holds one entry per stale version, not per version of the register.
-type staleSet struct {
-	read    bool
-	reasons map[int64][]StaleReason
-}
-
-func (s *staleSet) get(ctx context.Context, db store.DBTX) (map[int64][]StaleReason, error) {
-	if s.read {
-		return s.reasons, nil
-	}
-	shs, err := staleHeights(ctx, db)
-	if err != nil {
-		return nil, err
-	}
-	s.reasons = map[int64][]StaleReason{}
-	for _, sh := range shs {
-		s.reasons[sh.ID] = sh.Reasons
-	}
-	s.read = true
-	return s.reasons, nil
-}
-
-// doubtsOfWith is doubtsOf with the stale heights read through stale.
-func doubtsOfWith(ctx context.Context, db store.DBTX, marks []store.Mark, hs []store.Height, stale *staleSet) (map[int64]Doubts, error) {
 	out := map[int64]Doubts{}
 	var ids []int64
 	seen := map[int64]bool{}
@@ -198,13 +168,14 @@ func doubtsOfWith(ctx context.Context, db store.DBTX, marks []store.Mark, hs []s
 			out[m.ID] = append(out[m.ID], d)
 		}
 	}
-	var adjIDs []int64
-	anyStale := false
+	var adjIDs, currentAdjusted []int64
 	for _, h := range hs {
 		if h.AdjustmentID != nil && !slices.Contains(adjIDs, *h.AdjustmentID) {
 			adjIDs = append(adjIDs, *h.AdjustmentID)
 		}
-		anyStale = anyStale || (h.Current && h.AdjustmentID != nil)
+		if h.Current && h.AdjustmentID != nil {
+			currentAdjusted = append(currentAdjusted, h.ID)
+		}
 	}
 	if len(adjIDs) == 0 {
 		return out, nil
@@ -224,9 +195,14 @@ func doubtsOfWith(ctx context.Context, db store.DBTX, marks []store.Mark, hs []s
 		return nil, fmt.Errorf("look up voided runs: %w", err)
 	}
 	staleReasons := map[int64][]StaleReason{}
-	if anyStale {
-		if staleReasons, err = stale.get(ctx, db); err != nil {
+	if len(currentAdjusted) > 0 {
+		// Only these heights, and those their adjustments held, are read.
+		shs, err := staleHeights(ctx, db, currentAdjusted, true)
+		if err != nil {
 			return nil, err
+		}
+		for _, sh := range shs {
+			staleReasons[sh.ID] = sh.Reasons
 		}
 	}
 	for _, h := range hs {

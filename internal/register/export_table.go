@@ -40,8 +40,8 @@ type ExportTableStart struct {
 // batch: start is called once with the register state, then batch with
 // each batch's marks as datasheets (Mark, Heights, Doubts, and in
 // Conditions the last good report alone; no aliases' details, photos or
-// neighbours). Only one batch is held at a time; the stale heights of
-// the register are read once (they decide the stale doubt).
+// neighbours). Only one batch is held at a time; the stale doubt of a
+// batch reads only its heights' own held chains.
 func (r *Register) ExportTable(ctx context.Context, p ExportTableParams, start func(ExportTableStart) error, batch func([]Datasheet) error) error {
 	if p.Near != nil {
 		if p.Near.Lat < -90 || p.Near.Lat > 90 {
@@ -74,10 +74,9 @@ func (r *Register) ExportTable(ctx context.Context, p ExportTableParams, start f
 		if err := start(st); err != nil {
 			return err
 		}
-		stale := &staleSet{}
 		after := ""
 		for {
-			ms, err := store.MarkList(ctx, tx, store.MarkListParams{Near: p.Near, RadiusM: p.RadiusM, After: after, Limit: size})
+			ms, err := store.MarkList(ctx, tx, store.MarkListParams{Near: p.Near, RadiusM: p.RadiusM, After: after, PageSize: size})
 			if err != nil {
 				return err
 			}
@@ -97,7 +96,7 @@ func (r *Register) ExportTable(ctx context.Context, p ExportTableParams, start f
 			if err != nil {
 				return err
 			}
-			ds, err := doubtsOfWith(ctx, tx, ms, hs, stale)
+			ds, err := doubtsOf(ctx, tx, ms, hs)
 			if err != nil {
 				return err
 			}

@@ -240,14 +240,15 @@ func TestLeastSquaresPublishTraceStale(t *testing.T) {
 	if a == nil || a.Method != string(MethodLeastSquares) || len(a.Runs) != 3 || len(a.Held) != 2 {
 		t.Fatalf("trace: %+v", tr.Versions[0])
 	}
-	if s, err := b.Reg.Stale(b.Ctx); err != nil || len(s) != 0 {
+	if s, err := b.Reg.Stale(b.Ctx, StaleParams{}); err != nil || len(s.Heights) != 0 {
 		t.Fatalf("stale before: %v %v", s, err)
 	}
 	outside(t, b, "TC-0415", "10.9020", "Outside control, revised (invented citation)")
-	s, err := b.Reg.Stale(b.Ctx)
+	list, err := b.Reg.Stale(b.Ctx, StaleParams{})
 	if err != nil {
 		t.Fatal(err)
 	}
+	s := list.Heights
 	if len(s) != 3 || s[0].Reasons[0].Kind != store.CauseHeldSuperseded || s[0].Reasons[0].Mark != "TC-0415" {
 		t.Fatalf("stale after: %+v", s)
 	}

@@ -213,6 +213,10 @@ type MarkListParams struct {
 	// Name keeps the mark whose designation or one of whose aliases is
 	// this name, in any case and character form (names.Fold).
 	Name string
+	// Limit, if more than zero, keeps the nearest Limit marks of a near
+	// search, read nearest first from the position indexes; a caller asks
+	// for one more than it shows to know whether there are more.
+	Limit int
 }
 
 // ListedMark is a mark in a listing, with its doubts and those of its
@@ -235,6 +239,12 @@ func (r *Register) MarkList(ctx context.Context, p MarkListParams) ([]ListedMark
 			return nil, inputErr("within", "the search radius must be more than zero")
 		}
 	}
+	if p.Limit < 0 {
+		return nil, inputErr("limit", "the limit must be zero (no limit) or more, not %d", p.Limit)
+	}
+	if p.Limit > 0 && p.Near == nil {
+		return nil, inputErr("limit", "a limit goes with a near search")
+	}
 	var conds []string
 	for _, c := range p.Conditions {
 		k, ok := ParseCondition(c, ShownConditions)
@@ -246,7 +256,7 @@ func (r *Register) MarkList(ctx context.Context, p MarkListParams) ([]ListedMark
 	var out []ListedMark
 	err := r.withTx(ctx, readTx, func(tx pgx.Tx) error {
 		ms, err := store.MarkList(ctx, tx, store.MarkListParams{Near: p.Near, RadiusM: p.RadiusM, Conditions: conds,
-			Name: names.Fold(strings.TrimSpace(p.Name))})
+			Name: names.Fold(strings.TrimSpace(p.Name)), Limit: p.Limit})
 		if err != nil {
 			return err
 		}

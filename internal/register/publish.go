@@ -6,6 +6,7 @@ import (
 	"errors"
 	"fmt"
 	"sort"
+	"strconv"
 	"strings"
 	"time"
 
@@ -277,7 +278,7 @@ func (r *Register) Publish(ctx context.Context, p PublishParams) (*Published, er
 			return err
 		}
 		out.Versions, err = store.HeightInsertMany(ctx, tx, store.HeightInsertManyParams{DatumID: a.DatumID, AdjustmentID: a.ID,
-			Source: fmt.Sprintf("adjustment %d (%s, run %s)", a.ID, a.Method, joinIDs(a.RunIDs)),
+			Source: AdjustmentSource(a.ID, a.Method, len(a.RunIDs)),
 			Reason: p.Reason, RecordedBy: p.By, Results: publish})
 		if err != nil {
 			return asConflict(err)
@@ -477,4 +478,19 @@ func reportConditions(ctx context.Context, tx pgx.Tx, p PublishParams, v *Adjust
 		out.Reported = append(out.Reported, ReportedCondition{Designation: d.Designation, Condition: c})
 	}
 	return nil
+}
+
+// AdjustmentSource is the source text of the versions an adjustment
+// publishes: "adjustment 12 (least-squares, 2947 runs)", a few dozen bytes
+// whatever the size of the network. The runs themselves are in
+// adjustment_run, and trace shows them. Versions published before this
+// text carried every run's number, "adjustment 12 (least-squares, run 3,
+// 7, 8, ...)"; they stay as written (the history is append-only) and the
+// command line shortens them for display.
+func AdjustmentSource(id int64, method string, runs int) string {
+	n := strconv.Itoa(runs) + " runs"
+	if runs == 1 {
+		n = "1 run"
+	}
+	return "adjustment " + strconv.FormatInt(id, 10) + " (" + method + ", " + n + ")"
 }

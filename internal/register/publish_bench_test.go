@@ -43,9 +43,9 @@ func BenchmarkStale(b *testing.B) {
 	adjustPublish(b, fx, run)
 	fx.Height(b, registertest.HeightOpts{Designation: "TC-1001", Value: "100.010", Unit: "m", Source: "invented", Reason: "bench", By: "bench"})
 	for b.Loop() {
-		s, err := fx.Reg.Stale(context.Background())
-		if err != nil || len(s) != 1999 {
-			b.Fatalf("%d stale, %v", len(s), err)
+		s, err := fx.Reg.Stale(context.Background(), StaleParams{})
+		if err != nil || len(s.Heights) != 1999 {
+			b.Fatalf("%d stale, %v", len(s.Heights), err)
 		}
 	}
 }

@@ -261,12 +261,12 @@ func TestStale(t *testing.T) {
 	b.Publication(t, a.Adjustment.ID, registertest.PublicationOpts{Reason: "circuit"})
 	stale := func() map[string]string {
 		t.Helper()
-		s, err := b.Reg.Stale(b.Ctx)
+		s, err := b.Reg.Stale(b.Ctx, StaleParams{})
 		if err != nil {
 			t.Fatal(err)
 		}
 		out := map[string]string{}
-		for _, h := range s {
+		for _, h := range s.Heights {
 			var kinds []string
 			for _, r := range h.Reasons {
 				kinds = append(kinds, r.Kind+" "+r.Mark)
@@ -327,6 +327,67 @@ func TestStale(t *testing.T) {
 	}
 	if got["TC-0900"] != "held-stale BM2" {
 		t.Errorf("TC-0900: stale %q, want through BM2", got["TC-0900"])
+	}
+
+	// By datum and by area (issue 15: stale of a county, not the whole
+	// register). The circuit's marks are placed at 41.62,-97.95, 100 m
+	// apart; TC-0900 some 100 km away. Within 1 km of TC-0900 only it is
+	// listed, still stale through BM2 and BM4, which lie outside the area:
+	// what a height held is followed wherever it is.
+	place := func(mark string, lat, lon float64) {
+		t.Helper()
+		if _, err := b.Reg.MarkEdit(b.Ctx, MarkEditParams{Designation: mark, Lat: &lat, Lon: &lon, Reason: "position (invented)", By: "test"}); err != nil {
+			t.Fatal(err)
+		}
+	}
+	for i, m := range []string{"BM2", "BM3", "BM4", "BM5", "BM6"} {
+		place(m, 41.62+0.0009*float64(i), -97.95)
+	}
+	place("TC-0900", 42.5, -97.5)
+	b.Datum(t, registertest.DatumOpts{Code: "TCVD"})
+	staleIn := func(p StaleParams) (string, bool) {
+		t.Helper()
+		s, err := b.Reg.Stale(b.Ctx, p)
+		if err != nil {
+			t.Fatal(err)
+		}
+		var out []string
+		for _, h := range s.Heights {
+			var kinds []string
+			for _, r := range h.Reasons {
+				kinds = append(kinds, r.Kind+" "+r.Mark)
+			}
+			out = append(out, h.Designation+": "+strings.Join(kinds, ", "))
+		}
+		return strings.Join(out, "; "), s.More
+	}
+	circuit := "BM2: mark-condition BM4; BM3: mark-condition BM4; BM4: mark-condition BM4; BM5: mark-condition BM4; BM6: mark-condition BM4"
+	cases := []struct {
+		p    StaleParams
+		want string
+		more bool
+	}{
+		{StaleParams{Near: &store.LatLon{Lat: 42.5, Lon: -97.5}, RadiusM: 1000}, "TC-0900: held-stale BM2", false},
+		{StaleParams{Near: &store.LatLon{Lat: 41.62, Lon: -97.95}, RadiusM: 2000}, circuit, false},
+		{StaleParams{Near: &store.LatLon{Lat: 41.62, Lon: -97.95}, RadiusM: 2000, Datum: "NAVD88"}, circuit, false},
+		{StaleParams{Near: &store.LatLon{Lat: 41.62, Lon: -97.95}, RadiusM: 2000, Datum: "TCVD"}, "", false},
+		{StaleParams{Datum: "NAVD88"}, circuit + "; TC-0900: held-stale BM2", false},
+		{StaleParams{Datum: "TCVD"}, "", false},
+		{StaleParams{Near: &store.LatLon{Lat: 0, Lon: 0}, RadiusM: 1000}, "", false},
+		{StaleParams{Limit: 2}, "BM2: mark-condition BM4; BM3: mark-condition BM4", true},
+		{StaleParams{Limit: 6}, circuit + "; TC-0900: held-stale BM2", false},
+	}
+	for _, c := range cases {
+		if got, more := staleIn(c.p); got != c.want || more != c.more {
+			t.Errorf("stale %+v:\n got %q (more %v)\nwant %q (more %v)", c.p, got, more, c.want, c.more)
+		}
+	}
+	var ie *InputError
+	if _, err := b.Reg.Stale(b.Ctx, StaleParams{Datum: "TCVDX"}); !errors.As(err, &ie) || ie.Field != "datum" || !strings.Contains(err.Error(), "did you mean TCVD?") {
+		t.Errorf("an unknown datum: %v", err)
+	}
+	if _, err := b.Reg.Stale(b.Ctx, StaleParams{Near: &store.LatLon{Lat: 91, Lon: 0}, RadiusM: 1}); !errors.As(err, &ie) || ie.Field != "area" {
+		t.Errorf("latitude 91: %v", err)
 	}
 }
 
@@ -483,4 +544,30 @@ func TestAdjustmentAppendOnly(t *testing.T) {
 		t.Fatalf("height citing a draft: %v, want refused", err)
 	}
 	b.AssertNothingWritten(t, before)
+}
+
+// A published version's source names its adjustment, method and count of
+// runs, never the run list (issue 15: 17 kB a version for 2,947 runs),
+// and is a few dozen bytes however many runs there are.
+func TestPublishedSourceIsShort(t *testing.T) {
+	t.Parallel()
+	b := registertest.Setup(t)
+	b.WorkedCircuit(t, registertest.WorkedCircuitOpts{Copies: 3})
+	// Three copies of the worked circuit by least squares: it misses
+	// closure by 0.244 m, so the network's checks fail; accepted here.
+	v := b.Adjustment(t, registertest.AdjustmentOpts{Method: adjust.MethodLeastSquares})
+	if _, err := b.Reg.Publish(b.Ctx, PublishParams{AdjustmentID: v.Adjustment.ID, Reason: "three copies", By: "reviewer",
+		AcceptFailedChecks: true, AcceptReason: "a test of the source text"}); err != nil {
+		t.Fatal(err)
+	}
+	want := fmt.Sprintf("adjustment %d (least-squares, 3 runs)", v.Adjustment.ID)
+	if h := current(t, b, "BM4"); h.Source != want {
+		t.Errorf("BM4's source %q, want %q", h.Source, want)
+	}
+	if got := AdjustmentSource(12, "least-squares", 2947); got != "adjustment 12 (least-squares, 2947 runs)" {
+		t.Errorf("2947 runs: %q", got)
+	}
+	if got := AdjustmentSource(3, "proportional", 1); got != "adjustment 3 (proportional, 1 run)" {
+		t.Errorf("one run: %q", got)
+	}
 }

@@ -9,6 +9,7 @@ import (
 	"context"
 	"errors"
 	"fmt"
+	"math"
 	"slices"
 	"sort"
 	"strings"
@@ -204,11 +205,11 @@ func (r *Register) mark(ctx context.Context, db store.DBTX, field, designation s
 		m, err = store.MarkGetByAlias(ctx, db, names.Fold(designation), forUpdate)
 	}
 	if errors.Is(err, store.ErrNotFound) {
-		cands, err := store.MarkDesignationsLike(ctx, db, names.Fold(designation), 10000)
+		hint, err := designationHint(ctx, db, designation)
 		if err != nil {
 			return store.Mark{}, err
 		}
-		return store.Mark{}, inputErr(field, "no mark %q in the register%s", designation, didYouMean(designation, cands))
+		return store.Mark{}, inputErr(field, "no mark %q in the register%s", designation, hint)
 	}
 	if err != nil {
 		return store.Mark{}, fmt.Errorf("look up mark %s: %w", designation, err)
@@ -232,7 +233,7 @@ func (r *Register) datum(ctx context.Context, db store.DBTX, field, code string)
 		for _, d := range all {
 			codes = append(codes, d.Code)
 		}
-		return store.Datum{}, inputErr(field, "no datum %q in the register%s", code, didYouMean(code, codes))
+		return store.Datum{}, inputErr(field, "no datum %q in the register%s", code, didYouMean(code, codes, math.MaxInt))
 	}
 	if err != nil {
 		return store.Datum{}, fmt.Errorf("look up datum %s: %w", code, err)
@@ -240,21 +241,67 @@ func (r *Register) datum(ctx context.Context, db store.DBTX, field, code string)
 	return d, nil
 }
 
+// hintRead is the most designations designationHint reads for one prefix.
+const hintRead = 250
+
+// designationHint returns didYouMean's hint for a designation the register
+// does not hold, right at any size of the register. It reads the
+// designations whose key (folded, punctuation left out: hintKey) starts
+// with the whole typed key, then with shorter and shorter prefixes of it,
+// each a range scan of an index (store.MarkDesignationsByKeyPrefix), and
+// keeps the shortest prefix whose designations number at most hintRead;
+// if even the first character's are that few, the whole register, if it
+// is that small. A designation not read then differs from the typed key
+// within that prefix, so it is at least one edit away, and the hint names
+// only candidates no designation left unread could beat: those one edit
+// away; none if the nearest read is further. No hint is better than the
+// name of another mark.
+func designationHint(ctx context.Context, db store.DBTX, typed string) (string, error) {
+	k := hintKey(typed)
+	var cands []string
+	p := len(k)
+	for ; p > 0; p-- {
+		got, err := store.MarkDesignationsByKeyPrefix(ctx, db, k[:p], hintRead+1)
+		if err != nil {
+			return "", err
+		}
+		if len(got) > hintRead {
+			break
+		}
+		cands = got
+	}
+	if p == 0 {
+		all, err := store.MarkDesignationsByKeyPrefix(ctx, db, "", hintRead+1)
+		if err != nil {
+			return "", err
+		}
+		if len(all) <= hintRead {
+			return didYouMean(typed, all, math.MaxInt), nil
+		}
+	}
+	return didYouMean(typed, cands, 1), nil
+}
+
+// hintKey is the form in which didYouMean compares names: folded
+// (names.Fold: case and character forms), punctuation left out.
+func hintKey(x string) string {
+	return strings.Map(func(r rune) rune {
+		if r == '-' || r == '_' || r == '.' || r == '/' || r == ' ' {
+			return -1
+		}
+		return r
+	}, names.Fold(x))
+}
+
 // didYouMean returns " (did you mean X?)" naming the candidates nearest to
 // s, or "" if none is close. Near means an edit distance between the
-// folded forms (names.Fold: case and character forms), punctuation left
-// out, of at most a third of the length (at least 1).
-func didYouMean(s string, cands []string) string {
-	key := func(x string) string {
-		return strings.Map(func(r rune) rune {
-			if r == '-' || r == '_' || r == '.' || r == '/' || r == ' ' {
-				return -1
-			}
-			return r
-		}, names.Fold(x))
-	}
+// keys (hintKey) of at most a third of the length (at least 1), and at
+// most unseen: the least distance a name not among cands could have
+// (math.MaxInt when cands are all the names there are).
+func didYouMean(s string, cands []string, unseen int) string {
+	key := hintKey
 	k := key(s)
-	limit := max(1, len(k)/3)
+	limit := min(max(1, len(k)/3), unseen)
 	type scored struct {
 		s string
 		d int

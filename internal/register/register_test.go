@@ -247,6 +247,59 @@ func TestDidYouMean(t *testing.T) {
 	}
 }
 
+// At the size of a national register "did you mean" names the mark one
+// edit away, or none, never another mark. With 10,000 designations AA0000
+// to AA9999 before it, AB0826X was once answered AA0826 (two edits: the
+// first 10,000 designations starting with A were all it read), not AB0826
+// (one edit). A register larger than one read is read by prefixes of what
+// was typed; BB0826XY, one edit from AB0826XY, is never read for it, so
+// AB0826 (two edits) is not offered either.
+func TestDidYouMeanAtScale(t *testing.T) {
+	t.Parallel()
+	b := setup(t)
+	designations := []string{"AB0826", "BB0826XY"}
+	for i := range 10000 {
+		designations = append(designations, fmt.Sprintf("AA%04d", i))
+	}
+	tx, err := b.DB.Pool.Begin(b.Ctx)
+	if err != nil {
+		t.Fatal(err)
+	}
+	defer tx.Rollback(b.Ctx)
+	if _, err := store.MarkInsertMany(b.Ctx, tx, store.MarkInsertManyParams{Designations: designations, CreatedBy: registertest.By}); err != nil {
+		t.Fatal(err)
+	}
+	if err := tx.Commit(b.Ctx); err != nil {
+		t.Fatal(err)
+	}
+	cases := []struct{ typed, want string }{
+		{"AB0826X", "(did you mean AB0826?)"},
+		{"ab-0826", ""}, // the mark itself, by its folded form
+		{"AB0862", "(did you mean AB0826?)"},
+		{"AB0826XY", ""},
+		{"AD0826Y", ""}, // AA0826 is two edits away; BD... could be one
+		{"AA0826Z", "(did you mean AA0826?)"},
+		{"A", ""},
+	}
+	for _, c := range cases {
+		_, err := b.Reg.MarkShow(b.Ctx, c.typed)
+		if c.typed == "ab-0826" {
+			if err == nil || !strings.Contains(err.Error(), "did you mean AB0826?") {
+				t.Errorf("%s: %v, want a hint of AB0826", c.typed, err)
+			}
+			continue
+		}
+		var ie *register.InputError
+		if !errors.As(err, &ie) || ie.Field != "designation" {
+			t.Errorf("%s: %v, want a designation error", c.typed, err)
+			continue
+		}
+		if c.want == "" && strings.Contains(err.Error(), "did you mean") || c.want != "" && !strings.HasSuffix(err.Error(), c.want) {
+			t.Errorf("%s: %v, want hint %q", c.typed, err, c.want)
+		}
+	}
+}
+
 // The audit recomputes the same hashes as the database writes.
 func TestCanonicalMatchesDatabase(t *testing.T) {
 	t.Parallel()

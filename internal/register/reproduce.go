@@ -148,12 +148,12 @@ func storedInput(ctx context.Context, db store.DBTX, v *AdjustmentView) (adjust.
 		byRun[s.RunID] = append(byRun[s.RunID], adjust.DraftSection{Seq: s.Seq, From: s.From, To: s.To, DhM: s.DifferenceM,
 			LengthM: s.LengthM, Setups: s.Setups, FirstLine: s.FirstLine, LastLine: s.LastLine})
 	}
+	sides, err := sidesOfRuns(ctx, db, v.Runs)
+	if err != nil {
+		return in, err
+	}
 	for _, run := range v.Runs {
-		sides, err := sidesOf(ctx, db, run)
-		if err != nil {
-			return in, err
-		}
-		in.Runs = append(in.Runs, adjust.DraftRun{ID: run.ID, Class: run.Class, Sections: byRun[run.ID], Sides: sides})
+		in.Runs = append(in.Runs, adjust.DraftRun{ID: run.ID, Class: run.Class, Sections: byRun[run.ID], Sides: sides[run.ID]})
 	}
 	held := map[string]store.Held{}
 	for _, h := range v.Held {

@@ -5,6 +5,7 @@ import (
 	"encoding/json"
 	"errors"
 	"fmt"
+	"strings"
 	"time"
 
 	"github.com/jackc/pgx/v5"
@@ -135,7 +136,8 @@ func AdjustmentList(ctx context.Context, db DBTX, p AdjustmentListParams) ([]Adj
 // AdjustmentListByIDs returns the adjustments of ids that exist, by
 // identifier.
 func AdjustmentListByIDs(ctx context.Context, db DBTX, ids []int64) ([]Adjustment, error) {
-	rows, err := db.Query(ctx, "SELECT "+adjustmentColumns+adjustmentFrom+" WHERE a.id = ANY($1) ORDER BY a.id", ids)
+	rows, err := db.Query(ctx, "SELECT "+adjustmentColumns+strings.Replace(adjustmentFrom, " FROM adjustment a ",
+		" FROM (SELECT DISTINCT unnest($1::bigint[]) AS id) AS u JOIN adjustment a ON a.id = u.id ", 1)+" ORDER BY a.id", ids)
 	if err != nil {
 		return nil, translate(err)
 	}
@@ -326,13 +328,20 @@ type HeldLink struct{ HeightID, HeldID int64 }
 
 // HeldLinkList returns, for every current height from an adjustment, the
 // held versions of its adjustment that are still current: the links along
-// which staleness spreads.
-func HeldLinkList(ctx context.Context, db DBTX) ([]HeldLink, error) {
-	rows, err := db.Query(ctx, `SELECT h.id, ah.height_id FROM height h LEFT JOIN register_commit rc ON rc.xid = h.created_xid
+// which staleness spreads. If heightIDs is not nil, only the links from
+// those heights.
+func HeldLinkList(ctx context.Context, db DBTX, heightIDs []int64) ([]HeldLink, error) {
+	from := "height h"
+	var args []any
+	if heightIDs != nil {
+		from = "unnest($1::bigint[]) AS u (id) JOIN height h ON h.id = u.id"
+		args = append(args, heightIDs)
+	}
+	rows, err := db.Query(ctx, `SELECT h.id, ah.height_id FROM `+from+` LEFT JOIN register_commit rc ON rc.xid = h.created_xid
 		JOIN adjustment_held ah ON ah.adjustment_id = h.adjustment_id
 		WHERE `+heightCurrent+`
 		  AND NOT EXISTS (SELECT 1 FROM height y WHERE y.supersedes = ah.height_id)
-		ORDER BY 1, 2`)
+		ORDER BY 1, 2`, args...)
 	if err != nil {
 		return nil, translate(err)
 	}

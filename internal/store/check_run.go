@@ -18,7 +18,7 @@ func CheckRunInsert(ctx context.Context, db DBTX, runID int64) error {
 
 // CheckRunIDs returns which of the runs ids are check runs.
 func CheckRunIDs(ctx context.Context, db DBTX, ids []int64) (map[int64]bool, error) {
-	rows, err := db.Query(ctx, "SELECT run_id FROM check_run WHERE run_id = ANY($1)", ids)
+	rows, err := db.Query(ctx, "SELECT c.run_id FROM (SELECT DISTINCT unnest($1::bigint[]) AS run_id) AS u JOIN check_run c ON c.run_id = u.run_id", ids)
 	if err != nil {
 		return nil, translate(err)
 	}

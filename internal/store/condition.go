@@ -96,8 +96,11 @@ func pgDate(t time.Time) string { return t.Format("2006-01-02") }
 // ConditionLatestMany returns the latest condition report (by date
 // observed) of each of the marks that has one, by mark id.
 func ConditionLatestMany(ctx context.Context, db DBTX, markIDs []int64) (map[int64]Condition, error) {
-	rows, err := db.Query(ctx, `SELECT DISTINCT ON (mark_id) id, mark_id, condition, note, observed_on, recorded_at, recorded_by
-		FROM mark_condition WHERE mark_id = ANY($1) ORDER BY mark_id, observed_on DESC, id DESC`, markIDs)
+	// One probe of mark_condition_latest a mark (see HeightLatestMany).
+	rows, err := db.Query(ctx, `SELECT c.id, c.mark_id, c.condition, c.note, c.observed_on, c.recorded_at, c.recorded_by
+		FROM unnest($1::bigint[]) AS u (mark_id)
+		CROSS JOIN LATERAL (SELECT * FROM mark_condition mc WHERE mc.mark_id = u.mark_id
+			ORDER BY mc.observed_on DESC, mc.id DESC LIMIT 1) c`, markIDs)
 	if err != nil {
 		return nil, translate(err)
 	}
@@ -145,8 +148,10 @@ func ConditionLastGoodMany(ctx context.Context, db DBTX, markIDs []int64) (map[i
 // the report from which on the heights recorded before it are of the mark
 // as it was.
 func ConditionLatestResetMany(ctx context.Context, db DBTX, markIDs []int64) (map[int64]Condition, error) {
-	rows, err := db.Query(ctx, `SELECT DISTINCT ON (mark_id) id, mark_id, condition, note, observed_on, recorded_at, recorded_by
-		FROM mark_condition WHERE mark_id = ANY($1) AND condition = 'reset' ORDER BY mark_id, recorded_at DESC, id DESC`, markIDs)
+	rows, err := db.Query(ctx, `SELECT c.id, c.mark_id, c.condition, c.note, c.observed_on, c.recorded_at, c.recorded_by
+		FROM unnest($1::bigint[]) AS u (mark_id)
+		CROSS JOIN LATERAL (SELECT * FROM mark_condition mc WHERE mc.mark_id = u.mark_id AND mc.condition = 'reset'
+			ORDER BY mc.recorded_at DESC, mc.id DESC LIMIT 1) c`, markIDs)
 	if err != nil {
 		return nil, translate(err)
 	}

@@ -2,6 +2,9 @@ package store
 
 // Exported for the tests of package store_test.
 var (
-	MarkListSQL   = markListSQL
+	MarkListSQL   = func(p MarkListParams) (string, []any) { return markListSQL(p, nil) }
 	BoundingBoxes = boundingBoxes
+	NearestSQL    = nearestSQL
+	HeightColumns = heightColumns
+	HeightFrom    = heightFrom
 )

@@ -4,6 +4,7 @@ import (
 	"context"
 	"fmt"
 	"strconv"
+	"strings"
 	"time"
 
 	"github.com/jackc/pgx/v5"
@@ -249,8 +250,12 @@ func HeightCurrentAll(ctx context.Context, db DBTX, datumID int64) ([]Height, er
 // HeightCurrentByMarks returns the versions in force now of the marks
 // markIDs on every datum, by designation and datum code.
 func HeightCurrentByMarks(ctx context.Context, db DBTX, markIDs []int64) ([]Height, error) {
-	return heightQuery(ctx, db, "SELECT "+heightColumns+heightFrom+
-		` WHERE h.mark_id = ANY($1) AND `+heightCurrent+`
+	// Each mark's chains by their key, not "mark_id = ANY($1)" (see
+	// HeightLatestMany).
+	return heightQuery(ctx, db, "SELECT "+heightColumns+` FROM (SELECT DISTINCT unnest($1::bigint[]) AS mark_id) AS u
+		JOIN height h ON h.mark_id = u.mark_id JOIN mark m ON m.id = h.mark_id JOIN datum d ON d.id = h.datum_id
+		LEFT JOIN register_commit rc ON rc.xid = h.created_xid
+		WHERE `+heightCurrent+`
 		ORDER BY m.designation, d.code`, markIDs)
 }
 
@@ -299,8 +304,15 @@ type HeightLatestManyParams struct {
 // datum, by mark identifier; marks without one are absent. Each says
 // whether it is the one in force now (Current).
 func HeightLatestMany(ctx context.Context, db DBTX, p HeightLatestManyParams) (map[int64]Height, error) {
-	hs, err := heightQuery(ctx, db, "SELECT DISTINCT ON (h.mark_id) "+heightColumns+heightFrom+
-		" WHERE h.mark_id = ANY($1) AND h.datum_id = $2 ORDER BY h.mark_id, h.version DESC", p.MarkIDs, p.DatumID)
+	// One probe of the chain's key (mark_id, datum_id, version) a mark,
+	// newest first: for 50,000 marks 0.22 s, where "mark_id = ANY($1)"
+	// with DISTINCT ON became parallel sequential scans and sorts spilling
+	// to disk (2–5.5 s; issue 15).
+	hs, err := heightQuery(ctx, db, "SELECT "+heightColumns+` FROM unnest($1::bigint[]) AS u (mark_id)
+		CROSS JOIN LATERAL (SELECT x.id FROM height x WHERE x.mark_id = u.mark_id AND x.datum_id = $2
+			ORDER BY x.version DESC LIMIT 1) latest
+		JOIN height h ON h.id = latest.id JOIN mark m ON m.id = h.mark_id JOIN datum d ON d.id = h.datum_id
+		LEFT JOIN register_commit rc ON rc.xid = h.created_xid ORDER BY h.mark_id`, p.MarkIDs, p.DatumID)
 	if err != nil {
 		return nil, err
 	}
@@ -365,7 +377,9 @@ func HeightInsertMany(ctx context.Context, db DBTX, p HeightInsertManyParams) ([
 // HeightListByIDs returns the versions with the given identifiers, by
 // designation and datum code.
 func HeightListByIDs(ctx context.Context, db DBTX, ids []int64) ([]Height, error) {
-	return heightQuery(ctx, db, "SELECT "+heightColumns+heightFrom+" WHERE h.id = ANY($1) ORDER BY m.designation, d.code", ids)
+	// By key, one probe an id (see HeightLatestMany).
+	return heightQuery(ctx, db, "SELECT "+heightColumns+strings.Replace(heightFrom, " FROM height h ",
+		" FROM (SELECT DISTINCT unnest($1::bigint[]) AS id) AS u JOIN height h ON h.id = u.id ", 1)+" ORDER BY m.designation, d.code", ids)
 }
 
 // HeightChainSpan is the first and last mark id of the register's marks

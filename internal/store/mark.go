@@ -227,14 +227,67 @@ func MarkGetByAlias(ctx context.Context, db DBTX, folded string, forUpdate bool)
 	return m, err
 }
 
-// MarkDesignationsLike returns up to limit designations whose folded form
-// starts with the same first character as folded (a folded name, see
-// MarkGetFolded), as candidates for "did you mean".
-func MarkDesignationsLike(ctx context.Context, db DBTX, folded string, limit int) ([]string, error) {
-	if folded == "" {
-		return nil, nil
+// MarkIDsByNames returns the identifiers of the marks named, by name: a
+// name is a mark's designation exactly, or else the folded form of one of
+// its aliases (as register.mark resolves one name), looked up for every
+// name in one statement. Names of no mark are absent.
+func MarkIDsByNames(ctx context.Context, db DBTX, names, folded []string) (map[string]int64, error) {
+	rows, err := db.Query(ctx, `SELECT u.name, coalesce(m.id, a.mark_id)
+		FROM unnest($1::text[], $2::text[]) AS u (name, folded)
+		LEFT JOIN mark m ON m.designation = u.name
+		LEFT JOIN mark_alias a ON m.id IS NULL AND lower(normalize(a.alias, NFKC)) = u.folded
+		WHERE m.id IS NOT NULL OR a.mark_id IS NOT NULL`, names, folded)
+	if err != nil {
+		return nil, translate(err)
 	}
-	rows, err := db.Query(ctx, "SELECT designation FROM mark WHERE lower(normalize(left(designation, 1), NFKC)) = left($1, 1) ORDER BY designation LIMIT $2", folded, limit)
+	type found struct {
+		name string
+		id   int64
+	}
+	got, err := collect(rows, func(r pgx.Row) (found, error) {
+		var f found
+		return f, translate(r.Scan(&f.name, &f.id))
+	})
+	if err != nil {
+		return nil, err
+	}
+	out := make(map[string]int64, len(got))
+	for _, f := range got {
+		out[f.name] = f.id
+	}
+	return out, nil
+}
+
+// designationKey is the SQL of a mark's designation key: its folded form
+// (lower(normalize(designation, NFKC)), as the unique index of 00009) with
+// the punctuation - _ . / left out, in byte order (COLLATE "C"), as the
+// index mark_designation_hint (migrations/00024) holds it.
+const designationKey = `(translate(lower(normalize(designation, NFKC)), '-_./', '') COLLATE "C")`
+
+// MarkDesignationsByKeyPrefix returns, in order of their keys, up to limit
+// designations whose key (folded, punctuation left out: designationKey)
+// starts with prefix, or of every mark if prefix is "". The prefix is a
+// range scan of the index mark_designation_hint, so a register of any size
+// answers in a few index pages; a caller that gets limit names back knows
+// there may be more. A prefix with bytes outside printable ASCII matches
+// nothing (designations are ASCII: migrations/00001).
+func MarkDesignationsByKeyPrefix(ctx context.Context, db DBTX, prefix string, limit int) ([]string, error) {
+	var rows pgx.Rows
+	var err error
+	if prefix == "" {
+		rows, err = db.Query(ctx, "SELECT designation FROM mark ORDER BY "+designationKey+" LIMIT $1", limit)
+	} else {
+		for i := 0; i < len(prefix); i++ {
+			if prefix[i] < 0x21 || prefix[i] >= 0x7e {
+				return nil, nil
+			}
+		}
+		// The keys starting with prefix are those from prefix up to, not
+		// including, prefix with its last byte one higher.
+		upper := prefix[:len(prefix)-1] + string(rune(prefix[len(prefix)-1]+1))
+		rows, err = db.Query(ctx, "SELECT designation FROM mark WHERE "+designationKey+" >= $1 AND "+designationKey+" < $2 ORDER BY "+designationKey+" LIMIT $3",
+			prefix, upper, limit)
+	}
 	if err != nil {
 		return nil, translate(err)
 	}
@@ -256,12 +309,17 @@ type MarkListParams struct {
 	// Name, if set (a folded name, see MarkGetFolded), keeps the mark whose
 	// designation or one of whose aliases has that folded form.
 	Name string
-	// Limit, if more than 0, asks for one page of at most Limit marks by
-	// designation (a near search too), those whose designation comes
-	// after After: the pages of a listing too large to hold at once,
-	// each answered by the index on the designation.
+	// Limit, if more than zero, keeps the nearest Limit marks of a near
+	// search (ties by designation), found nearest first by the GiST
+	// indexes (markListNearest) rather than by sorting every mark within
+	// the radius. Not with PageSize.
 	Limit int
-	After string
+	// PageSize, if more than 0, asks for one page of at most PageSize
+	// marks by designation (a near search too), those whose designation
+	// comes after After: the pages of a listing too large to hold at
+	// once, each answered by the index on the designation.
+	PageSize int
+	After    string
 }
 
 // LatLon is a position in decimal degrees.
@@ -287,7 +345,18 @@ var haversineSQL = `2 * ` + strconv.FormatFloat(MeanEarthRadiusM, 'f', -1, 64) +
 // MarkList lists marks with their latest condition: by designation, or by
 // distance for a near search.
 func MarkList(ctx context.Context, db DBTX, p MarkListParams) ([]Mark, error) {
-	q, args := markListSQL(p)
+	if p.Near != nil && p.Limit > 0 && p.PageSize == 0 {
+		if ms, ok, err := markListNearest(ctx, db, p); ok || err != nil {
+			return ms, err
+		}
+	}
+	return markList(ctx, db, p, nil)
+}
+
+// markList runs markListSQL, keeping only the marks of ids if it is not
+// nil.
+func markList(ctx context.Context, db DBTX, p MarkListParams, ids []int64) ([]Mark, error) {
+	q, args := markListSQL(p, ids)
 	rows, err := db.Query(ctx, q, args...)
 	if err != nil {
 		return nil, translate(err)
@@ -306,22 +375,27 @@ func MarkList(ctx context.Context, db DBTX, p MarkListParams) ([]Mark, error) {
 // markListSQL builds MarkList's query. A near search keeps the marks in
 // the bounding boxes (answered by the GiST index mark_position), then the
 // exact haversine distance decides and sorts.
-func markListSQL(p MarkListParams) (string, []any) {
+func markListSQL(p MarkListParams, ids []int64) (string, []any) {
 	var where []string
 	var args []any
 	q := "SELECT " + markColumns
 	if p.Near != nil {
 		args = append(args, p.Near.Lat, p.Near.Lon, p.RadiusM)
 		q = "SELECT * FROM (SELECT " + markColumns + ", " + haversineSQL + " AS distance_m"
-		var boxes []string
-		for _, b := range boundingBoxes(*p.Near, p.RadiusM) {
-			boxes = append(boxes, fmt.Sprintf("point(lon, lat) <@ box(point(%g, %g), point(%g, %g))", b[0], b[1], b[2], b[3]))
+		where = append(where, curLat+" IS NOT NULL")
+		if ids == nil {
+			in := boxesSQL(boundingBoxes(*p.Near, p.RadiusM))
+			// Candidates by either position the GiST indexes answer (the
+			// mark's own and its versions'); the current one decides.
+			where = append(where, "m.id IN (SELECT id FROM mark WHERE lat IS NOT NULL AND "+in+
+				" UNION SELECT mark_id FROM mark_version WHERE lat IS NOT NULL AND "+in+")")
 		}
-		in := "(" + strings.Join(boxes, " OR ") + ")"
-		// Candidates by either position the GiST indexes answer (the
-		// mark's own and its versions'); the current one decides.
-		where = append(where, curLat+" IS NOT NULL", "m.id IN (SELECT id FROM mark WHERE lat IS NOT NULL AND "+in+
-			" UNION SELECT mark_id FROM mark_version WHERE lat IS NOT NULL AND "+in+")")
+	}
+	from := markFrom
+	if ids != nil {
+		// The marks by their keys, one probe each, not a scan of mark.
+		args = append(args, ids)
+		from = strings.Replace(markFrom, " FROM mark m ", fmt.Sprintf(" FROM (SELECT DISTINCT unnest($%d::bigint[]) AS id) AS u JOIN mark m ON m.id = u.id ", len(args)), 1)
 	}
 	if len(p.Conditions) > 0 {
 		args = append(args, p.Conditions)
@@ -333,12 +407,12 @@ func markListSQL(p MarkListParams) (string, []any) {
 		where = append(where, fmt.Sprintf(`m.id IN (SELECT id FROM mark WHERE lower(normalize(designation, NFKC)) = $%d
 			UNION SELECT mark_id FROM mark_alias WHERE lower(normalize(alias, NFKC)) = $%d)`, len(args), len(args)))
 	}
-	q += markFrom
+	q += from
 	if len(where) > 0 {
 		q += " WHERE " + strings.Join(where, " AND ")
 	}
-	if p.Limit > 0 {
-		args = append(args, p.After, p.Limit)
+	if p.PageSize > 0 {
+		args = append(args, p.After, p.PageSize)
 		page := fmt.Sprintf("designation > $%d ORDER BY designation LIMIT $%d", len(args)-1, len(args))
 		if p.Near != nil {
 			return q + ") near WHERE distance_m <= $3 AND " + page, args
@@ -349,9 +423,130 @@ func markListSQL(p MarkListParams) (string, []any) {
 		return q + " WHERE m." + page, args
 	}
 	if p.Near != nil {
-		return q + ") near WHERE distance_m <= $3 ORDER BY distance_m, designation", args
+		q += ") near WHERE distance_m <= $3 ORDER BY distance_m, designation"
+		if p.Limit > 0 {
+			q += " LIMIT " + strconv.Itoa(p.Limit)
+		}
+		return q, args
 	}
 	return q + " ORDER BY m.designation", args
+}
+
+// MarkIDsWithin returns the ids of the marks whose current position is
+// within radiusM metres of c, in order of id: an area chosen by its marks'
+// keys alone (the bounding boxes by the GiST indexes, then the exact
+// haversine distance of the current position), without reading the
+// marks' rows, conditions or aliases.
+func MarkIDsWithin(ctx context.Context, db DBTX, c LatLon, radiusM float64) ([]int64, error) {
+	in := boxesSQL(boundingBoxes(c, radiusM))
+	rows, err := db.Query(ctx, `SELECT m.id FROM mark m LEFT JOIN LATERAL (
+			SELECT mv.id, mv.lat, mv.lon FROM mark_version mv WHERE mv.mark_id = m.id ORDER BY mv.version DESC LIMIT 1
+		) v ON true
+		WHERE m.id IN (SELECT id FROM mark WHERE lat IS NOT NULL AND `+in+`
+			UNION SELECT mark_id FROM mark_version WHERE lat IS NOT NULL AND `+in+`)
+		  AND `+curLat+` IS NOT NULL AND `+haversineSQL+` <= $3
+		ORDER BY m.id`, c.Lat, c.Lon, radiusM)
+	if err != nil {
+		return nil, translate(err)
+	}
+	return collect(rows, func(r pgx.Row) (int64, error) {
+		var id int64
+		return id, translate(r.Scan(&id))
+	})
+}
+
+// boxesSQL is the condition that point(lon, lat) lies in one of boxes.
+func boxesSQL(boxes [][4]float64) string {
+	var in []string
+	for _, b := range boxes {
+		in = append(in, fmt.Sprintf("point(lon, lat) <@ box(point(%g, %g), point(%g, %g))", b[0], b[1], b[2], b[3]))
+	}
+	return "(" + strings.Join(in, " OR ") + ")"
+}
+
+// nearestSQL reads, for centre ($1, $2) as (lon, lat), the first $3
+// positions within boxes in order of their plane distance in degrees:
+// the marks' own (GiST index mark_position) and their versions'
+// (mark_version_position), each index read nearest first.
+func nearestSQL(boxes [][4]float64) string {
+	in := boxesSQL(boxes)
+	return `SELECT id, pd FROM (
+		(SELECT id, point(lon, lat) <-> point($1, $2) AS pd FROM mark WHERE lat IS NOT NULL AND ` + in + `
+			ORDER BY point(lon, lat) <-> point($1, $2) LIMIT $3)
+		UNION ALL
+		(SELECT mark_id, point(lon, lat) <-> point($1, $2) FROM mark_version WHERE lat IS NOT NULL AND ` + in + `
+			ORDER BY point(lon, lat) <-> point($1, $2) LIMIT $3)
+	) AS c ORDER BY pd LIMIT $3`
+}
+
+// markListNearest answers a near search with a limit nearest first, by
+// the GiST indexes' ordering by distance (point <-> point), so that the
+// nearest 50 of 15,000 marks in a city are some 50 index entries rather
+// than 15,000 rows sorted. The indexes order by the plane distance in
+// degrees, δ = √(Δλ² + Δφ²), not by the great-circle distance, so it reads
+// positions (the marks' own and their versions', as markListSQL's
+// candidates) in order of δ, the first n of them, computes the exact
+// distances of their marks' current positions, and checks that no mark it
+// left out could be nearer: every point within d of the centre lies in
+// boundingBoxes(centre, d), so within δ of the farthest corner of that
+// box; if the n-th position read is further than that, for d the distance
+// of the last mark kept (or the radius, when fewer are found), nothing
+// was missed. Otherwise it reads four times as many and tries again. ok
+// is false for a circle that crosses ±180° or holds a pole, where the
+// plane distance in degrees is no guide: MarkList then sorts every mark
+// within the radius.
+func markListNearest(ctx context.Context, db DBTX, p MarkListParams) (ms []Mark, ok bool, err error) {
+	c := *p.Near
+	reach := func(d float64) (float64, bool) {
+		b := boundingBoxes(c, d)
+		if len(b) != 1 || b[0][0] <= -180 && b[0][2] >= 180 {
+			return 0, false
+		}
+		dLon := math.Max(math.Abs(b[0][0]-c.Lon), math.Abs(b[0][2]-c.Lon))
+		dLat := math.Max(math.Abs(b[0][1]-c.Lat), math.Abs(b[0][3]-c.Lat))
+		return math.Hypot(dLon, dLat), true
+	}
+	if _, ok := reach(p.RadiusM); !ok {
+		return nil, false, nil
+	}
+	q := nearestSQL(boundingBoxes(c, p.RadiusM))
+	for n := max(4*p.Limit, 64); ; n *= 4 {
+		rows, err := db.Query(ctx, q, c.Lon, c.Lat, n)
+		if err != nil {
+			return nil, true, translate(err)
+		}
+		type cand struct {
+			id int64
+			pd float64
+		}
+		cands, err := collect(rows, func(r pgx.Row) (cand, error) {
+			var x cand
+			return x, translate(r.Scan(&x.id, &x.pd))
+		})
+		if err != nil {
+			return nil, true, err
+		}
+		ids := make([]int64, 0, len(cands))
+		seen := make(map[int64]bool, len(cands))
+		for _, x := range cands {
+			if !seen[x.id] {
+				ids, seen[x.id] = append(ids, x.id), true
+			}
+		}
+		if ms, err = markList(ctx, db, p, ids); err != nil {
+			return nil, true, err
+		}
+		if len(cands) < n {
+			return ms, true, nil // every position within the radius's box was read
+		}
+		d := p.RadiusM
+		if len(ms) == p.Limit {
+			d = *ms[len(ms)-1].DistanceM
+		}
+		if r, _ := reach(d); r < cands[len(cands)-1].pd {
+			return ms, true, nil
+		}
+	}
 }
 
 // boundingBoxes returns boxes (lon1, lat1, lon2, lat2, in degrees) that
@@ -382,7 +577,8 @@ func boundingBoxes(c LatLon, r float64) [][4]float64 {
 // MarkListByDesignations returns the marks with the given designations
 // (those that exist), each with its latest condition report.
 func MarkListByDesignations(ctx context.Context, db DBTX, designations []string) ([]Mark, error) {
-	rows, err := db.Query(ctx, "SELECT "+markColumns+markFrom+" WHERE m.designation = ANY($1) ORDER BY m.designation", designations)
+	rows, err := db.Query(ctx, "SELECT "+markColumns+strings.Replace(markFrom, " FROM mark m ",
+		" FROM (SELECT DISTINCT unnest($1::text[]) AS designation) AS u JOIN mark m ON m.designation = u.designation ", 1)+" ORDER BY m.designation", designations)
 	if err != nil {
 		return nil, translate(err)
 	}
@@ -393,14 +589,16 @@ func MarkListByDesignations(ctx context.Context, db DBTX, designations []string)
 // that writers locking overlapping sets never deadlock, until the
 // transaction ends. It takes the lock HeightSet takes for one mark.
 func MarkLock(ctx context.Context, db DBTX, markIDs []int64) error {
-	_, err := db.Exec(ctx, "SELECT 1 FROM mark WHERE id = ANY($1) ORDER BY id FOR NO KEY UPDATE", markIDs)
+	_, err := db.Exec(ctx, `SELECT 1 FROM (SELECT DISTINCT unnest($1::bigint[]) AS id) AS u JOIN mark m ON m.id = u.id
+		ORDER BY m.id FOR NO KEY UPDATE OF m`, markIDs)
 	return translateAs(err, RolePublisher)
 }
 
 // MarkListByFolded returns the marks whose folded designations are among
 // folded (see MarkGetFolded), each with its latest condition report.
 func MarkListByFolded(ctx context.Context, db DBTX, folded []string) ([]Mark, error) {
-	rows, err := db.Query(ctx, "SELECT "+markColumns+markFrom+" WHERE lower(normalize(m.designation, NFKC)) = ANY($1) ORDER BY m.designation", folded)
+	rows, err := db.Query(ctx, "SELECT "+markColumns+strings.Replace(markFrom, " FROM mark m ",
+		" FROM (SELECT DISTINCT unnest($1::text[]) AS folded) AS u JOIN mark m ON lower(normalize(m.designation, NFKC)) = u.folded ", 1)+" ORDER BY m.designation", folded)
 	if err != nil {
 		return nil, translate(err)
 	}
@@ -413,10 +611,11 @@ func MarkListByFolded(ctx context.Context, db DBTX, folded []string) ([]Mark, er
 // that touched it (voided ones too: the mark was there).
 func MarkEarliestRecord(ctx context.Context, db DBTX, markIDs []int64) (map[int64]time.Time, error) {
 	rows, err := db.Query(ctx, `SELECT mark_id, min(d) FROM (
-		SELECT mark_id, observed_on AS d FROM mark_condition WHERE mark_id = ANY($1)
+		SELECT c.mark_id, c.observed_on AS d FROM unnest($1::bigint[]) AS u (mark_id) JOIN mark_condition c ON c.mark_id = u.mark_id
 		UNION ALL
-		SELECT rm.mark_id, r.observed_on FROM run_mark rm JOIN run r ON r.id = rm.run_id
-		WHERE rm.mark_id = ANY($1) AND r.observed_on IS NOT NULL
+		SELECT rm.mark_id, r.observed_on FROM unnest($1::bigint[]) AS u (mark_id) JOIN run_mark rm ON rm.mark_id = u.mark_id
+		JOIN run r ON r.id = rm.run_id
+		WHERE r.observed_on IS NOT NULL
 	) AS records GROUP BY mark_id`, markIDs)
 	if err != nil {
 		return nil, translate(err)

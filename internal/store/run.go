@@ -200,6 +200,18 @@ func RunGet(ctx context.Context, db DBTX, id int64) (Run, error) {
 	return scanRun(db.QueryRow(ctx, "SELECT "+runColumns+" FROM run r WHERE r.id = $1", id))
 }
 
+// RunListByIDs returns the runs with these identifiers (those that
+// exist), by identifier, in one statement: an adjustment of 2,947 runs
+// reads them at once rather than one statement a run.
+func RunListByIDs(ctx context.Context, db DBTX, ids []int64) ([]Run, error) {
+	rows, err := db.Query(ctx, "SELECT "+runColumns+` FROM (SELECT DISTINCT unnest($1::bigint[]) AS id) AS u
+		JOIN run r ON r.id = u.id ORDER BY r.id`, ids)
+	if err != nil {
+		return nil, translate(err)
+	}
+	return collect(rows, scanRun)
+}
+
 // RunGetBySHA256 returns the run whose book has SHA-256 sum; ErrNotFound if
 // none.
 func RunGetBySHA256(ctx context.Context, db DBTX, sum []byte) (Run, error) {
@@ -238,6 +250,51 @@ func RunListUnfingerprinted(ctx context.Context, db DBTX, p RunListUnfingerprint
 		return nil, translate(err)
 	}
 	return collect(rows, scanRun)
+}
+
+// RunBookEach calls fn with each of the runs' stored books, by run
+// identifier, in one statement, streaming the rows: one book in memory at
+// a time, however many runs. fn must not use db: its rows are still being
+// read.
+func RunBookEach(ctx context.Context, db DBTX, ids []int64, fn func(id int64, book []byte) error) error {
+	rows, err := db.Query(ctx, `SELECT r.id, r.book FROM (SELECT DISTINCT unnest($1::bigint[]) AS id) AS u
+		JOIN run r ON r.id = u.id ORDER BY r.id`, ids)
+	if err != nil {
+		return translate(err)
+	}
+	defer rows.Close()
+	for rows.Next() {
+		var id int64
+		var book []byte
+		if err := rows.Scan(&id, &book); err != nil {
+			return translate(err)
+		}
+		if err := fn(id, book); err != nil {
+			return err
+		}
+	}
+	return translate(rows.Err())
+}
+
+// RunMarkIDsByRuns returns the marks the runs touched, by designation, in
+// one statement.
+func RunMarkIDsByRuns(ctx context.Context, db DBTX, runIDs []int64) (map[string]int64, error) {
+	rows, err := db.Query(ctx, `SELECT DISTINCT rm.mark_id, `+markDesignation("rm.mark_id")+`
+		FROM (SELECT DISTINCT unnest($1::bigint[]) AS run_id) AS u JOIN run_mark rm ON rm.run_id = u.run_id`, runIDs)
+	if err != nil {
+		return nil, translate(err)
+	}
+	out := map[string]int64{}
+	defer rows.Close()
+	for rows.Next() {
+		var id int64
+		var d string
+		if err := rows.Scan(&id, &d); err != nil {
+			return nil, translate(err)
+		}
+		out[d] = id
+	}
+	return out, translate(rows.Err())
 }
 
 // RunGetBook returns the stored bytes of run id's book; ErrNotFound if

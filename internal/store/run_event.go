@@ -43,8 +43,9 @@ func RunVoidInsert(ctx context.Context, db DBTX, p RunVoidInsertParams) (RunVoid
 // run; a run that stands (or does not exist) is absent. The publish gates
 // ask it which of an adjustment's runs were voided since the draft.
 func RunVoidedList(ctx context.Context, db DBTX, runIDs []int64) (map[int64]RunVoid, error) {
-	rows, err := db.Query(ctx, `SELECT id, run_id, reason, recorded_by, recorded_at FROM run_event
-		WHERE kind = 'voided' AND run_id = ANY($1) ORDER BY run_id`, runIDs)
+	rows, err := db.Query(ctx, `SELECT e.id, e.run_id, e.reason, e.recorded_by, e.recorded_at
+		FROM (SELECT DISTINCT unnest($1::bigint[]) AS run_id) AS u JOIN run_event e ON e.run_id = u.run_id AND e.kind = 'voided'
+		ORDER BY e.run_id`, runIDs)
 	if err != nil {
 		return nil, translate(err)
 	}

@@ -55,8 +55,8 @@ type SectionListParams struct {
 func SectionList(ctx context.Context, db DBTX, p SectionListParams) ([]Section, error) {
 	rows, err := db.Query(ctx, `SELECT s.run_id, s.seq, s.from_mark_id, s.to_mark_id, `+markDesignation("s.from_mark_id")+`, `+markDesignation("s.to_mark_id")+`,
 		s.dh_m, s.length_m, s.setups, s.first_line, s.last_line
-		FROM section s
-		WHERE s.run_id = ANY($1) ORDER BY s.run_id, s.seq`, p.RunIDs)
+		FROM (SELECT DISTINCT unnest($1::bigint[]) AS run_id) AS u JOIN section s ON s.run_id = u.run_id
+		ORDER BY s.run_id, s.seq`, p.RunIDs)
 	if err != nil {
 		return nil, translate(err)
 	}
@@ -70,8 +70,12 @@ func SectionList(ctx context.Context, db DBTX, p SectionListParams) ([]Section, 
 // RunIDsTouchingMarks returns, in order, the runs with a section from or to
 // any of the marks.
 func RunIDsTouchingMarks(ctx context.Context, db DBTX, markIDs []int64) ([]int64, error) {
-	rows, err := db.Query(ctx, `SELECT DISTINCT run_id FROM section
-		WHERE from_mark_id = ANY($1) OR to_mark_id = ANY($1) ORDER BY run_id`, markIDs)
+	// Two probes a mark (section_from_mark, section_to_mark), not an OR of
+	// two "= ANY($1)" that may scan every section.
+	rows, err := db.Query(ctx, `SELECT s.run_id FROM unnest($1::bigint[]) AS u (mark_id) JOIN section s ON s.from_mark_id = u.mark_id
+		UNION
+		SELECT s.run_id FROM unnest($1::bigint[]) AS u (mark_id) JOIN section s ON s.to_mark_id = u.mark_id
+		ORDER BY 1`, markIDs)
 	if err != nil {
 		return nil, translate(err)
 	}
