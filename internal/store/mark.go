@@ -421,3 +421,55 @@ func MarkEarliestRecord(ctx context.Context, db DBTX, markIDs []int64) (map[int6
 	}
 	return out, nil
 }
+
+// BBox is a box of longitude and latitude in decimal degrees (WGS 84, as
+// OGC API – Features' bbox: west, south, east, north). West greater than
+// East is a box across the antimeridian.
+type BBox struct{ West, South, East, North float64 }
+
+// MarkPageParams ask for one page of marks in designation order.
+type MarkPageParams struct {
+	// BBox, if set, keeps the marks whose current position is in it.
+	BBox *BBox
+	// After, if set, starts the page after this designation (keyset
+	// paging: the next page of a listing is the marks after its last).
+	After string
+	// Limit is the most marks returned.
+	Limit int
+}
+
+// MarkPage returns up to p.Limit marks after p.After by designation, in
+// p.BBox when given, each with its latest condition. The unique index on
+// the designation serves the order and the start; a box is answered by
+// the GiST indexes on the positions (the mark's own and its versions'),
+// and the current position decides.
+func MarkPage(ctx context.Context, db DBTX, p MarkPageParams) ([]Mark, error) {
+	args := []any{p.After, p.Limit}
+	q := "SELECT " + markColumns + markFrom + " WHERE m.designation > $1"
+	if b := p.BBox; b != nil {
+		var boxes [][4]float64
+		if b.West <= b.East {
+			boxes = [][4]float64{{b.West, b.South, b.East, b.North}}
+		} else {
+			boxes = [][4]float64{{b.West, b.South, 180, b.North}, {-180, b.South, b.East, b.North}}
+		}
+		var in []string
+		for i, x := range boxes {
+			args = append(args, x[0], x[1], x[2], x[3])
+			n := 3 + 4*i
+			in = append(in, fmt.Sprintf("point(lon, lat) <@ box(point($%d, $%d), point($%d, $%d))", n, n+1, n+2, n+3))
+		}
+		cur := fmt.Sprintf("point(%s, %s) <@ box(point($%d, $%d), point($%d, $%d))", curLon, curLat, 3, 4, 5, 6)
+		if len(boxes) == 2 {
+			cur = "(" + cur + " OR " + fmt.Sprintf("point(%s, %s) <@ box(point($%d, $%d), point($%d, $%d))", curLon, curLat, 7, 8, 9, 10) + ")"
+		}
+		ors := "(" + strings.Join(in, " OR ") + ")"
+		q += " AND " + curLat + " IS NOT NULL AND " + cur + " AND m.id IN (SELECT id FROM mark WHERE lat IS NOT NULL AND " + ors +
+			" UNION SELECT mark_id FROM mark_version WHERE lat IS NOT NULL AND " + ors + ")"
+	}
+	rows, err := db.Query(ctx, q+" ORDER BY m.designation LIMIT $2", args...)
+	if err != nil {
+		return nil, translate(err)
+	}
+	return collect(rows, func(r pgx.Row) (Mark, error) { return scanMark(r) })
+}
