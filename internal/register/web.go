@@ -18,16 +18,19 @@ import (
 // read-only transaction over one snapshot, with the register state it
 // was read from, so that a page and its ETag describe the same state.
 
-// WritePrivileges lists the register's tables the connected role may
-// write to ("table PRIVILEGE"); none for a role that can only read.
-func (r *Register) WritePrivileges(ctx context.Context) ([]string, error) {
-	var out []string
-	err := r.withTx(ctx, readTx, func(tx pgx.Tx) error {
+// WritePrivileges returns the connected role and the register's tables
+// it may write to ("table PRIVILEGE"): none for a role that can only
+// read.
+func (r *Register) WritePrivileges(ctx context.Context) (role string, privileges []string, err error) {
+	err = r.withTx(ctx, readTx, func(tx pgx.Tx) error {
 		var err error
-		out, err = store.WritePrivileges(ctx, tx)
+		if role, _, err = store.CurrentRoles(ctx, tx); err != nil {
+			return err
+		}
+		privileges, err = store.WritePrivileges(ctx, tx)
 		return err
 	})
-	return out, err
+	return role, privileges, err
 }
 
 // registerState reads the head of the evidence chain in tx (the zero
@@ -54,6 +57,32 @@ func (r *Register) State(ctx context.Context) (RegisterState, error) {
 	return st, err
 }
 
+// MarkNotFoundError says no mark has the designation or alias asked for.
+type MarkNotFoundError struct{ Name string }
+
+func (e *MarkNotFoundError) Error() string { return fmt.Sprintf("no mark %q in the register", e.Name) }
+
+// publicMark finds a mark by designation, else by alias (FoundBy set),
+// as r.mark does but without its suggestions, whose look-up reads many
+// designations: a public site answers an unknown name cheaply.
+func publicMark(ctx context.Context, tx pgx.Tx, name string) (store.Mark, error) {
+	name = strings.TrimSpace(name)
+	if name == "" {
+		return store.Mark{}, &MarkNotFoundError{Name: name}
+	}
+	m, err := store.MarkGet(ctx, tx, store.MarkGetParams{Designation: name})
+	if errors.Is(err, store.ErrNotFound) {
+		m, err = store.MarkGetByAlias(ctx, tx, names.Fold(name), false)
+	}
+	if errors.Is(err, store.ErrNotFound) {
+		return store.Mark{}, &MarkNotFoundError{Name: name}
+	}
+	if err != nil {
+		return store.Mark{}, fmt.Errorf("look up mark %s: %w", name, err)
+	}
+	return m, nil
+}
+
 // MarkPageView is a mark's page: its datasheet at an instant and every
 // version of its heights, from one snapshot.
 type MarkPageView struct {
@@ -76,7 +105,7 @@ func (r *Register) MarkPage(ctx context.Context, name string, asOf *time.Time) (
 		if v.State, err = registerState(ctx, tx); err != nil {
 			return err
 		}
-		m, err := r.mark(ctx, tx, "designation", name, false)
+		m, err := publicMark(ctx, tx, name)
 		if err != nil {
 			return err
 		}
@@ -221,7 +250,7 @@ func (r *Register) FeatureOne(ctx context.Context, name string, asOf *time.Time)
 		if st, err = registerState(ctx, tx); err != nil {
 			return err
 		}
-		m, err := r.mark(ctx, tx, "designation", name, false)
+		m, err := publicMark(ctx, tx, name)
 		if err != nil {
 			return err
 		}
