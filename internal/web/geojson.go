@@ -29,31 +29,31 @@ type geometry struct {
 }
 
 type featureJSON struct {
-	Type       string         `json:"type"`
-	ID         string         `json:"id"`
-	Geometry   *geometry      `json:"geometry"`
-	Properties featureProps   `json:"properties"`
-	Links      []link         `json:"links,omitempty"`
+	Type       string       `json:"type"`
+	ID         string       `json:"id"`
+	Geometry   *geometry    `json:"geometry"`
+	Properties featureProps `json:"properties"`
+	Links      []link       `json:"links,omitempty"`
 }
 
 // featureProps are a mark's properties, with the keys of the command
 // line's JSON (docs/output.md: mark, snake_case, the unit last).
 type featureProps struct {
-	Mark           string         `json:"mark"`
-	Aliases        []string       `json:"aliases"`
-	Kind           string         `json:"kind"`
-	Setting        string         `json:"setting"`
-	Stamping       string         `json:"stamping"`
-	Description    string         `json:"description"`
-	Directions     string         `json:"directions"`
-	PositionSource string         `json:"position_source"`
-	Condition      string         `json:"condition"`
-	ConditionOn    *string        `json:"condition_observed_on"`
-	Retired        *string        `json:"retired_on"`
-	Heights        []heightJSON   `json:"heights"`
-	Doubts         []doubtJSON    `json:"doubts"`
-	AsOf           *string        `json:"as_of_utc"`
-	Cautions       []string       `json:"cautions"`
+	Mark           string       `json:"mark"`
+	Aliases        []string     `json:"aliases"`
+	Kind           string       `json:"kind"`
+	Setting        string       `json:"setting"`
+	Stamping       string       `json:"stamping"`
+	Description    string       `json:"description"`
+	Directions     string       `json:"directions"`
+	PositionSource string       `json:"position_source"`
+	Condition      string       `json:"condition"`
+	ConditionOn    *string      `json:"condition_observed_on"`
+	Retired        *string      `json:"retired_on"`
+	Heights        []heightJSON `json:"heights"`
+	Doubts         []doubtJSON  `json:"doubts"`
+	AsOf           *string      `json:"as_of_utc"`
+	Cautions       []string     `json:"cautions"`
 }
 
 type heightJSON struct {

@@ -98,7 +98,9 @@ func TestAPIDefinition(t *testing.T) {
 	// document's (/req/core/query-param-unknown refuses the others).
 	var items struct {
 		Get struct {
-			Parameters []struct{ Ref string `json:"$ref"` }
+			Parameters []struct {
+				Ref string `json:"$ref"`
+			}
 		}
 	}
 	raw, _ := json.Marshal(doc.Paths["/collections/{collectionId}/items"])

@@ -245,9 +245,9 @@ type banner struct{ Word, Text string }
 // historyRow is one version in the history table.
 type historyRow struct {
 	Datum, Value, Change, Class, Provenance, InForceFrom, Recorded, Reason string
-	Version                                                              int
-	InForce                                                              bool
-	Doubts                                                               []string
+	Version                                                                int
+	InForce                                                                bool
+	Doubts                                                                 []string
 }
 
 // markView is a mark's page.
