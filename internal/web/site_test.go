@@ -57,7 +57,7 @@ func newSite(t *testing.T, cfg ...web.Config) *site {
 	b.Height(t, registertest.HeightOpts{Designation: "TC-0412", Value: "101.240", InForceFrom: day("2020-06-01")})
 	b.Mark(t, registertest.MarkOpts{Designation: "TC-0413"})
 	b.Height(t, registertest.HeightOpts{Designation: "TC-0413", Value: "98.765", InForceFrom: day("2016-01-01")})
-	b.Condition(t, registertest.ConditionOpts{Designation: "TC-0413", Condition: "disturbed", Note: "post leaning after roadworks"})
+	b.Condition(t, registertest.ConditionOpts{Designation: "TC-0413", Condition: "disturbed", Note: "post leaning after roadworks; " + hostileText})
 	b.Mark(t, registertest.MarkOpts{Designation: "TC-0414", Directions: hostileText})
 	desc := hostileText
 	if _, err := b.Reg.MarkEdit(b.Ctx, register.MarkEditParams{Designation: "TC-0414", Description: &desc, Reason: "described", By: "test"}); err != nil {
@@ -125,7 +125,8 @@ func (s *site) getJSON(t *testing.T, path, mediaType string, v any) *http.Respon
 	return resp
 }
 
-// getHTML requests path as a browser would and parses the page.
+// getHTML requests path as a browser would and parses the page, which
+// must hold no script (noScript).
 func (s *site) getHTML(t *testing.T, path string) (*http.Response, *html.Node, string) {
 	t.Helper()
 	resp, b := s.get(t, path, "text/html,application/xhtml+xml,application/xml;q=0.9,*/*;q=0.8")
@@ -139,6 +140,7 @@ func (s *site) getHTML(t *testing.T, path string) (*http.Response, *html.Node, s
 	if err != nil {
 		t.Fatalf("GET %s: %v", path, err)
 	}
+	noScript(t, path, doc)
 	return resp, doc, string(b)
 }
 
