@@ -1,0 +1,121 @@
+package cli
+
+import (
+	"context"
+	"encoding/json"
+	"io"
+	"net/http"
+	"strings"
+	"testing"
+	"time"
+
+	"cairn/internal/pgtest"
+	"cairn/internal/registertest"
+)
+
+// serveUntil runs `cairn serve` over url with args in this process,
+// calls fn with the address it listens on, then stops it as SIGINT or
+// SIGTERM would (its context ends) and returns what it wrote on stderr;
+// the server must have stopped cleanly.
+func serveUntil(t *testing.T, url string, args []string, fn func(addr string)) string {
+	t.Helper()
+	ios, _, _, errOut := TestStreams(false)
+	f := NewFactory(ios, "test")
+	f.DatabaseURL = url
+	defer f.Close()
+	addr := make(chan string, 1)
+	cmd := newCmdServe(f, func(o *serveOptions) error {
+		o.ready = func(a string) { addr <- a }
+		return serveRun(o)
+	})
+	cmd.SetArgs(append([]string{"--listen", "127.0.0.1:0"}, args...))
+	cmd.SetOut(io.Discard)
+	cmd.SetErr(io.Discard)
+	ctx, cancel := context.WithCancel(context.Background())
+	defer cancel()
+	done := make(chan error, 1)
+	go func() { done <- cmd.ExecuteContext(ctx) }()
+	select {
+	case a := <-addr:
+		fn(a)
+	case err := <-done:
+		t.Fatalf("serve stopped before serving: %v\n%s", err, errOut)
+	case <-time.After(30 * time.Second):
+		t.Fatal("serve did not start in 30 s")
+	}
+	cancel()
+	select {
+	case err := <-done:
+		if err != nil {
+			t.Fatalf("serve stopped with %v", err)
+		}
+	case <-time.After(30 * time.Second):
+		t.Fatal("serve did not stop in 30 s")
+	}
+	ios.Flush()
+	return errOut.String()
+}
+
+// serve refuses to start as a role that can write to the register (the
+// test server's superuser, a recorder), naming the role and what it may write, and
+// exits 2; with --allow-writer it starts, warning loudly.
+func TestServeRefusesWriter(t *testing.T) {
+	t.Parallel()
+	db := pgtest.New(t)
+	_, errOut, status := run(t, db.URL, "serve", "--listen", "127.0.0.1:0")
+	if status != ExitBadInput || !strings.Contains(errOut, "can write to the register") || !strings.Contains(errOut, "adjustment INSERT") ||
+		!strings.Contains(errOut, "--allow-writer") {
+		t.Fatalf("serve as the owner: exit %d: %s", status, errOut)
+	}
+	// A recorder may write the runs it records: refused too.
+	_, errOut, status = run(t, loginAs(t, db, "cairn_recorder"), "serve", "--listen", "127.0.0.1:0")
+	if status != ExitBadInput || !strings.Contains(errOut, "can write to the register") {
+		t.Errorf("serve as a recorder: exit %d: %s", status, errOut)
+	}
+	logs := serveUntil(t, db.URL, []string{"--allow-writer"}, func(string) {})
+	if !strings.Contains(logs, "WARNING: serving as role") || !strings.Contains(logs, "CAN WRITE") {
+		t.Errorf("--allow-writer gave no loud warning: %s", logs)
+	}
+}
+
+// As a login member of cairn_reader, serve starts, answers, writes one
+// JSON line per request to stderr (the access log), and stops cleanly
+// when told to, finishing what it was doing.
+func TestServeAsReader(t *testing.T) {
+	t.Parallel()
+	db := pgtest.New(t)
+	b := registertest.On(t, db)
+	b.Mark(t, registertest.MarkOpts{Designation: "TC-0412"})
+	reader := loginAs(t, db, "cairn_reader")
+	logs := serveUntil(t, reader, nil, func(addr string) {
+		resp, err := http.Get("http://" + addr + "/marks/TC-0412")
+		if err != nil {
+			t.Fatal(err)
+		}
+		body, _ := io.ReadAll(resp.Body)
+		resp.Body.Close()
+		if resp.StatusCode != http.StatusOK || !strings.Contains(string(body), "TC-0412") || !strings.Contains(string(body), "licensed surveyor") {
+			t.Errorf("GET /marks/TC-0412: %s %.300s", resp.Status, body)
+		}
+	})
+	if !strings.Contains(logs, "serving the register read-only on http://127.0.0.1:") {
+		t.Errorf("no line saying where it serves: %s", logs)
+	}
+	var found bool
+	for _, line := range strings.Split(logs, "\n") {
+		var l struct {
+			Msg, Method, Path string
+			Status            int
+			DurationMS        *float64 `json:"duration_ms"`
+		}
+		if json.Unmarshal([]byte(line), &l) == nil && l.Msg == "request" {
+			found = l.Method == "GET" && l.Path == "/marks/TC-0412" && l.Status == 200 && l.DurationMS != nil
+		}
+	}
+	if !found {
+		t.Errorf("no access log line for the request: %s", logs)
+	}
+	if strings.Contains(logs, "CAN WRITE") {
+		t.Errorf("a reader was warned of writing: %s", logs)
+	}
+}
