@@ -32,7 +32,8 @@ var pages = func() map[string]*template.Template {
 	funcs := template.FuncMap{
 		"date": func(t *time.Time) string { return t.UTC().Format("2006-01-02") },
 		"time": func(t time.Time) string { return t.UTC().Format(time.RFC3339) },
-		"join": func(s []string) string { return strings.Join(s, ", ") },
+		"join": func(s []string) string { return visible(strings.Join(s, ", ")) },
+		"vis":  visible,
 		// markURL is set per request (it keeps as_of); this one is for
 		// parsing.
 		"markURL":       func(string) string { return "" },
@@ -209,7 +210,7 @@ func (s *Server) search(w http.ResponseWriter, r *http.Request) {
 			s.error(w, r, badParam("q", "%d characters: a name is at most 200", len(p.Name)))
 			return
 		}
-		asked = append(asked, "named "+strconv.Quote(p.Name))
+		asked = append(asked, "named “"+visible(p.Name)+"”")
 	}
 	if q.Has("lat") || q.Has("lon") || q.Has("radius_m") {
 		var ll store.LatLon
@@ -277,13 +278,13 @@ func (s *Server) markPage(w http.ResponseWriter, r *http.Request) {
 		http.Redirect(w, r, withQuery("/marks/"+url.PathEscape(m.Designation), r.URL.Query()), http.StatusFound)
 		return
 	}
-	d := sheetdata.From(v.State, v.Sheet, asOf, units.Metre)
+	d := visibleSheet(sheetdata.From(v.State, v.Sheet, asOf, units.Metre))
 	var body bytes.Buffer
 	if err := sheet.Body(&body, d); err != nil {
 		s.serverError(w, r, err)
 		return
 	}
-	mv := markView{FoundBy: m.FoundBy, Sheet: template.HTML(body.String()), // html/template escaped it (sheet.Body)
+	mv := markView{FoundBy: visible(m.FoundBy), Sheet: template.HTML(body.String()), // html/template escaped it (sheet.Body)
 		JSONURL: withQuery("/collections/"+collectionID+"/items/"+url.PathEscape(m.Designation), func() url.Values {
 			q := asOfQuery(r)
 			q.Set("f", "json")
@@ -296,10 +297,10 @@ func (s *Server) markPage(w http.ResponseWriter, r *http.Request) {
 			continue
 		}
 		seen[txt] = true
-		mv.Banners = append(mv.Banners, banner{Word: strings.ToUpper(strings.ReplaceAll(dt.Word, "-", " ")), Text: txt})
+		mv.Banners = append(mv.Banners, banner{Word: strings.ToUpper(strings.ReplaceAll(dt.Word, "-", " ")), Text: visible(txt)})
 	}
 	if m.Retired != nil {
-		mv.Banners = append(mv.Banners, banner{Word: "RETIRED", Text: "since " + m.Retired.On.Format("2006-01-02") + ": " + m.Retired.Reason})
+		mv.Banners = append(mv.Banners, banner{Word: "RETIRED", Text: "since " + m.Retired.On.Format("2006-01-02") + ": " + visible(m.Retired.Reason)})
 	}
 	inForce := map[int64]bool{}
 	for _, h := range v.Sheet.Heights {
@@ -307,7 +308,7 @@ func (s *Server) markPage(w http.ResponseWriter, r *http.Request) {
 	}
 	for _, e := range v.History {
 		row := historyRow{Datum: e.DatumCode, Version: e.Version, Value: "withdrawn", Change: "—", Class: e.Class, Provenance: e.SourceKind,
-			InForceFrom: e.InForceFrom.UTC().Format(time.RFC3339), Recorded: e.CommittedAt.UTC().Format(time.RFC3339), Reason: e.Reason,
+			InForceFrom: e.InForceFrom.UTC().Format(time.RFC3339), Recorded: e.CommittedAt.UTC().Format(time.RFC3339), Reason: visible(e.Reason),
 			InForce: inForce[e.ID]}
 		if e.Value != nil {
 			row.Value = *e.Value + " " + *e.Unit
@@ -333,7 +334,7 @@ func conditionText(f register.Feature) string {
 	if f.Latest == nil {
 		return "no report yet"
 	}
-	return f.Latest.Condition + " (" + f.Latest.ObservedOn.Format("2006-01-02") + ")"
+	return visible(f.Latest.Condition) + " (" + f.Latest.ObservedOn.Format("2006-01-02") + ")"
 }
 
 // heightText is a version in force in words.

@@ -38,6 +38,12 @@ type site struct {
 const hostileText = "<script>document.title='owned'</script> \"quoted\" 'single' & <b>bold</b> " +
 	"tab\there \x1b[31mred\x1b[0m bell\x07 \u202eevil\u202c \u200fRLM Orrin Bay"
 
+// hostileShown is hostileText as a page shows it: markup and quotes as
+// text, the characters that hide or reorder text written \uXXXX (as on
+// the terminal, internal/cli/visible.go), tab kept.
+const hostileShown = "<script>document.title='owned'</script> \"quoted\" 'single' & <b>bold</b> " +
+	`tab	here \u001b[31mred\u001b[0m bell\u0007 \u202eevil\u202c \u200fRLM Orrin Bay`
+
 func day(s string) *time.Time {
 	t, err := time.Parse("2006-01-02", s)
 	if err != nil {
