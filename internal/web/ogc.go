@@ -122,23 +122,41 @@ func (s *Server) landing(w http.ResponseWriter, r *http.Request) {
 		s.serverError(w, r, err)
 		return
 	}
-	if f == formatHTML {
-		s.page(w, r, st, asOf, "home", "cairn · benchmark register", nil)
-		return
-	}
 	aq := asOfQuery(r)
 	links := selfAndAlternate("/", aq, f, mediaJSON, "This document")
 	links = append(links,
 		link{Href: "/api?f=json", Rel: "service-desc", Type: mediaOpenAPI, Title: "The API definition (OpenAPI 3.0)"},
 		link{Href: "/api?f=html", Rel: "service-doc", Type: "text/html", Title: "The API documentation"},
-		link{Href: "/conformance?f=json", Rel: "conformance", Type: mediaJSON, Title: "The conformance classes implemented"},
-		link{Href: "/collections?f=json", Rel: "data", Type: mediaJSON, Title: "The collections: the marks"},
+		link{Href: withQuery("/conformance", withF(aq, f)), Rel: "conformance", Type: mediaOf(f, mediaJSON), Title: "The conformance classes implemented"},
+		link{Href: withQuery("/collections", withF(aq, f)), Rel: "data", Type: mediaOf(f, mediaJSON), Title: "The collections: the marks"},
 	)
+	if f == formatHTML {
+		s.page(w, r, st, asOf, "home", "cairn · benchmark register", nil, links...)
+		return
+	}
 	s.json(w, r, st, mediaJSON, map[string]any{
 		"title":       "cairn benchmark register",
 		"description": "The benchmarks of a survey office's register and their heights in force, read-only. " + sheetdata.Cautions,
 		"links":       links,
 	})
+}
+
+// withF is q with f set.
+func withF(q url.Values, f format) url.Values {
+	out := url.Values{}
+	for k, v := range q {
+		out[k] = v
+	}
+	out.Set("f", string(f))
+	return out
+}
+
+// mediaOf is the media type of encoding f: jsonType for JSON.
+func mediaOf(f format, jsonType string) string {
+	if f == formatHTML {
+		return "text/html"
+	}
+	return jsonType
 }
 
 // conformance lists the conformance classes (/req/core/conformance-op,
@@ -153,12 +171,12 @@ func (s *Server) conformance(w http.ResponseWriter, r *http.Request) {
 		s.serverError(w, r, err)
 		return
 	}
+	links := selfAndAlternate("/conformance", asOfQuery(r), f, mediaJSON, "This document")
 	if f == formatHTML {
-		s.page(w, r, st, asOf, "conformance", "Conformance · cairn", conformsTo)
+		s.page(w, r, st, asOf, "conformance", "Conformance · cairn", conformsTo, links...)
 		return
 	}
-	s.json(w, r, st, mediaJSON, map[string]any{"conformsTo": conformsTo,
-		"links": selfAndAlternate("/conformance", asOfQuery(r), f, mediaJSON, "This document")})
+	s.json(w, r, st, mediaJSON, map[string]any{"conformsTo": conformsTo, "links": links})
 }
 
 // collectionJSON is the description of the one collection
@@ -205,15 +223,14 @@ func (s *Server) collections(w http.ResponseWriter, r *http.Request) {
 		s.serverError(w, r, err)
 		return
 	}
+	aq := asOfQuery(r)
+	links := selfAndAlternate("/collections", aq, f, mediaJSON, "This document")
+	c := collectionJSON(aq, formatJSON)
 	if f == formatHTML {
-		s.page(w, r, st, asOf, "collections", "Collections · cairn", nil)
+		s.page(w, r, st, asOf, "collections", "Collections · cairn", c, links...)
 		return
 	}
-	aq := asOfQuery(r)
-	s.json(w, r, st, mediaJSON, map[string]any{
-		"links":       selfAndAlternate("/collections", aq, f, mediaJSON, "This document"),
-		"collections": []any{collectionJSON(aq, formatJSON)},
-	})
+	s.json(w, r, st, mediaJSON, map[string]any{"links": links, "collections": []any{c}})
 }
 
 // collection describes the one collection (/req/core/sfc-md-op,
@@ -232,11 +249,12 @@ func (s *Server) collection(w http.ResponseWriter, r *http.Request) {
 		s.serverError(w, r, err)
 		return
 	}
+	c := collectionJSON(asOfQuery(r), f)
 	if f == formatHTML {
-		s.page(w, r, st, asOf, "collection", "Benchmarks · cairn", nil)
+		s.page(w, r, st, asOf, "collection", "Benchmarks · cairn", c, c["links"].([]link)...)
 		return
 	}
-	s.json(w, r, st, mediaJSON, collectionJSON(asOfQuery(r), f))
+	s.json(w, r, st, mediaJSON, c)
 }
 
 // items is one page of marks (/req/core/fc-op, /req/core/fc-response,
@@ -285,7 +303,7 @@ func (s *Server) items(w http.ResponseWriter, r *http.Request) {
 	}
 	links = append(links, link{Href: "/collections/" + collectionID + "?f=json", Rel: "collection", Type: mediaJSON, Title: "The collection"})
 	if f == formatHTML {
-		s.page(w, r, pg.State, asOf, "items", "Marks · cairn", itemsView{Features: pg.Features, Links: links, Limit: limit, BBox: q.Get("bbox")})
+		s.page(w, r, pg.State, asOf, "items", "Marks · cairn", itemsView{Features: pg.Features, Links: links, Limit: limit, BBox: q.Get("bbox")}, links...)
 		return
 	}
 	cautions := sheetdata.CautionSentences()

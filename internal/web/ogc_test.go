@@ -480,6 +480,36 @@ func TestHTMLEncoding(t *testing.T) {
 			t.Errorf("%s?f=json asked by a browser: %s", p, resp.Header.Get("Content-Type"))
 		}
 	}
+	// /req/html/content: every link of the JSON is an a element of the
+	// page, with its relation; /req/core/fc-md-links B, /req/core/f-links B,
+	// /req/core/fc-md-items-links: every link has rel and type.
+	for _, p := range []string{"/", "/conformance", "/collections", "/collections/marks", "/collections/marks/items?limit=2"} {
+		var doc struct {
+			Links       []linkJSON
+			Collections []struct{ Links []linkJSON }
+		}
+		_, b := s.get(t, p, "application/json")
+		if err := json.Unmarshal(b, &doc); err != nil {
+			t.Fatal(err)
+		}
+		all := doc.Links
+		for _, c := range doc.Collections {
+			all = append(all, c.Links...)
+		}
+		_, page, _ := s.getHTML(t, p)
+		rels := map[string]bool{}
+		for _, a := range elements(page, "a") {
+			rels[attr(a, "rel")] = true
+		}
+		for _, l := range all {
+			if l.Rel == "" || l.Type == "" || l.Href == "" {
+				t.Errorf("%s: link %+v lacks rel, type or href", p, l)
+			}
+			if !rels[l.Rel] {
+				t.Errorf("/req/html/content: %s in HTML has no link rel %q", p, l.Rel)
+			}
+		}
+	}
 	// An item asked for in HTML is the mark's page.
 	resp, _ := s.get(t, "/collections/marks/items/TC-0412?f=html", "")
 	if resp.StatusCode != http.StatusSeeOther || resp.Header.Get("Location") != "/marks/TC-0412" {

@@ -113,7 +113,9 @@ func (s *Server) api(w http.ResponseWriter, r *http.Request) {
 		return
 	}
 	if f == formatHTML {
-		s.page(w, r, st, asOf, "api", "API · cairn", nil)
+		s.page(w, r, st, asOf, "api", "API · cairn", nil,
+			link{Href: "/api?f=html", Rel: "self", Type: "text/html", Title: "This page"},
+			link{Href: "/api?f=json", Rel: "service-desc", Type: mediaOpenAPI, Title: "The API definition (OpenAPI 3.0)"})
 		return
 	}
 	s.json(w, r, st, mediaOpenAPI, s.openAPI())

@@ -65,6 +65,7 @@ type pageData struct {
 	AsOfAmp    string // "&as_of=…" or ""
 	NowQuery   string // the request's query without as_of
 	Alternates []link
+	Links      []link
 	State      register.RegisterState
 	Statement  *Statement
 	Cautions   []string
@@ -73,8 +74,11 @@ type pageData struct {
 
 // page writes the page name with data around it, with the ETag of state
 // st.
-func (s *Server) page(w http.ResponseWriter, r *http.Request, st register.RegisterState, asOf *time.Time, name, title string, data any) {
-	b, err := s.render(r, st, asOf, name, title, data)
+//
+// links are the resource's links (OGC API – Features /req/html/content:
+// every link of the JSON in an a element of the body).
+func (s *Server) page(w http.ResponseWriter, r *http.Request, st register.RegisterState, asOf *time.Time, name, title string, data any, links ...link) {
+	b, err := s.render(r, st, asOf, name, title, data, links...)
 	if err != nil {
 		s.serverError(w, r, err)
 		return
@@ -93,10 +97,10 @@ func (s *Server) writeHTML(w http.ResponseWriter, r *http.Request, status int, b
 }
 
 // render executes a page.
-func (s *Server) render(r *http.Request, st register.RegisterState, asOf *time.Time, name, title string, data any) ([]byte, error) {
+func (s *Server) render(r *http.Request, st register.RegisterState, asOf *time.Time, name, title string, data any, links ...link) ([]byte, error) {
 	q := r.URL.Query()
 	d := pageData{Title: title, Path: r.URL.Path, AsOf: asOf, State: st, Statement: s.cfg.Statement,
-		Cautions: sheetdata.CautionSentences(), Data: data}
+		Cautions: sheetdata.CautionSentences(), Data: data, Links: links}
 	rest := url.Values{}
 	keys := make([]string, 0, len(q))
 	for k := range q {
