@@ -311,7 +311,7 @@ func (r *Register) Search(ctx context.Context, p SearchParams) (SearchResult, er
 		if out.State, err = registerState(ctx, tx); err != nil {
 			return err
 		}
-		ms, err := store.MarkList(ctx, tx, store.MarkListParams{Near: p.Near, RadiusM: p.RadiusM, Name: name})
+		ms, err := store.MarkList(ctx, tx, store.MarkListParams{Near: p.Near, RadiusM: p.RadiusM, Name: name, Limit: p.Limit + 1})
 		if err != nil {
 			return err
 		}

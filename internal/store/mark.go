@@ -256,6 +256,9 @@ type MarkListParams struct {
 	// Name, if set (a folded name, see MarkGetFolded), keeps the mark whose
 	// designation or one of whose aliases has that folded form.
 	Name string
+	// Limit, if more than zero, is the most marks listed (the first in
+	// the listing's order).
+	Limit int
 }
 
 // LatLon is a position in decimal degrees.
@@ -331,10 +334,14 @@ func markListSQL(p MarkListParams) (string, []any) {
 	if len(where) > 0 {
 		q += " WHERE " + strings.Join(where, " AND ")
 	}
-	if p.Near != nil {
-		return q + ") near WHERE distance_m <= $3 ORDER BY distance_m, designation", args
+	limit := ""
+	if p.Limit > 0 {
+		limit = " LIMIT " + strconv.Itoa(p.Limit)
 	}
-	return q + " ORDER BY m.designation", args
+	if p.Near != nil {
+		return q + ") near WHERE distance_m <= $3 ORDER BY distance_m, designation" + limit, args
+	}
+	return q + " ORDER BY m.designation" + limit, args
 }
 
 // boundingBoxes returns boxes (lon1, lat1, lon2, lat2, in degrees) that
