@@ -52,9 +52,11 @@ of the register's tables the role may write to and refuses to start if
 any, unless --allow-writer is given on purpose. Its sessions are read-only
 too, and every statement is bounded by --statement-timeout.
 
---statement FILE shows an audit statement (cairn audit verify
---statement) in the footer: its head and time and its file's SHA-256;
-without it the footer says there is no signed statement.
+--statement FILE shows an audit statement (made by cairn audit head) in
+the footer: signed or not, its commit, head and time and its file's
+SHA-256; without it the footer says there is no signed statement. A
+statement whose commit this register's chain does not have with the same
+head is refused (the whole proof is cairn audit verify --against FILE).
 
 The server stops gracefully on SIGINT or SIGTERM. One line of JSON per
 request goes to stderr (the access log).
@@ -77,7 +79,7 @@ request goes to stderr (the access log).
 	fl := cmd.Flags()
 	fl.StringVar(&opts.listen, "listen", "127.0.0.1:8080", "address and port to listen on")
 	fl.StringVar(&opts.tiles, "tiles", "", "URL of a map tile layer (none by default; for the map to come)")
-	fl.StringVar(&opts.statement, "statement", "", "an audit statement file to show in the footer")
+	fl.StringVar(&opts.statement, "statement", "", "an audit statement FILE (cairn audit head) to show in the footer")
 	fl.BoolVar(&opts.allowWriter, "allow-writer", false, "serve even though the role connected can write to the register (not for a public site)")
 	fl.DurationVar(&opts.statementTimeout, "statement-timeout", 5*time.Second, "longest a database statement of a request may run")
 	fl.Int32Var(&opts.maxConns, "max-conns", 0, "most database connections (0: the driver's default, the larger of 4 and the number of CPUs)")
@@ -88,17 +90,18 @@ request goes to stderr (the access log).
 func serveRun(opts *serveOptions) error {
 	ctx, ios := opts.ctx, opts.f.IO
 	var st *web.Statement
+	var stmt register.Statement
 	if opts.statement != "" {
 		data, err := os.ReadFile(opts.statement)
 		if err != nil {
 			return badInput("statement: %v", err)
 		}
-		s, signed, err := register.ParseStatement(data, "")
-		if err != nil {
+		var signed bool
+		if stmt, signed, err = register.ParseStatement(data, ""); err != nil {
 			return badInput("statement %s: %v", opts.statement, err)
 		}
 		sum := sha256.Sum256(data)
-		st = &web.Statement{Seq: s.Seq, Head: s.Head, LatestCommit: s.LatestCommit, MadeAt: s.MadeAt, SHA256: hex.EncodeToString(sum[:]), Signed: signed}
+		st = &web.Statement{Seq: stmt.Seq, Head: stmt.Head, LatestCommit: stmt.LatestCommit, MadeAt: stmt.MadeAt, SHA256: hex.EncodeToString(sum[:]), Signed: signed}
 	}
 	url, _, err := opts.f.urls(ctx)
 	if err != nil {
@@ -118,6 +121,11 @@ func serveRun(opts *serveOptions) error {
 		return badInput("the register's schema is at version %d and this cairn's at %d: bring it up to date first (cairn db migrate, as its owner)", cur, latest)
 	}
 	reg := register.New(pool)
+	if opts.statement != "" {
+		if err := reg.StatementOfThisRegister(ctx, stmt); err != nil {
+			return badInput("statement %s: %v", opts.statement, err)
+		}
+	}
 	log := slog.New(slog.NewJSONHandler(ios.ErrOut, nil))
 	role, privs, err := reg.WritePrivileges(ctx)
 	if err != nil {

@@ -5,6 +5,8 @@ import (
 	"encoding/json"
 	"io"
 	"net/http"
+	"os"
+	"path/filepath"
 	"strings"
 	"testing"
 	"time"
@@ -117,5 +119,39 @@ func TestServeAsReader(t *testing.T) {
 	}
 	if strings.Contains(logs, "CAN WRITE") {
 		t.Errorf("a reader was warned of writing: %s", logs)
+	}
+}
+
+// --statement shows a statement of cairn audit head in the footer, and
+// refuses one of another register, naming the file.
+func TestServeStatement(t *testing.T) {
+	t.Parallel()
+	db, other := pgtest.New(t), pgtest.New(t)
+	for _, d := range []*pgtest.DB{db, other} {
+		registertest.On(t, d).Mark(t, registertest.MarkOpts{Designation: "TC-0412"})
+	}
+	registertest.On(t, other).Mark(t, registertest.MarkOpts{Designation: "TC-0413"})
+	dir := t.TempDir()
+	mine, theirs := filepath.Join(dir, "mine.json"), filepath.Join(dir, "theirs.json")
+	for file, d := range map[string]*pgtest.DB{mine: db, theirs: other} {
+		if err := os.WriteFile(file, []byte(mustRun(t, d.URL, "audit", "head")), 0o644); err != nil {
+			t.Fatal(err)
+		}
+	}
+	reader := loginAs(t, db, "cairn_reader")
+	serveUntil(t, reader, []string{"--statement", mine}, func(addr string) {
+		resp, err := http.Get("http://" + addr + "/?f=html")
+		if err != nil {
+			t.Fatal(err)
+		}
+		body, _ := io.ReadAll(resp.Body)
+		resp.Body.Close()
+		if !strings.Contains(string(body), "unsigned statement of commit") || strings.Contains(string(body), "no signed statement") {
+			t.Errorf("the footer does not show the statement: %s", body)
+		}
+	})
+	_, errOut, status := run(t, reader, "serve", "--listen", "127.0.0.1:0", "--statement", theirs)
+	if status != ExitBadInput || !strings.Contains(errOut, "theirs.json") {
+		t.Errorf("another register's statement: exit %d: %s", status, errOut)
 	}
 }

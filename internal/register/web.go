@@ -323,3 +323,24 @@ func (r *Register) Search(ctx context.Context, p SearchParams) (SearchResult, er
 	})
 	return out, err
 }
+
+// StatementOfThisRegister checks that the commit a statement names is in
+// this register's evidence chain with the statement's head: one look-up,
+// so that a site never shows another register's statement as its own.
+// (The whole proof, the chain recomputed up to it, is cairn audit verify
+// --against.)
+func (r *Register) StatementOfThisRegister(ctx context.Context, s Statement) error {
+	return r.withTx(ctx, readTx, func(tx pgx.Tx) error {
+		cs, err := store.EvidenceCommitPage(ctx, tx, s.Seq-1, 1)
+		if err != nil {
+			return err
+		}
+		if len(cs) == 0 || cs[0].Seq != s.Seq {
+			return inputErr("statement", "the statement is of commit %d, which this register's chain does not have", s.Seq)
+		}
+		if got := hex.EncodeToString(cs[0].Hash); !strings.EqualFold(got, s.Head) {
+			return inputErr("statement", "the statement says commit %d has head %s; this register's has %s: it is another register's, or the chain was changed (cairn audit verify --against)", s.Seq, s.Head, got)
+		}
+		return nil
+	})
+}

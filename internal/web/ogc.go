@@ -5,6 +5,7 @@ import (
 	"net/http"
 	"net/url"
 	"strconv"
+	"strings"
 	"time"
 
 	"cairn/internal/register"
@@ -136,7 +137,7 @@ func (s *Server) landing(w http.ResponseWriter, r *http.Request) {
 	}
 	s.json(w, r, st, mediaJSON, map[string]any{
 		"title":       "cairn benchmark register",
-		"description": "The benchmarks of a survey office's register and their heights in force, read-only. " + sheetdata.Cautions,
+		"description": "The benchmarks of a survey office's register and their heights in force, read-only. " + cautionsLine(),
 		"links":       links,
 	})
 }
@@ -201,7 +202,7 @@ func collectionJSON(q url.Values, f format) map[string]any {
 	return map[string]any{
 		"id":          collectionID,
 		"title":       "Benchmarks",
-		"description": "Every mark of the register with its approximate position (WGS 84), its latest condition, its heights in force and every doubt about them. " + sheetdata.Cautions,
+		"description": "Every mark of the register with its approximate position (WGS 84), its latest condition, its heights in force and every doubt about them. " + cautionsLine(),
 		"itemType":    "feature",
 		"crs":         []string{"http://www.opengis.net/def/crs/OGC/1.3/CRS84"},
 		"extent": map[string]any{
@@ -414,3 +415,6 @@ func (s *Server) fail(w http.ResponseWriter, r *http.Request, status int, msg st
 		_, _ = w.Write(b)
 	}
 }
+
+// cautionsLine is the cautions in one line, for a description.
+func cautionsLine() string { return strings.Join(sheetdata.CautionSentences(), " ") }

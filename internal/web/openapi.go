@@ -2,8 +2,6 @@ package web
 
 import (
 	"net/http"
-
-	"cairn/internal/sheetdata"
 )
 
 // openAPI is the API definition, an OpenAPI 3.0 document
@@ -41,7 +39,7 @@ func (s *Server) openAPI() map[string]any {
 		"info": map[string]any{
 			"title":       "cairn benchmark register",
 			"version":     s.cfg.Version,
-			"description": "A survey office's register of benchmarks, read-only: OGC API – Features – Part 1: Core (classes Core, GeoJSON, HTML, OpenAPI 3.0). " + sheetdata.Cautions,
+			"description": "A survey office's register of benchmarks, read-only: OGC API – Features – Part 1: Core (classes Core, GeoJSON, HTML, OpenAPI 3.0). " + cautionsLine(),
 		},
 		"servers": []any{map[string]any{"url": "/"}},
 		"paths": map[string]any{
