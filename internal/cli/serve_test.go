@@ -155,3 +155,36 @@ func TestServeStatement(t *testing.T) {
 		t.Errorf("another register's statement: exit %d: %s", status, errOut)
 	}
 }
+
+// serve's flags reach its run function as typed, bad ones are refused
+// before any database is opened, and its help carries the cautions (it
+// publishes heights).
+func TestServeFlags(t *testing.T) {
+	t.Parallel()
+	f := noDBFactory(t)
+	var got *serveOptions
+	if err := execCmd(newCmdServe(f, func(o *serveOptions) error { got = o; return nil }), "--listen", "0.0.0.0:9000", "--tiles", "https://tiles.example/{z}/{x}/{y}.png",
+		"--allow-writer", "--statement-timeout", "2s", "--max-conns", "8", "--grace", "3s"); err != nil {
+		t.Fatal(err)
+	}
+	if got.listen != "0.0.0.0:9000" || got.tiles != "https://tiles.example/{z}/{x}/{y}.png" || !got.allowWriter || got.statementTimeout != 2*time.Second ||
+		got.maxConns != 8 || got.grace != 3*time.Second || got.ctx == nil {
+		t.Errorf("serve options %+v", got)
+	}
+	if err := execCmd(newCmdServe(f, func(o *serveOptions) error { got = o; return nil })); err != nil || got.listen != "127.0.0.1:8080" || got.allowWriter {
+		t.Errorf("defaults: %v %+v", err, got)
+	}
+	for _, args := range [][]string{{"--statement-timeout", "0s"}, {"--max-conns", "-1"}, {"extra"}} {
+		called := false
+		err := execCmd(newCmdServe(f, func(*serveOptions) error { called = true; return nil }), args...)
+		if err == nil || called || exitCode(err) != ExitBadInput {
+			t.Errorf("serve %v: %v (run called %v)", args, err, called)
+		}
+	}
+	help := newCmdServe(f, nil).Long
+	for _, w := range []string{"licensed surveyor", "two marks", "condition", "Local codes"} {
+		if !strings.Contains(help, w) {
+			t.Errorf("serve --help lacks %q", w)
+		}
+	}
+}
