@@ -451,6 +451,16 @@ type MarkPageParams struct {
 // the GiST indexes on the positions (the mark's own and its versions'),
 // and the current position decides.
 func MarkPage(ctx context.Context, db DBTX, p MarkPageParams) ([]Mark, error) {
+	q, args := markPageSQL(p)
+	rows, err := db.Query(ctx, q, args...)
+	if err != nil {
+		return nil, translate(err)
+	}
+	return collect(rows, func(r pgx.Row) (Mark, error) { return scanMark(r) })
+}
+
+// markPageSQL builds MarkPage's query.
+func markPageSQL(p MarkPageParams) (string, []any) {
 	args := []any{p.After, p.Limit}
 	q := "SELECT " + markColumns + markFrom + " WHERE m.designation > $1"
 	if b := p.BBox; b != nil {
@@ -474,9 +484,5 @@ func MarkPage(ctx context.Context, db DBTX, p MarkPageParams) ([]Mark, error) {
 		q += " AND " + curLat + " IS NOT NULL AND " + cur + " AND m.id IN (SELECT id FROM mark WHERE lat IS NOT NULL AND " + ors +
 			" UNION SELECT mark_id FROM mark_version WHERE lat IS NOT NULL AND " + ors + ")"
 	}
-	rows, err := db.Query(ctx, q+" ORDER BY m.designation LIMIT $2", args...)
-	if err != nil {
-		return nil, translate(err)
-	}
-	return collect(rows, func(r pgx.Row) (Mark, error) { return scanMark(r) })
+	return q + " ORDER BY m.designation LIMIT $2", args
 }
