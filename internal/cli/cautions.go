@@ -1,12 +1,14 @@
 package cli
 
-import "fmt"
+import (
+	"fmt"
+
+	"cairn/internal/sheetdata"
+)
 
 // cautions go with every height cairn gives out: in `height set --help`,
 // the demo's output and reports.
-const cautions = `Cautions: heights from this register need review by a licensed surveyor
-before use. Check into two marks. Verify a mark's condition in the field
-before relying on it. Local codes and regulations govern.`
+const cautions = sheetdata.Cautions
 
 // reportCautions ends a report read at a terminal with the cautions.
 func reportCautions(ios *IOStreams, format Format) {

@@ -3,10 +3,8 @@ package cli
 import (
 	"bytes"
 	"context"
-	"encoding/hex"
 	"os"
 	"path/filepath"
-	"strconv"
 	"strings"
 	"time"
 
@@ -14,6 +12,7 @@ import (
 
 	"cairn/internal/register"
 	"cairn/internal/sheet"
+	"cairn/internal/sheetdata"
 	"cairn/internal/units"
 )
 
@@ -161,83 +160,8 @@ func sheetFileName(designation string) string {
 	return s
 }
 
-// sheetCautions are the cautions, one a sentence.
-func sheetCautions() []string {
-	c := strings.TrimPrefix(strings.Join(strings.Fields(cautions), " "), "Cautions: ")
-	var out []string
-	for _, s := range strings.SplitAfter(c, ". ") {
-		if s = strings.TrimSpace(s); s != "" {
-			out = append(out, strings.ToUpper(s[:1])+s[1:])
-		}
-	}
-	return out
-}
-
 // sheetData is a mark's sheet: the register's view formatted, each height
-// converted exactly to u.
+// converted exactly to u (sheetdata.From).
 func sheetData(st register.RegisterState, s register.Datasheet, asOf, knownAt *time.Time, u units.Unit) sheet.Data {
-	m := s.Mark
-	d := sheet.Data{Designation: m.Designation, Aliases: m.Aliases, Kind: m.Type, Setting: m.Setting, Stamping: m.Stamping,
-		Description: m.Description, Directions: m.Directions, Lat: m.Lat, Lon: m.Lon, PositionSource: m.PositionSource,
-		Replaces: m.Replaces, Unit: string(u), LastRecovered: s.LastRecovered(), Cautions: sheetCautions(),
-		State: sheet.State{Seq: st.Seq, Head: st.Head, CommittedAt: st.CommittedAt, AsOf: asOf, KnownAt: knownAt}}
-	if d.Aliases == nil {
-		for _, a := range s.Aliases {
-			d.Aliases = append(d.Aliases, a.Alias)
-		}
-	}
-	if m.Retired != nil {
-		d.Retired = "since " + m.Retired.On.Format("2006-01-02") + ": " + m.Retired.Reason
-		if m.Retired.ReplacedBy != "" {
-			d.Retired += "; replaced by " + m.Retired.ReplacedBy
-		}
-	}
-	for _, n := range s.Neighbours {
-		nb := sheet.Neighbour{Designation: n.Designation, Lat: *n.Lat, Lon: *n.Lon}
-		if n.DistanceM != nil {
-			nb.DistanceM = *n.DistanceM
-		}
-		d.Neighbours = append(d.Neighbours, nb)
-	}
-	for _, h := range s.Heights {
-		sh := sheet.Height{Datum: h.DatumCode, Version: h.Version, Class: h.Class, Provenance: h.SourceKind,
-			InForceFrom: h.InForceFrom, Source: sourceShown(h.SourceKind, h.Source)}
-		if h.AdjustmentID != nil {
-			// The source of a published version names its adjustment
-			// already (register.AdjustmentSource); another is prefixed.
-			if a := "adjustment " + strconv.FormatInt(*h.AdjustmentID, 10); !strings.HasPrefix(sh.Source, a+" ") && sh.Source != a {
-				sh.Source = strings.TrimSpace(a + " " + sh.Source)
-			}
-		}
-		if h.Value == nil {
-			sh.Withdrawn = true
-		} else {
-			from := units.Unit(*h.Unit)
-			dec := units.ConvertedDecimals(from, u, *h.Decimals)
-			v, err := units.ConvertExact(*h.Value, from, u, dec)
-			if err != nil {
-				v = "unreadable value " + *h.Value + " " + *h.Unit
-			}
-			sh.Value = v
-			if from != u {
-				sh.Published = *h.Value + " " + *h.Unit
-			}
-		}
-		d.Heights = append(d.Heights, sh)
-	}
-	seenDoubt := map[string]bool{}
-	for _, dt := range s.Doubts {
-		if w := dt.Warning(); !seenDoubt[w] {
-			d.Doubts, seenDoubt[w] = append(d.Doubts, w), true
-		}
-	}
-	for _, c := range s.Conditions {
-		d.Conditions = append(d.Conditions, sheet.Condition{ObservedOn: c.ObservedOn, Condition: c.Condition, Note: c.Note, By: c.RecordedBy})
-	}
-	on := s.PhotoReportDates()
-	for _, p := range s.Photos {
-		d.Photos = append(d.Photos, sheet.Photo{ObservedOn: on[p.ID], View: p.View, FileName: p.FileName, MediaType: p.MediaType,
-			Bytes: p.Bytes, SHA256: hex.EncodeToString(p.SHA256), Content: s.PhotoContent[p.ID]})
-	}
-	return d
+	return sheetdata.From(st, s, asOf, knownAt, u)
 }

@@ -103,18 +103,10 @@ func (f *Factory) Cluster() (*localpg.Cluster, error) {
 func (f *Factory) Conn(ctx context.Context) (*pgxpool.Pool, error) {
 	f.connOnce.Do(func() {
 		src := f.Source()
-		url, admin := src.URL, src.URL
-		if src.Embedded {
-			c, err := f.Cluster()
-			if err != nil {
-				f.connErr = err
-				return
-			}
-			if admin, err = c.Start(ctx); err != nil {
-				f.connErr = fmt.Errorf("start the embedded default: %w", err)
-				return
-			}
-			url = c.UserURL(localpg.Database)
+		url, admin, err := f.urls(ctx)
+		if err != nil {
+			f.connErr = err
+			return
 		}
 		pool, err := store.Open(ctx, url)
 		if err != nil {
@@ -124,6 +116,24 @@ func (f *Factory) Conn(ctx context.Context) (*pgxpool.Pool, error) {
 		f.pool, f.connURL, f.adminURL = pool, url, admin
 	})
 	return f.pool, f.connErr
+}
+
+// urls are the everyday and the owner's connection strings of the
+// register chosen (Source), starting the embedded default when it is the
+// one chosen.
+func (f *Factory) urls(ctx context.Context) (url, admin string, err error) {
+	src := f.Source()
+	if !src.Embedded {
+		return src.URL, src.URL, nil
+	}
+	c, err := f.Cluster()
+	if err != nil {
+		return "", "", err
+	}
+	if admin, err = c.Start(ctx); err != nil {
+		return "", "", fmt.Errorf("start the embedded default: %w", err)
+	}
+	return c.UserURL(localpg.Database), admin, nil
 }
 
 // Admin connects to the register as its owner (see Conn), without

@@ -122,6 +122,7 @@ codes and regulations that govern your work.`,
 		newCmdPack(f, nil),
 		newCmdBackup(f, nil),
 		newCmdRestore(f, nil),
+		newCmdServe(f, nil),
 	)
 	return root
 }

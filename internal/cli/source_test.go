@@ -7,11 +7,12 @@ import (
 	"testing"
 
 	"cairn/internal/pgtest"
+	"cairn/internal/sheetdata"
 )
 
 // Source texts as tables, the trace and datasheets show them: a version
 // published with the whole run list (before issue 15) reads as one
-// published since; any text past maxSourceShown characters is cut, saying
+// published since; any text past sheetdata.MaxSourceShown characters is cut, saying
 // so; the rest is shown as it is.
 func TestSourceShown(t *testing.T) {
 	var runs []string
@@ -26,9 +27,9 @@ func TestSourceShown(t *testing.T) {
 		{"adjustment", "adjustment 2 (proportional, 1 run)", "adjustment 2 (proportional, 1 run)"},
 		// Not from an adjustment: the same words are a citation like any other.
 		{"authority", "adjustment 2 (proportional, run 1)", "adjustment 2 (proportional, run 1)"},
-		{"authority", long[:maxSourceShown], long[:maxSourceShown]},
-		{"authority", long, long[:maxSourceShown] + "… (420 characters; the whole text with -o json)"},
-		{"adjustment", old[:len(old)-1], old[:maxSourceShown] + "… (" + strconv.Itoa(len(old)-1) + " characters; the whole text with -o json)"},
+		{"authority", long[:sheetdata.MaxSourceShown], long[:sheetdata.MaxSourceShown]},
+		{"authority", long, long[:sheetdata.MaxSourceShown] + "… (420 characters; the whole text with -o json)"},
+		{"adjustment", old[:len(old)-1], old[:sheetdata.MaxSourceShown] + "… (" + strconv.Itoa(len(old)-1) + " characters; the whole text with -o json)"},
 	}
 	for _, c := range cases {
 		if got := sourceShown(c.kind, c.in); got != c.want {

@@ -1,7 +1,6 @@
 package cli
 
 import (
-	"regexp"
 	"strconv"
 	"strings"
 	"unicode/utf8"
@@ -9,7 +8,7 @@ import (
 	"github.com/spf13/cobra"
 	"github.com/spf13/pflag"
 
-	"cairn/internal/register"
+	"cairn/internal/sheetdata"
 )
 
 // MaxTextBytes is the longest value cairn takes for any argument or flag:
@@ -66,33 +65,6 @@ func clip(v string) string {
 	return v
 }
 
-// oldAdjustmentSource is the source text of a version published before
-// adjustments named only their count of runs: every run's number.
-var oldAdjustmentSource = regexp.MustCompile(`^adjustment ([0-9]+) \(([a-z-]+), run ([0-9]+(?:, [0-9]+)*)\)$`)
-
-// maxSourceShown is the most characters of a height's source text a table,
-// the trace or a datasheet shows; JSON carries the whole text.
-const maxSourceShown = 200
-
 // sourceShown is a height's source text as tables, the trace and
-// datasheets show it: a version of an adjustment (kind "adjustment") that
-// carries the whole run list, as versions published before schema v24's
-// release did, reads as the versions published since do ("adjustment 12
-// (least-squares, 2947 runs)"; the runs are in the trace), and any other
-// text longer than maxSourceShown characters is cut there, saying so. The
-// text in the register is never changed: the history is append-only.
-func sourceShown(kind, s string) string {
-	if kind == register.KindAdjustment {
-		if m := oldAdjustmentSource.FindStringSubmatch(s); m != nil {
-			id, err := strconv.ParseInt(m[1], 10, 64)
-			if err == nil {
-				return register.AdjustmentSource(id, m[2], strings.Count(m[3], ",")+1)
-			}
-		}
-	}
-	if utf8.RuneCountInString(s) <= maxSourceShown {
-		return s
-	}
-	r := []rune(s)
-	return string(r[:maxSourceShown]) + "… (" + strconv.Itoa(len(r)) + " characters; the whole text with -o json)"
-}
+// datasheets show it (sheetdata.SourceShown).
+func sourceShown(kind, s string) string { return sheetdata.SourceShown(kind, s) }

@@ -24,6 +24,41 @@ func HTML(w io.Writer, d Data) error {
 	return err
 }
 
+// Body writes the sheet's content alone, without the document around it
+// and without its stylesheet (CSS), for a page that places the sheet in
+// its own document: the web pages of cairn serve, whose Content Security
+// Policy allows no inline style. Everything from the register is escaped
+// as in HTML.
+func Body(w io.Writer, d Data) error {
+	var b bytes.Buffer
+	if err := htmlTmpl.ExecuteTemplate(&b, "body", d); err != nil {
+		return fmt.Errorf("sheet %s: %w", d.Designation, err)
+	}
+	_, err := w.Write(b.Bytes())
+	return err
+}
+
+// CSS is the sheet's stylesheet, screen and print, as HTML writes it
+// inline; a page around Body serves it as a file.
+const CSS = `body { font-family: "DejaVu Sans", Verdana, sans-serif; font-size: 10pt; margin: 1.5em; color: #000; }
+h1 { font-size: 16pt; margin: 0 0 0.3em 0; }
+h2 { font-size: 11pt; border-bottom: 1px solid #444; margin: 1em 0 0.3em 0; }
+table { border-collapse: collapse; }
+th, td { text-align: left; vertical-align: top; padding: 2px 6px; border: 1px solid #999; }
+.doubt { border: 3px solid #b00; background: #fee; color: #700; font-weight: bold; padding: 0.5em; margin: 0.5em 0; }
+.fine { color: #333; font-size: 9pt; }
+.text { white-space: pre-wrap; overflow-wrap: anywhere; }
+.cautions { border: 1px solid #000; padding: 0.5em; }
+.photo { max-width: 60mm; max-height: 60mm; margin: 4px; }
+@media print {
+  @page { size: A4; margin: 15mm; }
+  body { margin: 0; }
+  .doubt { background: none; }
+  h2 { break-after: avoid; }
+  table, .cautions { break-inside: avoid; }
+}
+`
+
 // Title is the sheet's title.
 func (d Data) Title() string { return "Mark " + d.Designation + " · cairn datasheet" }
 
@@ -121,26 +156,12 @@ var htmlTmpl = template.Must(template.New("sheet").Funcs(template.FuncMap{
 <meta charset="utf-8"/>
 <title>{{.Title}}</title>
 <style>
-body { font-family: "DejaVu Sans", Verdana, sans-serif; font-size: 10pt; margin: 1.5em; color: #000; }
-h1 { font-size: 16pt; margin: 0 0 0.3em 0; }
-h2 { font-size: 11pt; border-bottom: 1px solid #444; margin: 1em 0 0.3em 0; }
-table { border-collapse: collapse; }
-th, td { text-align: left; vertical-align: top; padding: 2px 6px; border: 1px solid #999; }
-.doubt { border: 3px solid #b00; background: #fee; color: #700; font-weight: bold; padding: 0.5em; margin: 0.5em 0; }
-.fine { color: #333; font-size: 9pt; }
-.text { white-space: pre-wrap; overflow-wrap: anywhere; }
-.cautions { border: 1px solid #000; padding: 0.5em; }
-@media print {
-  @page { size: A4; margin: 15mm; }
-  body { margin: 0; }
-  .doubt { background: none; }
-  h2 { break-after: avoid; }
-  table, .cautions { break-inside: avoid; }
-}
-</style>
+` + CSS + `</style>
 </head>
 <body>
-<h1>Mark {{.Designation}}</h1>
+{{template "body" .}}</body>
+</html>
+{{define "body"}}<h1>Mark {{.Designation}}</h1>
 {{range .Doubts}}<p class="doubt">{{.}}</p>
 {{end}}{{if .Retired}}<p class="doubt">RETIRED: {{.Retired}}</p>
 {{end}}<h2>The mark</h2>
@@ -182,13 +203,11 @@ th, td { text-align: left; vertical-align: top; padding: 2px 6px; border: 1px so
 <tr><th>report of</th><th>view</th><th>file</th><th>bytes</th><th>SHA-256</th></tr>
 {{range .Photos}}<tr><td>{{date .ObservedOn}}</td><td>{{.View}}</td><td>{{.FileName}}</td><td>{{.Bytes}}</td><td>{{.SHA256}}</td></tr>
 {{end}}</table>
-{{range .Photos}}{{with .DataURI}}<img src="{{.}}" alt="photograph" style="max-width: 60mm; max-height: 60mm; margin: 4px;"/>
+{{range .Photos}}{{with .DataURI}}<img src="{{.}}" alt="photograph" class="photo"/>
 {{end}}{{end}}
 {{end}}<h2>Register state</h2>
 <p>Made from {{.StateText}}. <span class="fine">Check it with cairn audit verify.</span></p>
 <h2>Before you use this height</h2>
 <div class="cautions">{{range .Cautions}}<p>{{.}}</p>
 {{end}}</div>
-</body>
-</html>
-`))
+{{end}}`))

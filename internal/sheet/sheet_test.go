@@ -154,3 +154,30 @@ func TestPDFManyFooters(t *testing.T) {
 		}
 	}
 }
+
+// Body is the sheet's content alone: what HTML writes between <body> and
+// </body>, with no style element or attribute (a page with a
+// Content-Security-Policy that allows no inline style shows it whole),
+// and CSS is the stylesheet HTML writes inline.
+func TestBodyIsTheSheetWithoutItsDocument(t *testing.T) {
+	t.Parallel()
+	d := hostile()
+	var whole, body bytes.Buffer
+	if err := HTML(&whole, d); err != nil {
+		t.Fatal(err)
+	}
+	if err := Body(&body, d); err != nil {
+		t.Fatal(err)
+	}
+	w := whole.String()
+	inner := w[strings.Index(w, "<body>\n")+len("<body>\n") : strings.LastIndex(w, "</body>")]
+	if inner != body.String() {
+		t.Errorf("Body differs from HTML's body:\n%s\n---\n%s", body.String(), inner)
+	}
+	if b := body.String(); strings.Contains(b, "<style") || strings.Contains(b, "style=") || strings.Contains(b, "<script") || !strings.Contains(b, "&lt;script&gt;") {
+		t.Errorf("Body holds a style or script, or the description unescaped: %s", b)
+	}
+	if !strings.Contains(w, "<style>\n"+CSS+"</style>") {
+		t.Errorf("HTML does not write CSS inline")
+	}
+}

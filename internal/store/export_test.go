@@ -3,6 +3,7 @@ package store
 // Exported for the tests of package store_test.
 var (
 	MarkListSQL   = func(p MarkListParams) (string, []any) { return markListSQL(p, nil) }
+	MarkPageSQL   = markPageSQL
 	BoundingBoxes = boundingBoxes
 	NearestSQL    = nearestSQL
 	HeightColumns = heightColumns

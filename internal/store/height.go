@@ -446,3 +446,15 @@ func SnapshotUse(ctx context.Context, tx pgx.Tx, id string) error {
 	_, err := tx.Exec(ctx, "SET TRANSACTION SNAPSHOT "+quoteLiteral(id))
 	return translate(err)
 }
+
+// HeightAsOfByMarks returns, for each of the marks markIDs and each
+// datum, the version in force at asOf (nil: now) by the rule of
+// HeightAsOf (a withdrawal included), by designation and datum code.
+func HeightAsOfByMarks(ctx context.Context, db DBTX, markIDs []int64, asOf *time.Time) ([]Height, error) {
+	if asOf == nil {
+		return HeightCurrentByMarks(ctx, db, markIDs)
+	}
+	return heightQuery(ctx, db, "SELECT * FROM (SELECT DISTINCT ON (h.mark_id, h.datum_id) "+heightColumns+heightFrom+
+		` WHERE h.mark_id = ANY($1)`+heightAsOfWhere(2, 3)+`
+		ORDER BY h.mark_id, h.datum_id, `+heightAsOfOrder+`) v ORDER BY v.designation, v.code`, markIDs, asOf, nil)
+}

@@ -309,10 +309,11 @@ type MarkListParams struct {
 	// Name, if set (a folded name, see MarkGetFolded), keeps the mark whose
 	// designation or one of whose aliases has that folded form.
 	Name string
-	// Limit, if more than zero, keeps the nearest Limit marks of a near
-	// search (ties by designation), found nearest first by the GiST
-	// indexes (markListNearest) rather than by sorting every mark within
-	// the radius. Not with PageSize.
+	// Limit, if more than zero, is the most marks listed: the first in the
+	// listing's order, so for a near search the nearest Limit marks (ties
+	// by designation), found nearest first by the GiST indexes
+	// (markListNearest) rather than by sorting every mark within the
+	// radius. Not with PageSize.
 	Limit int
 	// PageSize, if more than 0, asks for one page of at most PageSize
 	// marks by designation (a near search too), those whose designation
@@ -422,14 +423,14 @@ func markListSQL(p MarkListParams, ids []int64) (string, []any) {
 		}
 		return q + " WHERE m." + page, args
 	}
-	if p.Near != nil {
-		q += ") near WHERE distance_m <= $3 ORDER BY distance_m, designation"
-		if p.Limit > 0 {
-			q += " LIMIT " + strconv.Itoa(p.Limit)
-		}
-		return q, args
+	limit := ""
+	if p.Limit > 0 {
+		limit = " LIMIT " + strconv.Itoa(p.Limit)
 	}
-	return q + " ORDER BY m.designation", args
+	if p.Near != nil {
+		return q + ") near WHERE distance_m <= $3 ORDER BY distance_m, designation" + limit, args
+	}
+	return q + " ORDER BY m.designation" + limit, args
 }
 
 // MarkIDsWithin returns the ids of the marks whose current position is
@@ -670,4 +671,62 @@ func MarkPositions(ctx context.Context, db DBTX, markIDs []int64) (map[int64]Lat
 		out[p.id] = p.ll
 	}
 	return out, nil
+}
+
+// BBox is a box of longitude and latitude in decimal degrees (WGS 84, as
+// OGC API – Features' bbox: west, south, east, north). West greater than
+// East is a box across the antimeridian.
+type BBox struct{ West, South, East, North float64 }
+
+// MarkPageParams ask for one page of marks in designation order.
+type MarkPageParams struct {
+	// BBox, if set, keeps the marks whose current position is in it.
+	BBox *BBox
+	// After, if set, starts the page after this designation (keyset
+	// paging: the next page of a listing is the marks after its last).
+	After string
+	// Limit is the most marks returned.
+	Limit int
+}
+
+// MarkPage returns up to p.Limit marks after p.After by designation, in
+// p.BBox when given, each with its latest condition. The unique index on
+// the designation serves the order and the start; a box is answered by
+// the GiST indexes on the positions (the mark's own and its versions'),
+// and the current position decides.
+func MarkPage(ctx context.Context, db DBTX, p MarkPageParams) ([]Mark, error) {
+	q, args := markPageSQL(p)
+	rows, err := db.Query(ctx, q, args...)
+	if err != nil {
+		return nil, translate(err)
+	}
+	return collect(rows, func(r pgx.Row) (Mark, error) { return scanMark(r) })
+}
+
+// markPageSQL builds MarkPage's query.
+func markPageSQL(p MarkPageParams) (string, []any) {
+	args := []any{p.After, p.Limit}
+	q := "SELECT " + markColumns + markFrom + " WHERE m.designation > $1"
+	if b := p.BBox; b != nil {
+		var boxes [][4]float64
+		if b.West <= b.East {
+			boxes = [][4]float64{{b.West, b.South, b.East, b.North}}
+		} else {
+			boxes = [][4]float64{{b.West, b.South, 180, b.North}, {-180, b.South, b.East, b.North}}
+		}
+		var in []string
+		for i, x := range boxes {
+			args = append(args, x[0], x[1], x[2], x[3])
+			n := 3 + 4*i
+			in = append(in, fmt.Sprintf("point(lon, lat) <@ box(point($%d, $%d), point($%d, $%d))", n, n+1, n+2, n+3))
+		}
+		cur := fmt.Sprintf("point(%s, %s) <@ box(point($%d, $%d), point($%d, $%d))", curLon, curLat, 3, 4, 5, 6)
+		if len(boxes) == 2 {
+			cur = "(" + cur + " OR " + fmt.Sprintf("point(%s, %s) <@ box(point($%d, $%d), point($%d, $%d))", curLon, curLat, 7, 8, 9, 10) + ")"
+		}
+		ors := "(" + strings.Join(in, " OR ") + ")"
+		q += " AND " + curLat + " IS NOT NULL AND " + cur + " AND m.id IN (SELECT id FROM mark WHERE lat IS NOT NULL AND " + ors +
+			" UNION SELECT mark_id FROM mark_version WHERE lat IS NOT NULL AND " + ors + ")"
+	}
+	return q + " ORDER BY m.designation LIMIT $2", args
 }

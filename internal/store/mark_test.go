@@ -66,3 +66,47 @@ func TestMarkListNearSQLUsesMeanRadius(t *testing.T) {
 		t.Fatalf("near search SQL does not compute with R = %v m as %q:\n%s", store.MeanEarthRadiusM, want, q)
 	}
 }
+
+// A page of marks is served by indexes: the box by the GiST index on the
+// positions, the order and start by the unique index on the designation.
+func TestMarkPageUsesIndexes(t *testing.T) {
+	t.Parallel()
+	db := pgtest.New(t)
+	ctx := context.Background()
+	tx, err := db.Pool.Begin(ctx)
+	if err != nil {
+		t.Fatal(err)
+	}
+	defer tx.Rollback(ctx)
+	if _, err := tx.Exec(ctx, "SET LOCAL enable_seqscan = off"); err != nil {
+		t.Fatal(err)
+	}
+	explain := func(p store.MarkPageParams) string {
+		q, args := store.MarkPageSQL(p)
+		rows, err := tx.Query(ctx, "EXPLAIN "+q, args...)
+		if err != nil {
+			t.Fatal(err)
+		}
+		var plan []string
+		for rows.Next() {
+			var line string
+			if err := rows.Scan(&line); err != nil {
+				t.Fatal(err)
+			}
+			plan = append(plan, line)
+		}
+		if err := rows.Err(); err != nil {
+			t.Fatal(err)
+		}
+		return strings.Join(plan, "\n")
+	}
+	if p := explain(store.MarkPageParams{BBox: &store.BBox{West: -98, South: 41, East: -97, North: 42}, Limit: 10}); !strings.Contains(p, "mark_position") {
+		t.Errorf("a box does not use index mark_position:\n%s", p)
+	}
+	if p := explain(store.MarkPageParams{BBox: &store.BBox{West: 170, South: 41, East: -170, North: 42}, Limit: 10}); !strings.Contains(p, "mark_position") {
+		t.Errorf("a box across the antimeridian does not use index mark_position:\n%s", p)
+	}
+	if p := explain(store.MarkPageParams{After: "TC-0412", Limit: 10}); !strings.Contains(p, "Index") || !strings.Contains(p, "designation") {
+		t.Errorf("a page after a designation is not served by its index:\n%s", p)
+	}
+}

@@ -132,3 +132,24 @@ func ReloadConfig(ctx context.Context, conn *pgx.Conn) error {
 	}
 	return nil
 }
+
+// WritePrivileges lists the register's tables (schema public) on which
+// the connected role may write: INSERT, UPDATE, DELETE or TRUNCATE on
+// the table, or INSERT or UPDATE on any of its columns, as "table
+// PRIVILEGE", by table. A role with none of them can only read (cairn
+// serve refuses to start on any other).
+func WritePrivileges(ctx context.Context, db DBTX) ([]string, error) {
+	rows, err := db.Query(ctx, `SELECT c.relname || ' ' || p.priv FROM pg_class c
+		JOIN pg_namespace n ON n.oid = c.relnamespace
+		CROSS JOIN unnest(ARRAY['INSERT', 'UPDATE', 'DELETE', 'TRUNCATE']) WITH ORDINALITY AS p (priv, ord)
+		WHERE n.nspname = 'public' AND c.relkind IN ('r', 'p')
+		AND (has_table_privilege(c.oid, p.priv) OR (p.priv IN ('INSERT', 'UPDATE') AND has_any_column_privilege(c.oid, p.priv)))
+		ORDER BY c.relname, p.ord`)
+	if err != nil {
+		return nil, fmt.Errorf("read the connected role's privileges: %w", translate(err))
+	}
+	return collect(rows, func(r pgx.Row) (string, error) {
+		var s string
+		return s, translate(r.Scan(&s))
+	})
+}

@@ -7,6 +7,8 @@ import (
 	"database/sql"
 	"errors"
 	"fmt"
+	"strconv"
+	"time"
 
 	"github.com/jackc/pgx/v5/pgxpool"
 	"github.com/jackc/pgx/v5/stdlib"
@@ -22,11 +24,43 @@ import (
 // in another client_encoding would have the server misread them ("Größe"
 // stored as "GrÃ¶Ãe").
 func Open(ctx context.Context, url string) (*pgxpool.Pool, error) {
+	return OpenWith(ctx, url, PoolOptions{})
+}
+
+// PoolOptions shape the sessions of a pool beyond what its URL says.
+type PoolOptions struct {
+	// StatementTimeout, when more than zero, is every session's
+	// statement_timeout: the server cancels a statement running longer.
+	StatementTimeout time.Duration
+	// ReadOnly makes every transaction of every session read-only
+	// (default_transaction_read_only), a second lock behind the role's
+	// privileges.
+	ReadOnly bool
+	// MaxConns, when more than zero, bounds the pool's connections.
+	MaxConns int32
+	// ApplicationName names the sessions in pg_stat_activity.
+	ApplicationName string
+}
+
+// OpenWith is Open with the sessions shaped by o.
+func OpenWith(ctx context.Context, url string, o PoolOptions) (*pgxpool.Pool, error) {
 	cfg, err := pgxpool.ParseConfig(url)
 	if err != nil {
 		return nil, fmt.Errorf("parse database URL: %w", err)
 	}
 	cfg.ConnConfig.RuntimeParams["client_encoding"] = "UTF8"
+	if o.StatementTimeout > 0 {
+		cfg.ConnConfig.RuntimeParams["statement_timeout"] = strconv.FormatInt(o.StatementTimeout.Milliseconds(), 10)
+	}
+	if o.ReadOnly {
+		cfg.ConnConfig.RuntimeParams["default_transaction_read_only"] = "on"
+	}
+	if o.MaxConns > 0 {
+		cfg.MaxConns = o.MaxConns
+	}
+	if o.ApplicationName != "" {
+		cfg.ConnConfig.RuntimeParams["application_name"] = o.ApplicationName
+	}
 	pool, err := pgxpool.NewWithConfig(ctx, cfg)
 	if err != nil {
 		return nil, err
