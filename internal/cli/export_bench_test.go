@@ -4,6 +4,8 @@ import (
 	"bufio"
 	"bytes"
 	"context"
+	"encoding/csv"
+	"encoding/json"
 	"fmt"
 	"io"
 	"os"
@@ -27,7 +29,7 @@ func (w *countingWriter) Write(p []byte) (int, error) { w.n += int64(len(p)); re
 // exportBenchRegister imports a generated register of marks marks, each
 // with a position, one alias, one height version and one good report
 // (cairn import, not timed).
-func exportBenchRegister(b *testing.B, marks int) string {
+func exportBenchRegister(b testing.TB, marks int) string {
 	b.Helper()
 	dir := b.TempDir()
 	write := func(name, header string, row func(w *bufio.Writer, i int)) {
@@ -135,4 +137,94 @@ func vmKB(b *testing.B, key string) float64 {
 	}
 	b.Fatalf("no %s in /proc/self/status", key)
 	return 0
+}
+
+// BenchmarkListAll lists the whole of a generated register of
+// CAIRN_BENCH_EXPORT_MARKS marks (default 10,000) with mark list and
+// height list, -o csv and -o json, in this process: peak-MB is the
+// process's peak resident memory during the listing alone (VmHWM reset
+// after the build), which the listings' pages (register.ListPageSize
+// marks) bound whatever the register's size.
+func BenchmarkListAll(b *testing.B) {
+	marks := 10000
+	if s := os.Getenv("CAIRN_BENCH_EXPORT_MARKS"); s != "" {
+		n, err := strconv.Atoi(s)
+		if err != nil || n < 1 {
+			b.Fatalf("CAIRN_BENCH_EXPORT_MARKS=%q: want a number of marks", s)
+		}
+		marks = n
+	}
+	url := exportBenchRegister(b, marks)
+	for _, c := range [][]string{{"mark", "list", "-o", "csv"}, {"mark", "list", "-o", "json"}, {"height", "list", "-o", "csv"}, {"height", "list", "-o", "json"}} {
+		b.Run(strings.Join(c, "-"), func(b *testing.B) {
+			runtime.GC()
+			debug.FreeOSMemory()
+			if err := os.WriteFile("/proc/self/clear_refs", []byte("5"), 0); err != nil {
+				b.Fatalf("reset the peak resident memory: %v", err)
+			}
+			b.ReportAllocs()
+			var out countingWriter
+			for b.Loop() {
+				out.n = 0
+				ios := newStreams(strings.NewReader(""), &out, io.Discard, false)
+				f := NewFactory(ios, "bench")
+				err := Execute(context.Background(), f, append([]string{"--db", url}, c...))
+				f.Close()
+				if err != nil || out.n < int64(marks) {
+					b.Fatalf("%v: %v, %d bytes", c, err, out.n)
+				}
+			}
+			b.ReportMetric(float64(out.n)/1e6, "out-MB")
+			b.ReportMetric(vmKB(b, "VmHWM:")/1024, "peak-MB")
+		})
+	}
+}
+
+// TestListingsInPages: the listings of the whole register are read and
+// written a page of register.ListPageSize marks at a time; over 2,500
+// marks (three pages) every mark comes once, in designation order, and
+// each output is one well-formed document: a JSON array, a CSV file with
+// one header (encoding/csv), a FeatureCollection, a piped table with one
+// header line.
+func TestListingsInPages(t *testing.T) {
+	t.Parallel()
+	const marks = 2500
+	url := exportBenchRegister(t, marks)
+	want := func(i int) string { return fmt.Sprintf("TC-%07d", i) }
+
+	var ms []struct {
+		Designation string `json:"mark"`
+	}
+	if err := json.Unmarshal([]byte(mustRun(t, url, "mark", "list", "-o", "json")), &ms); err != nil || len(ms) != marks {
+		t.Fatalf("mark list -o json: %v, %d marks", err, len(ms))
+	}
+	for i, m := range ms {
+		if m.Designation != want(i) {
+			t.Fatalf("mark list -o json: mark %d is %s, want %s", i, m.Designation, want(i))
+		}
+	}
+	recs, err := csv.NewReader(strings.NewReader(mustRun(t, url, "height", "list", "-o", "csv"))).ReadAll()
+	if err != nil || len(recs) != marks+1 || recs[0][0] != "mark" {
+		t.Fatalf("height list -o csv: %v, %d records, header %v", err, len(recs), recs[0])
+	}
+	for i, r := range recs[1:] {
+		if r[0] != want(i) {
+			t.Fatalf("height list -o csv: row %d is %s, want %s", i+1, r[0], want(i))
+		}
+	}
+	var fc struct {
+		Type     string            `json:"type"`
+		Features []json.RawMessage `json:"features"`
+	}
+	if err := json.Unmarshal([]byte(mustRun(t, url, "height", "list", "-o", "geojson")), &fc); err != nil || fc.Type != "FeatureCollection" || len(fc.Features) != marks {
+		t.Fatalf("height list -o geojson: %v, %s of %d features", err, fc.Type, len(fc.Features))
+	}
+	lines := strings.Split(strings.TrimSuffix(mustRun(t, url, "mark", "list"), "\n"), "\n")
+	if len(lines) != marks+1 || !strings.HasPrefix(lines[0], "designation\t") || !strings.HasPrefix(lines[marks], want(marks-1)+"\t") {
+		t.Fatalf("mark list, piped: %d lines, first %q", len(lines), lines[0])
+	}
+	var hs []json.RawMessage
+	if err := json.Unmarshal([]byte(mustRun(t, url, "height", "list", "--datum", "NAVD88", "--as-of", "2020-01-01", "-o", "json")), &hs); err != nil || len(hs) != marks {
+		t.Fatalf("height list --as-of -o json: %v, %d heights", err, len(hs))
+	}
 }

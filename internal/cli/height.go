@@ -11,6 +11,7 @@ import (
 
 	"github.com/spf13/cobra"
 
+	"cairn/internal/geojson"
 	"cairn/internal/register"
 	"cairn/internal/store"
 	"cairn/internal/units"
@@ -443,35 +444,40 @@ func heightListRun(opts *heightListOptions) error {
 	if err != nil {
 		return err
 	}
-	hs, err := r.HeightsAsOf(opts.ctx, opts.datum, opts.at, opts.known)
+	var hs []register.CurrentHeight
+	lw := &listWriter{ios: opts.f.IO, format: opts.format,
+		headers: []string{"MARK", "DATUM", "VERSION", "HEIGHT" + perRowUnit, "UNIT", "CLASS", "SOURCE", "DOUBT"},
+		feature: func(w *geojson.Writer, i int) error { return w.Write(heightFeature(hs[i])) }}
+	listed, inDoubt := 0, 0
+	// The whole register a page of marks at a time (HeightsAsOfEach).
+	err = r.HeightsAsOfEach(opts.ctx, opts.datum, opts.at, opts.known, func(page []register.CurrentHeight) error {
+		hs = page
+		values := make([]any, len(hs))
+		rows := make([][]string, len(hs))
+		for i, h := range hs {
+			j := toHeightJSON(h.Height, "")
+			j.Doubts = doubtsJSON(h.Doubts)
+			if len(h.Doubts) > 0 {
+				inDoubt++
+			}
+			values[i] = j
+			val := deref(j.Value)
+			if j.Value == nil {
+				val = "withdrawn"
+			}
+			rows[i] = []string{j.Mark, j.Datum, strconv.Itoa(j.Version), val, deref(j.Unit), j.Class, sourceShown(j.SourceKind, j.Source), doubtCell(opts.f.IO, h.Doubts)}
+		}
+		listed += len(hs)
+		return lw.page(values, rows)
+	})
 	if err != nil {
 		return err
 	}
-	out := []heightJSON{}
-	inDoubt := 0
-	for _, h := range hs {
-		j := toHeightJSON(h.Height, "")
-		j.Doubts = doubtsJSON(h.Doubts)
-		if len(h.Doubts) > 0 {
-			inDoubt++
-		}
-		out = append(out, j)
+	if err := lw.close(); err != nil {
+		return err
 	}
-	defer warnListed(opts.f.IO, opts.format, inDoubt, len(out), "heights")
-	if opts.format == FormatGeoJSON {
-		return writeHeightFeatures(opts.f.IO, hs)
-	}
-	return render(opts.f.IO, opts.format, out, func() Table {
-		t := Table{Headers: []string{"MARK", "DATUM", "VERSION", "HEIGHT" + perRowUnit, "UNIT", "CLASS", "SOURCE", "DOUBT"}}
-		for _, h := range out {
-			val := deref(h.Value)
-			if h.Value == nil {
-				val = "withdrawn"
-			}
-			t.AddRow(h.Mark, h.Datum, strconv.Itoa(h.Version), val, deref(h.Unit), h.Class, sourceShown(h.SourceKind, h.Source), doubtCell(opts.f.IO, h.Doubts))
-		}
-		return t
-	})
+	warnListed(opts.f.IO, opts.format, inDoubt, listed, "heights")
+	return nil
 }
 
 // historyOptions are the inputs of `cairn history`.

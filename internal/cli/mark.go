@@ -14,6 +14,7 @@ import (
 	"github.com/spf13/cobra"
 	"github.com/spf13/pflag"
 
+	"cairn/internal/geojson"
 	"cairn/internal/register"
 	"cairn/internal/store"
 	"cairn/internal/units"
@@ -506,46 +507,55 @@ func markListRun(opts *markListOptions) error {
 	if err != nil {
 		return err
 	}
-	ms, err := r.MarkList(opts.ctx, p)
-	if err != nil {
-		return err
+	headers := []string{"DESIGNATION", "TYPE", "CONDITION", "LAT (deg)", "LON (deg)", "ALIASES", "DOUBT"}
+	if p.Near != nil {
+		headers = append(headers, "DISTANCE (km)")
 	}
-	if p.Limit > 0 && len(ms) > opts.limit {
-		ms = ms[:opts.limit]
-		defer opts.f.IO.printf("more marks are within %s of %s than the %d nearest listed (--limit 0 lists all)\n", opts.within, opts.near, opts.limit)
-	}
-	out := []markJSON{}
-	inDoubt := 0
-	for _, m := range ms {
-		warnCondition(opts.f.IO, m.Mark)
-		out = append(out, toMarkJSON(m.Mark, m.Doubts))
-		if len(m.Doubts) > 0 {
-			inDoubt++
+	var ms []register.ListedMark
+	lw := &listWriter{ios: opts.f.IO, format: opts.format, headers: headers,
+		feature: func(w *geojson.Writer, i int) error { return w.Write(markFeature(ms[i], p.Near != nil)) }}
+	listed, inDoubt, more := 0, 0, false
+	// The whole register a page at a time (MarkListEach); a near search
+	// is one page.
+	err = r.MarkListEach(opts.ctx, p, func(page []register.ListedMark) error {
+		ms = page
+		if p.Limit > 0 && len(ms) > opts.limit {
+			ms, more = ms[:opts.limit], true
 		}
-	}
-	defer warnListed(opts.f.IO, opts.format, inDoubt, len(out), "marks")
-	if opts.format == FormatGeoJSON {
-		return writeMarkFeatures(opts.f.IO, ms, p.Near != nil)
-	}
-	return render(opts.f.IO, opts.format, out, func() Table {
-		t := Table{Headers: []string{"DESIGNATION", "TYPE", "CONDITION", "LAT (deg)", "LON (deg)", "ALIASES", "DOUBT"}}
-		if p.Near != nil {
-			t.Headers = append(t.Headers, "DISTANCE (km)")
-		}
+		values := make([]any, len(ms))
+		rows := make([][]string, len(ms))
 		for i, m := range ms {
+			warnCondition(opts.f.IO, m.Mark)
+			j := toMarkJSON(m.Mark, m.Doubts)
+			values[i] = j
+			if len(m.Doubts) > 0 {
+				inDoubt++
+			}
 			lat, lon := position(m.Mark)
-			cond := out[i].Condition
-			if out[i].Warning != "" {
+			cond := j.Condition
+			if j.Warning != "" {
 				cond = "!! " + strings.ToUpper(cond)
 			}
 			row := []string{m.Designation, m.Type, cond, lat, lon, strings.Join(m.Aliases, "; "), doubtCell(opts.f.IO, m.Doubts)}
 			if p.Near != nil {
-				row = append(row, strconv.FormatFloat(*out[i].DistanceKm, 'f', 3, 64))
+				row = append(row, strconv.FormatFloat(*j.DistanceKm, 'f', 3, 64))
 			}
-			t.AddRow(row...)
+			rows[i] = row
 		}
-		return t
+		listed += len(ms)
+		return lw.page(values, rows)
 	})
+	if err != nil {
+		return err
+	}
+	if err := lw.close(); err != nil {
+		return err
+	}
+	warnListed(opts.f.IO, opts.format, inDoubt, listed, "marks")
+	if more {
+		opts.f.IO.printf("more marks are within %s of %s than the %d nearest listed (--limit 0 lists all)\n", opts.within, opts.near, opts.limit)
+	}
+	return nil
 }
 
 // parseLatLon reads "LAT,LON" in decimal degrees.

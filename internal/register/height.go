@@ -293,7 +293,19 @@ func AsOfOrKnown(asOf, knownAt *time.Time) *time.Time {
 // (not the position as of then). A version listed may be a withdrawal.
 func (r *Register) HeightsAsOf(ctx context.Context, datum string, asOf, knownAt *time.Time) ([]CurrentHeight, error) {
 	var out []CurrentHeight
-	err := r.withTx(ctx, readTx, func(tx pgx.Tx) error {
+	err := r.HeightsAsOfEach(ctx, datum, asOf, knownAt, func(page []CurrentHeight) error {
+		out = append(out, page...)
+		return nil
+	})
+	return out, err
+}
+
+// HeightsAsOfEach is HeightsAsOf a page at a time: page is called with
+// the heights of each ListPageSize marks by designation (a page may be
+// empty), all read in one snapshot, so that a listing of the whole
+// register holds one page.
+func (r *Register) HeightsAsOfEach(ctx context.Context, datum string, asOf, knownAt *time.Time, page func([]CurrentHeight) error) error {
+	return r.withTx(ctx, readTx, func(tx pgx.Tx) error {
 		var id int64
 		if datum != "" {
 			d, err := r.datum(ctx, tx, "datum", datum)
@@ -302,45 +314,71 @@ func (r *Register) HeightsAsOf(ctx context.Context, datum string, asOf, knownAt 
 			}
 			id = d.ID
 		}
-		hs, err := store.HeightAsOfAll(ctx, tx, store.HeightAsOfAllParams{DatumID: id, AsOf: AsOfOrKnown(asOf, knownAt), KnownAt: knownAt})
-		if err != nil {
-			return err
-		}
-		var ids []int64
-		for _, h := range hs {
-			if len(ids) == 0 || ids[len(ids)-1] != h.MarkID {
-				ids = append(ids, h.MarkID)
+		q := store.HeightAsOfAllParams{DatumID: id, AsOf: AsOfOrKnown(asOf, knownAt), KnownAt: knownAt}
+		after := ""
+		for {
+			markIDs, last, err := store.MarkIDPage(ctx, tx, after, ListPageSize)
+			if err != nil {
+				return err
 			}
-		}
-		latest, err := store.ConditionLatestMany(ctx, tx, ids)
-		if err != nil {
-			return err
-		}
-		marks := make([]store.Mark, 0, len(latest))
-		for _, h := range hs {
-			if c, ok := latest[h.MarkID]; ok {
-				marks = append(marks, store.Mark{ID: h.MarkID, Designation: h.Designation, Latest: &c})
-				delete(latest, h.MarkID)
+			if len(markIDs) == 0 {
+				return nil
 			}
-		}
-		ds, err := doubtsOf(ctx, tx, marks, hs)
-		if err != nil {
-			return err
-		}
-		pos, err := store.MarkPositions(ctx, tx, ids)
-		if err != nil {
-			return err
-		}
-		out = make([]CurrentHeight, len(hs))
-		for i, h := range hs {
-			out[i] = CurrentHeight{Height: h, Doubts: ds[h.MarkID].Of(h.DatumCode, h.Version)}
-			if p, ok := pos[h.MarkID]; ok {
-				out[i].Position = &p
+			hs, err := store.HeightAsOfMarks(ctx, tx, q, markIDs)
+			if err != nil {
+				return err
 			}
+			out, err := currentHeights(ctx, tx, hs)
+			if err != nil {
+				return err
+			}
+			if err := page(out); err != nil {
+				return err
+			}
+			if len(markIDs) < ListPageSize {
+				return nil
+			}
+			after = last
 		}
-		return nil
 	})
-	return out, err
+}
+
+// currentHeights gives the versions hs their doubts and their marks'
+// positions.
+func currentHeights(ctx context.Context, tx pgx.Tx, hs []store.Height) ([]CurrentHeight, error) {
+	var ids []int64
+	for _, h := range hs {
+		if len(ids) == 0 || ids[len(ids)-1] != h.MarkID {
+			ids = append(ids, h.MarkID)
+		}
+	}
+	latest, err := store.ConditionLatestMany(ctx, tx, ids)
+	if err != nil {
+		return nil, err
+	}
+	marks := make([]store.Mark, 0, len(latest))
+	for _, h := range hs {
+		if c, ok := latest[h.MarkID]; ok {
+			marks = append(marks, store.Mark{ID: h.MarkID, Designation: h.Designation, Latest: &c})
+			delete(latest, h.MarkID)
+		}
+	}
+	ds, err := doubtsOf(ctx, tx, marks, hs)
+	if err != nil {
+		return nil, err
+	}
+	pos, err := store.MarkPositions(ctx, tx, ids)
+	if err != nil {
+		return nil, err
+	}
+	out := make([]CurrentHeight, len(hs))
+	for i, h := range hs {
+		out[i] = CurrentHeight{Height: h, Doubts: ds[h.MarkID].Of(h.DatumCode, h.Version)}
+		if p, ok := pos[h.MarkID]; ok {
+			out[i].Position = &p
+		}
+	}
+	return out, nil
 }
 
 // HistoryEntry is one version with its change from the version before.

@@ -227,7 +227,9 @@ type ListedMark struct {
 }
 
 // MarkList lists marks with their latest condition and their doubts.
-func (r *Register) MarkList(ctx context.Context, p MarkListParams) ([]ListedMark, error) {
+// markListCheck refuses a listing's bad parameters and returns its
+// conditions in the register's words.
+func markListCheck(p MarkListParams) ([]string, error) {
 	if p.Near != nil {
 		if p.Near.Lat < -90 || p.Near.Lat > 90 {
 			return nil, inputErr("near", "latitude %v is outside -90 to 90 degrees", p.Near.Lat)
@@ -253,24 +255,70 @@ func (r *Register) MarkList(ctx context.Context, p MarkListParams) ([]ListedMark
 		}
 		conds = append(conds, k)
 	}
+	return conds, nil
+}
+
+func (r *Register) MarkList(ctx context.Context, p MarkListParams) ([]ListedMark, error) {
+	conds, err := markListCheck(p)
+	if err != nil {
+		return nil, err
+	}
 	var out []ListedMark
-	err := r.withTx(ctx, readTx, func(tx pgx.Tx) error {
-		ms, err := store.MarkList(ctx, tx, store.MarkListParams{Near: p.Near, RadiusM: p.RadiusM, Conditions: conds,
-			Name: names.Fold(strings.TrimSpace(p.Name)), Limit: p.Limit})
-		if err != nil {
-			return err
-		}
-		ds, err := markDoubtsCurrent(ctx, tx, ms)
-		if err != nil {
-			return err
-		}
-		out = make([]ListedMark, len(ms))
-		for i, m := range ms {
-			out[i] = ListedMark{Mark: m, Doubts: ds[m.ID]}
-		}
+	err = r.markListPages(ctx, p, conds, func(page []ListedMark) error {
+		out = append(out, page...)
 		return nil
 	})
 	return out, err
+}
+
+// ListPageSize is how many marks a listing of the whole register reads at
+// a time (MarkListEach, HeightsAsOfEach).
+const ListPageSize = 1000
+
+// MarkListEach is MarkList a page at a time: page is called with each
+// page of at most ListPageSize marks by designation, all read in one
+// snapshot, so that a listing of the whole register holds one page. A
+// near search or a name is one page (a near search's --limit bounds it).
+func (r *Register) MarkListEach(ctx context.Context, p MarkListParams, page func([]ListedMark) error) error {
+	conds, err := markListCheck(p)
+	if err != nil {
+		return err
+	}
+	return r.markListPages(ctx, p, conds, page)
+}
+
+func (r *Register) markListPages(ctx context.Context, p MarkListParams, conds []string, page func([]ListedMark) error) error {
+	return r.withTx(ctx, readTx, func(tx pgx.Tx) error {
+		q := store.MarkListParams{Near: p.Near, RadiusM: p.RadiusM, Conditions: conds,
+			Name: names.Fold(strings.TrimSpace(p.Name)), Limit: p.Limit}
+		whole := p.Near == nil && q.Name == ""
+		if whole {
+			q.PageSize = ListPageSize
+		}
+		for {
+			ms, err := store.MarkList(ctx, tx, q)
+			if err != nil {
+				return err
+			}
+			ds, err := markDoubtsCurrent(ctx, tx, ms)
+			if err != nil {
+				return err
+			}
+			out := make([]ListedMark, len(ms))
+			for i, m := range ms {
+				out[i] = ListedMark{Mark: m, Doubts: ds[m.ID]}
+			}
+			if len(out) > 0 || q.After == "" {
+				if err := page(out); err != nil {
+					return err
+				}
+			}
+			if !whole || len(ms) < q.PageSize {
+				return nil
+			}
+			q.After = ms[len(ms)-1].Designation
+		}
+	})
 }
 
 // MarkConditionParams are the fields of a condition report.

@@ -458,3 +458,47 @@ func HeightAsOfByMarks(ctx context.Context, db DBTX, markIDs []int64, asOf *time
 		` WHERE h.mark_id = ANY($1)`+heightAsOfWhere(2, 3)+`
 		ORDER BY h.mark_id, h.datum_id, `+heightAsOfOrder+`) v ORDER BY v.designation, v.code`, markIDs, asOf, nil)
 }
+
+// MarkIDPage returns the ids of at most n marks whose designation comes
+// after after, by designation (the unique index on it answers), and the
+// last designation of the page ("" for none): a listing of the whole
+// register a page at a time.
+func MarkIDPage(ctx context.Context, db DBTX, after string, n int) ([]int64, string, error) {
+	rows, err := db.Query(ctx, "SELECT id, designation FROM mark WHERE designation > $1 ORDER BY designation LIMIT $2", after, n)
+	if err != nil {
+		return nil, "", translate(err)
+	}
+	defer rows.Close()
+	var ids []int64
+	last := ""
+	for rows.Next() {
+		var id int64
+		if err := rows.Scan(&id, &last); err != nil {
+			return nil, "", translate(err)
+		}
+		ids = append(ids, id)
+	}
+	return ids, last, translate(rows.Err())
+}
+
+// HeightAsOfMarks is HeightAsOfAll for the marks markIDs only.
+func HeightAsOfMarks(ctx context.Context, db DBTX, p HeightAsOfAllParams, markIDs []int64) ([]Height, error) {
+	if p.AsOf == nil && p.KnownAt == nil {
+		hs, err := HeightCurrentByMarks(ctx, db, markIDs)
+		if err != nil || p.DatumID == 0 {
+			return hs, err
+		}
+		out := hs[:0]
+		for _, h := range hs {
+			if h.DatumID == p.DatumID {
+				out = append(out, h)
+			}
+		}
+		return out, nil
+	}
+	return heightQuery(ctx, db, "SELECT * FROM (SELECT DISTINCT ON (h.mark_id, h.datum_id) "+heightColumns+
+		` FROM (SELECT DISTINCT unnest($4::bigint[]) AS mark_id) AS u JOIN height h ON h.mark_id = u.mark_id
+		JOIN mark m ON m.id = h.mark_id JOIN datum d ON d.id = h.datum_id LEFT JOIN register_commit rc ON rc.xid = h.created_xid
+		WHERE ($1::bigint = 0 OR h.datum_id = $1)`+heightAsOfWhere(2, 3)+`
+		ORDER BY h.mark_id, h.datum_id, `+heightAsOfOrder+`) v ORDER BY v.designation, v.code`, p.DatumID, p.AsOf, p.KnownAt, markIDs)
+}
