@@ -86,11 +86,12 @@ SELECT a.kind, a.line, CASE a.kind WHEN 'mark' THEN 'aliases' ELSE 'alias' END, 
     ON m.folded = a.folded
 UNION ALL
 SELECT a.kind, a.line, CASE a.kind WHEN 'mark' THEN 'aliases' ELSE 'alias' END, 'alias ' || a.alias || ' is also ' ||
-       CASE WHEN o.line IS NOT NULL THEN 'an alias on line ' || o.line || CASE WHEN o.kind <> a.kind THEN ' of ' || CASE o.kind WHEN 'mark' THEN 'the marks file' ELSE 'aliases.csv' END ELSE '' END
+       CASE WHEN a.rn > 1 THEN 'an alias on line ' || a.first_line || CASE WHEN a.first_kind <> a.kind THEN ' of ' || CASE a.first_kind WHEN 'mark' THEN 'the marks file' ELSE 'aliases.csv' END ELSE '' END
             ELSE 'the designation on line ' || d.line || CASE WHEN a.kind = 'alias' THEN ' of the marks file' ELSE '' END END
-  FROM a LEFT JOIN LATERAL (SELECT o.kind, o.line FROM a o WHERE o.folded = a.folded AND (o.ord, o.line) < (a.ord, a.line) ORDER BY o.ord, o.line LIMIT 1) o ON true
-         LEFT JOIN s d ON d.folded = a.folded
- WHERE o.line IS NOT NULL OR d.line IS NOT NULL
+  FROM (SELECT a.*, row_number() OVER w AS rn, first_value(a.line) OVER w AS first_line, first_value(a.kind) OVER w AS first_kind
+          FROM a WINDOW w AS (PARTITION BY a.folded ORDER BY a.ord, a.line)) a
+  LEFT JOIN s d ON d.folded = a.folded
+ WHERE a.rn > 1 OR d.line IS NOT NULL
 UNION ALL
 SELECT 'mark', s.line, 'replaced_by', 'no mark ' || s.replaced_by || ' in the register or in the marks file'
   FROM s WHERE s.replaced_folded <> '' AND NOT EXISTS (SELECT 1 FROM known k WHERE k.folded = s.replaced_folded)
@@ -101,8 +102,10 @@ UNION ALL
 SELECT 'condition', c.line, 'mark', 'no mark ' || c.mark || ' in the register or in the marks file'
   FROM c WHERE NOT EXISTS (SELECT 1 FROM known k WHERE k.folded = c.folded)
 UNION ALL
-SELECT 'condition', c.line, 'ref', 'ref ' || c.ref || ' is given also on line ' || o.line
-  FROM c JOIN c o ON o.ref = c.ref AND o.line < c.line WHERE c.ref <> ''
+SELECT 'condition', r.line, 'ref', 'ref ' || r.ref || ' is given also on line ' || r.first_line
+  FROM (SELECT c.line, c.ref, row_number() OVER w AS rn, first_value(c.line) OVER w AS first_line
+          FROM c WHERE c.ref <> '' WINDOW w AS (PARTITION BY c.ref ORDER BY c.line)) r
+ WHERE r.rn > 1
 UNION ALL
 SELECT 'description', d.line, 'mark', 'no mark ' || d.mark || ' in the register or in the marks file'
   FROM cairn_staging.import_description d
@@ -111,9 +114,9 @@ UNION ALL
 SELECT 'alias', x.line, 'mark', 'no mark ' || x.mark || ' in the register or in the marks file'
   FROM cairn_staging.import_alias x
  WHERE x.import_xid = pg_current_xact_id()
-   AND NOT EXISTS (SELECT 1 FROM mark m WHERE lower(normalize(m.designation, NFKC)) = x.folded
-                   UNION ALL SELECT 1 FROM mark_alias y WHERE lower(normalize(y.alias, NFKC)) = x.folded
-                   UNION ALL SELECT 1 FROM s WHERE s.folded = x.folded)
+   AND NOT EXISTS (SELECT 1 FROM mark m WHERE lower(normalize(m.designation, NFKC)) = x.folded)
+   AND NOT EXISTS (SELECT 1 FROM mark_alias y WHERE lower(normalize(y.alias, NFKC)) = x.folded)
+   AND NOT EXISTS (SELECT 1 FROM s WHERE s.folded = x.folded)
 UNION ALL
 SELECT 'photo', p.line, 'condition', 'no condition report with ref ' || p.condition || ' in conditions.csv'
   FROM cairn_staging.import_photo p
