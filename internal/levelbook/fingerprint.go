@@ -1,7 +1,10 @@
 package levelbook
 
 import (
+	"bufio"
+	"bytes"
 	"crypto/sha256"
+	"io"
 	"strconv"
 	"strings"
 )
@@ -42,7 +45,14 @@ const ObservationsVersion = "cairn-observations-v1"
 // Every field of a sighting that can change the observations belongs
 // here: a new one is added to this function, with a new version.
 func (b *Book) Observations() []byte {
-	var sb strings.Builder
+	var buf bytes.Buffer
+	b.writeObservations(&buf)
+	return buf.Bytes()
+}
+
+// writeObservations writes Observations' text to w, a sighting at a time.
+func (b *Book) writeObservations(w io.Writer) {
+	bw := bufio.NewWriterSize(w, 64<<10)
 	threeWire := false
 	for i := range b.Sightings {
 		threeWire = threeWire || b.Sightings[i].ThreeWire
@@ -54,35 +64,59 @@ func (b *Book) Observations() []byte {
 			reading = string(DefaultReading)
 		}
 	}
-	sb.WriteString(ObservationsVersion + "\n")
-	sb.WriteString("unit=" + string(b.Meta.Unit) + "\n")
-	sb.WriteString("reading=" + reading + "\n")
+	bw.WriteString(ObservationsVersion + "\n")
+	bw.WriteString("unit=" + string(b.Meta.Unit) + "\n")
+	bw.WriteString("reading=" + reading + "\n")
+	var num []byte
+	number := func(v float64) {
+		num = appendCanonicalNumber(num[:0], v)
+		bw.Write(num)
+	}
 	for i := range b.Sightings {
 		s := &b.Sightings[i]
 		kind := "mark"
 		if s.TurningPoint {
 			kind = "tp"
 		}
-		upper, lower := "", ""
+		pointEscaper.WriteString(bw, s.Point)
+		bw.WriteByte('\t')
+		bw.WriteString(string(s.Sight))
+		bw.WriteByte('\t')
+		bw.WriteString(kind)
+		bw.WriteByte('\t')
 		if s.ThreeWire {
-			upper, lower = canonicalNumber(s.Upper), canonicalNumber(s.Lower)
+			number(s.Upper)
 		}
-		from, dist := DistanceNone, ""
+		bw.WriteByte('\t')
+		number(s.Middle)
+		bw.WriteByte('\t')
+		if s.ThreeWire {
+			number(s.Lower)
+		}
+		bw.WriteByte('\t')
 		if s.HasDistance() {
-			from, dist = s.DistanceFrom, canonicalNumber(s.Distance)
+			bw.WriteString(string(s.DistanceFrom))
+			bw.WriteByte('\t')
+			number(s.Distance)
+		} else {
+			bw.WriteString(string(DistanceNone))
+			bw.WriteByte('\t')
 		}
-		sb.WriteString(strings.Join([]string{pointEscaper.Replace(s.Point), string(s.Sight), kind,
-			upper, canonicalNumber(s.Middle), lower, string(from), dist}, "\t"))
-		sb.WriteByte('\n')
+		bw.WriteByte('\n')
 	}
-	return []byte(sb.String())
+	bw.Flush()
 }
 
 // ObservationsSHA256 is the SHA-256 of the book's canonical observations
 // (Observations): the fingerprint that tells two books of the same field
-// work apart from two books of different work.
+// work apart from two books of different work. The text is hashed as it
+// is written, never held.
 func (b *Book) ObservationsSHA256() [sha256.Size]byte {
-	return sha256.Sum256(b.Observations())
+	h := sha256.New()
+	b.writeObservations(h)
+	var sum [sha256.Size]byte
+	h.Sum(sum[:0])
+	return sum
 }
 
 var pointEscaper = strings.NewReplacer("%", "%25", "\t", "%09", "\r", "%0D", "\n", "%0A")
@@ -90,8 +124,13 @@ var pointEscaper = strings.NewReplacer("%", "%25", "\t", "%09", "\r", "%0D", "\n
 // canonicalNumber writes v as the shortest decimal that reads back as v,
 // without exponent; negative zero is 0.
 func canonicalNumber(v float64) string {
+	return string(appendCanonicalNumber(nil, v))
+}
+
+// appendCanonicalNumber appends canonicalNumber(v) to b.
+func appendCanonicalNumber(b []byte, v float64) []byte {
 	if v == 0 {
-		return "0"
+		return append(b, '0')
 	}
-	return strconv.FormatFloat(v, 'f', -1, 64)
+	return strconv.AppendFloat(b, v, 'f', -1, 64)
 }

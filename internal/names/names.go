@@ -28,7 +28,22 @@ var folder = cases.Fold()
 
 // Fold returns the form of s by which names are compared: NFKC, then
 // case folded.
-func Fold(s string) string { return folder.String(norm.NFKC.String(s)) }
+func Fold(s string) string {
+	// ASCII, as nearly every designation is: NFKC leaves it as it is and
+	// case folding is lower-casing (Unicode's CaseFolding.txt maps A-Z to
+	// a-z and no other ASCII character), without the transformers' copies.
+	ascii := true
+	for i := 0; i < len(s); i++ {
+		if s[i] >= 0x80 {
+			ascii = false
+			break
+		}
+	}
+	if ascii {
+		return strings.ToLower(s)
+	}
+	return folder.String(norm.NFKC.String(s))
+}
 
 // Same reports whether a and b are the same name once folded.
 func Same(a, b string) bool { return Fold(a) == Fold(b) }

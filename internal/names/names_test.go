@@ -1,7 +1,10 @@
 package names
 
 import (
+	"golang.org/x/text/cases"
+	"golang.org/x/text/unicode/norm"
 	"slices"
+	"strings"
 	"testing"
 )
 
@@ -73,6 +76,25 @@ func TestSpaced(t *testing.T) {
 	} {
 		if got := Spaced(in); got != want {
 			t.Errorf("Spaced(%q) = %v", in, got)
+		}
+	}
+}
+
+// Fold's ASCII path gives what golang.org/x/text's NFKC and case folding
+// give (the reference), for every ASCII character and for designations
+// as registers write them.
+func TestFoldASCIIAsTheReference(t *testing.T) {
+	reference := func(s string) string { return cases.Fold().String(norm.NFKC.String(s)) }
+	var all strings.Builder
+	for c := 0; c < 0x80; c++ {
+		all.WriteByte(byte(c))
+		if got, want := Fold(string(rune(c))), reference(string(rune(c))); got != want {
+			t.Errorf("Fold(%q) = %q, the reference %q", string(rune(c)), got, want)
+		}
+	}
+	for _, s := range []string{all.String(), "TC-0412", "Tallis 1", "MRWB-77", "AB0826X", "tc_0101/b"} {
+		if got, want := Fold(s), reference(s); got != want {
+			t.Errorf("Fold(%q) = %q, the reference %q", s, got, want)
 		}
 	}
 }

@@ -7,11 +7,15 @@ import (
 	"errors"
 	"fmt"
 	"math"
+	"os"
+	"runtime"
+	"runtime/debug"
 	"strings"
 	"testing"
 	"time"
 
 	"cairn/internal/booktest"
+	"cairn/internal/levelbook"
 	"cairn/internal/register"
 	"cairn/internal/registertest"
 	"cairn/internal/store"
@@ -533,4 +537,37 @@ func TestRunHeldIsKeptAndAppendOnly(t *testing.T) {
 		}
 	}
 	b.AssertNothingWritten(t, before)
+}
+
+// BenchmarkRecordLargestBook records one generated loop near the largest
+// book cairn reads (levelbook.MaxBookBytes, 32 MiB): about 300,000
+// setups, 600,000 sightings, over marks already in the register, one run
+// an iteration. peak-MB is the process's peak resident memory during the
+// recordings alone (VmHWM, reset after the register is built).
+func BenchmarkRecordLargestBook(b *testing.B) {
+	l := booktest.Loop{Setups: 20000, Seed: 1}
+	for len(l.Book()) < levelbook.MaxBookBytes*9/10 {
+		l.Setups += 20000
+	}
+	book := l.Book()
+	fx := registertest.Setup(b)
+	fx.Marks(b, l.Marks()...)
+	reg, ctx := fx.Reg, fx.Ctx
+	runtime.GC()
+	debug.FreeOSMemory()
+	if err := os.WriteFile("/proc/self/clear_refs", []byte("5"), 0); err != nil {
+		b.Fatalf("reset the peak resident memory: %v", err)
+	}
+	b.SetBytes(int64(len(book)))
+	b.ReportAllocs()
+	i := 0
+	for b.Loop() {
+		i++
+		p := register.RecordParams{Path: "loop-largest.csv", Book: registertest.SideShot(b, append([]byte(fmt.Sprintf("# x-copy: %d\n", i)), book...), fmt.Sprint(i)), By: "bench"}
+		if _, err := reg.Record(ctx, p); err != nil {
+			b.Fatal(err)
+		}
+	}
+	b.ReportMetric(float64(l.Setups), "setups")
+	b.ReportMetric(peakMB(b), "peak-MB")
 }
