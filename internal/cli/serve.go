@@ -70,6 +70,9 @@ request goes to stderr (the access log).
 			if opts.statementTimeout <= 0 {
 				return badInput("--statement-timeout must be more than zero")
 			}
+			if _, err := web.ParseTiles(opts.tiles); err != nil {
+				return badInput("--tiles: %v", err)
+			}
 			if opts.maxConns < 0 {
 				return badInput("--max-conns must be zero (the driver's default) or more")
 			}
@@ -78,7 +81,7 @@ request goes to stderr (the access log).
 	}
 	fl := cmd.Flags()
 	fl.StringVar(&opts.listen, "listen", "127.0.0.1:8080", "address and port to listen on")
-	fl.StringVar(&opts.tiles, "tiles", "", "URL of a map tile layer (none by default; for the map to come)")
+	fl.StringVar(&opts.tiles, "tiles", "", "URL template of the map's tile layer, with {z}, {x} and {y} (and {s} for subdomains); none by default, so the map needs no other server")
 	fl.StringVar(&opts.statement, "statement", "", "an audit statement FILE (cairn audit head) to show in the footer")
 	fl.BoolVar(&opts.allowWriter, "allow-writer", false, "serve even though the role connected can write to the register (not for a public site)")
 	fl.DurationVar(&opts.statementTimeout, "statement-timeout", 5*time.Second, "longest a database statement of a request may run")
