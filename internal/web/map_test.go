@@ -116,6 +116,12 @@ func TestMapPage(t *testing.T) {
 	if strings.Join(got, " ") != "TC-0413 TC-0414" {
 		t.Errorf("the map's items %v, want TC-0413 TC-0414 (41.63 and 41.64, 556 m from 41.635)", got)
 	}
+	// A revalidation's 304 carries the map's policy too (a browser takes
+	// a 304's headers into the page it keeps, RFC 9111 §4.3.4).
+	if resp, _ := s.get(t, p, "text/html", "If-None-Match", resp.Header.Get("ETag")); resp.StatusCode != http.StatusNotModified ||
+		resp.Header.Get("Content-Security-Policy") != csp {
+		t.Errorf("%s revalidated: %s, CSP %q", p, resp.Status, resp.Header.Get("Content-Security-Policy"))
+	}
 	// Without JavaScript: the form and the list of the same search.
 	if byID(doc, "point") == nil || attr(byID(doc, "list"), "href") != "/search?as_of=2019-06-01&lat=41.635&lon=-97.95&radius_m=1200" {
 		t.Errorf("no form or list link: %s", b)

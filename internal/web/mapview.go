@@ -154,7 +154,6 @@ func (s *Server) mapPage(w http.ResponseWriter, r *http.Request) {
 		s.serverError(w, r, err)
 		return
 	}
-	w.Header().Set("Content-Security-Policy", s.mapCSP())
 	s.page(w, r, st, asOf, "map", "Map of marks · cairn", v)
 }
 

@@ -143,7 +143,14 @@ const ContentSecurityPolicy = "default-src 'none'; script-src 'none'; style-src 
 func (s *Server) secure(next http.Handler) http.Handler {
 	return http.HandlerFunc(func(w http.ResponseWriter, r *http.Request) {
 		h := w.Header()
-		h.Set("Content-Security-Policy", ContentSecurityPolicy)
+		// The map page's policy is set here, not by its handler, so that a
+		// 304 carries it too: a browser takes a 304's headers into the
+		// page it keeps (RFC 9111 §4.3.4).
+		if r.URL.Path == "/map" {
+			h.Set("Content-Security-Policy", s.mapCSP())
+		} else {
+			h.Set("Content-Security-Policy", ContentSecurityPolicy)
+		}
 		h.Set("X-Content-Type-Options", "nosniff")
 		h.Set("X-Frame-Options", "DENY")
 		h.Set("Referrer-Policy", "no-referrer")

@@ -160,8 +160,9 @@
 
   if (d.lat && d.lon && d.radius && d.items) {
     var lat = parseFloat(d.lat), lon = parseFloat(d.lon), radius = parseFloat(d.radius);
+    // The view first: a layer is drawn once the map has one.
+    map.fitBounds(L.latLng(lat, lon).toBounds(2 * radius), { padding: [20, 20] });
     setPoint(lat, lon, radius);
-    map.fitBounds(circle.getBounds(), { padding: [20, 20] });
     say("Loading the marks…");
     load(d.items, lat, lon, radius);
   } else {
