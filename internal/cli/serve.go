@@ -58,12 +58,19 @@ SHA-256; without it the footer says there is no signed statement. A
 statement whose commit this register's chain does not have with the same
 head is refused (the whole proof is cairn audit verify --against FILE).
 
+/map draws the marks near a point on a map (Leaflet, in the binary); the
+map has no background unless --tiles gives a tile URL template, so it
+needs no other server. The site may read a streaming replica (a hot
+standby) while the office writes to the primary (docs/web.md, "Served
+from a replica").
+
 The server stops gracefully on SIGINT or SIGTERM. One line of JSON per
 request goes to stderr (the access log).
 
 ` + cautions,
 		Example: `  cairn serve --db 'postgres://cairn_web@db.example/cairn' --listen 127.0.0.1:8080
-  cairn serve --statement statement.json`,
+  cairn serve --statement statement.json
+  cairn serve --tiles 'https://{s}.tiles.example.org/{z}/{x}/{y}.png'`,
 		Args: exactArgs(0, "no arguments"),
 		RunE: func(cmd *cobra.Command, args []string) error {
 			opts.ctx = cmd.Context()
