@@ -94,6 +94,7 @@ type mapView struct {
 	ListURL          string // the same search as a list, without the map
 	Tiles            string
 	MaxMarks         int
+	AsOf             string // as_of as asked, for the popups' links
 }
 
 // mapPage is the map of marks near a point (lat, lon, radius_m): the
@@ -105,7 +106,7 @@ func (s *Server) mapPage(w http.ResponseWriter, r *http.Request) {
 		return
 	}
 	q := r.URL.Query()
-	v := mapView{Radius: "1000", MaxMarks: MapMaxMarks}
+	v := mapView{Radius: "1000", MaxMarks: MapMaxMarks, AsOf: q.Get("as_of")}
 	if s.tiles != nil {
 		v.Tiles = s.tiles.Template
 	}
