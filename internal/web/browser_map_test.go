@@ -161,8 +161,14 @@ func TestBrowserMap(t *testing.T) {
 		if err1 != nil || err2 != nil || math.Abs(lat-41.635) > 0.002 || !(lon > -97.95+0.002 && lon < -97.95+0.05) {
 			t.Errorf("a click east of the point filled %v, %v (%v %v)", lat, lon, err1, err2)
 		}
+		// The page the form brings is a new document: wait for its map,
+		// not the old one's.
+		if !read(t, ctx, chromedp.Evaluate[bool](`document.body.dataset.before = 'yes'; true`)) {
+			t.Fatal("could not mark the page")
+		}
 		do(t, ctx, shots, "map-clicked-shown",
-			chromedp.Click(chromedp.CSS(`form#point button[type=submit]`)), loaded)
+			chromedp.Click(chromedp.CSS(`form#point button[type=submit]`)),
+			chromedp.WaitReady(chromedp.CSS("body:not([data-before]) #map[data-loaded]")))
 		loc := read(t, ctx, chromedp.Location())
 		if !strings.Contains(loc, "/map?") || !strings.Contains(loc, "lat=41.63") || !strings.Contains(loc, "radius_m=1200") {
 			t.Errorf("the form sent %s", loc)

@@ -106,6 +106,7 @@
   var centre = null;
   var circle = null;
   var count = 0;
+  var cut = false; // more marks within the radius than maxMarks
 
   function setPoint(lat, lon, radius) {
     if (circle) {
@@ -131,11 +132,15 @@
       })
       .then(function (fc) {
         (fc.features || []).forEach(function (f) {
-          if (!f.geometry || f.geometry.type !== "Point" || count >= maxMarks) {
+          if (!f.geometry || f.geometry.type !== "Point") {
             return;
           }
           var ll = L.latLng(f.geometry.coordinates[1], f.geometry.coordinates[0]);
           if (distance(lat, lon, ll.lat, ll.lng) > radius) {
+            return;
+          }
+          if (count >= maxMarks) {
+            cut = true;
             return;
           }
           var m = L.marker(ll, { title: visible(f.id), alt: visible(f.id), keyboard: true });
@@ -144,12 +149,12 @@
           count++;
         });
         var next = (fc.links || []).filter(function (l) { return l.rel === "next"; })[0];
-        if (next && count < maxMarks) {
+        if (next && !cut) {
           load(next.href, lat, lon, radius);
           return;
         }
         say(count + (count === 1 ? " mark" : " marks") + " within " + radius + " m of " + lat + ", " + lon +
-          (next ? " (the first " + maxMarks + " only: narrow the search)" : "") + ".");
+          (cut ? " (only the first " + maxMarks + " by designation: narrow the search)" : "") + ".");
         el.dataset.loaded = String(count);
       })
       .catch(function (err) {
