@@ -58,17 +58,27 @@ SHA-256; without it the footer says there is no signed statement. A
 statement whose commit this register's chain does not have with the same
 head is refused (the whole proof is cairn audit verify --against FILE).
 
+/map draws the marks near a point on a map (Leaflet, in the binary); the
+map has no background unless --tiles gives a tile URL template, so it
+needs no other server. The site may read a streaming replica (a hot
+standby) while the office writes to the primary (docs/web.md, "Served
+from a replica").
+
 The server stops gracefully on SIGINT or SIGTERM. One line of JSON per
 request goes to stderr (the access log).
 
 ` + cautions,
 		Example: `  cairn serve --db 'postgres://cairn_web@db.example/cairn' --listen 127.0.0.1:8080
-  cairn serve --statement statement.json`,
+  cairn serve --statement statement.json
+  cairn serve --tiles 'https://{s}.tiles.example.org/{z}/{x}/{y}.png'`,
 		Args: exactArgs(0, "no arguments"),
 		RunE: func(cmd *cobra.Command, args []string) error {
 			opts.ctx = cmd.Context()
 			if opts.statementTimeout <= 0 {
 				return badInput("--statement-timeout must be more than zero")
+			}
+			if _, err := web.ParseTiles(opts.tiles); err != nil {
+				return badInput("--tiles: %v", err)
 			}
 			if opts.maxConns < 0 {
 				return badInput("--max-conns must be zero (the driver's default) or more")
@@ -78,7 +88,7 @@ request goes to stderr (the access log).
 	}
 	fl := cmd.Flags()
 	fl.StringVar(&opts.listen, "listen", "127.0.0.1:8080", "address and port to listen on")
-	fl.StringVar(&opts.tiles, "tiles", "", "URL of a map tile layer (none by default; for the map to come)")
+	fl.StringVar(&opts.tiles, "tiles", "", "URL template of the map's tile layer, with {z}, {x} and {y} (and {s} for subdomains); none by default, so the map needs no other server")
 	fl.StringVar(&opts.statement, "statement", "", "an audit statement FILE (cairn audit head) to show in the footer")
 	fl.BoolVar(&opts.allowWriter, "allow-writer", false, "serve even though the role connected can write to the register (not for a public site)")
 	fl.DurationVar(&opts.statementTimeout, "statement-timeout", 5*time.Second, "longest a database statement of a request may run")

@@ -174,7 +174,8 @@ func TestServeFlags(t *testing.T) {
 	if err := execCmd(newCmdServe(f, func(o *serveOptions) error { got = o; return nil })); err != nil || got.listen != "127.0.0.1:8080" || got.allowWriter {
 		t.Errorf("defaults: %v %+v", err, got)
 	}
-	for _, args := range [][]string{{"--statement-timeout", "0s"}, {"--max-conns", "-1"}, {"extra"}} {
+	for _, args := range [][]string{{"--statement-timeout", "0s"}, {"--max-conns", "-1"}, {"extra"},
+		{"--tiles", "https://tiles.example/{z}/{x}.png"}, {"--tiles", "https://tiles.example/{z}/{x}/{y}.png; script-src *"}} {
 		called := false
 		err := execCmd(newCmdServe(f, func(*serveOptions) error { called = true; return nil }), args...)
 		if err == nil || called || exitCode(err) != ExitBadInput {

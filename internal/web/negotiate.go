@@ -19,7 +19,7 @@ const (
 // (GeoJSON for features) unless HTML is asked for.
 func pathFormats(path string) []format {
 	switch {
-	case path == "/search", strings.HasPrefix(path, "/marks/"), strings.HasPrefix(path, "/static/"):
+	case path == "/search", path == "/map", strings.HasPrefix(path, "/marks/"), strings.HasPrefix(path, "/static/"):
 		return []format{formatHTML}
 	}
 	return []format{formatJSON, formatHTML}

@@ -45,7 +45,8 @@ func (s *Server) routes() {
 	m.HandleFunc("GET /collections/{id}", s.collection)
 	m.HandleFunc("GET /collections/{id}/items", s.items)
 	m.HandleFunc("GET /collections/{id}/items/{designation...}", s.item)
-	m.HandleFunc("GET /static/{file}", s.static)
+	m.HandleFunc("GET /map", s.mapPage)
+	m.HandleFunc("GET /static/{file...}", s.static)
 	m.HandleFunc("/", func(w http.ResponseWriter, r *http.Request) {
 		s.fail(w, r, http.StatusNotFound, "no such page on this site")
 	})

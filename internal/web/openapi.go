@@ -59,6 +59,11 @@ func (s *Server) openAPI() map[string]any {
 				map[string]any{"name": "lon", "in": "query", "required": false, "schema": map[string]any{"type": "number", "minimum": -180, "maximum": 180}},
 				map[string]any{"name": "radius_m", "in": "query", "required": false, "schema": map[string]any{"type": "number", "exclusiveMinimum": true, "minimum": 0, "maximum": 100000}},
 				ref("as_of")}, content("text/html"), "304", "400", "414", "500"),
+			"/map": op("getMap", "The map of the marks near a point (HTML; the marks are drawn from the items)", []any{
+				map[string]any{"name": "lat", "in": "query", "required": false, "schema": map[string]any{"type": "number", "minimum": -90, "maximum": 90}},
+				map[string]any{"name": "lon", "in": "query", "required": false, "schema": map[string]any{"type": "number", "minimum": -180, "maximum": 180}},
+				map[string]any{"name": "radius_m", "in": "query", "required": false, "schema": map[string]any{"type": "number", "exclusiveMinimum": true, "minimum": 0, "maximum": 100000}},
+				ref("as_of")}, content("text/html"), "304", "400", "414", "500"),
 			"/marks/{designation}": op("getMarkPage", "A mark's datasheet with its history (HTML)", []any{
 				map[string]any{"name": "designation", "in": "path", "required": true, "schema": map[string]any{"type": "string"}},
 				ref("as_of")}, content("text/html"), "304", "400", "404", "414", "500"),

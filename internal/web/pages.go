@@ -26,7 +26,7 @@ var templateFiles embed.FS
 var siteCSS []byte
 
 // pageNames are the pages, each a template file defining "content".
-var pageNames = []string{"home", "search", "mark", "items", "conformance", "collections", "collection", "api", "error"}
+var pageNames = []string{"home", "search", "map", "mark", "items", "conformance", "collections", "collection", "api", "error"}
 
 var pages = func() map[string]*template.Template {
 	funcs := template.FuncMap{
@@ -70,6 +70,8 @@ type pageData struct {
 	Statement  *Statement
 	Cautions   []string
 	Data       any
+	// Map loads Leaflet and the map's script (the map page only).
+	Map bool
 }
 
 // page writes the page name with data around it, with the ETag of state
@@ -100,7 +102,7 @@ func (s *Server) writeHTML(w http.ResponseWriter, r *http.Request, status int, b
 func (s *Server) render(r *http.Request, st register.RegisterState, asOf *time.Time, name, title string, data any, links ...link) ([]byte, error) {
 	q := r.URL.Query()
 	d := pageData{Title: title, Path: r.URL.Path, AsOf: asOf, State: st, Statement: s.cfg.Statement,
-		Cautions: sheetdata.CautionSentences(), Data: data, Links: links}
+		Cautions: sheetdata.CautionSentences(), Data: data, Links: links, Map: name == "map"}
 	rest := url.Values{}
 	keys := make([]string, 0, len(q))
 	for k := range q {
@@ -166,32 +168,51 @@ func (s *Server) errorPage(w http.ResponseWriter, r *http.Request, status int, m
 	s.writeHTML(w, r, status, b)
 }
 
-// static serves the stylesheets.
+var (
+	siteCSSFile  = newStatic(siteCSS, "text/css; charset=utf-8")
+	sheetCSSFile = newStatic([]byte(sheet.CSS), "text/css; charset=utf-8")
+)
+
+// static serves the stylesheets, Leaflet's files and the map's script.
+// Their ETag is a digest of their bytes, not the register's state: they
+// change only with cairn, so a browser or a CDN keeps them across the
+// register's commits.
 func (s *Server) static(w http.ResponseWriter, r *http.Request) {
 	if len(r.URL.RawQuery) > 0 {
-		s.fail(w, r, http.StatusBadRequest, "a stylesheet takes no parameter")
+		s.fail(w, r, http.StatusBadRequest, "a static file takes no parameter")
 		return
 	}
-	var b []byte
-	switch r.PathValue("file") {
+	name := r.PathValue("file")
+	f, ok := staticFiles[name]
+	switch name {
 	case "site.css":
-		b = siteCSS
+		f, ok = siteCSSFile, true
 	case "sheet.css":
-		b = []byte(sheet.CSS)
-	default:
+		f, ok = sheetCSSFile, true
+	}
+	if !ok {
 		s.fail(w, r, http.StatusNotFound, "no such file")
 		return
 	}
-	w.Header().Set("Content-Type", "text/css; charset=utf-8")
-	w.Header().Set("Content-Length", strconv.Itoa(len(b)))
+	h := w.Header()
+	h.Set("ETag", f.etag)
+	h.Del("Vary")
+	h.Set("Cache-Control", "public, max-age=3600")
+	if inm := r.Header.Get("If-None-Match"); inm != "" && matchesETag(inm, f.etag) {
+		w.WriteHeader(http.StatusNotModified)
+		return
+	}
+	h.Set("Content-Type", f.contentType)
+	h.Set("Content-Length", strconv.Itoa(len(f.body)))
 	if r.Method != http.MethodHead {
-		_, _ = w.Write(b)
+		_, _ = w.Write(f.body)
 	}
 }
 
 // searchView is the search's page.
 type searchView struct {
 	Asked    string
+	MapURL   string // the same point on the map, for a point search
 	Features []register.Feature
 	More     bool
 }
@@ -209,6 +230,7 @@ func (s *Server) search(w http.ResponseWriter, r *http.Request) {
 	q := r.URL.Query()
 	p := register.SearchParams{Name: q.Get("q"), AsOf: asOf, Limit: searchLimit}
 	var asked []string
+	var mapURL string
 	if p.Name != "" {
 		if len(p.Name) > 200 {
 			s.error(w, r, badParam("q", "%d characters: a name is at most 200", len(p.Name)))
@@ -232,6 +254,11 @@ func (s *Server) search(w http.ResponseWriter, r *http.Request) {
 			return
 		}
 		p.Near = &ll
+		mq := url.Values{"lat": {q.Get("lat")}, "lon": {q.Get("lon")}, "radius_m": {q.Get("radius_m")}}
+		if a := q.Get("as_of"); a != "" {
+			mq.Set("as_of", a)
+		}
+		mapURL = withQuery("/map", mq)
 		asked = append(asked, fmt.Sprintf("within %s m of %s, %s (nearest first)", units.Format(p.RadiusM, 1),
 			strconv.FormatFloat(ll.Lat, 'f', -1, 64), strconv.FormatFloat(ll.Lon, 'f', -1, 64)))
 	}
@@ -241,7 +268,7 @@ func (s *Server) search(w http.ResponseWriter, r *http.Request) {
 		return
 	}
 	s.page(w, r, res.State, asOf, "search", "Marks found · cairn",
-		searchView{Asked: "Marks " + strings.Join(asked, " and ") + ":", Features: res.Features, More: res.More})
+		searchView{Asked: "Marks " + strings.Join(asked, " and ") + ":", MapURL: mapURL, Features: res.Features, More: res.More})
 }
 
 // banner is a loud warning at the top of a mark's page.

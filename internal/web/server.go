@@ -58,8 +58,8 @@ type Config struct {
 	// Statement is the audit statement to show; nil: "no signed
 	// statement".
 	Statement *Statement
-	// Tiles is the tile layer's URL for a map (not drawn yet; kept for the
-	// map page to come).
+	// Tiles is the map's tile layer, a URL template with {z}, {x} and {y}
+	// (ParseTiles); "" draws none, so that the map needs no other server.
 	Tiles   string
 	Version string
 	Logger  *slog.Logger
@@ -71,6 +71,7 @@ type Server struct {
 	log   *slog.Logger
 	mux   *http.ServeMux
 	build string // what, beside the register's state, shapes a response
+	tiles *TileSource
 }
 
 // New returns the site over cfg.
@@ -85,6 +86,11 @@ func New(cfg Config) *Server {
 		fmt.Fprintf(b, "statement %s\n", st.SHA256)
 	}
 	s.build = hex.EncodeToString(b.Sum(nil))[:12]
+	if t, err := ParseTiles(cfg.Tiles); err != nil {
+		s.log.Error("no tile layer on the map", "err", err.Error())
+	} else {
+		s.tiles = t
+	}
 	s.routes()
 	return s
 }
@@ -128,7 +134,8 @@ func (s *Server) Run(ctx context.Context, ln net.Listener, grace time.Duration) 
 
 // ContentSecurityPolicy allows the site's own stylesheets and images (and
 // photographs as data: URLs), no script from anywhere, no frame around
-// it, forms to itself only.
+// it, forms to itself only. The map page alone runs script, the site's
+// own files only (mapCSP).
 const ContentSecurityPolicy = "default-src 'none'; script-src 'none'; style-src 'self'; img-src 'self' data:; " +
 	"form-action 'self'; frame-ancestors 'none'; base-uri 'none'"
 
@@ -136,7 +143,14 @@ const ContentSecurityPolicy = "default-src 'none'; script-src 'none'; style-src 
 func (s *Server) secure(next http.Handler) http.Handler {
 	return http.HandlerFunc(func(w http.ResponseWriter, r *http.Request) {
 		h := w.Header()
-		h.Set("Content-Security-Policy", ContentSecurityPolicy)
+		// The map page's policy is set here, not by its handler, so that a
+		// 304 carries it too: a browser takes a 304's headers into the
+		// page it keeps (RFC 9111 §4.3.4).
+		if r.URL.Path == "/map" {
+			h.Set("Content-Security-Policy", s.mapCSP())
+		} else {
+			h.Set("Content-Security-Policy", ContentSecurityPolicy)
+		}
 		h.Set("X-Content-Type-Options", "nosniff")
 		h.Set("X-Frame-Options", "DENY")
 		h.Set("Referrer-Policy", "no-referrer")
