@@ -1,9 +1,31 @@
-# Writes mark.sql and bbox.sql from stmts.json: the statements of one mark
-# page and one bbox query that cairn serve sent (the PostgreSQL log of a
-# serve whose --db URL had log_statement=all, parsed into [sql, params]
-# pairs). Kept so that the scripts can be made again when the queries change.
-import json,re
-st=json.load(open('stmts.json'))
+# Writes mark.sql and bbox.sql, the pgbench scripts of the floor, from the
+# PostgreSQL server log of one cairn serve whose --db URL named the
+# database cairn_load_small and had log_statement=all, and which answered
+# one mark page (/marks/TC-0000123) and then one bbox query
+# (/collections/marks/items?bbox=-108,40,-107.95,40.05&limit=100&f=json):
+#   python3 from-log.py postgresql.log
+# The statements' indexes below are their places in that session's log.
+import re,json,sys
+lines=open(sys.argv[1]).read().split('\n')
+ents=[];cur=None;mine=False
+for l in lines:
+    m=re.match(r'^\d{4}-\d\d-\d\d \S+ UTC \[\d+\] (\S+) (LOG|DETAIL|ERROR|STATEMENT):  (.*)$',l)
+    if m:
+        mine = m.group(1).endswith('@cairn_load_small')
+        if not mine: cur=None; continue
+        if m.group(2)=='LOG':
+            cur={'sql':m.group(3),'params':None}; ents.append(cur)
+        elif m.group(2)=='DETAIL' and cur: cur['params']=m.group(3)
+    elif re.match(r'^\d{4}-\d\d-\d\d ',l):
+        mine=False; cur=None
+    elif cur is not None and mine:
+        if cur['params'] is None: cur['sql']+='\n'+l
+        else: cur['params']+='\n'+l
+out=[]
+for e in ents:
+    s=re.sub(r'^execute \S+: ','',e['sql']); s=re.sub(r'^statement: ','',s)
+    out.append((s,e['params']))
+st=out
 def sub(sql, params):
     for k in sorted(params, key=lambda k:-k):
         sql=sql.replace('$%d'%k, params[k])
@@ -17,7 +39,9 @@ hdr='''-- %s
 -- kind (taken from the server's statement log, log_statement = all, on
 -- 2026-12-03), its parameters made pgbench variables, for the floor of
 -- docs/performance.md ("The register on the web under load"). Run with
--- -M prepared (pgx prepares and caches its statements too) and, for
+-- -M prepared (pgx prepares and caches its statements too), the sessions
+-- as serve opens them (PGOPTIONS='-c jit=off -c default_transaction_read_only=on')
+-- and, for
 -- cairn_national_1m's invented marks TC-0000000 ... (mark id = number + 1):
 --   %s
 '''
@@ -61,4 +85,3 @@ for i in (58,59,60):
     b.append(clean(sub(st[i][0],p))+';')
 b.append('COMMIT;')
 open('bbox.sql','w').write('\n'.join(b)+'\n')
-print(st[58][1][-80:])
