@@ -118,7 +118,7 @@ func serveRun(opts *serveOptions) error {
 		return err
 	}
 	pool, err := store.OpenWith(ctx, url, store.PoolOptions{StatementTimeout: opts.statementTimeout, ReadOnly: true,
-		MaxConns: opts.maxConns, ApplicationName: "cairn serve"})
+		MaxConns: opts.maxConns, ApplicationName: "cairn serve", NoJIT: true})
 	if err != nil {
 		return fmt.Errorf("open register (%s): %w", opts.f.Source().From, err)
 	}

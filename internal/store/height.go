@@ -81,9 +81,18 @@ const heightInForce = "coalesce(h.in_force_from, rc.committed_at, h.recorded_at)
 // recorded, before this commit). The database holds both premises: a
 // version's in-force time is never after its write time (schema v17), and
 // a chain's versions are committed in version order.
+//
+// The two look-ups of h's successor end in OFFSET 0 so that each stays a
+// probe of the unique index on supersedes: without it PostgreSQL may
+// plan the EXISTS as a hashed subplan, which reads the whole height table
+// to build its hash for every statement (sections 9.23.1 and 7.6 of the
+// PostgreSQL 15 documentation, EXISTS and OFFSET; that an OFFSET keeps a
+// subquery from being flattened or rewritten is common practice). At
+// 100,000 versions that scan was 28 ms of every page of marks; at
+// 5,000,000, seconds (docs/performance.md).
 const heightCurrent = `CASE
-		WHEN EXISTS (SELECT 1 FROM height x WHERE x.supersedes = h.id AND x.in_force_from IS NULL) THEN false
-		WHEN h.in_force_from IS NULL AND NOT EXISTS (SELECT 1 FROM height x WHERE x.supersedes = h.id) THEN true
+		WHEN EXISTS (SELECT 1 FROM height x WHERE x.supersedes = h.id AND x.in_force_from IS NULL OFFSET 0) THEN false
+		WHEN h.in_force_from IS NULL AND NOT EXISTS (SELECT 1 FROM height x WHERE x.supersedes = h.id OFFSET 0) THEN true
 		ELSE NOT EXISTS (SELECT 1 FROM height s LEFT JOIN register_commit sc ON sc.xid = s.created_xid
 			WHERE s.mark_id = h.mark_id AND s.datum_id = h.datum_id AND s.id <> h.id
 			  AND (coalesce(s.in_force_from, sc.committed_at, s.recorded_at), s.version) > (` + heightInForce + `, h.version))

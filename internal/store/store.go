@@ -43,6 +43,13 @@ type PoolOptions struct {
 	MaxConns int32
 	// ApplicationName names the sessions in pg_stat_activity.
 	ApplicationName string
+	// NoJIT turns the server's JIT compilation off for the pool's sessions
+	// (jit = off). A site's statements each read a few dozen rows by
+	// index; the planner's cost estimate of some (the in-force test's
+	// subqueries) passes jit_above_cost, and compiling them took 35-55 ms
+	// of a statement that runs in 2.5 ms (docs/performance.md, the register
+	// on the web under load).
+	NoJIT bool
 }
 
 // OpenWith is Open with the sessions shaped by o.
@@ -57,6 +64,9 @@ func OpenWith(ctx context.Context, url string, o PoolOptions) (*pgxpool.Pool, er
 	}
 	if o.ReadOnly {
 		cfg.ConnConfig.RuntimeParams["default_transaction_read_only"] = "on"
+	}
+	if o.NoJIT {
+		cfg.ConnConfig.RuntimeParams["jit"] = "off"
 	}
 	if o.MaxConns > 0 {
 		cfg.MaxConns = o.MaxConns
