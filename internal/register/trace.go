@@ -69,12 +69,25 @@ type TraceAdjustment struct {
 // leads to its adjustment, the adjustment to its runs and to the versions it
 // held, and those to their own derivations, down to outside sources.
 func (r *Register) Trace(ctx context.Context, p TraceParams) (*Trace, error) {
-	t := &Trace{AsOf: AsOfOrKnown(p.AsOf, p.KnownAt), KnownAt: p.KnownAt}
+	var t *Trace
 	err := r.withTx(ctx, readTx, func(tx pgx.Tx) error {
-		var err error
-		if t.Mark, err = r.mark(ctx, tx, "designation", p.Designation, false); err != nil {
+		m, err := r.mark(ctx, tx, "designation", p.Designation, false)
+		if err != nil {
 			return err
 		}
+		t, err = r.trace(ctx, tx, m, p)
+		return err
+	})
+	if err != nil {
+		return nil, fmt.Errorf("trace %s: %w", p.Designation, err)
+	}
+	return t, nil
+}
+
+// trace is Trace of mark m in tx.
+func (r *Register) trace(ctx context.Context, tx pgx.Tx, m store.Mark, p TraceParams) (*Trace, error) {
+	t := &Trace{Mark: m, AsOf: AsOfOrKnown(p.AsOf, p.KnownAt), KnownAt: p.KnownAt}
+	err := func() error {
 		q := store.HeightAsOfParams{MarkID: t.Mark.ID, AsOf: t.AsOf, KnownAt: p.KnownAt}
 		if p.Datum != "" {
 			d, err := r.datum(ctx, tx, "datum", p.Datum)
@@ -106,11 +119,8 @@ func (r *Register) Trace(ctx context.Context, p TraceParams) (*Trace, error) {
 			t.Versions = append(t.Versions, n)
 		}
 		return traceDoubts(ctx, tx, t)
-	})
-	if err != nil {
-		return nil, fmt.Errorf("trace %s: %w", p.Designation, err)
-	}
-	return t, nil
+	}()
+	return t, err
 }
 
 // traceVersion builds the derivation of h. Held versions are always older

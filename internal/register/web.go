@@ -83,6 +83,32 @@ func publicMark(ctx context.Context, tx pgx.Tx, name string) (store.Mark, error)
 	return m, nil
 }
 
+// TracePage reads a mark's trace (as Trace, the heights in force at asOf,
+// nil for now, on every datum) and the register state in one snapshot.
+// The name may be an alias (Mark.FoundBy says so).
+func (r *Register) TracePage(ctx context.Context, name string, asOf *time.Time) (RegisterState, *Trace, error) {
+	var st RegisterState
+	var t *Trace
+	err := r.withTx(ctx, readTx, func(tx pgx.Tx) error {
+		var err error
+		if st, err = registerState(ctx, tx); err != nil {
+			return err
+		}
+		m, err := publicMark(ctx, tx, name)
+		if err != nil {
+			return err
+		}
+		t, err = r.trace(ctx, tx, m, TraceParams{Designation: m.Designation, AsOf: asOf})
+		var ie *InputError
+		if errors.As(err, &ie) && ie.Field == "designation" {
+			// No height in force then: a page that says so, not an error.
+			t, err = &Trace{Mark: m, AsOf: asOf}, nil
+		}
+		return err
+	})
+	return st, t, err
+}
+
 // MarkPageView is a mark's page: its datasheet at an instant and every
 // version of its heights, from one snapshot.
 type MarkPageView struct {

@@ -39,6 +39,7 @@ func (s *Server) routes() {
 	m.HandleFunc("GET /{$}", s.landing)
 	m.HandleFunc("GET /search", s.search)
 	m.HandleFunc("GET /marks/{designation...}", s.markPage)
+	m.HandleFunc("GET /trace/{designation...}", s.tracePage)
 	m.HandleFunc("GET /conformance", s.conformance)
 	m.HandleFunc("GET /api", s.api)
 	m.HandleFunc("GET /collections", s.collections)

@@ -84,7 +84,7 @@ func TestAPIDefinition(t *testing.T) {
 		t.Errorf("/req/oas30/oas-definition-1: openapi %q", doc.OpenAPI)
 	}
 	for _, p := range []string{"/", "/conformance", "/api", "/collections", "/collections/{collectionId}",
-		"/collections/{collectionId}/items", "/collections/{collectionId}/items/{featureId}", "/search", "/map", "/marks/{designation}"} {
+		"/collections/{collectionId}/items", "/collections/{collectionId}/items/{featureId}", "/search", "/map", "/marks/{designation}", "/trace/{designation}"} {
 		if _, ok := doc.Paths[p]["get"]; !ok {
 			t.Errorf("/req/oas30/completeness: no GET %s", p)
 		}

@@ -67,6 +67,9 @@ func (s *Server) openAPI() map[string]any {
 			"/marks/{designation}": op("getMarkPage", "A mark's datasheet with its history (HTML)", []any{
 				map[string]any{"name": "designation", "in": "path", "required": true, "schema": map[string]any{"type": "string"}},
 				ref("as_of")}, content("text/html"), "304", "400", "404", "414", "500"),
+			"/trace/{designation}": op("getTracePage", "How each height of a mark in force was derived (HTML)", []any{
+				map[string]any{"name": "designation", "in": "path", "required": true, "schema": map[string]any{"type": "string"}},
+				ref("as_of")}, content("text/html"), "304", "400", "404", "414", "500"),
 		},
 		"components": map[string]any{
 			"parameters": map[string]any{

@@ -26,7 +26,7 @@ var templateFiles embed.FS
 var siteCSS []byte
 
 // pageNames are the pages, each a template file defining "content".
-var pageNames = []string{"home", "search", "map", "mark", "items", "conformance", "collections", "collection", "api", "error"}
+var pageNames = []string{"home", "search", "map", "mark", "trace", "items", "conformance", "collections", "collection", "api", "error"}
 
 var pages = func() map[string]*template.Template {
 	funcs := template.FuncMap{
@@ -284,11 +284,12 @@ type historyRow struct {
 
 // markView is a mark's page.
 type markView struct {
-	Banners []banner
-	FoundBy string
-	Sheet   template.HTML
-	History []historyRow
-	JSONURL string
+	Banners  []banner
+	FoundBy  string
+	Sheet    template.HTML
+	History  []historyRow
+	JSONURL  string
+	TraceURL string
 }
 
 // markPage is a mark's datasheet (internal/sheet) with the history of
@@ -316,6 +317,7 @@ func (s *Server) markPage(w http.ResponseWriter, r *http.Request) {
 		return
 	}
 	mv := markView{FoundBy: visible(m.FoundBy), Sheet: template.HTML(body.String()), // html/template escaped it (sheet.Body)
+		TraceURL: withQuery("/trace/"+url.PathEscape(m.Designation), asOfQuery(r)),
 		JSONURL: withQuery("/collections/"+collectionID+"/items/"+url.PathEscape(m.Designation), func() url.Values {
 			q := asOfQuery(r)
 			q.Set("f", "json")
@@ -358,6 +360,89 @@ func (s *Server) markPage(w http.ResponseWriter, r *http.Request) {
 		mv.History = append(mv.History, row)
 	}
 	s.page(w, r, v.State, asOf, "mark", "Mark "+m.Designation+" · cairn", mv)
+}
+
+// traceNode is a version of a trace as the page shows it, its text made
+// visible (hidden characters shown), html/template escaping the rest.
+type traceNode struct {
+	Datum, Value, Provenance, InForceFrom, Recorded, Source, Reason string
+	Version                                                         int
+	Doubts                                                          []string
+	Import                                                          string
+	Repeated                                                        bool
+	Adjustment                                                      string
+	Runs                                                            []string
+	Held                                                            []traceNode
+}
+
+type traceView struct {
+	Banners     []banner
+	Designation string
+	When        string
+	Versions    []traceNode
+	MarkURL     string
+}
+
+func toTraceNode(v *register.TraceVersion, doubts register.Doubts) traceNode {
+	n := traceNode{Datum: v.DatumCode, Version: v.Version, Value: "withdrawn", Provenance: v.SourceKind,
+		InForceFrom: v.InForceFrom.UTC().Format(time.RFC3339), Recorded: v.CommittedAt.UTC().Format(time.RFC3339),
+		Source: visible(sheetdata.SourceShown(v.SourceKind, v.Source)), Reason: visible(v.Reason), Repeated: v.Repeated}
+	if v.Value != nil {
+		n.Value = *v.Value + " " + *v.Unit
+	}
+	for _, d := range doubts.Of(v.DatumCode, v.Version) {
+		if d.Datum != "" {
+			n.Doubts = append(n.Doubts, d.Word)
+		}
+	}
+	if v.Import != nil {
+		n.Import = strconv.FormatInt(v.Import.ID, 10) + " of " + v.Import.RecordedAt.UTC().Format("2006-01-02") + " by " + visible(v.Import.RecordedBy)
+	}
+	if a := v.Adjustment; a != nil {
+		n.Adjustment = strconv.FormatInt(a.ID, 10) + " (" + a.Method + ")"
+		for _, r := range a.Runs {
+			n.Runs = append(n.Runs, strconv.FormatInt(r.ID, 10)+" ("+visible(r.FileName)+")")
+		}
+		for _, h := range a.Held {
+			n.Held = append(n.Held, toTraceNode(h, nil))
+		}
+	}
+	return n
+}
+
+// tracePage is a mark's trace: how each height in force was derived.
+func (s *Server) tracePage(w http.ResponseWriter, r *http.Request) {
+	_, asOf, ok := s.begin(w, r, "as_of")
+	if !ok {
+		return
+	}
+	name := r.PathValue("designation")
+	st, t, err := s.cfg.Register.TracePage(r.Context(), name, asOf)
+	if err != nil {
+		s.error(w, r, err)
+		return
+	}
+	m := t.Mark
+	if m.Designation != name {
+		http.Redirect(w, r, withQuery("/trace/"+url.PathEscape(m.Designation), r.URL.Query()), http.StatusFound)
+		return
+	}
+	tv := traceView{Designation: visible(m.Designation), When: "now",
+		MarkURL: withQuery("/marks/"+url.PathEscape(m.Designation), asOfQuery(r))}
+	if asOf != nil {
+		tv.When = "on " + asOf.UTC().Format(time.RFC3339)
+	}
+	seen := map[string]bool{}
+	for _, dt := range t.Doubts {
+		if txt := dt.Warning(); !seen[txt] {
+			seen[txt] = true
+			tv.Banners = append(tv.Banners, banner{Word: strings.ToUpper(strings.ReplaceAll(dt.Word, "-", " ")), Text: visible(txt)})
+		}
+	}
+	for _, v := range t.Versions {
+		tv.Versions = append(tv.Versions, toTraceNode(v, t.Doubts))
+	}
+	s.page(w, r, st, asOf, "trace", "Trace of "+m.Designation+" · cairn", tv)
 }
 
 // conditionText is a mark's latest condition in words.

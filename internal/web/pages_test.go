@@ -18,7 +18,7 @@ import (
 var allPaths = []string{"/", "/?f=json", "/search?q=TC-0412", "/search?lat=41.62&lon=-97.95&radius_m=2000", "/marks/TC-0412",
 	"/marks/TC-0413?as_of=2019-06-01", "/conformance", "/api", "/collections", "/collections/marks", "/collections/marks/items",
 	"/collections/marks/items?f=html", "/collections/marks/items/TC-0414", "/static/site.css", "/static/sheet.css",
-	"/nothing-here", "/marks/TC-9999", "/collections/marks/items?limit=0"}
+	"/nothing-here", "/marks/TC-9999", "/collections/marks/items?limit=0", "/trace/TC-0412", "/trace/TC-0413?as_of=2019-06-01"}
 
 // Every response, a refusal too, carries the security headers: a
 // Content-Security-Policy that runs no script at all (so no inline one)
@@ -177,6 +177,58 @@ func TestMarkPage(t *testing.T) {
 	resp, b := s.get(t, "/marks/TC-9999", "text/html")
 	if resp.StatusCode != http.StatusNotFound || !strings.Contains(string(b), "licensed surveyor") || !strings.Contains(string(b), "TC-9999") {
 		t.Errorf("an unknown mark: %s %.300s", resp.Status, b)
+	}
+}
+
+// A mark's trace: each height in force leads to its source, the page
+// links back to the mark and the mark's page links to it, as_of kept; an
+// earlier date traces the version in force then; a doubt is a banner; the
+// cautions are there; an alias redirects; a mark with no height in force
+// then says so.
+func TestTracePage(t *testing.T) {
+	t.Parallel()
+	s := newSite(t)
+	_, doc, _ := s.getHTML(t, "/marks/TC-0412?as_of=2019-06-01")
+	linked := false
+	for _, a := range elements(doc, "a") {
+		if attr(a, "href") == "/trace/TC-0412?as_of=2019-06-01" {
+			linked = true
+		}
+	}
+	if !linked {
+		t.Errorf("TC-0412's page links not to its trace as of the same date")
+	}
+	_, doc, _ = s.getHTML(t, "/trace/TC-0412")
+	txt := text(doc)
+	for _, w := range append([]string{"How the heights of TC-0412 were derived", "NAVD88 version 2", "101.240 m", "source:", "Back to the mark's page"}, cautionWords...) {
+		if !strings.Contains(txt, w) {
+			t.Errorf("TC-0412's trace lacks %q:\n%s", w, txt)
+		}
+	}
+	if strings.Contains(txt, "101.234") {
+		t.Errorf("TC-0412's trace now shows the version of 2015: %s", txt)
+	}
+	_, doc, _ = s.getHTML(t, "/trace/TC-0412?as_of=2019-06-01")
+	if txt := text(doc); !strings.Contains(txt, "NAVD88 version 1") || !strings.Contains(txt, "101.234 m") || strings.Contains(txt, "101.240") {
+		t.Errorf("TC-0412's trace as of 2019-06-01: %s", txt)
+	}
+	_, doc, _ = s.getHTML(t, "/trace/TC-0413")
+	found := false
+	for _, d := range elements(doc, "div") {
+		if attr(d, "class") == "banner" && strings.HasPrefix(text(d), "DISTURBED ") {
+			found = true
+		}
+	}
+	if !found {
+		t.Errorf("TC-0413's trace has no DISTURBED banner")
+	}
+	_, doc, _ = s.getHTML(t, "/trace/TC-0412?as_of=2010-01-01")
+	if txt := text(doc); !strings.Contains(txt, "No height of this mark is in force on 2010-01-01") {
+		t.Errorf("TC-0412's trace before its first height: %s", txt)
+	}
+	resp, _ := s.get(t, "/trace/Mere%20Post%207", "")
+	if resp.StatusCode != http.StatusFound || resp.Header.Get("Location") != "/trace/TC-0412" {
+		t.Errorf("an alias: %s %q", resp.Status, resp.Header.Get("Location"))
 	}
 }
 
