@@ -1,0 +1,73 @@
+package nationalgen_test
+
+import (
+	"bytes"
+	"encoding/csv"
+	"os"
+	"path/filepath"
+	"strconv"
+	"testing"
+	"time"
+
+	"cairn/internal/nationalgen"
+	"cairn/internal/register"
+	"cairn/internal/registertest"
+)
+
+// The generated register: the same count and seed give the same bytes;
+// every position lies in the region; `cairn import`'s use case takes the
+// files whole (marks, reports and five versions a mark, in recorded
+// order), the evidence and the hash chains verify, and a mark's height in
+// force in 2000 is its 1994 version.
+func TestGeneratedRegisterImports(t *testing.T) {
+	t.Parallel()
+	const n = 1200
+	a, b := t.TempDir(), t.TempDir()
+	lay, err := nationalgen.Write(a, n, 7)
+	if err != nil || lay != (nationalgen.Layout{Marks: n, Conditions: 3 * n, Heights: 5 * n}) {
+		t.Fatalf("Write: %+v %v", lay, err)
+	}
+	if _, err := nationalgen.Write(b, n, 7); err != nil {
+		t.Fatal(err)
+	}
+	for _, f := range []string{"marks.csv", "conditions.csv", "heights.csv"} {
+		x, _ := os.ReadFile(filepath.Join(a, f))
+		y, _ := os.ReadFile(filepath.Join(b, f))
+		if !bytes.Equal(x, y) {
+			t.Errorf("%s differs between two runs of the same seed", f)
+		}
+	}
+	marks, err := os.ReadFile(filepath.Join(a, "marks.csv"))
+	if err != nil {
+		t.Fatal(err)
+	}
+	recs, err := csv.NewReader(bytes.NewReader(marks)).ReadAll()
+	if err != nil || len(recs) != n+1 {
+		t.Fatalf("marks.csv: %v, %d records", err, len(recs))
+	}
+	for _, r := range recs[1:] {
+		lat, _ := strconv.ParseFloat(r[6], 64)
+		lon, _ := strconv.ParseFloat(r[7], 64)
+		if lat < nationalgen.Region.South || lat > nationalgen.Region.North || lon < nationalgen.Region.West || lon > nationalgen.Region.East {
+			t.Fatalf("%s at %v, %v: outside the region", r[0], lat, lon)
+		}
+	}
+
+	fx := registertest.Setup(t)
+	fx.Datum(t, registertest.DatumOpts{})
+	res, err := fx.Reg.Import(fx.Ctx, register.ImportParams{Dir: a, RecordedBy: "generator"})
+	if err != nil || res.Counts.Marks != n || res.Counts.Conditions != 3*n || res.Counts.Heights != 5*n {
+		t.Fatalf("import: %+v %v", res.Counts, err)
+	}
+	if rep, err := fx.Reg.EvidenceVerify(fx.Ctx, nil); err != nil || len(rep.Breaks) != 0 {
+		t.Fatalf("evidence: %v %+v", err, rep.Breaks)
+	}
+	if rep, err := fx.Reg.AuditVerify(fx.Ctx); err != nil || len(rep.Breaks) != 0 || rep.Versions != 5*n || rep.Chains != n {
+		t.Fatalf("audit: %v, %d chains of %d versions, %+v", err, rep.Chains, rep.Versions, rep.Breaks)
+	}
+	asOf := time.Date(2000, 1, 1, 0, 0, 0, 0, time.UTC)
+	v, err := fx.Reg.HeightShow(fx.Ctx, register.HeightShowParams{Designation: nationalgen.Designation(n - 1), Datum: "NAVD88", AsOf: &asOf})
+	if err != nil || len(v.Heights) != 1 || v.Heights[0].Version != 3 {
+		t.Fatalf("in force in 2000: %+v %v, want version 3 (1994)", v.Heights, err)
+	}
+}
