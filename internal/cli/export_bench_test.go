@@ -82,14 +82,7 @@ func exportBenchRegister(b testing.TB, marks int) string {
 // start, after the build, is start-MB. The register is vacuumed and
 // analyzed after it is built, as autovacuum keeps a register in use.
 func BenchmarkExportFormat(b *testing.B) {
-	marks := 10000
-	if s := os.Getenv("CAIRN_BENCH_EXPORT_MARKS"); s != "" {
-		n, err := strconv.Atoi(s)
-		if err != nil || n < 1 {
-			b.Fatalf("CAIRN_BENCH_EXPORT_MARKS=%q: want a number of marks", s)
-		}
-		marks = n
-	}
+	marks := benchMarks(b)
 	url := exportBenchRegister(b, marks)
 	for _, format := range []string{"geojson", "csv"} {
 		b.Run(format, func(b *testing.B) {
@@ -120,6 +113,20 @@ func BenchmarkExportFormat(b *testing.B) {
 	}
 }
 
+// benchMarks is CAIRN_BENCH_EXPORT_MARKS, the marks of the export and
+// listing benchmarks' register (default 10,000).
+func benchMarks(b *testing.B) int {
+	s := os.Getenv("CAIRN_BENCH_EXPORT_MARKS")
+	if s == "" {
+		return 10000
+	}
+	n, err := strconv.Atoi(s)
+	if err != nil || n < 1 {
+		b.Fatalf("CAIRN_BENCH_EXPORT_MARKS=%q: want a number of marks", s)
+	}
+	return n
+}
+
 // vmKB is a line of /proc/self/status, in kB.
 func vmKB(b *testing.B, key string) float64 {
 	st, err := os.ReadFile("/proc/self/status")
@@ -146,14 +153,7 @@ func vmKB(b *testing.B, key string) float64 {
 // after the build), which the listings' pages (register.ListPageSize
 // marks) bound whatever the register's size.
 func BenchmarkListAll(b *testing.B) {
-	marks := 10000
-	if s := os.Getenv("CAIRN_BENCH_EXPORT_MARKS"); s != "" {
-		n, err := strconv.Atoi(s)
-		if err != nil || n < 1 {
-			b.Fatalf("CAIRN_BENCH_EXPORT_MARKS=%q: want a number of marks", s)
-		}
-		marks = n
-	}
+	marks := benchMarks(b)
 	url := exportBenchRegister(b, marks)
 	for _, c := range [][]string{{"mark", "list", "-o", "csv"}, {"mark", "list", "-o", "json"}, {"height", "list", "-o", "csv"}, {"height", "list", "-o", "json"}} {
 		b.Run(strings.Join(c, "-"), func(b *testing.B) {

@@ -629,9 +629,25 @@ Exit status 0 when everything verifies, 3 when any break is found.`,
 // auditVerifyRun recomputes the hash chains and reports their breaks.
 func auditVerifyRun(opts *auditVerifyOptions) error {
 	ios := opts.f.IO
+	if opts.since != "" && opts.against != "" {
+		return flagError{errors.New("--since and --against: give one (--since audits from a statement on; --against proves the whole chain up to it)")}
+	}
 	r, err := openAdminRegister(opts.ctx, opts.f)
 	if err != nil {
 		return err
+	}
+	var since *register.Statement
+	var sinceCheck *statementCheck
+	var xid uint64
+	if opts.since != "" {
+		s, check, err := readSince(opts.f, opts.since, opts.publicKey)
+		if err != nil {
+			return err
+		}
+		if xid, err = r.StatementXid(opts.ctx, s); err != nil {
+			return err
+		}
+		since, sinceCheck = &s, check
 	}
 	// A bar of the versions checked, on a terminal and not with -o json;
 	// what follows them (the derived checks) is not counted.
@@ -639,37 +655,18 @@ func auditVerifyRun(opts *auditVerifyOptions) error {
 	if opts.format != FormatJSON {
 		bar = ios.StartBar(-1, "audit: height versions checked", "versions")
 	}
-	var since *register.Statement
-	var sinceCheck *statementCheck
 	var rep register.AuditReport
-	if opts.since != "" {
-		if opts.against != "" {
-			bar.Finish()
-			return flagError{errors.New("--since and --against: give one (--since audits from a statement on; --against proves the whole chain up to it)")}
-		}
-		s, check, err := readSince(opts.f, opts.since, opts.publicKey)
-		if err != nil {
-			bar.Finish()
-			return err
-		}
-		since, sinceCheck = &s, check
-		xid, err := r.StatementXid(opts.ctx, s)
-		if err != nil {
-			bar.Finish()
-			return err
-		}
+	if since != nil {
 		rep, err = r.AuditVerifySince(opts.ctx, xid, bar.Add)
-		bar.Finish()
-		if err != nil {
-			return err
-		}
-		ios.printf("audit: since the statement's seq %d: the chains with a version written since, the runs recorded and the adjustments published since\n", s.Seq)
 	} else {
 		rep, err = r.AuditVerifyProgress(opts.ctx, bar.Add)
-		bar.Finish()
-		if err != nil {
-			return err
-		}
+	}
+	bar.Finish()
+	if err != nil {
+		return err
+	}
+	if since != nil {
+		ios.printf("audit: since the statement's seq %d: the chains with a version written since, the runs recorded and the adjustments published since\n", since.Seq)
 	}
 	if opts.format != FormatJSON {
 		aerr := renderAudit(ios, opts.format, rep)

@@ -6,7 +6,6 @@ import (
 	"os"
 	"path/filepath"
 	"runtime"
-	"strconv"
 	"syscall"
 	"testing"
 
@@ -66,14 +65,7 @@ func importBenchFilesFrom(b *testing.B, first, marks int) string {
 // resident memory (maxrss_MB, the whole test process) besides Go's
 // allocations.
 func BenchmarkImport(b *testing.B) {
-	marks := 2000
-	if s := os.Getenv("CAIRN_BENCH_IMPORT_MARKS"); s != "" {
-		n, err := strconv.Atoi(s)
-		if err != nil || n < 1 {
-			b.Fatalf("CAIRN_BENCH_IMPORT_MARKS=%q: want a number of marks", s)
-		}
-		marks = n
-	}
+	marks := envInt(b, "CAIRN_BENCH_IMPORT_MARKS", 2000)
 	dir := importBenchFiles(b, marks)
 	b.ReportAllocs()
 	for i := 0; i < b.N; i++ {
@@ -101,14 +93,7 @@ func BenchmarkImport(b *testing.B) {
 // and divided among one worker per CPU (workers=cpu). It reports the time
 // per version.
 func BenchmarkAuditChains(b *testing.B) {
-	marks := 20000
-	if s := os.Getenv("CAIRN_BENCH_AUDIT_CHAIN_MARKS"); s != "" {
-		n, err := strconv.Atoi(s)
-		if err != nil || n < 1 {
-			b.Fatalf("CAIRN_BENCH_AUDIT_CHAIN_MARKS=%q: want a number of marks", s)
-		}
-		marks = n
-	}
+	marks := envInt(b, "CAIRN_BENCH_AUDIT_CHAIN_MARKS", 20000)
 	fx := registertest.Setup(b)
 	fx.Datum(b, registertest.DatumOpts{})
 	if _, err := fx.Reg.Import(fx.Ctx, ImportParams{Dir: importBenchFiles(b, marks), RecordedBy: "bench"}); err != nil {

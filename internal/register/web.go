@@ -247,7 +247,7 @@ func features(ctx context.Context, tx pgx.Tx, ms []store.Mark, asOf *time.Time) 
 	for i, m := range ms {
 		ids[i] = m.ID
 	}
-	hs, err := store.HeightAsOfByMarks(ctx, tx, ids, asOf)
+	hs, err := store.HeightAsOfMarks(ctx, tx, store.HeightAsOfAllParams{AsOf: asOf}, ids)
 	if err != nil {
 		return nil, err
 	}

@@ -456,18 +456,6 @@ func SnapshotUse(ctx context.Context, tx pgx.Tx, id string) error {
 	return translate(err)
 }
 
-// HeightAsOfByMarks returns, for each of the marks markIDs and each
-// datum, the version in force at asOf (nil: now) by the rule of
-// HeightAsOf (a withdrawal included), by designation and datum code.
-func HeightAsOfByMarks(ctx context.Context, db DBTX, markIDs []int64, asOf *time.Time) ([]Height, error) {
-	if asOf == nil {
-		return HeightCurrentByMarks(ctx, db, markIDs)
-	}
-	return heightQuery(ctx, db, "SELECT * FROM (SELECT DISTINCT ON (h.mark_id, h.datum_id) "+heightColumns+heightFrom+
-		` WHERE h.mark_id = ANY($1)`+heightAsOfWhere(2, 3)+`
-		ORDER BY h.mark_id, h.datum_id, `+heightAsOfOrder+`) v ORDER BY v.designation, v.code`, markIDs, asOf, nil)
-}
-
 // MarkIDPage returns the ids of at most n marks whose designation comes
 // after after, by designation (the unique index on it answers), and the
 // last designation of the page ("" for none): a listing of the whole

@@ -3,12 +3,8 @@ package store
 import (
 	"context"
 	"fmt"
-	"io/fs"
 
 	"github.com/jackc/pgx/v5/pgxpool"
-	"github.com/pressly/goose/v3"
-
-	"cairn/migrations"
 )
 
 // Server describes the PostgreSQL server a pool is connected to.
@@ -73,17 +69,12 @@ func RegisterCount(ctx context.Context, pool *pgxpool.Pool) (n RegisterCounts, a
 // SchemaLatest returns the newest schema version this cairn knows, from
 // the embedded migrations alone.
 func SchemaLatest() (int64, error) {
-	files, err := fs.Glob(migrations.FS, "*.sql")
+	vs, err := embeddedVersions()
 	if err != nil {
 		return 0, fmt.Errorf("list migrations: %w", err)
 	}
-	var latest int64
-	for _, name := range files {
-		v, err := goose.NumericComponent(name)
-		if err != nil {
-			return 0, fmt.Errorf("migration %s: %w", name, err)
-		}
-		latest = max(latest, v)
+	if len(vs) == 0 {
+		return 0, fmt.Errorf("list migrations: none embedded")
 	}
-	return latest, nil
+	return vs[len(vs)-1], nil
 }
