@@ -214,6 +214,17 @@ func TestImportWholeLifeRoundTrip(t *testing.T) {
 			t.Errorf("export of %s: not in photos/ under its SHA-256, byte for byte: %v", n, err)
 		}
 	}
+	// A height of the office's books in force before the day the mark was
+	// found reset is before the reset, though the import recorded both at
+	// once; the height set after the reset is not.
+	o1, o2 := mustBin(t, db, ExitOK, "height", "show", "TC-0202")
+	out = o1 + o2
+	if !strings.Contains(out, "TC-0202 on TCLD, version 1: in force from 1999-12-01") || !strings.Contains(out, "BEFORE RESET") {
+		t.Errorf("height show TC-0202: the 1999 TCLD height is not flagged before the 2014 reset:\n%s", out)
+	}
+	if strings.Contains(out, "TC-0202 on NAVD88, version 2: in force") {
+		t.Errorf("height show TC-0202: the height set after the reset is flagged before it:\n%s", out)
+	}
 	// The mark's history after the import: version 3 holds the RTK position.
 	out, _ = mustBin(t, db, ExitOK, "mark", "show", "TC-0202", "--history")
 	for _, w := range []string{"position observed with RTK", "railing added 2003", "OB-RAMP-1", "the trust's number on its ramp drawings", "last reset\t2014-08-05"} {

@@ -154,8 +154,8 @@ func doubtsOf(ctx context.Context, db store.DBTX, marks []store.Mark, hs []store
 		for _, h := range hs {
 			if c, ok := resets[h.MarkID]; ok && beforeReset(h, &c) {
 				out[h.MarkID] = append(out[h.MarkID], Doubt{Kind: DoubtBeforeReset, Word: "before-reset", Datum: h.DatumCode, Version: h.Version,
-					Text: fmt.Sprintf("%s on %s, version %d: recorded %s, BEFORE RESET (the mark was %s)", h.Designation, h.DatumCode, h.Version,
-						h.RecordedAt.UTC().Format("2006-01-02"), resetText(c))})
+					Text: fmt.Sprintf("%s on %s, version %d: in force from %s, recorded %s, BEFORE RESET (the mark was %s)", h.Designation, h.DatumCode, h.Version,
+						h.InForceFrom.UTC().Format("2006-01-02"), h.RecordedAt.UTC().Format("2006-01-02"), resetText(c))})
 			}
 		}
 	}

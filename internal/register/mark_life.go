@@ -249,13 +249,15 @@ func retiredText(m store.Mark) string {
 	return s
 }
 
-// beforeReset reports whether version h of a mark was recorded before the
-// mark's reset report reset (nil: no reset): the register knew that height
-// before it learned the mark had been set again, so it is the height of
-// the mark as it was. A version written in the transaction of the report
-// (publish --report-condition) is not before it.
+// beforeReset reports whether version h of a mark is a height of the mark
+// as it was before its reset report reset (nil: no reset): recorded before
+// the register learned the mark had been set again, or in force from
+// before the day the mark was found reset (an office's old height imported
+// with the reset report in one import, or a correction of the past
+// recorded later). A version written in the transaction of the report
+// (publish --report-condition), in force from its commit, is not before it.
 func beforeReset(h store.Height, reset *store.Condition) bool {
-	return reset != nil && h.Value != nil && h.RecordedAt.Before(reset.RecordedAt)
+	return reset != nil && h.Value != nil && (h.RecordedAt.Before(reset.RecordedAt) || h.InForceFrom.Before(reset.ObservedOn))
 }
 
 // resetText says when a mark was reset and who said so.
