@@ -1,10 +1,10 @@
 package cli
 
 import (
-	"fmt"
 	"io"
-	"strings"
 	"unicode/utf8"
+
+	"cairn/internal/showtext"
 )
 
 // Text from the register (notes, descriptions, reasons, a book's header) is
@@ -24,44 +24,11 @@ import (
 // reads back as the same character, or as \xNN for a byte that is not
 // UTF-8.
 
-// hidden says whether r is made visible wherever it is printed: the C0
-// controls but tab and line feed, DEL, the C1 controls, and the characters
-// that reorder or break text without showing (bidirectional embeddings,
-// overrides, isolates and marks; the line and paragraph separators).
-func hidden(r rune) bool {
-	switch {
-	case r == '\t' || r == '\n':
-		return false
-	case r < 0x20, r >= 0x7f && r <= 0x9f:
-		return true
-	case r == 0x061c, r == 0x200e, r == 0x200f, r >= 0x202a && r <= 0x202e, r >= 0x2066 && r <= 0x2069,
-		r == 0x2028, r == 0x2029:
-		return true
-	}
-	return false
-}
-
-// visible returns s with every hidden character, and tab and line feed
-// too, written as \uXXXX, and any byte that is not UTF-8 as \xNN: one
-// line of plain text, fit for a table's cell.
+// visible returns s with every hidden character (showtext.Hidden), and
+// tab and line feed too, written as \uXXXX, and any byte that is not
+// UTF-8 as \xNN: one line of plain text, fit for a table's cell.
 func visible(s string) string {
-	if !strings.ContainsFunc(s, func(r rune) bool { return r == '\t' || r == '\n' || r == utf8.RuneError || hidden(r) }) {
-		return s
-	}
-	var b strings.Builder
-	for i := 0; i < len(s); {
-		r, n := utf8.DecodeRuneInString(s[i:])
-		switch {
-		case r == utf8.RuneError && n == 1:
-			fmt.Fprintf(&b, `\x%02x`, s[i])
-		case r == '\t' || r == '\n' || hidden(r):
-			fmt.Fprintf(&b, `\u%04x`, r)
-		default:
-			b.WriteString(s[i : i+n])
-		}
-		i += n
-	}
-	return b.String()
+	return showtext.Escape(s, func(r rune) bool { return r == '\t' || r == '\n' || showtext.Hidden(r) })
 }
 
 // visibleWriter writes to w with every hidden character made visible
@@ -79,7 +46,7 @@ func (v *visibleWriter) Flush() error {
 	}
 	var out []byte
 	for _, c := range v.pending {
-		out = fmt.Appendf(out, `\x%02x`, c)
+		out = showtext.AppendByte(out, c)
 	}
 	v.pending = nil
 	_, err := v.w.Write(out)
@@ -105,10 +72,10 @@ func (v *visibleWriter) Write(p []byte) (int, error) {
 		}
 		switch {
 		case r == utf8.RuneError && n == 1:
-			out = append(append(out, buf[start:i]...), fmt.Sprintf(`\x%02x`, buf[i])...)
+			out = showtext.AppendByte(append(out, buf[start:i]...), buf[i])
 			start = i + n
-		case hidden(r):
-			out = append(append(out, buf[start:i]...), fmt.Sprintf(`\u%04x`, r)...)
+		case showtext.Hidden(r):
+			out = showtext.AppendRune(append(out, buf[start:i]...), r)
 			start = i + n
 		}
 		i += n

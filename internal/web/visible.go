@@ -1,58 +1,22 @@
 package web
 
 import (
-	"fmt"
-	"strings"
-	"unicode/utf8"
-
 	"cairn/internal/sheet"
+	"cairn/internal/showtext"
 )
 
 // The register keeps text exactly as given, control characters
 // included, and the JSON gives it back exactly. A page is read by people,
-// so, as on a terminal (internal/cli/visible.go, the same rule), the
+// so, as on a terminal (internal/showtext, the same rule), the
 // characters that would hide or reorder text without showing are written
 // visibly as \uXXXX: a right-to-left override in a description cannot
 // make "evil" read "live", nor a control character hide what follows.
 // Tabs and line breaks stay (the page wraps them as written).
 
-// hiddenRune says whether r is made visible on a page: the C0 controls but
-// tab, line feed and carriage return, DEL, the C1 controls, and the
-// bidirectional embeddings, overrides, isolates and marks, and the line
-// and paragraph separators.
-func hiddenRune(r rune) bool {
-	switch {
-	case r == '\t' || r == '\n' || r == '\r':
-		return false
-	case r < 0x20, r >= 0x7f && r <= 0x9f:
-		return true
-	case r == 0x061c, r == 0x200e, r == 0x200f, r >= 0x202a && r <= 0x202e, r >= 0x2066 && r <= 0x2069,
-		r == 0x2028, r == 0x2029:
-		return true
-	}
-	return false
-}
-
-// visible is s with every hidden character written \uXXXX (and a byte
-// that is not UTF-8 as \xNN).
+// visible is s with every hidden character (showtext.Hidden) but
+// carriage return written \uXXXX, and a byte that is not UTF-8 as \xNN.
 func visible(s string) string {
-	if !strings.ContainsFunc(s, func(r rune) bool { return r == utf8.RuneError || hiddenRune(r) }) {
-		return s
-	}
-	var b strings.Builder
-	for i := 0; i < len(s); {
-		r, n := utf8.DecodeRuneInString(s[i:])
-		switch {
-		case r == utf8.RuneError && n == 1:
-			fmt.Fprintf(&b, `\x%02x`, s[i])
-		case hiddenRune(r):
-			fmt.Fprintf(&b, `\u%04x`, r)
-		default:
-			b.WriteString(s[i : i+n])
-		}
-		i += n
-	}
-	return b.String()
+	return showtext.Escape(s, func(r rune) bool { return r != '\r' && showtext.Hidden(r) })
 }
 
 func visibleAll(ss []string) []string {
