@@ -14,7 +14,7 @@ import (
 )
 
 // domainPackages know nothing of the command line.
-var domainPackages = []string{"adjust", "levelbook", "reduce", "standards", "units", "sparse", "register", "netfile", "sheet", "geojson"}
+var domainPackages = []string{"adjust", "levelbook", "reduce", "standards", "units", "sparse", "register", "netfile", "sheet", "geojson", "showtext"}
 
 // No domain package imports cobra or pflag, directly or not, and none
 // defines a method ExitCode: exit statuses are cli's business alone
