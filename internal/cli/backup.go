@@ -162,7 +162,9 @@ func restoreRun(opts *backupOptions) error {
 		return err
 	}
 	f.IO.printf("restored %d mark(s) and %d height version(s) from %s\n", n.Marks, n.HeightVersions, opts.file)
-	rep, err := register.New(pool).AuditVerify(ctx)
+	reg := register.New(pool)
+	useSchemaCache(reg, false)
+	rep, err := reg.AuditVerify(ctx)
 	if err != nil {
 		return fmt.Errorf("audit the restored register: %w", err)
 	}

@@ -42,3 +42,12 @@ func (r *Register) AuditChainsSince(ctx context.Context, since *uint64) (AuditRe
 	err := r.auditChains(ctx, &rep, since, func(int) {})
 	return rep, err
 }
+
+// ForgetFreshSchemas empties this process's memory of freshly migrated
+// schemas, so that the next audit looks in its SchemaCache or makes a
+// scratch database.
+func ForgetFreshSchemas() {
+	freshMu.Lock()
+	defer freshMu.Unlock()
+	clear(freshSchemas)
+}
