@@ -232,7 +232,7 @@ func restoreStaged(ctx context.Context, f *Factory, url string, srv store.Server
 		return true, err
 	}
 	if err := backup.RestoreJobs(ctx, stagingURL, srv.Version, file, restoreJobs()); err != nil {
-		return true, fmt.Errorf("restore %s (nothing was left behind: database %q is as it was): %w", file, target, err)
+		return true, fmt.Errorf("restore %s: nothing is left behind (database %q, made for the load, is dropped; database %q is as it was): %w", file, staging, target, err)
 	}
 	pool, err := store.Open(ctx, stagingURL)
 	if err != nil {
