@@ -51,3 +51,12 @@ func ForgetFreshSchemas() {
 	defer freshMu.Unlock()
 	clear(freshSchemas)
 }
+
+// AuditDeriveSince is the part of AuditVerifySince that derives the runs
+// and adjustments since the commit of transaction since again and
+// compares the schema.
+func (r *Register) AuditDeriveSince(ctx context.Context, since uint64) (AuditReport, error) {
+	rep := AuditReport{Breaks: []Break{}}
+	err := r.auditDerive(ctx, &rep, &since)
+	return rep, err
+}

@@ -216,7 +216,8 @@ func auditChainsFloor(fx *registertest.Bundle, workers int) (int, error) {
 // (the commits after it) and its chains (those with a version written
 // since); since-all, all of audit verify --since after reading the
 // statement: those, the runs and adjustments since (none here) and the
-// schema compared with the audit's cache; whole, the whole register's
+// schema compared with the audit's cache; derive-schema, those last two
+// alone; whole, the whole register's
 // evidence and chains for comparison.
 func BenchmarkAuditSince(b *testing.B) {
 	fx := registertest.Setup(b)
@@ -265,6 +266,15 @@ func BenchmarkAuditSince(b *testing.B) {
 			rep, err := fx.Reg.AuditVerifySince(fx.Ctx, xid, nil)
 			if err != nil || rep.Count() != 0 || rep.Versions != 50000 || rep.SchemaFrom != SchemaFromCache {
 				b.Fatalf("audit since: %v, %d versions, schema from %q, %+v %+v", err, rep.Versions, rep.SchemaFrom, rep.Breaks, rep.Findings)
+			}
+		}
+	})
+	b.Run("derive-schema", func(b *testing.B) {
+		for b.Loop() {
+			ForgetFreshSchemas()
+			rep, err := fx.Reg.AuditDeriveSince(fx.Ctx, xid)
+			if err != nil || rep.Count() != 0 || rep.SchemaFrom != SchemaFromCache {
+				b.Fatalf("derive since: %v, schema from %q, %+v", err, rep.SchemaFrom, rep.Findings)
 			}
 		}
 	})
