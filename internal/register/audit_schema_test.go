@@ -1,6 +1,7 @@
 package register_test
 
 import (
+	"fmt"
 	"strings"
 	"testing"
 
@@ -65,5 +66,52 @@ func TestAuditSchemaCache(t *testing.T) {
 	}
 	if again, _ := cache.Load(key); len(again) != len(kept) {
 		t.Errorf("after the refresh the cache keeps %d entries, want %d", len(again), len(kept))
+	}
+}
+
+// The incremental audit divided among worker transactions (4, a worker
+// for every 7 mark ids) reads only the chains with a version written
+// after the statement, each whole, and finds in one of them a version
+// written before the statement and edited behind the register's back;
+// the edit of a chain nothing touched since is the whole audit's to find.
+// Not parallel: it sets the package's split.
+func TestAuditVerifySinceInParts(t *testing.T) {
+	b := registertest.Setup(t)
+	b.Datum(t, registertest.DatumOpts{})
+	var names []string
+	for i := range 30 {
+		names = append(names, fmt.Sprintf("TC-%04d", 600+i))
+	}
+	b.Marks(t, names...)
+	for _, n := range names {
+		b.Height(t, registertest.HeightOpts{Designation: n, Value: "10.000"})
+	}
+	stmt, _, err := b.Reg.MakeStatement(b.Ctx, "test", nil)
+	if err != nil {
+		t.Fatal(err)
+	}
+	for _, n := range names[20:] {
+		b.Height(t, registertest.HeightOpts{Designation: n, Value: "10.004"})
+	}
+	if _, err := b.DB.Pool.Exec(b.Ctx, `BEGIN; SET LOCAL session_replication_role = replica;
+		UPDATE height SET reason = 'edited' WHERE mark_id IN (SELECT id FROM mark WHERE designation IN ('TC-0625', 'TC-0605')) AND version = 1; COMMIT`); err != nil {
+		t.Fatal(err)
+	}
+	xid, err := b.Reg.StatementXid(b.Ctx, stmt)
+	if err != nil {
+		t.Fatal(err)
+	}
+	defer register.SetAuditSplit(4, 7)()
+	rep, err := b.Reg.AuditChainsSince(b.Ctx, &xid)
+	if err != nil {
+		t.Fatal(err)
+	}
+	if rep.Chains != 10 || rep.Versions != 20 || len(rep.Breaks) != 1 || rep.Breaks[0].Designation != "TC-0625" ||
+		!strings.Contains(rep.Breaks[0].Problem, "hash does not match") {
+		t.Fatalf("since, in parts: %d chains, %d versions, breaks %+v; want 10, 20 and the edit of TC-0625", rep.Chains, rep.Versions, rep.Breaks)
+	}
+	whole, err := b.Reg.AuditChainsSince(b.Ctx, nil)
+	if err != nil || whole.Versions != 40 || len(whole.Breaks) != 2 {
+		t.Fatalf("whole, in parts: %v, %d versions, breaks %+v; want 40 and both edits", err, whole.Versions, whole.Breaks)
 	}
 }
