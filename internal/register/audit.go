@@ -206,8 +206,9 @@ func (r *Register) AuditVerifyProgress(ctx context.Context, step func(versions i
 
 // AuditVerifySince is AuditVerifyProgress from a checkpoint, the commit of
 // transaction xid (a statement's, whose signature the caller checked): it
-// recomputes the chains with a version written after it, each whole, and
-// derives again the runs recorded and adjustments published after it; the
+// recomputes the chains with a version written after it, each whole,
+// derives again the runs recorded and adjustments published after it, and
+// checks the versions written after it that cite an adjustment; the
 // schema is compared in full. A version, run or adjustment written before
 // and changed since is the whole audit's to find.
 func (r *Register) AuditVerifySince(ctx context.Context, xid uint64, step func(versions int)) (AuditReport, error) {

@@ -355,7 +355,7 @@ func (r *Register) auditAdjustments(ctx context.Context, tx pgx.Tx, rep *AuditRe
 			}
 		}
 	}
-	hs, err := store.AuditHeightsNotOfPublished(ctx, tx)
+	hs, err := store.AuditHeightsNotOfPublished(ctx, tx, since)
 	if err != nil {
 		return fmt.Errorf("read versions citing adjustments: %w", err)
 	}
