@@ -59,7 +59,11 @@ func summarizeAudit(ios *IOStreams, rep register.AuditReport) error {
 	ios.printf("audit: %d run(s) parse and reduce to their stored sightings and sections, %d published adjustment(s) compute again to their results and versions",
 		rep.Runs, rep.Adjustments)
 	if rep.SchemaUnchecked == "" {
-		ios.printf(", and the schema's %d object(s) are those its migrations make\n", rep.SchemaObjects)
+		ios.printf(", and the schema's %d object(s) are those its migrations make", rep.SchemaObjects)
+		if rep.SchemaFrom == register.SchemaFromCache {
+			ios.printf(" (compared with the copy kept from a database migrated afresh by an earlier audit; --fresh-schema makes one now)")
+		}
+		ios.printf("\n")
 	} else {
 		ios.printf("; the schema was not compared\n")
 	}

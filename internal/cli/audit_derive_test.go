@@ -5,8 +5,11 @@ import (
 	"encoding/json"
 	"fmt"
 	"path/filepath"
+	"regexp"
 	"strings"
 	"testing"
+
+	"github.com/jackc/pgx/v5"
 
 	"cairn/internal/backup"
 	"cairn/internal/demo"
@@ -256,5 +259,25 @@ func TestRestoreRefusesTamperedDump(t *testing.T) {
 	}
 	if !strings.Contains(errOut, "the restore of "+tampered+" is refused") || !strings.Contains(errOut, "kept as restored, for inspection") {
 		t.Errorf("restore's refusal: %s", errOut)
+	}
+	// The copy kept for inspection is a database of its own; the one
+	// named stays empty.
+	m := regexp.MustCompile(`database "(cairn_restore_[0-9a-f]+)" is kept as restored`).FindStringSubmatch(errOut)
+	if m == nil {
+		t.Fatalf("restore's refusal names no database kept: %s", errOut)
+	}
+	t.Cleanup(func() {
+		db.Pool.Exec(context.Background(), "DROP DATABASE IF EXISTS "+pgx.Identifier{m[1]}.Sanitize()+" WITH (FORCE)")
+	})
+	if !strings.Contains(errOut, "is left empty") {
+		t.Errorf("restore's refusal does not say the target is left empty: %s", errOut)
+	}
+	tpool, err := store.Open(context.Background(), target)
+	if err != nil {
+		t.Fatal(err)
+	}
+	defer tpool.Close()
+	if empty, err := store.DatabaseEmpty(context.Background(), tpool); err != nil || !empty {
+		t.Errorf("the database restored into after a refusal: empty %v, %v", empty, err)
 	}
 }

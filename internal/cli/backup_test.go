@@ -5,11 +5,13 @@ import (
 	"fmt"
 	"os"
 	"path/filepath"
+	"regexp"
 	"strings"
 	"testing"
 
 	"github.com/jackc/pgx/v5"
 
+	"cairn/internal/backup"
 	"cairn/internal/pgtest"
 	"cairn/internal/registertest"
 	"cairn/internal/store"
@@ -141,5 +143,46 @@ func TestBackupRestore(t *testing.T) {
 	other := freshDatabase(t, db)
 	if _, errOut, st := run(t, other, "restore", junk); st != ExitBadInput || !strings.Contains(errOut, "not a backup") {
 		t.Fatalf("restore of junk: exit %d, %s", st, errOut)
+	}
+}
+
+// A backup whose load fails midway (here a foreign key added after its
+// rows, which break it: rows written with the triggers off, as by hand)
+// leaves nothing behind: the database made for the load is dropped, and
+// the database named stays empty. Not parallel: it names the databases
+// it expects gone.
+func TestRestoreFailedMidwayLeavesNothing(t *testing.T) {
+	db := pgtest.New(t)
+	seed(t, db.URL)
+	ctx := context.Background()
+	if _, err := db.Pool.Exec(ctx, `CREATE TABLE zz_parent (id int PRIMARY KEY); CREATE TABLE zz_child (parent int REFERENCES zz_parent);
+		SET session_replication_role = replica; INSERT INTO zz_child VALUES (1); RESET session_replication_role`); err != nil {
+		t.Fatal(err)
+	}
+	var version string
+	if err := db.Pool.QueryRow(ctx, "SHOW server_version").Scan(&version); err != nil {
+		t.Fatal(err)
+	}
+	file := filepath.Join(t.TempDir(), "broken.dump")
+	if err := backup.Dump(ctx, db.URL, version, file); err != nil {
+		t.Fatal(err)
+	}
+	target := freshDatabase(t, db)
+	_, errOut, st := run(t, target, "restore", file)
+	m := regexp.MustCompile(`database "(cairn_restore_[0-9a-f]+)", made for the load, is dropped`).FindStringSubmatch(errOut)
+	if st == 0 || m == nil || !strings.Contains(errOut, "zz_child") {
+		t.Fatalf("restore of a backup that fails midway: exit %d, %s", st, errOut)
+	}
+	var left bool
+	if err := db.Pool.QueryRow(ctx, "SELECT EXISTS (SELECT 1 FROM pg_database WHERE datname = $1)", m[1]).Scan(&left); err != nil || left {
+		t.Errorf("database %s made for the load: still there %v, %v", m[1], left, err)
+	}
+	pool, err := store.Open(ctx, target)
+	if err != nil {
+		t.Fatal(err)
+	}
+	defer pool.Close()
+	if empty, err := store.DatabaseEmpty(ctx, pool); err != nil || !empty {
+		t.Errorf("the database named after a failed load: empty %v, %v", empty, err)
 	}
 }

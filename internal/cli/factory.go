@@ -8,6 +8,7 @@ import (
 
 	"github.com/jackc/pgx/v5/pgxpool"
 
+	"cairn/internal/auditcache"
 	"cairn/internal/localpg"
 	"cairn/internal/register"
 	"cairn/internal/store"
@@ -216,5 +217,18 @@ func openAdminRegister(ctx context.Context, f *Factory) (*register.Register, err
 	if err != nil {
 		return nil, err
 	}
-	return register.New(admin), nil
+	r := register.New(admin)
+	useSchemaCache(r, false)
+	return r, nil
+}
+
+// useSchemaCache makes r's audit keep the reference schema (a database
+// freshly migrated by this binary) in the user's cache between runs
+// (auditcache.Default), unless there is no cache directory; with fresh,
+// it makes a scratch database again and replaces what was kept.
+func useSchemaCache(r *register.Register, fresh bool) {
+	if d, ok := auditcache.Default(); ok {
+		d.Refresh = fresh
+		r.UseSchemaCache(d)
+	}
 }

@@ -253,7 +253,14 @@ func cairnBinary(t *testing.T) string {
 }
 
 func TestMain(m *testing.M) {
+	// The audit's cache of the reference schema: the tests' own.
+	cache, err := os.MkdirTemp("", "cairn-cache-")
+	if err != nil {
+		panic(err)
+	}
+	os.Setenv("CAIRN_CACHE_DIR", cache)
 	code := m.Run()
+	os.RemoveAll(cache)
 	if binary != "" {
 		os.RemoveAll(filepath.Dir(binary))
 	}

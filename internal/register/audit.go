@@ -61,45 +61,73 @@ func Canonical(prevHash []byte, h store.Height) string {
 // canonicalTime is the layout of the canonical text's times.
 const canonicalTime = "2006-01-02T15:04:05.000000Z"
 
-// AppendCanonical appends Canonical's text to b, without fmt or a
-// string per field: the audit builds one for every version.
+// AppendCanonical appends Canonical's text to b.
 func AppendCanonical(b []byte, prevHash []byte, h *store.Height) []byte {
+	r := store.ChainRow{ID: h.ID, MarkID: h.MarkID, DatumID: h.DatumID, Version: h.Version,
+		Designation: []byte(h.Designation), DatumCode: h.DatumCode,
+		Class: []byte(h.Class), SourceKind: []byte(h.SourceKind), Source: []byte(h.Source),
+		Reason: []byte(h.Reason), RecordedBy: []byte(h.RecordedBy), RecordedAt: h.RecordedAt, Hash: h.Hash}
+	if h.Value != nil {
+		r.Value = []byte(*h.Value)
+	}
+	if h.Unit != nil {
+		r.Unit = []byte(*h.Unit)
+	}
+	if h.Decimals != nil {
+		r.Decimals, r.HasDecimals = *h.Decimals, true
+	}
+	if h.AdjustmentID != nil {
+		r.AdjustmentID, r.HasAdjustment = *h.AdjustmentID, true
+	}
+	if h.RecordedRole != nil {
+		r.RecordedRole = []byte(*h.RecordedRole)
+	}
+	if h.InForceGiven != nil {
+		r.InForceGiven, r.HasInForce = *h.InForceGiven, true
+	}
+	return appendCanonicalRow(b, prevHash, &r)
+}
+
+// appendCanonicalRow appends the canonical text of version r to b,
+// without fmt or a string per field: the audit builds one for every
+// version, from the bytes the database sent.
+func appendCanonicalRow(b []byte, prevHash []byte, r *store.ChainRow) []byte {
 	var scratch [64]byte
 	layout := "1"
 	switch {
-	case h.InForceGiven != nil:
+	case r.HasInForce:
 		layout = "3"
-	case h.RecordedRole != nil:
+	case r.RecordedRole != nil:
 		layout = "2"
 	}
 	b = appendField(b, "cairn-height", layout)
 	b = appendFieldBytes(b, "prev", hex.AppendEncode(scratch[:0], prevHash))
-	b = appendField(b, "mark", h.Designation)
-	b = appendField(b, "datum", h.DatumCode)
-	b = appendFieldBytes(b, "version", strconv.AppendInt(scratch[:0], int64(h.Version), 10))
-	b = appendField(b, "value", deref(h.Value))
-	b = appendField(b, "unit", deref(h.Unit))
-	if h.Decimals != nil {
-		b = appendFieldBytes(b, "decimals", strconv.AppendInt(scratch[:0], int64(*h.Decimals), 10))
+	b = appendFieldBytes(b, "mark", r.Designation)
+	b = appendField(b, "datum", r.DatumCode)
+	b = appendFieldBytes(b, "version", strconv.AppendInt(scratch[:0], int64(r.Version), 10))
+	b = appendFieldBytes(b, "value", r.Value)
+	b = appendFieldBytes(b, "unit", r.Unit)
+	if r.HasDecimals {
+		b = appendFieldBytes(b, "decimals", strconv.AppendInt(scratch[:0], int64(r.Decimals), 10))
 	} else {
 		b = appendField(b, "decimals", "")
 	}
-	b = appendField(b, "class", h.Class)
-	b = appendField(b, "source_kind", h.SourceKind)
-	b = appendField(b, "source", h.Source)
-	if h.AdjustmentID != nil {
-		b = appendFieldBytes(b, "adjustment_id", strconv.AppendInt(scratch[:0], *h.AdjustmentID, 10))
+	b = appendFieldBytes(b, "class", r.Class)
+	b = appendFieldBytes(b, "source_kind", r.SourceKind)
+	b = appendFieldBytes(b, "source", r.Source)
+	if r.HasAdjustment {
+		b = appendFieldBytes(b, "adjustment_id", strconv.AppendInt(scratch[:0], r.AdjustmentID, 10))
 	} else {
 		b = appendField(b, "adjustment_id", "")
 	}
-	b = appendField(b, "reason", h.Reason)
-	b = appendField(b, "recorded_by", h.RecordedBy)
-	b = appendFieldBytes(b, "recorded_at", h.RecordedAt.UTC().AppendFormat(scratch[:0], canonicalTime))
-	if h.RecordedRole != nil || h.InForceGiven != nil {
-		b = appendField(b, "recorded_role", deref(h.RecordedRole))
+	b = appendFieldBytes(b, "reason", r.Reason)
+	b = appendFieldBytes(b, "recorded_by", r.RecordedBy)
+	b = appendFieldBytes(b, "recorded_at", r.RecordedAt.UTC().AppendFormat(scratch[:0], canonicalTime))
+	if r.RecordedRole != nil || r.HasInForce {
+		b = appendFieldBytes(b, "recorded_role", r.RecordedRole)
 	}
-	if h.InForceGiven != nil {
-		b = appendFieldBytes(b, "in_force_from", h.InForceGiven.UTC().AppendFormat(scratch[:0], canonicalTime))
+	if r.HasInForce {
+		b = appendFieldBytes(b, "in_force_from", r.InForceGiven.UTC().AppendFormat(scratch[:0], canonicalTime))
 	}
 	return b
 }
@@ -178,8 +206,9 @@ func (r *Register) AuditVerifyProgress(ctx context.Context, step func(versions i
 
 // AuditVerifySince is AuditVerifyProgress from a checkpoint, the commit of
 // transaction xid (a statement's, whose signature the caller checked): it
-// recomputes the chains with a version written after it, each whole, and
-// derives again the runs recorded and adjustments published after it; the
+// recomputes the chains with a version written after it, each whole,
+// derives again the runs recorded and adjustments published after it, and
+// checks the versions written after it that cite an adjustment; the
 // schema is compared in full. A version, run or adjustment written before
 // and changed since is the whole audit's to find.
 func (r *Register) AuditVerifySince(ctx context.Context, xid uint64, step func(versions int)) (AuditReport, error) {
@@ -273,7 +302,7 @@ func auditChainRange(ctx context.Context, tx pgx.Tx, lo, hi int64, since *uint64
 		buf     []byte
 	)
 	defer func() { step(rep.Versions % AuditProgressStep) }()
-	return store.HeightChainEach(ctx, tx, lo, hi, since, func(h *store.Height) error {
+	return store.HeightChainRows(ctx, tx, lo, hi, since, func(h *store.ChainRow) error {
 		rep.Versions++
 		if rep.Versions%AuditProgressStep == 0 {
 			step(AuditProgressStep)
@@ -283,7 +312,7 @@ func auditChainRange(ctx context.Context, tx pgx.Tx, lo, hi int64, since *uint64
 			hasPrev = false
 		}
 		brk := func(problem string) {
-			rep.Breaks = append(rep.Breaks, Break{Designation: h.Designation, Datum: h.DatumCode, Version: h.Version, ID: h.ID, Problem: problem})
+			rep.Breaks = append(rep.Breaks, Break{Designation: string(h.Designation), Datum: h.DatumCode, Version: h.Version, ID: h.ID, Problem: problem})
 		}
 		var prevHash []byte
 		wantVersion := 1
@@ -294,21 +323,25 @@ func auditChainRange(ctx context.Context, tx pgx.Tx, lo, hi int64, since *uint64
 			brk(fmt.Sprintf("version number %d where %d was due", h.Version, wantVersion))
 		}
 		switch {
-		case !hasPrev && h.Supersedes != nil:
-			brk(fmt.Sprintf("broken link: first version supersedes id %d", *h.Supersedes))
-		case hasPrev && (h.Supersedes == nil || *h.Supersedes != prev.id):
-			brk(fmt.Sprintf("broken link: supersedes %s, not version %d (id %d)", idText(h.Supersedes), prev.version, prev.id))
+		case !hasPrev && h.HasSupersedes:
+			brk(fmt.Sprintf("broken link: first version supersedes id %d", h.Supersedes))
+		case hasPrev && (!h.HasSupersedes || h.Supersedes != prev.id):
+			var sup *int64
+			if h.HasSupersedes {
+				sup = &h.Supersedes
+			}
+			brk(fmt.Sprintf("broken link: supersedes %s, not version %d (id %d)", idText(sup), prev.version, prev.id))
 		}
 		if hasPrev && !h.RecordedAt.After(prev.recordedAt) {
 			brk("recorded at or before the version it supersedes")
 		}
-		if h.InForceGiven != nil && h.InForceGiven.After(h.RecordedAt) {
+		if h.HasInForce && h.InForceGiven.After(h.RecordedAt) {
 			brk("in force from a time after it was written (" + h.InForceGiven.UTC().Format(canonicalTime) + ")")
 		}
-		buf = AppendCanonical(buf[:0], prevHash, h)
+		buf = appendCanonicalRow(buf[:0], prevHash, h)
 		sum := sha256.Sum256(buf)
 		if !bytes.Equal(sum[:], h.Hash) {
-			rep.Breaks = append(rep.Breaks, Break{Designation: h.Designation, Datum: h.DatumCode, Version: h.Version, ID: h.ID,
+			rep.Breaks = append(rep.Breaks, Break{Designation: string(h.Designation), Datum: h.DatumCode, Version: h.Version, ID: h.ID,
 				Problem: "hash does not match the version's contents", Expected: hex.EncodeToString(sum[:]), Stored: hex.EncodeToString(h.Hash)})
 		}
 		prev = chainLink{id: h.ID, markID: h.MarkID, datumID: h.DatumID, version: h.Version,

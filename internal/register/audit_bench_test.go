@@ -13,6 +13,7 @@ import (
 	"testing"
 	"time"
 
+	"cairn/internal/auditcache"
 	"cairn/internal/booktest"
 	"cairn/internal/pgtest"
 	"cairn/internal/register"
@@ -43,15 +44,27 @@ func BenchmarkAuditVerify20k(b *testing.B) {
 }
 
 // BenchmarkAuditVerifyEmpty: the audit of an empty register, which is
-// the fixed cost of the schema's comparison (a scratch database made,
-// migrated, read and dropped).
+// the fixed cost of the schema's comparison: scratch, a scratch database
+// made, migrated, read and dropped every time (a new process's first
+// audit without a cache); cache, the reference read from the audit's
+// cache (auditcache) instead, as every later process does.
 func BenchmarkAuditVerifyEmpty(b *testing.B) {
 	fx := registertest.Setup(b)
-	for b.Loop() {
-		rep, err := fx.Reg.AuditVerify(context.Background())
-		if err != nil || rep.Count() != 0 {
-			b.Fatalf("audit: %v, %+v", err, rep.Findings)
-		}
+	for _, c := range []struct {
+		name    string
+		refresh bool
+		from    string
+	}{{"scratch", true, register.SchemaFromScratch}, {"cache", false, register.SchemaFromCache}} {
+		b.Run(c.name, func(b *testing.B) {
+			fx.Reg.UseSchemaCache(auditcache.Dir{Path: cacheDir, Refresh: c.refresh})
+			for b.Loop() {
+				register.ForgetFreshSchemas()
+				rep, err := fx.Reg.AuditVerify(context.Background())
+				if err != nil || rep.Count() != 0 || rep.SchemaFrom != c.from {
+					b.Fatalf("audit: %v, from %q, %+v", err, rep.SchemaFrom, rep.Findings)
+				}
+			}
+		})
 	}
 }
 

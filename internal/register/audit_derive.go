@@ -46,6 +46,9 @@ type Derived struct {
 	// SchemaUnchecked saying why when the schema could not be compared.
 	SchemaObjects   int    `json:"schema_objects"`
 	SchemaUnchecked string `json:"schema_unchecked,omitempty"`
+	// SchemaFrom says where the schema compared with came from:
+	// SchemaFromScratch or SchemaFromCache ("" when not compared).
+	SchemaFrom string `json:"schema_from,omitempty"`
 	// Findings are the breaks found by deriving again.
 	Findings []Finding `json:"findings"`
 }
@@ -352,7 +355,7 @@ func (r *Register) auditAdjustments(ctx context.Context, tx pgx.Tx, rep *AuditRe
 			}
 		}
 	}
-	hs, err := store.AuditHeightsNotOfPublished(ctx, tx)
+	hs, err := store.AuditHeightsNotOfPublished(ctx, tx, since)
 	if err != nil {
 		return fmt.Errorf("read versions citing adjustments: %w", err)
 	}

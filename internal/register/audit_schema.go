@@ -8,6 +8,8 @@ import (
 	"strings"
 	"sync"
 
+	"github.com/jackc/pgx/v5/pgxpool"
+
 	"cairn/internal/store"
 )
 
@@ -26,13 +28,19 @@ func (r *Register) auditSchema(ctx context.Context, rep *AuditReport) error {
 	if err != nil {
 		return err
 	}
-	key, err := store.SchemaServerKey(ctx, r.pool)
+	key, err := SchemaKey(ctx, r.pool)
 	if err != nil {
 		return err
 	}
 	freshMu.Lock()
 	fresh, ok := freshSchemas[key]
 	freshMu.Unlock()
+	rep.SchemaFrom = SchemaFromScratch
+	if !ok && r.schemaCache != nil {
+		if fresh, ok = r.schemaCache.Load(key); ok {
+			rep.SchemaFrom = SchemaFromCache
+		}
+	}
 	if !ok {
 		err = store.WithScratchRegister(ctx, r.pool, func(db store.DBTX) error {
 			var err error
@@ -43,9 +51,15 @@ func (r *Register) auditSchema(ctx context.Context, rep *AuditReport) error {
 			freshMu.Lock()
 			freshSchemas[key] = fresh
 			freshMu.Unlock()
+			if r.schemaCache != nil {
+				// A cache that cannot be written costs the next audit its
+				// scratch database again, nothing more.
+				_ = r.schemaCache.Store(key, fresh)
+			}
 		}
 	}
 	if errors.Is(err, store.ErrScratchRefused) {
+		rep.SchemaFrom = ""
 		rep.SchemaUnchecked = fmt.Sprintf("the schema was not compared with its migrations: %v (run the audit as a role that may create databases)", err)
 		return nil
 	}
@@ -59,6 +73,44 @@ func (r *Register) auditSchema(ctx context.Context, rep *AuditReport) error {
 	rep.SchemaObjects = len(live)
 	rep.Findings = append(rep.Findings, schemaDiff(live, fresh, since)...)
 	return nil
+}
+
+// Where the audit's reference schema came from (AuditReport.SchemaFrom).
+const (
+	// SchemaFromScratch: a scratch database this process migrated.
+	SchemaFromScratch = "scratch"
+	// SchemaFromCache: the fingerprint of one, made by an earlier run
+	// for the same key (SchemaKey) and kept in the SchemaCache.
+	SchemaFromCache = "cache"
+)
+
+// SchemaCache keeps, between processes, the fingerprint of a database
+// freshly migrated by this binary, by SchemaKey.
+type SchemaCache interface {
+	Load(key string) ([]store.SchemaEntry, bool)
+	Store(key string, entries []store.SchemaEntry) error
+}
+
+// UseSchemaCache makes the audit look in c for the fingerprint of a
+// freshly migrated database before making a scratch one, and keep there
+// the fingerprint of each one it makes.
+func (r *Register) UseSchemaCache(c SchemaCache) { r.schemaCache = c }
+
+// SchemaKey names everything a freshly migrated database's schema
+// depends on: the server's address and version and the register's roles
+// on it (store.SchemaServerKey), and the SHA-256 of this binary's
+// migrations, names and texts (store.MigrationsDigest). Two scratch
+// databases of one key have the same fingerprint.
+func SchemaKey(ctx context.Context, pool *pgxpool.Pool) (string, error) {
+	k, err := store.SchemaServerKey(ctx, pool)
+	if err != nil {
+		return "", err
+	}
+	d, err := store.MigrationsDigest()
+	if err != nil {
+		return "", err
+	}
+	return "cairn schema fingerprint 1; " + k + "; migrations " + d, nil
 }
 
 // freshSchemas keeps, for this process, the fingerprint of a database

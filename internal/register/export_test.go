@@ -42,3 +42,21 @@ func (r *Register) AuditChainsSince(ctx context.Context, since *uint64) (AuditRe
 	err := r.auditChains(ctx, &rep, since, func(int) {})
 	return rep, err
 }
+
+// ForgetFreshSchemas empties this process's memory of freshly migrated
+// schemas, so that the next audit looks in its SchemaCache or makes a
+// scratch database.
+func ForgetFreshSchemas() {
+	freshMu.Lock()
+	defer freshMu.Unlock()
+	clear(freshSchemas)
+}
+
+// AuditDeriveSince is the part of AuditVerifySince that derives the runs
+// and adjustments since the commit of transaction since again and
+// compares the schema.
+func (r *Register) AuditDeriveSince(ctx context.Context, since uint64) (AuditReport, error) {
+	rep := AuditReport{Breaks: []Break{}}
+	err := r.auditDerive(ctx, &rep, &since)
+	return rep, err
+}

@@ -9,6 +9,11 @@ import (
 	"syscall"
 	"testing"
 
+	"github.com/jackc/pgx/v5"
+	"golang.org/x/sync/errgroup"
+
+	"cairn/internal/auditcache"
+	"cairn/internal/pgtest"
 	. "cairn/internal/register"
 	"cairn/internal/registertest"
 )
@@ -91,13 +96,32 @@ func BenchmarkImport(b *testing.B) {
 // from importBenchFiles (marks from CAIRN_BENCH_AUDIT_CHAIN_MARKS,
 // default 20,000, five versions each), in one transaction (workers=1)
 // and divided among one worker per CPU (workers=cpu). It reports the time
-// per version.
+// per version. floor is the SQL floor of workers=cpu in the same run: the
+// same rows read bare (the audit's query, binary rows, nothing decoded),
+// over as many connections on one snapshot, split alike.
+//
+// CAIRN_BENCH_AUDIT_CHAIN_DB names a register already on the test server
+// to measure instead (nothing is imported or written; it is left as it
+// is): a larger one, built once.
 func BenchmarkAuditChains(b *testing.B) {
-	marks := envInt(b, "CAIRN_BENCH_AUDIT_CHAIN_MARKS", 20000)
-	fx := registertest.Setup(b)
-	fx.Datum(b, registertest.DatumOpts{})
-	if _, err := fx.Reg.Import(fx.Ctx, ImportParams{Dir: importBenchFiles(b, marks), RecordedBy: "bench"}); err != nil {
-		b.Fatal(err)
+	var fx *registertest.Bundle
+	versions := 0
+	if name := os.Getenv("CAIRN_BENCH_AUDIT_CHAIN_DB"); name != "" {
+		fx = registertest.On(b, pgtest.Existing(b, name))
+		if err := fx.DB.Pool.QueryRow(fx.Ctx, "SELECT count(*) FROM height").Scan(&versions); err != nil {
+			b.Fatal(err)
+		}
+	} else {
+		marks := envInt(b, "CAIRN_BENCH_AUDIT_CHAIN_MARKS", 20000)
+		fx = registertest.Setup(b)
+		fx.Datum(b, registertest.DatumOpts{})
+		if _, err := fx.Reg.Import(fx.Ctx, ImportParams{Dir: importBenchFiles(b, marks), RecordedBy: "bench"}); err != nil {
+			b.Fatal(err)
+		}
+		versions = 5 * marks
+	}
+	perVersion := func(b *testing.B, n int) {
+		b.ReportMetric(float64(b.Elapsed().Nanoseconds())/float64(n)/1000, "µs/version")
 	}
 	for _, w := range []struct {
 		name    string
@@ -105,27 +129,96 @@ func BenchmarkAuditChains(b *testing.B) {
 	}{{"workers=1", 1}, {"workers=cpu", runtime.GOMAXPROCS(0)}} {
 		b.Run(w.name, func(b *testing.B) {
 			defer SetAuditSplit(w.workers, 1000)()
-			var versions int
+			n := 0
 			for b.Loop() {
 				rep, err := fx.Reg.AuditChains(fx.Ctx)
-				if err != nil || len(rep.Breaks) != 0 || rep.Versions != 5*marks {
-					b.Fatalf("audit: %v, %d breaks, %d versions", err, len(rep.Breaks), rep.Versions)
+				if err != nil || len(rep.Breaks) != 0 || rep.Versions != versions {
+					b.Fatalf("audit: %v, %d breaks, %d versions (want %d)", err, len(rep.Breaks), rep.Versions, versions)
 				}
-				versions += rep.Versions
+				n += rep.Versions
 			}
-			b.ReportMetric(float64(b.Elapsed().Nanoseconds())/float64(versions)/1000, "µs/version")
+			perVersion(b, n)
 		})
 	}
+	b.Run("floor", func(b *testing.B) {
+		n := 0
+		for b.Loop() {
+			got, err := auditChainsFloor(fx, runtime.GOMAXPROCS(0))
+			if err != nil || got != versions {
+				b.Fatalf("floor: %v, %d rows (want %d)", err, got, versions)
+			}
+			n += got
+		}
+		perVersion(b, n)
+	})
+}
+
+// auditChainsFloor reads the rows the audit of the chains reads, in its
+// order and split by mark id among workers transactions on one exported
+// snapshot, as binary rows left undecoded, and returns how many.
+func auditChainsFloor(fx *registertest.Bundle, workers int) (int, error) {
+	ctx := fx.Ctx
+	lead, err := fx.DB.Pool.BeginTx(ctx, pgx.TxOptions{IsoLevel: pgx.RepeatableRead, AccessMode: pgx.ReadOnly})
+	if err != nil {
+		return 0, err
+	}
+	defer lead.Rollback(ctx)
+	var snap string
+	var lo, hi int64
+	if err := lead.QueryRow(ctx, "SELECT pg_export_snapshot(), coalesce(min(id), 0), coalesce(max(id), 0) FROM mark").Scan(&snap, &lo, &hi); err != nil {
+		return 0, err
+	}
+	counts := make([]int, workers)
+	width := (hi - lo + int64(workers)) / int64(workers)
+	g, gctx := errgroup.WithContext(ctx)
+	for i := range workers {
+		g.Go(func() error {
+			tx := lead
+			if i > 0 {
+				t, err := fx.DB.Pool.BeginTx(gctx, pgx.TxOptions{IsoLevel: pgx.RepeatableRead, AccessMode: pgx.ReadOnly})
+				if err != nil {
+					return err
+				}
+				defer t.Rollback(gctx)
+				if _, err := t.Exec(gctx, "SET TRANSACTION SNAPSHOT '"+snap+"'"); err != nil {
+					return err
+				}
+				tx = t
+			}
+			from := lo + int64(i)*width
+			rows, err := tx.Query(gctx, `SELECT h.id, h.mark_id, m.designation, h.datum_id, h.version, h.supersedes,
+				h.value::text, h.unit, h.decimals, h.class, h.source_kind, h.source, h.adjustment_id,
+				h.reason, h.recorded_by, h.recorded_role, h.recorded_at, h.in_force_from, h.hash
+				FROM height h JOIN mark m ON m.id = h.mark_id
+				WHERE h.mark_id BETWEEN $1 AND $2 ORDER BY h.mark_id, h.datum_id, h.version`,
+				pgx.QueryResultFormats{pgx.BinaryFormatCode}, from, min(from+width-1, hi))
+			if err != nil {
+				return err
+			}
+			for rows.Next() {
+				counts[i]++
+			}
+			return rows.Err()
+		})
+	}
+	err = g.Wait()
+	total := 0
+	for _, c := range counts {
+		total += c
+	}
+	return total, err
 }
 
 // BenchmarkAuditSince is the incremental audit after a large write: a
 // register of 20,000 imported marks (100,000 versions), a statement made,
 // then 10,000 marks more imported (50,000 versions, the size of a large
-// publication), and the audit since the statement: its evidence (the
-// commits after it) and its chains (those with a version written since),
-// besides the whole register's chains for comparison. The derivation of
-// runs and adjustments (none here) and the schema's comparison (a fixed
-// cost, docs/performance.md) are not in it.
+// publication), and the audit since the statement: since, its evidence
+// (the commits after it) and its chains (those with a version written
+// since); since-all, all of audit verify --since after reading the
+// statement: those, the runs and adjustments since (none here) and the
+// schema compared with the audit's cache; derive-schema, those last two
+// alone; whole, the whole register's
+// evidence and chains for comparison.
 func BenchmarkAuditSince(b *testing.B) {
 	fx := registertest.Setup(b)
 	fx.Datum(b, registertest.DatumOpts{})
@@ -155,6 +248,36 @@ func BenchmarkAuditSince(b *testing.B) {
 			}
 		}
 	})
+	b.Run("since-all", func(b *testing.B) {
+		fx.Reg.UseSchemaCache(auditcache.Dir{Path: cacheDir})
+		if _, err := fx.Reg.AuditVerifySince(fx.Ctx, xid, nil); err != nil { // the cache filled
+			b.Fatal(err)
+		}
+		for b.Loop() {
+			ForgetFreshSchemas()
+			xid, err := fx.Reg.StatementXid(fx.Ctx, stmt)
+			if err != nil {
+				b.Fatal(err)
+			}
+			ev, err := fx.Reg.EvidenceVerifySince(fx.Ctx, stmt)
+			if err != nil || len(ev.Breaks) != 0 || ev.Commits != 1 {
+				b.Fatalf("evidence since: %v, %d commits, %+v", err, ev.Commits, ev.Breaks)
+			}
+			rep, err := fx.Reg.AuditVerifySince(fx.Ctx, xid, nil)
+			if err != nil || rep.Count() != 0 || rep.Versions != 50000 || rep.SchemaFrom != SchemaFromCache {
+				b.Fatalf("audit since: %v, %d versions, schema from %q, %+v %+v", err, rep.Versions, rep.SchemaFrom, rep.Breaks, rep.Findings)
+			}
+		}
+	})
+	b.Run("derive-schema", func(b *testing.B) {
+		for b.Loop() {
+			ForgetFreshSchemas()
+			rep, err := fx.Reg.AuditDeriveSince(fx.Ctx, xid)
+			if err != nil || rep.Count() != 0 || rep.SchemaFrom != SchemaFromCache {
+				b.Fatalf("derive since: %v, schema from %q, %+v", err, rep.SchemaFrom, rep.Findings)
+			}
+		}
+	})
 	b.Run("whole", func(b *testing.B) {
 		for b.Loop() {
 			ev, err := fx.Reg.EvidenceVerify(fx.Ctx, nil)
@@ -167,4 +290,18 @@ func BenchmarkAuditSince(b *testing.B) {
 			}
 		}
 	})
+}
+
+// cacheDir is the benchmarks' audit cache, removed by TestMain.
+var cacheDir string
+
+func TestMain(m *testing.M) {
+	d, err := os.MkdirTemp("", "cairn-bench-cache-")
+	if err != nil {
+		panic(err)
+	}
+	cacheDir = d
+	code := m.Run()
+	os.RemoveAll(d)
+	os.Exit(code)
 }

@@ -34,6 +34,9 @@ type Register struct {
 	// ClockTolerance of now.
 	clockMu      sync.Mutex
 	clockChecked bool
+	// schemaCache keeps the audit's reference schema between processes
+	// (UseSchemaCache); nil for none.
+	schemaCache SchemaCache
 }
 
 // New returns the register over pool (migrated by the caller).

@@ -102,11 +102,17 @@ func AuditHeightsOfAdjustment(ctx context.Context, db DBTX, id int64) ([]AuditHe
 
 // AuditHeightsNotOfPublished returns the versions of kind adjustment, or
 // citing an adjustment, whose adjustment is not published (a draft, a
-// discarded one, or none), by adjustment and mark.
-func AuditHeightsNotOfPublished(ctx context.Context, db DBTX) ([]AuditHeight, error) {
-	rows, err := db.Query(ctx, auditHeightColumns+` WHERE (h.adjustment_id IS NOT NULL OR h.source_kind = 'adjustment')
+// discarded one, or none), by adjustment and mark. With after not nil,
+// only the versions written by transactions after that one (an
+// incremental audit's: the index on created_xid finds them).
+func AuditHeightsNotOfPublished(ctx context.Context, db DBTX, after *uint64) ([]AuditHeight, error) {
+	cond, args := "", []any{}
+	if after != nil {
+		cond, args = " AND h.created_xid > $1::text::xid8", []any{strconv.FormatUint(*after, 10)}
+	}
+	rows, err := db.Query(ctx, auditHeightColumns+` WHERE (h.adjustment_id IS NOT NULL OR h.source_kind = 'adjustment')`+cond+`
 		AND NOT EXISTS (SELECT 1 FROM adjustment_event e WHERE e.adjustment_id = h.adjustment_id AND e.status = 'published')
-		ORDER BY h.adjustment_id, m.designation, h.id`)
+		ORDER BY h.adjustment_id, m.designation, h.id`, args...)
 	if err != nil {
 		return nil, translate(err)
 	}

@@ -142,3 +142,54 @@ func AdvisoryLock(ctx context.Context, conn *pgx.Conn, key int64) (unlock func()
 	}
 	return func() { conn.Exec(context.WithoutCancel(ctx), "SELECT pg_advisory_unlock($1)", key) }, nil
 }
+
+// DatabaseSettings are what a database was created with that a copy made
+// for it must share: its owner, encoding and locale.
+type DatabaseSettings struct {
+	Owner, Encoding, Collate, Ctype string
+	// LocaleProvider is c (libc) or i (ICU, with ICULocale).
+	LocaleProvider, ICULocale string
+}
+
+// DatabaseSettingsGet returns the settings of database name.
+func DatabaseSettingsGet(ctx context.Context, conn *pgx.Conn, name string) (DatabaseSettings, error) {
+	var s DatabaseSettings
+	err := conn.QueryRow(ctx, `SELECT pg_get_userbyid(datdba), pg_encoding_to_char(encoding), datcollate, datctype,
+		datlocprovider::text, coalesce(daticulocale, '') FROM pg_database WHERE datname = $1`, name).
+		Scan(&s.Owner, &s.Encoding, &s.Collate, &s.Ctype, &s.LocaleProvider, &s.ICULocale)
+	if err != nil {
+		return s, fmt.Errorf("read the settings of database %s: %w", name, translate(err))
+	}
+	return s, nil
+}
+
+// DatabaseCreateLike creates database name from template0 with the
+// encoding and locale of s (its owner is the connected role).
+func DatabaseCreateLike(ctx context.Context, conn *pgx.Conn, name string, s DatabaseSettings) error {
+	sql := "CREATE DATABASE " + pgx.Identifier{name}.Sanitize() + " TEMPLATE template0 ENCODING " + quoteLiteral(s.Encoding) +
+		" LC_COLLATE " + quoteLiteral(s.Collate) + " LC_CTYPE " + quoteLiteral(s.Ctype)
+	if s.LocaleProvider == "i" {
+		sql += " LOCALE_PROVIDER icu ICU_LOCALE " + quoteLiteral(s.ICULocale)
+	}
+	if _, err := conn.Exec(ctx, sql); err != nil {
+		return fmt.Errorf("create database %s: %w", name, translate(err))
+	}
+	return nil
+}
+
+// DatabaseRename renames database from to to; no session may be
+// connected to it.
+func DatabaseRename(ctx context.Context, conn *pgx.Conn, from, to string) error {
+	if _, err := conn.Exec(ctx, "ALTER DATABASE "+pgx.Identifier{from}.Sanitize()+" RENAME TO "+pgx.Identifier{to}.Sanitize()); err != nil {
+		return fmt.Errorf("rename database %s to %s: %w", from, to, translate(err))
+	}
+	return nil
+}
+
+// DatabaseSetOwner makes role the owner of database name.
+func DatabaseSetOwner(ctx context.Context, conn *pgx.Conn, name, role string) error {
+	if _, err := conn.Exec(ctx, "ALTER DATABASE "+pgx.Identifier{name}.Sanitize()+" OWNER TO "+pgx.Identifier{role}.Sanitize()); err != nil {
+		return fmt.Errorf("make %s the owner of database %s: %w", role, name, translate(err))
+	}
+	return nil
+}

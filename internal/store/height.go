@@ -3,7 +3,6 @@ package store
 import (
 	"context"
 	"fmt"
-	"strconv"
 	"strings"
 	"time"
 
@@ -396,49 +395,6 @@ func HeightListByIDs(ctx context.Context, db DBTX, ids []int64) ([]Height, error
 func HeightChainSpan(ctx context.Context, db DBTX) (lo, hi int64, err error) {
 	err = db.QueryRow(ctx, "SELECT coalesce(min(id), 0), coalesce(max(id), 0) FROM mark").Scan(&lo, &hi)
 	return lo, hi, translate(err)
-}
-
-// HeightChainEach calls fn with every version of the marks with ids from
-// lo to hi (inclusive), chain by chain (mark, datum) in version order,
-// with the fields of its canonical text only: no commit time, in-force
-// time or Current, which need a probe per row. h is reused from call to
-// call: fn copies what it keeps.
-//
-// With after not nil, only the chains with a version written by a
-// transaction after that one, each whole (an incremental audit's).
-func HeightChainEach(ctx context.Context, db DBTX, lo, hi int64, after *uint64, fn func(h *Height) error) error {
-	cond, args := "", []any{lo, hi}
-	if after != nil {
-		cond = " AND (h.mark_id, h.datum_id) IN (SELECT x.mark_id, x.datum_id FROM height x WHERE x.created_xid > $3::text::xid8)"
-		args = append(args, strconv.FormatUint(*after, 10))
-	}
-	rows, err := db.Query(ctx, `SELECT h.id, h.mark_id, m.designation, h.datum_id, d.code, h.version, h.supersedes,
-		h.value::text, h.unit, h.decimals, h.class, h.source_kind, h.source, h.adjustment_id,
-		h.reason, h.recorded_by, h.recorded_role, h.recorded_at, h.in_force_from, h.hash
-		FROM height h JOIN mark m ON m.id = h.mark_id JOIN datum d ON d.id = h.datum_id
-		WHERE h.mark_id BETWEEN $1 AND $2`+cond+` ORDER BY h.mark_id, h.datum_id, h.version, h.id`, args...)
-	if err != nil {
-		return translate(err)
-	}
-	defer rows.Close()
-	var h Height
-	var dec *int16
-	for rows.Next() {
-		h.Decimals = nil
-		if err := rows.Scan(&h.ID, &h.MarkID, &h.Designation, &h.DatumID, &h.DatumCode, &h.Version, &h.Supersedes,
-			&h.Value, &h.Unit, &dec, &h.Class, &h.SourceKind, &h.Source, &h.AdjustmentID,
-			&h.Reason, &h.RecordedBy, &h.RecordedRole, &h.RecordedAt, &h.InForceGiven, &h.Hash); err != nil {
-			return translate(err)
-		}
-		if dec != nil {
-			d := int(*dec)
-			h.Decimals = &d
-		}
-		if err := fn(&h); err != nil {
-			return err
-		}
-	}
-	return translate(rows.Err())
 }
 
 // SnapshotExport names the snapshot of tx (a REPEATABLE READ

@@ -4,7 +4,9 @@ package store
 
 import (
 	"context"
+	"crypto/sha256"
 	"database/sql"
+	"encoding/hex"
 	"errors"
 	"fmt"
 	"io/fs"
@@ -150,6 +152,26 @@ func CarryTransactionNumbers(ctx context.Context, db DBTX) (bool, error) {
 	}
 	return carried, nil
 }
+
+// MigrationsDigest is the SHA-256, in hex, of the embedded migrations:
+// each file's name and length and text, in order of name.
+var MigrationsDigest = sync.OnceValues(func() (string, error) {
+	files, err := fs.Glob(migrations.FS, "*.sql")
+	if err != nil {
+		return "", err
+	}
+	slices.Sort(files)
+	h := sha256.New()
+	for _, name := range files {
+		data, err := fs.ReadFile(migrations.FS, name)
+		if err != nil {
+			return "", err
+		}
+		fmt.Fprintf(h, "%s %d\n", name, len(data))
+		h.Write(data)
+	}
+	return hex.EncodeToString(h.Sum(nil)), nil
+})
 
 // embeddedVersions are the versions of the embedded migrations.
 var embeddedVersions = sync.OnceValues(func() ([]int64, error) {
