@@ -125,21 +125,19 @@ func bookWarnings(ctx context.Context, db store.DBTX, book *levelbook.Book) ([]s
 	// Points the turning-point pattern takes that name marks.
 	var tpFolded []string
 	tpLine := map[string]int{}
-	var points []string
+	var marks []string
 	pointLine := map[string]int{}
-	for _, s := range book.Sightings {
+	for _, s := range points(book) {
 		switch {
 		case s.TurningPoint:
-			k := names.Fold(s.Point)
+			k := names.Fold(s.Name)
 			if _, seen := tpLine[k]; !seen {
 				tpLine[k] = s.Line
 				tpFolded = append(tpFolded, k)
 			}
 		case !s.Spot:
-			if _, seen := pointLine[s.Point]; !seen {
-				pointLine[s.Point] = s.Line
-				points = append(points, s.Point)
-			}
+			pointLine[s.Name] = s.Line
+			marks = append(marks, s.Name)
 		}
 	}
 	if len(tpFolded) > 0 {
@@ -152,14 +150,14 @@ func bookWarnings(ctx context.Context, db store.DBTX, book *levelbook.Book) ([]s
 				book.Name, tpLine[names.Fold(m.Designation)], m.Designation, book.Meta.TurningPoints, m.Designation, m.Designation))
 		}
 	}
-	if book.Meta.Date == "" || len(points) == 0 {
+	if book.Meta.Date == "" || len(marks) == 0 {
 		return out, nil
 	}
 	dated, err := time.Parse(time.DateOnly, book.Meta.Date)
 	if err != nil {
 		return out, nil // refused elsewhere
 	}
-	ms, err := store.MarkListByDesignations(ctx, db, points)
+	ms, err := store.MarkListByDesignations(ctx, db, marks)
 	if err != nil {
 		return nil, fmt.Errorf("look up the marks of %s: %w", book.Name, err)
 	}

@@ -110,8 +110,15 @@ func TestRecordKeepsBookVerbatim(t *testing.T) {
 	if err != nil {
 		t.Fatal(err)
 	}
+	parsed, err := levelbook.Parse("books/harbour.csv", book)
+	if err != nil {
+		t.Fatal(err)
+	}
+	if len(sights) != len(parsed.Sightings) {
+		t.Fatalf("%d sightings stored, the book has %d", len(sights), len(parsed.Sightings))
+	}
 	for i, s := range sights {
-		want := rec.Result.Book.Sightings[i]
+		want := parsed.Sightings[i]
 		if s.Seq != i+1 || s.Line != want.Line || s.Point != want.Point || s.Sight != string(want.Sight) ||
 			s.Middle != want.Middle || s.Upper == nil || *s.Upper != want.Upper || s.Distance == nil || *s.Distance != want.Distance {
 			t.Errorf("sighting %d: %+v, want %+v", i+1, s, want)
