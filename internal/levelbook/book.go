@@ -72,6 +72,7 @@ type Book struct {
 	Points []Point `json:"-"`
 	Count  int     `json:"-"`
 
+	size          int                // of the bytes read
 	turningPoints []string           // compiled Meta.TurningPoints
 	observations  *[sha256.Size]byte // the fingerprint, in a book read by Summarize
 }

@@ -175,12 +175,15 @@ type Scanner struct {
 	lastFS   Sighting
 	hasFS    bool
 	points   map[string]int // index in book.Points
+	again    bool           // Rescan: the shape was checked already
+	size     int
 }
 
 // NewScanner reads the book's metadata and is ready to read its rows; an
 // error is an *Error (not UTF-8 text, a bad metadata line).
 func NewScanner(name string, data []byte) (*Scanner, error) {
 	p := &parser{book: &Book{Name: name}}
+	size := len(data)
 	data = bytes.TrimPrefix(data, []byte("\xEF\xBB\xBF"))
 	if !utf8.Valid(data) {
 		line := 1 + bytes.Count(data[:firstInvalid(data)], []byte("\n"))
@@ -193,7 +196,24 @@ func NewScanner(name string, data []byte) (*Scanner, error) {
 	r.Comment = '#'
 	r.FieldsPerRecord = -1
 	r.ReuseRecord = true
-	return &Scanner{p: p, r: r, points: map[string]int{}}, nil
+	return &Scanner{p: p, r: r, points: map[string]int{}, size: size}, nil
+}
+
+// Rescan reads again, a sighting at a time, the bytes data that book
+// was read from by Summarize (or Parse): the same sightings, without the
+// checks of the run's shape and the table of its points, which were made
+// on the first reading. Data of another length is refused; other bytes
+// of the same length are the caller's fault.
+func (b *Book) Rescan(data []byte) (*Scanner, error) {
+	if b.Count == 0 || len(data) != b.size {
+		return nil, fmt.Errorf("%s: rescan: not the bytes the book was read from", b.Name)
+	}
+	sc, err := NewScanner(b.Name, data)
+	if err != nil {
+		return nil, err
+	}
+	sc.again = true
+	return sc, nil
 }
 
 // Book is the book being read: its metadata and header as soon as they
@@ -245,6 +265,10 @@ func (sc *Scanner) Next() bool {
 			return sc.fail(err)
 		}
 		sc.count++
+		if sc.again {
+			sc.cur = s
+			return true
+		}
 		if sc.shapeErr != nil {
 			continue // every row is still read, for a fault of its own
 		}
@@ -267,6 +291,8 @@ func (sc *Scanner) finish() {
 	sc.done = true
 	p := sc.p
 	switch {
+	case sc.again:
+		p.book.Count, p.book.size = sc.count, sc.size
 	case sc.cols == nil:
 		sc.err = p.errorf(0, "", "the book is empty: no header row")
 	case sc.count == 0:
@@ -278,7 +304,7 @@ func (sc *Scanner) finish() {
 	case sc.lastFS.TurningPoint:
 		sc.err = p.errorf(sc.lastFS.Line, "point", "the run ends on turning point %q; it must end on a mark", sc.lastFS.Point)
 	default:
-		p.book.Count = sc.count
+		p.book.Count, p.book.size = sc.count, sc.size
 	}
 	sc.points = nil
 }

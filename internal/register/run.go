@@ -393,7 +393,7 @@ func (r *Register) Record(ctx context.Context, p RecordParams) (*Recorded, error
 		if err != nil {
 			return err
 		}
-		if err := copySightings(ctx, tx, p, id); err != nil {
+		if err := copySightings(ctx, tx, p, book, id); err != nil {
 			return err
 		}
 		ids := map[string]int64{}
@@ -894,7 +894,7 @@ func reduceBook(p RecordParams, book *levelbook.Book, opts reduce.Options) (*red
 		}
 		return res, nil
 	}
-	sc, err := levelbook.NewScanner(p.Path, p.Book)
+	sc, err := book.Rescan(p.Book)
 	if err != nil {
 		return nil, err
 	}
@@ -913,8 +913,8 @@ func reduceBook(p RecordParams, book *levelbook.Book, opts reduce.Options) (*red
 
 // copySightings stores the sightings of p's book as run id's, read again
 // from its bytes a sighting at a time.
-func copySightings(ctx context.Context, tx pgx.Tx, p RecordParams, id int64) error {
-	sc, err := levelbook.NewScanner(p.Path, p.Book)
+func copySightings(ctx context.Context, tx pgx.Tx, p RecordParams, book *levelbook.Book, id int64) error {
+	sc, err := book.Rescan(p.Book)
 	if err != nil {
 		return err
 	}
