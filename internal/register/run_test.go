@@ -589,3 +589,40 @@ func BenchmarkRecordLargestBook(b *testing.B) {
 	b.ReportMetric(float64(l.Setups), "setups")
 	b.ReportMetric(peakMB(b), "peak-MB")
 }
+
+// A mark named like a turning point of the book is warned of at the
+// turning point's first line, however many turning points come before it
+// (they are looked up some thousands at a time), once, and in the order
+// of the marks' designations.
+func TestTurningPointsNamedLikeMarksPastABatch(t *testing.T) {
+	t.Parallel()
+	l := booktest.Loop{Setups: 12000, MarkEvery: 4000, Seed: 5}
+	data := l.Book()
+	b := runSetup(t, append(l.Marks(), "TP8000", "TP20")...)
+	// The lines, found in the bytes: the first row naming each.
+	lineOf := func(point string) int {
+		for i, row := range strings.Split(string(data), "\n") {
+			if strings.HasPrefix(row, point+",") {
+				return i + 1
+			}
+		}
+		t.Fatalf("%s not in the book", point)
+		return 0
+	}
+	rec, err := b.Reg.Record(b.Ctx, params("long.csv", data))
+	if err != nil {
+		t.Fatal(err)
+	}
+	want := []string{
+		fmt.Sprintf("WARNING: long.csv: line %d: TP20 is a mark", lineOf("TP20")),
+		fmt.Sprintf("WARNING: long.csv: line %d: TP8000 is a mark", lineOf("TP8000")),
+	}
+	if len(rec.Warnings) != len(want) {
+		t.Fatalf("warnings %q, want %d", rec.Warnings, len(want))
+	}
+	for i, w := range want {
+		if !strings.HasPrefix(rec.Warnings[i], w) {
+			t.Errorf("warning %d: %s, want %s...", i+1, rec.Warnings[i], w)
+		}
+	}
+}
