@@ -164,6 +164,7 @@ func ReduceScan(book *levelbook.Book, sightings iter.Seq[*levelbook.Sighting], o
 	r.buildDoubleRuns()
 	r.buildConnections(opts.Published)
 	r.spotHeights(r.sideRows)
+	r.lens = nil // the held sights had them; nothing else does
 	r.check()
 	return r, nil
 }
