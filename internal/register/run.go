@@ -82,7 +82,9 @@ type RecordParams struct {
 // Recorded is a run just recorded.
 type Recorded struct {
 	Run store.Run
-	// Result is the book's reduction (the same as `run check` shows).
+	// Result is the book's reduction (the same as `run check` shows;
+	// without RecordParams.KeepNotes, no rows or setups, and its Book has
+	// the book's metadata and no points or sightings).
 	Result *reduce.Result
 	// Marks are the marks the run touched, with the condition current at
 	// recording.
@@ -354,6 +356,10 @@ func (r *Register) Record(ctx context.Context, p RecordParams) (*Recorded, error
 		if out.Warnings, err = bookWarnings(ctx, tx, book); err != nil {
 			return err
 		}
+		// The book's points have served (its marks are named, its
+		// warnings said): a book of the largest size has half a million,
+		// let go before its bytes are sent.
+		book.Points = nil
 		// The checks against the register: the published heights of the
 		// book's other marks (check connections) and the sections other
 		// runs levelled the other way (double-run sections).
