@@ -159,6 +159,7 @@ func runRecordRun(opts *runRecordOptions) error {
 	}
 	p := opts.RecordParams
 	p.Path, p.Book = opts.BookPath, data
+	p.KeepNotes = true // the report shows the reduced notes
 	if opts.StandardsName != "" {
 		if p.Standards, err = resolveStandards(opts.StandardsName, "", ""); err != nil {
 			return err

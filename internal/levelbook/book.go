@@ -14,6 +14,7 @@
 package levelbook
 
 import (
+	"crypto/sha256"
 	"fmt"
 
 	"cairn/internal/standards"
@@ -63,11 +64,34 @@ type Book struct {
 	HeaderLine int `json:"header_line"`
 	// Columns are the header's column names, in file order, lower case.
 	Columns []string `json:"columns"`
-	// Sightings are the rows of the book in field order.
+	// Sightings are the rows of the book in field order (none in a book
+	// read by Summarize).
 	Sightings []Sighting `json:"sightings"`
+	// Points are the points the book sights, in the order it first
+	// sights them; Count is its number of sightings.
+	Points []Point `json:"-"`
+	Count  int     `json:"-"`
 
-	turningPoints []string // compiled Meta.TurningPoints
+	size          int                // of the bytes read
+	turningPoints []string           // compiled Meta.TurningPoints
+	observations  *[sha256.Size]byte // the fingerprint, in a book read by Summarize
 }
+
+// Point is a point a book sights, as the book's sightings describe it:
+// its name, the line first sighting it, whether it is a turning point or
+// a spot height (the same on every row, or the book is refused), and
+// whether a backsight or foresight is on it (it carries the line).
+type Point struct {
+	Name         string
+	Line         int
+	TurningPoint bool
+	Spot         bool
+	Carries      bool
+}
+
+// Mark says whether the point is a mark: neither a turning point nor a
+// spot height.
+func (p Point) Mark() bool { return !p.TurningPoint && !p.Spot }
 
 // Meta is the description of a run from the `# key: value` comments before
 // the header row.

@@ -4,6 +4,7 @@ import (
 	"bufio"
 	"bytes"
 	"crypto/sha256"
+	"hash"
 	"io"
 	"strconv"
 	"strings"
@@ -57,65 +58,120 @@ func (b *Book) writeObservations(w io.Writer) {
 	for i := range b.Sightings {
 		threeWire = threeWire || b.Sightings[i].ThreeWire
 	}
+	bw.WriteString(observationsHead(b.Meta, threeWire))
+	var line []byte
+	for i := range b.Sightings {
+		line = appendObservation(line[:0], &b.Sightings[i])
+		bw.Write(line)
+	}
+	bw.Flush()
+}
+
+// observationsHead is the first three lines of Observations' text.
+func observationsHead(m Meta, threeWire bool) string {
 	reading := "-"
 	if threeWire {
-		reading = string(b.Meta.Reading)
+		reading = string(m.Reading)
 		if reading == "" {
 			reading = string(DefaultReading)
 		}
 	}
-	bw.WriteString(ObservationsVersion + "\n")
-	bw.WriteString("unit=" + string(b.Meta.Unit) + "\n")
-	bw.WriteString("reading=" + reading + "\n")
-	var num []byte
-	number := func(v float64) {
-		num = appendCanonicalNumber(num[:0], v)
-		bw.Write(num)
+	return ObservationsVersion + "\n" + "unit=" + string(m.Unit) + "\n" + "reading=" + reading + "\n"
+}
+
+// appendObservation appends the line of Observations' text of sighting s.
+func appendObservation(b []byte, s *Sighting) []byte {
+	kind := "mark"
+	if s.TurningPoint {
+		kind = "tp"
 	}
-	for i := range b.Sightings {
-		s := &b.Sightings[i]
-		kind := "mark"
-		if s.TurningPoint {
-			kind = "tp"
-		}
-		pointEscaper.WriteString(bw, s.Point)
-		bw.WriteByte('\t')
-		bw.WriteString(string(s.Sight))
-		bw.WriteByte('\t')
-		bw.WriteString(kind)
-		bw.WriteByte('\t')
-		if s.ThreeWire {
-			number(s.Upper)
-		}
-		bw.WriteByte('\t')
-		number(s.Middle)
-		bw.WriteByte('\t')
-		if s.ThreeWire {
-			number(s.Lower)
-		}
-		bw.WriteByte('\t')
-		if s.HasDistance() {
-			bw.WriteString(string(s.DistanceFrom))
-			bw.WriteByte('\t')
-			number(s.Distance)
-		} else {
-			bw.WriteString(string(DistanceNone))
-			bw.WriteByte('\t')
-		}
-		bw.WriteByte('\n')
+	if strings.ContainsAny(s.Point, "%\t\r\n") {
+		b = append(b, pointEscaper.Replace(s.Point)...)
+	} else {
+		b = append(b, s.Point...)
 	}
-	bw.Flush()
+	b = append(b, '\t')
+	b = append(b, s.Sight...)
+	b = append(b, '\t')
+	b = append(b, kind...)
+	b = append(b, '\t')
+	if s.ThreeWire {
+		b = appendCanonicalNumber(b, s.Upper)
+	}
+	b = append(b, '\t')
+	b = appendCanonicalNumber(b, s.Middle)
+	b = append(b, '\t')
+	if s.ThreeWire {
+		b = appendCanonicalNumber(b, s.Lower)
+	}
+	b = append(b, '\t')
+	if s.HasDistance() {
+		b = append(b, s.DistanceFrom...)
+		b = append(b, '\t')
+		b = appendCanonicalNumber(b, s.Distance)
+	} else {
+		b = append(b, DistanceNone...)
+		b = append(b, '\t')
+	}
+	return append(b, '\n')
 }
 
 // ObservationsSHA256 is the SHA-256 of the book's canonical observations
 // (Observations): the fingerprint that tells two books of the same field
 // work apart from two books of different work. The text is hashed as it
-// is written, never held.
+// is written, never held. A book read by Summarize has it from its
+// reading.
 func (b *Book) ObservationsSHA256() [sha256.Size]byte {
+	if b.Sightings == nil && b.observations != nil {
+		return *b.observations
+	}
 	h := sha256.New()
 	b.writeObservations(h)
 	var sum [sha256.Size]byte
 	h.Sum(sum[:0])
+	return sum
+}
+
+// observationsHasher hashes Observations' text a sighting at a time,
+// before it is known whether any sighting has three wires (which the
+// head says): the sightings' lines are hashed after each of the two
+// heads there can be, and sum takes the one that holds.
+type observationsHasher struct {
+	lines     []byte
+	dash, all hash.Hash // after "reading=-", after "reading=<mode>"
+	threeWire bool
+}
+
+func newObservationsHasher(m Meta) *observationsHasher {
+	h := &observationsHasher{lines: make([]byte, 0, 64<<10), dash: sha256.New(), all: sha256.New()}
+	h.dash.Write([]byte(observationsHead(m, false)))
+	h.all.Write([]byte(observationsHead(m, true)))
+	return h
+}
+
+func (h *observationsHasher) add(s *Sighting) {
+	h.threeWire = h.threeWire || s.ThreeWire
+	h.lines = appendObservation(h.lines, s)
+	if len(h.lines) >= 60<<10 {
+		h.flush()
+	}
+}
+
+func (h *observationsHasher) flush() {
+	h.dash.Write(h.lines)
+	h.all.Write(h.lines)
+	h.lines = h.lines[:0]
+}
+
+// sum is the fingerprint of the sightings added.
+func (h *observationsHasher) sum() [sha256.Size]byte {
+	h.flush()
+	which := h.dash
+	if h.threeWire {
+		which = h.all
+	}
+	var sum [sha256.Size]byte
+	which.Sum(sum[:0])
 	return sum
 }
 

@@ -116,11 +116,249 @@ func sizeText(size int64) string {
 // every error. The error, if any, is an *Error naming the line and field of
 // the first fault found.
 func Parse(name string, data []byte) (*Book, error) {
-	p := &parser{book: &Book{Name: name}}
-	if err := p.parse(data); err != nil {
+	sc, err := NewScanner(name, data)
+	if err != nil {
 		return nil, err
 	}
-	return p.book, nil
+	sc.p.book.Sightings = make([]Sighting, 0, bytes.Count(data, []byte("\n"))+1)
+	for sc.Next() {
+		sc.p.book.Sightings = append(sc.p.book.Sightings, *sc.Sighting())
+	}
+	if err := sc.Err(); err != nil {
+		return nil, err
+	}
+	return sc.Book(), nil
+}
+
+// Summarize reads the level book data as Parse does, with the same checks
+// and errors, but keeps none of its sightings: the book it returns has
+// its metadata, its Points, Count and observations fingerprint
+// (ObservationsSHA256), and no Sightings. A NewScanner over the same data
+// gives the sightings again, one at a time, so that a book of any size
+// is read in memory bounded by its number of distinct points.
+func Summarize(name string, data []byte) (*Book, error) {
+	sc, err := NewScanner(name, data)
+	if err != nil {
+		return nil, err
+	}
+	h := newObservationsHasher(sc.Book().Meta)
+	for sc.Next() {
+		h.add(sc.Sighting())
+	}
+	if err := sc.Err(); err != nil {
+		return nil, err
+	}
+	b := sc.Book()
+	sum := h.sum()
+	b.observations = &sum
+	return b, nil
+}
+
+// Scanner reads a level book's sightings one at a time, in field order,
+// making every check of Parse: Next stops at the first fault, and Err then
+// names it as Parse would (a fault in a row is reported before a fault in
+// the shape of the run found on an earlier row, as Parse checks the shape
+// once every row has been read, and no sighting is given after a fault of
+// shape).
+type Scanner struct {
+	p     *parser
+	r     *csv.Reader
+	cols  map[string]int
+	cur   Sighting
+	count int
+	err   error
+	done  bool
+
+	// The shape of the run so far (checkShape, a row at a time).
+	shapeErr *Error
+	open     int // line of the backsight of the open setup; 0 when none
+	lastFS   Sighting
+	hasFS    bool
+	points   map[string]int // index in book.Points
+	again    bool           // Rescan: the shape was checked already
+	size     int
+}
+
+// NewScanner reads the book's metadata and is ready to read its rows; an
+// error is an *Error (not UTF-8 text, a bad metadata line).
+func NewScanner(name string, data []byte) (*Scanner, error) {
+	p := &parser{book: &Book{Name: name}}
+	size := len(data)
+	data = bytes.TrimPrefix(data, []byte("\xEF\xBB\xBF"))
+	if !utf8.Valid(data) {
+		line := 1 + bytes.Count(data[:firstInvalid(data)], []byte("\n"))
+		return nil, p.errorf(line, "", "not UTF-8 text")
+	}
+	if err := p.parseMeta(data); err != nil {
+		return nil, err
+	}
+	r := csv.NewReader(bytes.NewReader(data))
+	r.Comment = '#'
+	r.FieldsPerRecord = -1
+	r.ReuseRecord = true
+	return &Scanner{p: p, r: r, points: map[string]int{}, size: size}, nil
+}
+
+// Rescan reads again, a sighting at a time, the bytes data that book
+// was read from by Summarize (or Parse): the same sightings, without the
+// checks of the run's shape and the table of its points, which were made
+// on the first reading. Data of another length is refused; other bytes
+// of the same length are the caller's fault.
+func (b *Book) Rescan(data []byte) (*Scanner, error) {
+	if b.Count == 0 || len(data) != b.size {
+		return nil, fmt.Errorf("%s: rescan: not the bytes the book was read from", b.Name)
+	}
+	sc, err := NewScanner(b.Name, data)
+	if err != nil {
+		return nil, err
+	}
+	sc.again = true
+	return sc, nil
+}
+
+// Book is the book being read: its metadata and header as soon as they
+// are read; once Next has returned false with no error, its Points and
+// Count too. Its Sightings are not kept.
+func (sc *Scanner) Book() *Book { return sc.p.book }
+
+// Sighting is the sighting Next has just read; it is overwritten by the
+// next call.
+func (sc *Scanner) Sighting() *Sighting { return &sc.cur }
+
+// Err is the first fault found, as an *Error, or nil.
+func (sc *Scanner) Err() error {
+	if sc.err == nil {
+		return nil
+	}
+	return sc.err
+}
+
+// Next reads the next sighting, reporting false at the end of the book
+// or at its first fault (see Err).
+func (sc *Scanner) Next() bool {
+	if sc.done {
+		return false
+	}
+	p := sc.p
+	for {
+		rec, err := sc.r.Read()
+		if err == io.EOF {
+			sc.finish()
+			return false
+		}
+		if err != nil {
+			var ce *csv.ParseError
+			if errors.As(err, &ce) {
+				return sc.fail(p.errorf(ce.Line, "", "bad CSV: %v", ce.Err))
+			}
+			return sc.fail(p.errorf(0, "", "bad CSV: %v", err))
+		}
+		line, _ := sc.r.FieldPos(0)
+		if sc.cols == nil {
+			if sc.cols, err = p.parseHeader(line, rec); err != nil {
+				return sc.fail(err)
+			}
+			continue
+		}
+		s, err := p.parseRow(line, rec, sc.cols)
+		if err != nil {
+			return sc.fail(err)
+		}
+		sc.count++
+		if sc.again {
+			sc.cur = s
+			return true
+		}
+		if sc.shapeErr != nil {
+			continue // every row is still read, for a fault of its own
+		}
+		if err := sc.shape(&s); err != nil {
+			sc.shapeErr = err
+			continue
+		}
+		sc.cur = s
+		return true
+	}
+}
+
+func (sc *Scanner) fail(err error) bool {
+	sc.err, sc.done = err, true
+	return false
+}
+
+// finish makes the checks of the book as a whole, once every row is read.
+func (sc *Scanner) finish() {
+	sc.done = true
+	p := sc.p
+	switch {
+	case sc.again:
+		p.book.Count, p.book.size = sc.count, sc.size
+	case sc.cols == nil:
+		sc.err = p.errorf(0, "", "the book is empty: no header row")
+	case sc.count == 0:
+		sc.err = p.errorf(p.book.HeaderLine, "", "the book has no sightings after the header row")
+	case sc.shapeErr != nil:
+		sc.err = sc.shapeErr
+	case sc.open > 0:
+		sc.err = p.errorf(sc.open, "sight", "the book ends after this backsight: the setup has no foresight")
+	case sc.lastFS.TurningPoint:
+		sc.err = p.errorf(sc.lastFS.Line, "point", "the run ends on turning point %q; it must end on a mark", sc.lastFS.Point)
+	default:
+		p.book.Count, p.book.size = sc.count, sc.size
+	}
+	sc.points = nil
+}
+
+// shape checks the sighting s against those before it: the run begins
+// with a backsight on a mark; setups are BS, any number of IS, FS; each BS
+// is on the point of the FS before it; a point is a spot height on every
+// row that sights it, or on none. It keeps the book's Points.
+func (sc *Scanner) shape(s *Sighting) *Error {
+	p := sc.p
+	if len(p.book.Points) == 0 {
+		if s.Sight != Backsight {
+			return p.errorf(s.Line, "sight", "the run must begin with a backsight, not %s", s.Sight)
+		}
+		if s.TurningPoint {
+			return p.errorf(s.Line, "point", "the run starts on turning point %q; it must start on a mark", s.Point)
+		}
+	}
+	k, seen := sc.points[s.Point]
+	if !seen {
+		k = len(p.book.Points)
+		name := strings.Clone(s.Point)
+		sc.points[name] = k
+		p.book.Points = append(p.book.Points, Point{Name: name, Line: s.Line, TurningPoint: s.TurningPoint, Spot: s.Spot})
+	} else if f := p.book.Points[k]; s.Spot != f.Spot {
+		if s.Spot {
+			return p.errorf(s.Line, "kind", "%q is declared a spot height here but not on line %d (declare it %s on every row that sights it, or on none)", s.Point, f.Line, KindSpot)
+		}
+		return p.errorf(s.Line, "kind", "%q is declared a spot height on line %d but not here (declare it %s on every row that sights it, or on none)", s.Point, f.Line, KindSpot)
+	}
+	switch s.Sight {
+	case Backsight:
+		if sc.open > 0 {
+			return p.errorf(s.Line, "sight", "a second backsight in a row: the setup begun on line %d has no foresight", sc.open)
+		}
+		if sc.hasFS && sc.lastFS.Point != s.Point {
+			return p.errorf(s.Line, "point", "backsight on %q, but the foresight before it (line %d) was on %q", s.Point, sc.lastFS.Line, sc.lastFS.Point)
+		}
+		sc.open = s.Line
+	case Intermediate:
+		if sc.open == 0 {
+			return p.errorf(s.Line, "sight", "an intermediate sight outside a setup: no backsight before it since line %d", sc.lastFS.Line)
+		}
+	case Foresight:
+		if sc.open == 0 {
+			return p.errorf(s.Line, "sight", "a foresight without a backsight: the setup ended on line %d", sc.lastFS.Line)
+		}
+		sc.open, sc.hasFS = 0, true
+		sc.lastFS = Sighting{Line: s.Line, Point: p.book.Points[k].Name, TurningPoint: s.TurningPoint}
+	}
+	if s.Sight != Intermediate {
+		p.book.Points[k].Carries = true
+	}
+	return nil
 }
 
 type parser struct {
@@ -130,55 +368,6 @@ type parser struct {
 
 func (p *parser) errorf(line int, field, format string, a ...any) *Error {
 	return &Error{File: p.book.Name, Line: line, Field: field, Msg: fmt.Sprintf(format, a...)}
-}
-
-func (p *parser) parse(data []byte) error {
-	data = bytes.TrimPrefix(data, []byte("\xEF\xBB\xBF"))
-	if !utf8.Valid(data) {
-		line := 1 + bytes.Count(data[:firstInvalid(data)], []byte("\n"))
-		return p.errorf(line, "", "not UTF-8 text")
-	}
-	if err := p.parseMeta(data); err != nil {
-		return err
-	}
-
-	p.book.Sightings = make([]Sighting, 0, bytes.Count(data, []byte("\n"))+1)
-	r := csv.NewReader(bytes.NewReader(data))
-	r.Comment = '#'
-	r.FieldsPerRecord = -1
-	var cols map[string]int
-	for {
-		rec, err := r.Read()
-		if err == io.EOF {
-			break
-		}
-		if err != nil {
-			var ce *csv.ParseError
-			if errors.As(err, &ce) {
-				return p.errorf(ce.Line, "", "bad CSV: %v", ce.Err)
-			}
-			return p.errorf(0, "", "bad CSV: %v", err)
-		}
-		line, _ := r.FieldPos(0)
-		if cols == nil {
-			if cols, err = p.parseHeader(line, rec); err != nil {
-				return err
-			}
-			continue
-		}
-		s, err := p.parseRow(line, rec, cols)
-		if err != nil {
-			return err
-		}
-		p.book.Sightings = append(p.book.Sightings, s)
-	}
-	if cols == nil {
-		return p.errorf(0, "", "the book is empty: no header row")
-	}
-	if len(p.book.Sightings) == 0 {
-		return p.errorf(p.book.HeaderLine, "", "the book has no sightings after the header row")
-	}
-	return p.checkShape()
 }
 
 func firstInvalid(b []byte) int {
@@ -202,9 +391,14 @@ func (p *parser) parseMeta(data []byte) error {
 	m.TurningPoints = DefaultTurningPoints
 	m.Lines = map[string]int{}
 	headerLine := 0
-	for i, raw := range strings.Split(string(data), "\n") {
-		line := i + 1
-		text := strings.TrimRight(raw, "\r")
+	for line, rest := 1, data; len(rest) > 0; line++ {
+		raw := rest
+		if i := bytes.IndexByte(rest, '\n'); i >= 0 {
+			raw, rest = rest[:i], rest[i+1:]
+		} else {
+			rest = nil
+		}
+		text := string(bytes.TrimRight(raw, "\r"))
 		if strings.TrimSpace(text) == "" {
 			continue
 		}
@@ -527,64 +721,6 @@ func parseNumber(s string) (float64, error) {
 		return 0, fmt.Errorf("out of range %q (more than %g)", s, maxMagnitude)
 	}
 	return v, nil
-}
-
-// checkShape checks that the sightings form setups: BS, any number of IS,
-// FS; each BS on the point of the FS before it; starting and ending on a
-// mark.
-func (p *parser) checkShape() error {
-	ss := p.book.Sightings
-	first := ss[0]
-	if first.Sight != Backsight {
-		return p.errorf(first.Line, "sight", "the run must begin with a backsight, not %s", first.Sight)
-	}
-	if first.TurningPoint {
-		return p.errorf(first.Line, "point", "the run starts on turning point %q; it must start on a mark", first.Point)
-	}
-	open := -1   // index of the backsight of the open setup
-	lastFS := -1 // index of the last foresight
-	// A point is a spot height on every row that sights it, or on none.
-	type firstRow struct {
-		line int
-		spot bool
-	}
-	firstOf := map[string]firstRow{}
-	for i, s := range ss {
-		if f, seen := firstOf[s.Point]; !seen {
-			firstOf[s.Point] = firstRow{s.Line, s.Spot}
-		} else if s.Spot != f.spot {
-			if s.Spot {
-				return p.errorf(s.Line, "kind", "%q is declared a spot height here but not on line %d (declare it %s on every row that sights it, or on none)", s.Point, f.line, KindSpot)
-			}
-			return p.errorf(s.Line, "kind", "%q is declared a spot height on line %d but not here (declare it %s on every row that sights it, or on none)", s.Point, f.line, KindSpot)
-		}
-		switch s.Sight {
-		case Backsight:
-			if open >= 0 {
-				return p.errorf(s.Line, "sight", "a second backsight in a row: the setup begun on line %d has no foresight", ss[open].Line)
-			}
-			if lastFS >= 0 && ss[lastFS].Point != s.Point {
-				return p.errorf(s.Line, "point", "backsight on %q, but the foresight before it (line %d) was on %q", s.Point, ss[lastFS].Line, ss[lastFS].Point)
-			}
-			open = i
-		case Intermediate:
-			if open < 0 {
-				return p.errorf(s.Line, "sight", "an intermediate sight outside a setup: no backsight before it since line %d", ss[lastFS].Line)
-			}
-		case Foresight:
-			if open < 0 {
-				return p.errorf(s.Line, "sight", "a foresight without a backsight: the setup ended on line %d", ss[lastFS].Line)
-			}
-			open, lastFS = -1, i
-		}
-	}
-	if open >= 0 {
-		return p.errorf(ss[open].Line, "sight", "the book ends after this backsight: the setup has no foresight")
-	}
-	if last := ss[lastFS]; last.TurningPoint {
-		return p.errorf(last.Line, "point", "the run ends on turning point %q; it must end on a mark", last.Point)
-	}
-	return nil
 }
 
 // typoLimit bounds the hint for an unknown key or column: the nearest

@@ -50,6 +50,27 @@ func Reduce(book *levelbook.Book, opts Options) (*Result, error) {
 	if book == nil || len(book.Sightings) == 0 {
 		return nil, fmt.Errorf("reduce: empty book")
 	}
+	r, err := newResult(book, opts)
+	if err != nil {
+		return nil, err
+	}
+	r.Rows, r.Setups = make([]Row, 0, len(book.Sightings)), make([]Setup, 0, len(book.Sightings)/2)
+	if err := r.reduceRows(book); err != nil {
+		return nil, err
+	}
+	r.buildSections()
+	r.anchor()
+	r.buildMisclosures()
+	r.buildDoubleRuns()
+	r.buildConnections(opts.Published)
+	r.spotHeights(r.Rows)
+	r.check()
+	return r, nil
+}
+
+// newResult begins the reduction of book with opts: its class, standards
+// and held marks, checked against the book.
+func newResult(book *levelbook.Book, opts Options) (*Result, error) {
 	m := book.Meta
 	r := &Result{
 		Name:                book.Name,
@@ -59,8 +80,6 @@ func Reduce(book *levelbook.Book, opts Options) (*Result, error) {
 		Reading:             m.Reading,
 		CurvatureRefraction: opts.CurvatureRefraction,
 		Book:                book,
-		Rows:                make([]Row, 0, len(book.Sightings)),
-		Setups:              make([]Setup, 0, len(book.Sightings)/2),
 		Sections:            []Section{},
 		Misclosures:         []Misclosure{},
 		Checks:              []Check{},
@@ -87,16 +106,6 @@ func Reduce(book *levelbook.Book, opts Options) (*Result, error) {
 	if err := r.setHeld(book, opts.Hold); err != nil {
 		return nil, err
 	}
-	if err := r.reduceRows(book); err != nil {
-		return nil, err
-	}
-	r.buildSections()
-	r.anchor()
-	r.buildMisclosures()
-	r.buildDoubleRuns()
-	r.buildConnections(opts.Published)
-	r.spotHeights()
-	r.check()
 	return r, nil
 }
 
@@ -142,13 +151,27 @@ func CheckHold(book *levelbook.Book, name string) error {
 	if book.IsTurningPoint(name) {
 		return fmt.Errorf("cannot hold %s: it is a turning point", name)
 	}
-	for _, s := range book.Sightings {
-		if s.Point == name && s.Spot {
-			return fmt.Errorf("cannot hold %s: it is a spot height (line %d), not a mark", name, s.Line)
+	if book.Points == nil {
+		// A book made by hand, not read: its sightings say it.
+		for _, s := range book.Sightings {
+			if s.Point == name && s.Spot {
+				return fmt.Errorf("cannot hold %s: it is a spot height (line %d), not a mark", name, s.Line)
+			}
+		}
+		for _, s := range book.Sightings {
+			if s.Point == name && s.Sight != levelbook.Intermediate {
+				return nil
+			}
 		}
 	}
-	for _, s := range book.Sightings {
-		if s.Point == name && s.Sight != levelbook.Intermediate {
+	for _, p := range book.Points {
+		if p.Name != name {
+			continue
+		}
+		if p.Spot {
+			return fmt.Errorf("cannot hold %s: it is a spot height (line %d), not a mark", name, p.Line)
+		}
+		if p.Carries {
 			return nil
 		}
 	}
@@ -266,11 +289,10 @@ func (r *Result) buildSections() {
 // start at 0.
 func (r *Result) anchor() {
 	shift, found := 0.0, false
-	r.anchorRow = -1
-	for i, row := range r.Rows {
+	for _, row := range r.Rows {
 		if hv, ok := r.Held[row.Point]; ok && row.Sight != levelbook.Intermediate {
 			shift, found = hv-row.HeightM, true
-			r.anchorRow = i
+			r.anchorAt, r.anchored = row, true
 			break
 		}
 	}
@@ -439,29 +461,30 @@ func (r *Result) check() {
 
 	// Three-wire consistency, every class (EN0593 §4): the profile's limit
 	// for the run's class, else the built-in 0.003 m.
+	rc := r.rc
+	if rc == nil {
+		rc = r.newRowCheck()
+		for i := range r.Book.Sightings {
+			rc.sighting(&r.Book.Sightings[i])
+		}
+		for i := range r.Rows {
+			rc.row(&r.Rows[i])
+		}
+		for i := range r.Setups {
+			rc.setup(&r.Setups[i])
+		}
+	}
+	addAll := func(fs []Failure) {
+		for _, f := range fs {
+			checks[f.Kind].Failed++
+			r.Failures = append(r.Failures, f)
+		}
+	}
 	c := checks[CheckThreeWire]
-	threeWireM, threeWireSource := standards.ThreeWireM, standards.ThreeWireSource
-	if t != nil {
-		threeWireM, threeWireSource = t.ThreeWireM, t.Profile+": "+t.Provenance[standards.FieldThreeWire].Source+" ("+string(t.Provenance[standards.FieldThreeWire].Status)+")"
-	}
-	threeWireLimit := strconv.FormatFloat(threeWireM, 'g', -1, 64) + " m"
-	if u != units.Metre {
-		threeWireLimit += " (" + units.FormatIn(threeWireM, u, 4) + " " + string(u) + ")"
-	}
-	c.Tolerance = "half-intervals agree within " + threeWireLimit
-	c.Source = threeWireSource
-	for _, s := range r.Book.Sightings {
-		if !s.ThreeWire {
-			continue
-		}
-		c.Checked++
-		d := u.ToMetres(math.Abs((s.Upper - s.Middle) - (s.Middle - s.Lower)))
-		if !standards.Within(d, threeWireM) {
-			fail(CheckThreeWire, s.Line, s.Point, d, threeWireM,
-				"half-intervals %s and %s differ by %s (limit %s): reobserve",
-				units.Format(s.Upper-s.Middle, dec), units.Format(s.Middle-s.Lower, dec), f(d), threeWireLimit)
-		}
-	}
+	c.Tolerance = "half-intervals agree within " + rc.threeWireLimit
+	c.Source = rc.threeWireSource
+	c.Checked = rc.threeWire
+	addAll(rc.threeWireFails)
 	if c.Checked == 0 {
 		c.NotMade, c.Why, c.NotApplicable = "no sighting has all three wires", "no three-wire sightings", true
 	}
@@ -480,30 +503,11 @@ func (r *Result) check() {
 		checks[CheckSetupImbalance].Tolerance = "backsight − foresight length within " + fd(t.MaxSetupImbalanceM) + " per setup"
 		checks[CheckSectionImbalance].Tolerance = "within " + fd(t.MaxSectionImbalanceM) + " accumulated per section"
 		checks[CheckMisclosure].Tolerance = fmt.Sprintf("%g mm·√km (%s, E = length in km)", t.LoopMmSqrtKm, t.Class)
-		for _, row := range r.Rows {
-			if row.Sight == levelbook.Intermediate {
-				continue
-			}
-			checks[CheckDistance].Checked++
-			if !row.HasDistance {
-				fail(CheckDistance, row.Line, row.Point, 0, 0, "no sight length (book the stadia wires or a distance): class %s cannot be checked", t.Class)
-				continue
-			}
-			checks[CheckSightLength].Checked++
-			if !standards.Within(row.DistanceM, t.MaxSightM) {
-				fail(CheckSightLength, row.Line, row.Point, row.DistanceM, t.MaxSightM, "sight of %s is longer than %s", fd(row.DistanceM), fd(t.MaxSightM))
-			}
-		}
-		for _, st := range r.Setups {
-			if !st.HasDistances {
-				continue
-			}
-			checks[CheckSetupImbalance].Checked++
-			if !standards.Within(st.ImbalanceM, t.MaxSetupImbalanceM) {
-				fail(CheckSetupImbalance, st.ForeLine, fmt.Sprintf("setup %d", st.Number), st.ImbalanceM, t.MaxSetupImbalanceM,
-					"backsight %s, foresight %s: imbalance %s exceeds %s", fd(st.BackDistanceM), fd(st.ForeDistanceM), fd(st.ImbalanceM), fd(t.MaxSetupImbalanceM))
-			}
-		}
+		checks[CheckDistance].Checked = rc.distance
+		checks[CheckSightLength].Checked = rc.sightLength
+		addAll(rc.rowFails)
+		checks[CheckSetupImbalance].Checked = rc.setupImbalance
+		addAll(rc.setupFails)
 		for _, s := range r.Sections {
 			if !s.HasLength {
 				continue
@@ -566,6 +570,85 @@ func (r *Result) check() {
 		r.Checks = append(r.Checks, *checks[k])
 	}
 	r.summarize()
+}
+
+// rowCheck makes the checks of single sightings, rows and setups (three
+// wires, distances, sight lengths, setup imbalances) as they come, and
+// keeps their counts and failures for check.
+type rowCheck struct {
+	r                               *Result
+	u                               units.Unit
+	dec                             int
+	threeWireM                      float64
+	threeWireLimit, threeWireSource string
+
+	threeWire, distance, sightLength, setupImbalance int // checked
+	threeWireFails, rowFails, setupFails             []Failure
+}
+
+func (r *Result) newRowCheck() *rowCheck {
+	u := r.Unit
+	rc := &rowCheck{r: r, u: u, dec: Decimals(u), threeWireM: standards.ThreeWireM, threeWireSource: standards.ThreeWireSource}
+	if t := r.Tolerances; t != nil {
+		rc.threeWireM, rc.threeWireSource = t.ThreeWireM, t.Profile+": "+t.Provenance[standards.FieldThreeWire].Source+" ("+string(t.Provenance[standards.FieldThreeWire].Status)+")"
+	}
+	rc.threeWireLimit = strconv.FormatFloat(rc.threeWireM, 'g', -1, 64) + " m"
+	if u != units.Metre {
+		rc.threeWireLimit += " (" + units.FormatIn(rc.threeWireM, u, 4) + " " + string(u) + ")"
+	}
+	return rc
+}
+
+func (rc *rowCheck) f(m float64) string { return units.FormatIn(m, rc.u, rc.dec) + " " + string(rc.u) }
+func (rc *rowCheck) fd(m float64) string {
+	return units.FormatIn(m, rc.u, DistanceDecimals) + " " + string(rc.u)
+}
+
+// sighting checks the three wires of s.
+func (rc *rowCheck) sighting(s *levelbook.Sighting) {
+	if !s.ThreeWire {
+		return
+	}
+	rc.threeWire++
+	d := rc.u.ToMetres(math.Abs((s.Upper - s.Middle) - (s.Middle - s.Lower)))
+	if !standards.Within(d, rc.threeWireM) {
+		rc.threeWireFails = append(rc.threeWireFails, Failure{Kind: CheckThreeWire, Line: s.Line, Subject: s.Point, ValueM: d, LimitM: rc.threeWireM,
+			Message: fmt.Sprintf("half-intervals %s and %s differ by %s (limit %s): reobserve",
+				units.Format(s.Upper-s.Middle, rc.dec), units.Format(s.Middle-s.Lower, rc.dec), rc.f(d), rc.threeWireLimit)})
+	}
+}
+
+// row checks the length of a backsight or foresight against the class.
+func (rc *rowCheck) row(row *Row) {
+	t := rc.r.Tolerances
+	if t == nil || row.Sight == levelbook.Intermediate {
+		return
+	}
+	rc.distance++
+	if !row.HasDistance {
+		rc.rowFails = append(rc.rowFails, Failure{Kind: CheckDistance, Line: row.Line, Subject: row.Point,
+			Message: fmt.Sprintf("no sight length (book the stadia wires or a distance): class %s cannot be checked", t.Class)})
+		return
+	}
+	rc.sightLength++
+	if !standards.Within(row.DistanceM, t.MaxSightM) {
+		rc.rowFails = append(rc.rowFails, Failure{Kind: CheckSightLength, Line: row.Line, Subject: row.Point, ValueM: row.DistanceM, LimitM: t.MaxSightM,
+			Message: fmt.Sprintf("sight of %s is longer than %s", rc.fd(row.DistanceM), rc.fd(t.MaxSightM))})
+	}
+}
+
+// setup checks the imbalance of a setup against the class.
+func (rc *rowCheck) setup(st *Setup) {
+	t := rc.r.Tolerances
+	if t == nil || !st.HasDistances {
+		return
+	}
+	rc.setupImbalance++
+	if !standards.Within(st.ImbalanceM, t.MaxSetupImbalanceM) {
+		rc.setupFails = append(rc.setupFails, Failure{Kind: CheckSetupImbalance, Line: st.ForeLine, Subject: fmt.Sprintf("setup %d", st.Number),
+			ValueM: st.ImbalanceM, LimitM: t.MaxSetupImbalanceM,
+			Message: fmt.Sprintf("backsight %s, foresight %s: imbalance %s exceeds %s", rc.fd(st.BackDistanceM), rc.fd(st.ForeDistanceM), rc.fd(st.ImbalanceM), rc.fd(t.MaxSetupImbalanceM))})
+	}
 }
 
 // summarize sets Summary and AllChecksMade from the checks:

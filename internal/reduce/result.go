@@ -113,7 +113,23 @@ type Result struct {
 	// Book is the book reduced.
 	Book *levelbook.Book `json:"-"`
 
-	anchorRow int // index in Rows of the row the heights are computed from; -1 if none
+	// anchorAt is the row the heights are computed from (before the
+	// shift), when anchored.
+	anchorAt Row
+	anchored bool
+	// The reduction of a book read a sighting at a time (ReduceScan),
+	// which keeps no rows or setups: the checks of its rows and setups
+	// made as they came, its intermediate sights, and each setup's sight
+	// lengths.
+	rc       *rowCheck
+	sideRows []Row
+	lens     []setupLen
+}
+
+// setupLen is what a held sight needs of a setup: its sight lengths.
+type setupLen struct {
+	back, fore float64
+	has        bool
 }
 
 // Passed reports whether every check passed.

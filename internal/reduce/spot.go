@@ -49,10 +49,10 @@ type HeldSight struct {
 
 // spotHeights lists the spot heights and the intermediate sights on held
 // marks, after the heights are anchored.
-func (r *Result) spotHeights() {
+func (r *Result) spotHeights(rows []Row) {
 	r.SpotHeights = []SpotHeight{}
 	r.HeldSights = []HeldSight{}
-	for i, row := range r.Rows {
+	for _, row := range rows {
 		if row.Sight != levelbook.Intermediate {
 			continue
 		}
@@ -61,11 +61,11 @@ func (r *Result) spotHeights() {
 			continue
 		}
 		held, ok := r.Held[row.Point]
-		if !ok || r.anchorRow < 0 {
+		if !ok || !r.anchored {
 			continue
 		}
 		hs := HeldSight{Line: row.Line, Setup: row.Setup, Point: row.Point, HeightM: row.HeightM, HeldM: held, DifferenceM: row.HeightM - held}
-		hs.LengthM, hs.HasLength = r.lengthFromAnchor(i)
+		hs.LengthM, hs.HasLength = r.lengthFromAnchor(row)
 		if r.Tolerances != nil && hs.HasLength && hs.LengthM > 0 {
 			hs.AllowableM = r.Tolerances.AllowableLoopM(hs.LengthM)
 			hs.HasAllowable = true
@@ -81,14 +81,13 @@ func (r *Result) spotHeights() {
 // them, and of the intermediate sight's own setup the backsight (anchor
 // before it) or the foresight (anchor after it), plus the intermediate
 // sight itself. ok is false when a sight on the way has no length.
-func (r *Result) lengthFromAnchor(i int) (length float64, ok bool) {
-	row := r.Rows[i]
+func (r *Result) lengthFromAnchor(row Row) (length float64, ok bool) {
 	k := row.Setup - 1
-	st := r.Setups[k]
-	if !row.HasDistance || !st.HasDistances {
+	st := r.setupLen(k)
+	if !row.HasDistance || !st.has {
 		return 0, false
 	}
-	a := r.Rows[r.anchorRow]
+	a := r.anchorAt
 	// The anchor is the backsight point of setup ja (0-based), or the end
 	// of the run when ja == len(r.Setups).
 	ja := a.Setup - 1
@@ -96,18 +95,28 @@ func (r *Result) lengthFromAnchor(i int) (length float64, ok bool) {
 		ja++
 	}
 	from, to := ja, k
-	length = st.BackDistanceM + row.DistanceM
+	length = st.back + row.DistanceM
 	if ja > k {
 		from, to = k+1, ja
-		length = st.ForeDistanceM + row.DistanceM
+		length = st.fore + row.DistanceM
 	}
 	for j := from; j < to; j++ {
-		if !r.Setups[j].HasDistances {
+		sj := r.setupLen(j)
+		if !sj.has {
 			return 0, false
 		}
-		length += r.Setups[j].BackDistanceM + r.Setups[j].ForeDistanceM
+		length += sj.back + sj.fore
 	}
 	return length, true
+}
+
+// setupLen gives the sight lengths of setup j (0-based).
+func (r *Result) setupLen(j int) setupLen {
+	if r.lens != nil {
+		return r.lens[j]
+	}
+	st := &r.Setups[j]
+	return setupLen{back: st.BackDistanceM, fore: st.ForeDistanceM, has: st.HasDistances}
 }
 
 // checkHeldSights makes the held-sight check: each intermediate sight on a

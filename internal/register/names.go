@@ -119,47 +119,90 @@ func (r *Register) BookWarnings(ctx context.Context, book *levelbook.Book) ([]st
 	return out, err
 }
 
+// foldedBatch is how many folded names bookWarnings looks up at once.
+const foldedBatch = 5000
+
 // bookWarnings is BookWarnings in a transaction of the caller's.
 func bookWarnings(ctx context.Context, db store.DBTX, book *levelbook.Book) ([]string, error) {
 	var out []string
-	// Points the turning-point pattern takes that name marks.
-	var tpFolded []string
-	tpLine := map[string]int{}
-	var points []string
+	// Points the turning-point pattern takes that name marks, looked up
+	// some thousands at a time: a book of the largest size has half a
+	// million turning points.
+	var marks []string
 	pointLine := map[string]int{}
-	for _, s := range book.Sightings {
+	var like []store.Mark
+	seen := map[int64]bool{}
+	var tpFolded []string
+	lookUp := func() error {
+		ms, err := store.MarkListByFolded(ctx, db, tpFolded)
+		if err != nil {
+			return fmt.Errorf("look up marks named like the turning points of %s: %w", book.Name, err)
+		}
+		for _, m := range ms {
+			if !seen[m.ID] {
+				seen[m.ID] = true
+				like = append(like, m)
+			}
+		}
+		tpFolded = tpFolded[:0]
+		return nil
+	}
+	pts := points(book)
+	for _, s := range pts {
 		switch {
 		case s.TurningPoint:
-			k := names.Fold(s.Point)
-			if _, seen := tpLine[k]; !seen {
-				tpLine[k] = s.Line
-				tpFolded = append(tpFolded, k)
+			tpFolded = append(tpFolded, names.Fold(s.Name))
+			if len(tpFolded) == foldedBatch {
+				if err := lookUp(); err != nil {
+					return nil, err
+				}
 			}
 		case !s.Spot:
-			if _, seen := pointLine[s.Point]; !seen {
-				pointLine[s.Point] = s.Line
-				points = append(points, s.Point)
-			}
+			pointLine[s.Name] = s.Line
+			marks = append(marks, s.Name)
 		}
 	}
 	if len(tpFolded) > 0 {
+		if err := lookUp(); err != nil {
+			return nil, err
+		}
+	}
+	if len(like) > 0 {
+		// In the register's order of designations, each named at the
+		// first turning point that folds to its name.
+		tpLine := map[string]int{}
+		for _, m := range like {
+			k := names.Fold(m.Designation)
+			tpLine[k] = 0
+			tpFolded = append(tpFolded, k)
+		}
 		ms, err := store.MarkListByFolded(ctx, db, tpFolded)
 		if err != nil {
 			return nil, fmt.Errorf("look up marks named like the turning points of %s: %w", book.Name, err)
+		}
+		for _, s := range pts {
+			if !s.TurningPoint {
+				continue
+			}
+			if k := names.Fold(s.Name); tpLine[k] == 0 {
+				if _, ok := tpLine[k]; ok {
+					tpLine[k] = s.Line
+				}
+			}
 		}
 		for _, m := range ms {
 			out = append(out, fmt.Sprintf("WARNING: %s: line %d: %s is a mark in the register, but this book takes it as a turning point (the name matches its turning-point pattern %q): nothing is checked or recorded against mark %s; if the book means the mark, give it a \"# turning-points:\" pattern that %s does not match",
 				book.Name, tpLine[names.Fold(m.Designation)], m.Designation, book.Meta.TurningPoints, m.Designation, m.Designation))
 		}
 	}
-	if book.Meta.Date == "" || len(points) == 0 {
+	if book.Meta.Date == "" || len(marks) == 0 {
 		return out, nil
 	}
 	dated, err := time.Parse(time.DateOnly, book.Meta.Date)
 	if err != nil {
 		return out, nil // refused elsewhere
 	}
-	ms, err := store.MarkListByDesignations(ctx, db, points)
+	ms, err := store.MarkListByDesignations(ctx, db, marks)
 	if err != nil {
 		return nil, fmt.Errorf("look up the marks of %s: %w", book.Name, err)
 	}

@@ -67,6 +67,12 @@ type RecordParams struct {
 	// known height (a crew's two-mark check before a job) that adjusts
 	// nothing. It must tie to two marks of known height.
 	CheckOnly bool
+	// KeepNotes keeps the reduced notes (Recorded.Result's Rows and
+	// Setups, and its Book's Sightings), for a report that shows them:
+	// the memory recording takes then grows with the book. Without it
+	// the book is read a sighting at a time, as it is reduced and stored,
+	// and the result has every section, check and failure but no rows.
+	KeepNotes bool
 
 	// beforeSections, if set, sees the sections just before they are
 	// stored (tests use it to make the write fail part way).
@@ -76,7 +82,9 @@ type RecordParams struct {
 // Recorded is a run just recorded.
 type Recorded struct {
 	Run store.Run
-	// Result is the book's reduction (the same as `run check` shows).
+	// Result is the book's reduction (the same as `run check` shows;
+	// without RecordParams.KeepNotes, no rows or setups, and its Book has
+	// the book's metadata and no points or sightings).
 	Result *reduce.Result
 	// Marks are the marks the run touched, with the condition current at
 	// recording.
@@ -255,7 +263,10 @@ func (r *Register) Record(ctx context.Context, p RecordParams) (*Recorded, error
 	if p.AcceptFailedChecks && strings.TrimSpace(p.Reason) == "" {
 		return nil, inputErr("reason", "say why a book whose checks fail is recorded")
 	}
-	book, err := levelbook.Parse(p.Path, p.Book)
+	// The book is read once for its checks, its points and its
+	// fingerprint, then again, a sighting at a time, to be reduced and to
+	// be stored: no copy of its sightings is held.
+	book, err := levelbook.Summarize(p.Path, p.Book)
 	if err != nil {
 		return nil, err
 	}
@@ -291,9 +302,9 @@ func (r *Register) Record(ctx context.Context, p RecordParams) (*Recorded, error
 	} else if p.AllowCondition || strings.TrimSpace(p.ConditionReason) != "" {
 		return nil, inputErr("allow-condition", "only marks held at their register height have their condition checked: there are none")
 	}
-	res, err := reduce.Reduce(book, opts)
+	res, err := reduceBook(p, book, opts)
 	if err != nil {
-		return nil, &InputError{Field: p.Path, Msg: err.Error()}
+		return nil, err
 	}
 	if !res.Passed() && !p.AcceptFailedChecks {
 		return nil, &ChecksFailedError{File: p.Path, Result: res}
@@ -306,10 +317,10 @@ func (r *Register) Record(ctx context.Context, p RecordParams) (*Recorded, error
 	// The marks the book names, in the order it first names them.
 	var names []string
 	firstLine := map[string]int{}
-	for _, s := range book.Sightings {
-		if _, seen := firstLine[s.Point]; !s.TurningPoint && !s.Spot && !seen {
-			firstLine[s.Point] = s.Line
-			names = append(names, s.Point)
+	for _, pt := range book.Points {
+		if pt.Mark() {
+			firstLine[pt.Name] = pt.Line
+			names = append(names, pt.Name)
 		}
 	}
 
@@ -345,6 +356,10 @@ func (r *Register) Record(ctx context.Context, p RecordParams) (*Recorded, error
 		if out.Warnings, err = bookWarnings(ctx, tx, book); err != nil {
 			return err
 		}
+		// The book's points have served (its marks are named, its
+		// warnings said): a book of the largest size has half a million,
+		// let go before its bytes are sent.
+		book.Points = nil
 		// The checks against the register: the published heights of the
 		// book's other marks (check connections) and the sections other
 		// runs levelled the other way (double-run sections).
@@ -352,14 +367,11 @@ func (r *Register) Record(ctx context.Context, p RecordParams) (*Recorded, error
 		if err != nil {
 			return err
 		}
-		ropts := opts
-		ropts.Published = map[string]float64{}
+		published := map[string]float64{}
 		for name, h := range pub {
-			ropts.Published[name] = h.ValueM
+			published[name] = h.ValueM
 		}
-		if res, err = reduce.Reduce(book, ropts); err != nil {
-			return &InputError{Field: p.Path, Msg: err.Error()}
-		}
+		res.Republish(published)
 		others, err := otherRunSections(ctx, tx, res, byName)
 		if err != nil {
 			return err
@@ -387,7 +399,7 @@ func (r *Register) Record(ctx context.Context, p RecordParams) (*Recorded, error
 		if err != nil {
 			return err
 		}
-		if _, err := store.SightingCopy(ctx, tx, store.SightingCopyParams{RunID: id, Sightings: sightingsOf(book)}); err != nil {
+		if err := copySightings(ctx, tx, p, book, id); err != nil {
 			return err
 		}
 		ids := map[string]int64{}
@@ -481,11 +493,9 @@ func (r *Register) PublishedHeights(ctx context.Context, book *levelbook.Book, h
 	var out map[string]PublishedHeight
 	err := r.withTx(ctx, readTx, func(tx pgx.Tx) error {
 		var names []string
-		seen := map[string]bool{}
-		for _, s := range book.Sightings {
-			if !s.TurningPoint && !s.Spot && !seen[s.Point] {
-				seen[s.Point] = true
-				names = append(names, s.Point)
+		for _, pt := range points(book) {
+			if pt.Mark() {
+				names = append(names, pt.Name)
 			}
 		}
 		known, err := store.MarkListByDesignations(ctx, tx, names)
@@ -630,7 +640,7 @@ func sameObservations(ctx context.Context, tx pgx.Tx, book *levelbook.Book, sum 
 		}
 	}
 	seq = len(runs)
-	old, err := store.RunListUnfingerprinted(ctx, tx, store.RunListUnfingerprintedParams{Unit: string(book.Meta.Unit), Sightings: len(book.Sightings)})
+	old, err := store.RunListUnfingerprinted(ctx, tx, store.RunListUnfingerprintedParams{Unit: string(book.Meta.Unit), Sightings: book.Count})
 	if err != nil {
 		return nil, 0, fmt.Errorf("look up runs recorded before observations were fingerprinted: %w", err)
 	}
@@ -875,22 +885,103 @@ func runHeldOf(p RecordParams, held []HeldHeight, ids map[string]int64) []store.
 	return out
 }
 
+// reduceBook reduces the book of p (read by levelbook.Summarize) with
+// opts, a sighting at a time; with p.KeepNotes, whole, keeping its rows.
+func reduceBook(p RecordParams, book *levelbook.Book, opts reduce.Options) (*reduce.Result, error) {
+	var res *reduce.Result
+	if p.KeepNotes {
+		full, err := levelbook.Parse(p.Path, p.Book)
+		if err != nil {
+			return nil, err
+		}
+		res, err = reduce.Reduce(full, opts)
+		if err != nil {
+			return nil, &InputError{Field: p.Path, Msg: err.Error()}
+		}
+		return res, nil
+	}
+	sc, err := book.Rescan(p.Book)
+	if err != nil {
+		return nil, err
+	}
+	res, err = reduce.ReduceScan(book, func(yield func(*levelbook.Sighting) bool) {
+		for sc.Next() && yield(sc.Sighting()) {
+		}
+	}, opts)
+	if err := sc.Err(); err != nil {
+		return nil, err
+	}
+	if err != nil {
+		return nil, &InputError{Field: p.Path, Msg: err.Error()}
+	}
+	return res, nil
+}
+
+// copySightings stores the sightings of p's book as run id's, read again
+// from its bytes a sighting at a time.
+func copySightings(ctx context.Context, tx pgx.Tx, p RecordParams, book *levelbook.Book, id int64) error {
+	sc, err := book.Rescan(p.Book)
+	if err != nil {
+		return err
+	}
+	var g store.Sighting
+	seq := 0
+	if _, err := store.SightingCopyFunc(ctx, tx, id, func() (*store.Sighting, error) {
+		if !sc.Next() {
+			return nil, sc.Err()
+		}
+		seq++
+		g = sightingOf(seq, sc.Sighting())
+		return &g, nil
+	}); err != nil {
+		return err
+	}
+	return sc.Err()
+}
+
+// sightingOf is the stored sighting of s, the seq-th of its book; it
+// points into s.
+func sightingOf(seq int, s *levelbook.Sighting) store.Sighting {
+	g := store.Sighting{
+		Seq: seq, Line: s.Line, Point: s.Point, Sight: string(s.Sight), TurningPoint: s.TurningPoint, Spot: s.Spot,
+		Middle: s.Middle, DistanceFrom: string(levelbook.DistanceNone), Note: s.Note,
+	}
+	if s.ThreeWire {
+		g.Upper, g.Lower = &s.Upper, &s.Lower
+	}
+	if s.HasDistance() {
+		g.Distance, g.DistanceFrom = &s.Distance, string(s.DistanceFrom)
+	}
+	return g
+}
+
 // sightingsOf turns the book's rows into stored sightings.
 func sightingsOf(book *levelbook.Book) []store.Sighting {
 	out := make([]store.Sighting, len(book.Sightings))
 	for i := range book.Sightings {
-		s := &book.Sightings[i]
-		g := store.Sighting{
-			Seq: i + 1, Line: s.Line, Point: s.Point, Sight: string(s.Sight), TurningPoint: s.TurningPoint, Spot: s.Spot,
-			Middle: s.Middle, DistanceFrom: string(levelbook.DistanceNone), Note: s.Note,
+		out[i] = sightingOf(i+1, &book.Sightings[i])
+	}
+	return out
+}
+
+// points are the points of book in the order it first sights them: its
+// Points, or, for a book made without them, those of its sightings.
+func points(book *levelbook.Book) []levelbook.Point {
+	if len(book.Points) > 0 || len(book.Sightings) == 0 {
+		return book.Points
+	}
+	var out []levelbook.Point
+	at := map[string]int{}
+	for _, s := range book.Sightings {
+		k, seen := at[s.Point]
+		if !seen {
+			k = len(out)
+			at[s.Point] = k
+			out = append(out, levelbook.Point{Name: s.Point, Line: s.Line, TurningPoint: s.TurningPoint, Spot: s.Spot})
 		}
-		if s.ThreeWire {
-			g.Upper, g.Lower = &s.Upper, &s.Lower
+		if s.Sight != levelbook.Intermediate {
+			out[k].Carries = true
 		}
-		if s.HasDistance() {
-			g.Distance, g.DistanceFrom = &s.Distance, string(s.DistanceFrom)
-		}
-		out[i] = g
 	}
 	return out
 }

@@ -2,6 +2,7 @@ package store
 
 import (
 	"context"
+	"fmt"
 
 	"github.com/jackc/pgx/v5"
 )
@@ -43,6 +44,28 @@ func SightingCopy(ctx context.Context, db Copier, p SightingCopyParams) (int64, 
 	return copyRows(ctx, db, "sighting", sightingColumns, p.Sightings, "sightings", func(s *Sighting) []any {
 		return []any{p.RunID, s.Seq, s.Line, s.Point, s.Sight, s.TurningPoint, s.Spot, s.Upper, s.Middle, s.Lower, s.Distance, s.DistanceFrom, s.Note}
 	})
+}
+
+// SightingCopyFunc stores with COPY the sightings next gives, one at a
+// time until it gives nil, and returns how many: a run's sightings are
+// stored without being held at once. next's sighting is read before it is
+// called again.
+func SightingCopyFunc(ctx context.Context, db Copier, runID int64, next func() (*Sighting, error)) (int64, error) {
+	// pgx encodes a row before it asks for the next: one slice serves.
+	row := make([]any, len(sightingColumns))
+	n, err := db.CopyFrom(ctx, pgx.Identifier{"sighting"}, sightingColumns, pgx.CopyFromFunc(func() ([]any, error) {
+		s, err := next()
+		if s == nil || err != nil {
+			return nil, err
+		}
+		row[0], row[1], row[2], row[3], row[4], row[5], row[6] = runID, s.Seq, s.Line, s.Point, s.Sight, s.TurningPoint, s.Spot
+		row[7], row[8], row[9], row[10], row[11], row[12] = s.Upper, s.Middle, s.Lower, s.Distance, s.DistanceFrom, s.Note
+		return row, nil
+	}))
+	if err != nil {
+		return n, fmt.Errorf("copy sightings: %w", translate(err))
+	}
+	return n, nil
 }
 
 // SightingListByRun returns a run's sightings in field order.
