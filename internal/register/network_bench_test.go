@@ -178,7 +178,9 @@ func (t *sqlTimer) end(ctx context.Context) {
 func (t *sqlTimer) TraceQueryStart(ctx context.Context, _ *pgx.Conn, _ pgx.TraceQueryStartData) context.Context {
 	return t.start(ctx)
 }
-func (t *sqlTimer) TraceQueryEnd(ctx context.Context, _ *pgx.Conn, _ pgx.TraceQueryEndData) { t.end(ctx) }
+func (t *sqlTimer) TraceQueryEnd(ctx context.Context, _ *pgx.Conn, _ pgx.TraceQueryEndData) {
+	t.end(ctx)
+}
 func (t *sqlTimer) TraceCopyFromStart(ctx context.Context, _ *pgx.Conn, _ pgx.TraceCopyFromStartData) context.Context {
 	return t.start(ctx)
 }
@@ -389,4 +391,3 @@ func publishFloorOnce(b *testing.B, pool *pgxpool.Pool, v *register.AdjustmentVi
 	}
 	return time.Since(t0)
 }
-
