@@ -7,6 +7,7 @@ import (
 	"path/filepath"
 	"sort"
 	"strconv"
+	"strings"
 	"sync"
 	"testing"
 	"time"
@@ -153,47 +154,75 @@ func networkRegister(b *testing.B, marks, size int) *networkFixture {
 }
 
 // sqlTimer adds up the time the pool's statements take, from their
-// sending to the end of their rows (pgx's tracers).
+// sending to the end of their rows (pgx's tracers), in all and by the
+// start of their text (for the slowest list).
 type sqlTimer struct {
 	mu    sync.Mutex
 	total time.Duration
 	n     int
+	by    map[string]time.Duration
+}
+
+type sqlStart struct {
+	at  time.Time
+	sql string
 }
 
 type sqlStartKey struct{}
 
-func (t *sqlTimer) start(ctx context.Context) context.Context {
-	return context.WithValue(ctx, sqlStartKey{}, time.Now())
+func (t *sqlTimer) start(ctx context.Context, sql string) context.Context {
+	return context.WithValue(ctx, sqlStartKey{}, sqlStart{time.Now(), sql})
 }
 
 func (t *sqlTimer) end(ctx context.Context) {
-	if s, ok := ctx.Value(sqlStartKey{}).(time.Time); ok {
+	if s, ok := ctx.Value(sqlStartKey{}).(sqlStart); ok {
+		d := time.Since(s.at)
+		q := strings.Join(strings.Fields(s.sql), " ")
 		t.mu.Lock()
-		t.total += time.Since(s)
+		t.total += d
 		t.n++
+		if t.by == nil {
+			t.by = map[string]time.Duration{}
+		}
+		t.by[q[:min(len(q), 100)]] += d
 		t.mu.Unlock()
 	}
 }
 
-func (t *sqlTimer) TraceQueryStart(ctx context.Context, _ *pgx.Conn, _ pgx.TraceQueryStartData) context.Context {
-	return t.start(ctx)
+func (t *sqlTimer) TraceQueryStart(ctx context.Context, _ *pgx.Conn, q pgx.TraceQueryStartData) context.Context {
+	return t.start(ctx, q.SQL)
 }
 func (t *sqlTimer) TraceQueryEnd(ctx context.Context, _ *pgx.Conn, _ pgx.TraceQueryEndData) {
 	t.end(ctx)
 }
-func (t *sqlTimer) TraceCopyFromStart(ctx context.Context, _ *pgx.Conn, _ pgx.TraceCopyFromStartData) context.Context {
-	return t.start(ctx)
+func (t *sqlTimer) TraceCopyFromStart(ctx context.Context, _ *pgx.Conn, c pgx.TraceCopyFromStartData) context.Context {
+	return t.start(ctx, "COPY "+c.TableName.Sanitize())
 }
 func (t *sqlTimer) TraceCopyFromEnd(ctx context.Context, _ *pgx.Conn, _ pgx.TraceCopyFromEndData) {
 	t.end(ctx)
 }
 
-func (t *sqlTimer) reset() (time.Duration, int) {
+// reset returns the statements' total time and count since the last
+// reset and the slowest eight, and starts again.
+func (t *sqlTimer) reset() (time.Duration, int, string) {
 	t.mu.Lock()
 	defer t.mu.Unlock()
+	type kv struct {
+		sql string
+		d   time.Duration
+	}
+	var all []kv
+	for k, v := range t.by {
+		all = append(all, kv{k, v})
+	}
+	sort.Slice(all, func(i, j int) bool { return all[i].d > all[j].d })
+	var b strings.Builder
+	for _, e := range all[:min(len(all), 8)] {
+		fmt.Fprintf(&b, "\n\t%8.3f s  %s", e.d.Seconds(), e.sql)
+	}
 	d, n := t.total, t.n
-	t.total, t.n = 0, 0
-	return d, n
+	t.total, t.n, t.by = 0, 0, nil
+	return d, n, b.String()
 }
 
 // BenchmarkNetwork50k: a least-squares adjustment of a generated network
@@ -246,14 +275,10 @@ func BenchmarkNetwork50k(b *testing.B) {
 			b.Fatal(err)
 		}
 		draft += time.Since(t0)
-		d, n := timer.reset()
+		d, n, slow := timer.reset()
 		draftSQL += d
-		if i == 0 {
-			b.Logf("draft: %d results, %d sections, %d statements", len(v.Results), len(v.Sections), n)
-		}
-		if draftFloor += draftFloorOnce(b, pool, fx, v); i == 0 {
-			timer.reset()
-		}
+		b.Logf("draft: %d results, %d sections, %d statements, %.2f s; the slowest:%s", len(v.Results), len(v.Sections), n, d.Seconds(), slow)
+		draftFloor += draftFloorOnce(b, pool, fx, v)
 		publishFloor += publishFloorOnce(b, pool, v)
 		timer.reset()
 		t0 = time.Now()
@@ -263,11 +288,9 @@ func BenchmarkNetwork50k(b *testing.B) {
 			b.Fatal(err)
 		}
 		publish += time.Since(t0)
-		d, n = timer.reset()
+		d, n, slow = timer.reset()
 		publishSQL += d
-		if i == 0 {
-			b.Logf("publish: %d versions, %d statements", len(pub.Versions), n)
-		}
+		b.Logf("publish: %d versions, %d statements, %.2f s; the slowest:%s", len(pub.Versions), n, d.Seconds(), slow)
 		if want := len(v.Results) - len(fx.held); len(pub.Versions) != want {
 			b.Fatalf("%d versions published, want %d", len(pub.Versions), want)
 		}

@@ -161,7 +161,7 @@ func AdjustmentRunInsert(ctx context.Context, db DBTX, p AdjustmentRunInsertPara
 
 // AdjustmentRunList returns the runs an adjustment used, by identifier.
 func AdjustmentRunList(ctx context.Context, db DBTX, adjustmentID int64) ([]Run, error) {
-	rows, err := db.Query(ctx, "SELECT "+runColumns+` FROM run r JOIN adjustment_run ar ON ar.run_id = r.id
+	rows, err := db.Query(ctx, "SELECT "+runColumns+" FROM run r"+runJoins+` JOIN adjustment_run ar ON ar.run_id = r.id
 		WHERE ar.adjustment_id = $1 ORDER BY r.id`, adjustmentID)
 	if err != nil {
 		return nil, translate(err)
