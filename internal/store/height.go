@@ -360,6 +360,38 @@ func HeightLatestMany(ctx context.Context, db DBTX, p HeightLatestManyParams) (m
 	return out, nil
 }
 
+// HeightKey names a version: its id and its number in its chain.
+type HeightKey struct {
+	ID      int64
+	Version int
+}
+
+// HeightLatestKeys returns the id and number of the latest version of each
+// of the marks on the datum, by mark identifier; marks without one are
+// absent: one probe of the chain's key a mark, what a draft records of the
+// versions publishing would replace, without the columns and the in-force
+// test HeightLatestMany computes (5.2 of a draft's 20.8 s of statements
+// at 50,000 marks).
+func HeightLatestKeys(ctx context.Context, db DBTX, p HeightLatestManyParams) (map[int64]HeightKey, error) {
+	rows, err := db.Query(ctx, `SELECT u.mark_id, latest.id, latest.version FROM unnest($1::bigint[]) AS u (mark_id)
+		CROSS JOIN LATERAL (SELECT x.id, x.version FROM height x WHERE x.mark_id = u.mark_id AND x.datum_id = $2
+			ORDER BY x.version DESC LIMIT 1) latest`, p.MarkIDs, p.DatumID)
+	if err != nil {
+		return nil, translate(err)
+	}
+	defer rows.Close()
+	out := make(map[int64]HeightKey, len(p.MarkIDs))
+	for rows.Next() {
+		var mark int64
+		var k HeightKey
+		if err := rows.Scan(&mark, &k.ID, &k.Version); err != nil {
+			return nil, translate(err)
+		}
+		out[mark] = k
+	}
+	return out, translate(rows.Err())
+}
+
 // HeightSuccessor returns the version that supersedes version id;
 // ErrNotFound if it is current.
 func HeightSuccessor(ctx context.Context, db DBTX, id int64) (Height, error) {

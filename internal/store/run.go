@@ -282,6 +282,24 @@ func RunBookEach(ctx context.Context, db DBTX, ids []int64, fn func(id int64, bo
 	return translate(rows.Err())
 }
 
+// RunIDsWithSideSights returns, in order, those of the runs whose books
+// hold an intermediate sight on a point that is neither a turning point
+// nor a spot height (a side shot on a mark): the runs whose books a draft
+// must read again. One probe a run of the partial index sighting_side
+// (migrations/00025), which holds such sightings alone.
+func RunIDsWithSideSights(ctx context.Context, db DBTX, runIDs []int64) ([]int64, error) {
+	rows, err := db.Query(ctx, `SELECT u.run_id FROM (SELECT DISTINCT unnest($1::bigint[]) AS run_id) AS u
+		WHERE EXISTS (SELECT 1 FROM sighting g WHERE g.run_id = u.run_id AND g.sight = 'IS' AND NOT g.turning_point AND NOT g.spot)
+		ORDER BY u.run_id`, runIDs)
+	if err != nil {
+		return nil, translate(err)
+	}
+	return collect(rows, func(r pgx.Row) (int64, error) {
+		var id int64
+		return id, translate(r.Scan(&id))
+	})
+}
+
 // RunMarkIDsByRuns returns the marks the runs touched, by designation, in
 // one statement.
 func RunMarkIDsByRuns(ctx context.Context, db DBTX, runIDs []int64) (map[string]int64, error) {
