@@ -135,38 +135,53 @@ func (d *Draft) sides(in DraftInput, adjusted map[string]float64, on map[string]
 // draft levelled the other way (each once) and compares them against the
 // section tolerance of the lower of the two runs' classes
 // (standards.DoubleRunAllowableM, K the mean of their lengths).
+//
+// Each section pairs with the first section, in the draft's order of runs
+// and then along the run, that runs between the same marks the other way
+// and is not yet paired: the earlier runs' unpaired sections are kept by
+// their ends, in that order, so that a draft of 50,000 sections finds its
+// pairs in one pass rather than by comparing every two.
 func (d *Draft) doubleRuns(in DraftInput) {
+	type ends struct{ from, to string }
 	type ref struct{ run, sec int }
-	used := map[ref]bool{}
+	waiting := map[ends][]ref{}
 	for j := range in.Runs {
+		paired := make([]bool, len(in.Runs[j].Sections))
 		for b, back := range in.Runs[j].Sections {
-			for i := 0; i < j; i++ {
-				found := false
-				for a, fwd := range in.Runs[i].Sections {
-					if used[ref{i, a}] || fwd.From != back.To || fwd.To != back.From {
-						continue
+			k := ends{back.To, back.From}
+			q := waiting[k]
+			if len(q) == 0 {
+				continue
+			}
+			i, a := q[0].run, q[0].sec
+			if len(q) == 1 {
+				delete(waiting, k)
+			} else {
+				waiting[k] = q[1:]
+			}
+			paired[b] = true
+			fwd := in.Runs[i].Sections[a]
+			st := DoubleRunStat{From: fwd.From, To: fwd.To, RunID: in.Runs[i].ID, Seq: fwd.Seq, BackRunID: in.Runs[j].ID, BackSeq: back.Seq,
+				ForwardM: fwd.DhM, BackwardM: back.DhM, ClosureM: fwd.DhM + back.DhM}
+			if fwd.LengthM != nil && back.LengthM != nil {
+				k := (*fwd.LengthM + *back.LengthM) / 2
+				st.OneWayM = &k
+				if c := WorstClass([]DraftRun{in.Runs[i], in.Runs[j]}); c != "" && k > 0 {
+					if tol, ok := in.Runs[i].tolerancesOf(c); ok {
+						a := standards.DoubleRunAllowableM(tol, k)
+						pass := standards.Within(st.ClosureM, a)
+						st.Class, st.AllowableM, st.Pass = string(c), &a, &pass
 					}
-					used[ref{i, a}], used[ref{j, b}] = true, true
-					st := DoubleRunStat{From: fwd.From, To: fwd.To, RunID: in.Runs[i].ID, Seq: fwd.Seq, BackRunID: in.Runs[j].ID, BackSeq: back.Seq,
-						ForwardM: fwd.DhM, BackwardM: back.DhM, ClosureM: fwd.DhM + back.DhM}
-					if fwd.LengthM != nil && back.LengthM != nil {
-						k := (*fwd.LengthM + *back.LengthM) / 2
-						st.OneWayM = &k
-						if c := WorstClass([]DraftRun{in.Runs[i], in.Runs[j]}); c != "" && k > 0 {
-							if tol, ok := in.Runs[i].tolerancesOf(c); ok {
-								a := standards.DoubleRunAllowableM(tol, k)
-								pass := standards.Within(st.ClosureM, a)
-								st.Class, st.AllowableM, st.Pass = string(c), &a, &pass
-							}
-						}
-					}
-					d.Stats.DoubleRuns = append(d.Stats.DoubleRuns, st)
-					found = true
-					break
 				}
-				if found {
-					break
-				}
+			}
+			d.Stats.DoubleRuns = append(d.Stats.DoubleRuns, st)
+		}
+		// The run's sections not paired as the return of an earlier one
+		// wait for a later run's return.
+		for a, fwd := range in.Runs[j].Sections {
+			if !paired[a] {
+				k := ends{fwd.From, fwd.To}
+				waiting[k] = append(waiting[k], ref{j, a})
 			}
 		}
 	}

@@ -2,6 +2,8 @@ package adjust
 
 import (
 	"math"
+	"math/rand/v2"
+	"slices"
 	"testing"
 
 	"cairn/internal/units"
@@ -94,5 +96,59 @@ func TestDoubleRunsBetweenRuns(t *testing.T) {
 	}
 	if d.Stats.Failed() < 1 {
 		t.Errorf("failed %d, want the double run counted", d.Stats.Failed())
+	}
+}
+
+// doubleRunPairsByComparison is the pairing of doubleRuns written the
+// plain way, every section against every section of every earlier run
+// (the form it had before it kept the unpaired sections by their ends):
+// the reference its pairs must equal.
+func doubleRunPairsByComparison(in DraftInput) [][4]int64 {
+	type ref struct{ run, sec int }
+	used := map[ref]bool{}
+	var out [][4]int64
+	for j := range in.Runs {
+		for b, back := range in.Runs[j].Sections {
+		earlier:
+			for i := 0; i < j; i++ {
+				for a, fwd := range in.Runs[i].Sections {
+					if used[ref{i, a}] || fwd.From != back.To || fwd.To != back.From {
+						continue
+					}
+					used[ref{i, a}], used[ref{j, b}] = true, true
+					out = append(out, [4]int64{in.Runs[i].ID, int64(fwd.Seq), in.Runs[j].ID, int64(back.Seq)})
+					break earlier
+				}
+			}
+		}
+	}
+	return out
+}
+
+// Sections levelled several times each way over a few marks, in runs that
+// repeat and reverse one another, pair as the comparison of every two
+// gives, in the same order.
+func TestDoubleRunsPairAsComparison(t *testing.T) {
+	rng := rand.New(rand.NewPCG(5, 6))
+	marks := []string{"TC-1", "TC-2", "TC-3", "TC-4"}
+	for trial := range 200 {
+		var in DraftInput
+		for r := range 1 + rng.IntN(8) {
+			run := DraftRun{ID: int64(r + 1), Class: "second-II"}
+			for s := range rng.IntN(6) {
+				f, to := marks[rng.IntN(len(marks))], marks[rng.IntN(len(marks))]
+				run.Sections = append(run.Sections, DraftSection{Seq: s + 1, From: f, To: to, DhM: rng.Float64(), LengthM: lenp(100 + rng.Float64())})
+			}
+			in.Runs = append(in.Runs, run)
+		}
+		var d Draft
+		d.doubleRuns(in)
+		var got [][4]int64
+		for _, st := range d.Stats.DoubleRuns {
+			got = append(got, [4]int64{st.RunID, int64(st.Seq), st.BackRunID, int64(st.BackSeq)})
+		}
+		if want := doubleRunPairsByComparison(in); !slices.Equal(got, want) {
+			t.Fatalf("trial %d: pairs %v, want %v", trial, got, want)
+		}
 	}
 }

@@ -104,3 +104,75 @@ func (l Loop) Book() []byte {
 	}
 	return b.Bytes()
 }
+
+// Line describes a generated level line: from Marks[0] through each of
+// Marks in turn to the last, section i (Marks[i] to Marks[i+1]) rising by
+// DhM[i] metres over about LengthM[i] metres of levelling. Each section is
+// levelled by enough setups through turning points that every sight is at
+// most 50 m by stadia (three wires whose half-intervals agree exactly, at
+// whole millimetres) and no setup rises more than 2.5 m; backsight and
+// foresight of each setup are equal, so the book passes the checks of
+// class second-II. A section's difference is DhM rounded to the
+// millimetre.
+type Line struct {
+	// Name is the run's name in the book's metadata; Date its date
+	// (default 2026-04-14).
+	Name, Date string
+	Marks      []string
+	DhM        []float64
+	LengthM    []float64
+	// Seed chooses the readings.
+	Seed uint64
+}
+
+// Book returns the line's level book as CSV bytes with LF line ends.
+func (l Line) Book() []byte {
+	if len(l.Marks) < 2 || len(l.DhM) != len(l.Marks)-1 || len(l.LengthM) != len(l.DhM) {
+		panic("booktest: a line needs two marks or more, and a difference and a length for each section")
+	}
+	rng := rand.New(rand.NewPCG(l.Seed, 0x11e))
+	name := l.Name
+	if name == "" {
+		name = fmt.Sprintf("Generated line from %s to %s", l.Marks[0], l.Marks[len(l.Marks)-1])
+	}
+	date := l.Date
+	if date == "" {
+		date = "2026-04-14"
+	}
+	var b bytes.Buffer
+	fmt.Fprintf(&b, "# run: %s\n# date: %s\n", name, date)
+	b.WriteString("# crew: generated\n# instrument: generated\n# units: m\n# class: second-II\n")
+	b.WriteString("point,sight,upper,middle,lower,note\n")
+	row := func(p, sight string, mm, half int) {
+		fmt.Fprintf(&b, "%s,%s,%.3f,%.3f,%.3f,\n", p, sight, float64(mm+half)/1000, float64(mm)/1000, float64(mm-half)/1000)
+	}
+	tp := 0
+	for i, dh := range l.DhM {
+		d := int(math.Round(dh * 1000))
+		k := max(1, (abs(d)+2499)/2500, int(math.Ceil(l.LengthM[i]/100)))
+		// Half-interval in mm of a sight of length/(2k) metres (factor 100:
+		// sight = 200 × half), at most 50 m.
+		half := max(5, min(250, int(math.Round(l.LengthM[i]/float64(2*k)*5))))
+		from := l.Marks[i]
+		for j := range k {
+			step := d*(j+1)/k - d*j/k
+			bs := 2000 + step/2 + rng.IntN(201) - 100
+			to := l.Marks[i+1]
+			if j < k-1 {
+				tp++
+				to = fmt.Sprintf("TP%d", tp)
+			}
+			row(from, "BS", bs, half)
+			row(to, "FS", bs-step, half)
+			from = to
+		}
+	}
+	return b.Bytes()
+}
+
+func abs(x int) int {
+	if x < 0 {
+		return -x
+	}
+	return x
+}

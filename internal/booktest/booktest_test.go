@@ -53,3 +53,38 @@ func TestLoopReducesCleanly(t *testing.T) {
 		}
 	}
 }
+
+// A generated line parses, reduces to its sections in order with the
+// differences asked for (to the millimetre) and lengths near those asked
+// for, and, held at both ends at heights that differ by the sum of its
+// sections, passes every check of its class.
+func TestLineReducesCleanly(t *testing.T) {
+	t.Parallel()
+	l := Line{Marks: []string{"TC-2001", "TC-2002", "TC-2003", "TC-2004"}, DhM: []float64{7.3214, -0.0004, -12.5}, LengthM: []float64{820, 35, 2400}, Seed: 3}
+	book, err := levelbook.Parse("line.csv", l.Book())
+	if err != nil {
+		t.Fatal(err)
+	}
+	// 7.321 + 0.000 - 12.500 m, as booked to the millimetre.
+	res, err := reduce.Reduce(book, reduce.Options{Hold: map[string]float64{"TC-2001": 100, "TC-2004": 94.821}})
+	if err != nil {
+		t.Fatal(err)
+	}
+	if len(res.Sections) != 3 || res.Loop {
+		t.Fatalf("%d sections, loop %v", len(res.Sections), res.Loop)
+	}
+	for i, s := range res.Sections {
+		if s.From != l.Marks[i] || s.To != l.Marks[i+1] {
+			t.Errorf("section %d runs %s to %s", i+1, s.From, s.To)
+		}
+		if want := math.Round(l.DhM[i]*1000) / 1000; math.Abs(s.DifferenceM-want) > 1e-9 {
+			t.Errorf("section %d: difference %.4f m, want %.3f", i+1, s.DifferenceM, want)
+		}
+		if s.LengthM < l.LengthM[i]*0.9 || s.LengthM > l.LengthM[i]*1.1+10 {
+			t.Errorf("section %d: length %.1f m, want about %.0f", i+1, s.LengthM, l.LengthM[i])
+		}
+	}
+	for _, f := range res.Failures {
+		t.Errorf("line %d: %s: %s", f.Line, f.Kind, f.Message)
+	}
+}

@@ -171,6 +171,90 @@ func Existing(t testing.TB, name string) *DB {
 	return &DB{Pool: pool, URL: url}
 }
 
+// Built returns a fresh database copied from a template built once by
+// build on a migrated database and kept on the server for later test
+// processes (CREATE DATABASE ... TEMPLATE): a benchmark's large register,
+// built the first time and reused after. The template is named
+// cairn_built_KEY_ with the migrations' hash, so a change of schema
+// builds it again; key (letters, digits and _) says what build makes,
+// with its size and seed. A build that fails leaves no template. The copy
+// is dropped when t ends.
+func Built(t testing.TB, key string, build func(db *DB) error) *DB {
+	t.Helper()
+	ctx := context.Background()
+	admin, err := server()
+	if err != nil {
+		t.Fatal(err)
+	}
+	name := "cairn_built_" + key + "_" + migrationsHash()[:8]
+	if len(name) > 63 {
+		t.Fatalf("pgtest: template name %s is longer than PostgreSQL's 63 bytes", name)
+	}
+	conn, err := pgx.Connect(ctx, admin)
+	if err != nil {
+		t.Fatal(err)
+	}
+	defer conn.Close(ctx)
+	unlock, err := store.AdvisoryLock(ctx, conn, 727412)
+	if err != nil {
+		t.Fatal(err)
+	}
+	exists, err := store.DatabaseExists(ctx, conn, store.DatabaseGetParams{Name: name, Template: true})
+	if err != nil {
+		unlock()
+		t.Fatal(err)
+	}
+	if !exists {
+		if err := buildTemplate(ctx, admin, conn, name, build); err != nil {
+			unlock()
+			t.Fatalf("pgtest: build template %s: %v", name, err)
+		}
+	}
+	unlock()
+	return copyOf(t, admin, "cairn_test_"+randomHex(6), name, true)
+}
+
+// buildTemplate makes database name, migrated, fills it with build and
+// marks it a template; one that fails is dropped.
+func buildTemplate(ctx context.Context, admin string, conn *pgx.Conn, name string, build func(db *DB) error) (err error) {
+	tmpl, err := template(ctx, admin)
+	if err != nil {
+		return err
+	}
+	if err := store.DatabaseDrop(ctx, conn, name); err != nil {
+		return err
+	}
+	if err := createFrom(ctx, admin, name, tmpl); err != nil {
+		return err
+	}
+	defer func() {
+		if err != nil {
+			if derr := store.DatabaseDrop(context.WithoutCancel(ctx), conn, name); derr != nil {
+				err = fmt.Errorf("%w (and %v)", err, derr)
+			}
+		}
+	}()
+	url, err := withDatabase(admin, name)
+	if err != nil {
+		return err
+	}
+	pool, err := store.Open(ctx, url)
+	if err != nil {
+		return err
+	}
+	if err = store.DatabaseApply(ctx, pool); err == nil {
+		err = build(&DB{Pool: pool, URL: url})
+	}
+	if err == nil {
+		_, err = pool.Exec(ctx, "VACUUM ANALYZE")
+	}
+	pool.Close()
+	if err != nil {
+		return err
+	}
+	return store.DatabaseMakeTemplate(ctx, conn, name)
+}
+
 // create makes database name from the template, dropped when t ends if
 // drop.
 func create(t testing.TB, name string, drop bool) *DB {
@@ -184,6 +268,14 @@ func create(t testing.TB, name string, drop bool) *DB {
 	if err != nil {
 		t.Fatalf("pgtest: template database: %v", err)
 	}
+	return copyOf(t, admin, name, tmpl, drop)
+}
+
+// copyOf makes database name as a copy of tmpl on admin's server,
+// dropped when t ends if drop.
+func copyOf(t testing.TB, admin, name, tmpl string, drop bool) *DB {
+	t.Helper()
+	ctx := context.Background()
 	if err := createFrom(ctx, admin, name, tmpl); err != nil {
 		t.Fatalf("pgtest: create test database: %v", err)
 	}

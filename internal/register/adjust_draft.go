@@ -51,7 +51,7 @@ func (r *Register) draftView(ctx context.Context, tx pgx.Tx, p AdjustParams, g *
 	}
 
 	// The versions publishing would replace.
-	latest, err := store.HeightLatestMany(ctx, tx, store.HeightLatestManyParams{MarkIDs: ids, DatumID: g.datum.ID})
+	latest, err := store.HeightLatestKeys(ctx, tx, store.HeightLatestManyParams{MarkIDs: ids, DatumID: g.datum.ID})
 	if err != nil {
 		return err
 	}

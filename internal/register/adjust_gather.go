@@ -417,15 +417,26 @@ func commonDatums(ctx context.Context, db store.DBTX, marks []store.Mark) (codes
 }
 
 // sidesOfRuns reads the runs' intermediate sights on marks from their
-// stored books (sidesOf), the books in one statement, by run.
+// stored books (sidesOf), the books in one statement, by run: the books of
+// the runs whose stored sightings hold such a sight alone
+// (store.RunIDsWithSideSights), since a book without one gives none (the
+// sightings are the book's, as recorded: audit verify parses the book
+// again against them).
 func sidesOfRuns(ctx context.Context, db store.DBTX, runs []store.Run) (map[int64][]adjust.DraftSide, error) {
 	byID := make(map[int64]store.Run, len(runs))
-	ids := make([]int64, len(runs))
+	all := make([]int64, len(runs))
 	for i, run := range runs {
-		byID[run.ID], ids[i] = run, run.ID
+		byID[run.ID], all[i] = run, run.ID
+	}
+	ids, err := store.RunIDsWithSideSights(ctx, db, all)
+	if err != nil {
+		return nil, fmt.Errorf("find the runs with side shots among %d: %w", len(runs), err)
 	}
 	out := map[int64][]adjust.DraftSide{}
-	err := store.RunBookEach(ctx, db, ids, func(id int64, raw []byte) error {
+	if len(ids) == 0 {
+		return out, nil
+	}
+	err = store.RunBookEach(ctx, db, ids, func(id int64, raw []byte) error {
 		sides, err := sidesOf(byID[id], raw)
 		if len(sides) > 0 {
 			out[id] = sides

@@ -161,7 +161,7 @@ func AdjustmentRunInsert(ctx context.Context, db DBTX, p AdjustmentRunInsertPara
 
 // AdjustmentRunList returns the runs an adjustment used, by identifier.
 func AdjustmentRunList(ctx context.Context, db DBTX, adjustmentID int64) ([]Run, error) {
-	rows, err := db.Query(ctx, "SELECT "+runColumns+` FROM run r JOIN adjustment_run ar ON ar.run_id = r.id
+	rows, err := db.Query(ctx, "SELECT "+runColumns+" FROM run r"+runJoins+` JOIN adjustment_run ar ON ar.run_id = r.id
 		WHERE ar.adjustment_id = $1 ORDER BY r.id`, adjustmentID)
 	if err != nil {
 		return nil, translate(err)
@@ -269,9 +269,9 @@ func AdjustmentResultCopy(ctx context.Context, db Copier, p AdjustmentResultCopy
 
 // AdjustmentResultList returns an adjustment's results in report order.
 func AdjustmentResultList(ctx context.Context, db DBTX, adjustmentID int64) ([]AdjustmentResult, error) {
-	rows, err := db.Query(ctx, `SELECT r.mark_id, `+markDesignation("r.mark_id")+`, r.seq, r.held, r.computed_m, r.correction_m,
+	rows, err := db.Query(ctx, `SELECT r.mark_id, m.designation, r.seq, r.held, r.computed_m, r.correction_m,
 		r.adjusted_m, r.sigma_m, r.value::text, r.unit, r.decimals, r.class, r.replaces, p.version
-		FROM adjustment_result r LEFT JOIN height p ON p.id = r.replaces
+		FROM adjustment_result r JOIN mark m ON m.id = r.mark_id LEFT JOIN height p ON p.id = r.replaces
 		WHERE r.adjustment_id = $1 ORDER BY r.seq`, adjustmentID)
 	if err != nil {
 		return nil, translate(err)

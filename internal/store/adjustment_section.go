@@ -40,9 +40,12 @@ func AdjustmentSectionCopy(ctx context.Context, db Copier, p AdjustmentSectionCo
 // AdjustmentSectionList returns an adjustment's section outcomes by run and
 // along each run, with the sections' marks and book lines.
 func AdjustmentSectionList(ctx context.Context, db DBTX, adjustmentID int64) ([]AdjustmentSection, error) {
-	rows, err := db.Query(ctx, `SELECT a.run_id, a.seq, `+markDesignation("s.from_mark_id")+`, `+markDesignation("s.to_mark_id")+`, s.first_line, s.last_line,
+	// The designations by join, not a subquery for each end of each
+	// section (SectionList).
+	rows, err := db.Query(ctx, `SELECT a.run_id, a.seq, f.designation, t.designation, s.first_line, s.last_line,
 		a.residual_m, a.residual_sd_m, a.w, a.flagged
 		FROM adjustment_section a JOIN section s ON s.run_id = a.run_id AND s.seq = a.seq
+		JOIN mark f ON f.id = s.from_mark_id JOIN mark t ON t.id = s.to_mark_id
 		WHERE a.adjustment_id = $1 ORDER BY a.run_id, a.seq`, adjustmentID)
 	if err != nil {
 		return nil, translate(err)

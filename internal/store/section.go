@@ -53,9 +53,12 @@ type SectionListParams struct {
 // SectionList returns the sections of the given runs, by run and along
 // each run.
 func SectionList(ctx context.Context, db DBTX, p SectionListParams) ([]Section, error) {
-	rows, err := db.Query(ctx, `SELECT s.run_id, s.seq, s.from_mark_id, s.to_mark_id, `+markDesignation("s.from_mark_id")+`, `+markDesignation("s.to_mark_id")+`,
+	// The marks' designations by join (the planner may hash the marks
+	// once), not a subquery for each end of each section.
+	rows, err := db.Query(ctx, `SELECT s.run_id, s.seq, s.from_mark_id, s.to_mark_id, f.designation, t.designation,
 		s.dh_m, s.length_m, s.setups, s.first_line, s.last_line
 		FROM (SELECT DISTINCT unnest($1::bigint[]) AS run_id) AS u JOIN section s ON s.run_id = u.run_id
+		JOIN mark f ON f.id = s.from_mark_id JOIN mark t ON t.id = s.to_mark_id
 		ORDER BY s.run_id, s.seq`, p.RunIDs)
 	if err != nil {
 		return nil, translate(err)
