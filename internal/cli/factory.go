@@ -108,7 +108,7 @@ func (f *Factory) Conn(ctx context.Context) (*pgxpool.Pool, error) {
 			f.connErr = err
 			return
 		}
-		pool, err := store.Open(ctx, url)
+		pool, err := store.OpenWith(ctx, url, store.PoolOptions{Unprepared: true})
 		if err != nil {
 			f.connErr = fmt.Errorf("open register (%s): %w", src.From, err)
 			return
@@ -147,7 +147,7 @@ func (f *Factory) Admin(ctx context.Context) (*pgxpool.Pool, error) {
 			f.adminPool = f.pool
 			return
 		}
-		pool, err := store.Open(ctx, f.adminURL)
+		pool, err := store.OpenWith(ctx, f.adminURL, store.PoolOptions{Unprepared: true})
 		if err != nil {
 			f.adminErr = fmt.Errorf("open register as its owner (%s): %w", f.Source().From, err)
 			return

@@ -13,6 +13,7 @@ import (
 	"sync"
 	"time"
 
+	"github.com/jackc/pgx/v5"
 	"github.com/jackc/pgx/v5/pgxpool"
 	"github.com/jackc/pgx/v5/stdlib"
 	"github.com/pressly/goose/v3"
@@ -50,6 +51,15 @@ type PoolOptions struct {
 	// of a statement that runs in 2.5 ms (docs/performance.md, the register
 	// on the web under load).
 	NoJIT bool
+	// Unprepared runs each statement in one round trip, unprepared
+	// (pgx.QueryExecModeExec), rather than preparing it first and keeping
+	// it for the next time: what a command that lives for a few
+	// statements wants, as nearly every statement it sends is sent once
+	// (a prepared statement costs a second round trip and the server's
+	// parse of it on first use; measured at 1,000,000 marks,
+	// docs/performance.md). A server that keeps running (cairn serve)
+	// keeps its statements prepared.
+	Unprepared bool
 }
 
 // OpenWith is Open with the sessions shaped by o.
@@ -71,6 +81,9 @@ func OpenWith(ctx context.Context, url string, o PoolOptions) (*pgxpool.Pool, er
 	if o.MaxConns > 0 {
 		cfg.MaxConns = o.MaxConns
 	}
+	if o.Unprepared {
+		cfg.ConnConfig.DefaultQueryExecMode = pgx.QueryExecModeExec
+	}
 	if o.ApplicationName != "" {
 		cfg.ConnConfig.RuntimeParams["application_name"] = o.ApplicationName
 	}
@@ -78,10 +91,15 @@ func OpenWith(ctx context.Context, url string, o PoolOptions) (*pgxpool.Pool, er
 	if err != nil {
 		return nil, err
 	}
-	if err := pool.Ping(ctx); err != nil {
+	// The first connection, made now so that a server that cannot be
+	// reached is said here; connecting is the check (no ping's round
+	// trip after it).
+	conn, err := pool.Acquire(ctx)
+	if err != nil {
 		pool.Close()
 		return nil, fmt.Errorf("connect to %s: %w", describe(cfg), err)
 	}
+	conn.Release()
 	return pool, nil
 }
 
