@@ -127,7 +127,7 @@ func Migrate(ctx context.Context, pool *pgxpool.Pool) error {
 	// Every command opens the register through here: when every embedded
 	// migration is applied and the register is at home in this cluster,
 	// one query says so, without goose's lock and version reads.
-	if ok, err := upToDate(ctx, pool); err == nil && ok {
+	if ok, err := UpToDate(ctx, pool); err == nil && ok {
 		return nil
 	}
 	db := stdlib.OpenDBFromPool(pool)
@@ -187,11 +187,11 @@ var embeddedVersions = sync.OnceValues(func() ([]int64, error) {
 	return vs, nil
 })
 
-// upToDate reports, in one query, whether every embedded migration is
+// UpToDate reports, in one query, whether every embedded migration is
 // applied (the latest row of each version in goose's table says applied)
 // and the register is at home in this cluster (CarryTransactionNumbers
 // would do nothing). An error (no goose table yet) means "not known".
-func upToDate(ctx context.Context, pool *pgxpool.Pool) (bool, error) {
+func UpToDate(ctx context.Context, pool *pgxpool.Pool) (bool, error) {
 	want, err := embeddedVersions()
 	if err != nil {
 		return false, err
