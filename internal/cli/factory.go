@@ -108,7 +108,7 @@ func (f *Factory) Conn(ctx context.Context) (*pgxpool.Pool, error) {
 			f.connErr = err
 			return
 		}
-		pool, err := store.OpenWith(ctx, url, store.PoolOptions{Unprepared: true})
+		pool, err := store.Open(ctx, url)
 		if err != nil && src.Embedded {
 			// A cluster taken as secured since its start may have lost
 			// its database or roles: secure it again, and connect once
@@ -118,7 +118,7 @@ func (f *Factory) Conn(ctx context.Context) (*pgxpool.Pool, error) {
 					f.connErr = err
 					return
 				}
-				pool, err = store.OpenWith(ctx, url, store.PoolOptions{Unprepared: true})
+				pool, err = store.Open(ctx, url)
 			}
 		}
 		if err != nil {
@@ -159,7 +159,7 @@ func (f *Factory) Admin(ctx context.Context) (*pgxpool.Pool, error) {
 			f.adminPool = f.pool
 			return
 		}
-		pool, err := store.OpenWith(ctx, f.adminURL, store.PoolOptions{Unprepared: true})
+		pool, err := store.Open(ctx, f.adminURL)
 		if err != nil {
 			f.adminErr = fmt.Errorf("open register as its owner (%s): %w", f.Source().From, err)
 			return

@@ -13,7 +13,6 @@ import (
 	"sync"
 	"time"
 
-	"github.com/jackc/pgx/v5"
 	"github.com/jackc/pgx/v5/pgxpool"
 	"github.com/jackc/pgx/v5/stdlib"
 	"github.com/pressly/goose/v3"
@@ -51,15 +50,6 @@ type PoolOptions struct {
 	// of a statement that runs in 2.5 ms (docs/performance.md, the register
 	// on the web under load).
 	NoJIT bool
-	// Unprepared runs each statement in one round trip, unprepared
-	// (pgx.QueryExecModeExec), rather than preparing it first and keeping
-	// it for the next time: what a command that lives for a few
-	// statements wants, as nearly every statement it sends is sent once
-	// (a prepared statement costs a second round trip and the server's
-	// parse of it on first use; measured at 1,000,000 marks,
-	// docs/performance.md). A server that keeps running (cairn serve)
-	// keeps its statements prepared.
-	Unprepared bool
 }
 
 // OpenWith is Open with the sessions shaped by o.
@@ -80,9 +70,6 @@ func OpenWith(ctx context.Context, url string, o PoolOptions) (*pgxpool.Pool, er
 	}
 	if o.MaxConns > 0 {
 		cfg.MaxConns = o.MaxConns
-	}
-	if o.Unprepared {
-		cfg.ConnConfig.DefaultQueryExecMode = pgx.QueryExecModeExec
 	}
 	if o.ApplicationName != "" {
 		cfg.ConnConfig.RuntimeParams["application_name"] = o.ApplicationName
