@@ -26,6 +26,10 @@ type Loop struct {
 	// FirstMark numbers the marks: designations run TC-1001, TC-1002, ...
 	// when it is 0 (the default 1001).
 	FirstMark int
+	// Designations, when set, name the marks instead (one for every
+	// MarkEvery setups, rounded up), for a loop over marks a register
+	// holds already.
+	Designations []string
 	// Seed chooses the readings.
 	Seed uint64
 }
@@ -40,11 +44,17 @@ func (l Loop) markEvery() int {
 // Marks returns the designations of the loop's marks in the order it
 // visits them; it closes on the first again.
 func (l Loop) Marks() []string {
+	n := (l.Setups + l.markEvery() - 1) / l.markEvery()
+	if l.Designations != nil {
+		if len(l.Designations) != n {
+			panic(fmt.Sprintf("booktest: %d designations for a loop of %d marks", len(l.Designations), n))
+		}
+		return l.Designations
+	}
 	first := l.FirstMark
 	if first == 0 {
 		first = 1001
 	}
-	n := (l.Setups + l.markEvery() - 1) / l.markEvery()
 	ms := make([]string, n)
 	for i := range ms {
 		ms[i] = fmt.Sprintf("TC-%04d", first+i)

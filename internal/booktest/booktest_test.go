@@ -19,6 +19,7 @@ func TestLoopReducesCleanly(t *testing.T) {
 		{Setups: 7, MarkEvery: 3},
 		{Setups: 120, Seed: 4},
 		{Setups: 20000, Seed: 9},
+		{Setups: 30, MarkEvery: 10, Designations: []string{"TC-0000412", "TC-0000007", "TC-0123456"}},
 	} {
 		data := l.Book()
 		if !bytes.Equal(data, l.Book()) {

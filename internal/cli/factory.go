@@ -110,6 +110,18 @@ func (f *Factory) Conn(ctx context.Context) (*pgxpool.Pool, error) {
 			return
 		}
 		pool, err := store.Open(ctx, url)
+		if err != nil && src.Embedded {
+			// A cluster taken as secured since its start may have lost
+			// its database or roles: secure it again, and connect once
+			// more.
+			if c, cerr := f.Cluster(); cerr == nil && c.Resecure() == nil {
+				if url, admin, err = f.urls(ctx); err != nil {
+					f.connErr = err
+					return
+				}
+				pool, err = store.Open(ctx, url)
+			}
+		}
 		if err != nil {
 			f.connErr = fmt.Errorf("open register (%s): %w", src.From, err)
 			return
@@ -171,6 +183,17 @@ func (f *Factory) AdminURL(ctx context.Context) (string, error) {
 // date, once, through the owner's connection (Admin).
 func (f *Factory) Pool(ctx context.Context) (*pgxpool.Pool, error) {
 	f.migrateOnce.Do(func() {
+		// Up to date, as nearly always: said on the everyday connection,
+		// without the owner's (on the embedded default a connection of
+		// its own, with its password's SCRAM exchange).
+		pool, err := f.Conn(ctx)
+		if err != nil {
+			f.migrateErr = err
+			return
+		}
+		if ok, err := store.UpToDate(ctx, pool); err == nil && ok {
+			return
+		}
 		admin, err := f.Admin(ctx)
 		if err != nil {
 			f.migrateErr = err

@@ -12,6 +12,7 @@ import (
 	"regexp"
 	"strconv"
 	"strings"
+	"sync"
 	"time"
 	"unicode/utf8"
 
@@ -37,7 +38,7 @@ var requiredColumns = []string{"point", "sight", "middle"}
 var Keys = []string{"run", "date", "crew", "instrument", "rod", "units", "stadia-factor", "stadia-constant", "datum", "class", "standards", "reading", "turning-points"}
 
 // metaLine matches a metadata comment: "# key: value".
-var metaLine = regexp.MustCompile(`^#\s*([A-Za-z][A-Za-z0-9_-]*)\s*:(.*)$`)
+var metaLine = sync.OnceValue(func() *regexp.Regexp { return regexp.MustCompile(`^#\s*([A-Za-z][A-Za-z0-9_-]*)\s*:(.*)$`) })
 
 // ReadFile reads and parses the level book at path; the path as given
 // names the book in errors. A file that cannot be read is an *Error too.
@@ -406,7 +407,7 @@ func (p *parser) parseMeta(data []byte) error {
 			headerLine = line
 			break
 		}
-		sm := metaLine.FindStringSubmatch(text)
+		sm := metaLine().FindStringSubmatch(text)
 		if sm == nil {
 			continue // a free comment
 		}

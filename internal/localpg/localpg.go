@@ -339,10 +339,64 @@ func (c *Cluster) Start(ctx context.Context) (string, error) {
 			return "", fmt.Errorf("start PostgreSQL in %s: %w%s", c.Dir, err, c.logTail())
 		}
 	}
+	// Every command starts the cluster; securing it (a connection as the
+	// owner, with its password's SCRAM exchange, and three statements)
+	// is needed once a start of the server, not once a command: a server
+	// this start of which was secured already (the stamp of its
+	// postmaster.pid in the secured file), whose pg_hba.conf is still
+	// cairn's, is taken as it is.
+	stamp := c.serverStamp()
+	if stamp != "" && !fresh && c.securedAlready(stamp) {
+		return c.URL(Database), nil
+	}
 	if err := c.secure(ctx, run, pw, fresh); err != nil {
 		return "", err
 	}
+	if stamp != "" {
+		// Best effort: without the file the next command secures again.
+		_ = os.WriteFile(c.securedFile(), []byte(stamp), 0o600)
+	}
 	return c.URL(Database), nil
+}
+
+// securedFile holds the stamp (serverStamp) of the server's start that
+// cairn last secured.
+func (c *Cluster) securedFile() string { return filepath.Join(c.Dir, "secured") }
+
+// Resecure has the next Start secure the running server again, as on its
+// first start: for a connection that failed on a server taken as secured
+// (its cairn database or roles changed since).
+func (c *Cluster) Resecure() error {
+	if err := os.Remove(c.securedFile()); err != nil && !errors.Is(err, os.ErrNotExist) {
+		return fmt.Errorf("forget that cluster %s was secured: %w", c.Dir, err)
+	}
+	return nil
+}
+
+// serverStamp is the first three lines of the running server's
+// postmaster.pid: its process id, data folder and start time, which
+// another start of the server changes ("" when there is none to read).
+func (c *Cluster) serverStamp() string {
+	b, err := os.ReadFile(filepath.Join(c.dataDir(), "postmaster.pid"))
+	if err != nil {
+		return ""
+	}
+	lines := strings.SplitAfterN(string(b), "\n", 4)
+	if len(lines) < 4 {
+		return ""
+	}
+	return strings.Join(lines[:3], "")
+}
+
+// securedAlready says whether the server's start of stamp was secured
+// (securedFile) and pg_hba.conf is cairn's still.
+func (c *Cluster) securedAlready(stamp string) bool {
+	got, err := os.ReadFile(c.securedFile())
+	if err != nil || string(got) != stamp {
+		return false
+	}
+	hba, err := os.ReadFile(filepath.Join(c.dataDir(), "pg_hba.conf"))
+	return err == nil && string(hba) == hbaConf
 }
 
 // Stop stops the cluster's server (fast shutdown: sessions are ended,

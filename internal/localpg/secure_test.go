@@ -361,3 +361,64 @@ func TestServerUserMissing(t *testing.T) {
 		t.Error("the server's user is the system server's own")
 	}
 }
+
+// A cluster is secured once a start of its server: Start writes the
+// server's stamp, the first three lines of postmaster.pid (its process
+// id, data folder and start time: PostgreSQL's documentation, "Database
+// File Layout", the postmaster.pid table), and a later Start of the same
+// server takes it as secured, without the owner's connection; its cairn
+// database dropped since is then missing, until Resecure has the next
+// Start secure the server again. A restart of the server is another
+// stamp, and secured again.
+func TestSecuredOncePerServerStart(t *testing.T) {
+	t.Parallel()
+	ctx := context.Background()
+	c := testCluster(clusterDir(t, "cairn"))
+	stopAtEnd(t, c)
+	if _, err := c.Start(ctx); err != nil {
+		t.Fatal(err)
+	}
+	stamp := func() string {
+		b, err := os.ReadFile(filepath.Join(c.Dir, "data", "postmaster.pid"))
+		if err != nil {
+			t.Fatal(err)
+		}
+		lines := strings.Split(string(b), "\n")
+		return strings.Join(lines[:3], "\n") + "\n"
+	}
+	secured := func() string {
+		b, _ := os.ReadFile(filepath.Join(c.Dir, "secured"))
+		return string(b)
+	}
+	first := stamp()
+	if got := secured(); got != first {
+		t.Fatalf("secured %q, want the server's stamp %q", got, first)
+	}
+	mustExec(t, c.URL("postgres"), "DROP DATABASE "+Database)
+	url, err := c.Start(ctx)
+	if err != nil {
+		t.Fatal(err)
+	}
+	if conn, err := pgx.Connect(ctx, url); err == nil {
+		conn.Close(ctx)
+		t.Fatal("the cairn database is back: the second Start secured the server again")
+	}
+	if err := c.Resecure(); err != nil {
+		t.Fatal(err)
+	}
+	if url, err = c.Start(ctx); err != nil {
+		t.Fatal(err)
+	}
+	if got := query(t, url, "SELECT current_database()"); got != Database {
+		t.Errorf("after Resecure: connected to %q, want %s", got, Database)
+	}
+	if err := c.Restart(ctx); err != nil {
+		t.Fatal(err)
+	}
+	if _, err := c.Start(ctx); err != nil {
+		t.Fatal(err)
+	}
+	if got := secured(); got != stamp() || got == first {
+		t.Errorf("after a restart: secured %q, want the new stamp %q (not %q)", got, stamp(), first)
+	}
+}

@@ -3,9 +3,11 @@ package nationalgen_test
 import (
 	"bytes"
 	"encoding/csv"
+	"fmt"
 	"os"
 	"path/filepath"
 	"strconv"
+	"strings"
 	"testing"
 	"time"
 
@@ -69,5 +71,68 @@ func TestGeneratedRegisterImports(t *testing.T) {
 	v, err := fx.Reg.HeightShow(fx.Ctx, register.HeightShowParams{Designation: nationalgen.Designation(n - 1), Datum: "NAVD88", AsOf: &asOf})
 	if err != nil || len(v.Heights) != 1 || v.Heights[0].Version != 3 {
 		t.Fatalf("in force in 2000: %+v %v, want version 3 (1994)", v.Heights, err)
+	}
+}
+
+// "Did you mean" among generated designations that share their prefixes
+// by the hundred (more than the hint reads for one prefix), and the case
+// of issue 15: AB0826X named AA0826, a mark elsewhere, when the first
+// designations of the letter were read and AB0826 was not among them.
+// The answers are worked by hand: each typo is one edit (OSA distance:
+// a letter left out, one too many, two neighbours swapped) from the mark
+// named and at least two from every other; a typo two edits from its
+// mark may be answered by that mark or by none, never by another.
+func TestDidYouMeanAmongGeneratedNames(t *testing.T) {
+	t.Parallel()
+	dir := t.TempDir()
+	const n = 600
+	if _, err := nationalgen.Write(dir, n, 3); err != nil {
+		t.Fatal(err)
+	}
+	// AA0000 to AA0299 sort before AB0826 and AB0862, as the marks of a
+	// letter filled the old hint's read.
+	f, err := os.OpenFile(filepath.Join(dir, "marks.csv"), os.O_APPEND|os.O_WRONLY, 0)
+	if err != nil {
+		t.Fatal(err)
+	}
+	for i := range 300 {
+		fmt.Fprintf(f, "AA%04d,,brass disk,,,,,,,generator\n", i)
+	}
+	fmt.Fprintf(f, "AB0826,,brass disk,,,,,,,generator\nAB0862,,brass disk,,,,,,,generator\n")
+	if err := f.Close(); err != nil {
+		t.Fatal(err)
+	}
+	fx := registertest.Setup(t)
+	fx.Datum(t, registertest.DatumOpts{})
+	if _, err := fx.Reg.Import(fx.Ctx, register.ImportParams{Dir: dir, RecordedBy: "generator"}); err != nil {
+		t.Fatal(err)
+	}
+	for _, c := range []struct {
+		typed, want string
+		mayBeNone   bool
+	}{
+		{"TC-0000417X", "TC-0000417", false}, // one letter too many
+		{"TC-0000599X", "TC-0000599", false},
+		{"TC-000417", "TC-0000417", true},    // a digit left out: the prefixes read hold no mark, so none may be said
+		{"AB0826X", "AB0826", false},         // issue 15's case
+		{"AB8026", "AB0826", false},          // two neighbours swapped
+		{"AA0826X", "", true},                // AA0826 does not exist: AA0082, AA0026... are two edits away
+		{"TC-0000417XY", "TC-0000417", true}, // two edits: that mark or none
+	} {
+		_, err := fx.Reg.MarkShow(fx.Ctx, c.typed)
+		if err == nil {
+			t.Fatalf("%s: found", c.typed)
+		}
+		msg := err.Error()
+		hint := ""
+		if _, after, ok := strings.Cut(msg, "(did you mean "); ok {
+			hint, _, _ = strings.Cut(after, "?)")
+		}
+		switch {
+		case hint == "" && c.mayBeNone:
+		case c.want != "" && hint == c.want:
+		default:
+			t.Errorf("%s: hint %q, want %q (or none: %v): %s", c.typed, hint, c.want, c.mayBeNone, msg)
+		}
 	}
 }

@@ -413,3 +413,82 @@ func randomHex(n int) string {
 	_, _ = rand.Read(b)
 	return hex.EncodeToString(b)
 }
+
+// Existing returns the database name already on the test server, left
+// there when t ends (its pool is closed), or nil when there is none: a
+// benchmark's register built once and read by later runs. Whoever made
+// it drops it.
+func Existing(t testing.TB, name string) *DB {
+	t.Helper()
+	ctx := context.Background()
+	admin, err := server()
+	if err != nil {
+		t.Fatal(err)
+	}
+	var exists bool
+	if err := onAdmin(ctx, admin, func(conn *pgx.Conn) (err error) {
+		exists, err = store.DatabaseExists(ctx, conn, store.DatabaseGetParams{Name: name})
+		return err
+	}); err != nil {
+		t.Fatalf("pgtest: look for database %s: %v", name, err)
+	}
+	if !exists {
+		return nil
+	}
+	url, err := withDatabase(admin, name)
+	if err != nil {
+		t.Fatal(err)
+	}
+	pool, err := store.Open(ctx, url)
+	if err != nil {
+		t.Fatalf("pgtest: %v", err)
+	}
+	t.Cleanup(pool.Close)
+	return &DB{Pool: pool, URL: url}
+}
+
+// Rename renames database from to to on the test server (no session may
+// be connected to from).
+func Rename(t testing.TB, from, to string) {
+	t.Helper()
+	ctx := context.Background()
+	admin, err := server()
+	if err != nil {
+		t.Fatal(err)
+	}
+	if err := onAdmin(ctx, admin, func(conn *pgx.Conn) error {
+		return store.DatabaseRename(ctx, conn, from, to)
+	}); err != nil {
+		t.Fatalf("pgtest: %v", err)
+	}
+}
+
+// Copy makes database to on the test server as a copy of from (CREATE
+// DATABASE ... TEMPLATE: no session may be connected to from), left
+// there when t ends.
+func Copy(t testing.TB, from, to string) {
+	t.Helper()
+	ctx := context.Background()
+	admin, err := server()
+	if err != nil {
+		t.Fatal(err)
+	}
+	if err := createFrom(ctx, admin, to, from); err != nil {
+		t.Fatalf("pgtest: copy database %s to %s: %v", from, to, err)
+	}
+}
+
+// Drop drops database name from the test server if it is there.
+func Drop(t testing.TB, name string) {
+	t.Helper()
+	ctx := context.Background()
+	admin, err := server()
+	if err != nil {
+		t.Fatal(err)
+	}
+	if err := onAdmin(ctx, admin, func(conn *pgx.Conn) error {
+		return store.DatabaseDrop(ctx, conn, name)
+	}); err != nil {
+		t.Fatalf("pgtest: drop database %s: %v", name, err)
+	}
+}

@@ -6,6 +6,7 @@ import (
 	"fmt"
 	"regexp"
 	"strings"
+	"sync"
 
 	"github.com/jackc/pgx/v5"
 
@@ -13,7 +14,7 @@ import (
 	"cairn/internal/store"
 )
 
-var codePattern = regexp.MustCompile(`^[A-Za-z0-9][A-Za-z0-9._-]{0,31}$`)
+var codePattern = sync.OnceValue(func() *regexp.Regexp { return regexp.MustCompile(`^[A-Za-z0-9][A-Za-z0-9._-]{0,31}$`) })
 
 // DatumAddParams are the fields of a new datum.
 type DatumAddParams struct {
@@ -29,7 +30,7 @@ func (r *Register) DatumAdd(ctx context.Context, p DatumAddParams) (store.Datum,
 	if err := nameProblem("code", "datum code", p.Code); err != nil {
 		return store.Datum{}, err
 	}
-	if names.Normal(p.Code) == p.Code && !codePattern.MatchString(p.Code) {
+	if names.Normal(p.Code) == p.Code && !codePattern().MatchString(p.Code) {
 		return store.Datum{}, inputErr("code", "%q is not a datum code: use at most 32 letters, digits and . _ -, starting with a letter or digit", p.Code)
 	}
 	if p.Name == "" {
@@ -53,7 +54,7 @@ func (r *Register) DatumAdd(ctx context.Context, p DatumAddParams) (store.Datum,
 		if err := sameNameProblem("code", "datum", p.Code, existing.Code); err != nil {
 			return err
 		}
-		if !codePattern.MatchString(p.Code) {
+		if !codePattern().MatchString(p.Code) {
 			return inputErr("code", "%q is not a datum code: use at most 32 letters, digits and . _ -, starting with a letter or digit", p.Code)
 		}
 		d, err = store.DatumInsert(ctx, tx, store.DatumInsertParams{Code: p.Code, Name: p.Name, Note: p.Note, CreatedBy: p.By})

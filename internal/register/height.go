@@ -6,6 +6,7 @@ import (
 	"fmt"
 	"regexp"
 	"strings"
+	"sync"
 	"time"
 
 	"github.com/jackc/pgx/v5"
@@ -27,7 +28,7 @@ const (
 // MaxDecimals is the most decimals a published height may carry.
 const MaxDecimals = 6
 
-var decimalPattern = regexp.MustCompile(`^[+-]?[0-9]+(\.[0-9]+)?$`)
+var decimalPattern = sync.OnceValue(func() *regexp.Regexp { return regexp.MustCompile(`^[+-]?[0-9]+(\.[0-9]+)?$`) })
 
 // HeightSetParams are the fields of a new version of a mark's height.
 type HeightSetParams struct {
@@ -135,7 +136,7 @@ func checkHeight(p *HeightSetParams) (store.HeightInsertParams, error) {
 		if err := units.CheckDigits(value); err != nil {
 			return ins, inputErr("value", "%v", err)
 		}
-		if !decimalPattern.MatchString(value) {
+		if !decimalPattern().MatchString(value) {
 			return ins, inputErr("value", "%q is not a height: write a decimal number such as 769.83", p.Value)
 		}
 		u, err := units.Parse(p.Unit)

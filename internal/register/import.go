@@ -16,6 +16,7 @@ import (
 	"slices"
 	"strconv"
 	"strings"
+	"sync"
 	"time"
 
 	"github.com/jackc/pgx/v5"
@@ -442,9 +443,9 @@ func (f *csvFile) next() (int64, func(string) string, error) {
 }
 
 var (
-	isoDate    = regexp.MustCompile(`^[0-9]{4}-[0-9]{2}-[0-9]{2}$`)
-	slashDate  = regexp.MustCompile(`^[0-9]{1,2}[/.][0-9]{1,2}[/.][0-9]{2,4}$`)
-	serialDate = regexp.MustCompile(`^[0-9]{4,6}(\.[0-9]+)?$`)
+	isoDate    = sync.OnceValue(func() *regexp.Regexp { return regexp.MustCompile(`^[0-9]{4}-[0-9]{2}-[0-9]{2}$`) })
+	slashDate  = sync.OnceValue(func() *regexp.Regexp { return regexp.MustCompile(`^[0-9]{1,2}[/.][0-9]{1,2}[/.][0-9]{2,4}$`) })
+	serialDate = sync.OnceValue(func() *regexp.Regexp { return regexp.MustCompile(`^[0-9]{4,6}(\.[0-9]+)?$`) })
 )
 
 // importDate reads a date written YYYY-MM-DD; a spreadsheet's habits
@@ -454,11 +455,11 @@ func importDate(s string) (time.Time, error) {
 	switch {
 	case s == "":
 		return time.Time{}, fmt.Errorf("no date: write it YYYY-MM-DD")
-	case slashDate.MatchString(s):
+	case slashDate().MatchString(s):
 		return time.Time{}, fmt.Errorf("%q is a spreadsheet's date, whose day and month cannot be told apart: write it YYYY-MM-DD (e.g. 1994-06-01)", s)
-	case serialDate.MatchString(s):
+	case serialDate().MatchString(s):
 		return time.Time{}, fmt.Errorf("%q looks like a spreadsheet's serial day number: write the date YYYY-MM-DD (e.g. 1994-06-01)", s)
-	case !isoDate.MatchString(s):
+	case !isoDate().MatchString(s):
 		return time.Time{}, fmt.Errorf("%q is not a date written YYYY-MM-DD", s)
 	}
 	t, err := time.Parse("2006-01-02", s)
@@ -562,7 +563,7 @@ func orBy(s, by string) string {
 func (f *csvFile) markRow(by string, latest time.Time) func(int64, func(string) string) []any {
 	return func(line int64, get func(string) string) []any {
 		des := names.Normal(get("designation"))
-		if !designationPattern.MatchString(des) {
+		if !designationPattern().MatchString(des) {
 			f.problem(line, "designation", "%q is not a designation: letters and digits, then also . _ / -", des)
 			return nil
 		}
@@ -611,7 +612,7 @@ func (f *csvFile) markRow(by string, latest time.Time) func(int64, func(string) 
 		} else if reason != "" || repl != "" {
 			f.problem(line, "retired_on", "a retirement's reason or replacement is given without the date it was retired")
 		}
-		if repl != "" && !designationPattern.MatchString(repl) {
+		if repl != "" && !designationPattern().MatchString(repl) {
 			f.problem(line, "replaced_by", "%q is not a designation", repl)
 			repl = ""
 		}
@@ -638,7 +639,7 @@ func aliasProblem(kind, agency, alias string) string {
 		return "the kind of an alias is former, stamped or agency"
 	case (kind == "agency") != (agency != ""):
 		return "an agency's number names the agency, and only it"
-	case !aliasPattern.MatchString(alias) || strings.Contains(alias, "  ") || strings.HasSuffix(alias, " "):
+	case !aliasPattern().MatchString(alias) || strings.Contains(alias, "  ") || strings.HasSuffix(alias, " "):
 		return fmt.Sprintf("%q is not an alias: letters, digits, single spaces and . _ / # -, at most 64", alias)
 	}
 	return ""
@@ -740,7 +741,7 @@ func (p *photoFiles) unnamed(dir string, problems *[]ImportProblem) {
 	}
 }
 
-var sha256Name = regexp.MustCompile(`^[0-9a-f]{64}$`)
+var sha256Name = sync.OnceValue(func() *regexp.Regexp { return regexp.MustCompile(`^[0-9a-f]{64}$`) })
 
 // photoRow reads a photograph of photos.csv and its file, one at a time:
 // a JPEG or PNG of at most store.PhotoMaxBytes under the folder photos. A
@@ -771,7 +772,7 @@ func (f *csvFile) photoRow(dir, by string, photos *photoFiles) func(int64, func(
 		}
 		sum := sha256.Sum256(content)
 		hexSum := hex.EncodeToString(sum[:])
-		if stem := strings.TrimSuffix(filepath.Base(clean), filepath.Ext(clean)); sha256Name.MatchString(stem) && stem != hexSum {
+		if stem := strings.TrimSuffix(filepath.Base(clean), filepath.Ext(clean)); sha256Name().MatchString(stem) && stem != hexSum {
 			f.problem(line, "file", "%s is named by a SHA-256 that is not its own (%s): the file is not the one exported", clean, hexSum)
 			return nil
 		}

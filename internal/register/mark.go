@@ -11,6 +11,7 @@ import (
 	"regexp"
 	"slices"
 	"strings"
+	"sync"
 	"time"
 
 	"github.com/jackc/pgx/v5"
@@ -19,7 +20,7 @@ import (
 	"cairn/internal/store"
 )
 
-var designationPattern = regexp.MustCompile(`^[A-Za-z0-9][A-Za-z0-9._/-]{0,63}$`)
+var designationPattern = sync.OnceValue(func() *regexp.Regexp { return regexp.MustCompile(`^[A-Za-z0-9][A-Za-z0-9._/-]{0,63}$`) })
 
 // Conditions are the states a condition report may give, in the order
 // help texts list them.
@@ -116,7 +117,7 @@ func addMark(ctx context.Context, tx pgx.Tx, p MarkAddParams) (store.Mark, error
 	if err := sameNameProblem("designation", "mark", p.Designation, existing); err != nil {
 		return store.Mark{}, err
 	}
-	if !designationPattern.MatchString(p.Designation) {
+	if !designationPattern().MatchString(p.Designation) {
 		return store.Mark{}, inputErr("designation", "%q is not a designation: use at most 64 letters, digits and . _ / -, starting with a letter or digit", p.Designation)
 	}
 	// Nor may it be another mark's alias; the database's trigger

@@ -6,6 +6,7 @@ import (
 	"fmt"
 	"regexp"
 	"strings"
+	"sync"
 	"time"
 
 	"github.com/jackc/pgx/v5"
@@ -88,7 +89,7 @@ var AliasKinds = []string{store.AliasAgency, store.AliasFormer, store.AliasStamp
 
 // aliasPattern is the form of an alias (the CHECK of mark_alias.alias):
 // letters, digits, single spaces and . _ / # -, at most 64.
-var aliasPattern = regexp.MustCompile(`^[A-Za-z0-9][A-Za-z0-9 ._/#-]{0,63}$`)
+var aliasPattern = sync.OnceValue(func() *regexp.Regexp { return regexp.MustCompile(`^[A-Za-z0-9][A-Za-z0-9 ._/#-]{0,63}$`) })
 
 // MarkAliasParams are the fields of a new alias.
 type MarkAliasParams struct {
@@ -117,7 +118,7 @@ func (r *Register) MarkAliasAdd(ctx context.Context, p MarkAliasParams) (store.M
 	if names.Normal(p.Alias) != p.Alias {
 		return store.Mark{}, inputErr("alias", "%q is written with compatibility characters (fullwidth or other forms, NFKC): write it as %s", p.Alias, names.Normal(p.Alias))
 	}
-	if !aliasPattern.MatchString(p.Alias) || strings.Contains(p.Alias, "  ") || strings.HasSuffix(p.Alias, " ") {
+	if !aliasPattern().MatchString(p.Alias) || strings.Contains(p.Alias, "  ") || strings.HasSuffix(p.Alias, " ") {
 		return store.Mark{}, inputErr("alias", "%q is not an alias: use at most 64 letters, digits, single spaces and . _ / # -, starting with a letter or digit", p.Alias)
 	}
 	switch {

@@ -828,7 +828,7 @@ func createMarks(ctx context.Context, tx pgx.Tx, p RecordParams, book *levelbook
 		if err := nameProblem("point", "designation", u.Designation); err != nil {
 			return nil, &levelbook.Error{File: p.Path, Line: u.Line, Field: "point", Msg: err.(*InputError).Msg}
 		}
-		if !designationPattern.MatchString(u.Designation) {
+		if !designationPattern().MatchString(u.Designation) {
 			return nil, &levelbook.Error{File: p.Path, Line: u.Line, Field: "point",
 				Msg: fmt.Sprintf("%q cannot be a mark's designation (use at most 64 letters, digits and . _ / -, starting with a letter or digit), or name it as a turning point", u.Designation)}
 		}

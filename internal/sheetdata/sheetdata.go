@@ -11,6 +11,7 @@ import (
 	"regexp"
 	"strconv"
 	"strings"
+	"sync"
 	"time"
 	"unicode/utf8"
 
@@ -110,7 +111,9 @@ func From(st register.RegisterState, s register.Datasheet, asOf, knownAt *time.T
 
 // oldAdjustmentSource is the source text of a version published before
 // adjustments named only their count of runs: every run's number.
-var oldAdjustmentSource = regexp.MustCompile(`^adjustment ([0-9]+) \(([a-z-]+), run ([0-9]+(?:, [0-9]+)*)\)$`)
+var oldAdjustmentSource = sync.OnceValue(func() *regexp.Regexp {
+	return regexp.MustCompile(`^adjustment ([0-9]+) \(([a-z-]+), run ([0-9]+(?:, [0-9]+)*)\)$`)
+})
 
 // MaxSourceShown is the most characters of a height's source text a table,
 // the trace or a datasheet shows; JSON carries the whole text.
@@ -125,7 +128,7 @@ const MaxSourceShown = 200
 // text in the register is never changed: the history is append-only.
 func SourceShown(kind, s string) string {
 	if kind == register.KindAdjustment {
-		if m := oldAdjustmentSource.FindStringSubmatch(s); m != nil {
+		if m := oldAdjustmentSource().FindStringSubmatch(s); m != nil {
 			id, err := strconv.ParseInt(m[1], 10, 64)
 			if err == nil {
 				return register.AdjustmentSource(id, m[2], strings.Count(m[3], ",")+1)

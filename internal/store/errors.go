@@ -6,6 +6,7 @@ import (
 	"fmt"
 	"regexp"
 	"strings"
+	"sync"
 
 	"github.com/jackc/pgx/v5"
 	"github.com/jackc/pgx/v5/pgconn"
@@ -71,14 +72,14 @@ var roleToWrite = map[string]string{
 }
 
 // deniedTable finds the table of "permission denied for table height".
-var deniedTable = regexp.MustCompile(`permission denied for (?:table|relation) (\S+)`)
+var deniedTable = sync.OnceValue(func() *regexp.Regexp { return regexp.MustCompile(`permission denied for (?:table|relation) (\S+)`) })
 
 // permission explains a missing privilege (SQLSTATE 42501): which role of
 // the register is needed. role, when not empty, is the role the caller
 // knows its statement needs (a row lock needs more than a read).
 func permission(pe *pgconn.PgError, role string) error {
 	if role == "" {
-		if m := deniedTable.FindStringSubmatch(pe.Message); m != nil {
+		if m := deniedTable().FindStringSubmatch(pe.Message); m != nil {
 			role = roleToWrite[m[1]]
 		}
 	}

@@ -115,7 +115,7 @@ func TestMarkListNearestUsesTheIndexOrder(t *testing.T) {
 	if _, err := tx.Exec(ctx, "SET LOCAL enable_seqscan = off"); err != nil {
 		t.Fatal(err)
 	}
-	q := store.NearestSQL(store.BoundingBoxes(store.LatLon{Lat: 41.62, Lon: -97.95}, 2000))
+	q := store.NearestSQL()
 	rows, err := tx.Query(ctx, "EXPLAIN "+q, -97.95, 41.62, 64)
 	if err != nil {
 		t.Fatal(err)

@@ -80,10 +80,15 @@ func OpenWith(ctx context.Context, url string, o PoolOptions) (*pgxpool.Pool, er
 	if err != nil {
 		return nil, err
 	}
-	if err := pool.Ping(ctx); err != nil {
+	// The first connection, made now so that a server that cannot be
+	// reached is said here; connecting is the check (no ping's round
+	// trip after it).
+	conn, err := pool.Acquire(ctx)
+	if err != nil {
 		pool.Close()
 		return nil, fmt.Errorf("connect to %s: %w", describe(cfg), err)
 	}
+	conn.Release()
 	return pool, nil
 }
 
@@ -111,7 +116,7 @@ func Migrate(ctx context.Context, pool *pgxpool.Pool) error {
 	// Every command opens the register through here: when every embedded
 	// migration is applied and the register is at home in this cluster,
 	// one query says so, without goose's lock and version reads.
-	if ok, err := upToDate(ctx, pool); err == nil && ok {
+	if ok, err := UpToDate(ctx, pool); err == nil && ok {
 		return nil
 	}
 	db := stdlib.OpenDBFromPool(pool)
@@ -191,11 +196,11 @@ var embeddedVersions = sync.OnceValues(func() ([]int64, error) {
 	return vs, nil
 })
 
-// upToDate reports, in one query, whether every embedded migration is
+// UpToDate reports, in one query, whether every embedded migration is
 // applied (the latest row of each version in goose's table says applied)
 // and the register is at home in this cluster (CarryTransactionNumbers
 // would do nothing). An error (no goose table yet) means "not known".
-func upToDate(ctx context.Context, pool *pgxpool.Pool) (bool, error) {
+func UpToDate(ctx context.Context, pool *pgxpool.Pool) (bool, error) {
 	want, err := embeddedVersions()
 	if err != nil {
 		return false, err

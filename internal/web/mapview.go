@@ -11,6 +11,7 @@ import (
 	"path"
 	"strconv"
 	"strings"
+	"sync"
 
 	"cairn/internal/register"
 	"cairn/internal/units"
@@ -208,8 +209,9 @@ func newStatic(body []byte, contentType string) staticFile {
 	return staticFile{body: body, contentType: contentType, etag: `"static-` + hex.EncodeToString(sum[:8]) + `"`}
 }
 
-// staticFiles are the files under /static/, by their path there.
-var staticFiles = func() map[string]staticFile {
+// staticFiles are the files under /static/, by their path there, read
+// and tagged on first use.
+var staticFiles = sync.OnceValue(func() map[string]staticFile {
 	out := map[string]staticFile{}
 	types := map[string]string{".js": "text/javascript; charset=utf-8", ".css": "text/css; charset=utf-8", ".png": "image/png", "": "text/plain; charset=utf-8"}
 	for _, name := range []string{"leaflet/leaflet.js", "leaflet/leaflet.css", "leaflet/LICENSE", "map.js",
@@ -221,4 +223,4 @@ var staticFiles = func() map[string]staticFile {
 		out[name] = newStatic(b, types[path.Ext(name)])
 	}
 	return out
-}()
+})
