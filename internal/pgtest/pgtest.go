@@ -149,28 +149,6 @@ func Kept(t testing.TB, name string) *DB {
 	return create(t, name, false)
 }
 
-// Existing connects to database name, already on the test server (a
-// benchmark's register built once, by Kept), and neither migrates nor
-// drops it; its pool is closed when t ends. A database of that name not
-// on the server fails t.
-func Existing(t testing.TB, name string) *DB {
-	t.Helper()
-	admin, err := server()
-	if err != nil {
-		t.Fatal(err)
-	}
-	url, err := withDatabase(admin, name)
-	if err != nil {
-		t.Fatal(err)
-	}
-	pool, err := store.Open(context.Background(), url)
-	if err != nil {
-		t.Fatalf("pgtest: database %s: %v", name, err)
-	}
-	t.Cleanup(pool.Close)
-	return &DB{Pool: pool, URL: url}
-}
-
 // Built returns a fresh database copied from a template built once by
 // build on a migrated database and kept on the server for later test
 // processes (CREATE DATABASE ... TEMPLATE): a benchmark's large register,

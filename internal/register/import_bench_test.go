@@ -107,7 +107,11 @@ func BenchmarkAuditChains(b *testing.B) {
 	var fx *registertest.Bundle
 	versions := 0
 	if name := os.Getenv("CAIRN_BENCH_AUDIT_CHAIN_DB"); name != "" {
-		fx = registertest.On(b, pgtest.Existing(b, name))
+		db := pgtest.Existing(b, name)
+		if db == nil {
+			b.Fatalf("CAIRN_BENCH_AUDIT_CHAIN_DB: no database %s on the test server", name)
+		}
+		fx = registertest.On(b, db)
 		if err := fx.DB.Pool.QueryRow(fx.Ctx, "SELECT count(*) FROM height").Scan(&versions); err != nil {
 			b.Fatal(err)
 		}

@@ -125,15 +125,6 @@ func DatabaseDrop(ctx context.Context, conn *pgx.Conn, name string) error {
 	return nil
 }
 
-// DatabaseRename renames database from to to; no session may be
-// connected to from.
-func DatabaseRename(ctx context.Context, conn *pgx.Conn, from, to string) error {
-	if _, err := conn.Exec(ctx, "ALTER DATABASE "+pgx.Identifier{from}.Sanitize()+" RENAME TO "+pgx.Identifier{to}.Sanitize()); err != nil {
-		return fmt.Errorf("rename database %s to %s: %w", from, to, err)
-	}
-	return nil
-}
-
 // DatabaseMakeTemplate marks a database as a template that no session may
 // connect to, so that copies of it can be made at once.
 func DatabaseMakeTemplate(ctx context.Context, conn *pgx.Conn, name string) error {
