@@ -5,9 +5,11 @@ import (
 	"fmt"
 	"math"
 	"math/rand/v2"
+	"reflect"
 	"slices"
 	"strings"
 	"testing"
+	"time"
 
 	"cairn/internal/pgtest"
 	"cairn/internal/store"
@@ -139,5 +141,71 @@ func TestMarkListNearestUsesTheIndexOrder(t *testing.T) {
 	}
 	if strings.Count(p, "Order By: (point(lon, lat) <-> ") != 2 {
 		t.Errorf("the nearest-first read is not ordered by both indexes:\n%s", p)
+	}
+}
+
+// A near search with a limit, which keeps the nearest marks by their
+// current positions and reads the whole rows of those alone, lists the
+// same marks, row for row (descriptions, conditions, aliases), as the
+// first of the whole listing within the radius sorted by distance, also
+// when it keeps only marks of some conditions or of one name.
+func TestMarkListNearestFiltersAsTheWholeListing(t *testing.T) {
+	t.Parallel()
+	db := pgtest.New(t)
+	ctx := context.Background()
+	tx, err := db.Pool.Begin(ctx)
+	if err != nil {
+		t.Fatal(err)
+	}
+	defer tx.Rollback(ctx)
+	rng := rand.New(rand.NewPCG(4, 2))
+	conditions := []string{"good", "disturbed", "not-found", ""}
+	for i := range 600 {
+		lat, lon := 41.6+(rng.Float64()-0.5)*0.05, -97.95+(rng.Float64()-0.5)*0.05
+		id, err := store.MarkInsert(ctx, tx, store.MarkInsertParams{Designation: fmt.Sprintf("TC-%04d", i),
+			Lat: &lat, Lon: &lon, CreatedBy: "test"})
+		if err != nil {
+			t.Fatal(err)
+		}
+		if c := conditions[rng.IntN(len(conditions))]; c != "" {
+			if _, err := store.ConditionInsert(ctx, tx, store.ConditionInsertParams{MarkID: id, Condition: c,
+				ObservedOn: time.Date(2020, 1, 1+rng.IntN(300), 0, 0, 0, 0, time.UTC), RecordedBy: "test"}); err != nil {
+				t.Fatal(err)
+			}
+		}
+		if i%7 == 0 {
+			lat, lon := 41.6+(rng.Float64()-0.5)*0.05, -97.95+(rng.Float64()-0.5)*0.05
+			if _, err := store.MarkVersionInsert(ctx, tx, store.MarkVersionInsertParams{MarkID: id, Lat: &lat, Lon: &lon,
+				Reason: "reset (invented)", RecordedBy: "test"}); err != nil {
+				t.Fatal(err)
+			}
+		}
+	}
+	c := store.LatLon{Lat: 41.6, Lon: -97.95}
+	for _, f := range []store.MarkListParams{
+		{},
+		{Conditions: []string{"disturbed", "unknown"}},
+		{Conditions: []string{"good"}},
+		{Name: "tc-0042"},
+	} {
+		f.Near, f.RadiusM = &c, 1500
+		all, err := store.MarkList(ctx, tx, f)
+		if err != nil {
+			t.Fatal(err)
+		}
+		if len(all) < 10 && f.Name == "" {
+			t.Fatalf("%+v: only %d marks within the radius", f, len(all))
+		}
+		for _, limit := range []int{1, 9, 50, 1000} {
+			f.Limit = limit
+			got, err := store.MarkList(ctx, tx, f)
+			if err != nil {
+				t.Fatal(err)
+			}
+			want := all[:min(limit, len(all))]
+			if !reflect.DeepEqual(got, want) {
+				t.Errorf("conditions %v, name %q, limit %d: %d marks, want the first %d of the whole listing", f.Conditions, f.Name, limit, len(got), len(want))
+			}
+		}
 	}
 }
