@@ -32,6 +32,9 @@ type adjustRegisterOptions struct {
 	// params.Marks was read ("" for --marks).
 	marksFile string
 	marksFrom []string
+	// runsFile is --runs-file, its runs added to those named as
+	// arguments (params.RunsFrom says where each was read).
+	runsFile string
 	method    string
 	by        string // who; once the distribution (deprecated)
 	madeBy    string // deprecated spelling of --by
@@ -89,8 +92,9 @@ with that standard deviation in millimetres. --minimal holds only the first held
 and adjusts the others as check marks, never published, to judge the runs
 apart from the control. --marks and --area (with --within) add every run
 with a section from or to the marks named or the marks in the area;
---marks-file FILE names marks one a line (blank lines and # comments
-skipped), for more names than a command line holds.
+--marks-file FILE names marks one a line and --runs-file FILE numbers runs
+one a line (blank lines and # comments skipped), for more than a command
+line holds.
 
 The least-squares report gives each mark's adjusted height and standard
 deviation, the redundancy, the variance factor with its chi-square test at
@@ -122,6 +126,7 @@ func (o *adjustRegisterOptions) flags(cmd *cobra.Command) {
 	fl.StringSliceVar(&o.weighted, "hold-weighted", nil, "least squares: MARK=SD_MM holds a mark weighted, its current height an observation with that standard deviation in millimetres")
 	fl.StringSliceVar(&o.params.Marks, "marks", nil, "also adjust every run with a section from or to these marks")
 	fl.StringVar(&o.marksFile, "marks-file", "", "also adjust every run with a section from or to the marks named in this file, one a line (# comments)")
+	fl.StringVar(&o.runsFile, "runs-file", "", "also adjust the runs numbered in this file, one a line (# comments)")
 	fl.StringVar(&o.area, "area", "", "LAT,LON: also adjust every run with a section from or to a mark within --within of this point")
 	fl.StringVar(&o.within, "within", "", "radius of --area, in m, km, ft, usft or mi (e.g. 5km, 3mi)")
 	fl.StringVar(&o.weight, "weight", "length", "least squares: weigh sections by length or by setups")
@@ -144,15 +149,20 @@ func (o *adjustRegisterOptions) parse(cmd *cobra.Command, args []string) error {
 			return err
 		}
 	}
-	if len(args) == 0 && len(o.params.Marks) == 0 && o.area == "" {
-		return badInput("run: name the runs to adjust (see cairn run list), or choose them with --marks, --marks-file or --area")
-	}
 	for _, a := range args {
 		id, err := strconv.ParseInt(strings.TrimSpace(a), 10, 64)
 		if err != nil || id <= 0 {
 			return badInput("run: %q is not a run number (see cairn run list)", a)
 		}
 		o.params.RunIDs = append(o.params.RunIDs, id)
+	}
+	if o.runsFile != "" {
+		if err := o.readRunsFile(); err != nil {
+			return err
+		}
+	}
+	if len(o.params.RunIDs) == 0 && len(o.params.Marks) == 0 && o.area == "" {
+		return badInput("run: name the runs to adjust (see cairn run list), or choose them with --runs-file, --marks, --marks-file or --area")
 	}
 	m, err := adjust.ParseMethod(o.method)
 	if err != nil {
@@ -692,30 +702,28 @@ func renderDraftChecks(say func(string, ...any), st adjust.Statistics) {
 	}
 }
 
-// maxMarksFileBytes is the largest --marks-file read: 64 MiB, some five
-// million designations.
-const maxMarksFileBytes = 64 << 20
+// maxListFileBytes is the largest --marks-file or --runs-file read: 64
+// MiB, some five million designations.
+const maxListFileBytes = 64 << 20
 
-// readMarksFile appends the marks named in --marks-file to --marks: one
-// designation (or alias) a line, surrounding spaces trimmed; blank lines
-// and lines starting with # are skipped. A line that is not UTF-8 text, or
-// holds a comma or a tab (two names on one line?), is refused naming the
-// file and line, and so is a file that names no mark.
-func (o *adjustRegisterOptions) readMarksFile() error {
-	f, err := os.Open(o.marksFile)
+// readListFile calls each with every line of the file named by --flag
+// that names something, and where it was read (FILE:LINE): surrounding
+// spaces trimmed, blank lines and lines starting with # skipped. A line
+// that is not UTF-8 text, or holds a comma or a tab (two on one line?), is
+// refused naming the file and line, and so is a file that names nothing;
+// what names "a mark" or "a run" in those errors.
+func readListFile(flag, path, what string, each func(line, at string) error) error {
+	f, err := os.Open(path)
 	if err != nil {
-		return badInput("marks-file: %v", err)
+		return badInput("%s: %v", flag, err)
 	}
 	defer f.Close()
-	if st, err := f.Stat(); err == nil && st.Size() > maxMarksFileBytes {
-		return badInput("marks-file: %s: %d bytes is too long (at most %d)", o.marksFile, st.Size(), maxMarksFileBytes)
-	}
-	for len(o.marksFrom) < len(o.params.Marks) {
-		o.marksFrom = append(o.marksFrom, "")
+	if st, err := f.Stat(); err == nil && st.Size() > maxListFileBytes {
+		return badInput("%s: %s: %d bytes is too long (at most %d)", flag, path, st.Size(), maxListFileBytes)
 	}
 	sc := bufio.NewScanner(f)
 	sc.Buffer(make([]byte, 0, 4096), MaxTextBytes)
-	n, names := 0, 0
+	n, named := 0, 0
 	for sc.Scan() {
 		n++
 		line := strings.TrimSpace(sc.Text())
@@ -726,20 +734,56 @@ func (o *adjustRegisterOptions) readMarksFile() error {
 		case line == "" || strings.HasPrefix(line, "#"):
 			continue
 		case !utf8.ValidString(line) || strings.ContainsRune(line, 0):
-			return badInput("marks-file: %s:%d: not UTF-8 text (save the file as UTF-8)", o.marksFile, n)
+			return badInput("%s: %s:%d: not UTF-8 text (save the file as UTF-8)", flag, path, n)
 		case strings.ContainsAny(line, ",\t"):
-			return badInput("marks-file: %s:%d: %q: one mark a line (no commas or tabs)", o.marksFile, n, clip(line))
+			return badInput("%s: %s:%d: %q: %s a line (no commas or tabs)", flag, path, n, clip(line), strings.Replace(what, "a ", "one ", 1))
 		}
-		o.params.Marks = append(o.params.Marks, line)
-		o.marksFrom = append(o.marksFrom, fmt.Sprintf("%s:%d", o.marksFile, n))
-		names++
+		if err := each(line, fmt.Sprintf("%s:%d", path, n)); err != nil {
+			return err
+		}
+		named++
 	}
 	if err := sc.Err(); err != nil {
-		return badInput("marks-file: %s:%d: %v", o.marksFile, n+1, err)
+		return badInput("%s: %s:%d: %v", flag, path, n+1, err)
 	}
-	if names == 0 {
-		return badInput("marks-file: %s names no mark", o.marksFile)
+	if named == 0 {
+		return badInput("%s: %s names no %s", flag, path, strings.TrimPrefix(what, "a "))
+	}
+	return nil
+}
+
+// readMarksFile appends the marks named in --marks-file to --marks, one
+// designation (or alias) a line (readListFile).
+func (o *adjustRegisterOptions) readMarksFile() error {
+	for len(o.marksFrom) < len(o.params.Marks) {
+		o.marksFrom = append(o.marksFrom, "")
+	}
+	err := readListFile("marks-file", o.marksFile, "a mark", func(line, at string) error {
+		o.params.Marks = append(o.params.Marks, line)
+		o.marksFrom = append(o.marksFrom, at)
+		return nil
+	})
+	if err != nil {
+		return err
 	}
 	o.params.MarksFrom = o.marksFrom
 	return nil
+}
+
+// readRunsFile appends the runs named in --runs-file to those named as
+// arguments, one run number a line (readListFile); a line that is not a
+// run number is refused naming the file and line.
+func (o *adjustRegisterOptions) readRunsFile() error {
+	for len(o.params.RunsFrom) < len(o.params.RunIDs) {
+		o.params.RunsFrom = append(o.params.RunsFrom, "")
+	}
+	return readListFile("runs-file", o.runsFile, "a run", func(line, at string) error {
+		id, err := strconv.ParseInt(line, 10, 64)
+		if err != nil || id <= 0 {
+			return badInput("runs-file: %s: %q is not a run number (see cairn run list)", at, clip(line))
+		}
+		o.params.RunIDs = append(o.params.RunIDs, id)
+		o.params.RunsFrom = append(o.params.RunsFrom, at)
+		return nil
+	})
 }

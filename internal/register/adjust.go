@@ -38,6 +38,10 @@ type AdjustParams struct {
 	// for the error that names one the register does not hold; "" for a
 	// name given on the command line.
 	MarksFrom []string
+	// RunsFrom, if set, says where each of RunIDs was read (FILE:LINE),
+	// for the errors that name one; "" for a run named on the command
+	// line.
+	RunsFrom []string
 	// Datum is the datum code; "" means the one datum the runs' books name,
 	// else the one on which every held mark has a current height.
 	Datum string
@@ -265,12 +269,21 @@ func (p *AdjustParams) check() error {
 	if p.Decimals != nil && (*p.Decimals < 0 || *p.Decimals > MaxDecimals) {
 		return inputErr("decimals", "%d is outside 0 to %d", *p.Decimals, MaxDecimals)
 	}
-	seen := map[int64]bool{}
-	for _, id := range p.RunIDs {
-		if seen[id] {
-			return inputErr("run", "run %d is named twice", id)
+	seen := map[int64]int{}
+	for i, id := range p.RunIDs {
+		if j, ok := seen[id]; ok {
+			if p.runFrom(i) == "" && p.runFrom(j) == "" {
+				return inputErr("run", "run %d is named twice", id)
+			}
+			at := func(k int) string {
+				if f := p.runFrom(k); f != "" {
+					return f
+				}
+				return "the command line"
+			}
+			return inputErr("runs-file", "run %d is named twice (%s and %s)", id, at(j), at(i))
 		}
-		seen[id] = true
+		seen[id] = i
 	}
 	for _, h := range p.Hold {
 		if !(h.SigmaM >= 0) || math.IsInf(h.SigmaM, 0) {
@@ -315,4 +328,23 @@ func optionShown(oe *adjust.OptionError) float64 {
 		return oe.Value * 1000
 	}
 	return oe.Value
+}
+
+// runFrom is where the i-th of RunIDs was read (RunsFrom), "" for the
+// command line.
+func (p *AdjustParams) runFrom(i int) string {
+	if i < len(p.RunsFrom) {
+		return p.RunsFrom[i]
+	}
+	return ""
+}
+
+// runErr is an InputError about run id: of the field runs-file, naming
+// the file and line, for a run read from one (RunsFrom), else of run.
+func (p *AdjustParams) runErr(id int64, format string, a ...any) error {
+	msg := fmt.Sprintf(format, a...)
+	if i := slices.Index(p.RunIDs, id); i >= 0 && p.runFrom(i) != "" {
+		return &InputError{Field: "runs-file", Msg: p.runFrom(i) + ": " + msg}
+	}
+	return &InputError{Field: "run", Msg: msg}
 }

@@ -69,14 +69,14 @@ func (r *Register) gather(ctx context.Context, tx pgx.Tx, p AdjustParams) (*gath
 	for _, id := range runIDs {
 		if checkRuns[id] {
 			if named[id] {
-				return nil, inputErr("run", "run %d is a check run (recorded with --check-only): it adjusts nothing", id)
+				return nil, p.runErr(id, "run %d is a check run (recorded with --check-only): it adjusts nothing", id)
 			}
 			checksLeftOut = append(checksLeftOut, id)
 			continue
 		}
 		run, ok := byID[id]
 		if !ok {
-			return nil, inputErr("run", "no run %d in the register (see cairn run list)", id)
+			return nil, p.runErr(id, "no run %d in the register (see cairn run list)", id)
 		}
 		switch {
 		case run.Voided != nil && named[id]:
