@@ -35,10 +35,10 @@ type adjustRegisterOptions struct {
 	// runsFile is --runs-file, its runs added to those named as
 	// arguments (params.RunsFrom says where each was read).
 	runsFile string
-	method    string
-	by        string // who; once the distribution (deprecated)
-	madeBy    string // deprecated spelling of --by
-	distrib   string
+	method   string
+	by       string // who; once the distribution (deprecated)
+	madeBy   string // deprecated spelling of --by
+	distrib  string
 	// distribFlag is the flag that gave the distribution: "distribute",
 	// "by" (deprecated), or "" for none.
 	distribFlag string
