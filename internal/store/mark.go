@@ -514,7 +514,7 @@ func markListNearest(ctx context.Context, db DBTX, p MarkListParams) (ms []Mark,
 		return nil, false, nil
 	}
 	q := nearestSQL()
-	for n := max(4*p.Limit, 64); ; n *= 4 {
+	for n := nearestFirstRead(c, p.Limit); ; n *= 4 {
 		rows, err := db.Query(ctx, q, c.Lon, c.Lat, n)
 		if err != nil {
 			return nil, true, translate(err)
@@ -551,6 +551,25 @@ func markListNearest(ctx context.Context, db DBTX, p MarkListParams) (ms []Mark,
 			return ms, true, nil
 		}
 	}
+}
+
+// nearestFirstRead is how many positions markListNearest reads first
+// for the nearest limit marks of c, so that one read nearly always
+// proves itself complete. Of marks spread evenly, the limit within
+// distance d fill an ellipse of semi-axes a = d/(R cos φ) and b = d/R in
+// degrees of longitude and latitude; the read must reach the corner of
+// their box, √(a² + b²), a circle holding (a² + b²)/(ab) = 1/cos φ + cos φ
+// times as many (2 at the equator, 2.1 at 40°, 2.5 at 60°); and a mark
+// that has a later description is read twice, by its own position and its
+// version's. Measured at 1,000,000 marks, 40.7° N, every mark with a
+// version: the nearest 50 needed 206 positions, and the 200 read first
+// (4 a mark kept) were not enough, so every such search read 800 more.
+func nearestFirstRead(c LatLon, limit int) int {
+	cos := math.Cos(c.Lat * math.Pi / 180)
+	if cos < 0.1 {
+		cos = 0.1
+	}
+	return max(int(math.Ceil(2.5*float64(limit)*(1/cos+cos))), 64)
 }
 
 // markListNearestOf lists the nearest p.Limit of the marks of ids within
