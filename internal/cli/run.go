@@ -1,6 +1,7 @@
 package cli
 
 import (
+	"bufio"
 	"bytes"
 	"context"
 	"fmt"
@@ -11,6 +12,7 @@ import (
 	"strings"
 	"text/tabwriter"
 	"time"
+	"unicode/utf8"
 
 	"github.com/spf13/cobra"
 	"github.com/spf13/pflag"
@@ -372,40 +374,145 @@ func (n numbers) signed(m float64) string {
 
 // notesTable is the reduced notes: one row per sighting.
 func notesTable(r *reduce.Result) Table {
+	t := Table{Headers: notesHeaders(r)}
 	n := numbersFor(r)
-	u := string(r.Unit)
-	t := Table{Headers: []string{"LINE", "POINT", "BS (" + u + ")", "IS (" + u + ")", "FS (" + u + ")", "DIST (" + u + ")",
-		"HI (" + u + ")", "HEIGHT (" + u + ")", "IMBAL (" + u + ")", "ACC IMBAL (" + u + ")", "NOTE"}}
-	if r.CurvatureRefraction {
-		t.Headers = append(t.Headers[:len(t.Headers)-1], "C&R ("+u+")", "NOTE")
-	}
-	for _, row := range r.Rows {
-		cells := make([]string, 0, len(t.Headers))
-		reading := n.h(row.ReadingM)
-		bs, is, fs := "", "", ""
-		switch row.Sight {
-		case levelbook.Backsight:
-			bs = reading
-		case levelbook.Intermediate:
-			is = reading
-		case levelbook.Foresight:
-			fs = reading
-		}
-		dist := ""
-		if row.HasDistance {
-			dist = n.d(row.DistanceM)
-		}
-		imb, acc := "", ""
-		if st := r.Setups[row.Setup-1]; row.Sight == levelbook.Foresight && st.HasDistances {
-			imb, acc = n.d(st.ImbalanceM), n.d(st.AccumulatedImbalanceM)
-		}
-		cells = append(cells, strconv.Itoa(row.Line), row.Point, bs, is, fs, dist, n.h(row.HeightOfInstrumentM), n.h(row.HeightM), imb, acc)
-		if r.CurvatureRefraction {
-			cells = append(cells, n.h(row.CorrectionM))
-		}
-		t.AddRow(append(cells, row.Note)...)
-	}
+	rowsOf(r)(func(row reduce.Row, st *reduce.Setup) bool {
+		t.AddRow(noteCells(r, n, row, st)...)
+		return true
+	})
 	return t
+}
+
+// notesHeaders are the headers of the reduced notes of r.
+func notesHeaders(r *reduce.Result) []string {
+	u := string(r.Unit)
+	h := []string{"LINE", "POINT", "BS (" + u + ")", "IS (" + u + ")", "FS (" + u + ")", "DIST (" + u + ")",
+		"HI (" + u + ")", "HEIGHT (" + u + ")", "IMBAL (" + u + ")", "ACC IMBAL (" + u + ")", "NOTE"}
+	if r.CurvatureRefraction {
+		h = append(h[:len(h)-1], "C&R ("+u+")", "NOTE")
+	}
+	return h
+}
+
+// noteCells are the cells of row (st the setup a foresight closes) in the
+// reduced notes of r.
+func noteCells(r *reduce.Result, n numbers, row reduce.Row, st *reduce.Setup) []string {
+	cells := make([]string, 0, 12)
+	reading := n.h(row.ReadingM)
+	bs, is, fs := "", "", ""
+	switch row.Sight {
+	case levelbook.Backsight:
+		bs = reading
+	case levelbook.Intermediate:
+		is = reading
+	case levelbook.Foresight:
+		fs = reading
+	}
+	dist := ""
+	if row.HasDistance {
+		dist = n.d(row.DistanceM)
+	}
+	imb, acc := "", ""
+	if st != nil && row.Sight == levelbook.Foresight && st.HasDistances {
+		imb, acc = n.d(st.ImbalanceM), n.d(st.AccumulatedImbalanceM)
+	}
+	cells = append(cells, strconv.Itoa(row.Line), row.Point, bs, is, fs, dist, n.h(row.HeightOfInstrumentM), n.h(row.HeightM), imb, acc)
+	if r.CurvatureRefraction {
+		cells = append(cells, n.h(row.CorrectionM))
+	}
+	return append(cells, row.Note)
+}
+
+// noteRows calls each with every row of a reduction, in field order, and
+// the setup a foresight closes (nil for other sightings), until each
+// returns false.
+type noteRows func(each func(reduce.Row, *reduce.Setup) bool) error
+
+// rowsOf gives the rows r holds (a reduction of the whole book).
+func rowsOf(r *reduce.Result) noteRows {
+	return func(each func(reduce.Row, *reduce.Setup) bool) error {
+		for _, row := range r.Rows {
+			var st *reduce.Setup
+			if row.Sight == levelbook.Foresight {
+				st = &r.Setups[row.Setup-1]
+			}
+			if !each(row, st) {
+				break
+			}
+		}
+		return nil
+	}
+}
+
+// rowsScanned gives the rows of r, which holds none (a book reduced a
+// sighting at a time), by reducing its book's bytes, data, again.
+func rowsScanned(r *reduce.Result, data []byte) noteRows {
+	return func(each func(reduce.Row, *reduce.Setup) bool) error {
+		sc, err := r.Book.Rescan(data)
+		if err != nil {
+			return err
+		}
+		err = r.ScanRows(r.Book, func(yield func(*levelbook.Sighting) bool) {
+			for sc.Next() && yield(sc.Sighting()) {
+			}
+		}, each)
+		if err == nil {
+			err = sc.Err()
+		}
+		return err
+	}
+}
+
+// writeNotes writes the reduced notes of r a row at a time, laid out as
+// tabwriter lays out the report's other tables (each column but the last
+// as wide as its widest cell in runes and two spaces more, trailing spaces
+// trimmed), from the widths found in a first pass over the rows: the rows
+// are never held.
+func writeNotes(w io.Writer, r *reduce.Result, rows noteRows) error {
+	n := numbersFor(r)
+	headers := notesHeaders(r)
+	widths := make([]int, len(headers))
+	measure := func(cells []string) {
+		for i, c := range cells[:len(cells)-1] {
+			widths[i] = max(widths[i], utf8.RuneCountInString(c))
+		}
+	}
+	measure(headers)
+	if err := rows(func(row reduce.Row, st *reduce.Setup) bool {
+		measure(noteCells(r, n, row, st))
+		return true
+	}); err != nil {
+		return err
+	}
+	bw := bufio.NewWriterSize(w, 64<<10)
+	var line []byte
+	write := func(cells []string) error {
+		line = line[:0]
+		for i, c := range cells[:len(cells)-1] {
+			line = append(line, c...)
+			for pad := widths[i] + 2 - utf8.RuneCountInString(c); pad > 0; pad-- {
+				line = append(line, ' ')
+			}
+		}
+		line = append(line, cells[len(cells)-1]...)
+		line = append(bytes.TrimRight(line, " "), '\n')
+		_, err := bw.Write(line)
+		return err
+	}
+	if err := write(headers); err != nil {
+		return err
+	}
+	var werr error
+	if err := rows(func(row reduce.Row, st *reduce.Setup) bool {
+		werr = write(noteCells(r, n, row, st))
+		return werr == nil
+	}); err != nil {
+		return err
+	}
+	if werr != nil {
+		return werr
+	}
+	return bw.Flush()
 }
 
 func sectionsTable(r *reduce.Result) Table {
@@ -574,6 +681,13 @@ func failuresTable(r *reduce.Result) Table {
 // of the checks and the caution. heldFrom says where held heights came
 // from, by mark (none for typed heights).
 func writeReport(w io.Writer, r *reduce.Result, heldFrom map[string]string) error {
+	return writeReportOf(w, r, rowsOf(r), heldFrom)
+}
+
+// writeReportOf is writeReport with the reduced notes from rows (the rows
+// of r, or of its book reduced again), which it reads twice and never
+// holds.
+func writeReportOf(w io.Writer, r *reduce.Result, rows noteRows, heldFrom map[string]string) error {
 	m := r.Meta
 	n := numbersFor(r)
 	fmt.Fprintf(w, "Level book %s", r.Name)
@@ -606,13 +720,18 @@ func writeReport(w io.Writer, r *reduce.Result, heldFrom map[string]string) erro
 	if r.Loop {
 		kind = "loop"
 	}
-	fmt.Fprintf(w, "A %s from %s to %s: %d setups, %d sections\n", kind, r.Start, r.End, len(r.Setups), len(r.Sections))
+	setups := 0
+	for _, s := range r.Sections {
+		setups += s.Setups
+	}
+	fmt.Fprintf(w, "A %s from %s to %s: %d setups, %d sections\n", kind, r.Start, r.End, setups, len(r.Sections))
 	if r.Relative {
 		fmt.Fprintf(w, "No mark held: heights are relative to %s = %s %s\n", r.Start, n.h(0), r.Unit)
 	} else {
+		// The held marks in the order the book first sights them.
 		var held []string
 		seen := map[string]bool{}
-		for _, row := range r.Rows {
+		if err := rows(func(row reduce.Row, _ *reduce.Setup) bool {
 			if v, ok := r.Held[row.Point]; ok && !seen[row.Point] {
 				seen[row.Point] = true
 				h := fmt.Sprintf("%s = %s", row.Point, n.h(v))
@@ -621,6 +740,9 @@ func writeReport(w io.Writer, r *reduce.Result, heldFrom map[string]string) erro
 				}
 				held = append(held, h)
 			}
+			return len(seen) < len(r.Held)
+		}); err != nil {
+			return err
 		}
 		fmt.Fprintf(w, "Held (%s): %s\n", r.Unit, strings.Join(held, ", "))
 	}
@@ -628,7 +750,7 @@ func writeReport(w io.Writer, r *reduce.Result, heldFrom map[string]string) erro
 		title string
 		t     Table
 	}{
-		{"Reduced notes", notesTable(r)},
+		{"Reduced notes", Table{}},
 		{"Sections", sectionsTable(r)},
 		{"Misclosure", misclosureTable(r)},
 		{"Checks", checksTable(r)},
@@ -666,8 +788,14 @@ func writeReport(w io.Writer, r *reduce.Result, heldFrom map[string]string) erro
 			t     Table
 		}{"Failed checks", failuresTable(r)})
 	}
-	for _, p := range parts {
+	for i, p := range parts {
 		fmt.Fprintf(w, "\n%s\n", p.title)
+		if i == 0 {
+			if err := writeNotes(w, r, rows); err != nil {
+				return err
+			}
+			continue
+		}
 		if len(p.t.Rows) == 0 {
 			continue
 		}

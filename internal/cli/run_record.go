@@ -159,7 +159,11 @@ func runRecordRun(opts *runRecordOptions) error {
 	}
 	p := opts.RecordParams
 	p.Path, p.Book = opts.BookPath, data
-	p.KeepNotes = true // the report shows the reduced notes
+	// The report shows every row of the reduced notes: the JSON report
+	// holds them (it is one value); the text report reads the book again
+	// a sighting at a time as it writes them, so that recording the
+	// largest book holds none.
+	p.KeepNotes = opts.Format == FormatJSON
 	if opts.StandardsName != "" {
 		if p.Standards, err = resolveStandards(opts.StandardsName, "", ""); err != nil {
 			return err
@@ -204,7 +208,11 @@ func runRecordRun(opts *runRecordOptions) error {
 		warnInReport(ios, fmt.Sprintf("WARNING: mark %s is now SUSPECT: every check connection of it in this run failed; check it in the field and report its condition before relying on its height", m))
 	}
 	fmt.Fprintln(w)
-	return writeReport(w, rec.Result, heldNotes(toHeldJSON(rec.Run.Unit, rec.Held)))
+	rows := rowsOf(rec.Result)
+	if !p.KeepNotes {
+		rows = rowsScanned(rec.Result, data)
+	}
+	return writeReportOf(w, rec.Result, rows, heldNotes(toHeldJSON(rec.Run.Unit, rec.Held)))
 }
 
 func nonNil(s []string) []string {

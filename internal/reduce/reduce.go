@@ -297,6 +297,7 @@ func (r *Result) anchor() {
 		}
 	}
 	r.Relative = !found
+	r.shiftM = shift
 	if shift == 0 {
 		return
 	}

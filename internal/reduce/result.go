@@ -124,6 +124,9 @@ type Result struct {
 	rc       *rowCheck
 	sideRows []Row
 	lens     []setupLen
+	// shiftM is what the held height added to every height computed from
+	// the first sighting's (ScanRows adds it again).
+	shiftM float64
 }
 
 // setupLen is what a held sight needs of a setup: its sight lengths.

@@ -1,6 +1,7 @@
 package reduce
 
 import (
+	"errors"
 	"fmt"
 	"iter"
 
@@ -22,6 +23,51 @@ func ReduceScan(book *levelbook.Book, sightings iter.Seq[*levelbook.Sighting], o
 	if err != nil {
 		return nil, err
 	}
+	return r.scan(book, sightings, opts.Published, nil)
+}
+
+// ScanRows reduces the book again, a sighting at a time, and calls each
+// with every row as Reduce keeps it in Rows, in field order, and, for a
+// foresight, the setup it closes as Reduce keeps it in Setups (nil for
+// other sightings); it stops early, with no error, when each returns
+// false. r is the result of reducing the same book (ReduceScan or
+// Reduce): its held height and its correction for curvature and
+// refraction make the rows' heights. A report of every row is written
+// this way without holding them.
+func (r *Result) ScanRows(book *levelbook.Book, sightings iter.Seq[*levelbook.Sighting], each func(Row, *Setup) bool) error {
+	if book == nil || book.Count == 0 {
+		return fmt.Errorf("reduce: empty book")
+	}
+	// The rows alone: no class, standards or held marks to judge by.
+	again := &Result{Name: r.Name, Meta: r.Meta, Unit: r.Unit, Reading: r.Reading, CurvatureRefraction: r.CurvatureRefraction,
+		Book: book, Sections: []Section{}, Misclosures: []Misclosure{}, Checks: []Check{}, Failures: []Failure{}}
+	shift := r.shiftM
+	stopped := false
+	_, err := again.scan(book, sightings, nil, func(row Row, st *Setup) bool {
+		row.HeightM += shift
+		row.HeightOfInstrumentM += shift
+		if st != nil {
+			c := *st
+			c.HeightOfInstrumentM += shift
+			c.ForeHeightM += shift
+			st = &c
+		}
+		if !each(row, st) {
+			stopped = true
+			return false
+		}
+		return true
+	})
+	if stopped {
+		return nil
+	}
+	return err
+}
+
+// scan is ReduceScan from r, begun by newResult, calling each, if set,
+// with every row and the setup a foresight closes, before the held height
+// is applied; it stops, failing, when each returns false.
+func (r *Result) scan(book *levelbook.Book, sightings iter.Seq[*levelbook.Sighting], published map[string]float64, each func(Row, *Setup) bool) (*Result, error) {
 	r.Rows, r.Setups = []Row{}, []Setup{}
 	r.rc = r.newRowCheck()
 	r.lens = make([]setupLen, 0, book.Count/2)
@@ -78,6 +124,7 @@ func ReduceScan(book *levelbook.Book, sightings iter.Seq[*levelbook.Sighting], o
 			row.HeightM, backH = h, h
 		case levelbook.Intermediate:
 			row.HeightM = cur.HeightOfInstrumentM - row.ReadingM
+			cur.Intermediate = append(cur.Intermediate, i)
 		case levelbook.Foresight:
 			cur.Fore, cur.ForePoint, cur.ForeLine = i, s.Point, s.Line
 			cur.ForesightM = row.ReadingM
@@ -102,6 +149,9 @@ func ReduceScan(book *levelbook.Book, sightings iter.Seq[*levelbook.Sighting], o
 			r.anchorAt, r.anchored, anchorH = row, true, row.HeightM
 		}
 		if !fore {
+			if each != nil && !each(row, nil) {
+				return nil, errStopped
+			}
 			continue
 		}
 		// The setup is complete: it joins its section (buildSections).
@@ -138,6 +188,9 @@ func ReduceScan(book *levelbook.Book, sightings iter.Seq[*levelbook.Sighting], o
 		}
 		r.rc.setup(&cur)
 		r.lens = append(r.lens, setupLen{back: cur.BackDistanceM, fore: cur.ForeDistanceM, has: cur.HasDistances})
+		if each != nil && !each(row, &cur) {
+			return nil, errStopped
+		}
 	}
 	if seen != book.Count || anyRows == 0 || sec >= 0 {
 		return nil, fmt.Errorf("reduce: %s gave %d sightings, not the %d it was read with", book.Name, seen, book.Count)
@@ -150,6 +203,7 @@ func ReduceScan(book *levelbook.Book, sightings iter.Seq[*levelbook.Sighting], o
 	r.Relative = !r.anchored
 	if r.anchored {
 		if shift := r.Held[r.anchorAt.Point] - anchorH; shift != 0 {
+			r.shiftM = shift
 			for i := range r.sideRows {
 				r.sideRows[i].HeightM += shift
 				r.sideRows[i].HeightOfInstrumentM += shift
@@ -162,7 +216,7 @@ func ReduceScan(book *levelbook.Book, sightings iter.Seq[*levelbook.Sighting], o
 	}
 	r.buildMisclosures()
 	r.buildDoubleRuns()
-	r.buildConnections(opts.Published)
+	r.buildConnections(published)
 	r.spotHeights(r.sideRows)
 	r.lens = nil // the held sights had them; nothing else does
 	r.check()
@@ -177,3 +231,6 @@ func (r *Result) Republish(published map[string]float64) {
 	r.Checks, r.Failures = []Check{}, []Failure{}
 	r.check()
 }
+
+// errStopped ends a scan whose caller asked no more rows.
+var errStopped = errors.New("reduce: the scan was stopped")

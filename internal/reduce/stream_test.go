@@ -117,3 +117,93 @@ func TestReduceScanIsReduce(t *testing.T) {
 		}
 	}
 }
+
+// The rows of a book scanned again (ScanRows), after a reduction a
+// sighting at a time or whole, are Reduce's rows, in order, each
+// foresight with Reduce's setup, under every option, and the scan stops
+// when asked. Reduce, checked against the worked examples of
+// reduce_test.go, is the reference.
+func TestScanRowsIsReducesRows(t *testing.T) {
+	t.Parallel()
+	file := func(name string) []byte {
+		data, err := os.ReadFile(filepath.Join(books, name))
+		if err != nil {
+			t.Fatal(err)
+		}
+		return data
+	}
+	inputs := []struct {
+		name string
+		data []byte
+		opts []Options
+	}{
+		{"mere-river-line.csv", file("mere-river-line.csv"), []Options{{}, {Hold: map[string]float64{"TC-0420": 10}}, {CurvatureRefraction: true}}},
+		{"orrin-bay-spot-heights.csv", file("orrin-bay-spot-heights.csv"), []Options{{}, {Hold: map[string]float64{"TC-0420": 10}}}},
+		{"tallis-north-loop.csv", file("tallis-north-loop.csv"), []Options{{}, {Hold: map[string]float64{"TC-0413": 3}}}},
+		{"generated loop", booktest.Loop{Setups: 600, MarkEvery: 7, Seed: 3}.Book(), []Options{{}, {Hold: map[string]float64{"TC-1003": 5}}}},
+	}
+	for _, in := range inputs {
+		full, err := levelbook.Parse("t.csv", in.data)
+		if err != nil {
+			t.Fatalf("%s: %v", in.name, err)
+		}
+		for _, o := range in.opts {
+			want, err := Reduce(full, o)
+			if err != nil {
+				t.Fatalf("%s %+v: %v", in.name, o, err)
+			}
+			streamed, err := scanned(t, in.data, o)
+			if err != nil {
+				t.Fatal(err)
+			}
+			for _, from := range []*Result{streamed, want} {
+				sum, err := levelbook.Summarize("t.csv", in.data)
+				if err != nil {
+					t.Fatal(err)
+				}
+				sc, err := sum.Rescan(in.data)
+				if err != nil {
+					t.Fatal(err)
+				}
+				var rows []Row
+				var setups []Setup
+				err = from.ScanRows(sum, func(yield func(*levelbook.Sighting) bool) {
+					for sc.Next() && yield(sc.Sighting()) {
+					}
+				}, func(r Row, s *Setup) bool {
+					rows = append(rows, r)
+					if (s != nil) != (r.Sight == levelbook.Foresight) {
+						t.Errorf("%s %+v: line %d (%v) with setup %v", in.name, o, r.Line, r.Sight, s)
+					}
+					if s != nil {
+						setups = append(setups, *s)
+					}
+					return true
+				})
+				if err != nil {
+					t.Fatal(err)
+				}
+				g, _ := json.Marshal(struct {
+					R []Row
+					S []Setup
+				}{rows, setups})
+				w, _ := json.Marshal(struct {
+					R []Row
+					S []Setup
+				}{want.Rows, want.Setups})
+				if string(g) != string(w) {
+					t.Errorf("%s %+v: the rows scanned again differ from Reduce's:\n got %.600s\nwant %.600s", in.name, o, g, w)
+				}
+			}
+			n := 0
+			sum, _ := levelbook.Summarize("t.csv", in.data)
+			sc, _ := sum.Rescan(in.data)
+			if err := want.ScanRows(sum, func(yield func(*levelbook.Sighting) bool) {
+				for sc.Next() && yield(sc.Sighting()) {
+				}
+			}, func(Row, *Setup) bool { n++; return n < 3 }); err != nil || n != 3 {
+				t.Errorf("%s: a scan asked to stop after 3 rows saw %d (%v)", in.name, n, err)
+			}
+		}
+	}
+}
