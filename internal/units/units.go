@@ -201,7 +201,79 @@ func Format(v float64, decimals int) string {
 	if math.IsNaN(v) || math.IsInf(v, 0) {
 		return fmt.Sprintf("%.*f", decimals, v)
 	}
+	if out, ok := roundShortest(v, decimals); ok {
+		return out
+	}
 	return RoundRat(Decimal(v), decimals)
+}
+
+// roundShortest is RoundRat(Decimal(v), decimals) by the digits of the
+// shortest decimal that reads back as v (strconv's 'e' form), rounded
+// half away from zero on those digits: that decimal is exact, so the part
+// dropped is at least half a step exactly when its first digit is 5 or
+// more. It makes no big numbers (a listing formats millions of values);
+// ok is false for a value it leaves to RoundRat (more than 40 decimals,
+// or an exponent beyond ±40).
+func roundShortest(v float64, decimals int) (string, bool) {
+	if decimals < 0 || decimals > 40 {
+		return "", false
+	}
+	var buf [32]byte
+	e := strconv.AppendFloat(buf[:0], v, 'e', -1, 64) // -d.ddde±XX
+	neg := e[0] == '-'
+	if neg {
+		e = e[1:]
+	}
+	mant, exp, _ := strings.Cut(string(e), "e")
+	x, err := strconv.Atoi(exp)
+	if err != nil || x < -40 || x > 40 {
+		return "", false
+	}
+	digits := strings.Replace(mant, ".", "", 1) // value = 0.digits × 10^(x+1)
+	point := x + 1                              // digits before the decimal point
+	// The digits kept: those before the point and decimals after it.
+	keep := point + decimals
+	var out []byte
+	switch {
+	case keep < 0:
+		out = []byte{'0'}
+	case keep >= len(digits):
+		out = append([]byte(digits), strings.Repeat("0", keep-len(digits))...)
+	default:
+		out = []byte(digits[:keep])
+		if digits[keep] >= '5' {
+			i := len(out) - 1
+			for ; i >= 0 && out[i] == '9'; i-- {
+				out[i] = '0'
+			}
+			if i >= 0 {
+				out[i]++
+			} else {
+				out = append([]byte{'1'}, out...)
+				point++
+			}
+		}
+		if len(out) == 0 {
+			out = []byte{'0'}
+		}
+	}
+	// out holds the scaled integer q = round(v × 10^decimals), its digits
+	// as RoundRat prints them.
+	q := strings.TrimLeft(string(out), "0")
+	if q == "" {
+		q = "0"
+	}
+	zero := q == "0"
+	if decimals > 0 {
+		if len(q) <= decimals {
+			q = strings.Repeat("0", decimals-len(q)+1) + q
+		}
+		q = q[:len(q)-decimals] + "." + q[len(q)-decimals:]
+	}
+	if neg && !zero {
+		q = "-" + q
+	}
+	return q, true
 }
 
 // FormatIn writes a length of m metres in unit u with exactly decimals

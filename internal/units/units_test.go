@@ -3,6 +3,7 @@ package units
 import (
 	"math"
 	"math/big"
+	"math/rand/v2"
 	"testing"
 )
 
@@ -170,5 +171,51 @@ func TestRoundHalfAwayExact(t *testing.T) {
 		if got := FormatIn(c.m, c.u, c.dec); got != c.want {
 			t.Errorf("FormatIn(%v m, %s, %d) = %s, want %s", c.m, c.u, c.dec, got, c.want)
 		}
+	}
+}
+
+// Format's digit-string rounding (roundShortest) gives what exact rational
+// arithmetic (math/big, the reference: RoundRat of Decimal) gives, for
+// random values of every magnitude a register holds and beyond, for
+// values half-way in their shortest decimal, and for values that carry
+// into a new digit.
+func TestRoundShortestIsRoundRat(t *testing.T) {
+	rng := rand.New(rand.NewPCG(8, 15))
+	values := []float64{0, math.Copysign(0, -1), 1.005, -1.005, 0.5055, 9.9995, -9.9995, 99.5, 0.95, 999999.9999, 1e-20, 5e-7, 123456.78949999999, 0.3, 0.1 + 0.2}
+	for range 200000 {
+		switch rng.IntN(4) {
+		case 0: // heights and lengths in metres, as booked and as computed
+			values = append(values, (rng.Float64()-0.3)*3000)
+		case 1: // exact half-way decimals at 1 to 5 places
+			d := rng.IntN(5) + 1
+			values = append(values, (float64(rng.IntN(2000000)-1000000)+0.5)/math.Pow(10, float64(d)))
+		case 2: // sums with binary noise
+			values = append(values, float64(rng.IntN(10000))/1000+float64(rng.IntN(10000))/1000)
+		default: // any magnitude
+			values = append(values, math.Float64frombits(rng.Uint64()&^(0x7ff<<52)|uint64(1023-30+rng.IntN(60))<<52))
+		}
+	}
+	for _, v := range values {
+		for dec := range 8 {
+			got, ok := roundShortest(v, dec)
+			if !ok {
+				continue
+			}
+			if want := RoundRat(Decimal(v), dec); got != want {
+				t.Fatalf("roundShortest(%v, %d) = %s, want %s", v, dec, got, want)
+			}
+		}
+	}
+}
+
+func BenchmarkFormat(b *testing.B) {
+	for b.Loop() {
+		Format(437.59650000000005, 3)
+	}
+}
+
+func BenchmarkFormatByRat(b *testing.B) {
+	for b.Loop() {
+		RoundRat(Decimal(437.59650000000005), 3)
 	}
 }
