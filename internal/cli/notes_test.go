@@ -95,3 +95,52 @@ func TestNotesStreamedAsTabwriter(t *testing.T) {
 		}
 	}
 }
+
+// The JSON report with its rows and setups written one at a time
+// (writeJSONWithRows) is byte for byte encoding/json's report of the whole
+// reduction, rows and setups held.
+func TestJSONRowsStreamedAsTheEncoder(t *testing.T) {
+	t.Parallel()
+	for _, name := range []string{"mere-river-line.csv", "orrin-bay-spot-heights.csv", "tallis-north-loop.csv"} {
+		data, err := os.ReadFile(filepath.Join("../../testdata/books", name))
+		if err != nil {
+			t.Fatal(err)
+		}
+		full, err := levelbook.Parse("t.csv", data)
+		if err != nil {
+			t.Fatal(err)
+		}
+		whole, err := reduce.Reduce(full, reduce.Options{})
+		if err != nil {
+			t.Fatal(err)
+		}
+		var want bytes.Buffer
+		if err := writeJSON(&want, recordedJSON{Reduction: whole, CreatedMarks: []string{"TC-0421 <&>"}}); err != nil {
+			t.Fatal(err)
+		}
+		sum, err := levelbook.Summarize("t.csv", data)
+		if err != nil {
+			t.Fatal(err)
+		}
+		sc, err := sum.Rescan(data)
+		if err != nil {
+			t.Fatal(err)
+		}
+		streamed, err := reduce.ReduceScan(sum, func(yield func(*levelbook.Sighting) bool) {
+			for sc.Next() && yield(sc.Sighting()) {
+			}
+		}, reduce.Options{})
+		if err != nil {
+			t.Fatal(err)
+		}
+		res := *streamed
+		res.Rows, res.Setups = nil, nil
+		var got bytes.Buffer
+		if err := writeJSONWithRows(&got, recordedJSON{Reduction: &res, CreatedMarks: []string{"TC-0421 <&>"}}, streamed, rowsScanned(streamed, data)); err != nil {
+			t.Fatal(err)
+		}
+		if got.String() != want.String() {
+			t.Errorf("%s: the JSON report differs:\n got %.2000s\nwant %.2000s", name, got.String(), want.String())
+		}
+	}
+}

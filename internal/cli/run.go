@@ -4,6 +4,7 @@ import (
 	"bufio"
 	"bytes"
 	"context"
+	"encoding/json"
 	"fmt"
 	"io"
 	"path/filepath"
@@ -826,4 +827,64 @@ func classNames() string {
 		names[i] = c.String()
 	}
 	return strings.Join(names, ", ")
+}
+
+// writeJSONWithRows writes v as writeJSON does, where v holds r with its
+// Rows and Setups left nil (r a reduction a sighting at a time): the
+// reduced notes and the setups are written in their places from rows, one
+// at a time, laid out as the encoder lays out the rest, so that the
+// output is byte for byte writeJSON's of v holding them all.
+func writeJSONWithRows(w io.Writer, v any, r *reduce.Result, rows noteRows) error {
+	var head bytes.Buffer
+	if err := writeJSON(&head, v); err != nil {
+		return err
+	}
+	text := head.Bytes()
+	bw := bufio.NewWriterSize(w, 64<<10)
+	for _, key := range []string{"rows", "setups"} {
+		marker := []byte(`"` + key + `": null`)
+		at := bytes.Index(text, marker)
+		if at < 0 || bytes.Count(text, marker) != 1 {
+			return fmt.Errorf("the report has %d places for its %s", bytes.Count(text, marker), key)
+		}
+		lineStart := bytes.LastIndexByte(text[:at], '\n') + 1
+		ind := string(text[lineStart:at])
+		bw.Write(text[:at+len(marker)-len("null")])
+		bw.WriteByte('[')
+		n := 0
+		var merr error
+		if err := rows(func(row reduce.Row, st *reduce.Setup) bool {
+			var elem any = row
+			if key == "setups" {
+				if st == nil {
+					return true
+				}
+				elem = st
+			}
+			b, err := json.MarshalIndent(elem, ind+"  ", "  ")
+			if err != nil {
+				merr = err
+				return false
+			}
+			if n > 0 {
+				bw.WriteByte(',')
+			}
+			bw.WriteString("\n" + ind + "  ")
+			bw.Write(b)
+			n++
+			return true
+		}); err != nil {
+			return err
+		}
+		if merr != nil {
+			return merr
+		}
+		if n > 0 {
+			bw.WriteString("\n" + ind)
+		}
+		bw.WriteByte(']')
+		text = text[at+len(marker):]
+	}
+	bw.Write(text)
+	return bw.Flush()
 }

@@ -159,11 +159,9 @@ func runRecordRun(opts *runRecordOptions) error {
 	}
 	p := opts.RecordParams
 	p.Path, p.Book = opts.BookPath, data
-	// The report shows every row of the reduced notes: the JSON report
-	// holds them (it is one value); the text report reads the book again
-	// a sighting at a time as it writes them, so that recording the
-	// largest book holds none.
-	p.KeepNotes = opts.Format == FormatJSON
+	// The report shows every row of the reduced notes, read again from
+	// the book a sighting at a time as they are written, so that
+	// recording the largest book holds none (p.KeepNotes is not set).
 	if opts.StandardsName != "" {
 		if p.Standards, err = resolveStandards(opts.StandardsName, "", ""); err != nil {
 			return err
@@ -183,9 +181,11 @@ func runRecordRun(opts *runRecordOptions) error {
 		for _, c := range append(slices.Clip(rec.Cautions), rec.Warnings...) {
 			warnLoudly(ios, c)
 		}
-		return writeJSON(ios.Out, recordedJSON{Run: toRunJSON(rec.Run), CreatedMarks: created, Cautions: nonNil(rec.Cautions),
-			Warnings: nonNil(rec.Warnings), Reduction: rec.Result, CheckOnly: rec.CheckOnly, Suspect: nonNil(rec.Suspect),
-			Held: toHeldJSON(rec.Run.Unit, rec.Held)})
+		res := *rec.Result
+		res.Rows, res.Setups = nil, nil // written in their places, one at a time
+		return writeJSONWithRows(ios.Out, recordedJSON{Run: toRunJSON(rec.Run), CreatedMarks: created, Cautions: nonNil(rec.Cautions),
+			Warnings: nonNil(rec.Warnings), Reduction: &res, CheckOnly: rec.CheckOnly, Suspect: nonNil(rec.Suspect),
+			Held: toHeldJSON(rec.Run.Unit, rec.Held)}, rec.Result, rowsScanned(rec.Result, data))
 	}
 	w := ios.Out
 	run := rec.Run
@@ -208,11 +208,7 @@ func runRecordRun(opts *runRecordOptions) error {
 		warnInReport(ios, fmt.Sprintf("WARNING: mark %s is now SUSPECT: every check connection of it in this run failed; check it in the field and report its condition before relying on its height", m))
 	}
 	fmt.Fprintln(w)
-	rows := rowsOf(rec.Result)
-	if !p.KeepNotes {
-		rows = rowsScanned(rec.Result, data)
-	}
-	return writeReportOf(w, rec.Result, rows, heldNotes(toHeldJSON(rec.Run.Unit, rec.Held)))
+	return writeReportOf(w, rec.Result, rowsScanned(rec.Result, data), heldNotes(toHeldJSON(rec.Run.Unit, rec.Held)))
 }
 
 func nonNil(s []string) []string {
