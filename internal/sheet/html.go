@@ -8,6 +8,7 @@ import (
 	"io"
 	"strconv"
 	"strings"
+	"sync"
 	"time"
 )
 
@@ -17,7 +18,7 @@ import (
 // description holding markup is shown as written.
 func HTML(w io.Writer, d Data) error {
 	var b bytes.Buffer
-	if err := htmlTmpl.Execute(&b, d); err != nil {
+	if err := htmlTmpl().Execute(&b, d); err != nil {
 		return fmt.Errorf("sheet %s: %w", d.Designation, err)
 	}
 	_, err := w.Write(b.Bytes())
@@ -31,7 +32,7 @@ func HTML(w io.Writer, d Data) error {
 // as in HTML.
 func Body(w io.Writer, d Data) error {
 	var b bytes.Buffer
-	if err := htmlTmpl.ExecuteTemplate(&b, "body", d); err != nil {
+	if err := htmlTmpl().ExecuteTemplate(&b, "body", d); err != nil {
 		return fmt.Errorf("sheet %s: %w", d.Designation, err)
 	}
 	_, err := w.Write(b.Bytes())
@@ -140,17 +141,20 @@ func (d Data) Sketch() *svgSketch {
 	return s
 }
 
-var htmlTmpl = template.Must(template.New("sheet").Funcs(template.FuncMap{
-	"date": func(t time.Time) string { return t.UTC().Format("2006-01-02") },
-	"time": func(t time.Time) string { return t.UTC().Format(time.RFC3339) },
-	"join": func(s []string) string { return strings.Join(s, ", ") },
-	"orDash": func(s string) string {
-		if s == "" {
-			return "—"
-		}
-		return s
-	},
-}).Parse(`<!DOCTYPE html>
+// htmlTmpl is the sheet's template, parsed on first use (not at every
+// command's start).
+var htmlTmpl = sync.OnceValue(func() *template.Template {
+	return template.Must(template.New("sheet").Funcs(template.FuncMap{
+		"date": func(t time.Time) string { return t.UTC().Format("2006-01-02") },
+		"time": func(t time.Time) string { return t.UTC().Format(time.RFC3339) },
+		"join": func(s []string) string { return strings.Join(s, ", ") },
+		"orDash": func(s string) string {
+			if s == "" {
+				return "—"
+			}
+			return s
+		},
+	}).Parse(`<!DOCTYPE html>
 <html lang="en" xmlns="http://www.w3.org/1999/xhtml">
 <head>
 <meta charset="utf-8"/>
@@ -211,3 +215,4 @@ var htmlTmpl = template.Must(template.New("sheet").Funcs(template.FuncMap{
 <div class="cautions">{{range .Cautions}}<p>{{.}}</p>
 {{end}}</div>
 {{end}}`))
+})
