@@ -4,6 +4,7 @@ import (
 	"testing"
 	"time"
 
+	"cairn/internal/register"
 	"cairn/internal/registertest"
 	"cairn/internal/store"
 )
@@ -84,4 +85,84 @@ func TestHeightLatestManyCurrentAsTheRule(t *testing.T) {
 	// BM1 corrected to before its own version's time: not in force.
 	fx.Height(t, registertest.HeightOpts{Designation: "BM1", Value: "728.731", Source: "sheet of 1990 (invented)", InForceFrom: day(1990)})
 	check("BM1 corrected", map[string]bool{"BM1": false})
+}
+
+// HeightCurrentByMarks, which takes each chain's first version in force
+// from the latest time, then recorded latest, lists exactly the versions
+// heightCurrent calls current when applied to every version of every chain
+// (HeightHistory), in each case of a chain: versions in force from their
+// own commit (an adjustment's), versions given a time, corrections of the
+// past, a tie, and a second datum.
+func TestHeightCurrentByMarksAsTheRule(t *testing.T) {
+	t.Parallel()
+	fx := registertest.Setup(t)
+	fx.Datum(t, registertest.DatumOpts{})
+	other := fx.Datum(t, registertest.DatumOpts{Code: "OBLD61"})
+	runs := fx.WorkedCircuit(t, registertest.WorkedCircuitOpts{})
+	v := fx.Adjustment(t, registertest.AdjustmentOpts{Runs: runs})
+	fx.Publication(t, v.Adjustment.ID, registertest.PublicationOpts{})
+	var ids []int64
+	names := map[int64]string{}
+	for _, d := range []string{"BM1", "BM2", "BM3", "BM4", "BM5", "BM6"} {
+		m, err := store.MarkGet(fx.Ctx, fx.DB.Pool, store.MarkGetParams{Designation: d})
+		if err != nil {
+			t.Fatal(err)
+		}
+		ids, names[m.ID] = append(ids, m.ID), d
+	}
+	day := func(y int) *time.Time {
+		at := time.Date(y, 6, 1, 0, 0, 0, 0, time.UTC)
+		return &at
+	}
+	check := func(step string) {
+		t.Helper()
+		want := map[int64]bool{}
+		for _, id := range ids {
+			hs, err := store.HeightHistory(fx.Ctx, fx.DB.Pool, store.HeightHistoryParams{MarkID: id})
+			if err != nil {
+				t.Fatal(err)
+			}
+			for _, h := range hs {
+				if h.Current {
+					want[h.ID] = true
+				}
+			}
+		}
+		got, err := store.HeightCurrentByMarks(fx.Ctx, fx.DB.Pool, ids)
+		if err != nil {
+			t.Fatal(err)
+		}
+		seen := map[int64]bool{}
+		for _, h := range got {
+			seen[h.ID] = true
+			if !want[h.ID] || !h.Current {
+				t.Errorf("%s: %s on %s version %d is listed as in force; the rule says not", step, names[h.MarkID], h.DatumCode, h.Version)
+			}
+		}
+		for id := range want {
+			if !seen[id] {
+				t.Errorf("%s: version %d, in force by the rule, is not listed", step, id)
+			}
+		}
+		if len(want) == 0 {
+			t.Fatalf("%s: nothing in force", step)
+		}
+	}
+	check("published")
+	fx.Height(t, registertest.HeightOpts{Designation: "BM1", Datum: other.Code, Value: "112.470", Unit: "ft", Source: "works book of 1961 (invented)", InForceFrom: day(1961)})
+	fx.Height(t, registertest.HeightOpts{Designation: "BM2", Value: "729.000", Source: "sheet of 2001 (invented)", InForceFrom: day(2001)})
+	bm3 := fx.Height(t, registertest.HeightOpts{Designation: "BM3", Value: "729.100", Source: "sheet of today (invented)"})
+	fx.Height(t, registertest.HeightOpts{Designation: "BM4", Value: "729.200", Source: "sheet of 2010 (invented)", InForceFrom: day(2010)})
+	check("corrections")
+	at := bm3.InForceFrom
+	fx.Height(t, registertest.HeightOpts{Designation: "BM3", Value: "729.150", Source: "sheet of today, again (invented)", InForceFrom: &at})
+	fx.Height(t, registertest.HeightOpts{Designation: "BM4", Value: "729.300", Source: "sheet of 2005 (invented)", InForceFrom: day(2005)})
+	fx.Height(t, registertest.HeightOpts{Designation: "BM1", Datum: other.Code, Value: "112.480", Unit: "ft", Source: "works book of 1958 (invented)", InForceFrom: day(1958)})
+	check("a tie and the past corrected")
+	fx.Height(t, registertest.HeightOpts{Designation: "BM1", Value: "728.731", Source: "sheet of 1990 (invented)", InForceFrom: day(1990)})
+	// A second adjustment of the same runs, published over the
+	// corrections: in force from its commit.
+	v2 := fx.Adjustment(t, registertest.AdjustmentOpts{Runs: runs, Edit: func(p *register.AdjustParams) { p.Datum = "NAVD88" }})
+	fx.Publication(t, v2.Adjustment.ID, registertest.PublicationOpts{})
+	check("published again")
 }
