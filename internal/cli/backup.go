@@ -2,15 +2,12 @@ package cli
 
 import (
 	"context"
-	"crypto/rand"
-	"encoding/hex"
 	"errors"
 	"fmt"
 	"os"
 	"runtime"
 	"strings"
 
-	"github.com/jackc/pgx/v5"
 	"github.com/jackc/pgx/v5/pgxpool"
 	"github.com/spf13/cobra"
 
@@ -179,140 +176,21 @@ func restoreRun(opts *backupOptions) error {
 // restoreJobs is how many connections a restore loads over.
 var restoreJobs = func() int { return min(max(runtime.NumCPU(), 2), 8) }
 
-// restoreStaged loads file into a new database made for it (the encoding,
-// locale and owner of the empty target's), over several connections at
-// once (backup.RestoreJobs), brings its schema up to date, gives the
-// register's roles their privileges and audits it (restoreCheck); only
-// when everything verifies does it take the place of the empty target
-// (renamed away, the new one renamed to its name, the empty one dropped).
-// A load that fails drops the new database: nothing is left behind, and
-// the target stays as it was. A register that does not verify is kept
-// under the new database's own name, for inspection, and the target stays
-// empty. staged is false, with nothing done, when the role may not create
-// a database.
+// restoreStaged restores file through a database made for it
+// (backup.RestoreStaged), audited by restoreCheck before it takes the
+// empty target's place; staged is false, with nothing done, when the role
+// may not create a database.
 func restoreStaged(ctx context.Context, f *Factory, url string, srv store.Server, file string) (staged bool, err error) {
-	target := srv.Database
-	conn, err := pgx.Connect(ctx, url)
-	if err != nil {
-		return false, fmt.Errorf("connect to server: %w", err)
-	}
-	defer conn.Close(context.WithoutCancel(ctx))
-	settings, err := store.DatabaseSettingsGet(ctx, conn, target)
-	if err != nil {
-		return false, err
-	}
-	b := make([]byte, 6)
-	if _, err := rand.Read(b); err != nil {
-		return false, err
-	}
-	staging := "cairn_restore_" + hex.EncodeToString(b)
-	if err := store.DatabaseCreateLike(ctx, conn, staging, settings); err != nil {
-		if errors.Is(err, store.ErrPermission) {
-			return false, nil
-		}
-		return true, err
-	}
-	keep := false
-	defer func() {
-		if keep {
-			return
-		}
-		// On a session of its own: conn may be closed by now.
-		c, derr := pgx.Connect(context.WithoutCancel(ctx), url)
-		if derr == nil {
-			derr = store.DatabaseDrop(context.WithoutCancel(ctx), c, staging)
-			c.Close(context.WithoutCancel(ctx))
-		}
-		if derr != nil {
-			err = errors.Join(err, fmt.Errorf("the database made for the restore, %q, could not be dropped: drop it: %w", staging, derr))
-		}
-	}()
-	stagingURL, err := store.WithDatabase(url, staging)
-	if err != nil {
-		return true, err
-	}
-	if err := backup.RestoreJobs(ctx, stagingURL, srv.Version, file, restoreJobs()); err != nil {
-		return true, fmt.Errorf("restore %s: nothing is left behind (database %q, made for the load, is dropped; database %q is as it was): %w", file, staging, target, err)
-	}
-	pool, err := store.Open(ctx, stagingURL)
-	if err != nil {
-		return true, err
-	}
-	defer pool.Close()
-	if err := store.Migrate(ctx, pool); err != nil {
-		return true, fmt.Errorf("bring the restored register's schema up to date: %w", err)
-	}
-	if err := restoreCheck(ctx, f, pool, file, staging, target); err != nil {
-		var failed checksFailed
-		if errors.As(err, &failed) {
-			keep = true
-		}
-		return true, err
-	}
-	pool.Close()
-	if settings.Owner != "" {
-		var me string
-		if err := conn.QueryRow(ctx, "SELECT current_user").Scan(&me); err != nil {
-			return true, err
-		}
-		if me != settings.Owner {
-			if err := store.DatabaseSetOwner(ctx, conn, staging, settings.Owner); err != nil {
-				return true, fmt.Errorf("the restored register verifies, but it cannot be given database %q's owner, so it is not put in its place: %w", target, err)
-			}
-		}
-	}
-	conn.Close(ctx)
-	f.Close() // this process's sessions on the target, which a rename waits for
-	if err := swapDatabases(ctx, url, stagingURL, staging, target); err != nil {
-		return true, err
-	}
-	keep = true // it is the target now
-	return true, nil
-}
-
-// swapDatabases puts database staging in the place of the empty database
-// target: target renamed away, staging renamed to target's name, the
-// renamed empty one dropped. A step that fails undoes the ones before it.
-// No session may be connected to either.
-func swapDatabases(ctx context.Context, url, stagingURL, staging, target string) error {
-	away := staging + "_empty"
-	awayURL, err := store.WithDatabase(url, away)
-	if err != nil {
-		return err
-	}
-	// Each rename is made from a session on another database than the one
-	// renamed, and closed before that database is renamed in turn.
-	onDB := func(u string, fn func(*pgx.Conn) error) error {
-		c, err := pgx.Connect(ctx, u)
-		if err != nil {
-			return err
-		}
-		defer c.Close(context.WithoutCancel(ctx))
-		return fn(c)
-	}
-	if err := onDB(stagingURL, func(c *pgx.Conn) error { return store.DatabaseRename(ctx, c, target, away) }); err != nil {
-		return fmt.Errorf("the restored register verifies, but database %q cannot be set aside for it (close the sessions connected to it and restore again): %w", target, err)
-	}
-	err = onDB(awayURL, func(c *pgx.Conn) error {
-		empty, err := store.DatabaseEmpty(ctx, c)
-		if err == nil && !empty {
-			err = fmt.Errorf("database %q was written to during the restore: the restored register is not put in its place", target)
-		}
-		if err == nil {
-			err = store.DatabaseRename(ctx, c, staging, target)
-		}
-		return err
+	return backup.RestoreStaged(ctx, backup.StagedParams{
+		URL: url, ServerVersion: srv.Version, Target: srv.Database, File: file, Jobs: restoreJobs(),
+		Check: func(ctx context.Context, pool *pgxpool.Pool, staging string) (bool, error) {
+			err := restoreCheck(ctx, f, pool, file, staging, srv.Database)
+			var failed checksFailed
+			return errors.As(err, &failed), err
+		},
+		// This process's sessions on the target, which a rename waits for.
+		CloseSessions: f.Close,
 	})
-	if err != nil {
-		if uerr := onDB(stagingURL, func(c *pgx.Conn) error { return store.DatabaseRename(context.WithoutCancel(ctx), c, away, target) }); uerr != nil {
-			err = fmt.Errorf("%w; and database %q could not be given its name back from %q: %v", err, target, away, uerr)
-		}
-		return err
-	}
-	if err := onDB(url, func(c *pgx.Conn) error { return store.DatabaseDrop(ctx, c, away) }); err != nil {
-		return fmt.Errorf("the register is restored as %q; the empty database it replaced, %q, is left: drop it: %w", target, away, err)
-	}
-	return nil
 }
 
 // restoreCheck gives the register's roles their privileges on the
