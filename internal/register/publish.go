@@ -277,7 +277,7 @@ func (r *Register) Publish(ctx context.Context, p PublishParams) (*Published, er
 		if err := checkResults(publish, nil); err != nil {
 			return err
 		}
-		out.Versions, err = store.HeightInsertMany(ctx, tx, store.HeightInsertManyParams{DatumID: a.DatumID, AdjustmentID: a.ID,
+		out.Versions, err = store.HeightInsertMany(ctx, tx, store.HeightInsertManyParams{DatumID: a.DatumID, DatumCode: a.DatumCode, AdjustmentID: a.ID,
 			Source: AdjustmentSource(a.ID, a.Method, len(a.RunIDs)),
 			Reason: p.Reason, RecordedBy: p.By, Results: publish})
 		if err != nil {
