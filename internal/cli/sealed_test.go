@@ -147,9 +147,16 @@ func TestSealedChildren(t *testing.T) {
 				WHERE a.id = $1 AND m.designation = 'BM4'`},
 	}
 
-	// Every table referring to a run or an adjustment has its case.
-	rows, err := s.db.Pool.Query(ctx, `SELECT DISTINCT c.conrelid::regclass::text FROM pg_constraint c
-		WHERE c.contype = 'f' AND c.confrelid IN ('run'::regclass, 'adjustment'::regclass) ORDER BY 1`)
+	// Every table referring to a run or an adjustment has its case: by a
+	// foreign key, or by a column run_id or adjustment_id whose reference
+	// a trigger checks (schema v26: adjustment_result, adjustment_section
+	// and height, once a statement).
+	rows, err := s.db.Pool.Query(ctx, `SELECT c.conrelid::regclass::text FROM pg_constraint c
+		WHERE c.contype = 'f' AND c.confrelid IN ('run'::regclass, 'adjustment'::regclass)
+		UNION
+		SELECT a.attrelid::regclass::text FROM pg_attribute a JOIN pg_class r ON r.oid = a.attrelid
+		WHERE r.relnamespace = 'public'::regnamespace AND r.relkind = 'r' AND a.attname IN ('run_id', 'adjustment_id') AND NOT a.attisdropped
+		ORDER BY 1`)
 	if err != nil {
 		t.Fatal(err)
 	}

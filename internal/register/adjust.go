@@ -212,6 +212,9 @@ const adjustAttempts = 3
 func (r *Register) adjustOnce(ctx context.Context, p AdjustParams) (*AdjustmentView, error) {
 	v := &AdjustmentView{}
 	err := r.withTx(ctx, pgx.TxOptions{IsoLevel: pgx.RepeatableRead}, func(tx pgx.Tx) error {
+		if err := store.TxNoJIT(ctx, tx); err != nil {
+			return err
+		}
 		g, err := r.gather(ctx, tx, p)
 		if err != nil {
 			return err

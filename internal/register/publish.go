@@ -118,6 +118,9 @@ func (r *Register) PublishPreview(ctx context.Context, id int64, largeChangeM fl
 	}
 	pv := &PublishPreview{View: &AdjustmentView{}, LargeChangeM: largeChangeM}
 	err = r.withTx(ctx, readTx, func(tx pgx.Tx) error {
+		if err := store.TxNoJIT(ctx, tx); err != nil {
+			return err
+		}
 		v := pv.View
 		if err := r.adjustmentView(ctx, tx, id, v); err != nil {
 			return err
@@ -192,6 +195,9 @@ func (r *Register) Publish(ctx context.Context, p PublishParams) (*Published, er
 	out := &Published{LargeChangeM: p.LargeChangeM}
 	var xid uint64
 	err := r.withTx(ctx, pgx.TxOptions{}, func(tx pgx.Tx) error {
+		if err := store.TxNoJIT(ctx, tx); err != nil {
+			return err
+		}
 		a, err := r.lockDraft(ctx, tx, p.AdjustmentID, store.StatusPublished)
 		if err != nil {
 			return err
@@ -277,7 +283,7 @@ func (r *Register) Publish(ctx context.Context, p PublishParams) (*Published, er
 		if err := checkResults(publish, nil); err != nil {
 			return err
 		}
-		out.Versions, err = store.HeightInsertMany(ctx, tx, store.HeightInsertManyParams{DatumID: a.DatumID, AdjustmentID: a.ID,
+		out.Versions, err = store.HeightInsertMany(ctx, tx, store.HeightInsertManyParams{DatumID: a.DatumID, DatumCode: a.DatumCode, AdjustmentID: a.ID,
 			Source: AdjustmentSource(a.ID, a.Method, len(a.RunIDs)),
 			Reason: p.Reason, RecordedBy: p.By, Results: publish})
 		if err != nil {

@@ -15,6 +15,7 @@ import (
 	"sync"
 	"time"
 
+	"github.com/jackc/pgx/v5"
 	"github.com/jackc/pgx/v5/pgxpool"
 	"github.com/jackc/pgx/v5/stdlib"
 	"github.com/pressly/goose/v3"
@@ -90,6 +91,18 @@ func OpenWith(ctx context.Context, url string, o PoolOptions) (*pgxpool.Pool, er
 	}
 	conn.Release()
 	return pool, nil
+}
+
+// TxNoJIT turns the server's JIT compilation off for the rest of
+// transaction tx (SET LOCAL jit = off). A draft's and a publication's
+// statements read and write tens of thousands of rows by index, each
+// cheap; the planner's estimate of some (the latest versions of 50,000
+// marks with their in-force test) passes jit_above_cost, and compiling
+// them took about a second of a statement that ran in one and a half
+// without (docs/performance.md, issue 15).
+func TxNoJIT(ctx context.Context, tx pgx.Tx) error {
+	_, err := tx.Exec(ctx, "SET LOCAL jit = off")
+	return translate(err)
 }
 
 func describe(cfg *pgxpool.Config) string {
