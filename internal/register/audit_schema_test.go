@@ -1,9 +1,11 @@
 package register_test
 
 import (
+	"context"
 	"fmt"
 	"strings"
 	"testing"
+	"time"
 
 	"cairn/internal/auditcache"
 	"cairn/internal/register"
@@ -39,6 +41,13 @@ func TestAuditSchemaCache(t *testing.T) {
 	if _, err := b.DB.Pool.Exec(b.Ctx, "ALTER TABLE height DISABLE TRIGGER height_append_only"); err != nil {
 		t.Fatal(err)
 	}
+	// A login made a member of a register's role meanwhile (as other tests
+	// on the same server make theirs) changes no schema, nor the key.
+	login := fmt.Sprintf("cairn_t_key_%d", time.Now().UnixNano())
+	if _, err := b.DB.Pool.Exec(b.Ctx, "CREATE ROLE "+login+" LOGIN IN ROLE cairn_reader"); err != nil {
+		t.Fatal(err)
+	}
+	t.Cleanup(func() { b.DB.Pool.Exec(context.Background(), "DROP ROLE IF EXISTS "+login) })
 	register.ForgetFreshSchemas()
 	second, err := b.Reg.AuditVerify(b.Ctx)
 	if err != nil || second.SchemaFrom != register.SchemaFromCache || len(second.Findings) != 1 ||

@@ -284,12 +284,16 @@ func WithScratchRegister(ctx context.Context, pool *pgxpool.Pool, fn func(DBTX) 
 
 // SchemaServerKey names what a freshly migrated database's schema depends
 // on besides the migrations: the server (address and version) and the
-// register's roles present on it, so that a fingerprint of a scratch
-// database can be reused for the same key within one process.
+// register's roles present on it (RoleReader, RoleRecorder,
+// RolePublisher: the migrations grant to those and no other), so that a
+// fingerprint of a scratch database can be reused for the same key. Other
+// roles, such as the logins that are members of the register's roles,
+// come and go without changing the schema, and do not change the key.
 func SchemaServerKey(ctx context.Context, pool *pgxpool.Pool) (string, error) {
 	var k string
 	err := pool.QueryRow(ctx, `SELECT current_setting('server_version_num') || ' ' ||
-		coalesce((SELECT string_agg(rolname, ',' ORDER BY rolname) FROM pg_roles WHERE rolname LIKE 'cairn\_%'), '')`).Scan(&k)
+		coalesce((SELECT string_agg(rolname, ',' ORDER BY rolname) FROM pg_roles WHERE rolname = ANY($1)), '')`,
+		[]string{RoleReader, RoleRecorder, RolePublisher}).Scan(&k)
 	if err != nil {
 		return "", translate(err)
 	}
