@@ -241,6 +241,9 @@ func (r *Register) auditChains(ctx context.Context, rep *AuditReport, since *uin
 		return err
 	}
 	defer lead.Rollback(ctx)
+	if err := store.AuditSession(ctx, lead); err != nil {
+		return err
+	}
 	snapshot, err := store.SnapshotExport(ctx, lead)
 	if err != nil {
 		return err
@@ -271,6 +274,9 @@ func (r *Register) auditChains(ctx context.Context, rep *AuditReport, since *uin
 			defer tx.Rollback(gctx)
 			if err := store.SnapshotUse(gctx, tx, snapshot); err != nil {
 				return fmt.Errorf("share the audit's snapshot: %w", err)
+			}
+			if err := store.AuditSession(gctx, tx); err != nil {
+				return err
 			}
 			return auditChainRange(gctx, tx, from, to, since, part, step)
 		})

@@ -74,6 +74,9 @@ func (r *Register) auditDerive(ctx context.Context, rep *AuditReport, since *uin
 		rep.Findings = []Finding{}
 	}
 	err := r.withTx(ctx, readTx, func(tx pgx.Tx) error {
+		if err := store.AuditSession(ctx, tx); err != nil {
+			return err
+		}
 		if err := auditBooks(ctx, tx, rep, since); err != nil {
 			return err
 		}
