@@ -16,6 +16,7 @@ import (
 	"cairn/internal/pgtest"
 	. "cairn/internal/register"
 	"cairn/internal/registertest"
+	"cairn/internal/store"
 )
 
 // importBenchFiles writes a generated register of marks marks, 5 height
@@ -97,8 +98,9 @@ func BenchmarkImport(b *testing.B) {
 // default 20,000, five versions each), in one transaction (workers=1)
 // and divided among one worker per CPU (workers=cpu). It reports the time
 // per version. floor is the SQL floor of workers=cpu in the same run: the
-// same rows read bare (the audit's query, binary rows, nothing decoded),
-// over as many connections on one snapshot, split alike.
+// same rows read bare (the audit's queries, binary rows, nothing decoded),
+// over as many connections on one snapshot, split alike; floor-join and
+// floor-ids the floors of other ways of reading them, for comparison.
 //
 // CAIRN_BENCH_AUDIT_CHAIN_DB names a register kept on the test server to
 // measure instead (nothing is imported or written; it is left as it is):
@@ -156,23 +158,47 @@ func BenchmarkAuditChains(b *testing.B) {
 			perVersion(b, n)
 		})
 	}
-	b.Run("floor", func(b *testing.B) {
-		n := 0
-		for b.Loop() {
-			got, err := auditChainsFloor(fx, runtime.GOMAXPROCS(0))
-			if err != nil || got != versions {
-				b.Fatalf("floor: %v, %d rows (want %d)", err, got, versions)
+	// The floors, each the bare read of one way of sending the rows:
+	// floor, the audit's own (each chunk's marks' designations, then its
+	// versions without them); floor-join, the designation joined to every
+	// version (the audit until schema v25's code); floor-ids, the versions'
+	// ids alone in the same order (what the index scan costs).
+	for _, f := range []struct {
+		name    string
+		queries []string
+	}{
+		{"floor", []string{"SELECT m.id, m.designation FROM mark m WHERE m.id BETWEEN $1 AND $2 ORDER BY m.id",
+			`SELECT h.id, h.mark_id, h.datum_id, h.version, h.supersedes,
+				h.value::text, h.unit, h.decimals, h.class, h.source_kind, h.source, h.adjustment_id,
+				h.reason, h.recorded_by, h.recorded_role, h.recorded_at, h.in_force_from, h.hash
+				FROM height h WHERE h.mark_id BETWEEN $1 AND $2 ORDER BY h.mark_id, h.datum_id, h.version`}},
+		{"floor-join", []string{`SELECT h.id, h.mark_id, m.designation, h.datum_id, h.version, h.supersedes,
+				h.value::text, h.unit, h.decimals, h.class, h.source_kind, h.source, h.adjustment_id,
+				h.reason, h.recorded_by, h.recorded_role, h.recorded_at, h.in_force_from, h.hash
+				FROM height h JOIN mark m ON m.id = h.mark_id
+				WHERE h.mark_id BETWEEN $1 AND $2 ORDER BY h.mark_id, h.datum_id, h.version`}},
+		{"floor-ids", []string{"SELECT h.id FROM height h WHERE h.mark_id BETWEEN $1 AND $2 ORDER BY h.mark_id, h.datum_id, h.version"}},
+	} {
+		b.Run(f.name, func(b *testing.B) {
+			n := 0
+			for b.Loop() {
+				got, err := auditChainsFloor(fx, runtime.GOMAXPROCS(0), f.queries)
+				if err != nil || got != versions {
+					b.Fatalf("floor: %v, %d rows (want %d)", err, got, versions)
+				}
+				n += got
 			}
-			n += got
-		}
-		perVersion(b, n)
-	})
+			perVersion(b, n)
+		})
+	}
 }
 
-// auditChainsFloor reads the rows the audit of the chains reads, in its
-// order and split by mark id among workers transactions on one exported
-// snapshot, as binary rows left undecoded, and returns how many.
-func auditChainsFloor(fx *registertest.Bundle, workers int) (int, error) {
+// auditChainsFloor runs queries (their last one's rows are the versions,
+// which it counts; the ones before it are read too) as the audit of the
+// chains reads its rows: in its order, split by mark id among workers
+// transactions on one exported snapshot, in chunks of store.ChainChunk
+// mark ids, as binary rows left undecoded, without JIT (AuditSession).
+func auditChainsFloor(fx *registertest.Bundle, workers int, queries []string) (int, error) {
 	ctx := fx.Ctx
 	lead, err := fx.DB.Pool.BeginTx(ctx, pgx.TxOptions{IsoLevel: pgx.RepeatableRead, AccessMode: pgx.ReadOnly})
 	if err != nil {
@@ -182,6 +208,9 @@ func auditChainsFloor(fx *registertest.Bundle, workers int) (int, error) {
 	var snap string
 	var lo, hi int64
 	if err := lead.QueryRow(ctx, "SELECT pg_export_snapshot(), coalesce(min(id), 0), coalesce(max(id), 0) FROM mark").Scan(&snap, &lo, &hi); err != nil {
+		return 0, err
+	}
+	if _, err := lead.Exec(ctx, "SET LOCAL jit = off"); err != nil {
 		return 0, err
 	}
 	counts := make([]int, workers)
@@ -199,22 +228,30 @@ func auditChainsFloor(fx *registertest.Bundle, workers int) (int, error) {
 				if _, err := t.Exec(gctx, "SET TRANSACTION SNAPSHOT '"+snap+"'"); err != nil {
 					return err
 				}
+				if _, err := t.Exec(gctx, "SET LOCAL jit = off"); err != nil {
+					return err
+				}
 				tx = t
 			}
-			from := lo + int64(i)*width
-			rows, err := tx.Query(gctx, `SELECT h.id, h.mark_id, m.designation, h.datum_id, h.version, h.supersedes,
-				h.value::text, h.unit, h.decimals, h.class, h.source_kind, h.source, h.adjustment_id,
-				h.reason, h.recorded_by, h.recorded_role, h.recorded_at, h.in_force_from, h.hash
-				FROM height h JOIN mark m ON m.id = h.mark_id
-				WHERE h.mark_id BETWEEN $1 AND $2 ORDER BY h.mark_id, h.datum_id, h.version`,
-				pgx.QueryResultFormats{pgx.BinaryFormatCode}, from, min(from+width-1, hi))
-			if err != nil {
-				return err
+			first, last := lo+int64(i)*width, min(lo+int64(i+1)*width-1, hi)
+			for from := first; from <= last; from += store.ChainChunk {
+				to := min(from+store.ChainChunk-1, last)
+				for k, q := range queries {
+					rows, err := tx.Query(gctx, q, pgx.QueryResultFormats{pgx.BinaryFormatCode}, from, to)
+					if err != nil {
+						return err
+					}
+					for rows.Next() {
+						if k == len(queries)-1 {
+							counts[i]++
+						}
+					}
+					if err := rows.Err(); err != nil {
+						return err
+					}
+				}
 			}
-			for rows.Next() {
-				counts[i]++
-			}
-			return rows.Err()
+			return nil
 		})
 	}
 	err = g.Wait()
