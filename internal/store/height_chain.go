@@ -55,7 +55,9 @@ var chainColumns = []struct {
 }
 
 // ChainChunk is how many mark ids HeightChainRows reads at a time: the
-// designations of a chunk's marks are held while its versions stream.
+// designations of a chunk's marks are held while its versions stream
+// (since a transaction, the marks with a version written since, in one
+// chunk).
 var ChainChunk = int64(10000)
 
 // HeightChainRows calls fn with every version of the marks with ids from
@@ -84,8 +86,15 @@ func HeightChainRows(ctx context.Context, db DBTX, lo, hi int64, after *uint64, 
 		names []byte
 		r     ChainRow
 	)
-	for from := lo; from <= hi; from += ChainChunk {
-		to := min(from+ChainChunk-1, hi)
+	// Since a transaction, one chunk: the marks read are only those with a
+	// version written since (as many as were written, at most), and each
+	// chunk would look for them again in the index on created_xid.
+	step := ChainChunk
+	if after != nil {
+		step = max(hi-lo+1, 1)
+	}
+	for from := lo; from <= hi; from += step {
+		to := min(from+step-1, hi)
 		cond, args := "", []any{pgx.QueryResultFormats{pgx.BinaryFormatCode}, from, to}
 		if after != nil {
 			// The chains touched since: the index on created_xid finds their
