@@ -276,7 +276,16 @@ func (r *Register) auditChains(ctx context.Context, rep *AuditReport, since *uin
 		return err
 	}
 	defer lead.Rollback(ctx)
-	if err := store.AuditSession(ctx, lead); err != nil {
+	session := func(ctx context.Context, tx pgx.Tx) error {
+		if err := store.AuditSession(ctx, tx); err != nil {
+			return err
+		}
+		if since == nil {
+			return store.ChainSession(ctx, tx)
+		}
+		return nil
+	}
+	if err := session(ctx, lead); err != nil {
 		return err
 	}
 	snapshot, err := store.SnapshotExport(ctx, lead)
@@ -310,7 +319,7 @@ func (r *Register) auditChains(ctx context.Context, rep *AuditReport, since *uin
 			if err := store.SnapshotUse(gctx, tx, snapshot); err != nil {
 				return fmt.Errorf("share the audit's snapshot: %w", err)
 			}
-			if err := store.AuditSession(gctx, tx); err != nil {
+			if err := session(gctx, tx); err != nil {
 				return err
 			}
 			return auditChainRange(gctx, tx, from, to, since, part, step)

@@ -106,17 +106,44 @@ func HeightChainRows(ctx context.Context, db DBTX, lo, hi int64, after *uint64, 
 		if marks, names, err = chainMarks(ctx, db, args, after != nil, marks[:0], names[:0]); err != nil {
 			return err
 		}
-		rows, err := db.Query(ctx, `SELECT h.id, h.mark_id, h.datum_id, h.version, h.supersedes,
-			h.value::text, h.unit, h.decimals, h.class, h.source_kind, h.source, h.adjustment_id,
-			h.reason, h.recorded_by, h.recorded_role, h.recorded_at, h.in_force_from, h.hash
-			FROM height h
-			WHERE h.mark_id BETWEEN $1 AND $2`+cond+` ORDER BY h.mark_id, h.datum_id, h.version`, args...)
+		rows, err := db.Query(ctx, chainVersions+cond+chainOrder, args...)
 		if err != nil {
 			return translate(err)
 		}
 		if err := chainStream(rows, datums, marks, names, &r, fn); err != nil {
 			rows.Close()
 			return err
+		}
+	}
+	return nil
+}
+
+// chainVersions and chainOrder are HeightChainRows' query of one chunk's
+// versions, a condition between them for the chains since a transaction.
+const (
+	chainVersions = `SELECT h.id, h.mark_id, h.datum_id, h.version, h.supersedes,
+		h.value::text, h.unit, h.decimals, h.class, h.source_kind, h.source, h.adjustment_id,
+		h.reason, h.recorded_by, h.recorded_role, h.recorded_at, h.in_force_from, h.hash
+		FROM height h
+		WHERE h.mark_id BETWEEN $1 AND $2`
+	chainOrder = ` ORDER BY h.mark_id, h.datum_id, h.version`
+)
+
+// ChainSession prepares transaction tx, which reads the whole chains of
+// a range of marks (HeightChainRows without after), for the rest of it:
+// the versions streamed by the unique index on (mark_id, datum_id,
+// version), never a sort, and no parallel workers (the audit divides the
+// marks among transactions itself). On an analyzed register, a chunk
+// that is a large part of the table is otherwise planned as a sequential
+// scan and a sort of the chunk (spilling to disk at the default
+// work_mem), and the join's or the sort's parallel workers add processes
+// to the two cores (docs/performance.md, "audit verify at the floor").
+// Not for the chains since a transaction: their versions are found by
+// the index on created_xid, and in order only by a sort of the few.
+func ChainSession(ctx context.Context, tx pgx.Tx) error {
+	for _, q := range []string{"SET LOCAL enable_sort = off", "SET LOCAL max_parallel_workers_per_gather = 0"} {
+		if _, err := tx.Exec(ctx, q); err != nil {
+			return fmt.Errorf("prepare the audit of the chains: %w", translate(err))
 		}
 	}
 	return nil
