@@ -322,13 +322,18 @@ func WithScratchRegister(ctx context.Context, pool *pgxpool.Pool, fn func(DBTX) 
 }
 
 // SchemaServerKey names what a freshly migrated database's schema depends
-// on besides the migrations: the server (address and version) and the
-// register's roles present on it, so that a fingerprint of a scratch
-// database can be reused for the same key within one process.
+// on besides the migrations: the server (address and version) and which
+// of the register's roles (RoleReader, RoleRecorder, RolePublisher, which
+// the migrations grant to) are present on it, so that a fingerprint of a
+// scratch database can be reused for the same key within one process.
+// Other roles, the logins of the office's people among them, whatever
+// their names, are not part of it: a login made or dropped (cairn_… or
+// not) changes nothing a fresh migration makes.
 func SchemaServerKey(ctx context.Context, pool *pgxpool.Pool) (string, error) {
 	var k string
 	err := pool.QueryRow(ctx, `SELECT current_setting('server_version_num') || ' ' ||
-		coalesce((SELECT string_agg(rolname, ',' ORDER BY rolname) FROM pg_roles WHERE rolname LIKE 'cairn\_%'), '')`).Scan(&k)
+		coalesce((SELECT string_agg(rolname, ',' ORDER BY rolname) FROM pg_roles WHERE rolname = ANY($1::text[])), '')`,
+		[]string{RoleReader, RoleRecorder, RolePublisher}).Scan(&k)
 	if err != nil {
 		return "", translate(err)
 	}

@@ -70,3 +70,34 @@ func TestAuditSessionsRunWithoutJIT(t *testing.T) {
 		t.Error("EvidenceSession: the query was compiled")
 	}
 }
+
+// The schema's key names the register's roles present on the server, not
+// the logins: a login made on the server (here one named like the
+// register's own, as tests and offices do) leaves the key, and so the
+// kept reference schema, as they were. (Roles are the cluster's, shared
+// by every database on the server: PostgreSQL 15 documentation, 22.1.)
+func TestSchemaServerKeyIgnoresLogins(t *testing.T) {
+	db := pgtest.New(t)
+	ctx := context.Background()
+	before, err := store.SchemaServerKey(ctx, db.Pool)
+	if err != nil {
+		t.Fatal(err)
+	}
+	for _, r := range []string{store.RoleReader, store.RoleRecorder, store.RolePublisher} {
+		if !strings.Contains(before, r) {
+			t.Fatalf("key %q does not name the register's role %s", before, r)
+		}
+	}
+	login := pgx.Identifier{"cairn_t_key_" + strings.ReplaceAll(db.Pool.Config().ConnConfig.Database, "cairn_test_", "")}.Sanitize()
+	if _, err := db.Pool.Exec(ctx, "CREATE ROLE "+login+" LOGIN IN ROLE "+store.RoleReader); err != nil {
+		t.Fatal(err)
+	}
+	t.Cleanup(func() { db.Pool.Exec(context.Background(), "DROP ROLE IF EXISTS "+login) })
+	after, err := store.SchemaServerKey(ctx, db.Pool)
+	if err != nil {
+		t.Fatal(err)
+	}
+	if after != before {
+		t.Errorf("a new login changed the schema's key: %q, was %q", after, before)
+	}
+}
