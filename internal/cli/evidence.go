@@ -5,6 +5,7 @@ import (
 	"fmt"
 	"os"
 	"strconv"
+	"sync"
 
 	"github.com/spf13/cobra"
 
@@ -143,7 +144,7 @@ type statementCheck struct {
 // file when not empty; it prints what it found and returns checksFailed
 // when anything does not hold. The statement's check is nil without one.
 func verifyAgainst(ctx context.Context, f *Factory, r *register.Register, file, pub string) (register.EvidenceReport, *statementCheck, error) {
-	return verifyEvidence(ctx, f, r, file, pub, nil)
+	return verifyEvidence(ctx, f, r, file, pub, nil, nil)
 }
 
 // readSince reads the statement an incremental audit starts from, its
@@ -168,10 +169,15 @@ func readSince(f *Factory, file, pub string) (register.Statement, *statementChec
 }
 
 // verifyEvidence is verifyAgainst, or with since the evidence from that
-// checkpoint on (EvidenceVerifySince).
-func verifyEvidence(ctx context.Context, f *Factory, r *register.Register, file, pub string, since *register.Statement) (register.EvidenceReport, *statementCheck, error) {
+// checkpoint on (EvidenceVerifySince), whose result sinceResult gives
+// when not nil (computed meanwhile, sinceEvidence).
+func verifyEvidence(ctx context.Context, f *Factory, r *register.Register, file, pub string, since *register.Statement,
+	sinceResult func() (register.EvidenceReport, error)) (register.EvidenceReport, *statementCheck, error) {
 	if since != nil {
-		rep, err := r.EvidenceVerifySince(ctx, *since)
+		if sinceResult == nil {
+			sinceResult = func() (register.EvidenceReport, error) { return r.EvidenceVerifySince(ctx, *since) }
+		}
+		rep, err := sinceResult()
 		if err != nil {
 			return rep, nil, err
 		}
@@ -221,4 +227,25 @@ func verifyEvidence(ctx context.Context, f *Factory, r *register.Register, file,
 			stmt.Seq, stmt.MadeAt.UTC().Format("2006-01-02 15:04:05Z"))
 	}
 	return rep, check, nil
+}
+
+// sinceEvidence starts the evidence from checkpoint since
+// (EvidenceVerifySince) at once, to run while the chains are audited (the
+// two read apart and share nothing but the server's cores), and returns
+// the function that waits for its result; call it on every path, so that
+// nothing reads the register after the command ends.
+func sinceEvidence(ctx context.Context, r *register.Register, since register.Statement) func() (register.EvidenceReport, error) {
+	type result struct {
+		rep register.EvidenceReport
+		err error
+	}
+	ch := make(chan result, 1)
+	go func() {
+		rep, err := r.EvidenceVerifySince(ctx, since)
+		ch <- result{rep, err}
+	}()
+	return sync.OnceValues(func() (register.EvidenceReport, error) {
+		res := <-ch
+		return res.rep, res.err
+	})
 }

@@ -661,6 +661,11 @@ func auditVerifyRun(opts *auditVerifyOptions) error {
 		}
 		since, sinceCheck = &s, check
 	}
+	var sinceResult func() (register.EvidenceReport, error)
+	if since != nil {
+		sinceResult = sinceEvidence(opts.ctx, r, *since)
+		defer sinceResult()
+	}
 	// A bar of the versions checked, on a terminal and not with -o json;
 	// what follows them (the derived checks) is not counted.
 	var bar *Bar
@@ -682,7 +687,7 @@ func auditVerifyRun(opts *auditVerifyOptions) error {
 	}
 	if opts.format != FormatJSON {
 		aerr := renderAudit(ios, opts.format, rep)
-		_, _, everr := verifyEvidence(opts.ctx, opts.f, r, opts.against, opts.publicKey, since)
+		_, _, everr := verifyEvidence(opts.ctx, opts.f, r, opts.against, opts.publicKey, since, sinceResult)
 		if aerr != nil {
 			return aerr
 		}
@@ -690,7 +695,7 @@ func auditVerifyRun(opts *auditVerifyOptions) error {
 	}
 	// One JSON document: the chains, what was derived again, the
 	// evidence, the statement; the summary lines on stderr as in a table.
-	ev, stmt, everr := verifyEvidence(opts.ctx, opts.f, r, opts.against, opts.publicKey, since)
+	ev, stmt, everr := verifyEvidence(opts.ctx, opts.f, r, opts.against, opts.publicKey, since, sinceResult)
 	if since != nil {
 		stmt = sinceCheck
 	}

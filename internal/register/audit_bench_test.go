@@ -234,3 +234,89 @@ func peakMB(b *testing.B) float64 {
 	b.Fatal("no VmHWM in /proc/self/status")
 	return 0
 }
+
+// BenchmarkAuditSincePublication is the incremental audit after a
+// publication: a loop of CAIRN_BENCH_AUDIT_PUB_MARKS setups (default
+// 50,000), a new mark at each, recorded, its first mark given an outside
+// height, adjusted holding it, a statement made, and
+// then the adjustment published (the marks' versions, written after the
+// statement). since-all is all of audit verify --since after reading the
+// statement, as the command does it (the evidence read while the chains
+// are), the adjustment computed again from its stored inputs among the
+// rest; derive-schema the derivation and the schema alone; evidence and
+// chains the others alone.
+func BenchmarkAuditSincePublication(b *testing.B) {
+	marks := envInt(b, "CAIRN_BENCH_AUDIT_PUB_MARKS", 50000)
+	fx := registertest.Setup(b)
+	fx.Datum(b, registertest.DatumOpts{})
+	loop := booktest.Loop{Setups: marks, MarkEvery: 1, Seed: 1}
+	rec := fx.Run(b, registertest.RunOpts{Path: "large.csv", Book: loop.Book(), By: "bench", NewMarks: true})
+	fx.Height(b, registertest.HeightOpts{Designation: "TC-1001", Value: "100.000", Unit: "m", Source: "invented", Reason: "bench", By: "bench"})
+	// Proportional, the register's default: a least-squares solution of
+	// one loop has one redundancy, and its chi-square test refuses the
+	// generated readings' near-zero misclosure.
+	v := fx.Adjustment(b, registertest.AdjustmentOpts{Runs: []int64{rec.Run.ID}, Hold: []string{"TC-1001"}, By: "bench"})
+	stmt, _, err := fx.Reg.MakeStatement(fx.Ctx, "bench", nil)
+	if err != nil {
+		b.Fatal(err)
+	}
+	fx.Publication(b, v.Adjustment.ID, registertest.PublicationOpts{Reason: "bench", By: "bench"})
+	xid, err := fx.Reg.StatementXid(fx.Ctx, stmt)
+	if err != nil {
+		b.Fatal(err)
+	}
+	published := marks - 1
+	fx.Reg.UseSchemaCache(auditcache.Dir{Path: cacheDir})
+	if _, err := fx.Reg.AuditVerifySince(fx.Ctx, xid, nil); err != nil { // the cache filled
+		b.Fatal(err)
+	}
+	b.Run("since-all", func(b *testing.B) {
+		for b.Loop() {
+			register.ForgetFreshSchemas()
+			xid, err := fx.Reg.StatementXid(fx.Ctx, stmt)
+			if err != nil {
+				b.Fatal(err)
+			}
+			type evidence struct {
+				rep register.EvidenceReport
+				err error
+			}
+			evc := make(chan evidence, 1)
+			go func() {
+				ev, err := fx.Reg.EvidenceVerifySince(fx.Ctx, stmt)
+				evc <- evidence{ev, err}
+			}()
+			rep, err := fx.Reg.AuditVerifySince(fx.Ctx, xid, nil)
+			ev := <-evc
+			if ev.err != nil || len(ev.rep.Breaks) != 0 || ev.rep.Commits != 1 {
+				b.Fatalf("evidence since: %v, %d commits, %+v", ev.err, ev.rep.Commits, ev.rep.Breaks)
+			}
+			if err != nil || rep.Count() != 0 || rep.Versions != published || rep.Adjustments != 1 || rep.SchemaFrom != register.SchemaFromCache {
+				b.Fatalf("audit since: %v, %d versions (want %d), %d adjustments, schema from %q, %+v %+v", err, rep.Versions, published, rep.Adjustments, rep.SchemaFrom, rep.Breaks, rep.Findings)
+			}
+		}
+	})
+	b.Run("derive-schema", func(b *testing.B) {
+		for b.Loop() {
+			register.ForgetFreshSchemas()
+			rep, err := fx.Reg.AuditDeriveSince(fx.Ctx, xid)
+			if err != nil || rep.Count() != 0 || rep.Adjustments != 1 {
+				b.Fatalf("derive since: %v, %d adjustments, %+v", err, rep.Adjustments, rep.Findings)
+			}
+		}
+	})
+	b.Run("evidence", func(b *testing.B) {
+		for b.Loop() {
+			if ev, err := fx.Reg.EvidenceVerifySince(fx.Ctx, stmt); err != nil || len(ev.Breaks) != 0 {
+				b.Fatalf("evidence since: %v, %+v", err, ev.Breaks)
+			}
+		}
+	})
+	b.Run("chains", func(b *testing.B) {
+		for b.Loop() {
+			if rep, err := fx.Reg.AuditChainsSince(fx.Ctx, &xid); err != nil || len(rep.Breaks) != 0 || rep.Versions != published {
+				b.Fatalf("chains since: %v, %d versions, %+v", err, rep.Versions, rep.Breaks)
+			}
+		}
+	})
+}

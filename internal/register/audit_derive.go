@@ -74,6 +74,9 @@ func (r *Register) auditDerive(ctx context.Context, rep *AuditReport, since *uin
 		rep.Findings = []Finding{}
 	}
 	err := r.withTx(ctx, readTx, func(tx pgx.Tx) error {
+		if err := store.AuditSession(ctx, tx); err != nil {
+			return err
+		}
 		if err := auditBooks(ctx, tx, rep, since); err != nil {
 			return err
 		}
@@ -321,8 +324,8 @@ func (r *Register) auditAdjustments(ctx context.Context, tx pgx.Tx, rep *AuditRe
 			return fmt.Errorf("read the versions of adjustment %d: %w", a.ID, err)
 		}
 		for _, h := range hs {
-			hw := fmt.Sprintf("height of %s on %s, version %d (id %d)", h.Designation, h.DatumCode, h.Version, h.ID)
 			hadd := func(format string, args ...any) {
+				hw := fmt.Sprintf("height of %s on %s, version %d (id %d)", h.Designation, h.Datum, h.Version, h.ID)
 				rep.Findings = append(rep.Findings, Finding{Kind: "height", Where: hw, Since: "after " + utc(h.RecordedAt) + " (version written)",
 					What: fmt.Sprintf(format, args...)})
 			}
@@ -339,8 +342,8 @@ func (r *Register) auditAdjustments(ctx context.Context, tx pgx.Tx, rep *AuditRe
 			case got != want:
 				hadd("is %s, but adjustment %d produced %s", got, a.ID, want)
 			}
-			if h.DatumCode != a.DatumCode {
-				hadd("is on datum %s, but adjustment %d is on %s", h.DatumCode, a.ID, a.DatumCode)
+			if h.Datum != a.DatumCode {
+				hadd("is on datum %s, but adjustment %d is on %s", h.Datum, a.ID, a.DatumCode)
 			}
 		}
 		for _, res := range v.Results {

@@ -16,9 +16,11 @@ import (
 	"sort"
 	"strconv"
 	"strings"
+	"sync/atomic"
 	"time"
 
 	"github.com/jackc/pgx/v5"
+	"golang.org/x/sync/errgroup"
 
 	"cairn/internal/store"
 )
@@ -162,6 +164,8 @@ func (r *Register) evidenceVerify(ctx context.Context, since, against *Statement
 	if err := store.EvidenceSession(ctx, tx); err != nil {
 		return rep, err
 	}
+	peer := &evidencePeer{r: r, lead: tx}
+	defer peer.close(ctx)
 	var (
 		storedPrev []byte // the stored hash of the previous commit
 		recPrev    []byte // the recomputed hash of the previous commit
@@ -234,23 +238,15 @@ func (r *Register) evidenceVerify(ctx context.Context, since, against *Statement
 					stored[t] = rest
 				}
 			}
-			sums := map[string]*tableSum{}
-			var order []string
-			err := store.EvidenceRows(ctx, tx, c.Xid, c.Seq == 0 && c.Xid == 0, func(table string, text []byte) error {
-				if text == nil {
-					return nil
-				}
-				s := sums[table]
-				if s == nil {
-					s = newTableSum(manifestPiece(stored[table]))
-					sums[table] = s
-					order = append(order, table)
-				}
-				s.add(text)
-				return nil
-			})
+			sums, err := peer.commitSums(ctx, c, stored)
 			if err != nil {
 				return rep, err
+			}
+			var order []string
+			for _, t := range store.EvidenceTables {
+				if sums[t.Name] != nil {
+					order = append(order, t.Name)
+				}
 			}
 			var man strings.Builder
 			got := map[string]string{}
@@ -327,6 +323,128 @@ func (r *Register) evidenceVerify(ctx context.Context, since, against *Statement
 		rep.Breaks = append(rep.Breaks, b)
 	}
 	return rep, nil
+}
+
+// evidenceSplitRows is the fewest rows a commit's stored manifest names
+// for its tables to be read on two transactions at once (the tables
+// shared out between them by their stored counts): below it, the second
+// transaction's round trips cost more than it gains.
+var evidenceSplitRows int64 = 20000
+
+// evidenceSplits counts the commits read on two transactions (for tests).
+var evidenceSplits atomic.Int64
+
+// evidencePeer reads a large commit's tables on two transactions at once:
+// the audit's own (lead) and a second one on the lead's snapshot, begun
+// the first time a commit is large enough (evidenceSplitRows) and the
+// machine has more than one CPU.
+type evidencePeer struct {
+	r    *Register
+	lead pgx.Tx
+	tx   pgx.Tx
+}
+
+// second returns the second transaction, begun on the lead's snapshot.
+func (p *evidencePeer) second(ctx context.Context) (pgx.Tx, error) {
+	if p.tx != nil {
+		return p.tx, nil
+	}
+	snap, err := store.SnapshotExport(ctx, p.lead)
+	if err != nil {
+		return nil, fmt.Errorf("share the audit's snapshot: %w", err)
+	}
+	tx, err := p.r.pool.BeginTx(ctx, pgx.TxOptions{IsoLevel: pgx.RepeatableRead, AccessMode: pgx.ReadOnly})
+	if err != nil {
+		return nil, fmt.Errorf("begin the audit's second transaction: %w", err)
+	}
+	if err := store.SnapshotUse(ctx, tx, snap); err != nil {
+		tx.Rollback(ctx)
+		return nil, fmt.Errorf("share the audit's snapshot: %w", err)
+	}
+	if err := store.EvidenceSession(ctx, tx); err != nil {
+		tx.Rollback(ctx)
+		return nil, err
+	}
+	p.tx = tx
+	return tx, nil
+}
+
+func (p *evidencePeer) close(ctx context.Context) {
+	if p.tx != nil {
+		p.tx.Rollback(context.WithoutCancel(ctx))
+	}
+}
+
+// commitSums hashes the rows commit c wrote, table by table, each in the
+// form its stored line names (stored, by table): a line rewritten to
+// another form breaks the digest. Every table of the evidence is read,
+// whether its line names rows or not (rows added since are found so);
+// each table's sum is its own, so the tables of a large commit are shared
+// out between the lead and the second transaction, read at once, the
+// larger tables first to the one with fewer rows so far.
+func (p *evidencePeer) commitSums(ctx context.Context, c store.EvidenceCommit, stored map[string]string) (map[string]*tableSum, error) {
+	genesis := c.Seq == 0 && c.Xid == 0
+	read := func(tx pgx.Tx, tables []store.EvidenceTable, sums map[string]*tableSum) error {
+		return store.EvidenceRowsOf(ctx, tx, tables, c.Xid, genesis, func(table string, text []byte) error {
+			if text == nil {
+				return nil
+			}
+			s := sums[table]
+			if s == nil {
+				s = newTableSum(manifestPiece(stored[table]))
+				sums[table] = s
+			}
+			s.add(text)
+			return nil
+		})
+	}
+	counts := make([]int64, len(store.EvidenceTables))
+	var total int64
+	for i, t := range store.EvidenceTables {
+		if f := strings.Fields(stored[t.Name]); len(f) > 0 {
+			counts[i], _ = strconv.ParseInt(f[0], 10, 64)
+			total += max(counts[i], 0)
+		}
+	}
+	sums := map[string]*tableSum{}
+	if total < evidenceSplitRows || auditWorkers() < 2 {
+		return sums, read(p.lead, store.EvidenceTables, sums)
+	}
+	second, err := p.second(ctx)
+	if err != nil {
+		return nil, err
+	}
+	evidenceSplits.Add(1)
+	byRows := make([]int, len(counts))
+	for i := range byRows {
+		byRows[i] = i
+	}
+	sort.SliceStable(byRows, func(a, b int) bool { return counts[byRows[a]] > counts[byRows[b]] })
+	var load [2]int64
+	part := make([]int, len(counts))
+	for _, i := range byRows {
+		k := 0
+		if load[1] < load[0] {
+			k = 1
+		}
+		part[i] = k
+		load[k] += counts[i]
+	}
+	var tables [2][]store.EvidenceTable
+	for i, t := range store.EvidenceTables {
+		tables[part[i]] = append(tables[part[i]], t)
+	}
+	other := map[string]*tableSum{}
+	g, _ := errgroup.WithContext(ctx)
+	g.Go(func() error { return read(second, tables[1], other) })
+	err = read(p.lead, tables[0], sums)
+	if werr := g.Wait(); err == nil {
+		err = werr
+	}
+	for t, s := range other {
+		sums[t] = s
+	}
+	return sums, err
 }
 
 // Statement is a small, signed account of the register's state: what an

@@ -246,3 +246,73 @@ func TestEvidenceManifestInPieces(t *testing.T) {
 		t.Errorf("a sighting of the second piece edited: breaks %+v, want one, of sighting", rep.Breaks)
 	}
 }
+
+// A large commit's tables are read on two transactions at once, on one
+// snapshot (evidencePeer); the split is lowered here to one row, so that
+// every commit of the fixture is shared out. The chain recomputed so ends
+// at the head recomputed on one transaction, and a row edited behind the
+// register's back in every table the fixture writes (its recorded_role,
+// by the superuser with the triggers off) is reported for each, naming
+// the table and the commit that wrote it, whichever transaction read it.
+func TestEvidenceCommitReadOnTwoTransactions(t *testing.T) {
+	b := evidenceFixture(t)
+	ctx, pool := b.Ctx, b.DB.Pool
+	one, err := b.Reg.EvidenceVerify(ctx, nil)
+	if err != nil || len(one.Breaks) != 0 {
+		t.Fatalf("untouched register, one transaction: %v %+v", err, one.Breaks)
+	}
+	done := register.SetEvidenceSplit(1)
+	two, err := b.Reg.EvidenceVerify(ctx, nil)
+	if split := done(); split < 2 {
+		t.Fatalf("%d commit(s) read on two transactions, want every commit of the fixture's", split)
+	}
+	if err != nil || len(two.Breaks) != 0 || two.Head != one.Head || two.Commits != one.Commits {
+		t.Fatalf("untouched register, two transactions: %v, head %s (one: %s), %d commits (one: %d), %+v", err, two.Head, one.Head, two.Commits, one.Commits, two.Breaks)
+	}
+	for tbl, n := range one.Rows {
+		if two.Rows[tbl] != n {
+			t.Errorf("%s: %d rows on two transactions, %d on one", tbl, two.Rows[tbl], n)
+		}
+	}
+	want := map[string]int64{} // table: the commit of the row edited
+	tx, err := pool.Begin(ctx)
+	if err != nil {
+		t.Fatal(err)
+	}
+	defer tx.Rollback(ctx)
+	if _, err := tx.Exec(ctx, "SET LOCAL session_replication_role = replica"); err != nil {
+		t.Fatal(err)
+	}
+	for _, e := range store.EvidenceTables {
+		var seq int64
+		err := tx.QueryRow(ctx, "SELECT c.seq FROM register_commit c JOIN "+e.Name+" r ON r.created_xid = c.xid ORDER BY r.ctid LIMIT 1").Scan(&seq)
+		if err != nil {
+			continue // no row of this table in the fixture
+		}
+		if tag, err := tx.Exec(ctx, "UPDATE "+e.Name+" SET recorded_role = 'someone' WHERE ctid = (SELECT ctid FROM "+e.Name+" ORDER BY ctid LIMIT 1)"); err != nil || tag.RowsAffected() != 1 {
+			t.Fatalf("edit a row of %s: %v %v", e.Name, tag, err)
+		}
+		want[e.Name] = seq
+	}
+	if err := tx.Commit(ctx); err != nil {
+		t.Fatal(err)
+	}
+	if len(want) < 10 {
+		t.Fatalf("rows edited in %d tables only: %v", len(want), want)
+	}
+	done = register.SetEvidenceSplit(1)
+	rep, err := b.Reg.EvidenceVerify(ctx, nil)
+	done()
+	if err != nil {
+		t.Fatal(err)
+	}
+	for tbl, seq := range want {
+		found := false
+		for _, br := range rep.Breaks {
+			found = found || (br.Table == tbl && br.Seq == seq)
+		}
+		if !found {
+			t.Errorf("the edited row of %s (commit %d) is not reported: %+v", tbl, seq, rep.Breaks)
+		}
+	}
+}

@@ -28,6 +28,19 @@ func SetAuditSplit(workers int, span int64) func() {
 	return func() { auditWorkers, auditSpanPerWorker = w, sp }
 }
 
+// SetEvidenceSplit makes the evidence read a commit of at least rows rows
+// on two transactions (as on a machine of two CPUs or more), and returns
+// the function that puts the defaults back and the number of commits so
+// read meanwhile. Not for parallel tests.
+func SetEvidenceSplit(rows int64) func() int64 {
+	r, w, n := evidenceSplitRows, auditWorkers, evidenceSplits.Load()
+	evidenceSplitRows, auditWorkers = rows, func() int { return max(w(), 2) }
+	return func() int64 {
+		evidenceSplitRows, auditWorkers = r, w
+		return evidenceSplits.Load() - n
+	}
+}
+
 // AuditChains is the part of AuditVerify that recomputes the hash chains.
 func (r *Register) AuditChains(ctx context.Context) (AuditReport, error) {
 	rep := AuditReport{Breaks: []Break{}}

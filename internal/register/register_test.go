@@ -320,6 +320,58 @@ func TestCanonicalMatchesDatabase(t *testing.T) {
 	}
 }
 
+// The chains are read a chunk of mark ids at a time, the designations of
+// each chunk's marks first and matched to its versions as both stream in
+// mark order (store.HeightChainRows). With chunks of 4 mark ids over 30
+// marks (ids not all taken: a mark of the middle removed behind the
+// register's back) the audit finds what it finds in one chunk: every
+// other version's hash verifies against what the database wrote
+// (height_canonical, migrations/00001: so every designation was matched
+// to its own versions), the edit of TC-0521's second version is reported
+// once, and the versions of the removed mark are reported as having no
+// mark, not skipped. Not parallel: it sets the package's chunk.
+func TestAuditChainsInChunks(t *testing.T) {
+	b := registertest.Setup(t)
+	b.Datum(t, registertest.DatumOpts{})
+	var names []string
+	for i := range 30 {
+		names = append(names, fmt.Sprintf("TC-%04d", 500+i))
+	}
+	b.Marks(t, names...)
+	for _, n := range names {
+		b.Height(t, registertest.HeightOpts{Designation: n, Value: "10.000"})
+		b.Height(t, registertest.HeightOpts{Designation: n, Value: "10.004"})
+	}
+	if _, err := b.DB.Pool.Exec(b.Ctx, `BEGIN; SET LOCAL session_replication_role = replica;
+		UPDATE height SET reason = 'edited' WHERE mark_id = (SELECT id FROM mark WHERE designation = 'TC-0521') AND version = 2;
+		DELETE FROM mark WHERE designation = 'TC-0513'; COMMIT`); err != nil {
+		t.Fatal(err)
+	}
+	defer func(was int64) { store.ChainChunk = was }(store.ChainChunk)
+	for _, chunk := range []int64{4, 1000} {
+		store.ChainChunk = chunk
+		rep, err := b.Reg.AuditVerify(b.Ctx)
+		if err != nil {
+			t.Fatal(err)
+		}
+		var edited, orphans int
+		for _, br := range rep.Breaks {
+			switch {
+			case br.Designation == "TC-0521" && br.Version == 2 && strings.HasPrefix(br.Problem, "hash does not match"):
+				edited++
+			case br.Designation == "" && strings.Contains(br.Problem, "is not in the mark table"):
+				orphans++
+			default:
+				t.Errorf("chunks of %d: unexpected break %+v", chunk, br)
+			}
+		}
+		if rep.Chains != 30 || rep.Versions != 60 || edited != 1 || orphans != 2 {
+			t.Errorf("chunks of %d: %d chains, %d versions, %d edits and %d versions without a mark found; want 30, 60, 1 and 2: %+v",
+				chunk, rep.Chains, rep.Versions, edited, orphans, rep.Breaks)
+		}
+	}
+}
+
 // The audit divided among worker transactions (here 4, a worker for
 // every 7 mark ids) finds what one transaction finds: the same chains
 // and versions, and a hash edited behind the register's back in the

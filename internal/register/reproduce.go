@@ -4,6 +4,7 @@ import (
 	"context"
 	"errors"
 	"fmt"
+	"strconv"
 	"strings"
 
 	"cairn/internal/adjust"
@@ -114,14 +115,44 @@ func reproduce(ctx context.Context, db store.DBTX, v *AdjustmentView) error {
 // shownResult is a result as it would be published, in one text, the
 // value normalised to its decimals so that equal values compare equal.
 func shownResult(value, unit string, decimals int, class string) string {
-	if r, err := units.ParseRat(value); err == nil {
-		value = r.FloatString(decimals)
+	if !plainDecimal(value, decimals) {
+		if r, err := units.ParseRat(value); err == nil {
+			value = r.FloatString(decimals)
+		}
 	}
-	s := fmt.Sprintf("%s %s, %d decimals", value, unit, decimals)
+	s := value + " " + unit + ", " + strconv.Itoa(decimals) + " decimals"
 	if class != "" {
 		s += ", class " + class
 	}
 	return s
+}
+
+// plainDecimal says whether value is already what FloatString(decimals)
+// of its rational gives: an optional minus sign, a whole part without
+// leading zeros, and exactly decimals digits after the point (none and no
+// point for 0 decimals), not a negative zero. The audit compares every
+// published value so, and nearly all are written so already; the others
+// go through math/big.
+func plainDecimal(value string, decimals int) bool {
+	s := value
+	neg := strings.HasPrefix(s, "-")
+	if neg {
+		s = s[1:]
+	}
+	whole, frac, dot := strings.Cut(s, ".")
+	if dot != (decimals > 0) || len(frac) != decimals || whole == "" || len(whole) > 1 && whole[0] == '0' {
+		return false
+	}
+	nonzero := false
+	for _, part := range [2]string{whole, frac} {
+		for i := 0; i < len(part); i++ {
+			if part[i] < '0' || part[i] > '9' {
+				return false
+			}
+			nonzero = nonzero || part[i] != '0'
+		}
+	}
+	return nonzero || !neg
 }
 
 // storedInput rebuilds the input of draft v from what the register keeps

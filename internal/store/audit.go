@@ -17,6 +17,22 @@ import (
 // The queries of the audit that derives the register again
 // (register/audit_derive.go, register/audit_schema.go).
 
+// AuditSession prepares transaction tx for the audit's reads: no JIT
+// compilation for the rest of it. The audit's queries read many rows once
+// each; JIT pays off only for long computation per row, and its compile
+// (hundreds of milliseconds to seconds a query on two cores, once per
+// parallel worker) is decided by the planner's estimates, which are
+// largest exactly where they are least reliable: a table written since
+// its last ANALYZE, so a large commit just made, which an incremental
+// audit reads first. Measured in docs/performance.md ("audit verify at
+// the floor").
+func AuditSession(ctx context.Context, tx pgx.Tx) error {
+	if _, err := tx.Exec(ctx, "SET LOCAL jit = off"); err != nil {
+		return fmt.Errorf("prepare the audit's session: %w", translate(err))
+	}
+	return nil
+}
+
 // AuditRunIDs returns the identifier of every run, in order: the audit
 // reads them one at a time, so a large register is never held whole.
 // With after not nil, only the runs recorded by transactions after that
@@ -85,18 +101,41 @@ const auditHeightColumns = "SELECT " + heightColumns + `,
 	coalesce((SELECT coalesce(e.status, 'draft') FROM adjustment a LEFT JOIN adjustment_event e ON e.adjustment_id = a.id
 		WHERE a.id = h.adjustment_id), '')` + heightFrom
 
+// AuditCitingHeight is what the audit compares of a version citing an
+// adjustment with the adjustment's result.
+type AuditCitingHeight struct {
+	ID                 int64
+	Designation, Datum string
+	Version            int
+	SourceKind, Class  string
+	Value, Unit        *string
+	Decimals           *int
+	RecordedAt         time.Time
+}
+
 // AuditHeightsOfAdjustment returns the versions that cite adjustment id,
-// by mark.
-func AuditHeightsOfAdjustment(ctx context.Context, db DBTX, id int64) ([]AuditHeight, error) {
-	rows, err := db.Query(ctx, auditHeightColumns+" WHERE h.adjustment_id = $1 ORDER BY m.designation, h.id", id)
+// by mark, with the fields the audit compares only (not whether each is
+// current, nor its commit: a probe of the chain and a join per version,
+// most of the query's time for a large publication).
+func AuditHeightsOfAdjustment(ctx context.Context, db DBTX, id int64) ([]AuditCitingHeight, error) {
+	rows, err := db.Query(ctx, `SELECT h.id, m.designation, d.code, h.version, h.source_kind, h.class,
+		h.value::text, h.unit, h.decimals, h.recorded_at
+		FROM height h JOIN mark m ON m.id = h.mark_id JOIN datum d ON d.id = h.datum_id
+		WHERE h.adjustment_id = $1 ORDER BY m.designation, h.id`, id)
 	if err != nil {
 		return nil, translate(err)
 	}
-	return collect(rows, func(r pgx.Row) (AuditHeight, error) {
-		var ah AuditHeight
-		var err error
-		ah.Height, err = scanHeight(extraScan{row: r, extra: []any{&ah.AdjustmentStatus}})
-		return ah, err
+	return collect(rows, func(r pgx.Row) (AuditCitingHeight, error) {
+		var h AuditCitingHeight
+		var dec *int16
+		if err := r.Scan(&h.ID, &h.Designation, &h.Datum, &h.Version, &h.SourceKind, &h.Class, &h.Value, &h.Unit, &dec, &h.RecordedAt); err != nil {
+			return h, translate(err)
+		}
+		if dec != nil {
+			d := int(*dec)
+			h.Decimals = &d
+		}
+		return h, nil
 	})
 }
 
@@ -283,16 +322,17 @@ func WithScratchRegister(ctx context.Context, pool *pgxpool.Pool, fn func(DBTX) 
 }
 
 // SchemaServerKey names what a freshly migrated database's schema depends
-// on besides the migrations: the server (address and version) and the
-// register's roles present on it (RoleReader, RoleRecorder,
-// RolePublisher: the migrations grant to those and no other), so that a
-// fingerprint of a scratch database can be reused for the same key. Other
-// roles, such as the logins that are members of the register's roles,
-// come and go without changing the schema, and do not change the key.
+// on besides the migrations: the server (address and version) and which
+// of the register's roles (RoleReader, RoleRecorder, RolePublisher, which
+// the migrations grant to) are present on it, so that a fingerprint of a
+// scratch database can be reused for the same key within one process.
+// Other roles, the logins of the office's people among them, whatever
+// their names, are not part of it: a login made or dropped (cairn_… or
+// not) changes nothing a fresh migration makes.
 func SchemaServerKey(ctx context.Context, pool *pgxpool.Pool) (string, error) {
 	var k string
 	err := pool.QueryRow(ctx, `SELECT current_setting('server_version_num') || ' ' ||
-		coalesce((SELECT string_agg(rolname, ',' ORDER BY rolname) FROM pg_roles WHERE rolname = ANY($1)), '')`,
+		coalesce((SELECT string_agg(rolname, ',' ORDER BY rolname) FROM pg_roles WHERE rolname = ANY($1::text[])), '')`,
 		[]string{RoleReader, RoleRecorder, RolePublisher}).Scan(&k)
 	if err != nil {
 		return "", translate(err)

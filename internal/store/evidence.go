@@ -57,6 +57,7 @@ func EvidenceSession(ctx context.Context, tx pgx.Tx) error {
 		"SET LOCAL TimeZone = 'UTC'",
 		"SET LOCAL extra_float_digits = 1",
 		"SET LOCAL bytea_output = 'hex'",
+		"SET LOCAL jit = off", // as AuditSession: nothing of the text, only its cost
 	} {
 		if _, err := tx.Exec(ctx, s); err != nil {
 			return fmt.Errorf("prepare the audit's session: %w", translate(err))
@@ -128,8 +129,16 @@ func evidenceRowText(table string) string {
 // evidenceLateColumns), by plain SELECTs (no function of the
 // register's own). One round trip for all the tables.
 func EvidenceRows(ctx context.Context, tx pgx.Tx, xid uint64, genesis bool, fn func(table string, text []byte) error) error {
+	return EvidenceRowsOf(ctx, tx, EvidenceTables, xid, genesis, fn)
+}
+
+// EvidenceRowsOf is EvidenceRows of the given tables only (of
+// EvidenceTables), in the order given: one part of a large commit's
+// tables, the rest read at the same time on another transaction that
+// shares tx's snapshot.
+func EvidenceRowsOf(ctx context.Context, tx pgx.Tx, tables []EvidenceTable, xid uint64, genesis bool, fn func(table string, text []byte) error) error {
 	b := &pgx.Batch{}
-	for _, t := range EvidenceTables {
+	for _, t := range tables {
 		if genesis {
 			b.Queue(fmt.Sprintf(`SELECT %s::text FROM public.%s r WHERE created_xid IS NULL ORDER BY %s`, evidenceRowText(t.Name), t.Name, t.Key))
 		} else {
@@ -138,7 +147,7 @@ func EvidenceRows(ctx context.Context, tx pgx.Tx, xid uint64, genesis bool, fn f
 		}
 	}
 	br := tx.SendBatch(ctx, b)
-	for _, t := range EvidenceTables {
+	for _, t := range tables {
 		rows, err := br.Query()
 		if err != nil {
 			br.Close()

@@ -8,4 +8,6 @@ var (
 	NearestSQL    = nearestSQL
 	HeightColumns = heightColumns
 	HeightFrom    = heightFrom
+	// ChainVersionsSQL is HeightChainRows' query of a chunk's whole chains.
+	ChainVersionsSQL = chainVersions + chainOrder
 )

@@ -34,7 +34,7 @@ func TestDecodeChainRowAsPgx(t *testing.T) {
 	} {
 		force := at.Add(-time.Hour)
 		row := [][]byte{
-			enc(pgtype.Int8OID, int64(41)), enc(pgtype.Int8OID, int64(7)), enc(pgtype.TextOID, "TC-0412"), enc(pgtype.Int8OID, int64(2)),
+			enc(pgtype.Int8OID, int64(41)), enc(pgtype.Int8OID, int64(7)), enc(pgtype.Int8OID, int64(2)),
 			enc(pgtype.Int4OID, int32(3)), enc(pgtype.Int8OID, int64(40)), enc(pgtype.TextOID, "769.83"), enc(pgtype.TextOID, "usft"),
 			enc(pgtype.Int2OID, int16(2)), enc(pgtype.TextOID, ""), enc(pgtype.TextOID, "authority"), enc(pgtype.TextOID, "Tallis County book"),
 			nil, enc(pgtype.TextOID, "from the book ±°"), enc(pgtype.TextOID, "tester"),
@@ -45,13 +45,13 @@ func TestDecodeChainRowAsPgx(t *testing.T) {
 		if err := decodeChainRow(&r, row, map[int64]string{2: "NAVD88"}); err != nil {
 			t.Fatal(err)
 		}
-		if r.ID != 41 || r.MarkID != 7 || string(r.Designation) != "TC-0412" || r.DatumCode != "NAVD88" || r.Version != 3 ||
+		if r.ID != 41 || r.MarkID != 7 || r.DatumCode != "NAVD88" || r.Version != 3 ||
 			!r.HasSupersedes || r.Supersedes != 40 || string(r.Value) != "769.83" || string(r.Unit) != "usft" || !r.HasDecimals || r.Decimals != 2 ||
 			r.Class == nil || len(r.Class) != 0 || string(r.SourceKind) != "authority" || r.HasAdjustment || string(r.Reason) != "from the book ±°" ||
 			string(r.RecordedRole) != "cairn_recorder" || !r.RecordedAt.Equal(at) || !r.HasInForce || !r.InForceGiven.Equal(force) || string(r.Hash) != "\x01\x02\x03" {
 			t.Errorf("decoded %+v", r)
 		}
-		row[17], row[15], row[5] = nil, nil, nil
+		row[16], row[14], row[4] = nil, nil, nil
 		if err := decodeChainRow(&r, row, map[int64]string{2: "NAVD88"}); err != nil || r.HasInForce || r.RecordedRole != nil || r.HasSupersedes {
 			t.Errorf("nulls: %v, %+v", err, r)
 		}
