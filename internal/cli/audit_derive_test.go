@@ -5,11 +5,9 @@ import (
 	"encoding/json"
 	"fmt"
 	"path/filepath"
-	"regexp"
 	"strings"
 	"testing"
 
-	"github.com/jackc/pgx/v5"
 
 	"cairn/internal/backup"
 	"cairn/internal/demo"
@@ -262,13 +260,9 @@ func TestRestoreRefusesTamperedDump(t *testing.T) {
 	}
 	// The copy kept for inspection is a database of its own; the one
 	// named stays empty.
-	m := regexp.MustCompile(`database "(cairn_restore_[0-9a-f]+)" is kept as restored`).FindStringSubmatch(errOut)
-	if m == nil {
+	if dropKeptRestore(t, db, errOut) == "" {
 		t.Fatalf("restore's refusal names no database kept: %s", errOut)
 	}
-	t.Cleanup(func() {
-		db.Pool.Exec(context.Background(), "DROP DATABASE IF EXISTS "+pgx.Identifier{m[1]}.Sanitize()+" WITH (FORCE)")
-	})
 	if !strings.Contains(errOut, "is left empty") {
 		t.Errorf("restore's refusal does not say the target is left empty: %s", errOut)
 	}

@@ -39,6 +39,23 @@ func freshDatabase(t *testing.T, db *pgtest.DB) string {
 	return u
 }
 
+// dropKeptRestore drops, when the test ends, the database a refused
+// restore kept for inspection and named in errOut (none if it names none),
+// so that no test leaves a database on the server.
+func dropKeptRestore(t *testing.T, db *pgtest.DB, errOut string) string {
+	t.Helper()
+	m := regexp.MustCompile(`database "(cairn_restore_[0-9a-f]+)" is kept as restored`).FindStringSubmatch(errOut)
+	if m == nil {
+		return ""
+	}
+	t.Cleanup(func() {
+		if _, err := db.Pool.Exec(context.Background(), "DROP DATABASE IF EXISTS "+pgx.Identifier{m[1]}.Sanitize()+" WITH (FORCE)"); err != nil {
+			t.Errorf("drop %s: %v", m[1], err)
+		}
+	})
+	return m[1]
+}
+
 // chains returns every height version's mark, datum, version, hash and
 // time, and the row counts of every table, as one comparable text.
 func registerImage(t *testing.T, url string) string {
