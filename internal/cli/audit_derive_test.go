@@ -8,7 +8,6 @@ import (
 	"strings"
 	"testing"
 
-
 	"cairn/internal/backup"
 	"cairn/internal/demo"
 	"cairn/internal/pgtest"
