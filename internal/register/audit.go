@@ -277,7 +277,7 @@ func (r *Register) auditChains(ctx context.Context, rep *AuditReport, since *uin
 	}
 	defer lead.Rollback(ctx)
 	session := func(ctx context.Context, tx pgx.Tx) error {
-		if err := store.AuditSession(ctx, tx); err != nil {
+		if err := store.TxNoJIT(ctx, tx); err != nil {
 			return err
 		}
 		if since == nil {

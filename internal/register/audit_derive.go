@@ -74,7 +74,7 @@ func (r *Register) auditDerive(ctx context.Context, rep *AuditReport, since *uin
 		rep.Findings = []Finding{}
 	}
 	err := r.withTx(ctx, readTx, func(tx pgx.Tx) error {
-		if err := store.AuditSession(ctx, tx); err != nil {
+		if err := store.TxNoJIT(ctx, tx); err != nil {
 			return err
 		}
 		if err := auditBooks(ctx, tx, rep, since); err != nil {

@@ -257,7 +257,7 @@ func backendsCPU(b *testing.B, db string) time.Duration {
 // chains reads its rows: in its order, split by mark id among workers
 // transactions on one exported snapshot, in chunks of store.ChainChunk
 // mark ids, as binary rows left undecoded, in the audit's sessions
-// (AuditSession, ChainSession: the same plans).
+// (TxNoJIT, ChainSession: the same plans).
 func auditChainsFloor(fx *registertest.Bundle, workers int, queries []string) (int, error) {
 	ctx := fx.Ctx
 	lead, err := fx.DB.Pool.BeginTx(ctx, pgx.TxOptions{IsoLevel: pgx.RepeatableRead, AccessMode: pgx.ReadOnly})
@@ -270,7 +270,7 @@ func auditChainsFloor(fx *registertest.Bundle, workers int, queries []string) (i
 	if err := lead.QueryRow(ctx, "SELECT pg_export_snapshot(), coalesce(min(id), 0), coalesce(max(id), 0) FROM mark").Scan(&snap, &lo, &hi); err != nil {
 		return 0, err
 	}
-	if err := store.AuditSession(ctx, lead); err != nil {
+	if err := store.TxNoJIT(ctx, lead); err != nil {
 		return 0, err
 	}
 	if err := store.ChainSession(ctx, lead); err != nil {
@@ -291,7 +291,7 @@ func auditChainsFloor(fx *registertest.Bundle, workers int, queries []string) (i
 				if _, err := t.Exec(gctx, "SET TRANSACTION SNAPSHOT '"+snap+"'"); err != nil {
 					return err
 				}
-				if err := store.AuditSession(gctx, t); err != nil {
+				if err := store.TxNoJIT(gctx, t); err != nil {
 					return err
 				}
 				if err := store.ChainSession(gctx, t); err != nil {

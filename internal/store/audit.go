@@ -17,22 +17,6 @@ import (
 // The queries of the audit that derives the register again
 // (register/audit_derive.go, register/audit_schema.go).
 
-// AuditSession prepares transaction tx for the audit's reads: no JIT
-// compilation for the rest of it. The audit's queries read many rows once
-// each; JIT pays off only for long computation per row, and its compile
-// (hundreds of milliseconds to seconds a query on two cores, once per
-// parallel worker) is decided by the planner's estimates, which are
-// largest exactly where they are least reliable: a table written since
-// its last ANALYZE, so a large commit just made, which an incremental
-// audit reads first. Measured in docs/performance.md ("audit verify at
-// the floor").
-func AuditSession(ctx context.Context, tx pgx.Tx) error {
-	if _, err := tx.Exec(ctx, "SET LOCAL jit = off"); err != nil {
-		return fmt.Errorf("prepare the audit's session: %w", translate(err))
-	}
-	return nil
-}
-
 // AuditRunIDs returns the identifier of every run, in order: the audit
 // reads them one at a time, so a large register is never held whole.
 // With after not nil, only the runs recorded by transactions after that

@@ -63,8 +63,8 @@ func TestAuditSessionsRunWithoutJIT(t *testing.T) {
 	if !compiled(nil) {
 		t.Fatal("without the audit's session the query was not compiled: the test shows nothing")
 	}
-	if compiled(store.AuditSession) {
-		t.Error("AuditSession: the query was compiled")
+	if compiled(store.TxNoJIT) {
+		t.Error("TxNoJIT: the query was compiled")
 	}
 	if compiled(store.EvidenceSession) {
 		t.Error("EvidenceSession: the query was compiled")

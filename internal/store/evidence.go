@@ -57,7 +57,7 @@ func EvidenceSession(ctx context.Context, tx pgx.Tx) error {
 		"SET LOCAL TimeZone = 'UTC'",
 		"SET LOCAL extra_float_digits = 1",
 		"SET LOCAL bytea_output = 'hex'",
-		"SET LOCAL jit = off", // as AuditSession: nothing of the text, only its cost
+		"SET LOCAL jit = off", // as TxNoJIT: nothing of the text, only its cost
 	} {
 		if _, err := tx.Exec(ctx, s); err != nil {
 			return fmt.Errorf("prepare the audit's session: %w", translate(err))

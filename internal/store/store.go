@@ -94,12 +94,16 @@ func OpenWith(ctx context.Context, url string, o PoolOptions) (*pgxpool.Pool, er
 }
 
 // TxNoJIT turns the server's JIT compilation off for the rest of
-// transaction tx (SET LOCAL jit = off). A draft's and a publication's
-// statements read and write tens of thousands of rows by index, each
-// cheap; the planner's estimate of some (the latest versions of 50,000
-// marks with their in-force test) passes jit_above_cost, and compiling
-// them took about a second of a statement that ran in one and a half
-// without (docs/performance.md, issue 15).
+// transaction tx (SET LOCAL jit = off), as PoolOptions.NoJIT does for the
+// web's sessions. The register's statements read and write many rows by
+// index, each cheap: JIT pays off only for long computation per row, and
+// whether it compiles is decided by the planner's estimates, which are
+// largest where they are least reliable (a table written since its last
+// ANALYZE, as a large commit an incremental audit reads first). Compiling
+// took about a second of a draft's statement that ran in one and a half
+// without, and 1.5 s of an audit's query that returns no row, once per
+// parallel worker (docs/performance.md, issue 15). Drafts, publications
+// and the audit's transactions call it.
 func TxNoJIT(ctx context.Context, tx pgx.Tx) error {
 	_, err := tx.Exec(ctx, "SET LOCAL jit = off")
 	return translate(err)
