@@ -398,16 +398,7 @@ func markListSQL(p MarkListParams, ids []int64) (string, []any) {
 		args = append(args, ids)
 		from = strings.Replace(markFrom, " FROM mark m ", fmt.Sprintf(" FROM (SELECT DISTINCT unnest($%d::bigint[]) AS id) AS u JOIN mark m ON m.id = u.id ", len(args)), 1)
 	}
-	if len(p.Conditions) > 0 {
-		args = append(args, p.Conditions)
-		where = append(where, fmt.Sprintf("coalesce(c.condition, 'unknown') = ANY($%d)", len(args)))
-	}
-	if p.Name != "" {
-		args = append(args, p.Name)
-		// By the unique indexes on the folded forms of both.
-		where = append(where, fmt.Sprintf(`m.id IN (SELECT id FROM mark WHERE lower(normalize(designation, NFKC)) = $%d
-			UNION SELECT mark_id FROM mark_alias WHERE lower(normalize(alias, NFKC)) = $%d)`, len(args), len(args)))
-	}
+	where, args = markFilters(p, where, args)
 	q += from
 	if len(where) > 0 {
 		q += " WHERE " + strings.Join(where, " AND ")
@@ -431,6 +422,22 @@ func markListSQL(p MarkListParams, ids []int64) (string, []any) {
 		return q + ") near WHERE distance_m <= $3 ORDER BY distance_m, designation" + limit, args
 	}
 	return q + " ORDER BY m.designation" + limit, args
+}
+
+// markFilters appends to where and args the conditions of p.Conditions
+// (on the latest condition report, joined as c) and p.Name (on mark m).
+func markFilters(p MarkListParams, where []string, args []any) ([]string, []any) {
+	if len(p.Conditions) > 0 {
+		args = append(args, p.Conditions)
+		where = append(where, fmt.Sprintf("coalesce(c.condition, 'unknown') = ANY($%d)", len(args)))
+	}
+	if p.Name != "" {
+		args = append(args, p.Name)
+		// By the unique indexes on the folded forms of both.
+		where = append(where, fmt.Sprintf(`m.id IN (SELECT id FROM mark WHERE lower(normalize(designation, NFKC)) = $%d
+			UNION SELECT mark_id FROM mark_alias WHERE lower(normalize(alias, NFKC)) = $%d)`, len(args), len(args)))
+	}
+	return where, args
 }
 
 // MarkIDsWithin returns the ids of the marks whose current position is
@@ -585,17 +592,11 @@ func markListNearestOf(ctx context.Context, db DBTX, p MarkListParams, ids []int
 	cond := ""
 	where := []string{curLat + " IS NOT NULL"}
 	if len(p.Conditions) > 0 {
-		args = append(args, p.Conditions)
 		cond = ` LEFT JOIN LATERAL (
 			SELECT mc.condition FROM mark_condition mc WHERE mc.mark_id = m.id ORDER BY mc.observed_on DESC, mc.id DESC LIMIT 1
 		) c ON true`
-		where = append(where, fmt.Sprintf("coalesce(c.condition, 'unknown') = ANY($%d)", len(args)))
 	}
-	if p.Name != "" {
-		args = append(args, p.Name)
-		where = append(where, fmt.Sprintf(`m.id IN (SELECT id FROM mark WHERE lower(normalize(designation, NFKC)) = $%d
-			UNION SELECT mark_id FROM mark_alias WHERE lower(normalize(alias, NFKC)) = $%d)`, len(args), len(args)))
-	}
+	where, args = markFilters(p, where, args)
 	kept := `SELECT * FROM (SELECT m.id, m.designation, ` + haversineSQL + ` AS distance_m
 		FROM (SELECT DISTINCT unnest($4::bigint[]) AS id) AS u JOIN mark m ON m.id = u.id LEFT JOIN LATERAL (
 			SELECT mv.id, mv.lat, mv.lon FROM mark_version mv WHERE mv.mark_id = m.id ORDER BY mv.version DESC LIMIT 1
